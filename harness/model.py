@@ -1,0 +1,246 @@
+"""The immutable circuit model that both engines read.
+
+Everything here is a frozen dataclass holding SI base-unit floats; nothing in it computes circuit
+behaviour.  The reader (``circuitfile``) builds it, the shared checks (``topology``) inspect it,
+and the two engines (``closedform`` and ``simulate``) each derive their own equations from it.
+
+Reference directions follow the passive sign convention for every part: the part's voltage is
+v(p) - v(n) and its current flows from p through the part to n.  A current source's ``value`` is
+the current it drives from p through itself to n.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Mapping
+
+RESISTOR = "resistor"
+CAPACITOR = "capacitor"
+INDUCTOR = "inductor"
+VOLTAGE_SOURCE = "voltage-source"
+CURRENT_SOURCE = "current-source"
+SWITCH = "switch"
+VCVS = "vcvs"
+VCCS = "vccs"
+CCVS = "ccvs"
+CCCS = "cccs"
+
+KINDS = (RESISTOR, CAPACITOR, INDUCTOR, VOLTAGE_SOURCE, CURRENT_SOURCE, SWITCH, VCVS, VCCS, CCVS,
+         CCCS)
+SOURCES = (VOLTAGE_SOURCE, CURRENT_SOURCE)
+STORAGE = (CAPACITOR, INDUCTOR)
+VOLTAGE_CONTROLLED = (VCVS, VCCS)
+CURRENT_CONTROLLED = (CCVS, CCCS)
+#: parts whose current a ccvs/cccs may sense
+CURRENT_SENSORS = (VOLTAGE_SOURCE, SWITCH, INDUCTOR, RESISTOR)
+
+#: probe kinds
+NODE, BETWEEN, ACROSS, THROUGH = "node", "between", "across", "through"
+PROBE_KINDS = (NODE, BETWEEN, ACROSS, THROUGH)
+
+#: hand-value fields of an expectation, in report order
+FIELDS = ("before", "after", "final", "tau")
+
+
+@dataclass(frozen=True)
+class Part:
+    """One circuit element.
+
+    Attributes:
+        name: unique part name (``R1``).
+        kind: one of ``KINDS``.
+        nodes: (p, n) node names.
+        value: ohms (resistor), farads, henries, volts/amperes before the first step (sources),
+            gain (controlled sources: V/V, A/V, V/A, A/A); None for switches.
+        initial: capacitor voltage or inductor current at t = 0-, or None.
+        steps: (time s, new value) pairs in time order; for sources the new value in V or A, for
+            switches 1.0 (closed) or 0.0 (open).
+        closed: switch state before the first step (None for other kinds).
+        on_resistance, off_resistance: switch resistances in ohms; None means ideal (short/open).
+        control: (cp, cn) node names for vcvs/vccs; the sensed part's name for ccvs/cccs.
+        line: 1-based line of the part in its file where known.
+    """
+
+    name: str
+    kind: str
+    nodes: tuple[str, str]
+    value: float | None = None
+    initial: float | None = None
+    steps: tuple[tuple[float, float], ...] = ()
+    closed: bool | None = None
+    on_resistance: float | None = None
+    off_resistance: float | None = None
+    control: tuple[str, str] | str | None = None
+    line: int | None = None
+
+    @property
+    def p(self) -> str:
+        return self.nodes[0]
+
+    @property
+    def n(self) -> str:
+        return self.nodes[1]
+
+    def source_value(self, time: float) -> float:
+        """Source value in force just after ``time`` (steps at ``time`` included), in V or A."""
+        value = self.value if self.value is not None else 0.0
+        for when, new in self.steps:
+            if when <= time:
+                value = new
+        return value
+
+    def source_value_before(self, time: float) -> float:
+        """Source value in force just before ``time`` (steps at ``time`` excluded)."""
+        value = self.value if self.value is not None else 0.0
+        for when, new in self.steps:
+            if when < time:
+                value = new
+        return value
+
+    def is_closed(self, time: float) -> bool:
+        """Switch state just after ``time`` (steps at ``time`` included)."""
+        state = bool(self.closed)
+        for when, new in self.steps:
+            if when <= time:
+                state = bool(new)
+        return state
+
+    def is_closed_before(self, time: float) -> bool:
+        """Switch state just before ``time`` (steps at ``time`` excluded)."""
+        state = bool(self.closed)
+        for when, new in self.steps:
+            if when < time:
+                state = bool(new)
+        return state
+
+
+@dataclass(frozen=True)
+class Probe:
+    """What an expectation looks at.
+
+    ``node X`` is v(X) - v(ground); ``between a b`` is v(a) - v(b); ``across P`` is v(p) - v(n) of
+    part P; ``through P`` is the current of part P from p through it to n.
+    """
+
+    kind: str
+    targets: tuple[str, ...]
+
+    @property
+    def label(self) -> str:
+        """Canonical text: ``node rst``, ``between a b``, ``across C1``, ``through R1``."""
+        return f"{self.kind} {' '.join(self.targets)}"
+
+    @property
+    def dimension(self) -> str:
+        """``"A"`` for ``through`` probes, ``"V"`` otherwise."""
+        return "A" if self.kind == THROUGH else "V"
+
+
+@dataclass(frozen=True)
+class Crossing:
+    """Hand value for the first time the probe crosses ``level`` after the event."""
+
+    level: float
+    time: float | None = None
+    direction: str = "either"  # "rising", "falling" or "either"
+
+
+@dataclass(frozen=True)
+class Expectation:
+    """One hand calculation: one probe at one event.
+
+    Attributes:
+        index: 0-based position among the file's ``[[expect]]`` blocks.
+        probe: what is observed.
+        at: the event time in seconds (an element of ``Circuit.events``).
+        hand: field name -> hand value in SI units (only the fields given); fields from ``FIELDS``.
+        formulas: field name -> the formula text the value was evaluated from (``"= R1*C1"``).
+        tolerance: relative tolerance for hand vs computed, or None for the file's setting.
+        note: free text from the file, shown in reports.
+        line: 1-based line of the block where known.
+    """
+
+    index: int
+    probe: Probe
+    at: float = 0.0
+    hand: Mapping[str, float] = field(default_factory=dict)
+    formulas: Mapping[str, str] = field(default_factory=dict)
+    tolerance: float | None = None
+    note: str = ""
+    line: int | None = None
+
+    @property
+    def label(self) -> str:
+        return f"expect #{self.index + 1}"
+
+
+@dataclass(frozen=True)
+class Settings:
+    """File-wide settings.
+
+    Attributes:
+        tolerance: relative tolerance for hand vs computed values (fraction, 0.01 = 1 %).
+    """
+
+    tolerance: float = 0.01
+
+
+@dataclass(frozen=True)
+class Circuit:
+    """A parsed, validated circuit file.
+
+    Attributes:
+        title: the file's title.
+        ground: the reference node's name.
+        parts: parts in file order (names unique).
+        expectations: the ``[[expect]]`` blocks in file order.
+        settings: file-wide settings.
+        source: the path the circuit was read from (for messages), or ``"<memory>"``.
+    """
+
+    title: str
+    parts: tuple[Part, ...]
+    ground: str = "gnd"
+    expectations: tuple[Expectation, ...] = ()
+    settings: Settings = Settings()
+    source: str = "<memory>"
+
+    def part(self, name: str) -> Part:
+        """The part called ``name`` (KeyError if there is none)."""
+        for part in self.parts:
+            if part.name == name:
+                return part
+        raise KeyError(name)
+
+    @property
+    def nodes(self) -> tuple[str, ...]:
+        """All node names, ground first, then in order of first appearance."""
+        seen = {self.ground: None}
+        for part in self.parts:
+            for node in part.nodes:
+                seen.setdefault(node, None)
+            if part.kind in VOLTAGE_CONTROLLED and isinstance(part.control, tuple):
+                for node in part.control:
+                    seen.setdefault(node, None)
+        return tuple(seen)
+
+    @property
+    def events(self) -> tuple[float, ...]:
+        """Event times in seconds, sorted: 0 and every step time of every source and switch."""
+        times = {0.0}
+        for part in self.parts:
+            times.update(when for when, _ in part.steps)
+        return tuple(sorted(times))
+
+    def storage_parts(self) -> tuple[Part, ...]:
+        return tuple(p for p in self.parts if p.kind in STORAGE)
+
+    def largest_source(self) -> float:
+        """Largest magnitude any independent source or initial condition takes (V or A).
+
+        The scale for absolute tolerance floors; at least 1e-30 so it can divide.
+        """
+        mags = [abs(p.value or 0.0) for p in self.parts if p.kind in SOURCES]
+        mags += [abs(v) for p in self.parts if p.kind in SOURCES for _, v in p.steps]
+        mags += [abs(p.initial) for p in self.parts if p.initial is not None]
+        return max(mags + [1e-30])

@@ -1,0 +1,41 @@
+"""Named tolerances and the one comparison rule every check uses.
+
+Two values a and b agree when |a - b| <= max(relative * max(|a|, |b|), floor).  The floor is an
+absolute amount in the probe's own unit, taken as a fraction of the probe's scale (the largest
+magnitude the probe takes at any event, or the circuit's largest source where that is zero), so
+that 0 against 1e-15 passes.
+"""
+
+from __future__ import annotations
+
+import math
+
+#: hand value vs closed form, unless the file sets its own (DESIGN.md: 1 %)
+HAND_RELATIVE = 0.01
+#: absolute floor for hand vs closed form, as a fraction of the probe's scale
+HAND_FLOOR = 1e-6
+#: closed form vs numeric (DESIGN.md: 1e-4); a failure here blames the engines, not the hand
+ENGINE_RELATIVE = 1e-4
+#: absolute floor for closed form vs numeric, as a fraction of the probe's scale
+ENGINE_FLOOR = 1e-6
+#: whole-waveform comparison: largest deviation relative to the interval's swing
+WAVEFORM_RELATIVE = 1e-3
+#: a mode is visible in a probe when its amplitude exceeds this fraction of the probe's scale
+MODE_VISIBILITY = 1e-6
+#: two modes are the same mode when their rates agree to this relative amount
+MODE_MERGE = 1e-6
+
+
+def agree(a: float | None, b: float | None, relative: float, floor: float = 0.0) -> bool:
+    """True when a and b agree under the rule above; two Nones agree, one None does not."""
+    if a is None or b is None:
+        return a is None and b is None
+    if not (math.isfinite(a) and math.isfinite(b)):
+        return a == b
+    return abs(a - b) <= max(relative * max(abs(a), abs(b)), floor)
+
+
+def relative_error(a: float, b: float, floor: float = 0.0) -> float:
+    """|a - b| / max(|a|, |b|, floor); 0 when both are 0."""
+    denom = max(abs(a), abs(b), floor)
+    return 0.0 if denom == 0 else abs(a - b) / denom

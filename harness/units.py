@@ -1,0 +1,156 @@
+"""Quantities: text with SI prefixes, units and IEC 60062 value codes to floats, and back.
+
+Accepted forms (case-sensitive prefixes: ``m`` is milli, ``M`` mega):
+
+* TOML numbers: ``4700``, ``1e-6``;
+* a number, optional space, optional SI prefix, optional unit: ``3.3 V``, ``100k``, ``4.7 kΩ``,
+  ``1 uF``, ``10 µs``, ``2 mA``, ``5%``;
+* IEC 60062 resistance and capacitance codes, where the prefix letter stands for the decimal
+  point: ``4k7`` (4.7e3), ``2R2`` (2.2), ``R47`` (0.47), ``1n5`` (1.5e-9), ``1M0``.
+
+Units are named by a *dimension* so that a field can demand one: ``V``, ``A``, ``ohm``, ``F``,
+``H``, ``s``, ``S`` (siemens), ``1`` (dimensionless) and ``%``.  A number without a unit is taken
+in the field's own unit.  Hand parsing is deliberate: the IEC codes, bare prefixes such as
+``100k`` and the case rule are not what general units libraries read.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from decimal import Decimal
+
+from .errors import UnitError
+
+PREFIXES: dict[str, float] = {
+    "f": 1e-15, "p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "m": 1e-3,
+    "k": 1e3, "K": 1e3, "M": 1e6, "G": 1e9, "T": 1e12,
+}
+
+#: unit spelling -> dimension
+UNITS: dict[str, str] = {
+    "V": "V", "A": "A", "Ω": "ohm", "ohm": "ohm", "Ohm": "ohm", "ohms": "ohm", "R": "ohm",
+    "F": "F", "H": "H", "s": "s", "S": "S", "%": "%",
+    "V/V": "1", "A/A": "1", "A/V": "S", "V/A": "ohm",
+}
+
+DIMENSION_NAMES = {"V": "volts", "A": "amperes", "ohm": "ohms", "F": "farads", "H": "henries",
+                   "s": "seconds", "S": "siemens", "1": "a plain number", "%": "a percentage"}
+
+_NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
+_PLAIN = re.compile(rf"^\s*({_NUMBER})\s*(\S*)\s*$")
+_IEC = re.compile(r"^\s*([+-]?)(\d*)([RrKkMGTpnuµμmf])(\d+)\s*(\S*)\s*$")
+_IEC_SCALE = {"R": 1.0, "r": 1.0, "K": 1e3, "k": 1e3, "M": 1e6, "G": 1e9, "T": 1e12,
+              "p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "m": 1e-3, "f": 1e-15}
+
+
+def _split_suffix(suffix: str) -> tuple[float, str | None]:
+    """Split ``kΩ`` into (1e3, "ohm"); ``""`` into (1, None). Raises ValueError when unreadable."""
+    if suffix == "":
+        return 1.0, None
+    if suffix in UNITS:
+        return 1.0, UNITS[suffix]
+    if suffix[0] in PREFIXES:
+        rest = suffix[1:]
+        if rest == "":
+            return PREFIXES[suffix[0]], None
+        if rest in UNITS and UNITS[rest] != "%":
+            return PREFIXES[suffix[0]], UNITS[rest]
+    raise ValueError(suffix)
+
+
+def parse_quantity(raw: object, dimension: str, *, allow_percent: bool = False) -> float:
+    """Read a quantity for a field of the given dimension; return it in SI base units.
+
+    Args:
+        raw: a TOML value (int, float or str).
+        dimension: the field's dimension, one of the values of ``UNITS`` (``"V"``, ``"ohm"`` …).
+        allow_percent: accept ``%`` (the result is a fraction: ``"1%"`` -> 0.01).
+
+    Raises:
+        UnitError: the text is not a quantity, the unit does not fit, or the value is not finite.
+    """
+    if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
+        raise UnitError(f"expected a number or a quantity such as '4k7' or '3.3 V', "
+                        f"got {type(raw).__name__} {raw!r}")
+    if isinstance(raw, (int, float)):
+        value = float(raw)
+    else:
+        value = _parse_text(raw, dimension, allow_percent)
+    if not math.isfinite(value):
+        raise UnitError(f"value {raw!r} is not finite")
+    return value
+
+
+def _parse_text(text: str, dimension: str, allow_percent: bool) -> float:
+    if len(text) > 64:
+        raise UnitError(f"quantity text is too long ({len(text)} characters)")
+    m = _PLAIN.match(text)
+    if m:
+        try:
+            scale, dim = _split_suffix(m.group(2))
+        except ValueError:
+            scale, dim = None, None
+        if scale is not None:
+            return _apply(_scaled(m.group(1), scale), dim, dimension, allow_percent, text)
+    m = _IEC.match(text)
+    if m and (m.group(2) or m.group(3) in "Rr"):
+        sign, whole, letter, frac, unit = m.groups()
+        number = _scaled(f"{whole or '0'}.{frac}", _IEC_SCALE[letter])
+        if sign == "-":
+            number = -number
+        dim = None
+        if unit:
+            if unit not in UNITS or UNITS[unit] == "%":
+                raise UnitError(f"cannot read {text!r}: unknown unit {unit!r}")
+            dim = UNITS[unit]
+        return _apply(number, dim, dimension, allow_percent, text)
+    raise UnitError(f"cannot read {text!r} as a quantity (examples: '4k7', '3.3 V', '100 ms', '1 uF')")
+
+
+def _scaled(digits: str, scale: float) -> float:
+    """``digits`` times a power-of-ten ``scale``, rounded once (so ``10 µs`` is exactly 1e-05)."""
+    if not digits.lstrip("+-"):
+        raise UnitError("missing number")
+    exponent = round(math.log10(scale))
+    return float(Decimal(digits).scaleb(exponent))
+
+
+def _apply(number: float, dim: str | None, dimension: str, allow_percent: bool, text: str) -> float:
+    if dim is None:
+        return number
+    if dim == "%":
+        if not allow_percent:
+            raise UnitError(f"{text!r}: a percentage does not fit a field in "
+                            f"{DIMENSION_NAMES[dimension]}")
+        return number / 100.0
+    if dim != dimension:
+        raise UnitError(f"{text!r} is in {DIMENSION_NAMES[dim]}, but this field is in "
+                        f"{DIMENSION_NAMES[dimension]}")
+    return number
+
+
+_ENG = [(1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "µ"),
+        (1e-9, "n"), (1e-12, "p"), (1e-15, "f")]
+_SYMBOL = {"ohm": "Ω", "1": "", "V": "V", "A": "A", "F": "F", "H": "H", "s": "s", "S": "S",
+           "J": "J", "C": "C", "W": "W", "%": "%"}
+
+
+def format_si(value: float | None, unit: str = "", digits: int = 4) -> str:
+    """Format ``value`` (SI base units) with an engineering prefix: ``format_si(0.0047, "F")`` -> ``4.7 mF``.
+
+    ``unit`` is a dimension name or symbol (``"ohm"`` prints as Ω); ``None`` prints as ``—``.
+    """
+    if value is None:
+        return "—"
+    symbol = _SYMBOL.get(unit, unit)
+    if value == 0 or not math.isfinite(value):
+        return f"{value:g} {symbol}".rstrip()
+    mag = abs(value)
+    for scale, prefix in _ENG:
+        if mag >= scale * 0.9999995:
+            break
+    else:
+        scale, prefix = _ENG[-1]
+    text = f"{value / scale:.{digits}g}"
+    return f"{text} {prefix}{symbol}".rstrip()
