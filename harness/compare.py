@@ -1,0 +1,172 @@
+"""The three-way comparison: hand values against the closed form, the closed form against numerics.
+
+One rule (``tolerances.agree``) decides every comparison.  Hand vs closed form uses the
+expectation's tolerance (default 1 %); closed form vs numeric uses ``ENGINE_RELATIVE``.  When the
+engines disagree the field is ``engines-disagree`` and the hand value is not blamed; otherwise a
+hand value outside tolerance is a ``mismatch`` whose message comes from ``diagnose``.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from . import tolerances as tol
+from .diagnose import explain
+from .model import FIELDS, Circuit, Expectation, Probe, NODE, BETWEEN, ACROSS
+from .outcome import (ENGINES_DISAGREE, MISMATCH, PASS, CheckResult, FieldResult, FileResult,
+                      Trace, worst)
+from .results import Features, Solution
+
+#: plot and waveform-comparison grid size per check
+GRID_POINTS = 400
+
+
+def direction(probe: Probe, circuit: Circuit) -> str:
+    """The probe's reference direction in words (passive sign convention)."""
+    if probe.kind == NODE:
+        return f"v({probe.targets[0]}) − v({circuit.ground})"
+    if probe.kind == BETWEEN:
+        return f"v({probe.targets[0]}) − v({probe.targets[1]})"
+    part = circuit.part(probe.targets[0])
+    if probe.kind == ACROSS:
+        return f"v({part.p}) − v({part.n}), + at {part.p}"
+    return f"current from {part.p} through {part.name} to {part.n}"
+
+
+def event_index(circuit: Circuit, at: float) -> int:
+    """Index of the event at time ``at`` (the reader guarantees it is one)."""
+    events = np.asarray(circuit.events)
+    return int(np.argmin(np.abs(events - at)))
+
+
+def probe_scale(circuit: Circuit, exact: Solution, probe: Probe) -> float:
+    """Largest magnitude the probe takes at any event (before, after, final), for tolerance floors."""
+    values = []
+    for k in range(len(circuit.events)):
+        f = exact.features(probe, k)
+        values += [abs(v) for v in (f.before, f.after, f.final) if v is not None]
+    scale = max(values, default=0.0)
+    return scale if scale > 0 else circuit.largest_source()
+
+
+def _engine_ok(name: str, closed: float | None, numeric: float | None, floor: float) -> bool:
+    if name == "tau" and closed is None:
+        return True  # numeric τ is only compared where the closed form says first order
+    return tol.agree(closed, numeric, tol.ENGINE_RELATIVE, floor)
+
+
+def compare_field(name: str, exp: Expectation, fe: Features, fn: Features | None,
+                  ctx: "CheckContext") -> FieldResult:
+    """Verdict and message for one field of one expectation."""
+    hand = exp.hand.get(name)
+    closed = getattr(fe, name)
+    numeric = getattr(fn, name) if fn is not None else None
+    unit = "s" if name == "tau" else exp.probe.dimension
+    relative = exp.tolerance if exp.tolerance is not None else ctx.circuit.settings.tolerance
+    floor = 0.0 if name == "tau" else ctx.scale
+    verdict, message = PASS, ""
+    if fn is not None and not _engine_ok(name, closed, numeric, tol.ENGINE_FLOOR * floor):
+        verdict = ENGINES_DISAGREE
+        message = (f"the closed form gives {_fmt(closed, unit)} but the numerical engine gives "
+                   f"{_fmt(numeric, unit)}: an engine problem, not a hand-calculation error")
+    elif hand is not None and not (closed is not None and
+                                   tol.agree(hand, closed, relative, tol.HAND_FLOOR * floor)):
+        verdict = MISMATCH
+        message = explain(name, hand, exp, fe, ctx)
+    return FieldResult(name=name, hand=hand, closed_form=closed, numeric=numeric,
+                       verdict=verdict, unit=unit, message=message,
+                       formula=exp.formulas.get(name, ""), tolerance=relative)
+
+
+class CheckContext:
+    """What the comparison of one expectation needs to know beyond its own values."""
+
+    def __init__(self, circuit: Circuit, exact: Solution, numeric: Solution | None,
+                 probe: Probe, k: int) -> None:
+        self.circuit = circuit
+        self.exact = exact
+        self.numeric = numeric
+        self.probe = probe
+        self.k = k
+        self.scale = probe_scale(circuit, exact, probe)
+
+
+def _fmt(value: float | None, unit: str) -> str:
+    from .units import format_si
+    return format_si(value, unit)
+
+
+def compare_check(circuit: Circuit, exp: Expectation, exact: Solution,
+                  numeric: Solution | None) -> CheckResult:
+    """Compare one expectation's hand values with both engines; return its CheckResult."""
+    k = event_index(circuit, exp.at)
+    ctx = CheckContext(circuit, exact, numeric, exp.probe, k)
+    fe = exact.features(exp.probe, k)
+    fn = numeric.features(exp.probe, k) if numeric is not None else None
+    fields = tuple(compare_field(name, exp, fe, fn, ctx) for name in FIELDS)
+    trace = make_trace(ctx, exp, fe)
+    messages = [f"{f.name}: {f.message}" for f in fields if f.message]
+    verdicts = [f.verdict for f in fields]
+    if trace.deviation is not None and trace.deviation > tol.WAVEFORM_RELATIVE:
+        verdicts.append(ENGINES_DISAGREE)
+        messages.append(f"waveform: the numerical waveform departs from the closed form by "
+                        f"{trace.deviation:.2%} of the swing (limit {tol.WAVEFORM_RELATIVE:.1%})")
+    return CheckResult(index=exp.index, probe=exp.probe.label, at=circuit.events[k],
+                       verdict=worst(verdicts), fields=fields, order=fe.order, modes=fe.modes,
+                       messages=tuple(messages) + fe.notes, note=exp.note,
+                       direction=direction(exp.probe, circuit), trace=trace)
+
+
+def _grid(exact: Solution, k: int) -> np.ndarray:
+    start, end = exact.span(k)
+    width = end - start
+    return start + width * np.linspace(1e-4, 1.0, GRID_POINTS)
+
+
+def make_trace(ctx: CheckContext, exp: Expectation, fe: Features) -> Trace:
+    """Waveforms of the check's interval: closed form, numeric and the hand-predicted curve."""
+    t = _grid(ctx.exact, ctx.k)
+    closed = np.asarray(ctx.exact.waveform(exp.probe, ctx.k, t), dtype=float)
+    numeric_t, numeric_x, deviation = t, np.full_like(t, np.nan), None
+    if ctx.numeric is not None:
+        numeric_x = np.asarray(ctx.numeric.waveform(exp.probe, ctx.k, t), dtype=float)
+        swing = max(abs((fe.after or 0.0) - (fe.final if fe.final is not None else closed[-1])),
+                    float(np.ptp(closed)), tol.ENGINE_FLOOR * ctx.scale, 1e-300)
+        deviation = float(np.nanmax(np.abs(numeric_x - closed)) / swing)
+    hand_t, hand_x = _hand_curve(exp, fe, t)
+    return Trace(unit=exp.probe.dimension, numeric_t=numeric_t, numeric_x=numeric_x,
+                 closed_t=t, closed_x=closed, hand_t=hand_t, hand_x=hand_x,
+                 event=ctx.circuit.events[ctx.k], before=fe.before, after=fe.after,
+                 deviation=deviation)
+
+
+def _hand_curve(exp: Expectation, fe: Features, t: np.ndarray):
+    """x∞ + (x(0+) − x∞)·e^(−(t − t_k)/τ) from the hand values, computed ones filling gaps."""
+    after = exp.hand.get("after", fe.after)
+    final = exp.hand.get("final", fe.final)
+    tau = exp.hand.get("tau", fe.tau)
+    if after is None or final is None or tau is None or tau <= 0:
+        return None, None
+    return t, final + (after - final) * np.exp(-(t - exp.at) / tau)
+
+
+def compare_file(circuit: Circuit, exact: Solution, numeric: Solution | None,
+                 cautions: tuple[str, ...] = (), seconds: float = 0.0) -> FileResult:
+    """Compare every expectation of a circuit; collect warnings, jumps and cautions."""
+    checks = tuple(compare_check(circuit, exp, exact, numeric) for exp in circuit.expectations)
+    warnings = list(exact.warnings)
+    if numeric is not None:
+        warnings += [f"numerical engine: {w}" for w in numeric.warnings
+                     if w not in exact.warnings]
+    return FileResult(file=circuit.source, title=circuit.title,
+                      verdict=worst(c.verdict for c in checks), checks=checks,
+                      warnings=tuple(warnings), cautions=cautions,
+                      jumps=tuple(_jump_json(exact, k) for k in range(len(circuit.events))),
+                      seconds=seconds)
+
+
+def _jump_json(exact: Solution, k: int) -> dict:
+    j = exact.jump(k)
+    return {"at": j.time, "charges": dict(j.charges), "energy": j.energy,
+            "loops": list(j.loops), "stored_before": dict(j.stored_before),
+            "stored_after": dict(j.stored_after), "warnings": list(j.warnings)}
