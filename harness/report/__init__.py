@@ -1,0 +1,94 @@
+"""The report writers: console text, summary.csv, results.json, report.md, report.html, junit.xml.
+
+``write_all(run, report_dir)`` writes every report file for one run, each atomically (temporary
+file in the same folder, then ``os.replace``), plus one PNG per check with a trace under
+``report_dir/plots/`` (named ``<file number>-<sanitised title>-c<check>.png``; untrusted titles
+cannot leave the folder).  The HTML embeds the same plots as data URIs; the Markdown links the
+PNG files.  Failures to write raise ``ReportError`` (an ``OSError``).
+"""
+
+from __future__ import annotations
+
+import re
+import warnings
+from pathlib import Path
+
+from ..outcome import RunResult
+from . import csvout, html, jsonout, junit, markdown, plots
+from .atomic import ReportError, ensure_dir, inside, safe_name, write_atomic
+
+__all__ = ["REPORT_FILES", "ReportError", "render_plots", "write_all"]
+
+#: the five report files, in the order ``write_all`` returns them
+REPORT_FILES = ("report.html", "report.md", "summary.csv", "results.json", "junit.xml")
+PLOT_DIR = "plots"
+#: names this package gives plot files; older ones matching it are removed from plots/
+_PLOT_NAME = re.compile(r"^\d{3,}-[A-Za-z0-9_-]+-c\d+\.png$")
+
+
+def render_plots(run: RunResult) -> dict[tuple[int, int], bytes]:
+    """(file index, check index) -> PNG bytes for every check that carries a trace."""
+    out = {}
+    for i, file in enumerate(run.files):
+        for check in file.checks:
+            try:
+                png = plots.plot_check(check)
+            except Exception as exc:  # a bad trace must not cost the whole report
+                warnings.warn(f"{file.file}: no plot for check #{check.index + 1}: {exc}",
+                              RuntimeWarning, stacklevel=2)
+                continue
+            if png is not None:
+                out[(i, check.index)] = png
+    return out
+
+
+def plot_name(run: RunResult, key: tuple[int, int]) -> str:
+    """The plot's file name: ``003-logger-board-reset-c2.png`` (sanitised, inside the folder)."""
+    i, index = key
+    file = run.files[i]
+    stem = safe_name(file.title or Path(file.file).stem)
+    return f"{i + 1:03d}-{stem}-c{index + 1}.png"
+
+
+def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True) -> list[Path]:
+    """Write the five report files (``REPORT_FILES``) and the plot PNGs into ``report_dir``.
+
+    Returns the paths written: the five report files in ``REPORT_FILES`` order, then the plots.
+    The folder is created if missing; plot PNGs an earlier run left in ``plots/`` under this
+    package's naming pattern are removed once the new report files are in place.  All contents
+    are rendered before anything is written, so an exception from a serializer leaves the old
+    report untouched; each file is then replaced atomically, so an I/O failure part-way leaves
+    every file either as the previous run wrote it or complete from this run.
+    ``with_plots=False`` skips the (slowish, ~0.1 s each) plots.
+
+    Raises:
+        ReportError: the folder cannot be created or written, or a file cannot be replaced.
+    """
+    folder = ensure_dir(Path(report_dir))
+    pngs = render_plots(run) if with_plots else {}
+    names = {key: plot_name(run, key) for key in pngs}
+    links = {key: f"{PLOT_DIR}/{name}" for key, name in names.items()}
+    # every serializer runs before any file is touched: if one raises, the old report stays whole
+    texts = {"report.html": html.render(run, pngs), "report.md": markdown.render(run, links),
+             "summary.csv": csvout.render(run), "results.json": jsonout.render(run),
+             "junit.xml": junit.render(run)}
+    written: list[Path] = []
+    if pngs:
+        plot_dir = ensure_dir(folder / PLOT_DIR)
+        for key, png in pngs.items():
+            written.append(write_atomic(inside(plot_dir, names[key]), lambda png=png: png))
+    main = [write_atomic(folder / name, lambda name=name: texts[name]) for name in REPORT_FILES]
+    _remove_stale_plots(folder / PLOT_DIR, {p.name for p in written})
+    return main + written
+
+
+def _remove_stale_plots(plot_dir: Path, keep: set[str]) -> None:
+    """Delete plot PNGs an earlier run wrote (names matching ours) that this run did not."""
+    if not plot_dir.is_dir():
+        return
+    for path in plot_dir.iterdir():
+        if path.name not in keep and _PLOT_NAME.match(path.name) and path.is_file():
+            try:
+                path.unlink()
+            except OSError:
+                pass  # a stale plot that cannot be removed does no harm

@@ -1,0 +1,142 @@
+"""The safety note for circuits at hazardous voltage or storing hazardous energy.
+
+Thresholds (both are common practice, not a ruling of any one standard):
+
+* ``HAZARD_VOLTAGE`` = 60 V: the usual upper limit of extra-low-voltage DC circuits that may be
+  touched in dry conditions (the 60 V DC figure of the SELV/ES1 classes in the IEC safety
+  standards, quoted from memory).  A circuit *above* 60 V gets the note; 60 V itself does not.
+* ``HAZARD_ENERGY`` = 1 J: the conservative end of "a few joules" of stored energy.  Laboratory
+  safety guidance commonly treats a capacitor holding about a joule or more as able to injure by
+  shock, burn or arc flash on a short (from memory; no single standard fixes the number).
+
+The note is generic: it lists the usual cautions and defers to local codes and licensed practice.
+It never says a circuit is safe.
+"""
+
+from __future__ import annotations
+
+from typing import Iterable, Mapping
+
+from ..model import CAPACITOR, CURRENT_SOURCE, INDUCTOR, VOLTAGE_SOURCE, Circuit
+from ..units import format_si
+
+#: volts; a circuit reaching more than this gets the note (common practice: 60 V DC)
+HAZARD_VOLTAGE = 60.0
+#: joules; a capacitor or inductor that can hold more than this gets the note
+HAZARD_ENERGY = 1.0
+
+DEFERRAL = ("These notes are general reminders, not a safety assessment: follow the local "
+            "electrical codes, the product safety standards that apply, and licensed practice for "
+            "work on this circuit.")
+
+
+def cautions_for(circuit: Circuit, *, voltages: Iterable[float] = (), jumps: Iterable = (),
+                 ) -> tuple[str, ...]:
+    """The safety note for ``circuit``: an empty tuple, or the cautions as sentences.
+
+    Args:
+        circuit: the parsed circuit.  Its source values and steps and its capacitor initial
+            voltages are the voltages it certainly reaches.
+        voltages: computed voltages in V the caller knows (probe values from an engine, any
+            sign); they raise the highest voltage considered.
+        jumps: ``harness.results.Jump`` objects (or objects with ``stored_before``,
+            ``stored_after`` and ``energy``); their stored energies replace the estimate below
+            for the parts they name, and their dissipated energies are quoted for pulse ratings.
+
+    Without computed energies a capacitor's energy is estimated as ½·C·V² at the higher of its
+    initial voltage and the circuit's highest voltage (an upper estimate), and an inductor's as
+    ½·L·I² at the higher of its initial current and the largest current-source magnitude.
+    """
+    jumps = tuple(jumps)
+    peak, where = _highest_voltage(circuit, voltages)
+    stored = _stored_energies(circuit, peak, jumps)
+    hot = {name: (joules, how) for name, (joules, how) in stored.items() if joules > HAZARD_ENERGY}
+    if peak <= HAZARD_VOLTAGE and not hot:
+        return ()
+    notes: list[str] = []
+    if peak > HAZARD_VOLTAGE:
+        notes.append(f"Hazardous voltage: the circuit reaches {format_si(peak, 'V')} ({where}), "
+                     f"above the {format_si(HAZARD_VOLTAGE, 'V')} DC that common practice treats "
+                     f"as extra-low voltage.")
+    for name, (joules, how) in sorted(hot.items(), key=lambda item: -item[1][0]):
+        notes.append(f"Stored energy: {name} {how}, above the {format_si(HAZARD_ENERGY, 'J')} "
+                     f"this report flags.")
+    notes.append("Stored charge after power-off: capacitors can stay charged long after the supply "
+                 "is removed or a fuse opens; measure the voltage before touching, and do not rely "
+                 "on a calculated time constant alone.")
+    notes.append("Discharge paths: provide a bleeder or discharge path rated for the voltage and "
+                 "energy, and check it brings the voltage below a safe level in the required time "
+                 "(after 5 τ about 0.7 % remains); inductor currents need a flyback path.")
+    notes.append("Pulse ratings: the parts that absorb a step's pulse (series and pre-charge "
+                 "resistors, switches, snubbers, fuses) must be rated for the pulse energy and "
+                 "peak voltage, not only for average power." + _pulse_text(jumps))
+    if peak > HAZARD_VOLTAGE:
+        notes.append("Insulation: creepage, clearance and insulation ratings of parts, board and "
+                     "wiring must suit the working voltage; use probes and meters rated for it.")
+    notes.append(DEFERRAL)
+    return tuple(notes)
+
+
+def _highest_voltage(circuit: Circuit, voltages: Iterable[float]) -> tuple[float, str]:
+    """The highest voltage magnitude in V the circuit is known to reach, and where."""
+    peak, where = 0.0, "nowhere"
+    for part in circuit.parts:
+        candidates: list[float] = []
+        if part.kind == VOLTAGE_SOURCE:
+            candidates = [part.value or 0.0] + [v for _, v in part.steps]
+        elif part.kind == CAPACITOR and part.initial is not None:
+            candidates = [part.initial]
+        for value in candidates:
+            if abs(value) > peak:
+                peak, where = abs(value), f"{part.name}"
+    for value in voltages:
+        if value is not None and abs(value) > peak and abs(value) != float("inf"):
+            peak, where = abs(value), "a computed probe value"
+    return peak, where
+
+
+def _stored_energies(circuit: Circuit, peak: float, jumps: tuple) -> dict[str, tuple[float, str]]:
+    """Part name -> (energy in J, wording) for every capacitor and inductor."""
+    computed: dict[str, float] = {}
+    for jump in jumps:
+        for table in (getattr(jump, "stored_before", {}), getattr(jump, "stored_after", {})):
+            for name, joules in _items(table):
+                computed[name] = max(computed.get(name, 0.0), abs(joules))
+    largest_current = max([abs(p.value or 0.0) for p in circuit.parts if p.kind == CURRENT_SOURCE]
+                          + [abs(v) for p in circuit.parts if p.kind == CURRENT_SOURCE
+                             for _, v in p.steps] + [0.0])
+    out: dict[str, tuple[float, str]] = {}
+    for part in circuit.parts:
+        if part.name in computed:
+            joules = computed[part.name]
+            out[part.name] = (joules, f"holds {format_si(joules, 'J')} at an event (computed)")
+        elif part.kind == CAPACITOR and part.value:
+            volts = max(abs(part.initial or 0.0), peak)
+            joules = 0.5 * part.value * volts ** 2
+            out[part.name] = (joules, f"can hold up to {format_si(joules, 'J')} "
+                                      f"(½CV² at {format_si(volts, 'V')})")
+        elif part.kind == INDUCTOR and part.value:
+            amps = max(abs(part.initial or 0.0), largest_current)
+            joules = 0.5 * part.value * amps ** 2
+            out[part.name] = (joules, f"can hold up to {format_si(joules, 'J')} "
+                                      f"(½LI² at {format_si(amps, 'A')})")
+    return out
+
+
+def _items(table) -> list[tuple[str, float]]:
+    if isinstance(table, Mapping):
+        return [(str(k), float(v)) for k, v in table.items() if v is not None]
+    return []
+
+
+def _pulse_text(jumps: tuple) -> str:
+    """`` The largest pulse dissipates 2 J at t = 1 ms.`` or ``""``."""
+    best = None
+    for jump in jumps:
+        energy = getattr(jump, "energy", None)
+        if energy is not None and (best is None or energy > best[0]):
+            best = (energy, getattr(jump, "time", 0.0))
+    if best is None or best[0] <= 0:
+        return ""
+    return (f" The largest step here dissipates {format_si(best[0], 'J')} at "
+            f"t = {format_si(best[1], 's')}.")

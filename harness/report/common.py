@@ -1,0 +1,176 @@
+"""Formatting shared by the report writers: values with SI prefixes, labels, counts, jumps.
+
+Everything here returns plain (unescaped) text; each writer escapes for its own format.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from typing import Any, Iterable, Mapping
+
+from ..outcome import ENGINES_DISAGREE, ERROR, MISMATCH, PASS, VERDICT_ORDER, CheckResult, \
+    FieldResult, FileResult, RunResult
+from ..units import format_si
+
+#: what each exit code means, for the summary line
+EXIT_MEANING = {0: "every check passed",
+                1: "a hand value or the engines need review",
+                2: "a file could not be analysed"}
+
+
+_CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f-\x9f]")
+
+
+def printable(text: str) -> str:
+    """``text`` without control characters other than tab and newline (terminal escapes, NUL)."""
+    return _CONTROL.sub("", text)
+
+
+def plural(count: int, noun: str) -> str:
+    """``1 check`` / ``3 checks``."""
+    return f"{count} {noun}{'' if count == 1 else 's'}"
+
+
+def field_unit(field: FieldResult) -> str:
+    """The field's unit symbol; ``tau`` is in seconds when the comparator left it blank."""
+    if field.unit:
+        return field.unit
+    return "s" if field.name in ("tau", "crossing") else ""
+
+
+def value(x: float | None, unit: str = "") -> str:
+    """``format_si`` with 4 significant digits; None as ``—``, non-finite as ``inf``/``nan``."""
+    if x is None:
+        return "—"
+    if not math.isfinite(x):
+        return f"{x}"
+    return format_si(x, unit, digits=4)
+
+
+def time(t: float | None) -> str:
+    """An event time such as ``1 ms``."""
+    return value(t, "s")
+
+
+def check_label(check: CheckResult) -> str:
+    """``#2 node rst at 1 ms``."""
+    return f"#{check.index + 1} {check.probe} at {time(check.at)}"
+
+
+def modes_text(check: CheckResult) -> str:
+    """``order 1, τ = 100 ms`` / ``order 2, τ = 10 ms, 1 ms`` / ``order unknown``."""
+    order = "order unknown" if check.order is None else f"order {check.order}"
+    if not check.modes:
+        return order + (", no decaying mode" if check.order == 0 else "")
+    return order + ", τ = " + ", ".join(time(t) for t in check.modes)
+
+
+def deviation_text(check: CheckResult) -> str:
+    """The whole-waveform deviation as a fraction of the swing, or ``—``."""
+    if check.trace is None or check.trace.deviation is None:
+        return "—"
+    return f"{check.trace.deviation:.2g} of the swing"
+
+
+def tolerance_text(field: FieldResult) -> str:
+    """``1 %`` or ``""``."""
+    if field.tolerance is None:
+        return ""
+    return f"{field.tolerance * 100:g} %"
+
+
+def check_counts(run: RunResult) -> dict[str, int]:
+    """Verdict -> number of checks, every verdict present (files without checks not counted)."""
+    counts = {v: 0 for v in VERDICT_ORDER}
+    for file in run.files:
+        for check in file.checks:
+            counts[check.verdict] = counts.get(check.verdict, 0) + 1
+    return counts
+
+
+def file_counts(run: RunResult) -> dict[str, int]:
+    """Verdict -> number of files, every verdict present."""
+    counts = {v: 0 for v in VERDICT_ORDER}
+    for file in run.files:
+        counts[file.verdict] = counts.get(file.verdict, 0) + 1
+    return counts
+
+
+def summary_line(run: RunResult) -> str:
+    """One line: files, checks, counts per verdict and what the exit code means."""
+    files, checks = file_counts(run), check_counts(run)
+    n_checks = sum(checks.values())
+    per = ", ".join(f"{checks[v]} {v}" for v in (PASS, MISMATCH, ENGINES_DISAGREE, ERROR))
+    bad_files = files[ERROR]
+    file_part = plural(len(run.files), "file")
+    if bad_files:
+        file_part += f" ({bad_files} could not be analysed)"
+    code = run.exit_code
+    return (f"{run.verdict.upper()}: {file_part}, {plural(n_checks, 'check')} — {per}; "
+            f"exit {code}: {EXIT_MEANING[code]}")
+
+
+def failing_fields(check: CheckResult) -> list[FieldResult]:
+    """The fields of ``check`` whose verdict is not pass."""
+    return [f for f in check.fields if f.verdict != PASS]
+
+
+def check_messages(check: CheckResult) -> list[str]:
+    """The check's messages followed by the messages of its fields (no duplicates)."""
+    out: list[str] = []
+    for text in list(check.messages) + [f"{f.name}: {f.message}" for f in check.fields
+                                        if f.message]:
+        if text and text not in out:
+            out.append(text)
+    return out
+
+
+def jump_lines(file: FileResult) -> list[str]:
+    """One sentence per event with something to say: the charge moved and the energy dissipated.
+
+    Reads the JSON-ready ``FileResult.jumps`` dicts tolerantly: ``time`` (s), ``charges``
+    (part -> C), ``energy`` (J or None), and optionally ``loops`` and ``warnings`` (lists of text).
+    """
+    lines = []
+    for jump in file.jumps:
+        text = jump_text(jump)
+        if text:
+            lines.append(text)
+    return lines
+
+
+def jump_text(jump: Mapping[str, Any]) -> str:
+    """``t = 1 ms: charge C1 -3.3 µC, V1 3.3 µC; dissipated 5.4 µJ (C1 and V1 form a loop)``."""
+    charges = _mapping(jump.get("charges"))
+    moved = [(k, v) for k, v in charges.items() if v]
+    energy = jump.get("energy")
+    loops = [str(x) for x in _seq(jump.get("loops"))]
+    warnings = [str(x) for x in _seq(jump.get("warnings"))]
+    if not moved and not energy and not loops and not warnings:
+        return ""
+    bits = []
+    if moved:
+        bits.append("charge " + ", ".join(f"{k} {value(v, 'C')}" for k, v in moved))
+    if energy is not None:
+        bits.append(f"dissipated {value(energy, 'J')}")
+    elif moved:
+        bits.append("dissipated energy undefined")
+    text = f"t = {time(jump.get('time'))}: " + "; ".join(bits or ["no charge moved"])
+    if loops:
+        text += " (" + "; ".join(loops) + ")"
+    if warnings:
+        text += " — " + "; ".join(warnings)
+    return text
+
+
+def _mapping(obj: Any) -> dict[str, float]:
+    if isinstance(obj, Mapping):
+        return {str(k): float(v) for k, v in obj.items() if isinstance(v, (int, float))}
+    return {}
+
+
+def _seq(obj: Any) -> Iterable:
+    if obj is None or isinstance(obj, (str, bytes)):
+        return [obj] if obj else []
+    return list(obj)

@@ -1,0 +1,69 @@
+"""summary.csv: one row per field of every check (pandas).
+
+Columns (``COLUMNS``): file, title, file_verdict, check (1-based), probe, direction, at (s),
+check_verdict, order, modes (s, ``;``-separated, slowest first), deviation (fraction of the
+swing), field, unit, hand, closed_form, numeric (SI base units, empty when undefined), verdict,
+tolerance (fraction), formula, message.
+
+A file that could not be analysed and has no checks gets one row with an empty ``field``, verdict
+``error`` and its errors in ``message``, so every file appears.  Text cells that a spreadsheet
+would run as a formula (starting with ``=``, ``+``, ``-``, ``@``, tab or CR) are prefixed with
+``'`` (common practice against CSV formula injection); numeric columns are left as numbers.
+"""
+
+from __future__ import annotations
+
+import math
+
+import pandas as pd
+
+from ..outcome import ERROR, RunResult
+from . import common
+
+COLUMNS = ("file", "title", "file_verdict", "check", "probe", "direction", "at", "check_verdict",
+           "order", "modes", "deviation", "field", "unit", "hand", "closed_form", "numeric",
+           "verdict", "tolerance", "formula", "message")
+_TEXT = ("file", "title", "probe", "direction", "modes", "field", "unit", "formula", "message")
+
+
+def frame(run: RunResult) -> pd.DataFrame:
+    """The summary as a DataFrame with ``COLUMNS``, one row per field."""
+    rows = []
+    for file in run.files:
+        head = {"file": file.file, "title": file.title, "file_verdict": file.verdict}
+        if not file.checks and file.verdict == ERROR:
+            rows.append({**head, "verdict": ERROR, "message": "; ".join(file.errors)})
+        for check in file.checks:
+            deviation = None if check.trace is None else check.trace.deviation
+            base = {**head, "check": check.index + 1, "probe": check.probe,
+                    "direction": check.direction, "at": check.at,
+                    "check_verdict": check.verdict, "order": check.order,
+                    "modes": ";".join(f"{m:.9g}" for m in check.modes), "deviation": deviation}
+            for field in check.fields:
+                rows.append({**base, "field": field.name, "unit": common.field_unit(field),
+                             "hand": _num(field.hand), "closed_form": _num(field.closed_form),
+                             "numeric": _num(field.numeric), "verdict": field.verdict,
+                             "tolerance": field.tolerance, "formula": field.formula,
+                             "message": field.message})
+    table = pd.DataFrame(rows, columns=list(COLUMNS))
+    for column in _TEXT:
+        table[column] = table[column].map(_defuse)
+    table["check"] = table["check"].astype("Int64")
+    table["order"] = table["order"].astype("Int64")
+    return table
+
+
+def render(run: RunResult) -> str:
+    """The CSV text (UTF-8, comma-separated, header row, floats in shortest round-trip form)."""
+    return frame(run).to_csv(index=False, lineterminator="\n")
+
+
+def _num(x: float | None) -> float | None:
+    return None if x is None or not math.isfinite(x) else x
+
+
+def _defuse(cell):
+    if not isinstance(cell, str):
+        return "" if cell is None or (isinstance(cell, float) and math.isnan(cell)) else cell
+    cell = common.printable(cell.replace("\n", " ").replace("\r", " "))
+    return "'" + cell if cell[:1] in ("=", "+", "-", "@", "\t") else cell

@@ -1,0 +1,42 @@
+"""results.json: ``RunResult.to_json()``, the same document ``--json`` prints (DESIGN.md contract).
+
+Strict JSON: non-finite floats (NaN, ±inf) become ``null`` and numpy scalars plain numbers, so
+every JSON parser reads the file.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from typing import Any
+
+import numpy as np
+
+from ..outcome import RunResult
+
+
+def document(run: RunResult) -> dict[str, Any]:
+    """``run.to_json()`` with every value made strict-JSON safe."""
+    return _clean(run.to_json())
+
+
+def render(run: RunResult) -> str:
+    """The JSON text, indented, UTF-8 characters kept, with a final newline."""
+    return json.dumps(document(run), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+
+
+def _clean(obj: Any) -> Any:
+    if isinstance(obj, dict):
+        return {str(k): _clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_clean(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return [_clean(v) for v in obj.tolist()]
+    if isinstance(obj, (bool, np.bool_)):
+        return bool(obj)
+    if isinstance(obj, (np.integer,)):
+        return int(obj)
+    if isinstance(obj, (float, np.floating)):
+        value = float(obj)
+        return value if math.isfinite(value) else None
+    return obj

@@ -1,0 +1,89 @@
+"""junit.xml: one ``testsuite`` per circuit file, one ``testcase`` per check.
+
+The layout CI systems read (the common JUnit XML convention): ``testsuites`` > ``testsuite``
+(name = the file's title, attributes tests/failures/errors/skipped/time) > ``testcase``
+(classname = the file path with ``/`` as ``.``, name = ``#1 node rst at 0 s``).  A check whose
+verdict is ``mismatch`` or ``engines-disagree`` carries a ``failure`` (type = the verdict,
+message = its first message, text = every message and the field table); a check with verdict
+``error`` carries an ``error``.  A file that could not be analysed gets a single testcase
+``analyse`` with an ``error`` holding the file's errors.  Characters XML 1.0 forbids are dropped.
+"""
+
+from __future__ import annotations
+
+import re
+import xml.etree.ElementTree as ET
+
+from ..outcome import ERROR, PASS, CheckResult, FileResult, RunResult
+from . import common
+
+_ILLEGAL = re.compile("[^\x09\x0a\x0d\x20-\ud7ff\ue000-\ufffd\U00010000-\U0010ffff]")
+
+
+def _x(text: str) -> str:
+    return _ILLEGAL.sub("", str(text))
+
+
+def render(run: RunResult) -> str:
+    """The XML text with declaration, UTF-8."""
+    root = ET.Element("testsuites", name="tauproof")
+    totals = {"tests": 0, "failures": 0, "errors": 0}
+    for file in run.files:
+        suite = _suite(file)
+        root.append(suite)
+        for key in totals:
+            totals[key] += int(suite.get(key))
+    for key, count in totals.items():
+        root.set(key, str(count))
+    ET.indent(root)
+    return ET.tostring(root, encoding="unicode", xml_declaration=True) + "\n"
+
+
+def _suite(file: FileResult) -> ET.Element:
+    suite = ET.Element("testsuite", name=_x(file.title or file.file), skipped="0",
+                       time=f"{file.seconds:.3f}")
+    props = ET.SubElement(suite, "properties")
+    ET.SubElement(props, "property", name="file", value=_x(file.file))
+    ET.SubElement(props, "property", name="verdict", value=file.verdict)
+    classname = _x(file.file.replace("\\", "/").removesuffix(".toml").replace("/", "."))
+    failures = errors = 0
+    cases = list(file.checks)
+    if not cases and file.verdict == ERROR:
+        case = ET.SubElement(suite, "testcase", classname=classname, name="analyse")
+        text = "\n".join(file.errors) or "the file could not be analysed"
+        ET.SubElement(case, "error", type=ERROR, message=_x(text.splitlines()[0])).text = _x(text)
+        errors += 1
+    for check in cases:
+        case = ET.SubElement(suite, "testcase", classname=classname,
+                             name=_x(common.check_label(check)))
+        if check.verdict == PASS:
+            continue
+        tag = "error" if check.verdict == ERROR else "failure"
+        messages = common.check_messages(check) or [check.verdict]
+        ET.SubElement(case, tag, type=check.verdict,
+                      message=_x(messages[0])).text = _x(_details(check, messages))
+        if tag == "error":
+            errors += 1
+        else:
+            failures += 1
+    suite.set("tests", str(max(len(cases), 1 if file.verdict == ERROR else 0)))
+    suite.set("failures", str(failures))
+    suite.set("errors", str(errors))
+    if file.warnings:
+        ET.SubElement(suite, "system-out").text = _x("\n".join(f"warning: {w}"
+                                                              for w in file.warnings))
+    return suite
+
+
+def _details(check: CheckResult, messages: list[str]) -> str:
+    lines = [f"{common.check_label(check)}: {check.verdict}"]
+    if check.direction:
+        lines.append(f"reference direction: {check.direction}")
+    lines.append(common.modes_text(check))
+    lines += messages
+    for field in check.fields:
+        unit = common.field_unit(field)
+        lines.append(f"{field.name}: hand {common.value(field.hand, unit)}, closed form "
+                     f"{common.value(field.closed_form, unit)}, numeric "
+                     f"{common.value(field.numeric, unit)} -> {field.verdict}")
+    return "\n".join(lines)

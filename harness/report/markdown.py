@@ -1,0 +1,101 @@
+"""report.md: the discrepancy report as Markdown (GitHub-flavoured tables).
+
+An overall summary and the list of files at the top; per file a header (file, verdict, cautions
+first and prominent, errors, warnings, jumps) and per check a field table, the probe's reference
+direction, order and modes, the waveform deviation, the messages and a link to its plot PNG.
+
+All untrusted text (titles, part names, messages) goes through ``escape``: Markdown punctuation is
+backslash-escaped, ``|`` cannot split a table cell, and ``<``/``>``/``&`` become HTML entities
+so no raw HTML reaches a renderer.
+"""
+
+from __future__ import annotations
+
+import re
+from typing import Mapping
+
+from ..outcome import PASS, CheckResult, FileResult, RunResult
+from . import common
+
+#: punctuation that can start Markdown markup mid-line (GFM); text never starts a line here
+_SPECIAL = re.compile(r"([\\`*_\[\]#|~$])")
+
+
+def escape(text: str) -> str:
+    """``text`` safe inside Markdown prose or a table cell (one line)."""
+    text = common.printable(str(text)).replace("\r", " ").replace("\n", " ")
+    text = text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+    return _SPECIAL.sub(r"\\\1", text)
+
+
+def render(run: RunResult, plots: Mapping[tuple[int, int], str] | None = None) -> str:
+    """The Markdown text.  ``plots`` maps (file index, check index) to a path relative to the
+    report folder (``plots/001-x-c1.png``); checks without one get no image."""
+    plots = plots or {}
+    out = ["# tauproof discrepancy report", "",
+           f"**{escape(common.summary_line(run))}**", ""]
+    out += _summary_table(run)
+    for i, file in enumerate(run.files):
+        out += _file_section(i, file, plots)
+    return "\n".join(out) + "\n"
+
+
+def _summary_table(run: RunResult) -> list[str]:
+    checks = common.check_counts(run)
+    lines = ["| verdict | checks | files |", "|---|---:|---:|"]
+    files = common.file_counts(run)
+    for verdict, count in checks.items():
+        lines.append(f"| {verdict} | {count} | {files[verdict]} |")
+    lines += ["", "## Files", ""]
+    for i, file in enumerate(run.files):
+        where = f"{escape(file.file)}, " if file.title else ""
+        lines.append(f"{i + 1}. **{file.verdict}** — {escape(file.title or file.file)} "
+                     f"({where}{common.plural(len(file.checks), 'check')})")
+    return lines + [""]
+
+
+def _file_section(i: int, file: FileResult, plots) -> list[str]:
+    out = [f"## {i + 1}\\. {escape(file.title or file.file)}", "",
+           f"File {escape(file.file)} — verdict **{file.verdict}**", ""]
+    if file.cautions:
+        out += ["> **⚠ Safety cautions**", ">"]
+        out += [f"> - {escape(text)}" for text in file.cautions]
+        out.append("")
+    for label, items in (("Errors", file.errors), ("Warnings", file.warnings)):
+        if items:
+            out += [f"**{label}**", ""] + [f"- {escape(text)}" for text in items] + [""]
+    jumps = common.jump_lines(file)
+    if jumps:
+        out += ["**Jumps**", ""] + [f"- {escape(text)}" for text in jumps] + [""]
+    for check in file.checks:
+        out += _check_section(check, plots.get((i, check.index)))
+    return out
+
+
+def _check_section(check: CheckResult, plot: str | None) -> list[str]:
+    mark = "✔" if check.verdict == PASS else "✘"
+    out = [f"### {mark} {escape(common.check_label(check))} — {check.verdict}", ""]
+    if check.direction:
+        out.append(f"- reference direction: {escape(check.direction)}")
+    out.append(f"- {escape(common.modes_text(check))}")
+    out.append(f"- whole-waveform deviation: {escape(common.deviation_text(check))}")
+    if check.note:
+        out.append(f"- note: {escape(check.note)}")
+    out += ["", "| field | hand | closed form | numeric | tolerance | verdict | formula |",
+            "|---|---:|---:|---:|---:|---|---|"]
+    for field in check.fields:
+        unit = common.field_unit(field)
+        formula = escape(field.formula) if field.formula else ""
+        out.append(f"| {escape(field.name)} | {escape(common.value(field.hand, unit))} | "
+                   f"{escape(common.value(field.closed_form, unit))} | "
+                   f"{escape(common.value(field.numeric, unit))} | "
+                   f"{escape(common.tolerance_text(field))} | {field.verdict} | {formula} |")
+    out.append("")
+    messages = common.check_messages(check)
+    if messages:
+        out += [f"- **{escape(m)}**" if check.verdict != PASS else f"- {escape(m)}"
+                for m in messages] + [""]
+    if plot:
+        out += [f"![waveform of {escape(common.check_label(check))}]({plot})", ""]
+    return out
+
