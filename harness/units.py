@@ -74,7 +74,10 @@ def parse_quantity(raw: object, dimension: str, *, allow_percent: bool = False) 
         raise UnitError(f"expected a number or a quantity such as '4k7' or '3.3 V', "
                         f"got {type(raw).__name__} {raw!r}")
     if isinstance(raw, (int, float)):
-        value = float(raw)
+        try:
+            value = float(raw)
+        except OverflowError:
+            raise UnitError("the integer is too large (beyond the floating-point range)") from None
     else:
         value = _parse_text(raw, dimension, allow_percent)
     if not math.isfinite(value):
@@ -113,7 +116,10 @@ def _scaled(digits: str, scale: float) -> float:
     if not digits.lstrip("+-"):
         raise UnitError("missing number")
     exponent = round(math.log10(scale))
-    return float(Decimal(digits).scaleb(exponent))
+    try:
+        return float(Decimal(digits).scaleb(exponent))
+    except ArithmeticError:  # decimal.Overflow / InvalidOperation for exponents beyond Decimal's
+        raise UnitError(f"the number {digits!r} is out of range") from None
 
 
 def _apply(number: float, dim: str | None, dimension: str, allow_percent: bool, text: str) -> float:
@@ -125,8 +131,8 @@ def _apply(number: float, dim: str | None, dimension: str, allow_percent: bool, 
                             f"{DIMENSION_NAMES[dimension]}")
         return number / 100.0
     if dim != dimension:
-        raise UnitError(f"{text!r} is in {DIMENSION_NAMES[dim]}, but this field is in "
-                        f"{DIMENSION_NAMES[dimension]}")
+        raise UnitError(f"{text!r} is in {DIMENSION_NAMES[dim]}, but this field is "
+                        f"{'' if dimension == '1' else 'in '}{DIMENSION_NAMES[dimension]}")
     return number
 
 

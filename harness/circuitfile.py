@@ -1,0 +1,322 @@
+"""Circuit files (TOML, DESIGN.md "Circuit file format") to the immutable ``model.Circuit``.
+
+``read_circuit`` reads a file, ``parse_circuit`` a text; both validate everything they read and
+end with ``topology.check``, so a returned circuit is well-posed.  Every failure is an
+``InputError`` (or a subclass) carrying the file, the part (or ``expect #N`` / ``settings``), the
+field and, where it can be found, the line.  Parts are read by ``harness.fields``; line numbers
+come from ``harness.filelines``.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import re
+import tomllib
+from dataclasses import replace
+from pathlib import Path
+
+from . import model as m
+from . import topology
+from .errors import InputError, UnitError
+from .fields import parse_parts
+from .filelines import Locator, Where, expect_label, name_problem, quoted_list, suggest
+from .units import format_si
+
+#: upper limits a user can rely on (past them: an input error, not a hang)
+MAX_FILE_BYTES = 1_000_000
+MAX_EXPECTATIONS = 2000
+MAX_TEXT = 2000
+
+TOP_LEVEL = ("title", "ground", "settings", "parts", "expect")
+SETTINGS = ("tolerance",)
+PROBE_KEYS = (m.NODE, m.BETWEEN, m.ACROSS, m.THROUGH)
+EXPECT_KEYS = PROBE_KEYS + ("at",) + m.FIELDS + ("tolerance", "note")
+#: an ``at`` matches an event within this relative amount plus ``EVENT_ABS`` seconds
+EVENT_REL, EVENT_ABS = 1e-12, 1e-15
+
+_TOML_WHERE = re.compile(r"\s*\((?:at line (\d+), column (\d+)|at end of document)\)\s*$")
+
+
+def read_circuit(path: str | os.PathLike) -> m.Circuit:
+    """Read, validate and check the circuit file at ``path``.
+
+    Raises:
+        InputError: the file cannot be read, is larger than ``MAX_FILE_BYTES``, is not UTF-8,
+            is not TOML, or describes an invalid or ill-posed circuit (subclasses UnitError,
+            TopologyError, InitialStateError say which).
+    """
+    source = os.fsdecode(path)
+    try:
+        with open(source, "rb") as handle:
+            data = handle.read(MAX_FILE_BYTES + 1)
+    except OSError as exc:
+        raise InputError(f"cannot read the file: {exc.strerror or exc}", file=source) from None
+    if len(data) > MAX_FILE_BYTES:
+        raise InputError(f"the file is larger than {MAX_FILE_BYTES:,} bytes (the limit for a "
+                         f"circuit file)", file=source)
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = data[:exc.start].count(b"\n") + 1
+        raise InputError(f"the file is not UTF-8 text (byte 0x{data[exc.start]:02x} on line "
+                         f"{line}); save it as UTF-8", file=source, line=line) from None
+    return parse_circuit(text, source)
+
+
+def parse_circuit(text: str, source: str = "<memory>") -> m.Circuit:
+    """Parse, validate and check circuit-file ``text``; ``source`` names it in messages.
+
+    A missing ``title`` defaults to the file name's stem (``untitled`` for ``<memory>``).
+    """
+    if len(text) > MAX_FILE_BYTES:
+        raise InputError(f"the text is longer than {MAX_FILE_BYTES:,} characters (the limit "
+                         f"for a circuit file)", file=source)
+    text = text.removeprefix("\ufeff")
+    where = Where(source, Locator.scan(text))
+    data = _load_toml(text, where)
+    circuit = _build(data, where)
+    topology.check(circuit)
+    return circuit
+
+
+def _load_toml(text: str, where: Where) -> dict:
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise _toml_error(str(exc), where) from None
+    except RecursionError:
+        raise where.error("arrays or tables are nested too deeply to read") from None
+    except ValueError as exc:  # an integer with more digits than Python converts
+        raise where.error(f"a number in the file cannot be read: {exc}") from None
+
+
+def _toml_error(message: str, where: Where) -> InputError:
+    """A TOML syntax error as an InputError with the line, and duplicate keys spelled out."""
+    loc = where.locator
+    found = _TOML_WHERE.search(message)
+    body = message[:found.start()] if found else message
+    line = None
+    if found:
+        line = int(found.group(1)) if found.group(1) else max(len(loc.lines), 1)
+    if body.startswith(("Cannot overwrite", "Cannot declare")) and loc.duplicates:
+        dups = [d for d in loc.duplicates if d[2] == line] or loc.duplicates[-1:]
+        return _duplicate_error(dups[0], where)
+    owner = loc.owners.get(line, ()) if line else ()
+    part, field = _owner_labels(owner)
+    dup = re.match(r"Duplicate inline table key '(.*)'", body)
+    if dup:
+        return where.error(f"field {dup.group(1)!r} is given twice on line {line}; give each "
+                           f"field once", part=part, field=dup.group(1), line=line)
+    shown = loc.text_of(line)
+    at = f" on line {line}" if line else ""
+    return where.error(f"not valid TOML: {body}{at}" + (f": {shown}" if shown else ""),
+                       part=part, field=field, line=line)
+
+
+def _owner_labels(path: tuple) -> tuple[str | None, str | None]:
+    """(part label, field) for a key path such as ("parts", "R1", "value")."""
+    if len(path) >= 2 and path[0] == "parts":
+        return str(path[1]), (str(path[2]) if len(path) > 2 else None)
+    if len(path) >= 2 and path[0] == "expect" and isinstance(path[1], int):
+        return expect_label(path[1]), (str(path[2]) if len(path) > 2 else None)
+    if len(path) >= 1 and path[0] == "settings":
+        return "settings", (str(path[1]) if len(path) > 1 else None)
+    return None, (str(path[0]) if path else None)
+
+
+def _duplicate_error(dup: tuple, where: Where) -> InputError:
+    path, first, again = dup
+    part, field = _owner_labels(path)
+    if path[:1] == ("parts",) and len(path) == 2:
+        text = (f"part name {path[1]!r} is used twice (lines {first} and {again}); every part "
+                f"needs its own name")
+    elif field is not None:
+        text = f"{field!r} is given twice (lines {first} and {again}); give it once"
+    else:
+        text = f"[{'.'.join(map(str, path))}] appears twice (lines {first} and {again})"
+    return where.error(text, part=part, field=field, line=again)
+
+
+def _build(data: dict, where: Where) -> m.Circuit:
+    for key in data:
+        if key not in TOP_LEVEL:
+            hint = suggest(key, TOP_LEVEL) or f"; the top level takes {quoted_list(TOP_LEVEL)}"
+            raise where.error(f"unknown top-level key {key!r}{hint}", path=(key,), field=key)
+    title = data.get("title", _default_title(where.source))
+    problem = _text_problem(title, "title")
+    if problem:
+        raise where.error(problem, path=("title",), field="title")
+    ground = data.get("ground", "gnd")
+    problem = name_problem(ground, "ground node name")
+    if problem:
+        raise where.error(problem, path=("ground",), field="ground")
+    if "parts" not in data:
+        raise where.error("the file has no [parts] table", field="parts")
+    parts = parse_parts(data["parts"], where)
+    terminals = {node for part in parts for node in part.nodes}
+    if ground not in terminals:
+        raise where.error(f"the ground node {ground!r} is not a terminal of any part"
+                          f"{suggest(ground, terminals)}; set ground = \"...\" to the reference "
+                          f"node or connect a part to {ground!r}", path=("ground",),
+                          field="ground")
+    circuit = m.Circuit(title=title, parts=parts, ground=ground,
+                        settings=_settings(data.get("settings", {}), where), source=where.source)
+    return replace(circuit, expectations=_expectations(data.get("expect", []), circuit, where))
+
+
+def _text_problem(value: object, what: str) -> str | None:
+    if not isinstance(value, str):
+        return f"{what} must be text (a quoted string), got {type(value).__name__} {value!r}"
+    if len(value) > MAX_TEXT:
+        return f"{what} is {len(value)} characters long; the limit is {MAX_TEXT}"
+    return None
+
+
+def _default_title(source: str) -> str:
+    return "untitled" if source == "<memory>" else Path(source).stem
+
+
+def _settings(raw: object, where: Where) -> m.Settings:
+    if not isinstance(raw, dict):
+        raise where.error("[settings] must be a table", path=("settings",), part="settings")
+    for key in raw:
+        if key not in SETTINGS:
+            raise where.error(f"unknown setting {key!r}{suggest(key, SETTINGS)}; [settings] "
+                              f"takes {quoted_list(SETTINGS)}", path=("settings", key),
+                              part="settings", field=key)
+    if "tolerance" not in raw:
+        return m.Settings()
+    return m.Settings(tolerance=_tolerance(raw["tolerance"], where, ("settings", "tolerance"),
+                                           "settings"))
+
+
+def _tolerance(raw: object, where: Where, path: tuple, part: str) -> float:
+    value = where.quantity(raw, "1", path=path, part=part, field="tolerance", allow_percent=True)
+    if not 0 < value < 1:
+        raise where.error(f"tolerance must be between 0 and 1 (or 0 % and 100 %), got {raw!r}; "
+                          f"write \"2%\" or 0.02", path=path, part=part, field="tolerance")
+    return value
+
+
+def _expectations(raw: object, circuit: m.Circuit, where: Where) -> tuple[m.Expectation, ...]:
+    if isinstance(raw, dict):
+        raw = [raw]
+    if not isinstance(raw, list):
+        raise where.error("expect must be written as [[expect]] blocks", path=("expect",),
+                          field="expect")
+    if len(raw) > MAX_EXPECTATIONS:
+        raise where.error(f"{len(raw)} [[expect]] blocks; the limit is {MAX_EXPECTATIONS}",
+                          path=("expect",), field="expect")
+    values = {p.name: p.value for p in circuit.parts if p.value is not None}
+    return tuple(_expectation(i, block, circuit, values, where) for i, block in enumerate(raw))
+
+
+def _expectation(index: int, raw: object, circuit: m.Circuit, values: dict,
+                 where: Where) -> m.Expectation:
+    label, base = expect_label(index), ("expect", index)
+    if not isinstance(raw, dict):
+        raise where.error("an [[expect]] block must be a table", path=base, part=label)
+    for key in raw:
+        if key not in EXPECT_KEYS:
+            hint = suggest(key, EXPECT_KEYS)
+            if key == "crossing":
+                hint = " (threshold crossings are not supported yet)"
+            raise where.error(f"unknown field {key!r}{hint}; an [[expect]] block takes "
+                              f"{quoted_list(EXPECT_KEYS, 20)}", path=base + (key,), part=label,
+                              field=key)
+    probe = _probe(raw, circuit, where, index)
+    at = _event(raw.get("at", 0.0), circuit, where, index)
+    hand, formulas = {}, {}
+    for name in m.FIELDS:
+        if name in raw:
+            dimension = "s" if name == "tau" else probe.dimension
+            hand[name], text = _hand_value(raw[name], dimension, values, where, index, name)
+            if text is not None:
+                formulas[name] = text
+            if name == "tau" and not hand[name] > 0:
+                raise where.error(f"tau must be greater than zero, got {raw[name]!r}",
+                                  path=base + (name,), part=label, field=name)
+    tolerance = None
+    if "tolerance" in raw:
+        tolerance = _tolerance(raw["tolerance"], where, base + ("tolerance",), label)
+    note = raw.get("note", "")
+    problem = _text_problem(note, "note")
+    if problem:
+        raise where.error(problem, path=base + ("note",), part=label, field="note")
+    return m.Expectation(index=index, probe=probe, at=at, hand=hand, formulas=formulas,
+                         tolerance=tolerance, note=note, line=where.locator.line_of(base))
+
+
+def _probe(raw: dict, circuit: m.Circuit, where: Where, index: int) -> m.Probe:
+    label, base = expect_label(index), ("expect", index)
+    given = [key for key in PROBE_KEYS if key in raw]
+    if len(given) != 1:
+        what = "none" if not given else " and ".join(given)
+        raise where.error(f"give exactly one of node = \"x\", between = [\"a\", \"b\"], "
+                          f"across = \"C1\", through = \"R1\" (found {what})",
+                          path=base + tuple(given[1:2]), part=label,
+                          field=given[1] if len(given) > 1 else m.NODE)
+    kind = given[0]
+    value, path = raw[kind], base + (kind,)
+    names = [p.name for p in circuit.parts]
+    nodes = circuit.nodes
+
+    def fail(message: str):
+        return where.error(message, path=path, part=label, field=kind)
+
+    if kind == m.BETWEEN:
+        if not (isinstance(value, list) and len(value) == 2
+                and all(isinstance(v, str) for v in value)):
+            raise fail(f"between must be two node names [\"a\", \"b\"], got {value!r}")
+        if value[0] == value[1]:
+            raise fail(f"between names node {value[0]!r} twice; the voltage would always be 0")
+        targets = tuple(value)
+    else:
+        if not isinstance(value, str):
+            raise fail(f"{kind} must be a {'node' if kind == m.NODE else 'part'} name, got "
+                       f"{value!r}")
+        targets = (value,)
+    pool, noun = (nodes, "node") if kind in (m.NODE, m.BETWEEN) else (names, "part")
+    for target in targets:
+        if target not in pool:
+            raise fail(f"{noun} {target!r} is not in this circuit{suggest(target, pool)}; "
+                       f"its {noun}s are {quoted_list(pool)}")
+    return m.Probe(kind, targets)
+
+
+def _event(raw: object, circuit: m.Circuit, where: Where, index: int) -> float:
+    label, path = expect_label(index), ("expect", index, "at")
+    at = where.quantity(raw, "s", path=path, part=label, field="at")
+    for event in circuit.events:
+        if abs(at - event) <= EVENT_REL * abs(event) + EVENT_ABS:
+            return event
+    shown = ", ".join(format_si(e, "s") for e in circuit.events[:12])
+    more = ", …" if len(circuit.events) > 12 else ""
+    raise where.error(f"at = {raw!r} is not an event of this circuit; the events (t = 0 and "
+                      f"every step of a source or switch) are {shown}{more}", path=path,
+                      part=label, field="at")
+
+
+def _hand_value(raw: object, dimension: str, values: dict, where: Where, index: int,
+                name: str) -> tuple[float, str | None]:
+    """(value in SI, formula text or None) for one hand field."""
+    label, path = expect_label(index), ("expect", index, name)
+    if not (isinstance(raw, str) and raw.lstrip().startswith("=")):
+        return where.quantity(raw, dimension, path=path, part=label, field=name), None
+    try:
+        from . import formula
+    except ImportError as exc:
+        raise where.error(f"formulas cannot be evaluated here ({exc})", path=path, part=label,
+                          field=name) from None
+    try:
+        value = formula.evaluate(raw, values, dimension)
+    except InputError as exc:
+        err = exc.located(file=where.source, part=label, field=name)
+        err.line = where.locator.line_of(path)
+        raise err from None
+    if isinstance(value, bool) or not isinstance(value, (int, float)) \
+            or not math.isfinite(value):
+        raise where.error(f"formula {raw!r} did not give a finite number", path=path,
+                          part=label, field=name, cls=UnitError)
+    return float(value), raw.strip()

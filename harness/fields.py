@@ -1,0 +1,262 @@
+"""The ``[parts]`` table of a circuit file: each part's fields checked and turned into ``Part``.
+
+Per kind (DESIGN.md, "The circuit model"): resistor, capacitor and inductor take a positive
+``value`` (ohm, F, H), capacitor and inductor an optional ``initial`` (V, A); voltage and current
+sources a ``value`` (V, A; the value before the first step) and optional ``steps``; switches a
+``state`` ("open"/"closed"), optional ``steps`` and optional ``on-resistance`` /
+``off-resistance``; controlled sources a ``gain`` (``value`` is accepted as a synonym) and a
+``control``.  Every part has ``kind`` and ``nodes = [p, n]``.
+"""
+
+from __future__ import annotations
+
+import math
+
+from . import model as m
+from .errors import InputError
+from .filelines import Where, name_problem, quoted_list, suggest
+
+#: upper limits a user can rely on (past them: an input error, not a hang)
+MAX_PARTS = 2000
+MAX_STEPS = 10000
+
+_COMMON = ("kind", "nodes")
+FIELDS_BY_KIND: dict[str, tuple[str, ...]] = {
+    m.RESISTOR: ("value",),
+    m.CAPACITOR: ("value", "initial"),
+    m.INDUCTOR: ("value", "initial"),
+    m.VOLTAGE_SOURCE: ("value", "steps"),
+    m.CURRENT_SOURCE: ("value", "steps"),
+    m.SWITCH: ("state", "steps", "on-resistance", "off-resistance"),
+    m.VCVS: ("gain", "value", "control"),
+    m.VCCS: ("gain", "value", "control"),
+    m.CCVS: ("gain", "value", "control"),
+    m.CCCS: ("gain", "value", "control"),
+}
+#: dimension of ``value`` (``gain`` for controlled sources), in units.UNITS terms
+VALUE_DIMENSION = {m.RESISTOR: "ohm", m.CAPACITOR: "F", m.INDUCTOR: "H",
+                   m.VOLTAGE_SOURCE: "V", m.CURRENT_SOURCE: "A",
+                   m.VCVS: "1", m.VCCS: "S", m.CCVS: "ohm", m.CCCS: "1"}
+INITIAL_DIMENSION = {m.CAPACITOR: "V", m.INDUCTOR: "A"}
+_ARTICLE = {m.INDUCTOR: "an"}
+_STATES = {"open": 0.0, "closed": 1.0}
+
+
+def _a(kind: str) -> str:
+    return f"{_ARTICLE.get(kind, 'a')} {kind}"
+
+
+def parse_parts(table: object, where: Where) -> tuple[m.Part, ...]:
+    """All parts of the ``[parts]`` table, in file order, with their controls checked.
+
+    Raises:
+        InputError (or UnitError): naming the part and field at fault.
+    """
+    if not isinstance(table, dict):
+        raise where.error("[parts] must be a table of name = { kind = ..., nodes = [...] }",
+                          path=("parts",), field="parts")
+    if not table:
+        raise where.error("the circuit has no parts; add them under [parts]", path=("parts",),
+                          field="parts")
+    if len(table) > MAX_PARTS:
+        raise where.error(f"the circuit has {len(table)} parts; the limit is {MAX_PARTS}",
+                          path=("parts",), field="parts")
+    specs = {name: _kind_of(name, spec, where) for name, spec in table.items()}
+    nodes = {node for spec in specs.values() for node in spec["nodes"]}
+    parts = []
+    for name, spec in specs.items():
+        _check_control(name, spec, specs, nodes, where)
+        parts.append(m.Part(line=where.locator.line_of(("parts", name)), **spec))
+    return tuple(parts)
+
+
+def _kind_of(name: str, spec: object, where: Where) -> dict:
+    """The ``Part`` keyword arguments of one entry (control resolved later)."""
+    path = ("parts", name)
+    problem = name_problem(name, "part name")
+    if problem:
+        raise where.error(problem, path=path, part=repr(name))
+    if not isinstance(spec, dict):
+        raise where.error(f"part {name} must be an inline table such as "
+                          f"{{ kind = \"resistor\", nodes = [\"a\", \"b\"], value = \"1k\" }}, "
+                          f"got {type(spec).__name__}", path=path, part=name)
+    kind = spec.get("kind")
+    if kind is None:
+        raise where.error(f"part {name} has no kind; give one of {quoted_list(m.KINDS)}",
+                          path=path, part=name, field="kind")
+    if kind not in m.KINDS:
+        raise where.error(f"unknown kind {kind!r}{suggest(str(kind), m.KINDS)}; the kinds are "
+                          f"{quoted_list(m.KINDS)}", path=path + ("kind",), part=name,
+                          field="kind")
+    allowed = _COMMON + FIELDS_BY_KIND[kind]
+    for key in spec:
+        if key not in allowed:
+            raise where.error(_unknown_field(key, kind, allowed), path=path + (key,), part=name,
+                              field=key)
+    out = {"name": name, "kind": kind, "nodes": _nodes(name, spec, where)}
+    if kind == m.SWITCH:
+        out.update(_switch(name, spec, where))
+    else:
+        out["value"] = _value(name, kind, spec, where)
+    if kind in INITIAL_DIMENSION and "initial" in spec:
+        out["initial"] = where.quantity(spec["initial"], INITIAL_DIMENSION[kind],
+                                        path=path + ("initial",), part=name, field="initial")
+    if kind in m.SOURCES and "steps" in spec:
+        out["steps"] = _steps(name, spec["steps"], where, VALUE_DIMENSION[kind])
+    if kind in m.VOLTAGE_CONTROLLED + m.CURRENT_CONTROLLED:
+        out["control"] = spec.get("control")
+    return out
+
+
+def _unknown_field(key: str, kind: str, allowed: tuple[str, ...]) -> str:
+    owners = [k for k, fields in FIELDS_BY_KIND.items() if key in fields]
+    text = f"{_a(kind)} has no field {key!r}"
+    if owners:
+        text += f" (it belongs to {', '.join(owners)})"
+    else:
+        text += suggest(key, allowed)
+    return text + f"; {_a(kind)} takes {quoted_list(allowed)}"
+
+
+def _nodes(name: str, spec: dict, where: Where) -> tuple[str, str]:
+    path = ("parts", name, "nodes")
+    raw = spec.get("nodes")
+    if raw is None:
+        raise where.error("no nodes; give nodes = [\"p\", \"n\"]", path=path, part=name,
+                          field="nodes")
+    if not isinstance(raw, list) or len(raw) != 2:
+        shown = f"{len(raw)} nodes" if isinstance(raw, list) else type(raw).__name__
+        raise where.error(f"nodes must be a list of two node names [\"p\", \"n\"], got {shown}",
+                          path=path, part=name, field="nodes")
+    for node in raw:
+        problem = name_problem(node, "node name")
+        if problem:
+            raise where.error(problem, path=path, part=name, field="nodes")
+    if raw[0] == raw[1]:
+        raise where.error(f"both terminals are on node {raw[0]!r}: a part must connect two "
+                          f"different nodes", path=path, part=name, field="nodes")
+    return (raw[0], raw[1])
+
+
+def _value(name: str, kind: str, spec: dict, where: Where) -> float:
+    field_name = "value"
+    if kind in m.VOLTAGE_CONTROLLED + m.CURRENT_CONTROLLED:
+        if "gain" in spec and "value" in spec:
+            raise where.error("give the gain once: 'gain' and 'value' mean the same here",
+                              path=("parts", name, "value"), part=name, field="value")
+        field_name = "gain" if "value" not in spec else "value"
+    path = ("parts", name, field_name)
+    if field_name not in spec:
+        raise where.error(f"{_a(kind)} needs a {field_name}", path=path, part=name,
+                          field=field_name)
+    value = where.quantity(spec[field_name], VALUE_DIMENSION[kind], path=path, part=name,
+                           field=field_name)
+    if kind in (m.RESISTOR, m.CAPACITOR, m.INDUCTOR) and not value > 0:
+        hint = (" (for a short use a switch with state = \"closed\")"
+                if kind == m.RESISTOR and value == 0 else "")
+        raise where.error(f"{_a(kind)}'s value must be greater than zero, got "
+                          f"{spec[field_name]!r}{hint}", path=path, part=name, field=field_name)
+    return value
+
+
+def _switch(name: str, spec: dict, where: Where) -> dict:
+    path = ("parts", name)
+    state = spec.get("state")
+    if state is None:
+        raise where.error("a switch needs state = \"open\" or \"closed\" (its state before the "
+                          "first step)", path=path + ("state",), part=name, field="state")
+    if not isinstance(state, str) or state not in _STATES:
+        raise where.error(f"state must be \"open\" or \"closed\", got {state!r}"
+                          f"{suggest(str(state), _STATES)}", path=path + ("state",), part=name,
+                          field="state")
+    out: dict = {"closed": state == "closed"}
+    for key, attr in (("on-resistance", "on_resistance"), ("off-resistance", "off_resistance")):
+        if key in spec:
+            value = where.quantity(spec[key], "ohm", path=path + (key,), part=name, field=key)
+            if not value > 0:
+                raise where.error(f"{key} must be greater than zero, got {spec[key]!r} (leave "
+                                  f"it out for an ideal switch)", path=path + (key,), part=name,
+                                  field=key)
+            out[attr] = value
+    on, off = out.get("on_resistance"), out.get("off_resistance")
+    if on is not None and off is not None and not off > on:
+        raise where.error(f"off-resistance ({spec['off-resistance']!r}) must be greater than "
+                          f"on-resistance ({spec['on-resistance']!r})",
+                          path=path + ("off-resistance",), part=name, field="off-resistance")
+    if "steps" in spec:
+        out["steps"] = _steps(name, spec["steps"], where, None)
+    return out
+
+
+def _steps(name: str, raw: object, where: Where, dimension: str | None) -> tuple:
+    """``steps`` as ((time s, value), ...); ``dimension`` None means switch states."""
+    path = ("parts", name, "steps")
+
+    def fail(message: str):
+        return where.error(message, path=path, part=name, field="steps")
+
+    example = '[["1 ms", "closed"]]' if dimension is None else '[["1 ms", "5 V"]]'
+    if not isinstance(raw, list):
+        raise fail(f"steps must be a list of [time, value] pairs such as {example}")
+    if len(raw) > MAX_STEPS:
+        raise fail(f"{len(raw)} steps; the limit is {MAX_STEPS} per schedule")
+    steps, last = [], -math.inf
+    for i, item in enumerate(raw, start=1):
+        if not isinstance(item, list) or len(item) != 2:
+            raise fail(f"step {i} must be a [time, value] pair such as {example}, got {item!r}")
+        try:
+            when = where.quantity(item[0], "s", path=path, part=name, field="steps")
+        except InputError as exc:
+            raise fail(f"step {i}: time: {exc.message}") from None
+        if when < 0:
+            raise fail(f"step {i}: time {item[0]!r} is before t = 0; steps start at 0 s or later")
+        if not when > last:
+            raise fail(f"step {i}: time {item[0]!r} is not after the previous step; give the "
+                       f"steps in strictly increasing time order")
+        last = when
+        if dimension is None:
+            if not isinstance(item[1], str) or item[1] not in _STATES:
+                raise fail(f"step {i}: a switch steps to \"open\" or \"closed\", got "
+                           f"{item[1]!r}")
+            value = _STATES[item[1]]
+        else:
+            try:
+                value = where.quantity(item[1], dimension, path=path, part=name, field="steps")
+            except InputError as exc:
+                raise fail(f"step {i}: value: {exc.message}") from None
+        steps.append((when, value))
+    return tuple(steps)
+
+
+def _check_control(name: str, spec: dict, specs: dict, nodes: set, where: Where) -> None:
+    kind = spec["kind"]
+    path = ("parts", name, "control")
+    raw = spec.get("control")
+
+    def fail(message: str):
+        return where.error(message, path=path, part=name, field="control")
+
+    if kind in m.VOLTAGE_CONTROLLED:
+        if not (isinstance(raw, list) and len(raw) == 2 and all(isinstance(x, str) for x in raw)):
+            raise fail(f"{_a(kind)} needs control = [\"cp\", \"cn\"]: the two nodes whose "
+                       f"voltage v(cp) - v(cn) it senses, got {raw!r}")
+        for node in raw:
+            if node not in nodes:
+                raise fail(f"control node {node!r} is not a node of this circuit"
+                           f"{suggest(node, nodes)}")
+        if raw[0] == raw[1]:
+            raise fail(f"both control nodes are {raw[0]!r}: the sensed voltage would always be 0")
+        spec["control"] = (raw[0], raw[1])
+    elif kind in m.CURRENT_CONTROLLED:
+        if not isinstance(raw, str):
+            raise fail(f"{_a(kind)} needs control = \"Vx\": the name of the part whose current "
+                       f"it senses, got {raw!r}")
+        if raw not in specs:
+            sensors = [n for n, s in specs.items() if s["kind"] in m.CURRENT_SENSORS]
+            raise fail(f"control part {raw!r} is not a part of this circuit"
+                       f"{suggest(raw, sensors)}; the parts whose current can be sensed are "
+                       f"{quoted_list(sensors)}")
+        sensed = specs[raw]["kind"]
+        if sensed not in m.CURRENT_SENSORS:
+            raise fail(f"control part {raw} is {_a(sensed)}; the sensed current must be that "
+                       f"of a {', '.join(m.CURRENT_SENSORS[:-1])} or {m.CURRENT_SENSORS[-1]}")
