@@ -83,8 +83,10 @@ def _finish_check(args, result) -> None:
         if table:
             print(table)
         print(render_summary(result))
-        if written:
-            print(f"reports: {', '.join(str(p) for p in written)}")
+        main_files = [p for p in written if p.parent == Path(args.report_dir)]
+        if main_files:
+            print(f"reports in {args.report_dir}/: {', '.join(p.name for p in main_files)}"
+                  f" (+{len(written) - len(main_files)} plots)")
 
 
 if __name__ == "__main__":  # pragma: no cover

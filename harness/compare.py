@@ -131,7 +131,7 @@ def make_trace(ctx: CheckContext, exp: Expectation, fe: Features) -> Trace:
     if ctx.numeric is not None:
         numeric_x = np.asarray(ctx.numeric.waveform(exp.probe, ctx.k, t), dtype=float)
         swing = max(abs((fe.after or 0.0) - (fe.final if fe.final is not None else closed[-1])),
-                    float(np.ptp(closed)), tol.ENGINE_FLOOR * ctx.scale, 1e-300)
+                    float(np.ptp(closed)), tol.WAVEFORM_SWING_FLOOR * ctx.scale, 1e-300)
         deviation = float(np.nanmax(np.abs(numeric_x - closed)) / swing)
     hand_t, hand_x = _hand_curve(exp, fe, t)
     return Trace(unit=exp.probe.dimension, numeric_t=numeric_t, numeric_x=numeric_x,

@@ -20,6 +20,9 @@ ENGINE_RELATIVE = 1e-4
 ENGINE_FLOOR = 1e-6
 #: whole-waveform comparison: largest deviation relative to the interval's swing
 WAVEFORM_RELATIVE = 1e-3
+#: the swing used for that comparison is at least this fraction of the probe's scale, so an
+#: interval where the probe hardly moves is not judged on its noise
+WAVEFORM_SWING_FLOOR = 1e-2
 #: a mode is visible in a probe when its amplitude exceeds this fraction of the probe's scale
 MODE_VISIBILITY = 1e-6
 #: two modes are the same mode when their rates agree to this relative amount

@@ -46,7 +46,8 @@ def _failure_rows(file: FileResult, check: CheckResult) -> list[list[str]]:
         rows.append([file.file, label, field.name, common.value(field.hand, unit),
                      common.value(field.closed_form, unit), common.value(field.numeric, unit),
                      field.verdict, field.message])
-    extra = [m for m in check.messages if m not in {r[-1] for r in rows}]
+    shown = {r[-1] for r in rows} | {f"{r[2]}: {r[-1]}" for r in rows}
+    extra = [m for m in check.messages if m not in shown]
     if extra or not rows:
         rows.append([file.file, label, "—", "", "", "", check.verdict,
                      "; ".join(extra) or check.note])
