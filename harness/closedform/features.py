@@ -1,0 +1,162 @@
+"""Per-probe, per-event features from the exact interval responses.
+
+For a probe y = c~.x~ + d~.dx~/dtau + k (``probes.Functional.terms``) and interval k:
+
+* after  = y at tau = 0+ (the right limit, after any impulse);
+* before = y at t_k- from interval k-1 (or from the pre-step response at 0-);
+* per mode cluster j the output row h_j = c~ Q1 V_j + d~ Q1 V_j T_j and the polynomial
+  coefficients a_m = h_j N_j^m W_j z0 (``modes.poly_coefficients``);
+* final  = c~.x_p + k + a_0 of the zero cluster (trapped charge), or None when a growing mode, an
+  undamped oscillation or polynomial growth of the zero cluster is visible in the probe.
+
+A cluster is visible when max_m |a_m| / sigma^m exceeds ``MODE_VISIBILITY`` times the probe's
+scale (sigma = |Re lambda|, the mode's own time scale); its order contribution is 1 + the highest
+visible m (a repeated non-defective mode shows as one exponential, a defective one of size m as
+a polynomial of degree m-1).  The probe's scale is the largest magnitude it takes at any event
+(before, after, final and mode amplitudes), floored by a small fraction of the circuit's own
+voltage (current) scale so that rounding noise in a probe that is identically zero stays
+invisible.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..results import Features
+from ..tolerances import MODE_MERGE, MODE_VISIBILITY
+from .modes import UNDAMPED, poly_coefficients
+from .response import IntervalResponse
+
+#: the scale floor, as a fraction of the circuit's voltage (current) scale
+SCALE_FLOOR = 1e-9
+
+
+@dataclass(frozen=True)
+class RawEvent:
+    """Unclassified values of one probe at one event (SI units).
+
+    Attributes:
+        before, after, constant: y(t_k-), y(t_k+), and the constant part of interval k.
+        clusters: (scaled rate, polynomial coefficients a_m) per non-zero cluster.
+        growth: a_m for m >= 1 of the zero cluster (polynomial growth), shape (m-1,).
+        span: the length of interval k's span in scaled time (for growth amplitudes).
+    """
+
+    before: float | None
+    after: float | None
+    constant: float | None
+    clusters: tuple[tuple[complex, np.ndarray], ...]
+    growth: np.ndarray
+    span: float
+
+
+def _finite(value: complex | float) -> float | None:
+    value = complex(value)
+    return value.real if math.isfinite(value.real) and math.isfinite(value.imag) else None
+
+
+def raw_event(resp: IntervalResponse, before: tuple[np.ndarray, np.ndarray, np.ndarray,
+                                                   np.ndarray, float],
+              after: tuple[np.ndarray, np.ndarray, float], span: float) -> RawEvent:
+    """Raw values of a probe at the start of ``resp``.
+
+    Args:
+        before: (x~, dx~/dtau, c~, d~, k) just before the event: the state and the probe's
+            terms in the previous interval (shapes (n,)).
+        after: the probe's terms (c~, d~, k) in this interval, padded to ``resp.xp.size``.
+        span: the length of the interval's span in scaled time.
+    """
+    x_m, dx_m, c_m, d_m, k_m = before
+    ca, da, k = after
+    n = resp.n
+    clusters = []
+    growth = np.zeros(0, dtype=complex)
+    with np.errstate(invalid="ignore", over="ignore"):     # a state beyond range reads None
+        value_before = _finite(c_m[:n] @ x_m + d_m[:n] @ dx_m + k_m)
+        value_after = _finite(ca[:n] @ resp.x_plus + da[:n] @ resp.dx_plus + k)
+        constant = complex(ca @ resp.xp + k)
+        for data in resp.clusters:
+            h = ca @ data.qv + da @ data.qvt
+            coeffs = poly_coefficients(h, data.cluster, data.g)
+            if data.cluster.zero:
+                constant += coeffs[0]
+                growth = coeffs[1:]
+            else:
+                clusters.append((complex(data.cluster.rate), coeffs))
+    return RawEvent(value_before, value_after, _finite(constant), tuple(clusters), growth, span)
+
+
+def _amplitudes(rate: complex, coeffs: np.ndarray) -> np.ndarray:
+    sigma = abs(rate.real) if abs(rate.real) > UNDAMPED * abs(rate) else abs(rate)
+    return np.array([abs(a) / sigma ** m for m, a in enumerate(coeffs)])
+
+
+def probe_scale(events: list[RawEvent], floor: float) -> float:
+    """The probe's scale: its largest magnitude over all events, at least ``floor``."""
+    mags = [floor]
+    for ev in events:
+        mags += [abs(v) for v in (ev.before, ev.after, ev.constant) if v is not None]
+        for rate, coeffs in ev.clusters:
+            amps = _amplitudes(rate, coeffs)
+            if np.all(np.isfinite(amps)):
+                mags.append(float(amps.max()))
+    return max(mags)
+
+
+def _merge(taus: list[float]) -> tuple[float, ...]:
+    out: list[float] = []
+    for tau in sorted(taus, reverse=True):
+        if not out or abs(out[-1] - tau) > MODE_MERGE * max(out[-1], tau):
+            out.append(tau)
+    return tuple(out)
+
+
+def classify(ev: RawEvent, scale: float, t_ref: float) -> Features:
+    """Features of one probe at one event from its raw values (``t_ref`` = T in s)."""
+    thr = MODE_VISIBILITY * scale
+    order, taus, freqs, notes = 0, [], [], []
+    real_visible, complex_visible = 0, 0
+    bounded = True
+    for rate, coeffs in ev.clusters:
+        amps = _amplitudes(rate, coeffs)
+        if not np.all(np.isfinite(amps)):
+            bounded = False
+            notes.append("the response has grown beyond floating-point range")
+            continue
+        visible = np.flatnonzero(amps > thr)
+        if visible.size == 0:
+            continue
+        lam = rate / t_ref
+        if abs(lam.real) <= UNDAMPED * abs(lam):
+            bounded = False
+            if lam.imag > 0:
+                freqs.append(lam.imag / (2 * math.pi))
+                notes.append(f"oscillates without decay at {lam.imag / (2 * math.pi):.6g} Hz")
+        elif lam.real > 0:
+            bounded = False
+            notes.append(f"grows without bound (a growing mode, rate {lam.real:.6g} 1/s)")
+        else:
+            order += 1 + int(visible.max())
+            taus.append(-1.0 / lam.real)
+            if abs(lam.imag) > MODE_MERGE * abs(lam):
+                complex_visible += 1
+                if lam.imag > 0:
+                    freqs.append(lam.imag / (2 * math.pi))
+            else:
+                real_visible += 1
+    if ev.growth.size and np.any(
+            [abs(a) * ev.span ** (m + 1) / math.factorial(m + 1) > thr
+             for m, a in enumerate(ev.growth)]):
+        bounded = False
+        notes.append("grows without bound (charge with no DC path)")
+    if ev.before is None or ev.after is None:
+        notes.append("the response has grown beyond floating-point range")
+    notes = list(dict.fromkeys(notes))
+    modes = _merge(taus)
+    tau = modes[0] if (order == 1 and real_visible == 1 and complex_visible == 0) else None
+    final = ev.constant if bounded else None
+    return Features(before=ev.before, after=ev.after, final=final, tau=tau, order=order,
+                    modes=modes, oscillation=tuple(sorted(set(freqs))), notes=tuple(notes))

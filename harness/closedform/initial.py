@@ -1,0 +1,174 @@
+"""The storage state at t = 0- (DESIGN.md "Initial state").
+
+Without any ``initial``, the state is the DC steady state of the pre-step circuit (every source at
+its pre-step value, every switch in its pre-step state): capacitors open, inductors shorted.  With
+some ``initial`` values, each such capacitor is held as a voltage source at its initial voltage and
+each such inductor as a current source at its initial current, and the other storage values come
+from the DC solve of that network.  The result fixes the charges and fluxes at 0-; the values at
+0- of every other quantity follow in ``response.prestep`` from the resistive network at 0-
+(capacitors replaced by their voltages, inductors by their currents).
+
+Errors (``InitialStateError``, naming part and field): initial values that contradict the circuit
+(a least-squares residual), and storage parts whose pre-step value the DC solve leaves undefined
+(a capacitor on a node with no DC path, inductors in a loop of shorts).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InitialStateError
+from ..model import (CAPACITOR, CCCS, CURRENT_SOURCE, INDUCTOR, SWITCH, VCCS, Circuit, Part)
+from .linalg import least_squares
+from .mna import Layout, Scale, floating_groups, stamp, voltage_row
+
+_RESIDUAL = 1e-9
+_NULL = 1e-12
+
+
+def _pre_closed(circuit: Circuit) -> dict[str, bool]:
+    return {p.name: p.is_closed_before(0.0) for p in circuit.parts if p.kind == SWITCH}
+
+
+def _dc_connects(part: Part) -> bool:
+    """Whether a part joins its nodes in the DC network used at 0-."""
+    if part.kind in (CURRENT_SOURCE, VCCS, CCCS):
+        return False
+    if part.kind == CAPACITOR:
+        return part.initial is not None
+    if part.kind == INDUCTOR:
+        return part.initial is None
+    if part.kind == SWITCH:
+        return bool(part.is_closed_before(0.0)) or bool(part.off_resistance)
+    return True
+
+
+def _check_defined(circuit: Circuit, groups: list[list[str]]) -> None:
+    """A capacitor without ``initial`` with a terminal in a DC-floating group has no DC value."""
+    group_of = {node: gi for gi, g in enumerate(groups) for node in g}
+    for part in circuit.parts:
+        if part.kind != CAPACITOR or part.initial is not None:
+            continue
+        gp, gn = group_of.get(part.p), group_of.get(part.n)
+        if (gp is not None or gn is not None) and gp != gn:
+            node = part.p if gp is not None else part.n
+            raise InitialStateError(
+                f"the voltage of {part.name} before t = 0 is undefined: node {node} has no DC "
+                f"path (it is reached only through capacitors or open switches); give "
+                f"{part.name} an initial voltage", file=circuit.source, part=part.name,
+                field="initial", line=part.line)
+
+
+def _dc_system(circuit: Circuit, layout: Layout, scale: Scale):
+    """Scaled DC matrix, right side and the extra rows' owners (capacitors held by ``initial``)."""
+    g, _, b = stamp(circuit, layout, _pre_closed(circuit),
+                    lambda p: p.source_value_before(0.0))
+    held = [p for p in circuit.parts if p.kind == CAPACITOR and p.initial is not None]
+    n, m = layout.size, len(held)
+    gd = np.zeros((n + m, n + m))
+    bd = np.zeros(n + m)
+    gd[:n, :n], bd[:n] = g, b
+    for part in circuit.parts:
+        if part.kind == INDUCTOR and part.initial is not None:
+            j = layout.branch(part.name)
+            gd[j, :] = 0.0
+            gd[j, j] = 1.0
+            bd[j] = part.initial
+    for k, part in enumerate(held):
+        vrow = voltage_row(layout, part.p, part.n)
+        gd[:n, n + k] += vrow                 # KCL: the held current leaves p, enters n
+        gd[n + k, :n] = vrow
+        bd[n + k] = part.initial
+    d = np.concatenate([scale.var(layout), np.full(m, 1.0 / scale.r0)])
+    e = np.concatenate([scale.row(layout), np.ones(m)])
+    return e[:, None] * gd * d[None, :], e * bd, held
+
+
+def _row_owner(circuit: Circuit, layout: Layout, held: list[Part], row: int) -> Part | None:
+    if row >= layout.size:
+        return held[row - layout.size]
+    if row >= layout.n_nodes:
+        return circuit.part(layout.branches[row - layout.n_nodes])
+    return None
+
+
+def _inconsistent(circuit: Circuit, layout: Layout, held: list[Part], resid: np.ndarray) -> None:
+    """Raise the error that names the parts whose equations the residual sits on."""
+    rows = [i for i in np.argsort(-np.abs(resid)) if abs(resid[i]) > 1e-6 * np.abs(resid).max()]
+    owners = [_row_owner(circuit, layout, held, int(i)) for i in rows]
+    storage = [p for p in owners if p is not None and p.initial is not None]
+    if storage:
+        part = storage[0]
+        names = ", ".join(dict.fromkeys(p.name for p in owners if p is not None))
+        raise InitialStateError(
+            f"the initial value of {part.name} contradicts the circuit at 0- (the equations of "
+            f"{names} cannot all hold)", file=circuit.source, part=part.name, field="initial",
+            line=part.line)
+    parts = [p for p in owners if p is not None]
+    if parts:
+        part = parts[0]
+        raise InitialStateError(
+            f"{part.name} is shorted by a loop of voltage-type parts and inductors before t = 0: "
+            f"the DC state at 0- does not exist", file=circuit.source, part=part.name,
+            field="value", line=part.line)
+    nodes = {layout.nodes[int(i)] for i in rows if i < layout.n_nodes}
+    held = [p for p in circuit.parts if p.kind == INDUCTOR and p.initial is not None
+            and (p.p in nodes or p.n in nodes)]
+    if held:
+        raise InitialStateError(
+            f"the initial currents of {', '.join(p.name for p in held)} contradict Kirchhoff's "
+            f"current law at node(s) {', '.join(sorted(nodes))} at 0-", file=circuit.source,
+            part=held[0].name, field="initial", line=held[0].line)
+    feeders = [p for p in circuit.parts if p.kind in (CURRENT_SOURCE, VCCS, CCCS)
+               and (p.p in nodes or p.n in nodes)]
+    part = feeders[0] if feeders else None
+    raise InitialStateError(
+        f"current into node(s) {', '.join(sorted(nodes))} has no DC path before t = 0: the DC "
+        f"state at 0- does not exist", file=circuit.source, part=part.name if part else None,
+        field="value" if part else None, line=part.line if part else None)
+
+
+def _check_unique(circuit: Circuit, layout: Layout, scale: Scale, gd: np.ndarray) -> None:
+    """Storage values that the DC system leaves free are undefined."""
+    _, sv, vh = np.linalg.svd(gd)
+    null = vh[sv <= _NULL * max(sv.max(), 1e-300)]
+    if null.shape[0] == 0:
+        return
+    d = scale.var(layout)
+    for part in circuit.parts:
+        if part.initial is not None or part.kind not in (CAPACITOR, INDUCTOR):
+            continue
+        if part.kind == CAPACITOR:
+            row = voltage_row(layout, part.p, part.n) * d
+        else:
+            row = np.zeros(layout.size)
+            row[layout.branch(part.name)] = 1.0
+        row = np.concatenate([row, np.zeros(gd.shape[0] - layout.size)])
+        if np.max(np.abs(null @ row)) > 1e-6:
+            raise InitialStateError(
+                f"the {'voltage' if part.kind == CAPACITOR else 'current'} of {part.name} before "
+                f"t = 0 is undefined by the DC circuit; give it an initial value",
+                file=circuit.source, part=part.name, field="initial", line=part.line)
+
+
+def dc_state(circuit: Circuit, layout: Layout, scale: Scale) -> np.ndarray:
+    """The scaled state x~ at 0- from the DC solve, shape (n,); its charges and fluxes C~ x~ are
+    the storage state at 0-.
+
+    Raises:
+        InitialStateError: contradicting initial values or undefined pre-step storage values.
+    """
+    groups = floating_groups(circuit, _dc_connects)
+    _check_defined(circuit, groups)
+    gd, bd, held = _dc_system(circuit, layout, scale)
+    pinned = gd.copy()
+    for group in groups:                       # undefined common modes of DC islands: 0 V
+        i = layout.node(group[0])
+        pinned[i, i] += 1.0
+    x, _, consistent = least_squares(pinned, bd)
+    resid = bd - gd @ x                        # a pin that carries current hides a contradiction
+    if not consistent or np.linalg.norm(resid) > _RESIDUAL * (
+            np.linalg.norm(gd) * np.linalg.norm(x) + np.linalg.norm(bd)):
+        _inconsistent(circuit, layout, held, resid)
+    _check_unique(circuit, layout, scale, pinned)
+    return x[:layout.size]

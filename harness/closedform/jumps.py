@@ -1,0 +1,211 @@
+"""What happens at the instant of an event: impulsive charges and fluxes, dissipated energy.
+
+Integrating C~ x' + G~ x = b~ over the instant (b~ is finite, so its integral vanishes) gives
+
+    C~ (x+ - x-) + G~ q = 0,     q = integral of x over the instant,
+
+the impulse weights: impulsive charge for currents, impulsive flux (V s) for voltages.  For the
+index-2 structures of MNA with step inputs the response carries no derivative of an impulse, so
+C~ q = 0 as well (a capacitor voltage or inductor current is never itself impulsive); together
+these fix q uniquely for a regular pencil, solved here by least squares on the stacked system.
+This is the textbook impulse-current argument ("only capacitor and source currents can be
+impulsive") made general.
+
+Energy dissipated at the instant = stored before - stored after + work of the independent
+sources during the impulse (a voltage source V delivers -V(t_k+) q, q its charge p -> n through
+it; a current source I delivers -I(t_k+) phi, phi its impulsive flux p - n).  It is None when a
+controlled source or a resistor carries an impulse (the product of an impulse with a jump, or an
+impulse squared, has no value).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, SWITCH, VCCS,
+                     VCVS, VOLTAGE_SOURCE, Circuit)
+from ..results import Jump
+from ..units import format_si
+from .linalg import least_squares
+from .mna import BRANCH_KINDS, Layout, Scale, current_row, voltage_row
+
+#: impulse weights below this fraction of the circuit's charge (flux) scale count as zero
+SIGNIFICANT = 1e-9
+#: ... and so do those below this fraction of the largest one in the same jump (rounding)
+RELATIVE = 1e-9
+#: a capacitor's charge change below this fraction of C times the node-voltage scale is rounding
+CAP_ROUNDING = 1e-12
+
+
+@dataclass(frozen=True)
+class Scales:
+    """Magnitudes that set the 'zero' of a jump: the largest node voltage V in V, charge V C_min
+    in C, flux V T in V s, current in A."""
+
+    voltage: float
+    charge: float
+    flux: float
+    current: float
+
+
+def _significant(circuit: Circuit, charges: dict, fluxes: dict, scales: Scales,
+                 rounding: tuple[float, float]) -> tuple[dict, dict]:
+    """The charges and fluxes that are not rounding.
+
+    A capacitor's charge counts above CAP_ROUNDING * C * V (its own scale); other charges and all
+    fluxes above the largest of: SIGNIFICANT times the circuit's scale, the rounding level of the
+    impulse solve, RELATIVE times the largest of their kind.
+    """
+    q_big = max((abs(v) for v in charges.values()), default=0.0)
+    f_big = max((abs(v) for v in fluxes.values()), default=0.0)
+    q_floor = max(SIGNIFICANT * scales.charge, rounding[0], RELATIVE * q_big)
+    f_floor = max(SIGNIFICANT * scales.flux, rounding[1], RELATIVE * f_big)
+    sig_q = {}
+    for name, q in charges.items():
+        part = circuit.part(name)
+        floor = CAP_ROUNDING * part.value * scales.voltage if part.kind == CAPACITOR else q_floor
+        if abs(q) > floor:
+            sig_q[name] = q
+    return sig_q, {n: f for n, f in fluxes.items() if abs(f) > f_floor}
+
+
+def impulse_weights(g: np.ndarray, c: np.ndarray, x_minus: np.ndarray,
+                    x_plus: np.ndarray) -> np.ndarray | None:
+    """Scaled q~ with G~ q~ = -C~ (x+ - x-) and C~ q~ = 0, shape (n,); None if inconsistent.
+
+    A row's charge/flux change below its rounding level (1e-12 times the row's largest entry of
+    |C~| times the largest |x|) counts as none.
+    """
+    rhs_top = -c @ (x_plus - x_minus)
+    size = max(np.abs(x_minus).max(initial=0.0), np.abs(x_plus).max(initial=0.0))
+    noise = 1e-12 * np.abs(c).max(axis=1, initial=0.0) * size
+    rhs_top[np.abs(rhs_top) <= noise] = 0.0
+    if not np.any(rhs_top):
+        return np.zeros(g.shape[0])
+    stack = np.vstack([g, c])
+    rhs = np.concatenate([rhs_top, np.zeros(c.shape[0])])
+    q, _, consistent = least_squares(stack, rhs)
+    return q if consistent else None
+
+
+def stored_energy(circuit: Circuit, layout: Layout, x: np.ndarray) -> dict[str, float]:
+    """Energy in J of each capacitor (C v^2 / 2) and inductor (L i^2 / 2) for unscaled x."""
+    out = {}
+    for part in circuit.parts:
+        if part.kind == CAPACITOR:
+            v = voltage_row(layout, part.p, part.n) @ x
+            out[part.name] = float(0.5 * part.value * v * v)
+        elif part.kind == INDUCTOR:
+            i = x[layout.branch(part.name)]
+            out[part.name] = float(0.5 * part.value * i * i)
+    return out
+
+
+def _charges(circuit: Circuit, layout: Layout, q: np.ndarray, dx: np.ndarray) -> dict[str, float]:
+    """Impulsive charge p -> n through every part (unscaled q, dx)."""
+    out = {}
+    for part in circuit.parts:
+        if part.kind == CAPACITOR:
+            out[part.name] = float(part.value * (voltage_row(layout, part.p, part.n) @ dx))
+        elif part.kind in BRANCH_KINDS or part.kind in (RESISTOR, VCCS, CCCS):
+            out[part.name] = float(current_row(circuit, layout, part.name) @ q)
+    return out
+
+
+def _fluxes(circuit: Circuit, layout: Layout, q: np.ndarray) -> dict[str, float]:
+    return {p.name: float(voltage_row(layout, p.p, p.n) @ q) for p in circuit.parts}
+
+
+def _energy(circuit: Circuit, before: dict, after: dict, charges: dict, fluxes: dict,
+            values: dict) -> float | None:
+    """Stored energy lost plus source work during the impulse (None if undefined).
+
+    ``charges`` and ``fluxes`` hold the significant impulse weights only.
+    """
+    work = 0.0
+    for part in circuit.parts:
+        q, phi = charges.get(part.name, 0.0), fluxes.get(part.name, 0.0)
+        if part.kind in (VCVS, CCVS, VCCS, CCCS, RESISTOR):
+            if q or phi:
+                return None
+        elif part.kind == VOLTAGE_SOURCE:
+            work -= values[part.name] * q
+        elif part.kind == CURRENT_SOURCE:
+            work -= values[part.name] * phi
+    return float(sum(before.values()) - sum(after.values()) + work)
+
+
+def _warnings(circuit: Circuit, layout: Layout, time: float, x_minus: np.ndarray,
+              x_plus: np.ndarray, fluxes: dict, scales: Scales) -> tuple[str, ...]:
+    """Interrupted or forced inductor currents (``fluxes``: the significant voltage impulses)."""
+    jumped = [p for p in circuit.parts if p.kind == INDUCTOR and abs(
+        x_plus[layout.branch(p.name)] - x_minus[layout.branch(p.name)]) > 1e-6 * scales.current]
+    if not jumped:
+        return ()
+    openers = [p for p in circuit.parts if p.kind == SWITCH and p.is_closed_before(time)
+               and not p.is_closed(time) and p.name in fluxes]
+    out = []
+    when = format_si(time, "s")
+    for sw in openers:
+        for ind in jumped:
+            cut = abs(x_minus[layout.branch(ind.name)])
+            out.append(f"at {when} opening {sw.name} interrupts {format_si(cut, 'A')} in "
+                       f"{ind.name} with no other path: the voltage across {sw.name} is unbounded")
+    if not openers:
+        across = [p.name for p in circuit.parts if p.kind != INDUCTOR and p.name in fluxes]
+        for ind in jumped:
+            a = x_minus[layout.branch(ind.name)]
+            b = x_plus[layout.branch(ind.name)]
+            out.append(f"at {when} the current of {ind.name} is forced to jump from "
+                       f"{format_si(a, 'A')} to {format_si(b, 'A')}: the voltage across "
+                       f"{', '.join(across) or ind.name} is impulsive")
+    return tuple(out)
+
+
+def _loops(charges: dict, fluxes: dict) -> tuple[str, ...]:
+    out = []
+    moved = list(charges)
+    if moved:
+        out.append(f"impulsive current through {', '.join(moved)} (capacitors in a loop with "
+                   f"voltage-type parts or with each other)")
+    kicked = list(fluxes)
+    if kicked:
+        out.append(f"impulsive voltage across {', '.join(kicked)} (inductors in a cutset with "
+                   f"current sources or opening switches)")
+    return tuple(out)
+
+
+def jump_at(circuit: Circuit, layout: Layout, scale: Scale, g: np.ndarray, c: np.ndarray,
+            x_minus: np.ndarray, x_plus: np.ndarray, time: float, values: dict,
+            scales: Scales) -> Jump:
+    """The Jump at ``time`` from the scaled states just before and after, shapes (n,).
+
+    ``g``, ``c`` are the scaled matrices of the interval that starts at ``time``; ``values`` the
+    independent source values in that interval.
+    """
+    d = scale.var(layout)
+    xm, xp = d * x_minus, d * x_plus
+    with np.errstate(invalid="ignore", over="ignore"):
+        before, after = stored_energy(circuit, layout, xm), stored_energy(circuit, layout, xp)
+    if not (np.all(np.isfinite(xm)) and np.all(np.isfinite(xp))):
+        return Jump(time, energy=None, stored_before=before, stored_after=after,
+                    warnings=(f"at {format_si(time, 's')} the state has grown beyond floating "
+                              f"point range; nothing is reported",))
+    q_scaled = impulse_weights(g, c, x_minus, x_plus)
+    if q_scaled is None:
+        return Jump(time, energy=None, stored_before=before, stored_after=after,
+                    warnings=(f"at {format_si(time, 's')} the jump carries a derivative of an "
+                              f"impulse; charges are not reported",))
+    q = scale.t * d * q_scaled
+    charges = _charges(circuit, layout, q, xp - xm)
+    fluxes = _fluxes(circuit, layout, q)
+    qmax = float(np.abs(q_scaled).max(initial=0.0))     # rounding is relative to this, scaled
+    rounding = (RELATIVE * qmax * scale.t / scale.r0, RELATIVE * qmax * scale.t)
+    charges, fluxes = _significant(circuit, charges, fluxes, scales, rounding)
+    energy = _energy(circuit, before, after, charges, fluxes, values) if charges or fluxes \
+        else 0.0                                  # nothing impulsive: storage is continuous
+    warnings = _warnings(circuit, layout, time, xm, xp, fluxes, scales)
+    loops = _loops(charges, fluxes)
+    return Jump(time, charges, fluxes, energy, before, after, loops, warnings)

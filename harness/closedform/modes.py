@@ -1,0 +1,173 @@
+"""Natural modes of one interval: clustering the eigenvalues of A and splitting A by cluster.
+
+A (f x f, real, scaled time) is the dynamics of the dynamic coordinates z (z' = A z).  Its
+eigenvalues are grouped into clusters: the zero cluster (|lambda| <= zero_tol: trapped charge and
+flux, and the constant of an unbounded ramp), and clusters of eigenvalues that agree to
+``tolerances.MODE_MERGE`` relative (identical modes merged, defective ones included).  A is then
+block-diagonalised by cluster, A = sum_j V_j T_j W_j with W_j V_k = delta_jk, through successive
+ordered complex Schur forms and Sylvester decoupling (Golub & Van Loan, Matrix Computations,
+sec. 7.6.3 "block diagonalization").  A probe y = h z then reads, per cluster,
+
+    y_j(tau) = h V_j expm(T_j tau) W_j z0 = e^(lambda_j tau) * sum_m a_m tau^m / m!,
+    a_m = h V_j (T_j - lambda_j I)^m W_j z0,
+
+so a repeated non-defective mode shows as one exponential and a defective one as a polynomial
+times an exponential.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg as sla
+
+from ..tolerances import MODE_MERGE
+
+#: a complex rate whose |Re| is below this fraction of |lambda| has no decay (an undamped swing)
+UNDAMPED = 1e-9
+
+
+@dataclass(frozen=True)
+class Cluster:
+    """One group of equal eigenvalues of A (scaled units).
+
+    Attributes:
+        rate: the cluster's eigenvalue (mean of its members; exactly 0 for the zero cluster).
+        block: T_j, shape (m, m), complex: A V_j = V_j T_j.
+        right: V_j, shape (f, m), complex.
+        left: W_j, shape (m, f), complex.
+        zero: True for the zero cluster.
+    """
+
+    rate: complex
+    block: np.ndarray
+    right: np.ndarray
+    left: np.ndarray
+    zero: bool
+
+    @property
+    def size(self) -> int:
+        return self.block.shape[0]
+
+    @property
+    def nilpotent(self) -> np.ndarray:
+        """T_j - lambda_j I, shape (m, m)."""
+        return self.block - self.rate * np.eye(self.size)
+
+
+@dataclass(frozen=True)
+class Mode:
+    """One natural mode of an interval, in SI units.
+
+    Attributes:
+        rate: lambda in 1/s (complex; x ~ e^(lambda t)).
+        tau: -1/Re(lambda) in s for a decaying mode, else None.
+        frequency: |Im(lambda)|/(2 pi) in Hz (0 for a real mode).
+        multiplicity: how many eigenvalues the mode stands for (merged identical ones).
+        kind: "decaying", "growing", "undamped" or "constant" (lambda = 0: trapped charge/flux).
+    """
+
+    rate: complex
+    tau: float | None
+    frequency: float
+    multiplicity: int
+    kind: str
+
+
+def group_rates(rates: np.ndarray, zero_tol: float) -> list[list[int]]:
+    """Indices of ``rates`` grouped into clusters: the zero cluster first (if any), then groups
+    joined by single linkage at relative distance MODE_MERGE, slowest |lambda| first."""
+    zero = [i for i, r in enumerate(rates) if abs(r) <= zero_tol]
+    rest = sorted((i for i in range(len(rates)) if i not in zero), key=lambda i: abs(rates[i]))
+    groups: list[list[int]] = []
+    for i in rest:
+        home = None
+        for g in groups:
+            if any(abs(rates[i] - rates[j]) <= MODE_MERGE * max(abs(rates[i]), abs(rates[j]))
+                   for j in g):
+                home = g
+                break
+        if home is None:
+            groups.append([i])
+        else:
+            home.append(i)
+    return ([zero] if zero else []) + groups
+
+
+def _split(tmat: np.ndarray, member) -> tuple[int, np.ndarray, np.ndarray, np.ndarray]:
+    """Ordered Schur form of ``tmat`` with ``member`` eigenvalues first, decoupled.
+
+    Returns (m, U, S, X): tmat = U S U^H, S = [[S11, S12], [0, S22]] with S11 (m x m) the
+    cluster, and X solving S11 X - X S22 = -S12.
+    """
+    s, u, m = sla.schur(tmat, output="complex", sort=member)
+    s11, s12, s22 = s[:m, :m], s[:m, m:], s[m:, m:]
+    if m == 0 or m == s.shape[0]:
+        return m, u, s, np.zeros((m, s.shape[0] - m), dtype=complex)
+    x = sla.solve_sylvester(s11, -s22, -s12)
+    return m, u, s, x
+
+
+def clusters_of(a: np.ndarray, zero_tol: float) -> tuple[Cluster, ...]:
+    """Block-diagonalise A by eigenvalue cluster (see the module docstring)."""
+    f = a.shape[0]
+    if f == 0:
+        return ()
+    rates = np.linalg.eigvals(a)
+    groups = group_rates(rates, zero_tol)
+    z = np.eye(f, dtype=complex)          # right basis of the part not yet split off
+    y = np.eye(f, dtype=complex)          # left basis: y z = I, A z = z tmat
+    tmat = a.astype(complex)
+    out = []
+    for gi, group in enumerate(groups):
+        members = rates[group]
+        is_zero = gi == 0 and all(abs(r) <= zero_tol for r in members)
+        center = 0.0 if is_zero else complex(np.mean(members))
+        spread = max(abs(r - center) for r in members)
+        radius = zero_tol * 2 if is_zero else max(3 * spread, 0.3 * MODE_MERGE * abs(center))
+        if gi == len(groups) - 1:
+            out.append(Cluster(center, tmat, z, y, is_zero))
+            break
+        m, u, s, x = _split(tmat, lambda w, c=center, r=radius: abs(w - c) <= r)
+        u1, u2 = u[:, :m], u[:, m:]
+        left_u = u.conj().T
+        right_c = z @ u1
+        left_c = (left_u[:m] - x @ left_u[m:]) @ y
+        out.append(Cluster(center, s[:m, :m], right_c, left_c, is_zero))
+        z = z @ (u1 @ x + u2)
+        y = left_u[m:] @ y
+        tmat = s[m:, m:]
+        if tmat.shape[0] == 0:
+            break
+    return tuple(out)
+
+
+def mode_of(cluster: Cluster, t_ref: float) -> Mode:
+    """The SI mode of a cluster; ``t_ref`` is the scaling time T in s."""
+    rate = complex(cluster.rate) / t_ref
+    freq = abs(rate.imag) / (2 * math.pi)
+    if cluster.zero:
+        return Mode(0j, None, 0.0, cluster.size, "constant")
+    if abs(rate.real) <= UNDAMPED * abs(rate):
+        return Mode(rate, None, freq, cluster.size, "undamped")
+    if rate.real > 0:
+        return Mode(rate, None, freq, cluster.size, "growing")
+    return Mode(rate, -1.0 / rate.real, freq, cluster.size, "decaying")
+
+
+def poly_coefficients(h: np.ndarray, cluster: Cluster, g: np.ndarray) -> np.ndarray:
+    """a_m = h (T_j - lambda_j I)^m g for m = 0 .. size-1, shape (size,), complex.
+
+    Args:
+        h: output row over the cluster's coordinates, shape (m,).
+        g: the cluster's initial coordinates W_j z0, shape (m,).
+    """
+    nil = cluster.nilpotent
+    coeffs = []
+    vec = g.astype(complex)
+    for _ in range(cluster.size):
+        coeffs.append(complex(h @ vec))
+        vec = nil @ vec
+    return np.array(coeffs)

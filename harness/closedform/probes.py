@@ -1,0 +1,109 @@
+"""Probe functionals: every probe as y = c.x + d.x' + k in SI units, per interval.
+
+``node X``, ``between a b`` and ``across P`` are differences of node voltages.  ``through P`` is
+the current of P from p through it to n: a branch variable for voltage sources, vcvs, ccvs,
+inductors and switches; (vp - vn)/R for a resistor; the controlled output current for vccs and
+cccs; the source's own value for an independent current source.
+
+A capacitor's current C d(vp - vn)/dt is split so that rounding in the derivatives cannot spoil
+it.  With A the node-by-capacitor incidence (ground removed) and r = (b - G x) on the node rows
+(the capacitor current leaving each node, by KCL, from values rather than derivatives):
+
+    i_caps = A^+ r + (I - A^+ A) diag(C) A^T v',
+
+exact because the true capacitor currents satisfy A i = r; only their loop (cycle-space) part,
+which KCL cannot fix, is taken from the derivative of the exponential form.  A capacitor in no
+loop of capacitors gets its current from r alone.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import InputError
+from ..model import (ACROSS, BETWEEN, CAPACITOR, CURRENT_SOURCE, NODE, THROUGH, Circuit, Probe)
+from .mna import Layout, Scale, current_row, voltage_row
+
+
+@dataclass(frozen=True)
+class Functional:
+    """y = c . x + d . dx/dt + [source value] + [w . (b - G x) on node rows] (unscaled x).
+
+    Attributes:
+        c: coefficients over x, shape (n,).
+        d: coefficients over dx/dt in s, shape (n,).
+        source: name of the independent current source whose value adds to y, or None.
+        dimension: "V" or "A".
+        kcl: weights w over the node rows of b - G x, shape (n_nodes,), or None.
+    """
+
+    c: np.ndarray
+    d: np.ndarray
+    source: str | None
+    dimension: str
+    kcl: np.ndarray | None = None
+
+    def terms(self, layout: Layout, scale: Scale, g: np.ndarray, b: np.ndarray,
+              values: dict, size: int) -> tuple[np.ndarray, np.ndarray, float]:
+        """(c~, d~, k) over the scaled state x~ (and dx~/dtau) of an interval whose scaled
+        matrices are ``g``, ``b``; zero-padded to ``size`` (augmented systems)."""
+        dvec = scale.var(layout)
+        c = np.zeros(size)
+        d = np.zeros(size)
+        c[:layout.size] = self.c * dvec
+        d[:layout.size] = self.d * dvec / scale.t
+        const = values.get(self.source, 0.0) if self.source else 0.0
+        if self.kcl is not None:
+            w = self.kcl / scale.r0                # node rows of b~, G~ are scaled by R0
+            c[:layout.size] -= w @ g[:layout.n_nodes]
+            const += float(w @ b[:layout.n_nodes])
+        return c, d, const
+
+
+def _known_node(circuit: Circuit, probe: Probe, node: str) -> str:
+    if node not in circuit.nodes:
+        raise InputError(f"{probe.label}: unknown node {node!r}", file=circuit.source)
+    return node
+
+
+def _known_part(circuit: Circuit, probe: Probe, name: str):
+    try:
+        return circuit.part(name)
+    except KeyError:
+        raise InputError(f"{probe.label}: unknown part {name!r}", file=circuit.source) from None
+
+
+def _capacitor(circuit: Circuit, layout: Layout, name: str) -> Functional:
+    """The split capacitor-current functional of the module docstring."""
+    caps = [p for p in circuit.parts if p.kind == CAPACITOR]
+    inc = np.array([voltage_row(layout, p.p, p.n)[:layout.n_nodes] for p in caps]).T
+    pinv = np.linalg.pinv(inc)                               # (caps, nodes)
+    cycle = np.eye(len(caps)) - pinv @ inc
+    j = [p.name for p in caps].index(name)
+    weights = cycle[j] * np.array([p.value for p in caps])  # over caps
+    d = np.zeros(layout.size)
+    d[:layout.n_nodes] = weights @ inc.T
+    return Functional(np.zeros(layout.size), d, None, "A", kcl=pinv[j])
+
+
+def functional(circuit: Circuit, layout: Layout, probe: Probe) -> Functional:
+    """The functional of ``probe`` (InputError for an unknown node or part)."""
+    zero = np.zeros(layout.size)
+    if probe.kind == NODE:
+        node = _known_node(circuit, probe, probe.targets[0])
+        return Functional(voltage_row(layout, node, circuit.ground), zero, None, "V")
+    if probe.kind == BETWEEN:
+        a, b = (_known_node(circuit, probe, t) for t in probe.targets[:2])
+        return Functional(voltage_row(layout, a, b), zero, None, "V")
+    part = _known_part(circuit, probe, probe.targets[0])
+    if probe.kind == ACROSS:
+        return Functional(voltage_row(layout, part.p, part.n), zero, None, "V")
+    if probe.kind != THROUGH:
+        raise InputError(f"unknown probe kind {probe.kind!r}", file=circuit.source)
+    if part.kind == CAPACITOR:
+        return _capacitor(circuit, layout, part.name)
+    if part.kind == CURRENT_SOURCE:
+        return Functional(zero, zero, part.name, "A")
+    return Functional(current_row(circuit, layout, part.name), zero, None, "A")

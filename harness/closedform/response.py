@@ -1,0 +1,161 @@
+"""The exact response of one interval: particular solution, jump to t_k+ and the state for t > t_k.
+
+Particular solution (DESIGN step 2): x_p = argmin |G~ x - b~| (least squares, so trapped charge,
+where G~ is singular, is allowed).  A residual that does not vanish means the sources push charge
+into nodes with no DC path: the response grows without bound.  Then the interval is solved in the
+augmented homogeneous form [x; 1] (``interval.augment``), which keeps the ramp exact.
+
+With e = x~(t_k-) - x_p (padded with 1 when augmented), z0 = left @ e and for tau = (t - t_k)/T:
+
+    x~(tau) = x_p + Q1 expm(A tau) z0,   dx~/dtau = Q1 A expm(A tau) z0,
+
+and the right limit at t_k+ is tau = 0.  Per cluster j the same is available as Q1 V_j, Q1 V_j T_j
+and W_j z0 for the probe features.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+from typing import Mapping
+
+import numpy as np
+import scipy.linalg as sla
+
+from .interval import Decomposition, augment, decompose
+from .linalg import least_squares
+from .mna import Layout
+from .modes import Cluster
+
+
+
+@dataclass(frozen=True)
+class ClusterData:
+    """One mode cluster of an interval seen from the scaled state.
+
+    Attributes:
+        cluster: the cluster (rate, block T_j).
+        qv: Q1 V_j, shape (n_aug, m), complex.
+        qvt: Q1 V_j T_j, shape (n_aug, m), complex.
+        g: W_j z0, shape (m,), complex.
+    """
+
+    cluster: Cluster
+    qv: np.ndarray
+    qvt: np.ndarray
+    g: np.ndarray
+
+
+@dataclass(frozen=True)
+class Pencil:
+    """The scaled matrices of a switch configuration and their decomposition (cached)."""
+
+    g: np.ndarray
+    c: np.ndarray
+    dec: Decomposition
+
+
+@dataclass(frozen=True)
+class IntervalResponse:
+    """Interval k (k = -1: the pre-step circuit used for the values at 0-), scaled units.
+
+    Attributes:
+        index, start, next: k, t_k in s and t_(k+1) in s (None for the last interval).
+        values: independent source name -> value in this interval (V or A).
+        g, c, b: the scaled MNA system.
+        augmented: True when the response grows without bound (no bounded particular solution).
+        growth_nodes: nodes where the unbalanced charge accumulates (augmented only).
+        xp: particular solution, shape (n_aug,) (zero when augmented).
+        dec: the decomposition used (of the augmented pencil when augmented).
+        z0: dynamic coordinates at t_k+, shape (f,).
+        clusters: per-cluster data.
+        x_plus, dx_plus: x~ and dx~/dtau at t_k+, shape (n,).
+        x_end, dx_end: the same at t_(k+1)-, or None for the last interval.
+    """
+
+    index: int
+    start: float
+    next: float | None
+    values: Mapping[str, float]
+    g: np.ndarray
+    c: np.ndarray
+    b: np.ndarray
+    augmented: bool
+    growth_nodes: tuple[str, ...]
+    xp: np.ndarray
+    dec: Decomposition
+    z0: np.ndarray
+    clusters: tuple[ClusterData, ...]
+    x_plus: np.ndarray
+    dx_plus: np.ndarray
+    x_end: np.ndarray | None = None
+    dx_end: np.ndarray | None = None
+    closed: Mapping[str, bool] = field(default_factory=dict)
+
+    @property
+    def n(self) -> int:
+        return self.g.shape[0]
+
+    def states(self, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """x~ and dx~/dtau at scaled times ``tau`` >= 0, shapes (len(tau), n_aug) each."""
+        tau = np.asarray(tau, dtype=float)
+        f = self.dec.order
+        if f == 0:
+            return np.tile(self.xp, (tau.size, 1)), np.zeros((tau.size, self.xp.size))
+        with np.errstate(over="ignore", invalid="ignore"):
+            expo = sla.expm(self.dec.a[None, :, :] * tau[:, None, None]) @ self.z0
+            x = self.xp[None, :] + expo @ self.dec.q1.T
+            dx = expo @ (self.dec.q1 @ self.dec.a).T
+        return x, dx
+
+
+def pencil_of(g: np.ndarray, c: np.ndarray, null: np.ndarray) -> Pencil:
+    """Decompose a non-augmented scaled pencil (SingularPencil if it is not regular)."""
+    return Pencil(g, c, decompose(g, c, null))
+
+
+def _particular(g: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, bool]:
+    """Least-squares x_p with G~ x_p ~ b~, the residual b~ - G~ x_p, and whether it vanishes."""
+    return least_squares(g, b)
+
+
+def _cluster_data(dec: Decomposition, z0: np.ndarray) -> tuple[ClusterData, ...]:
+    out = []
+    for cl in dec.clusters:
+        qv = dec.q1 @ cl.right
+        out.append(ClusterData(cl, qv, qv @ cl.block, cl.left @ z0))
+    return tuple(out)
+
+
+def build(layout: Layout, pencil: Pencil, null: np.ndarray, b: np.ndarray, x_minus: np.ndarray,
+          *, index: int, start: float, next_time: float | None, values: Mapping[str, float],
+          closed: Mapping[str, bool], t_ref: float) -> IntervalResponse:
+    """The response of one interval from the scaled state ``x_minus`` = x~(t_k-), shape (n,).
+
+    ``t_ref`` is the scaling time T in s (to convert t_(k+1) - t_k to scaled time).
+    """
+    g, c = pencil.g, pencil.c
+    n = g.shape[0]
+    xp, resid, consistent = _particular(g, b)
+    augmented = not consistent
+    growth_nodes: tuple[str, ...] = ()
+    if augmented:
+        big = np.abs(resid[:layout.n_nodes])
+        growth_nodes = tuple(layout.nodes[i] for i in np.flatnonzero(big > 1e-6 * big.max()))
+        ga, ca, null_a = augment(g, c, b, null)
+        dec = decompose(ga, ca, null_a, augmented=True)
+        xp = np.zeros(n + 1)
+        e = np.concatenate([x_minus, [1.0]])
+    else:
+        dec = pencil.dec
+        e = x_minus - xp
+    with np.errstate(invalid="ignore", over="ignore"):     # a state beyond range stays NaN
+        z0 = dec.left @ e
+    resp = IntervalResponse(index, start, next_time, dict(values), g, c, b, augmented,
+                            growth_nodes, xp, dec, z0, _cluster_data(dec, z0),
+                            np.zeros(n), np.zeros(n), closed=dict(closed))
+    x0, dx0 = resp.states(np.zeros(1))
+    ends: dict = {"x_plus": x0[0, :n], "dx_plus": dx0[0, :n]}
+    if next_time is not None:
+        x1, dx1 = resp.states(np.array([(next_time - start) / t_ref]))
+        ends.update(x_end=x1[0, :n], dx_end=dx1[0, :n])
+    return replace(resp, **ends)

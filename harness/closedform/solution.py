@@ -1,0 +1,275 @@
+"""``solve``: the closed-form engine end to end, and the ``ClosedFormSolution`` it returns."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from ..errors import TopologyError
+from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, SOURCES, SWITCH, VCCS, VCVS, Circuit,
+                     Probe)
+from ..results import Features, Jump
+from ..units import format_si
+from .features import SCALE_FLOOR, RawEvent, classify, probe_scale, raw_event
+from .initial import dc_state
+from .interval import SingularPencil
+from .jumps import Scales, jump_at
+from .mna import (Layout, Scale, capacitor_null_basis, connects_in_interval, floating_groups,
+                  layout_of, pin, scale_of, scaled, stamp)
+from .modes import Mode, mode_of
+from .probes import functional
+from .response import IntervalResponse, Pencil, build, pencil_of
+from .thevenin import thevenin_resistances
+
+ENGINE = "closed_form"
+
+
+@dataclass(frozen=True)
+class ClosedFormSolution:
+    """The exact per-interval solution of one circuit (satisfies ``harness.results.Solution``).
+
+    Attributes:
+        circuit: the circuit solved.
+        layout, scale: the MNA variable layout and the non-dimensionalisation (R0 ohm, T s).
+        intervals: interval k's exact response, k = 0 .. len(events) - 1.
+        prestep: the pre-step circuit's response, whose value at its start is the state at 0-.
+        warnings: circuit-wide diagnostics naming parts and event times.
+
+    Frozen; features and jumps are computed on first request and memoised in private caches.
+    """
+
+    circuit: Circuit
+    layout: Layout
+    scale: Scale
+    intervals: tuple[IntervalResponse, ...]
+    prestep: IntervalResponse
+    warnings: tuple[str, ...]
+    engine: str = ENGINE
+    _probe_cache: dict = field(default_factory=dict, repr=False)
+    _jump_cache: dict = field(default_factory=dict, repr=False)
+
+    # ----------------------------------------------------------------- the Solution protocol
+    def features(self, probe: Probe, k: int) -> Features:
+        """Values of ``probe`` at event k (before, after, final, order, modes, tau)."""
+        raws, scale = self._raw(probe)
+        return classify(raws[k], scale, self.scale.t)
+
+    def jump(self, k: int) -> Jump:
+        """Impulsive charges/fluxes and the energy dissipated at event k."""
+        if k not in self._jump_cache:
+            resp = self.intervals[k]
+            x_minus = self._x_minus(k)
+            self._jump_cache[k] = jump_at(self.circuit, self.layout, self.scale, resp.g, resp.c,
+                                          x_minus, resp.x_plus, resp.start, resp.values,
+                                          self._jump_scales())
+        return self._jump_cache[k]
+
+    def span(self, k: int) -> tuple[float, float]:
+        """(t_k, t_end): t_end = t_k + 10 * slowest tau of interval k (10 T if none), and at
+        least t_(k+1)."""
+        resp = self.intervals[k]
+        taus = self.time_constants(k)
+        length = 10.0 * (taus[0] if taus else self.scale.t)
+        end = resp.start + length
+        if resp.next is not None:
+            end = max(end, resp.next)
+        return resp.start, end
+
+    def waveform(self, probe: Probe, k: int, times: np.ndarray) -> np.ndarray:
+        """Exact values of ``probe`` at ``times`` (s, after t_k) for interval k continued with
+        its sources held; shape (n,)."""
+        resp = self.intervals[k]
+        c, d, const = self._terms(functional(self.circuit, self.layout, probe), resp)
+        tau = (np.asarray(times, dtype=float).ravel() - resp.start) / self.scale.t
+        x, dx = resp.states(tau)
+        return x @ c + dx @ d + const
+
+    # ----------------------------------------------------------------- extras
+    def thevenin(self, k: int) -> dict[str, float]:
+        """Storage part -> Thevenin resistance in ohms it sees in interval k (sources zeroed,
+        other capacitors open, other inductors shorted, controlled sources kept)."""
+        return thevenin_resistances(self.circuit, self.layout, self.scale, self.intervals[k].g)
+
+    def interval_modes(self, k: int) -> tuple[Mode, ...]:
+        """Every mode cluster of interval k with its complex rate in 1/s (slowest first)."""
+        resp = self.intervals[k]
+        modes = [mode_of(cd.cluster, self.scale.t) for cd in resp.clusters]
+        return tuple(sorted(modes, key=lambda m: abs(m.rate)))
+
+    def time_constants(self, k: int) -> tuple[float, ...]:
+        """tau = -1/Re(lambda) in s of every decaying eigenvalue of interval k (multiplicity
+        counted, a complex pair twice), slowest first."""
+        taus = []
+        for mode in self.interval_modes(k):
+            if mode.kind == "decaying":
+                taus += [mode.tau] * mode.multiplicity
+        return tuple(sorted(taus, reverse=True))
+
+    # ----------------------------------------------------------------- internals
+    def _x_minus(self, k: int) -> np.ndarray:
+        return self.prestep.x_plus if k == 0 else self.intervals[k - 1].x_end
+
+    def _terms(self, fn, resp: IntervalResponse) -> tuple[np.ndarray, np.ndarray, float]:
+        return fn.terms(self.layout, self.scale, resp.g, resp.b, resp.values, resp.xp.size)
+
+    def _before(self, k: int, fn) -> tuple:
+        """(x~, dx~/dtau, c~, d~, k) at t_k- (from the pre-step response for k = 0)."""
+        prev = self.prestep if k == 0 else self.intervals[k - 1]
+        x, dx = (prev.x_plus, prev.dx_plus) if k == 0 else (prev.x_end, prev.dx_end)
+        return (x, dx) + self._terms(fn, prev)
+
+    def _raw(self, probe: Probe) -> tuple[list[RawEvent], float]:
+        key = probe.label
+        if key not in self._probe_cache:
+            fn = functional(self.circuit, self.layout, probe)
+            raws = []
+            for k, resp in enumerate(self.intervals):
+                start, end = self.span(k)
+                raws.append(raw_event(resp, self._before(k, fn), self._terms(fn, resp),
+                                      (end - start) / self.scale.t))
+            sc = self._jump_scales()
+            floor = SCALE_FLOOR * (sc.current if fn.dimension == "A" else sc.voltage)
+            self._probe_cache[key] = (raws, probe_scale(raws, floor))
+        return self._probe_cache[key]
+
+    def _jump_scales(self) -> Scales:
+        if "scales" not in self._jump_cache:
+            self._jump_cache["scales"] = _circuit_scales(self)
+        return self._jump_cache["scales"]
+
+
+def _circuit_scales(sol: ClosedFormSolution) -> Scales:
+    """Scales from every state at every event and every source value: Vn the largest node
+    voltage, Vs the largest scaled value (currents as I R0); charge = Vn C_min, flux = Vn T,
+    current = Vs / R0."""
+    r0, nn = sol.scale.r0, sol.layout.n_nodes
+    mags, volts = [1e-30], [1e-30]
+    for resp in (sol.prestep,) + sol.intervals:
+        for x in (resp.x_plus, resp.x_end):
+            if x is not None and np.all(np.isfinite(x)) and x.size:
+                mags.append(float(np.max(np.abs(x))))     # scaled currents are in volts
+                volts.append(float(np.max(np.abs(x[:nn]), initial=0.0)))
+        for part in sol.circuit.parts:
+            if part.kind in SOURCES:
+                v = abs(resp.values.get(part.name, 0.0))
+                mags.append(v * (r0 if part.kind == CURRENT_SOURCE else 1.0))
+    vs, vn = max(mags), max(volts)
+    caps = [p.value for p in sol.circuit.parts if p.kind == CAPACITOR]
+    charge = vn * (min(caps) if caps else sol.scale.t / r0)
+    return Scales(voltage=vn, charge=charge, flux=vn * sol.scale.t, current=vs / r0)
+
+
+def _interval_setup(circuit: Circuit, layout: Layout, scale: Scale, time: float, pre: bool):
+    """Switch states, source values and floating groups of the interval starting at ``time``."""
+    closed = {p.name: (p.is_closed_before(time) if pre else p.is_closed(time))
+              for p in circuit.parts if p.kind == SWITCH}
+    values = {p.name: (p.source_value_before(time) if pre else p.source_value(time))
+              for p in circuit.parts if p.kind in SOURCES}
+    groups = floating_groups(circuit, connects_in_interval(closed))
+    return closed, values, groups
+
+
+def _pencil(circuit, layout, scale, null, closed, groups, cache, time) -> Pencil:
+    """The scaled pencil (with floating groups pinned) of a switch configuration, cached."""
+    key = tuple(sorted(closed.items()))
+    if key not in cache:
+        g, c, _ = stamp(circuit, layout, closed, lambda p: 0.0)
+        pin(g, layout, groups, 1.0 / scale.r0)
+        gs, cs, _ = scaled(g, c, np.zeros(layout.size), layout, scale)
+        try:
+            cache[key] = pencil_of(gs, cs, null)
+        except SingularPencil:
+            raise _singular(circuit, layout, gs, cs, time) from None
+    return cache[key]
+
+
+def _singular(circuit: Circuit, layout: Layout, g: np.ndarray, c: np.ndarray,
+              time: float) -> TopologyError:
+    """The error for an interval whose equations do not fix the state, naming what is free."""
+    _, sv, vh = np.linalg.svd(g + 1.2345 * c)
+    free = np.abs(vh[-1])
+    names = list(layout.nodes) + list(layout.branches)
+    picked = [names[i] for i in np.flatnonzero(free > 0.1 * free.max())]
+    branch = [nm for nm in picked if nm in layout.branches]
+    return TopologyError(
+        f"from {format_si(time, 's')} the circuit's equations leave {', '.join(picked)} "
+        f"undetermined (a loop of ideal voltage-type parts, or a cut of current sources)",
+        file=circuit.source, part=branch[0] if branch else None)
+
+
+def _b_scaled(circuit, layout, scale, closed, values) -> np.ndarray:
+    _, _, b = stamp(circuit, layout, closed, lambda p: values[p.name])
+    return scale.row(layout) * b
+
+
+def solve(circuit: Circuit) -> ClosedFormSolution:
+    """Solve ``circuit`` exactly, interval by interval (see the package docstring).
+
+    Raises:
+        InitialStateError: initial conditions that contradict the circuit at 0-, or an
+            undefined pre-step storage value.
+        TopologyError: an interval whose equations do not determine every quantity.
+    """
+    layout, scale = layout_of(circuit), scale_of(circuit)
+    null = capacitor_null_basis(circuit, layout)
+    events = circuit.events
+    cache: dict = {}
+    warnings: list[str] = []
+
+    def run(time, index, next_time, x_minus, pre=False):
+        closed, values, groups = _interval_setup(circuit, layout, scale, time, pre)
+        if groups and not pre:
+            warnings.append(_floating_warning(time, groups))
+        pencil = _pencil(circuit, layout, scale, null, closed, groups, cache, time)
+        b = _b_scaled(circuit, layout, scale, closed, values)
+        return build(layout, pencil, null, b, x_minus, index=index, start=time,
+                     next_time=next_time, values=values, closed=closed, t_ref=scale.t)
+
+    prestep = run(0.0, -1, None, dc_state(circuit, layout, scale), pre=True)
+    intervals = []
+    x_minus = prestep.x_plus
+    for k, time in enumerate(events):
+        nxt = events[k + 1] if k + 1 < len(events) else None
+        resp = run(time, k, nxt, x_minus)
+        intervals.append(resp)
+        warnings += _interval_warnings(circuit, resp, scale)
+        x_minus = resp.x_end
+    sol = ClosedFormSolution(circuit, layout, scale, tuple(intervals), prestep, ())
+    for k in range(len(intervals)):
+        warnings += list(sol.jump(k).warnings)
+    return replace(sol, warnings=tuple(dict.fromkeys(warnings)))
+
+
+def _floating_warning(time: float, groups: list[list[str]]) -> str:
+    nodes = ", ".join(n for g in groups for n in g)
+    return (f"from {format_si(time, 's')} node(s) {nodes} connect to the rest only through open "
+            f"switches or current sources: their common voltage is undefined and taken as 0 V")
+
+
+def _interval_warnings(circuit: Circuit, resp: IntervalResponse, scale: Scale) -> list[str]:
+    """Unbounded growth and growing or undamped modes of one interval."""
+    out = []
+    when = format_si(resp.start, "s")
+    if resp.augmented:
+        nodes = set(resp.growth_nodes)
+        feeders = [p.name for p in circuit.parts if p.kind in (CURRENT_SOURCE, VCCS, CCCS)
+                   and (p.p in nodes or p.n in nodes)]
+        caps = [p.name for p in circuit.parts if p.kind == CAPACITOR
+                and (p.p in nodes or p.n in nodes)]
+        source = f"from {', '.join(feeders)} " if feeders else ""
+        out.append(f"from {when} the current {source}"
+                   f"into node(s) {', '.join(sorted(nodes))} has no DC path"
+                   f"{(' (it charges ' + ', '.join(caps) + ')') if caps else ''}: the voltage "
+                   f"grows without bound")
+    active = [p.name for p in circuit.parts if p.kind in (VCVS, VCCS, CCVS, CCCS)]
+    for cd in resp.clusters:
+        mode = mode_of(cd.cluster, scale.t)
+        if mode.kind == "growing":
+            out.append(f"from {when} a growing mode (e-folding time "
+                       f"{format_si(1 / mode.rate.real, 's')}) makes the response grow without "
+                       f"bound{(' (active parts: ' + ', '.join(active) + ')') if active else ''}")
+        elif mode.kind == "undamped" and mode.rate.imag > 0:
+            out.append(f"from {when} an undamped oscillation at {format_si(mode.frequency, 'Hz')}"
+                       f" never settles")
+    return out
