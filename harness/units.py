@@ -153,6 +153,8 @@ def format_si(value: float | None, unit: str = "", digits: int = 4) -> str:
     if value == 0 or not math.isfinite(value):
         return f"{value:g} {symbol}".rstrip()
     mag = abs(value)
+    if mag < 1e-15 * 0.9999995 or mag >= 1e15:
+        return f"{value:.{digits}g} {symbol}".rstrip()
     for scale, prefix in _ENG:
         if mag >= scale * 0.9999995:
             break
