@@ -1,14 +1,20 @@
 """The ``tauproof`` command: ``check`` (compare and report) and ``solve`` (computed values).
 
 Exit codes: 0 every check passed; 1 at least one mismatch or engines-disagree; 2 at least one
-file could not be analysed (message on stderr naming file, part and field; never a traceback).
+file could not be analysed (message on stderr naming file, part and field; never a traceback),
+timed out, lost its worker, or the reports could not be written; 130 stopped by SIGINT (Ctrl-C),
+143 stopped by SIGTERM (the previous reports are then left as they were).
 """
 
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
+import math
+import signal
 import sys
+import warnings
 from pathlib import Path
 
 from .outcome import ERROR
@@ -32,7 +38,20 @@ def _parser() -> argparse.ArgumentParser:
                         help="files analysed in parallel processes (default 1)")
         sp.add_argument("--closed-form-only", action="store_true",
                         help="skip the numerical engine (faster; no engine cross-check)")
+        sp.add_argument("--timeout", type=_seconds, default=None, metavar="SECONDS",
+                        help="stop a file's analysis after this many seconds (it becomes an "
+                             "error; the other files go on)")
     return parser
+
+
+def _seconds(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number of seconds, got {text!r}") from None
+    if not (math.isfinite(value) and value > 0):
+        raise argparse.ArgumentTypeError("must be a positive number of seconds")
+    return value
 
 
 def _positive(text: str) -> int:
@@ -45,39 +64,95 @@ def _positive(text: str) -> int:
     return value
 
 
+#: exit code for a run stopped by a signal: 128 + the signal number (common practice)
+EXIT_SIGNAL_BASE = 128
+#: exit code when the reports could not be written
+EXIT_REPORTS = 2
+
+
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the console script; returns the exit code."""
     args = _parser().parse_args(argv)
-    from .runner import RunOptions, run
+    from .runner import RunInterrupted, RunOptions, run
     options = RunOptions(numeric=not args.closed_form_only, jobs=args.jobs,
-                         progress=not args.json)
-    result = run(args.paths, options)
+                         progress=not args.json, timeout=args.timeout)
+    try:
+        with _sigterm_raises(), warnings.catch_warnings():
+            _quiet_numerics()
+            result = run(args.paths, options)
+    except RunInterrupted as stop:
+        return _interrupted(stop)
     for file in result.files:
         for message in file.errors:
             print(f"tauproof: {message}", file=sys.stderr)
     if args.json:
         print(json.dumps(result.to_json(), indent=2))
+    code = result.exit_code
     if args.command == "check":
-        _finish_check(args, result)
+        if not _finish_check(args, result):
+            code = max(code, EXIT_REPORTS)
     elif not args.json:
         from .report.console import render_solve
         for file in result.files:
             if file.verdict != ERROR or file.checks:
                 print(render_solve(file))
-    return result.exit_code
+    return code
 
 
-def _finish_check(args, result) -> None:
+def _quiet_numerics() -> None:
+    """Hide the linear-algebra libraries' own warnings (singular steps the engines handle and
+    report in their own words); the user sees messages, never library source lines."""
+    warnings.filterwarnings("ignore", category=RuntimeWarning, module=r"(numpy|scipy)\.")
+    warnings.filterwarnings("ignore", message=r".*(encountered in|Singular matrix|exactly zero|All-NaN)")
+    try:
+        from scipy.linalg import LinAlgWarning
+        warnings.filterwarnings("ignore", category=LinAlgWarning)
+    except ImportError:  # pragma: no cover
+        pass
+
+
+@contextlib.contextmanager
+def _sigterm_raises():
+    """While running, SIGTERM raises ``pool.Interrupted`` (as SIGINT raises KeyboardInterrupt)."""
+    from .pool import Interrupted
+
+    def stop(signum, frame):
+        raise Interrupted(signum)
+
+    try:
+        previous = signal.signal(signal.SIGTERM, stop)
+    except ValueError:  # not the main thread: leave signals alone
+        yield
+        return
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGTERM, previous)
+
+
+def _interrupted(stop) -> int:
+    """One line on stderr for a run stopped by a signal; the exit code 128 + signal."""
+    name = {signal.SIGINT: "SIGINT", signal.SIGTERM: "SIGTERM"}.get(stop.signum,
+                                                                   f"signal {stop.signum}")
+    finished = sum(1 for f in stop.partial.files if f.file)
+    print(f"tauproof: stopped by {name} after {finished} of {stop.total} file(s); reports not "
+          f"written (the previous reports are left as they were)", file=sys.stderr)
+    return EXIT_SIGNAL_BASE + stop.signum
+
+
+def _finish_check(args, result) -> bool:
+    """Reports and the console table of a check run; False when the reports could not be written
+    (the message, naming the folder, is on stderr; the table is still printed)."""
     from .report import write_all
     from .report.console import render_failures, render_summary
+    ok, written = True, []
     if not args.no_report:
         try:
             written = write_all(result, Path(args.report_dir))
         except OSError as err:
-            print(f"tauproof: could not write reports to {args.report_dir}: {err}", file=sys.stderr)
-            written = []
-    else:
-        written = []
+            print(f"tauproof: could not write the reports to the folder {args.report_dir}: "
+                  f"{err}", file=sys.stderr)
+            ok = False
     if not args.json:
         table = render_failures(result)
         if table:
@@ -87,6 +162,7 @@ def _finish_check(args, result) -> None:
         if main_files:
             print(f"reports in {args.report_dir}/: {', '.join(p.name for p in main_files)}"
                   f" (+{len(written) - len(main_files)} plots)")
+    return ok
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -1,9 +1,10 @@
 """Runs circuit files and folders: read, solve with both engines, compare; failures isolated.
 
 Each file is analysed on its own; an input error or an engine fault in one file becomes that
-file's ``error`` result and never stops the others.  With ``jobs > 1`` files run in worker
-processes; a worker that dies loses only the file it was working on (the survivors are retried
-one by one in fresh processes to find it).
+file's ``error`` result and never stops the others.  With ``jobs > 1`` or a ``timeout`` files run
+in worker processes (``harness.pool``): a file over the time limit is stopped and becomes
+"timed out after N s", a worker that dies loses only the file it was working on, and SIGINT or
+SIGTERM stops the run with ``RunInterrupted`` carrying the results that finished.
 """
 
 from __future__ import annotations
@@ -11,23 +12,25 @@ from __future__ import annotations
 import os
 import sys
 import time
-from concurrent.futures import ProcessPoolExecutor, as_completed
-from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Iterable
 
 from .errors import InputError
 from .outcome import ERROR, FileResult, RunResult
+from .pool import Interrupted, run_tasks
+from .pool import RunInterrupted as PoolInterrupted
 
 
 @dataclass(frozen=True)
 class RunOptions:
-    """How to run: ``numeric`` runs the numerical engine too; ``jobs`` worker processes."""
+    """How to run: ``numeric`` runs the numerical engine too; ``jobs`` worker processes;
+    ``timeout`` the limit in s per file (None: none; any limit runs files in workers)."""
 
     numeric: bool = True
     jobs: int = 1
     progress: bool = False
+    timeout: float | None = None
 
 
 def collect(paths: Iterable[str]) -> tuple[list[str], list[FileResult]]:
@@ -62,6 +65,7 @@ def check_file(path: str, numeric: bool = True) -> FileResult:
     from . import closedform
     from .compare import compare_file
     from .report.cautions import cautions_for
+    from .closedform.conditioning import assess, guard
 
     started = time.perf_counter()
     try:
@@ -70,10 +74,11 @@ def check_file(path: str, numeric: bool = True) -> FileResult:
         return _error_result(path, str(err.located(file=path)))
     try:
         exact = closedform.solve(circuit)
-        sim = None
+        trust = assess(exact)  # beyond tolerances.CONDITION_LIMIT both engines report None
+        exact, sim = guard(exact, trust), None
         if numeric:
             from . import simulate
-            sim = simulate.solve(circuit)
+            sim = guard(simulate.solve(circuit), trust)
         return compare_file(circuit, exact, sim, cautions=cautions_for(circuit),
                             seconds=time.perf_counter() - started)
     except InputError as err:
@@ -86,13 +91,45 @@ def check_file(path: str, numeric: bool = True) -> FileResult:
 
 
 def run(paths: Iterable[str], options: RunOptions = RunOptions()) -> RunResult:
-    """Check every file under ``paths``; results in the order the files were collected."""
+    """Check every file under ``paths``; results in the order the files were collected.
+
+    Files run in this process when ``jobs`` is 1 and no ``timeout`` is set, otherwise in worker
+    processes (``harness.pool``): a file over the time limit or whose worker dies becomes an
+    ``error`` result and the others go on.
+
+    Raises:
+        RunInterrupted: SIGINT or SIGTERM stopped the run; ``partial`` holds the results of the
+            files that had finished (in collection order), ``signum`` the signal.
+    """
     files, missing = collect(paths)
-    if options.jobs <= 1 or len(files) <= 1:
-        results = [check_file(f, options.numeric) for f in _progress(files, options)]
+    if options.jobs <= 1 and options.timeout is None:
+        results = _run_here(files, options, missing)
     else:
-        results = _run_parallel(files, options)
+        results = _run_workers(files, options, missing)
     return RunResult(files=tuple(missing) + tuple(results))
+
+
+class RunInterrupted(Exception):
+    """A run stopped by a signal: ``signum`` (2 SIGINT, 15 SIGTERM) and the ``partial`` result."""
+
+    def __init__(self, signum: int, partial: RunResult, total: int) -> None:
+        super().__init__(f"interrupted by signal {signum}")
+        self.signum = int(signum)
+        self.partial = partial
+        self.total = total
+
+
+def _run_here(files: list[str], options: RunOptions, missing: list[FileResult]) -> list:
+    results: list[FileResult] = []
+    try:
+        for f in _progress(files, options):
+            results.append(check_file(f, options.numeric))
+    except KeyboardInterrupt:
+        raise RunInterrupted(2, RunResult(tuple(missing) + tuple(results)), len(files)) from None
+    except Interrupted as stop:
+        raise RunInterrupted(stop.signum, RunResult(tuple(missing) + tuple(results)),
+                             len(files)) from None
+    return results
 
 
 def _progress(files: list[str], options: RunOptions):
@@ -102,35 +139,46 @@ def _progress(files: list[str], options: RunOptions):
     return files
 
 
-def _run_parallel(files: list[str], options: RunOptions) -> list[FileResult]:
-    done: dict[str, FileResult] = {}
-    try:
-        with ProcessPoolExecutor(max_workers=options.jobs) as pool:
-            futures = {pool.submit(check_file, f, options.numeric): f for f in files}
-            for future in _progress_futures(futures, options):
-                try:
-                    done[futures[future]] = future.result()
-                except BrokenProcessPool:
-                    pass
-    except BrokenProcessPool:
-        pass
-    for f in files:  # what a dead worker took with it: retry alone, each in a fresh process
-        if f not in done:
-            done[f] = _run_isolated(f, options.numeric)
-    return [done[f] for f in files]
+def _check_task(path: str, numeric: bool) -> FileResult:
+    """What a worker runs: ``check_file`` looked up at call time (tests may replace it)."""
+    return check_file(path, numeric)
 
 
-def _progress_futures(futures, options: RunOptions):
-    iterator = as_completed(futures)
-    if options.progress and len(futures) > 3 and sys.stderr.isatty():
+def _preload(numeric: bool) -> None:
+    """Import the engines before the workers fork, so each worker starts with them loaded."""
+    from . import circuitfile, closedform, compare  # noqa: F401
+    from .report import cautions  # noqa: F401
+    if numeric:
+        from . import simulate  # noqa: F401
+
+
+def _run_workers(files: list[str], options: RunOptions, missing: list[FileResult]) -> list:
+    """Every file in a worker process (``pool.run_tasks``); faults become error results."""
+    limit = options.timeout
+    _preload(options.numeric)
+    bar = None
+    if options.progress and len(files) > 3 and sys.stderr.isatty():
         from tqdm import tqdm
-        return tqdm(iterator, total=len(futures), unit="file", leave=False)
-    return iterator
+        bar = tqdm(total=len(files), unit="file", leave=False)
 
+    def timed_out(i: int) -> FileResult:
+        return _error_result(files[i], f"{files[i]}: timed out after {limit:g} s (the --timeout "
+                                       f"limit); the analysis was stopped")
 
-def _run_isolated(path: str, numeric: bool) -> FileResult:
+    def died(i: int, how: str) -> FileResult:
+        return _error_result(files[i], f"{files[i]}: the worker process analysing this file "
+                                       f"{how}; the file's result is lost (the other files "
+                                       f"are not affected)")
+
     try:
-        with ProcessPoolExecutor(max_workers=1) as pool:
-            return pool.submit(check_file, path, numeric).result()
-    except BrokenProcessPool:
-        return _error_result(path, f"{path}: the worker process died while analysing this file")
+        done = run_tasks([(f, options.numeric) for f in files], _check_task, jobs=options.jobs,
+                         timeout=limit, on_timeout=timed_out, on_death=died,
+                         on_done=(lambda i: bar.update(1)) if bar else None)
+    except PoolInterrupted as stop:
+        finished = tuple(stop.done[i] for i in sorted(stop.done))
+        raise RunInterrupted(stop.signum, RunResult(tuple(missing) + finished),
+                             len(files)) from None
+    finally:
+        if bar is not None:
+            bar.close()
+    return [done[i] for i in range(len(files))]

@@ -1,0 +1,195 @@
+"""Worker processes that analyse one file at a time, with a per-file time limit.
+
+A thread cannot be stopped from outside, so every file that must be bounded in time, or isolated
+from the others, runs in a worker process.  ``run_tasks`` keeps ``jobs`` long-lived workers
+(forked where the platform allows, so the imported engines are shared), hands each the next file
+over its own pipe and waits on the pipes, the process sentinels and the nearest deadline at once
+(``multiprocessing.connection.wait``).  Three faults are contained:
+
+* a file over ``timeout`` seconds: its worker is killed (SIGKILL) and replaced, and the file gets
+  an ``error`` result "timed out after N s";
+* a worker that dies (``os._exit``, a signal, an out-of-memory kill): the file it held gets an
+  ``error`` result naming how it died; a fresh worker takes the next file;
+* an interruption of the parent (SIGINT as ``KeyboardInterrupt``, SIGTERM as ``Interrupted``):
+  every worker is killed and ``RunInterrupted`` carries the results that had finished.
+
+Workers ignore SIGINT (a terminal's Ctrl-C reaches the whole process group; the parent decides)
+and take SIGTERM's default action.
+"""
+
+from __future__ import annotations
+
+import multiprocessing as mp
+import signal
+import time
+from collections import deque
+from multiprocessing.connection import wait
+from typing import Callable
+
+#: how often (s) the parent wakes when no deadline is nearer, to notice dead workers promptly
+_POLL = 0.5
+
+
+class Interrupted(BaseException):
+    """The run was asked to stop by a signal (``signum``); raised by the SIGTERM handler.
+
+    A ``BaseException`` like ``KeyboardInterrupt``, so no ``except Exception`` swallows it.
+    """
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(f"interrupted by signal {signum}")
+        self.signum = signum
+
+
+class RunInterrupted(Exception):
+    """A run stopped early; ``done`` maps task index -> result for the tasks that finished."""
+
+    def __init__(self, signum: int, done: dict) -> None:
+        super().__init__(f"interrupted by signal {signum}")
+        self.signum = signum
+        self.done = done
+
+
+def _context():
+    methods = mp.get_all_start_methods()
+    return mp.get_context("fork" if "fork" in methods else "spawn")
+
+
+def _serve(conn, work: Callable) -> None:
+    """Worker loop: receive (index, args), send (index, work(*args)); stop on None."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+    while True:
+        try:
+            task = conn.recv()
+        except (EOFError, OSError):
+            return
+        if task is None:
+            return
+        index, args = task
+        conn.send((index, work(*args)))
+
+
+class _Worker:
+    """One worker process and the parent's end of its pipe."""
+
+    def __init__(self, ctx, work: Callable) -> None:
+        self.conn, child = ctx.Pipe()
+        self.process = ctx.Process(target=_serve, args=(child, work), daemon=True)
+        self.process.start()
+        child.close()
+        self.task: int | None = None
+        self.deadline = float("inf")
+
+    def give(self, index: int, args: tuple, timeout: float | None) -> None:
+        self.task = index
+        self.deadline = time.monotonic() + timeout if timeout else float("inf")
+        self.conn.send((index, args))
+
+    def kill(self) -> None:
+        if self.process.is_alive():
+            self.process.kill()
+        self.process.join(5)
+        self.conn.close()
+
+    def stop(self) -> None:
+        try:
+            self.conn.send(None)
+        except OSError:
+            pass
+        self.process.join(2)
+        self.kill()
+
+
+def death_text(exitcode: int | None) -> str:
+    """How a worker ended, in words: ``killed by signal SIGKILL`` or ``exited with code 3``."""
+    if exitcode is None:
+        return "stopped responding"
+    if exitcode < 0:
+        try:
+            return f"killed by signal {signal.Signals(-exitcode).name}"
+        except ValueError:
+            return f"killed by signal {-exitcode}"
+    return f"exited with code {exitcode}"
+
+
+def run_tasks(tasks: list[tuple], work: Callable, *, jobs: int, timeout: float | None,
+              on_timeout: Callable[[int], object], on_death: Callable[[int, str], object],
+              on_done: Callable[[int], None] | None = None) -> dict:
+    """Run ``work(*tasks[i])`` for every i in up to ``jobs`` worker processes.
+
+    Returns index -> result.  A task over ``timeout`` seconds (None: no limit) gets
+    ``on_timeout(i)``; a task whose worker died gets ``on_death(i, how)``.  ``on_done(i)`` is
+    called as each task ends (progress).
+
+    Raises:
+        RunInterrupted: on KeyboardInterrupt (signum 2) or ``Interrupted``; carries the results
+            that finished; every worker has been killed.
+    """
+    ctx = _context()
+    pending = deque(range(len(tasks)))
+    done: dict = {}
+    workers: list[_Worker] = []
+    try:
+        workers = [_Worker(ctx, work) for _ in range(max(1, min(jobs, len(tasks))))]
+        while len(done) < len(tasks):
+            for i, worker in enumerate(workers):
+                if worker.task is None and pending:
+                    index = pending.popleft()
+                    try:
+                        worker.give(index, tasks[index], timeout)
+                    except OSError:  # died while idle: replace it and try again later
+                        worker.kill()
+                        workers[i] = _Worker(ctx, work)
+                        pending.appendleft(index)
+            _wait_round(ctx, work, workers, done, on_timeout, on_death, on_done)
+    except KeyboardInterrupt:
+        _kill_all(workers)
+        raise RunInterrupted(signal.SIGINT, done) from None
+    except Interrupted as stop:
+        _kill_all(workers)
+        raise RunInterrupted(stop.signum, done) from None
+    for worker in workers:
+        worker.stop()
+    return done
+
+
+def _wait_round(ctx, work, workers, done, on_timeout, on_death, on_done) -> None:
+    """Wait for the next result, death or deadline, and record what happened."""
+    busy = [w for w in workers if w.task is not None]
+    nearest = min((w.deadline for w in busy), default=float("inf"))
+    delay = max(0.0, min(_POLL, nearest - time.monotonic()))
+    ready = set(wait([w.conn for w in busy] + [w.process.sentinel for w in busy], delay))
+    now = time.monotonic()
+    for i, worker in enumerate(workers):
+        if worker.task is None:
+            continue
+        index, outcome, expired = worker.task, None, False
+        if worker.conn in ready or worker.process.sentinel in ready:
+            try:
+                got, result = worker.conn.recv()
+                outcome = result if got == index else None
+            except (EOFError, OSError):
+                worker.process.join(5)
+                outcome = on_death(index, death_text(worker.process.exitcode))
+        elif now >= worker.deadline:
+            outcome, expired = on_timeout(index), True
+        else:
+            continue
+        if outcome is None:
+            outcome = on_death(index, "sent a wrong answer")
+        done[index] = outcome
+        if on_done:
+            on_done(index)
+        worker.task = None
+        if expired or not worker.process.is_alive():
+            worker.kill()
+            workers[i] = _Worker(ctx, work)
+
+
+def _kill_all(workers: list[_Worker]) -> None:
+    for worker in workers:
+        try:
+            worker.kill()
+        except Exception:  # pragma: no cover - best effort while stopping
+            pass
