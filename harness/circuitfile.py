@@ -27,11 +27,18 @@ from .units import format_si
 MAX_FILE_BYTES = 1_000_000
 MAX_EXPECTATIONS = 2000
 MAX_TEXT = 2000
+#: distinct event times over all schedules (the numerical engine takes ~0.13 s per event)
+MAX_EVENTS = 2500
 
 TOP_LEVEL = ("title", "ground", "settings", "parts", "expect")
 SETTINGS = ("tolerance",)
 PROBE_KEYS = (m.NODE, m.BETWEEN, m.ACROSS, m.THROUGH)
-EXPECT_KEYS = PROBE_KEYS + ("at",) + m.FIELDS + ("tolerance", "note")
+#: sign-off keys of an [[expect]] block (issue 7): file key -> field name
+SIGNOFF_KEYS = {"crossing": "crossing", "peak": "peak", "energy": "energy",
+                "dominant-tau": "dominant_tau"}
+EXPECT_KEYS = PROBE_KEYS + ("at",) + m.FIELDS + tuple(SIGNOFF_KEYS) + ("tolerance", "note")
+CROSSING_KEYS = ("level", "time", "direction")
+ENERGY_KEYS = ("part", "value")
 #: an ``at`` matches an event within this relative amount plus ``EVENT_ABS`` seconds
 EVENT_REL, EVENT_ABS = 1e-12, 1e-15
 
@@ -86,9 +93,18 @@ def _load_toml(text: str, where: Where) -> dict:
     except tomllib.TOMLDecodeError as exc:
         raise _toml_error(str(exc), where) from None
     except RecursionError:
-        raise where.error("arrays or tables are nested too deeply to read") from None
+        line = _deepest_line(where.locator.lines)
+        part, field = _owner_labels(where.locator.owners.get(line, ())) if line else (None, None)
+        raise where.error(f"arrays or tables are nested too deeply to read (on line {line})",
+                          part=part, field=field, line=line) from None
     except ValueError as exc:  # an integer with more digits than Python converts
         raise where.error(f"a number in the file cannot be read: {exc}") from None
+
+
+def _deepest_line(lines: list[str]) -> int:
+    """1-based line holding the most opening brackets and braces (where nesting runs deep)."""
+    counts = [line.count("[") + line.count("{") for line in lines] or [0]
+    return counts.index(max(counts)) + 1
 
 
 def _toml_error(message: str, where: Where) -> InputError:
@@ -154,6 +170,7 @@ def _build(data: dict, where: Where) -> m.Circuit:
     if "parts" not in data:
         raise where.error("the file has no [parts] table", field="parts")
     parts = parse_parts(data["parts"], where)
+    _check_event_count(parts, where)
     terminals = {node for part in parts for node in part.nodes}
     if ground not in terminals:
         raise where.error(f"the ground node {ground!r} is not a terminal of any part"
@@ -163,6 +180,18 @@ def _build(data: dict, where: Where) -> m.Circuit:
     circuit = m.Circuit(title=title, parts=parts, ground=ground,
                         settings=_settings(data.get("settings", {}), where), source=where.source)
     return replace(circuit, expectations=_expectations(data.get("expect", []), circuit, where))
+
+
+def _check_event_count(parts: tuple[m.Part, ...], where: Where) -> None:
+    """At most ``MAX_EVENTS`` distinct step times over all schedules (t = 0 counted)."""
+    times = {0.0}.union(when for part in parts for when, _ in part.steps)
+    if len(times) > MAX_EVENTS:
+        busiest = max(parts, key=lambda p: len(p.steps))
+        raise where.error(f"the schedules give {len(times)} distinct event times; the limit is "
+                          f"{MAX_EVENTS} per circuit (the busiest schedule is {busiest.name}'s, "
+                          f"with {len(busiest.steps)} steps)", path=("parts", busiest.name,
+                                                                   "steps"),
+                          part=busiest.name, field="steps")
 
 
 def _text_problem(value: object, what: str) -> str | None:
@@ -220,8 +249,6 @@ def _expectation(index: int, raw: object, circuit: m.Circuit, values: dict,
     for key in raw:
         if key not in EXPECT_KEYS:
             hint = suggest(key, EXPECT_KEYS)
-            if key == "crossing":
-                hint = " (threshold crossings are not supported yet)"
             raise where.error(f"unknown field {key!r}{hint}; an [[expect]] block takes "
                               f"{quoted_list(EXPECT_KEYS, 20)}", path=base + (key,), part=label,
                               field=key)
@@ -237,6 +264,18 @@ def _expectation(index: int, raw: object, circuit: m.Circuit, values: dict,
             if name == "tau" and not hand[name] > 0:
                 raise where.error(f"tau must be greater than zero, got {raw[name]!r}",
                                   path=base + (name,), part=label, field=name)
+    for key, dimension in (("peak", probe.dimension), ("dominant-tau", "s")):
+        if key in raw:
+            name = SIGNOFF_KEYS[key]
+            hand[name], text = _hand_value(raw[key], dimension, values, where, index, key)
+            if text is not None:
+                formulas[name] = text
+            if name == "dominant_tau" and not hand[name] > 0:
+                raise where.error(f"dominant-tau must be greater than zero, got {raw[key]!r}",
+                                  path=base + (key,), part=label, field=key)
+    crossing = _crossing(raw["crossing"], probe, values, where, index) \
+        if "crossing" in raw else None
+    energy = _energy(raw["energy"], circuit, values, where, index) if "energy" in raw else None
     tolerance = None
     if "tolerance" in raw:
         tolerance = _tolerance(raw["tolerance"], where, base + ("tolerance",), label)
@@ -245,7 +284,80 @@ def _expectation(index: int, raw: object, circuit: m.Circuit, values: dict,
     if problem:
         raise where.error(problem, path=base + ("note",), part=label, field="note")
     return m.Expectation(index=index, probe=probe, at=at, hand=hand, formulas=formulas,
-                         tolerance=tolerance, note=note, line=where.locator.line_of(base))
+                         tolerance=tolerance, note=note, line=where.locator.line_of(base),
+                         crossing=crossing, energy=energy)
+
+
+def _subtable(raw: object, keys: tuple[str, ...], required: str, example: str, where: Where,
+              index: int, name: str) -> dict:
+    """An inline sign-off table checked for its keys (``required`` must be present)."""
+    label, path = expect_label(index), ("expect", index, name)
+    if not isinstance(raw, dict):
+        raise where.error(f"{name} must be an inline table such as {example}, got {raw!r}",
+                          path=path, part=label, field=name)
+    for key in raw:
+        if key not in keys:
+            raise where.error(f"{name} has no field {key!r}{suggest(key, keys)}; it takes "
+                              f"{quoted_list(keys)}", path=path, part=label, field=name)
+    if required not in raw:
+        raise where.error(f"{name} needs {required}: write it as {example}", path=path,
+                          part=label, field=name)
+    return raw
+
+
+def _crossing(raw: object, probe: m.Probe, values: dict, where: Where,
+              index: int) -> m.Crossing:
+    """``crossing = { level = "2 V", time = "69.3 ms", direction = "rising" }``; the time is
+    measured from the event (``at``), the level is in the probe's unit."""
+    example = 'crossing = { level = "2.0 V", time = "69.3 ms", direction = "rising" }'
+    table = _subtable(raw, CROSSING_KEYS, "level", example, where, index, "crossing")
+    label, path = expect_label(index), ("expect", index, "crossing")
+    formulas = {}
+    level, text = _hand_value(table["level"], probe.dimension, values, where, index, "crossing")
+    if text is not None:
+        formulas["level"] = text
+    time = None
+    if "time" in table:
+        time, text = _hand_value(table["time"], "s", values, where, index, "crossing")
+        if text is not None:
+            formulas["time"] = text
+        if time < 0:
+            raise where.error(f"crossing time must not be negative (it is the time after the "
+                              f"event), got {table['time']!r}", path=path, part=label,
+                              field="crossing")
+    direction = table.get("direction", m.EITHER)
+    if direction not in m.DIRECTIONS:
+        raise where.error(f"crossing direction must be {quoted_list(m.DIRECTIONS)}, got "
+                          f"{direction!r}{suggest(str(direction), m.DIRECTIONS)}", path=path,
+                          part=label, field="crossing")
+    return m.Crossing(level=level, time=time, direction=direction, formulas=formulas)
+
+
+def _energy(raw: object, circuit: m.Circuit, values: dict, where: Where,
+            index: int) -> m.EnergyCheck:
+    """``energy = { part = "R1", value = "12.5 mJ" }`` for a resistor or a switch."""
+    example = 'energy = { part = "R1", value = "12.5 mJ" }'
+    table = _subtable(raw, ENERGY_KEYS, "part", example, where, index, "energy")
+    label, path = expect_label(index), ("expect", index, "energy")
+    name = table["part"]
+    names = [p.name for p in circuit.parts]
+    if not isinstance(name, str) or name not in names:
+        raise where.error(f"energy part {name!r} is not in this circuit"
+                          f"{suggest(str(name), names)}", path=path, part=label,
+                          field="energy")
+    kind = circuit.part(name).kind
+    if kind not in m.DISSIPATIVE:
+        raise where.error(f"energy part {name} is a {kind}; dissipated energy is reported for "
+                          f"resistors and switches (stored energy of capacitors and inductors "
+                          f"is in the report at every event)", path=path, part=label,
+                          field="energy")
+    value, text = None, None
+    if "value" in table:
+        value, text = _hand_value(table["value"], "J", values, where, index, "energy")
+        if value < 0:
+            raise where.error(f"dissipated energy must not be negative, got "
+                              f"{table['value']!r}", path=path, part=label, field="energy")
+    return m.EnergyCheck(part=name, value=value, formula=text or "")
 
 
 def _probe(raw: dict, circuit: m.Circuit, where: Where, index: int) -> m.Probe:

@@ -8,9 +8,12 @@ hand value outside tolerance is a ``mismatch`` whose message comes from ``diagno
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from . import tolerances as tol
+from .compare_signoff import dominant_json, signoff_fields
 from .diagnose import explain
 from .model import FIELDS, Circuit, Expectation, Probe, NODE, BETWEEN, ACROSS
 from .outcome import (ENGINES_DISAGREE, MISMATCH, PASS, CheckResult, FieldResult, FileResult,
@@ -104,7 +107,12 @@ def compare_check(circuit: Circuit, exp: Expectation, exact: Solution,
     fe = exact.features(exp.probe, k)
     fn = numeric.features(exp.probe, k) if numeric is not None else None
     fields = tuple(compare_field(name, exp, fe, fn, ctx) for name in FIELDS)
-    trace = make_trace(ctx, exp, fe)
+    fields += tuple(signoff_fields(exp, fe, ctx))
+    dominant = None
+    if fe.order is not None and fe.order > 1 and hasattr(exact, "dominant"):
+        dominant = exact.dominant(exp.probe, k)
+    trace = _with_marks(make_trace(ctx, exp, fe), fields, dominant, circuit.events[k],
+                       fe.final)
     messages = [f"{f.name}: {f.message}" for f in fields if f.message]
     verdicts = [f.verdict for f in fields]
     if trace.deviation is not None and trace.deviation > tol.WAVEFORM_RELATIVE:
@@ -114,7 +122,26 @@ def compare_check(circuit: Circuit, exp: Expectation, exact: Solution,
     return CheckResult(index=exp.index, probe=exp.probe.label, at=circuit.events[k],
                        verdict=worst(verdicts), fields=fields, order=fe.order, modes=fe.modes,
                        messages=tuple(messages) + fe.notes, note=exp.note,
-                       direction=direction(exp.probe, circuit), trace=trace)
+                       direction=direction(exp.probe, circuit), trace=trace,
+                       dominant=dominant_json(dominant))
+
+
+def _with_marks(trace: Trace, fields, dominant, t_k: float, final: float | None) -> Trace:
+    """The trace with the crossing/peak marks, the crossing level and the one-τ estimate."""
+    marks, levels = [], []
+    for f in fields:
+        if f.name == "crossing":
+            levels.append((f"level {_fmt(f.extra.get('level'), trace.unit)}", f.extra["level"]))
+            if f.extra.get("at") is not None:
+                marks.append(("crossing", f.extra["at"], f.extra["level"]))
+        elif f.name == "peak" and f.extra.get("at") is not None:
+            marks.append(("peak", f.extra["at"], f.extra["value"]))
+    est_t = est_x = None
+    if dominant is not None and dominant.tau and trace.after is not None and final is not None:
+        est_t = trace.closed_t
+        est_x = final + (trace.after - final) * np.exp(-(est_t - t_k) / dominant.tau)
+    return replace(trace, marks=tuple(marks), levels=tuple(levels), estimate_t=est_t,
+                   estimate_x=est_x)
 
 
 def _grid(exact: Solution, k: int) -> np.ndarray:

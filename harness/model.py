@@ -40,6 +40,14 @@ PROBE_KINDS = (NODE, BETWEEN, ACROSS, THROUGH)
 
 #: hand-value fields of an expectation, in report order
 FIELDS = ("before", "after", "final", "tau")
+#: sign-off fields (issue 7), reported only where an expectation asks for them, in report order;
+#: ``peak`` and ``dominant_tau`` hand values live in ``Expectation.hand`` like the four above
+SIGNOFF_FIELDS = ("crossing", "peak", "energy", "dominant_tau")
+#: crossing directions
+RISING, FALLING, EITHER = "rising", "falling", "either"
+DIRECTIONS = (RISING, FALLING, EITHER)
+#: the part kinds whose dissipated energy an expectation may ask for
+DISSIPATIVE = (RESISTOR, SWITCH)
 
 
 @dataclass(frozen=True)
@@ -138,11 +146,38 @@ class Probe:
 
 @dataclass(frozen=True)
 class Crossing:
-    """Hand value for the first time the probe crosses ``level`` after the event."""
+    """Hand value for the first time the probe crosses ``level`` after the event.
+
+    Attributes:
+        level: the threshold in the probe's unit (V or A).
+        time: the hand value of the crossing time in s, measured from the event t_k (the time
+            *after the event*, as a reset delay is measured from power-on), or None when only
+            the computed crossing is wanted.
+        direction: "rising" (from below to above), "falling" or "either".
+        formulas: sub-field ("level", "time") -> the formula text it was evaluated from.
+    """
 
     level: float
     time: float | None = None
     direction: str = "either"  # "rising", "falling" or "either"
+    formulas: Mapping[str, str] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class EnergyCheck:
+    """Hand value for the energy dissipated in one part over an interval.
+
+    Attributes:
+        part: a resistor, or a switch (its on-/off-resistance; an ideal switch dissipates only
+            the loss of a jump whose impulse it carries).
+        value: the hand value in J, or None when only the computed energy is wanted.  The
+            quantity is defined in ``harness.results.EnergyValue``.
+        formula: the formula text ``value`` was evaluated from, or "".
+    """
+
+    part: str
+    value: float | None = None
+    formula: str = ""
 
 
 @dataclass(frozen=True)
@@ -153,7 +188,9 @@ class Expectation:
         index: 0-based position among the file's ``[[expect]]`` blocks.
         probe: what is observed.
         at: the event time in seconds (an element of ``Circuit.events``).
-        hand: field name -> hand value in SI units (only the fields given); fields from ``FIELDS``.
+        hand: field name -> hand value in SI units (only the fields given); fields from ``FIELDS``
+            and the scalar sign-off fields ``peak`` (largest magnitude, V or A) and
+            ``dominant_tau`` (the first-order estimate of a higher-order probe, s).
         formulas: field name -> the formula text the value was evaluated from (``"= R1*C1"``).
         tolerance: relative tolerance for hand vs computed, or None for the file's setting.
         note: free text from the file, shown in reports.
@@ -168,10 +205,20 @@ class Expectation:
     tolerance: float | None = None
     note: str = ""
     line: int | None = None
+    crossing: Crossing | None = None
+    energy: EnergyCheck | None = None
 
     @property
     def label(self) -> str:
         return f"expect #{self.index + 1}"
+
+    def wants(self, name: str) -> bool:
+        """Whether the sign-off field ``name`` (``SIGNOFF_FIELDS``) is asked for."""
+        if name == "crossing":
+            return self.crossing is not None
+        if name == "energy":
+            return self.energy is not None
+        return name in self.hand
 
 
 @dataclass(frozen=True)

@@ -7,7 +7,7 @@ All values are SI base-unit floats or None.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, Mapping
 
 import numpy as np
 
@@ -42,6 +42,7 @@ class FieldResult:
     message: str = ""
     formula: str = ""
     tolerance: float | None = None
+    extra: Mapping[str, Any] = field(default_factory=dict)
 
     def to_json(self) -> dict[str, Any]:
         out: dict[str, Any] = {"hand": self.hand, "closed_form": self.closed_form,
@@ -50,6 +51,8 @@ class FieldResult:
             out["message"] = self.message
         if self.formula:
             out["formula"] = self.formula
+        for key, item in self.extra.items():   # sign-off details: "at", "level", "part" …
+            out.setdefault(key, item)
         return out
 
 
@@ -68,6 +71,13 @@ class Trace:
     before: float | None = None
     after: float | None = None
     deviation: float | None = None  # largest |numeric - closed| relative to the swing
+    #: sign-off marks (label, absolute time s, value): crossing, peak
+    marks: tuple[tuple[str, float, float], ...] = ()
+    #: horizontal lines (label, value): a crossing level
+    levels: tuple[tuple[str, float], ...] = ()
+    #: the one-τ curve of the dominant (zero-value) time constant, absolute times
+    estimate_t: np.ndarray | None = None
+    estimate_x: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -85,11 +95,17 @@ class CheckResult:
     note: str = ""
     direction: str = ""   # the probe's reference direction in words
     trace: Trace | None = None
+    #: for a probe that is not first order: the zero-value estimate (JSON-ready, see
+    #: harness.results.DominantTau): tau, terms, modes_sum, deviation, t50, t50_estimate …
+    dominant: Mapping[str, Any] | None = None
 
     def to_json(self) -> dict[str, Any]:
-        return {"probe": self.probe, "at": self.at, "verdict": self.verdict, "order": self.order,
-                "modes": list(self.modes), "messages": list(self.messages),
-                "fields": {f.name: f.to_json() for f in self.fields}}
+        out = {"probe": self.probe, "at": self.at, "verdict": self.verdict, "order": self.order,
+               "modes": list(self.modes), "messages": list(self.messages),
+               "fields": {f.name: f.to_json() for f in self.fields}}
+        if self.dominant is not None:
+            out["dominant_tau"] = dict(self.dominant)
+        return out
 
 
 @dataclass(frozen=True)

@@ -32,6 +32,9 @@ class Features:
             pair, the envelope time constant -1/Re(lambda) once).
         oscillation: frequencies in Hz of visible complex pairs (empty for real modes).
         notes: diagnostics about this probe at this event (unbounded growth, no decay …).
+        dominant_tau: for a probe that is not first order, the first-order estimate an
+            engineer would make: the sum of the zero-value time constants of interval k (see
+            ``DominantTau``), in s; None for first-order probes or where the engine has none.
     """
 
     before: float | None
@@ -42,6 +45,7 @@ class Features:
     modes: tuple[float, ...] = ()
     oscillation: tuple[float, ...] = ()
     notes: tuple[str, ...] = ()
+    dominant_tau: float | None = None
 
 
 @dataclass(frozen=True)
@@ -73,6 +77,127 @@ class Jump:
     stored_after: Mapping[str, float] = field(default_factory=dict)
     loops: tuple[str, ...] = ()
     warnings: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class CrossingValue:
+    """When a probe first crosses a level after event k, on interval k's held waveform.
+
+    Attributes:
+        time: the crossing time in s measured from the event t_k (0 when the jump at the event
+            itself crosses the level), or None when it never crosses.
+        direction: "rising" or "falling": how it actually crosses (None when it never does).
+        in_jump: True when the crossing is the jump x(t_k-) -> x(t_k+) itself.
+        after_next_event: True when the next event t_(k+1) comes before the crossing (it is
+            found on the waveform continued with interval k's sources held).
+        approaches: the final value the probe heads to (for "never crosses" messages), or None.
+    """
+
+    time: float | None
+    direction: str | None = None
+    in_jump: bool = False
+    after_next_event: bool = False
+    approaches: float | None = None
+
+
+@dataclass(frozen=True)
+class PeakValue:
+    """The largest magnitude of a probe in interval k (held waveform, t_k+ included).
+
+    Attributes:
+        magnitude: max |x(t)| over t > t_k, x(t_k+) included and the final value as its limit.
+        value: the signed value there.
+        time: where it occurs, in s after the event (0 for x(t_k+)), or None when the largest
+            magnitude is only approached as t -> infinity (the final value).
+        after_next_event: True when that time lies beyond the next event.
+    """
+
+    magnitude: float
+    value: float
+    time: float | None
+    after_next_event: bool = False
+
+
+@dataclass(frozen=True)
+class EnergyValue:
+    """Energy dissipated in one part over interval k, continued until settled.
+
+    E = E_jump + integral from t_k+ to infinity of (p(t) - p_inf) dt, with p = i^2 R (R the
+    resistance, or a switch's on-/off-resistance in interval k) and p_inf = i_inf^2 R the steady
+    dissipation the held interval ends in.  E_jump is the jump's own loss at t_k (impulsive
+    currents through ideal parts) when the part is a switch that carries the impulse; a resistor
+    never carries one.  With p_inf = 0 this is the whole energy; with p_inf > 0 the steady part
+    (which grows without bound as long as the sources are held) is reported separately.
+
+    Attributes:
+        energy: E in J, or None where the waveform does not settle.
+        jump: E_jump in J (0 when nothing is included).
+        steady_power: p_inf in W.
+        in_interval: the total energy (steady part included) from t_k to t_(k+1) in J, or None
+            for the last (open-ended) interval.
+    """
+
+    energy: float | None
+    jump: float = 0.0
+    steady_power: float = 0.0
+    in_interval: float | None = None
+
+
+@dataclass(frozen=True)
+class DominantTau:
+    """The first-order estimate of a higher-order response (zero-value time constants).
+
+    tau = sum of tau_j over the storage parts: R_th,j * C_j for a capacitor and L_j / R_th,j for
+    an inductor, each R_th,j seen with the sources zeroed, the other capacitors open and the
+    other inductors shorted (their zero-value states).  It equals the sum of -1/lambda_i over
+    the interval's modes (the first-order coefficient of the characteristic polynomial), so it
+    estimates the slowest time constant when one mode dominates.
+
+    Attributes:
+        tau: the sum in s, or None where one term is infinite (a part with no resistive path).
+        terms: part name -> tau_j in s.
+        modes_sum: sum of -1/lambda_i over the interval's decaying modes (s), the identity's
+            other side.
+        deviation: largest |x_1tau(t) - x(t)| over the held waveform, relative to the swing
+            |x(t_k+) - x_inf|, where x_1tau = x_inf + (x(t_k+) - x_inf) e^(-(t - t_k)/tau).
+        t50: the exact 50 % time (first crossing of the midpoint of x(t_k+) and x_inf), s after
+            the event, or None.
+        t50_estimate: tau * ln 2.
+    """
+
+    tau: float | None
+    terms: Mapping[str, float] = field(default_factory=dict)
+    modes_sum: float | None = None
+    deviation: float | None = None
+    t50: float | None = None
+    t50_estimate: float | None = None
+
+    @property
+    def t50_error(self) -> float | None:
+        """(t50_estimate - t50) / t50, or None."""
+        if self.t50 is None or self.t50_estimate is None or self.t50 == 0:
+            return None
+        return (self.t50_estimate - self.t50) / self.t50
+
+
+class SignoffSolution(Protocol):
+    """The sign-off quantities (issue 7) an engine may add to ``Solution``.
+
+    The comparator calls these only where an engine has them (``hasattr``); a missing method
+    reads as "not computed by this engine" and is never an engine disagreement.
+    """
+
+    def crossing(self, probe: Probe, k: int, level: float, direction: str) -> CrossingValue:
+        """First crossing of ``level`` (direction "rising", "falling" or "either")."""
+
+    def peak(self, probe: Probe, k: int) -> PeakValue:
+        """Largest magnitude of ``probe`` in interval k."""
+
+    def energy(self, part: str, k: int) -> EnergyValue:
+        """Energy dissipated in ``part`` over interval k."""
+
+    def dominant(self, probe: Probe, k: int) -> DominantTau:
+        """The zero-value time-constant estimate and how far it is from the exact waveform."""
 
 
 class Solution(Protocol):

@@ -42,3 +42,25 @@ def relative_error(a: float, b: float, floor: float = 0.0) -> float:
     """|a - b| / max(|a|, |b|, floor); 0 when both are 0."""
     denom = max(abs(a), abs(b), floor)
     return 0.0 if denom == 0 else abs(a - b) / denom
+
+# ---- sign-off fields (issue 7): crossings, peaks, energy, dominant τ --------------------------
+#: crossing time, hand vs closed form: the expectation's hand tolerance (relative), with an
+#: absolute floor of this fraction of the interval's τ scale (its slowest visible τ)
+CROSSING_HAND_FLOOR = 1e-6
+#: crossing time, closed form vs numeric: this fraction of the interval's τ scale, or the time
+#: the engine value floor (ENGINE_FLOOR of the probe's scale) amounts to at the crossing's slope,
+#: or ENGINE_RELATIVE of the time, whichever is largest
+CROSSING_ENGINE = 1e-4
+#: dissipated energy, closed form vs numeric (relative; the numeric value is a quadrature of a
+#: sampled, regularised waveform)
+ENERGY_ENGINE_RELATIVE = 1e-3
+#: absolute floor for energies, as a fraction of the circuit's energy scale (the largest stored
+#: energy at any event, or the energy itself)
+ENERGY_FLOOR = 1e-6
+
+#: conditioning (harness.closedform.conditioning) above which a solution carries a warning:
+#: relative errors up to ~CONDITION_WARN * 2.2e-16 = 2e-8 (Higham 2002, ch. 7: log10 kappa digits)
+CONDITION_WARN = 1e8
+#: conditioning above which an interval's values are not reported (None with a note): errors
+#: could reach ~2e-4, beyond ENGINE_RELATIVE, so no digit of the engines' comparison is safe
+CONDITION_LIMIT = 1e12

@@ -32,10 +32,12 @@ UNITS: dict[str, str] = {
     "V": "V", "A": "A", "Ω": "ohm", "ohm": "ohm", "Ohm": "ohm", "ohms": "ohm", "R": "ohm",
     "F": "F", "H": "H", "s": "s", "S": "S", "%": "%",
     "V/V": "1", "A/A": "1", "A/V": "S", "V/A": "ohm",
+    "J": "J", "W": "W",
 }
 
 DIMENSION_NAMES = {"V": "volts", "A": "amperes", "ohm": "ohms", "F": "farads", "H": "henries",
-                   "s": "seconds", "S": "siemens", "1": "a plain number", "%": "a percentage"}
+                   "s": "seconds", "S": "siemens", "1": "a plain number", "%": "a percentage",
+                   "J": "joules", "W": "watts"}
 
 _NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
 _PLAIN = re.compile(rf"^\s*({_NUMBER})\s*(\S*)\s*$")

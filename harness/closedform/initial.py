@@ -19,7 +19,7 @@ import numpy as np
 
 from ..errors import InitialStateError
 from ..model import (CAPACITOR, CCCS, CURRENT_SOURCE, INDUCTOR, SWITCH, VCCS, Circuit, Part)
-from .linalg import least_squares
+from .linalg import equilibrate, least_squares
 from .mna import Layout, Scale, floating_groups, stamp, voltage_row
 
 _RESIDUAL = 1e-9
@@ -130,10 +130,12 @@ def _inconsistent(circuit: Circuit, layout: Layout, held: list[Part], resid: np.
 
 def _check_unique(circuit: Circuit, layout: Layout, scale: Scale, gd: np.ndarray) -> None:
     """Storage values that the DC system leaves free are undefined."""
-    _, sv, vh = np.linalg.svd(gd)
-    null = vh[sv <= _NULL * max(sv.max(), 1e-300)]
+    dr, dc = equilibrate(gd)         # part values decades apart must not look like a null space
+    _, sv, vh = np.linalg.svd(dr[:, None] * gd * dc[None, :])
+    null = vh[sv <= _NULL * max(sv.max(), 1e-300)] * dc[None, :]
     if null.shape[0] == 0:
         return
+    null /= np.linalg.norm(null, axis=1, keepdims=True)
     d = scale.var(layout)
     for part in circuit.parts:
         if part.initial is not None or part.kind not in (CAPACITOR, INDUCTOR):

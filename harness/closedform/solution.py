@@ -10,6 +10,7 @@ from ..errors import TopologyError
 from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, SOURCES, SWITCH, VCCS, VCVS, Circuit,
                      Probe)
 from ..results import Features, Jump
+from ..tolerances import MODE_VISIBILITY
 from ..units import format_si
 from .features import SCALE_FLOOR, RawEvent, classify, probe_scale, raw_event
 from .initial import dc_state
@@ -20,6 +21,7 @@ from .mna import (Layout, Scale, capacitor_null_basis, connects_in_interval, flo
 from .modes import Mode, mode_of
 from .probes import functional
 from .response import IntervalResponse, Pencil, build, pencil_of
+from . import signoff
 from .thevenin import thevenin_resistances
 
 ENGINE = "closed_form"
@@ -53,7 +55,13 @@ class ClosedFormSolution:
     def features(self, probe: Probe, k: int) -> Features:
         """Values of ``probe`` at event k (before, after, final, order, modes, tau)."""
         raws, scale = self._raw(probe)
-        return classify(raws[k], scale, self.scale.t)
+        out = classify(raws[k], scale, self.scale.t)
+        if out.order is not None and out.order > 1:
+            try:
+                out = replace(out, dominant_tau=self.dominant(probe, k).tau)
+            except (ValueError, ArithmeticError, np.linalg.LinAlgError):
+                pass                       # an estimate only: never costs the features
+        return out
 
     def jump(self, k: int) -> Jump:
         """Impulsive charges/fluxes and the energy dissipated at event k."""
@@ -105,6 +113,74 @@ class ClosedFormSolution:
             if mode.kind == "decaying":
                 taus += [mode.tau] * mode.multiplicity
         return tuple(sorted(taus, reverse=True))
+
+    # ----------------------------------------------------------------- sign-off (issue 7)
+    def exponential_sum(self, probe: Probe, k: int) -> "signoff.ExpSum":
+        """The probe's exact waveform in interval k as an exponential sum (``signoff``)."""
+        raws, _ = self._raw(probe)
+        return signoff.ExpSum.of(raws[k], self.scale.t)
+
+    def _held(self, k: int) -> tuple[float, float | None]:
+        """(span length after t_k, gap to the next event or None), in s."""
+        start, end = self.span(k)
+        nxt = self.intervals[k].next
+        return end - start, (None if nxt is None else nxt - start)
+
+    def crossing(self, probe: Probe, k: int, level: float, direction: str):
+        """First crossing of ``level`` after event k (``harness.results.CrossingValue``)."""
+        end, gap = self._held(k)
+        return signoff.crossing(self.exponential_sum(probe, k), level, direction, end,
+                                self.features(probe, k).final, gap)
+
+    def peak(self, probe: Probe, k: int):
+        """Largest magnitude of ``probe`` in interval k (``harness.results.PeakValue``)."""
+        end, gap = self._held(k)
+        return signoff.peak(self.exponential_sum(probe, k), end, self.features(probe, k).final,
+                            gap)
+
+    def energy(self, part_name: str, k: int):
+        """Energy dissipated in a resistor or switch over interval k
+        (``harness.results.EnergyValue``)."""
+        part = self.circuit.part(part_name)
+        end, gap = self._held(k)
+        jump = self.jump(k)
+        loss = 0.0
+        if part.kind == SWITCH and part_name in jump.charges:
+            if jump.energy is None:
+                from ..results import EnergyValue
+                return EnergyValue(None)
+            loss = float(jump.energy)
+        resistance = signoff.resistance_in(part, self.intervals[k].closed.get(part_name))
+        current = self.exponential_sum(signoff.probe_current_of(part), k)
+        return signoff.energy(current, resistance, loss, gap, end)
+
+    def dominant(self, probe: Probe, k: int):
+        """Zero-value time-constant estimate vs the exact waveform (``results.DominantTau``)."""
+        key = ("dominant", probe.label, k)
+        if key in self._probe_cache:
+            return self._probe_cache[key]
+        terms, _ = self._zero_value(k)
+        coupled = signoff.coupled_storage(self.circuit, probe, self.intervals[k].closed)
+        if coupled is not None:
+            terms = {p: t for p, t in terms.items() if p in coupled}
+        end, _ = self._held(k)
+        ex = self.exponential_sum(probe, k)
+        _, scale = self._raw(probe)
+        rates = signoff.visible_rates(ex, MODE_VISIBILITY * scale)
+        raws, _ = self._raw(probe)
+        final = classify(raws[k], scale, self.scale.t).final
+        self._probe_cache[key] = signoff.dominant(ex, terms, rates, end, final)
+        return self._probe_cache[key]
+
+    def _zero_value(self, k: int) -> tuple[dict[str, float], float | None]:
+        """(part -> zero-value time constant, their sum or None) for interval k, memoised."""
+        key = ("zero-value", k)
+        if key not in self._jump_cache:
+            terms = signoff.zero_value_terms(self.circuit, self.thevenin(k))
+            total = sum(terms.values()) if terms else None
+            ok = total is not None and np.isfinite(total) and total > 0
+            self._jump_cache[key] = (terms, total if ok else None)
+        return self._jump_cache[key]
 
     # ----------------------------------------------------------------- internals
     def _x_minus(self, k: int) -> np.ndarray:
@@ -192,10 +268,23 @@ def _singular(circuit: Circuit, layout: Layout, g: np.ndarray, c: np.ndarray,
     names = list(layout.nodes) + list(layout.branches)
     picked = [names[i] for i in np.flatnonzero(free > 0.1 * free.max())]
     branch = [nm for nm in picked if nm in layout.branches]
+    part, field = (branch[0], None) if branch else _blamed_part(circuit, picked)
     return TopologyError(
         f"from {format_si(time, 's')} the circuit's equations leave {', '.join(picked)} "
-        f"undetermined (a loop of ideal voltage-type parts, or a cut of current sources)",
-        file=circuit.source, part=branch[0] if branch else None)
+        f"undetermined (a loop of ideal voltage-type parts, a cut of current sources, or a "
+        f"controlled source whose gain makes its own equation degenerate)",
+        file=circuit.source, part=part, field=field)
+
+
+def _blamed_part(circuit: Circuit, nodes: list[str]) -> tuple[str | None, str | None]:
+    """(part, field) to name for undetermined ``nodes``: a controlled source touching them
+    (its gain), else the first part touching them (its nodes)."""
+    touching = [p for p in circuit.parts if set(p.nodes) & set(nodes)
+                or (p.kind in (VCVS, VCCS) and set(p.control or ()) & set(nodes))]
+    active = [p for p in touching if p.kind in (VCVS, VCCS, CCVS, CCCS)]
+    if active:
+        return active[0].name, "gain"
+    return (touching[0].name, "nodes") if touching else (None, None)
 
 
 def _b_scaled(circuit, layout, scale, closed, values) -> np.ndarray:

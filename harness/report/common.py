@@ -36,7 +36,31 @@ def field_unit(field: FieldResult) -> str:
     """The field's unit symbol; ``tau`` is in seconds when the comparator left it blank."""
     if field.unit:
         return field.unit
-    return "s" if field.name in ("tau", "crossing") else ""
+    return {"tau": "s", "crossing": "s", "dominant_tau": "s", "energy": "J"}.get(field.name, "")
+
+
+def field_label(field: FieldResult) -> str:
+    """The field's name for tables, saying what a sign-off value means.
+
+    ``crossing`` and ``peak`` times are measured from the event (the check's ``at``):
+    ``crossing 2 V rising (time after the event)``, ``peak |x| (at 12 ms after the event)``,
+    ``energy in R1 (J)``, ``dominant τ (Σ zero-value τ)``; the classical fields keep their name.
+    """
+    extra = field.extra or {}
+    if field.name == "crossing":
+        level = value(extra.get("level"), extra.get("level_unit", ""))
+        way = extra.get("direction", "either")
+        return (f"crossing {level}{'' if way == 'either' else ' ' + way} "
+                f"(time after the event)")
+    if field.name == "peak":
+        when = extra.get("after_event")
+        at = "as t → ∞" if when is None else f"at {time(when)} after the event"
+        return f"peak |x| ({at})"
+    if field.name == "energy":
+        return f"energy in {extra.get('part', '?')}"
+    if field.name == "dominant_tau":
+        return "dominant τ (Σ zero-value τ)"
+    return field.name
 
 
 def value(x: float | None, unit: str = "") -> str:
@@ -64,6 +88,21 @@ def modes_text(check: CheckResult) -> str:
     if not check.modes:
         return order + (", no decaying mode" if check.order == 0 else "")
     return order + ", τ = " + ", ".join(time(t) for t in check.modes)
+
+
+def dominant_text(check: CheckResult) -> str:
+    """``dominant τ ≈ 300 ms (Σ zero-value τ: C1 100 ms + C2 200 ms); one-τ curve off by 20 % of
+    the swing; 50 % at 106 ms vs τ·ln 2 = 208 ms`` or ``""`` for a first-order check."""
+    dom = check.dominant
+    if not dom or not dom.get("tau"):
+        return ""
+    terms = " + ".join(f"{p} {time(t)}" for p, t in dict(dom.get("terms", {})).items())
+    text = f"dominant τ ≈ {time(dom['tau'])} (Σ zero-value τ: {terms})"
+    if dom.get("deviation") is not None:
+        text += f"; one-τ curve off by {dom['deviation']:.2g} of the swing"
+    if dom.get("t50") is not None and dom.get("t50_estimate") is not None:
+        text += f"; 50 % at {time(dom['t50'])} vs τ·ln 2 = {time(dom['t50_estimate'])}"
+    return text
 
 
 def deviation_text(check: CheckResult) -> str:
@@ -156,12 +195,45 @@ def jump_text(jump: Mapping[str, Any]) -> str:
         bits.append(f"dissipated {value(energy, 'J')}")
     elif moved:
         bits.append("dissipated energy undefined")
-    text = f"t = {time(jump.get('time'))}: " + "; ".join(bits or ["no charge moved"])
+    when = jump.get("time", jump.get("at"))
+    text = f"t = {time(when)}: " + "; ".join(bits or ["no charge moved"])
     if loops:
         text += " (" + "; ".join(loops) + ")"
     if warnings:
         text += " — " + "; ".join(warnings)
     return text
+
+
+def stored_rows(file: FileResult) -> tuple[list[str], list[list[str]]]:
+    """The stored-energy table: headers (``event``, then ``P before``/``P after`` per storage
+    part) and one row per event, values in J with SI prefixes; ([], []) without storage parts.
+
+    Reads ``stored_before``/``stored_after`` (part -> J) of the JSON-ready jumps.
+    """
+    parts: list[str] = []
+    for jump in file.jumps:
+        for name in list(_mapping(jump.get("stored_before"))) + \
+                list(_mapping(jump.get("stored_after"))):
+            if name not in parts:
+                parts.append(name)
+    if not parts:
+        return [], []
+    headers = ["event"] + [f"{p} {side}" for p in parts for side in ("before", "after")]
+    rows = []
+    for jump in file.jumps:
+        before, after = _mapping(jump.get("stored_before")), _mapping(jump.get("stored_after"))
+        row = [time(jump.get("time", jump.get("at")))]
+        for p in parts:
+            row += [_energy(before.get(p)), _energy(after.get(p))]
+        rows.append(row)
+    return headers, rows
+
+
+def _energy(x: float | None) -> str:
+    """Stored energy in J; rounding noise below 1e-30 J reads as 0."""
+    if x is None:
+        return "—"
+    return value(0.0 if abs(x) < 1e-30 else x, "J")
 
 
 def _mapping(obj: Any) -> dict[str, float]:

@@ -40,13 +40,14 @@ def render_failures(run: RunResult) -> str:
 
 def _failure_rows(file: FileResult, check: CheckResult) -> list[list[str]]:
     label = common.check_label(check)
-    rows = []
+    rows, names = [], []
     for field in common.failing_fields(check):
+        names.append(field.name)
         unit = common.field_unit(field)
-        rows.append([file.file, label, field.name, common.value(field.hand, unit),
+        rows.append([file.file, label, common.field_label(field), common.value(field.hand, unit),
                      common.value(field.closed_form, unit), common.value(field.numeric, unit),
                      field.verdict, field.message])
-    shown = {r[-1] for r in rows} | {f"{r[2]}: {r[-1]}" for r in rows}
+    shown = {r[-1] for r in rows} | {f"{n}: {r[-1]}" for n, r in zip(names, rows)}
     extra = [m for m in check.messages if m not in shown]
     if extra or not rows:
         rows.append([file.file, label, "—", "", "", "", check.verdict,
@@ -72,6 +73,10 @@ def render_solve(file_result: FileResult) -> str:
                          ("caution", file_result.cautions)):
         out += [f"{label}: {text}" for text in items]
     out += [f"jump {text}" for text in common.jump_lines(file_result)]
+    headers, rows = common.stored_rows(file_result)
+    if rows:
+        out += ["stored energy in each capacitor and inductor, just before and after each event:",
+                tabulate(rows, headers=headers, tablefmt="simple", disable_numparse=True)]
     for check in file_result.checks:
         out.append("")
         out.append(_check_heading(check))
@@ -85,6 +90,8 @@ def _check_heading(check: CheckResult) -> str:
     if check.direction:
         bits.append(f"({check.direction})")
     bits.append(f"— {common.modes_text(check)}")
+    if check.dominant is not None and check.dominant.get("tau"):
+        bits.append(f"— {common.dominant_text(check)}")
     if check.trace is not None and check.trace.deviation is not None:
         bits.append(f"— waveform deviation {common.deviation_text(check)}")
     return " ".join(bits)
@@ -95,7 +102,7 @@ def _check_table(check: CheckResult) -> str:
     rows = []
     for field in check.fields:
         unit = common.field_unit(field)
-        row = [field.name]
+        row = [common.field_label(field)]
         if with_hand:
             row.append(common.value(field.hand, unit))
         row += [common.value(field.closed_form, unit), common.value(field.numeric, unit),

@@ -3,7 +3,8 @@
 Columns (``COLUMNS``): file, title, file_verdict, check (1-based), probe, direction, at (s),
 check_verdict, order, modes (s, ``;``-separated, slowest first), deviation (fraction of the
 swing), field, unit, hand, closed_form, numeric (SI base units, empty when undefined), verdict,
-tolerance (fraction), formula, message.
+tolerance (fraction), formula, message, label (what a sign-off field means: crossing level and
+direction with its time measured from the event, the part of an energy …).
 
 A file that could not be analysed and has no checks gets one row with an empty ``field``, verdict
 ``error`` and its errors in ``message``, so every file appears.  Text cells that a spreadsheet
@@ -22,8 +23,9 @@ from . import common
 
 COLUMNS = ("file", "title", "file_verdict", "check", "probe", "direction", "at", "check_verdict",
            "order", "modes", "deviation", "field", "unit", "hand", "closed_form", "numeric",
-           "verdict", "tolerance", "formula", "message")
-_TEXT = ("file", "title", "probe", "direction", "modes", "field", "unit", "formula", "message")
+           "verdict", "tolerance", "formula", "message", "label")
+_TEXT = ("file", "title", "probe", "direction", "modes", "field", "unit", "formula", "message",
+         "label")
 
 
 def frame(run: RunResult) -> pd.DataFrame:
@@ -44,7 +46,7 @@ def frame(run: RunResult) -> pd.DataFrame:
                              "hand": _num(field.hand), "closed_form": _num(field.closed_form),
                              "numeric": _num(field.numeric), "verdict": field.verdict,
                              "tolerance": field.tolerance, "formula": field.formula,
-                             "message": field.message})
+                             "message": field.message, "label": common.field_label(field)})
     table = pd.DataFrame(rows, columns=list(COLUMNS))
     for column in _TEXT:
         table[column] = table[column].map(_defuse)

@@ -102,6 +102,7 @@ def _file_section(i: int, file: FileResult, plots) -> str:
     if jumps:
         out.append("<p><strong>Jumps</strong> (charge moved, energy dissipated)</p><ul>"
                    + "".join(f"<li>{esc(j)}</li>" for j in jumps) + "</ul>")
+    out.append(_stored_table(file))
     for check in file.checks:
         out.append(_check_block(check, plots.get((i, check.index))))
     out.append("</section>")
@@ -115,6 +116,8 @@ def _check_block(check: CheckResult, png: bytes | None) -> str:
     facts.append(f'<p class="meta">event t = {esc(common.time(check.at))} · '
                  f"{esc(common.modes_text(check))} · whole-waveform deviation "
                  f"{esc(common.deviation_text(check))}</p>")
+    if check.dominant is not None and check.dominant.get("tau"):
+        facts.append(f'<p class="meta">{esc(common.dominant_text(check))}</p>')
     facts.append(_field_table(check))
     messages = common.check_messages(check)
     if messages:
@@ -131,6 +134,18 @@ def _check_block(check: CheckResult, png: bytes | None) -> str:
             + "</div>" + plot + "</div>")
 
 
+def _stored_table(file: FileResult) -> str:
+    """Stored energy of each capacitor and inductor just before and after every event."""
+    headers, rows = common.stored_rows(file)
+    if not rows:
+        return ""
+    head = "".join(f"<th>{esc(h)}</th>" for h in headers)
+    body = "".join("<tr>" + "".join(f'<td class="num">{esc(c)}</td>' for c in row) + "</tr>"
+                   for row in rows)
+    return ("<p><strong>Stored energy</strong> (each capacitor and inductor, just before and "
+            f"just after each event)</p><table><tr>{head}</tr>{body}</table>")
+
+
 def _field_table(check: CheckResult) -> str:
     """field / hand / closed form / numeric / tolerance / verdict (/ formula, when one is set)."""
     formulas = any(f.formula for f in check.fields)
@@ -141,7 +156,7 @@ def _field_table(check: CheckResult) -> str:
     for field in check.fields:
         unit = common.field_unit(field)
         cls = "" if field.verdict == PASS else ' class="bad"'
-        rows.append(f"<tr{cls}><td>{esc(field.name)}</td>"
+        rows.append(f"<tr{cls}><td>{esc(common.field_label(field))}</td>"
                     f'<td class="num">{esc(common.value(field.hand, unit))}</td>'
                     f'<td class="num">{esc(common.value(field.closed_form, unit))}</td>'
                     f'<td class="num">{esc(common.value(field.numeric, unit))}</td>'

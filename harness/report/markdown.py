@@ -67,6 +67,12 @@ def _file_section(i: int, file: FileResult, plots) -> list[str]:
     jumps = common.jump_lines(file)
     if jumps:
         out += ["**Jumps**", ""] + [f"- {escape(text)}" for text in jumps] + [""]
+    headers, rows = common.stored_rows(file)
+    if rows:
+        out += ["**Stored energy** (each capacitor and inductor, just before and just after "
+                "each event)", "", "| " + " | ".join(escape(h) for h in headers) + " |",
+                "|" + "---:|" * len(headers)]
+        out += ["| " + " | ".join(escape(c) for c in row) + " |" for row in rows] + [""]
     for check in file.checks:
         out += _check_section(check, plots.get((i, check.index)))
     return out
@@ -78,6 +84,8 @@ def _check_section(check: CheckResult, plot: str | None) -> list[str]:
     if check.direction:
         out.append(f"- reference direction: {escape(check.direction)}")
     out.append(f"- {escape(common.modes_text(check))}")
+    if check.dominant is not None and check.dominant.get("tau"):
+        out.append(f"- {escape(common.dominant_text(check))}")
     out.append(f"- whole-waveform deviation: {escape(common.deviation_text(check))}")
     if check.note:
         out.append(f"- note: {escape(check.note)}")
@@ -86,7 +94,8 @@ def _check_section(check: CheckResult, plot: str | None) -> list[str]:
     for field in check.fields:
         unit = common.field_unit(field)
         formula = escape(field.formula) if field.formula else ""
-        out.append(f"| {escape(field.name)} | {escape(common.value(field.hand, unit))} | "
+        out.append(f"| {escape(common.field_label(field))} | "
+                   f"{escape(common.value(field.hand, unit))} | "
                    f"{escape(common.value(field.closed_form, unit))} | "
                    f"{escape(common.value(field.numeric, unit))} | "
                    f"{escape(common.tolerance_text(field))} | {field.verdict} | {formula} |")

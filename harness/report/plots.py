@@ -33,7 +33,7 @@ DPI = 90
 HAND_POINTS = 400
 
 _COLOURS = {"numeric": "#1f5fbf", "closed": "#e07b00", "hand": "#2a9d3a", "event": "#777777",
-            "jump": "#c0262d"}
+            "jump": "#c0262d", "estimate": "#8e44ad", "level": "#555555", "mark": "#000000"}
 
 
 def hand_curve(check: CheckResult,
@@ -94,6 +94,7 @@ def plot_check(check: CheckResult, title: str = "") -> bytes | None:
     ax = fig.add_subplot()
     t_k = trace.event if trace.event is not None else check.at
     _draw_curves(ax, check, t_k)
+    _draw_signoff(ax, check, unit, t_k)
     _draw_event(ax, check, unit, t_k)
     ax.xaxis.set_major_formatter(EngFormatter(unit="s", places=None))
     ax.yaxis.set_major_formatter(EngFormatter(unit=_symbol(unit)))
@@ -128,6 +129,22 @@ def _draw_curves(ax, check: CheckResult, t_k: float) -> None:
                 and start < check.at:
             ax.plot([start - t_k, check.at - t_k], [before.hand, before.hand],
                     color=_COLOURS["hand"], linewidth=1.3, linestyle=":")
+
+
+def _draw_signoff(ax, check: CheckResult, unit: str, t_k: float) -> None:
+    """Crossing level (dashed line), crossing and peak marks, the one-τ dominant estimate."""
+    trace = check.trace
+    if trace.estimate_t is not None and trace.estimate_x is not None:
+        ax.plot(np.asarray(trace.estimate_t) - t_k, trace.estimate_x, color=_COLOURS["estimate"],
+                linewidth=1.1, linestyle=(0, (5, 2, 1, 2)), label="one-τ estimate")
+    for label, level in trace.levels:
+        ax.axhline(level, color=_COLOURS["level"], linewidth=0.8, linestyle="--",
+                   label=_plain(label))
+    for label, when, x in trace.marks:
+        marker = "x" if label == "crossing" else "^"
+        ax.plot([when - t_k], [x], marker=marker, markersize=7, color=_COLOURS["mark"],
+                linestyle="none",
+                label=_plain(f"{label} +{common.time(when - t_k)}"))
 
 
 def _trace_start(check: CheckResult) -> float | None:

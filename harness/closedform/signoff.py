@@ -1,0 +1,399 @@
+"""Sign-off quantities of the exact engine: crossings, peaks, dissipated energy, dominant τ.
+
+Every probe in interval k is an exponential sum in the local time u = t - t_k (s):
+
+    y(u) = c + Re sum_j e^(r_j s) sum_m a_jm s^m / m!,      s = u / T,
+
+with the scaled rates r_j and polynomial coefficients a_jm of ``features.RawEvent`` (T the
+engine's reference time; the zero cluster's growth terms enter with r = 0).  On it:
+
+* crossing: the first root of y(u) - level after t_k, bracketed on a grid that resolves every
+  mode (geometric from 1e-6 of the fastest time constant, linear with 16 points per period of
+  any oscillation, out to the interval's span and beyond while the tail still has to cross) and
+  refined by Brent's method (scipy.optimize.brentq).  A jump x(t_k-) -> x(t_k+) across the
+  level is a crossing at u = 0.
+* peak: the largest |y| among y(0+), the roots of y'(u) (bracketed and refined the same way)
+  and the final value as the limit t -> infinity.
+* energy: with i(u) = c + delta(u) the part's current, the integrals over [0, inf) are closed
+  form, int s^n e^(r s) ds = n! / (-r)^(n+1) for Re r < 0:
+      int delta du = T sum a_jm / (-r_j)^(m+1),
+      int delta^2 du = T sum_{i,j,m,n} a_im a_jn (m+n)! / (m! n! (-(r_i + r_j))^(m+n+1)),
+  E = R (2 c int delta + int delta^2) + E_jump (see ``harness.results.EnergyValue``).  The
+  total up to the next event is integrated by composite Gauss-Legendre on the grid.
+* dominant τ: the zero-value time constants R_th C and L / R_th from ``thevenin`` (other
+  capacitors open, other inductors shorted, sources zeroed), summed; compared with the sum of
+  -1/lambda over the modes and with the exact waveform (``harness.results.DominantTau``).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize import brentq
+
+from ..model import CAPACITOR, FALLING, INDUCTOR, RESISTOR, RISING, SWITCH, Probe, THROUGH
+from ..results import CrossingValue, DominantTau, EnergyValue, PeakValue
+from .features import RawEvent
+
+#: grid: geometric part starts at this fraction of the fastest time constant
+GRID_START = 1e-6
+#: points of the geometric and of the linear part of the grid; per oscillation period
+GRID_POINTS = 1500
+PER_PERIOD = 16
+#: the grid never exceeds this many points
+GRID_MAX = 60000
+#: Gauss-Legendre nodes per grid cell for finite-interval energies
+GAUSS = 4
+
+
+@dataclass(frozen=True)
+class ExpSum:
+    """The probe's exact waveform in interval k as an exponential sum (module docstring).
+
+    Attributes:
+        constant: c (SI unit of the probe).
+        rates: r_j, scaled (1/T), complex.
+        coeffs: a_jm per cluster, complex arrays of shape (m_j,).
+        t_ref: T in s.
+        before, after: y(t_k-) and y(t_k+).
+    """
+
+    constant: float
+    rates: tuple[complex, ...]
+    coeffs: tuple[np.ndarray, ...]
+    t_ref: float
+    before: float | None
+    after: float | None
+
+    @classmethod
+    def of(cls, raw: RawEvent, t_ref: float) -> "ExpSum":
+        rates = [complex(r) for r, _ in raw.clusters]
+        coeffs = [np.asarray(a, dtype=complex) for _, a in raw.clusters]
+        if raw.growth.size:
+            rates.append(0j)
+            coeffs.append(np.concatenate([[0j], np.asarray(raw.growth, dtype=complex)]))
+        constant = raw.constant if raw.constant is not None else math.nan
+        return cls(constant, tuple(rates), tuple(coeffs), t_ref, raw.before, raw.after)
+
+    @property
+    def decays(self) -> bool:
+        """Every term dies out (no growth, no undamped or growing mode)."""
+        return all(r.real < 0 for r in self.rates) and math.isfinite(self.constant)
+
+    def _poly(self, coeffs: np.ndarray, s: np.ndarray, deriv: bool) -> np.ndarray:
+        out = np.zeros(s.shape, dtype=complex)
+        for m, a in enumerate(coeffs):
+            if deriv:
+                if m >= 1:
+                    out += a * s ** (m - 1) / math.factorial(m - 1)
+            else:
+                out += a * s ** m / math.factorial(m)
+        return out
+
+    def value(self, u: np.ndarray) -> np.ndarray:
+        """y at local times ``u`` (s after t_k), shape like ``u``."""
+        s = np.asarray(u, dtype=float) / self.t_ref
+        out = np.full(s.shape, self.constant, dtype=complex)
+        with np.errstate(over="ignore", invalid="ignore"):
+            for r, a in zip(self.rates, self.coeffs):
+                out += np.exp(r * s) * self._poly(a, s, False)
+        return out.real
+
+    def slope(self, u: np.ndarray) -> np.ndarray:
+        """dy/du at local times ``u`` (unit per s)."""
+        s = np.asarray(u, dtype=float) / self.t_ref
+        out = np.zeros(s.shape, dtype=complex)
+        with np.errstate(over="ignore", invalid="ignore"):
+            for r, a in zip(self.rates, self.coeffs):
+                out += np.exp(r * s) * (r * self._poly(a, s, False) + self._poly(a, s, True))
+        return out.real / self.t_ref
+
+    def time_scales(self) -> tuple[float, float]:
+        """(fastest, slowest) time constant of the non-zero rates in s (T, T without any)."""
+        sig = [abs(r.real) for r in self.rates if abs(r.real) > 0]
+        if not sig:
+            return self.t_ref, self.t_ref
+        return self.t_ref / max(sig), self.t_ref / min(sig)
+
+    def grid(self, end: float) -> np.ndarray:
+        """Local times in (0, end] that resolve every mode (module docstring), sorted."""
+        fast, _ = self.time_scales()
+        start = min(GRID_START * fast, 1e-3 * end)
+        parts = [np.geomspace(start, end, GRID_POINTS), np.linspace(0, end, GRID_POINTS)[1:]]
+        omegas = [abs(r.imag) / self.t_ref for r in self.rates if abs(r.imag) > 0]
+        if omegas:
+            step = 2 * math.pi / max(omegas) / PER_PERIOD
+            count = int(min(end / step, GRID_MAX))
+            parts.append(np.linspace(0, end, max(count, 2))[1:])
+        return np.unique(np.concatenate(parts))
+
+    def integral(self) -> complex:
+        """int_0^inf delta(u) du in unit·s (requires ``decays``)."""
+        total = 0j
+        for r, a in zip(self.rates, self.coeffs):
+            total += sum(am / (-r) ** (m + 1) for m, am in enumerate(a))
+        return total * self.t_ref
+
+    def square_integral(self) -> complex:
+        """int_0^inf delta(u)^2 du in unit²·s (requires ``decays``)."""
+        total = 0j
+        for ri, ai in zip(self.rates, self.coeffs):
+            for rj, aj in zip(self.rates, self.coeffs):
+                mu = -(ri + rj)
+                for m, am in enumerate(ai):
+                    for n, an in enumerate(aj):
+                        total += (am * an * math.factorial(m + n)
+                                  / (math.factorial(m) * math.factorial(n) * mu ** (m + n + 1)))
+        return total * self.t_ref
+
+
+# ------------------------------------------------------------------------------- crossings
+def _sides(direction: str, lo: float, hi: float) -> bool:
+    """Whether going from value-minus-level ``lo`` to ``hi`` is a crossing in ``direction``."""
+    if direction == RISING:
+        return lo < 0 <= hi
+    if direction == FALLING:
+        return lo > 0 >= hi
+    return (lo < 0 <= hi) or (lo > 0 >= hi)
+
+
+def _first_root(fun, grid: np.ndarray, values: np.ndarray, direction: str) -> float | None:
+    """The first bracketed root of ``fun`` on ``grid`` (with its ``values``) in ``direction``."""
+    for i in range(len(grid) - 1):
+        if _sides(direction, values[i], values[i + 1]):
+            if values[i + 1] == 0:
+                return float(grid[i + 1])
+            return _refine(fun, grid[i], grid[i + 1])
+    return None
+
+
+def _refine(fun, lo: float, hi: float) -> float:
+    """Brent's root of ``fun`` in [lo, hi]; the nearer end where rounding unbrackets it (the
+    grid value at u = 0 is the right limit x(t_k+), which a direct evaluation may miss by an
+    ulp)."""
+    f_lo, f_hi = fun(lo), fun(hi)
+    if not (np.isfinite(f_lo) and np.isfinite(f_hi)) or f_lo * f_hi > 0:
+        return float(lo if abs(f_lo) <= abs(f_hi) else hi)
+    if f_lo == 0 or f_hi == 0:
+        return float(lo if f_lo == 0 else hi)
+    return float(brentq(fun, lo, hi, xtol=1e-15 * max(hi, 1e-300),
+                        rtol=4 * np.finfo(float).eps, maxiter=200))
+
+
+def crossing(ex: ExpSum, level: float, direction: str, end: float, final: float | None,
+             next_gap: float | None) -> CrossingValue:
+    """First crossing of ``level`` in (0, end] (extended while the tail must still cross).
+
+    Args:
+        end: the span's length after t_k in s.
+        final: x_inf of the interval, or None.
+        next_gap: t_(k+1) - t_k in s, or None for the last interval.
+    """
+    after_gap = (lambda u: next_gap is not None and u > next_gap)
+    if ex.before is not None and ex.after is not None and \
+            _sides(direction, ex.before - level, ex.after - level) and ex.after != level:
+        way = RISING if ex.after > ex.before else FALLING
+        return CrossingValue(0.0, way, in_jump=True, approaches=final)
+    fun = (lambda u: float(ex.value(np.array([u]))[0]) - level)
+    grid = np.concatenate([[0.0], ex.grid(end)])
+    values = ex.value(grid) - level
+    values[0] = (ex.after if ex.after is not None else values[1] + level) - level
+    found = _first_root(fun, grid, values, direction)
+    for _ in range(60):             # the slow tail still has to reach the level: look further
+        if found is not None or final is None or not np.isfinite(values[-1]):
+            break
+        if not _sides(direction, values[-1], final - level):
+            break
+        lo, end = grid[-1], 2 * grid[-1]
+        grid = np.linspace(lo, end, 200)
+        values = ex.value(grid) - level
+        found = _first_root(fun, grid, values, direction)
+    if found is None:
+        return CrossingValue(None, approaches=final)
+    way = RISING if float(ex.slope(np.array([found]))[0]) > 0 else FALLING
+    if direction != "either":
+        way = direction
+    return CrossingValue(found, way, after_next_event=after_gap(found), approaches=final)
+
+
+# ------------------------------------------------------------------------------- peaks
+def peak(ex: ExpSum, end: float, final: float | None, next_gap: float | None) -> PeakValue:
+    """Largest |y| over (0, inf): y(0+), the extrema (roots of y') and the final value."""
+    candidates: list[tuple[float, float | None]] = []
+    if ex.after is not None:
+        candidates.append((ex.after, 0.0))
+    grid = np.concatenate([[0.0], ex.grid(end)])
+    slopes = ex.slope(grid)
+    fun = (lambda u: float(ex.slope(np.array([u]))[0]))
+    for i in range(len(grid) - 1):
+        if np.isfinite(slopes[i]) and np.isfinite(slopes[i + 1]) and \
+                slopes[i] * slopes[i + 1] < 0:
+            u = _refine(fun, grid[i], grid[i + 1])
+            candidates.append((float(ex.value(np.array([u]))[0]), u))
+    if final is not None:
+        candidates.append((final, None))
+    else:                           # no final value: the largest magnitude seen on the span
+        values = ex.value(grid)
+        i = int(np.nanargmax(np.abs(values)))
+        candidates.append((float(values[i]), float(grid[i])))
+    value, time = max(candidates, key=lambda c: (abs(c[0]), c[1] is not None))
+    late = time is not None and next_gap is not None and time > next_gap
+    return PeakValue(magnitude=abs(value), value=value, time=time, after_next_event=late)
+
+
+# ------------------------------------------------------------------------------- energy
+def resistance_in(part, closed: bool | None) -> float:
+    """The part's dissipating resistance in an interval (0 for ideal parts)."""
+    if part.kind == RESISTOR:
+        return float(part.value)
+    if part.kind == SWITCH:
+        r = part.on_resistance if closed else part.off_resistance
+        return float(r) if r is not None else 0.0
+    return 0.0
+
+
+def energy(ex: ExpSum, resistance: float, jump_loss: float, next_gap: float | None,
+           end: float) -> EnergyValue:
+    """Energy in a part with current ``ex`` and dissipating ``resistance`` (ohm) over an
+    interval (``harness.results.EnergyValue``); ``jump_loss`` is the included jump loss (J)."""
+    if resistance == 0.0:
+        return EnergyValue(jump_loss, jump=jump_loss, in_interval=None if next_gap is None
+                           else jump_loss)
+    if not ex.decays:
+        return EnergyValue(None, jump=jump_loss)
+    c = ex.constant
+    if abs(c) <= 1e-12 * max(abs(ex.after or 0.0), abs(ex.before or 0.0), 1e-300):
+        c = 0.0                     # rounding noise of a current that decays to zero
+    transient = float(resistance * (2 * c * ex.integral() + ex.square_integral()).real)
+    in_interval = None
+    if next_gap is not None:
+        in_interval = jump_loss + resistance * _square_quad(ex, next_gap, end)
+    return EnergyValue(transient + jump_loss, jump=jump_loss, steady_power=float(resistance * c * c),
+                       in_interval=in_interval)
+
+
+def _square_quad(ex: ExpSum, length: float, end: float) -> float:
+    """int_0^length y(u)^2 du by composite Gauss-Legendre on the mode-resolving grid."""
+    grid = np.concatenate([[0.0], ex.grid(max(length, end))])
+    grid = np.unique(np.concatenate([grid[grid < length], [length]]))
+    nodes, weights = np.polynomial.legendre.leggauss(GAUSS)
+    a, b = grid[:-1], grid[1:]
+    mid, half = (a + b) / 2, (b - a) / 2
+    u = (mid[:, None] + half[:, None] * nodes[None, :]).ravel()
+    y = ex.value(u).reshape(len(a), GAUSS)
+    return float(np.sum(half[:, None] * weights[None, :] * y * y))
+
+
+# ------------------------------------------------------------------------------- dominant τ
+def zero_value_terms(circuit, rth: dict[str, float]) -> dict[str, float]:
+    """Storage part -> zero-value time constant in s: R_th C, or L / R_th (inf for no path)."""
+    out = {}
+    for name, r in rth.items():
+        part = circuit.part(name)
+        if part.kind == CAPACITOR:
+            out[name] = r * part.value if math.isfinite(r) else math.inf
+        elif part.kind == INDUCTOR:
+            out[name] = part.value / r if r != 0 else math.inf
+    return out
+
+
+def modes_sum(rates: list[complex]) -> float | None:
+    """sum of -1/lambda over the given non-zero rates (1/s), real part; None if any is 0."""
+    if any(r == 0 for r in rates):
+        return None
+    return float(sum((-1.0 / r).real for r in rates))
+
+
+def visible_rates(ex: ExpSum, threshold: float) -> list[complex]:
+    """Rates (1/s) of the clusters visible in the probe (amplitude above ``threshold``), each
+    repeated by its cluster size."""
+    out = []
+    for r, a in zip(ex.rates, ex.coeffs):
+        if r != 0 and np.max(np.abs(a)) > threshold:
+            out += [r / ex.t_ref] * len(a)
+    return out
+
+
+def dominant(ex: ExpSum, terms: dict[str, float], rates: list[complex], end: float,
+             final: float | None) -> DominantTau:
+    """The zero-value estimate and its distance from the exact waveform of the probe.
+
+    Args:
+        terms: the zero-value time constants of the storage parts coupled to the probe (s).
+        rates: the modes visible in the probe (1/s), for ``modes_sum``.
+    """
+    total = sum(terms.values()) if terms else None
+    tau = total if total is not None and math.isfinite(total) and total > 0 else None
+    msum = modes_sum(rates)
+    if tau is None or final is None or ex.after is None:
+        return DominantTau(tau, dict(terms), msum)
+    swing = ex.after - final
+    horizon = max(end, 10 * tau)
+    grid = ex.grid(horizon)
+    one = final + swing * np.exp(-grid / tau)
+    deviation = float(np.max(np.abs(one - ex.value(grid))) / abs(swing)) if swing else None
+    t50 = crossing(ex, final + swing / 2, "either", horizon, final, None).time if swing else None
+    return DominantTau(tau, dict(terms), msum, deviation, t50, tau * math.log(2))
+
+
+def probe_current_of(part) -> Probe:
+    """The ``through`` probe of a part."""
+    return Probe(THROUGH, (part.name,))
+
+
+# ------------------------------------------------------------------------------- coupling
+def coupled_storage(circuit, probe: Probe, closed: dict) -> set[str] | None:
+    """The capacitors and inductors whose dynamics can reach ``probe`` in an interval.
+
+    With the sources zeroed, the nodes tied to ground by independent voltage sources (and
+    ideal closed switches) form the reference class; the other nodes are grouped by every
+    remaining part that conducts (resistors, storage parts, switches that are closed or have an
+    off-resistance, controlled sources together with their control nodes or sensed part).
+    Groups that meet only through the reference class are dynamically independent.  Returns the
+    storage parts with a terminal in a group the probe touches, or None when the probe touches
+    only the reference class (then every storage part counts).
+    """
+    from ..model import CURRENT_CONTROLLED, CURRENT_SOURCE, VOLTAGE_CONTROLLED, VOLTAGE_SOURCE
+    parent: dict[str, str] = {n: n for n in circuit.nodes}
+
+    def find(x):
+        while parent[x] != x:
+            parent[x] = parent[parent[x]]
+            x = parent[x]
+        return x
+
+    def join(a, b):
+        parent[find(a)] = find(b)
+
+    ground = circuit.ground
+    for part in circuit.parts:
+        ideal_short = part.kind == SWITCH and closed.get(part.name) and part.on_resistance is None
+        if part.kind == VOLTAGE_SOURCE or ideal_short:
+            join(part.p, part.n)                 # zeroed source / short: same node
+    reference = {n for n in circuit.nodes if find(n) == find(ground)}
+    links: list[tuple[str, ...]] = []
+    for part in circuit.parts:
+        if part.kind in (VOLTAGE_SOURCE, CURRENT_SOURCE):
+            continue
+        if part.kind == SWITCH and not closed.get(part.name) and part.off_resistance is None:
+            continue
+        group = list(part.nodes)
+        if part.kind in VOLTAGE_CONTROLLED and isinstance(part.control, tuple):
+            group += list(part.control)
+        elif part.kind in CURRENT_CONTROLLED and isinstance(part.control, str):
+            group += list(circuit.part(part.control).nodes)
+        links.append(tuple(n for n in group if n not in reference))
+    for group in links:
+        for a, b in zip(group, group[1:]):
+            join(a, b)
+    if probe.kind in ("node", "between"):
+        touched = set(probe.targets)
+    else:
+        touched = set(circuit.part(probe.targets[0]).nodes)
+    roots = {find(n) for n in touched if n not in reference}
+    if not roots:
+        return None
+    return {p.name for p in circuit.parts if p.kind in (CAPACITOR, INDUCTOR)
+            and any(n not in reference and find(n) in roots for n in p.nodes)}

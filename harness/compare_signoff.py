@@ -1,0 +1,305 @@
+"""The comparison of the sign-off fields (issue 7): crossing, peak, energy, dominant τ.
+
+Same rule as the four classical fields (``tolerances.agree``): hand vs closed form with the
+expectation's tolerance, closed form vs numeric with the engine tolerances of
+``harness.tolerances`` (a disagreement there blames the engines, never the hand).  An engine
+without the sign-off method (``results.SignoffSolution``) reads as "not computed": its column is
+null and no engine comparison is made.  Fields appear only when the expectation asks for them.
+
+Times of crossings and peaks are measured from the event t_k (the ``at`` of the expectation):
+the reset delay is counted from power-on, the debounce delay from the press.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from . import tolerances as tol
+from .model import SIGNOFF_FIELDS, Expectation
+from .outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
+from .results import DominantTau, Features
+from .units import format_si
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .compare import CheckContext
+
+
+def _call(solution, name: str, *args):
+    """``solution.name(*args)``, or None when the engine lacks it or is absent."""
+    method = getattr(solution, name, None) if solution is not None else None
+    return method(*args) if method is not None else None
+
+
+def _relative(exp: Expectation, ctx: "CheckContext") -> float:
+    return exp.tolerance if exp.tolerance is not None else ctx.circuit.settings.tolerance
+
+
+def _engine_msg(closed, numeric, unit: str) -> str:
+    return (f"the closed form gives {format_si(closed, unit)} but the numerical engine gives "
+            f"{format_si(numeric, unit)}: an engine problem, not a hand-calculation error")
+
+
+def tau_scale(fe: Features, ctx: "CheckContext") -> float:
+    """The interval's τ scale: the probe's slowest visible τ, else a tenth of the span."""
+    if fe.modes:
+        return fe.modes[0]
+    start, end = ctx.exact.span(ctx.k)
+    return max((end - start) / 10.0, 1e-300)
+
+
+def signoff_fields(exp: Expectation, fe: Features, ctx: "CheckContext") -> list[FieldResult]:
+    """FieldResults of the sign-off fields the expectation asks for, in ``SIGNOFF_FIELDS``
+    order."""
+    makers = {"crossing": compare_crossing, "peak": compare_peak, "energy": compare_energy,
+              "dominant_tau": compare_dominant}
+    return [makers[name](exp, fe, ctx) for name in SIGNOFF_FIELDS if exp.wants(name)]
+
+
+# ------------------------------------------------------------------------------- crossing
+def _slope(ctx: "CheckContext", t_abs: float, scale: float) -> float:
+    """|dx/dt| of the exact waveform at ``t_abs`` (central difference), unit/s."""
+    start, _ = ctx.exact.span(ctx.k)
+    h = max(1e-6 * scale, 1e-12 * max(abs(t_abs), 1e-300))
+    lo = max(t_abs - h, start + 0.5 * (t_abs - start)) if t_abs > start else t_abs
+    times = np.array([lo, t_abs + h])
+    if not times[1] > times[0] or not times[0] > start:
+        return math.inf
+    x = np.asarray(ctx.exact.waveform(ctx.probe, ctx.k, times), dtype=float)
+    return abs(float(x[1] - x[0]) / float(times[1] - times[0]))
+
+
+def compare_crossing(exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldResult:
+    """Crossing time after the event: hand vs closed form vs numeric, with "never crosses"."""
+    want = exp.crossing
+    ce = ctx.exact.crossing(ctx.probe, ctx.k, want.level, want.direction)
+    cn = _call(ctx.numeric, "crossing", ctx.probe, ctx.k, want.level, want.direction)
+    t_k = ctx.circuit.events[ctx.k]
+    scale_t = tau_scale(fe, ctx)
+    unit = exp.probe.dimension
+    verdict, message = PASS, ""
+    if cn is not None and not _crossing_engines_agree(ce.time, cn.time, ctx, t_k, scale_t):
+        verdict, message = ENGINES_DISAGREE, _engine_msg(ce.time, cn.time, "s")
+    elif ce.time is None:
+        verdict = MISMATCH
+        message = (f"never crosses {format_si(want.level, unit)}"
+                   f"{'' if want.direction == 'either' else ' ' + want.direction}: heads to "
+                   f"{format_si(ce.approaches, unit)}" if ce.approaches is not None else
+                   f"never crosses {format_si(want.level, unit)} (the response does not settle)")
+    elif want.time is not None and not tol.agree(want.time, ce.time, _relative(exp, ctx),
+                                                 tol.CROSSING_HAND_FLOOR * scale_t):
+        verdict = MISMATCH
+        message = crossing_hint(want, ce.time, fe, t_k)
+    notes = []
+    if ce.in_jump:
+        notes.append(f"it crosses in the jump at the event itself "
+                     f"({format_si(fe.before, unit)} → {format_si(fe.after, unit)})")
+    if ce.after_next_event:
+        nxt = ctx.circuit.events[ctx.k + 1]
+        notes.append(f"the next event at {format_si(nxt, 's')} intervenes: the crossing is on "
+                     f"the waveform continued with this interval's sources held, and the circuit "
+                     f"changes before it")
+    message = "; ".join(([message] if message else []) + notes)
+    extra: dict[str, Any] = {
+        "level": want.level, "level_unit": unit, "direction": want.direction,
+        "measured_from": "event",
+        "event": t_k, "at": None if ce.time is None else t_k + ce.time,
+        "crossed": ce.direction, "in_jump": ce.in_jump,
+        "after_next_event": ce.after_next_event, "approaches": ce.approaches}
+    if cn is not None:
+        extra["numeric_at"] = None if cn.time is None else t_k + cn.time
+    formula = " ; ".join(f"{k} {v}" for k, v in want.formulas.items())
+    return FieldResult(name="crossing", hand=want.time, closed_form=ce.time,
+                       numeric=None if cn is None else cn.time, verdict=verdict, unit="s",
+                       message=message, formula=formula, tolerance=_relative(exp, ctx),
+                       extra=extra)
+
+
+def _crossing_engines_agree(te, tn, ctx, t_k: float, scale_t: float) -> bool:
+    if te is None or tn is None:
+        return te is None and tn is None
+    slope = _slope(ctx, t_k + te, scale_t) if te > 0 else math.inf
+    value_floor = tol.ENGINE_FLOOR * ctx.scale / slope if slope > 0 else math.inf
+    floor = max(tol.CROSSING_ENGINE * scale_t, value_floor)
+    return tol.agree(te, tn, tol.ENGINE_RELATIVE, floor)
+
+
+def crossing_hint(want, computed: float, fe: Features, t_k: float) -> str:
+    """``crosses at 52 ms, not 69.3 ms (τ·ln(...) suggests ...)``."""
+    text = (f"crosses at {format_si(computed, 's')} after the event, not "
+            f"{format_si(want.time, 's')}")
+    hints = []
+    if t_k > 0 and tol.agree(want.time, t_k + computed, 0.01):
+        hints.append(f"your time fits t = {format_si(t_k + computed, 's')} from t = 0; crossing "
+                     f"times are measured from the event at {format_si(t_k, 's')}")
+    after, final = fe.after, fe.final
+    ratio = None
+    if after is not None and final is not None and want.level != final:
+        ratio = (after - final) / (want.level - final)
+    if ratio is not None and ratio > 1:
+        if fe.tau is not None:
+            hints.append(f"τ·ln((x(0+) − x∞)/(level − x∞)) = {format_si(fe.tau, 's')}·ln("
+                         f"{ratio:.4g}) = {format_si(fe.tau * math.log(ratio), 's')}; your time "
+                         f"implies τ = {format_si(want.time / math.log(ratio), 's')}")
+        elif fe.dominant_tau is not None:
+            hints.append(f"not first order (τ = {', '.join(format_si(t, 's') for t in fe.modes)}"
+                         f"); the one-τ estimate Σ zero-value τ·ln({ratio:.4g}) = "
+                         f"{format_si(fe.dominant_tau * math.log(ratio), 's')}")
+    return text + (f" ({'; '.join(hints)})" if hints else "")
+
+
+# ------------------------------------------------------------------------------- peak
+def compare_peak(exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldResult:
+    """Largest magnitude in the interval (and when): hand vs closed form vs numeric."""
+    pe = ctx.exact.peak(ctx.probe, ctx.k)
+    pn = _call(ctx.numeric, "peak", ctx.probe, ctx.k)
+    hand = abs(exp.hand["peak"])
+    unit = exp.probe.dimension
+    t_k = ctx.circuit.events[ctx.k]
+    verdict, message = PASS, ""
+    numeric = None if pn is None else pn.magnitude
+    if pn is not None and not tol.agree(pe.magnitude, numeric, tol.ENGINE_RELATIVE,
+                                        tol.ENGINE_FLOOR * ctx.scale):
+        verdict, message = ENGINES_DISAGREE, _engine_msg(pe.magnitude, numeric, unit)
+    elif not tol.agree(hand, pe.magnitude, _relative(exp, ctx), tol.HAND_FLOOR * ctx.scale):
+        verdict = MISMATCH
+        message = peak_hint(hand, pe, fe, unit, _relative(exp, ctx), ctx.scale)
+    elif pe.after_next_event:
+        message = (f"the peak at {format_si(pe.time, 's')} after the event lies beyond the next "
+                   f"event at {format_si(ctx.circuit.events[ctx.k + 1], 's')} (continued "
+                   f"waveform)")
+    extra = {"at": None if pe.time is None else t_k + pe.time,
+             "after_event": pe.time, "value": pe.value, "measured_from": "event",
+             "after_next_event": pe.after_next_event}
+    if pn is not None:
+        extra["numeric_at"] = None if pn.time is None else t_k + pn.time
+    return FieldResult(name="peak", hand=hand, closed_form=pe.magnitude, numeric=numeric,
+                       verdict=verdict, unit=unit, message=message,
+                       formula=exp.formulas.get("peak", ""), tolerance=_relative(exp, ctx),
+                       extra=extra)
+
+
+def peak_hint(hand: float, pe, fe: Features, unit: str, relative: float, scale: float) -> str:
+    """Why a hand peak does not fit: where the largest magnitude really is."""
+    when = ("as t → ∞ (the final value)" if pe.time is None else
+            "just after the event, x(t_k+)" if pe.time == 0 else
+            f"at {format_si(pe.time, 's')} after the event")
+    text = (f"the largest magnitude is {format_si(pe.magnitude, unit)} {when}, not "
+            f"{format_si(hand, unit)}")
+    floor = tol.HAND_FLOOR * scale
+    if fe.final is not None and pe.time is not None and \
+            tol.agree(hand, abs(fe.final), relative, floor):
+        text += "; your value is the final value — the response overshoots it"
+    elif fe.before is not None and pe.time == 0 and tol.agree(hand, abs(fe.before), relative,
+                                                              floor):
+        text += "; your value is the one before the event: the probe jumps at the event"
+    return text
+
+
+# ------------------------------------------------------------------------------- energy
+def _energy_scale(ctx: "CheckContext", value: float | None) -> float:
+    stored = [0.0 if value is None else abs(value)]
+    for k in range(len(ctx.circuit.events)):
+        j = ctx.exact.jump(k)
+        stored += [abs(v) for v in list(j.stored_before.values()) + list(j.stored_after.values())]
+    return max(stored + [1e-300])
+
+
+def compare_energy(exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldResult:
+    """Energy dissipated in a part over the interval continued until settled."""
+    want = exp.energy
+    ee = ctx.exact.energy(want.part, ctx.k)
+    en = _call(ctx.numeric, "energy", want.part, ctx.k)
+    floor = tol.ENERGY_FLOOR * _energy_scale(ctx, ee.energy)
+    verdict, message = PASS, ""
+    numeric = None if en is None else en.energy
+    if en is not None and not tol.agree(ee.energy, numeric, tol.ENERGY_ENGINE_RELATIVE, floor):
+        verdict, message = ENGINES_DISAGREE, _engine_msg(ee.energy, numeric, "J")
+    elif ee.energy is None:
+        verdict = MISMATCH if want.value is not None else PASS
+        message = "the response does not settle, so the dissipated energy is unbounded"
+    elif want.value is not None and not tol.agree(want.value, ee.energy, _relative(exp, ctx),
+                                                  floor):
+        verdict = MISMATCH
+        message = energy_hint(want.value, ee, ctx)
+    notes = energy_notes(ee, ctx, want.part)
+    message = "; ".join(([message] if message else []) + notes)
+    extra = {"part": want.part, "jump": ee.jump, "steady_power": ee.steady_power,
+             "in_interval": ee.in_interval,
+             "includes": "the transient above the steady dissipation, from t_k+ until settled,"
+                         " plus the jump's loss where the part carries its impulse"}
+    return FieldResult(name="energy", hand=want.value, closed_form=ee.energy, numeric=numeric,
+                       verdict=verdict, unit="J", message=message, formula=want.formula,
+                       tolerance=_relative(exp, ctx), extra=extra)
+
+
+def energy_hint(hand: float, ee, ctx: "CheckContext") -> str:
+    """The hand energy against the computed one, with the stored-energy change beside it."""
+    text = f"hand {format_si(hand, 'J')}, closed form {format_si(ee.energy, 'J')}"
+    jump, nxt = ctx.exact.jump(ctx.k), None
+    if ctx.k + 1 < len(ctx.circuit.events):
+        nxt = ctx.exact.jump(ctx.k + 1)
+    if nxt is not None:
+        change = {p: nxt.stored_before.get(p, 0.0) - jump.stored_after.get(p, 0.0)
+                  for p in jump.stored_after}
+        moved = ", ".join(f"{p} {format_si(v, 'J')}" for p, v in change.items() if v)
+        if moved:
+            text += (f"; stored energy changes over the interval by {moved} (charging a "
+                     f"capacitor from a step through any resistance dissipates as much as it "
+                     f"stores, ½CV²)")
+    return text
+
+
+def energy_notes(ee, ctx: "CheckContext", part: str) -> list[str]:
+    notes = []
+    if ee.jump:
+        notes.append(f"includes {format_si(ee.jump, 'J')} lost in the jump at the event "
+                     f"(impulse through {part})")
+    if ee.steady_power and ee.energy is not None and ee.steady_power > 0:
+        notes.append(f"plus a steady {format_si(ee.steady_power, 'W')} for as long as the "
+                     f"sources are held (not included)")
+    return notes
+
+
+# ------------------------------------------------------------------------------- dominant τ
+def dominant_json(dv: DominantTau | None) -> dict[str, Any] | None:
+    """The JSON form of a ``DominantTau`` (None stays None)."""
+    if dv is None:
+        return None
+    return {"tau": dv.tau, "terms": dict(dv.terms), "modes_sum": dv.modes_sum,
+            "deviation": dv.deviation, "t50": dv.t50, "t50_estimate": dv.t50_estimate,
+            "t50_error": dv.t50_error}
+
+
+def compare_dominant(exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldResult:
+    """Hand dominant τ vs the sum of zero-value time constants (and the numeric engine's)."""
+    dv = ctx.exact.dominant(ctx.probe, ctx.k)
+    dn = _call(ctx.numeric, "dominant", ctx.probe, ctx.k)
+    hand = exp.hand["dominant_tau"]
+    verdict, message = PASS, ""
+    numeric = None if dn is None else dn.tau
+    if dn is not None and not tol.agree(dv.tau, numeric, tol.ENGINE_RELATIVE):
+        verdict, message = ENGINES_DISAGREE, _engine_msg(dv.tau, numeric, "s")
+    elif not tol.agree(hand, dv.tau, _relative(exp, ctx)):
+        verdict = MISMATCH
+        terms = ", ".join(f"{p} {format_si(t, 's')}" for p, t in dv.terms.items())
+        message = (f"hand {format_si(hand, 's')}, the zero-value time constants sum to "
+                   f"{format_si(dv.tau, 's')} ({terms}); each is R_th·C (L/R_th) with the "
+                   f"other capacitors open and the other inductors shorted")
+    if dv.deviation is not None:
+        message = "; ".join(([message] if message else []) + [dominant_summary(dv)])
+    return FieldResult(name="dominant_tau", hand=hand, closed_form=dv.tau, numeric=numeric,
+                       verdict=verdict, unit="s", message=message,
+                       formula=exp.formulas.get("dominant_tau", ""),
+                       tolerance=_relative(exp, ctx), extra=dominant_json(dv) or {})
+
+
+def dominant_summary(dv: DominantTau) -> str:
+    """``one-τ curve within 3.1 % of the swing; 50 % time 7.2 ms vs τ·ln 2 = 6.9 ms (−4 %)``."""
+    text = f"a one-τ curve with {format_si(dv.tau, 's')} departs by {dv.deviation:.2%} of the swing"
+    if dv.t50 is not None and dv.t50_error is not None:
+        text += (f"; 50 % time {format_si(dv.t50, 's')} exact vs τ·ln 2 = "
+                 f"{format_si(dv.t50_estimate, 's')} ({dv.t50_error:+.1%})")
+    return text
