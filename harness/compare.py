@@ -58,11 +58,20 @@ def _engine_ok(name: str, closed: float | None, numeric: float | None, floor: fl
     return tol.agree(closed, numeric, tol.ENGINE_RELATIVE, floor)
 
 
+def snap_zero(value: float | None, scale: float) -> float | None:
+    """0.0 for a closed-form value that is rounding noise (below ``tol.ZERO_NOISE`` of the scale)."""
+    if value is not None and abs(value) < tol.ZERO_NOISE * scale:
+        return 0.0
+    return value
+
+
 def compare_field(name: str, exp: Expectation, fe: Features, fn: Features | None,
                   ctx: "CheckContext") -> FieldResult:
     """Verdict and message for one field of one expectation."""
     hand = exp.hand.get(name)
     closed = getattr(fe, name)
+    if name != "tau":
+        closed = snap_zero(closed, ctx.scale)
     numeric = getattr(fn, name) if fn is not None else None
     unit = "s" if name == "tau" else exp.probe.dimension
     relative = exp.tolerance if exp.tolerance is not None else ctx.circuit.settings.tolerance
@@ -163,7 +172,8 @@ def make_trace(ctx: CheckContext, exp: Expectation, fe: Features) -> Trace:
     hand_t, hand_x = _hand_curve(exp, fe, t)
     return Trace(unit=exp.probe.dimension, numeric_t=numeric_t, numeric_x=numeric_x,
                  closed_t=t, closed_x=closed, hand_t=hand_t, hand_x=hand_x,
-                 event=ctx.circuit.events[ctx.k], before=fe.before, after=fe.after,
+                 event=ctx.circuit.events[ctx.k], before=snap_zero(fe.before, ctx.scale),
+                 after=snap_zero(fe.after, ctx.scale),
                  deviation=deviation)
 
 

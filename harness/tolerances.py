@@ -14,6 +14,8 @@ import math
 HAND_RELATIVE = 0.01
 #: absolute floor for hand vs closed form, as a fraction of the probe's scale
 HAND_FLOOR = 1e-6
+#: closed-form values below this fraction of the probe's scale are rounding noise, shown as 0
+ZERO_NOISE = 1e-13
 #: closed form vs numeric (DESIGN.md: 1e-4); a failure here blames the engines, not the hand
 ENGINE_RELATIVE = 1e-4
 #: absolute floor for closed form vs numeric, as a fraction of the probe's scale
