@@ -1,0 +1,329 @@
+"""Tree (cutset) coordinates and the elimination of the algebraic ones.
+
+Why: a closed carrier couples its two nodes through 1/r_s, up to ~1e12 times the circuit's own
+conductances.  In node voltages, a slow mode shared by the two nodes is then carried by the last
+digits of entries of size 1/r_s, and rounding (1e-16 of them) swamps it: the integrator's error
+estimate sees noise and its steps stall.  The cure is the classical tree formulation:
+
+* a spanning forest of the graph of closed carriers (taken first) and capacitors (and the
+  parasitic capacitances, node to ground), rooted at ground where a tree reaches it;
+* one coordinate per node: x_m = v_m - v_parent(m) for a node in a tree (its tree edge's
+  voltage), x_m = v_m for a root or a node outside every tree; so v_m is the sum of x over the
+  path from m to its root;
+* KCL is written per coordinate as the fundamental cutset of its tree edge (the sum of the KCL
+  rows below it).  Each branch is stamped on its own, with integer path multipliers and exactly
+  rounded sums, so a carrier's 1/r_s cancels exactly from every cutset except its own.
+
+Then the rows where the transformed capacitance matrix vanishes (capacitor-less coordinates,
+the root of a tree without ground: its common mode) are algebraic and are eliminated (Kron
+reduction); a carrier's 1/r_s only ever sits on its own row, so the Schur complement subtracts
+nothing large.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+from ..model import CAPACITOR, Circuit
+from .equations import SPARSE_ABOVE, Affine, Branches, Layout
+
+Path = dict[int, int]  # coordinate index -> integer multiplier
+
+
+class Unreduced(Exception):
+    """The algebraic coordinates cannot be eliminated (their block is singular)."""
+
+
+@dataclass(frozen=True)
+class Reduction:
+    """The integrated coordinates x_d and the map back to the full state.
+
+    Attributes:
+        dyn: indices of the integrated coordinates, shape (n_d,): a node coordinate is indexed
+            by its node (its tree edge's child), currents by their own index.
+        lift, lift_c: full state = lift @ x_d + lift_c; lift shape (n, n_d) (ndarray, or sparse
+            CSR above SPARSE_ABOVE states), lift_c shape (n,).
+        position: full index -> position in x_d, or -1 for an eliminated coordinate; (n,).
+        to_d: sparse matrix, shape (n_d, n), giving x_d from a full state.
+    """
+
+    dyn: np.ndarray
+    lift: object
+    lift_c: np.ndarray
+    position: np.ndarray
+    to_d: object
+
+    def integrated(self, y: np.ndarray) -> np.ndarray:
+        """The integrated coordinates x_d of a full state y, shape (n_d,)."""
+        return np.asarray(self.to_d @ y).ravel()
+
+    def row(self, w: np.ndarray, e: float) -> tuple[np.ndarray, float]:
+        """A full-state row (w, e) as a row over x_d: (w @ lift, e + w @ lift_c)."""
+        return np.asarray(w @ self.lift).ravel(), float(e + w @ self.lift_c)
+
+
+def forest(circuit: Circuit, lay: Layout, closed: list[str], parasitic: dict[str, float]
+           ) -> dict[int, int]:
+    """Node index -> parent node index (-1 for ground) of the spanning forest described in the
+    module docstring; nodes absent are roots or outside every tree."""
+    edges = [circuit.part(name).nodes for name in closed]
+    edges += [p.nodes for p in circuit.parts if p.kind == CAPACITOR]
+    edges += [(n, circuit.ground) for n, c in parasitic.items() if c > 0]
+    parent_uf: dict[str, str] = {}
+
+    def find(x: str) -> str:
+        parent_uf.setdefault(x, x)
+        while parent_uf[x] != x:
+            parent_uf[x] = parent_uf[parent_uf[x]]
+            x = parent_uf[x]
+        return x
+
+    adjacency: dict[str, list[str]] = {}
+    for a, b in edges:
+        ra, rb = find(a), find(b)
+        if ra != rb:
+            parent_uf[ra] = rb
+            adjacency.setdefault(a, []).append(b)
+            adjacency.setdefault(b, []).append(a)
+    out: dict[int, int] = {}
+    seen = set()
+    for root in [circuit.ground] + list(lay.nodes):
+        if root in seen or root not in adjacency:
+            continue
+        seen.add(root)
+        stack = [root]
+        while stack:
+            here = stack.pop()
+            for there in adjacency.get(here, []):
+                if there in seen:
+                    continue
+                seen.add(there)
+                out[lay.node_index[there]] = lay.node_index.get(here, -1)
+                stack.append(there)
+    return out
+
+
+def _paths(n_nodes: int, parents: dict[int, int]) -> list[Path]:
+    """For each node index m, the coordinates whose sum is v_m (multiplier 1 each)."""
+    paths = []
+    for m in range(n_nodes):
+        path, here = {}, m
+        while here != -1:
+            path[here] = 1
+            if here not in parents:
+                break
+            here = parents[here]
+        paths.append(path)
+    return paths
+
+
+def _combine(items) -> Path:
+    """Sum of integer-weighted paths, zero entries dropped (exact integer arithmetic)."""
+    out: dict[int, int] = {}
+    for path, weight in items:
+        for k, m in path.items():
+            out[k] = out.get(k, 0) + weight * m
+    return {k: m for k, m in out.items() if m}
+
+
+def _null_directions(circuit: Circuit, lay: Layout, parasitic: dict[str, float]) -> list[np.ndarray]:
+    """Integer node-voltage directions that change no capacitor voltage (the null space of M):
+    each capacitor-less node, and the common mode of each capacitor group without ground."""
+    nn = len(lay.nodes)
+    caps = [p for p in circuit.parts if p.kind == CAPACITOR]
+    touched = {n for p in caps for n in p.nodes} | {n for n, c in parasitic.items() if c > 0}
+    out = []
+    for node in lay.nodes:
+        if node not in touched:
+            v = np.zeros(nn, dtype=np.int64)
+            v[lay.node_index[node]] = 1
+            out.append(v)
+    parent = {n: n for n in circuit.nodes}
+
+    def find(x: str) -> str:
+        while parent[x] != x:
+            parent[x] = parent[parent[x]]
+            x = parent[x]
+        return x
+
+    for p in caps:
+        parent[find(p.p)] = find(p.n)
+    for n, c in parasitic.items():
+        if c > 0:
+            parent[find(n)] = find(circuit.ground)
+    groups: dict[str, list[int]] = {}
+    for node in touched:
+        if node in lay.node_index and find(node) != find(circuit.ground):
+            groups.setdefault(find(node), []).append(lay.node_index[node])
+    for members in groups.values():
+        v = np.zeros(nn, dtype=np.int64)
+        v[members] = 1
+        out.append(v)
+    return out
+
+
+class _Transform:
+    """Maps full-state expressions to tree coordinates (see the module docstring).
+
+    The node part of the map is an integer unimodular matrix: y_nodes = T x_nodes.  Starting
+    from the forest's paths, each null direction of M that is not yet a coordinate axis is made
+    one by the column operation x = S x' with S = I + (n - e_k) e_k^T (n the direction in x,
+    k a coordinate where it is +-1), so its row of the transformed M vanishes exactly.
+    """
+
+    def __init__(self, lay: Layout, parents: dict[int, int], nulls: list[np.ndarray]) -> None:
+        self.nn = nn = len(lay.nodes)
+        self.n = lay.n
+        T = np.zeros((nn, nn), dtype=np.int64)
+        for m, path in enumerate(_paths(nn, parents)):
+            T[m, list(path)] = 1
+        Tinv = np.eye(nn, dtype=np.int64)
+        for m, p in parents.items():
+            if p >= 0:
+                Tinv[m, p] = -1
+        pivots: set[int] = set()
+        for direction in nulls:
+            v = Tinv @ direction
+            units = [k for k in np.flatnonzero(v) if abs(v[k]) == 1 and k not in pivots]
+            if not units:
+                continue
+            k = int(units[0])
+            pivots.add(k)
+            if np.count_nonzero(v) == 1:
+                continue
+            S = np.eye(nn, dtype=np.int64)
+            S[:, k] = v
+            S_inv = np.eye(nn, dtype=np.int64)
+            S_inv[:, k] -= (v - np.eye(nn, dtype=np.int64)[k]) * v[k]  # v_k = +-1: 1/v_k = v_k
+            S_inv[k, k] = v[k]
+            T, Tinv = T @ S, S_inv @ Tinv
+        self.T, self.Tinv = T, Tinv
+        self.paths = [{int(k): int(T[m, k]) for k in np.flatnonzero(T[m])} for m in range(nn)]
+
+    def state(self, i: int) -> Path:
+        """Coordinates (with integer multipliers) summing to full state i."""
+        return self.paths[i] if i < self.nn else {i: 1}
+
+    def coef(self, aff: Affine) -> dict[int, float]:
+        """The Affine's coefficients over x, each an exactly rounded sum (math.fsum)."""
+        parts: dict[int, list[float]] = {}
+        for i, a in aff.coef.items():
+            for k, m in self.state(i).items():
+                parts.setdefault(k, []).append(m * a)
+        out = {k: math.fsum(v) for k, v in parts.items()}
+        return {k: v for k, v in out.items() if v != 0.0}
+
+    def matrices(self) -> tuple[sp.csr_matrix, sp.csr_matrix]:
+        """(T, T^-1) over the full state (identity on the currents)."""
+        extra = self.n - self.nn
+        T = sp.block_diag([sp.csr_matrix(self.T.astype(float)), sp.identity(extra)], "csr")
+        Tinv = sp.block_diag([sp.csr_matrix(self.Tinv.astype(float)), sp.identity(extra)], "csr")
+        return T, Tinv
+
+
+def assemble(circuit: Circuit, lay: Layout, br: Branches, parents: dict[int, int],
+             l_p: float, t_pulse: float, parasitic: dict[str, float]):
+    """(K_x, b_x, M_x, T, T^-1) of M_x x' = -K_x x + b_x in tree coordinates."""
+    tr = _Transform(lay, parents, _null_directions(circuit, lay, parasitic))
+    n = lay.n
+    K: dict[tuple[int, int], list[float]] = {}
+    M: dict[tuple[int, int], list[float]] = {}
+    b = [[] for _ in range(n)]
+
+    def stamp(rowpath: Path, aff: Affine, sign: float) -> None:
+        coef = tr.coef(aff)
+        for r, m in rowpath.items():
+            for j, a in coef.items():
+                K.setdefault((r, j), []).append(sign * m * a)
+            b[r].append(-sign * m * aff.const)
+
+    flows = [(circuit.part(name), cur) for name, cur in br.currents.items()]
+    flows += [(circuit.part(r.part), r.current) for r in br.regularisers if r.role == "shunt"]
+    for part, cur in flows:
+        rows = _combine([(tr.state(lay.node_index[x]), s) for x, s in ((part.p, 1), (part.n, -1))
+                         if x in lay.node_index])
+        stamp(rows, cur, 1.0)
+    for name in lay.inductors + lay.carriers:  # L di/dt = v_p - v_n; L_p di_p/dt = u
+        part, r = circuit.part(name), lay.part_index[name]
+        if name in lay.inductors:
+            u = Affine(_voltage(lay, part.p, part.n))
+            M.setdefault((r, r), []).append(part.value)
+        else:
+            u = br.voltages[name] if br.voltages[name] is not None else Affine({r: -l_p / t_pulse})
+            M.setdefault((r, r), []).append(l_p)
+        stamp({r: 1}, u, -1.0)
+    caps = [(p.p, p.n, p.value) for p in circuit.parts if p.kind == CAPACITOR]
+    caps += [(node, circuit.ground, c) for node, c in parasitic.items() if c > 0]
+    for p, q, c in caps:
+        d = _combine([(tr.state(lay.node_index[x]), s) for x, s in ((p, 1), (q, -1))
+                      if x in lay.node_index])
+        for k, mk in d.items():
+            for l_, ml in d.items():
+                M.setdefault((k, l_), []).append(c * mk * ml)
+    T, Tinv = tr.matrices()
+    return _matrix(K, n), np.array([math.fsum(v) for v in b]), _matrix(M, n), T, Tinv
+
+
+def _voltage(lay: Layout, a: str, b: str) -> dict[int, float]:
+    coef: dict[int, float] = {}
+    if a in lay.node_index:
+        coef[lay.node_index[a]] = 1.0
+    if b in lay.node_index:
+        coef[lay.node_index[b]] = coef.get(lay.node_index[b], 0.0) - 1.0
+    return coef
+
+
+def _matrix(entries: dict[tuple[int, int], list[float]], n: int) -> sp.csr_matrix:
+    keys = [k for k, v in entries.items()]
+    vals = [math.fsum(entries[k]) for k in keys]
+    rows = [k[0] for k in keys]
+    cols = [k[1] for k in keys]
+    A = sp.csr_matrix((vals, (rows, cols)), shape=(n, n))
+    A.eliminate_zeros()
+    return A
+
+
+def reduce(K: sp.csr_matrix, b: np.ndarray, M: sp.csr_matrix, T: sp.csr_matrix,
+           Tinv: sp.csr_matrix):
+    """(reduction, K_r, b_r, M_r): eliminate the coordinates whose M row is zero.
+
+    With a those and d the rest, 0 = -K_aa x_a - K_ad x_d + b_a gives x_a = P x_d + p
+    (P = -K_aa^-1 K_ad, p = K_aa^-1 b_a), and M_dd x_d' = -K_r x_d + b_r with
+    K_r = K_dd + K_da P, b_r = b_d - K_da p.
+    """
+    n = b.shape[0]
+    has_m = np.asarray(abs(M).sum(axis=1)).ravel() > 0
+    dyn, alg = np.flatnonzero(has_m), np.flatnonzero(~has_m)
+    position = -np.ones(n, dtype=int)
+    position[dyn] = np.arange(dyn.size)
+    K = K.tocsr()
+    K_dd, K_da = K[dyn][:, dyn], K[dyn][:, alg]
+    K_ad, K_aa = K[alg][:, dyn], K[alg][:, alg]
+    if alg.size:
+        try:
+            lu = spla.splu(K_aa.tocsc())
+        except RuntimeError:
+            raise Unreduced() from None
+        P = -lu.solve(K_ad.toarray()) if dyn.size else np.zeros((alg.size, 0))
+        p = lu.solve(b[alg])
+        if not (np.all(np.isfinite(P)) and np.all(np.isfinite(p))):
+            raise Unreduced()
+    else:
+        P, p = np.zeros((0, dyn.size)), np.zeros(0)
+    lift_x = np.zeros((n, dyn.size))
+    lift_x[dyn, np.arange(dyn.size)] = 1.0
+    lift_x[alg] = P
+    lift_cx = np.zeros(n)
+    lift_cx[alg] = p
+    lift = np.asarray(T @ lift_x)
+    lift_c = np.asarray(T @ lift_cx).ravel()
+    K_r = sp.csc_matrix(K_dd + K_da @ sp.csr_matrix(P))
+    b_r = b[dyn] - K_da @ p
+    M_r = M.tocsr()[dyn][:, dyn].tocsc()
+    lift = sp.csr_matrix(lift) if n > SPARSE_ABOVE else lift
+    return Reduction(dyn, lift, lift_c, position, Tinv[dyn]), K_r, b_r, M_r

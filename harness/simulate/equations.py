@@ -1,0 +1,369 @@
+"""The regularised nodal equations of one interval: M y' = -K y + b, i.e. y' = J y + c.
+
+State y (length n): the voltages of the non-ground nodes, then the inductor currents, then one
+current
+i_p per *carrier*: every voltage source, vcvs, ccvs and ideal switch.  A carrier is its ideal
+voltage (E, mu (v_cp - v_cn), rho i_x, or 0 V for a closed switch) in series with the element
+r_s || L_p: with u = v_p - v_n - (ideal voltage), its current is u / r_s + i_p and
+L_p di_p/dt = u.  Fast changes (an impulse of current into a capacitor loop) pass through r_s as
+a pulse of width ~ r_s C; at DC and for the slow response the element is a short (L_p is
+t_pulse r_s, a pulse-scale inductance), so the operating point is exactly that of the ideal
+circuit and a loop of inductors and carriers keeps its flux instead of decaying through r_s.  An
+open ideal switch carries nothing; its i_p decays on its own with time constant t_pulse.
+
+Each non-capacitor part contributes a branch current from p to n that is affine in y:
+
+* resistor R: (v_p - v_n)/R;  current source I: I;  vccs g: g (v_cp - v_cn);  cccs: beta i_x;
+* carrier: u / r_s + i_p (above);  a switch with a given on/off resistance r: (v_p - v_n)/r;
+* inductor: its state current, plus a shunt (v_p - v_n)/r_shunt across it.
+
+KCL at each node, with the capacitance matrix M from the capacitors and c_node, gives the node
+rows; L di/dt = v_p - v_n the inductor rows; L_p di_p/dt = u the carrier rows.  This full form
+gives the DC operating points.  The ODE itself is written in tree coordinates and the rows
+without capacitance are eliminated (coordinates.py), so that no artificial capacitance makes
+capacitor-less nodes stiff and no 1/r_s drowns a slow mode; a node that would float in some
+interval keeps a parasitic capacitance instead (regularise.py).  The reduced
+J = -M_dd^-1 K_r is constant in an interval and is the exact (analytic) Jacobian; it is a
+scipy.sparse matrix above ``SPARSE_ABOVE`` states.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Mapping
+
+import numpy as np
+import scipy.linalg
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+from ..errors import InputError
+from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, SWITCH, VCCS,
+                     VCVS, VOLTAGE_SOURCE, Circuit, Part)
+from .regularise import Regularisation
+
+#: use scipy.sparse matrices for systems with more states than this
+SPARSE_ABOVE = 50
+#: kinds that are always carriers (ideal switches are carriers too)
+CARRIER_KINDS = (VOLTAGE_SOURCE, VCVS, CCVS)
+
+
+def is_carrier(part: Part) -> bool:
+    """True for voltage sources, vcvs, ccvs and switches with no given on-resistance."""
+    return part.kind in CARRIER_KINDS or (part.kind == SWITCH and not part.on_resistance)
+
+
+@dataclass(frozen=True)
+class Layout:
+    """Where each quantity sits in the state vector.
+
+    Attributes:
+        nodes: non-ground node names, in ``Circuit.nodes`` order (indices 0..len-1).
+        inductors: inductor part names (the next indices).
+        carriers: carrier part names (the last indices).
+        node_index: node name -> state index (ground is absent).
+        part_index: inductor or carrier name -> index of its current state.
+    """
+
+    nodes: tuple[str, ...]
+    inductors: tuple[str, ...]
+    carriers: tuple[str, ...]
+    node_index: Mapping[str, int]
+    part_index: Mapping[str, int]
+
+    @property
+    def n(self) -> int:
+        return len(self.nodes) + len(self.inductors) + len(self.carriers)
+
+
+def layout(circuit: Circuit) -> Layout:
+    """The state layout of ``circuit``."""
+    nodes = tuple(n for n in circuit.nodes if n != circuit.ground)
+    inductors = tuple(p.name for p in circuit.parts if p.kind == INDUCTOR)
+    carriers = tuple(p.name for p in circuit.parts if is_carrier(p))
+    node_index = {name: i for i, name in enumerate(nodes)}
+    part_index = {name: len(nodes) + i for i, name in enumerate(inductors + carriers)}
+    return Layout(nodes, inductors, carriers, node_index, part_index)
+
+
+@dataclass(frozen=True)
+class Affine:
+    """A quantity coef . y + const, with coef a sparse {state index: coefficient} map."""
+
+    coef: Mapping[int, float]
+    const: float = 0.0
+
+    def scaled(self, k: float) -> "Affine":
+        return Affine({i: k * a for i, a in self.coef.items()}, k * self.const)
+
+    def plus(self, other: "Affine") -> "Affine":
+        coef = dict(self.coef)
+        for i, a in other.coef.items():
+            coef[i] = coef.get(i, 0.0) + a
+        return Affine(coef, self.const + other.const)
+
+    def dense(self, n: int) -> np.ndarray:
+        w = np.zeros(n)
+        for i, a in self.coef.items():
+            w[i] += a
+        return w
+
+
+@dataclass(frozen=True)
+class Regulariser:
+    """A regularising resistance and the current through it (for the pulse energy).
+
+    ``part`` is the part it belongs to; ``role`` is ``series`` (the r_s of a carrier) or
+    ``shunt`` (across an inductor).
+    """
+
+    part: str
+    role: str
+    resistance: float
+    current: Affine
+
+
+@dataclass(frozen=True)
+class System:
+    """One interval's ODE and branch expressions.
+
+    Attributes:
+        jac: J over the integrated states y_d (``reduction.dyn``), shape (n_d, n_d), dense
+            ndarray or scipy.sparse CSC matrix.
+        c: shape (n_d,), so that y_d' = J y_d + c.
+        K, b, M: the unsolved full form M y' = -K y + b (K, M as CSC matrices, shape (n, n)).
+        K_dc, b_dc: the same rows with each carrier's fast current u / r_s left out.  At an
+            operating point u = 0, so K_dc y = b_dc has the same solutions as K y = b (it is the
+            ideal circuit's MNA system), without adding 1/r_s to 1/R in one rounded entry.
+        branches: part name -> its current (p to n) as an Affine, every non-capacitor part.
+        regularisers: the regularising resistances in force in this interval.
+        sources: part name -> the value in force (V, A) for independent sources.
+        closed: switch name -> True when closed in this interval.
+        reduction: the integrated tree coordinates and the map back (coordinates.Reduction).
+        parasitic: node name -> parasitic capacitance in F (0 where there is none).
+    """
+
+    jac: object
+    c: np.ndarray
+    K: sp.csc_matrix
+    b: np.ndarray
+    M: sp.csc_matrix
+    K_dc: sp.csc_matrix
+    b_dc: np.ndarray
+    branches: Mapping[str, Affine]
+    regularisers: tuple[Regulariser, ...]
+    sources: Mapping[str, float]
+    closed: Mapping[str, bool]
+    reduction: object
+    parasitic: Mapping[str, float]
+
+    @property
+    def n(self) -> int:
+        """Number of integrated states n_d."""
+        return self.c.shape[0]
+
+
+def difference(lay: Layout, a: str, b: str, k: float = 1.0) -> dict[int, float]:
+    """{index: coef} of k (v(a) - v(b)); ground contributes nothing."""
+    coef: dict[int, float] = {}
+    if a in lay.node_index:
+        coef[lay.node_index[a]] = coef.get(lay.node_index[a], 0.0) + k
+    if b in lay.node_index:
+        coef[lay.node_index[b]] = coef.get(lay.node_index[b], 0.0) - k
+    return coef
+
+
+def _carrier_voltage(part: Part, lay: Layout, value: float | None,
+                     sensed: Affine | None) -> Affine:
+    """u = v_p - v_n - (the ideal voltage) of a closed carrier."""
+    u = Affine(difference(lay, part.p, part.n))
+    if part.kind == VOLTAGE_SOURCE:
+        return Affine(u.coef, -value)
+    if part.kind == VCVS:
+        cp, cn = part.control
+        return u.plus(Affine(difference(lay, cp, cn, -part.value)))
+    if part.kind == CCVS:
+        return u.plus(sensed.scaled(-part.value))
+    return u  # an ideal closed switch: 0 V
+
+
+def _plain_branch(part: Part, lay: Layout, value: float | None,
+                  closed: bool | None) -> Affine:
+    """The current of a part that is neither a carrier nor current-controlled."""
+    kind = part.kind
+    if kind == RESISTOR:
+        return Affine(difference(lay, part.p, part.n, 1.0 / part.value))
+    if kind == CURRENT_SOURCE:
+        return Affine({}, value)
+    if kind == INDUCTOR:
+        return Affine({lay.part_index[part.name]: 1.0})
+    if kind == VCCS:
+        cp, cn = part.control
+        return Affine(difference(lay, cp, cn, part.value))
+    if kind == SWITCH:  # with given resistances
+        r = part.on_resistance if closed else part.off_resistance
+        return Affine(difference(lay, part.p, part.n, 1.0 / r)) if r else Affine({})
+    raise ValueError(f"not a plain branch: {kind}")
+
+
+@dataclass(frozen=True)
+class Branches:
+    """The branch expressions of one interval (see ``branch_currents``)."""
+
+    currents: dict[str, Affine]
+    voltages: dict[str, Affine | None]  #: carrier name -> u, or None when open
+    regularisers: list[Regulariser]
+    sources: dict[str, float]
+    closed: dict[str, bool]
+
+
+def _state_of(part: Part, time: float, before: bool) -> tuple[float | None, bool | None]:
+    value = closed = None
+    if part.kind in (VOLTAGE_SOURCE, CURRENT_SOURCE):
+        value = part.source_value_before(time) if before else part.source_value(time)
+    if part.kind == SWITCH:
+        closed = part.is_closed_before(time) if before else part.is_closed(time)
+    return value, closed
+
+
+def branch_currents(circuit: Circuit, lay: Layout, reg: Regularisation, time: float,
+                    before: bool) -> Branches:
+    """Branch currents of every non-capacitor part with sources and switches as just before
+    (``before``) or just after ``time``."""
+    out = Branches({}, {}, [], {}, {})
+    g = 1.0 / reg.r_series
+    ordered = sorted(circuit.parts, key=lambda p: p.kind in (CCVS, CCCS))
+    for part in ordered:
+        if part.kind == CAPACITOR:
+            continue
+        value, closed = _state_of(part, time, before)
+        if value is not None:
+            out.sources[part.name] = value
+        if closed is not None:
+            out.closed[part.name] = closed
+        sensed = None
+        if part.kind in (CCVS, CCCS):
+            sensed = out.currents.get(part.control)
+            if sensed is None:
+                raise InputError(f"senses the current of {part.control!r}, which is not a "
+                                 "voltage source, switch, inductor or resistor",
+                                 file=circuit.source, part=part.name, field="control",
+                                 line=part.line)
+        if part.kind == CCCS:
+            out.currents[part.name] = sensed.scaled(part.value)
+        elif is_carrier(part):
+            if part.kind == SWITCH and not closed:
+                out.currents[part.name] = _plain_branch(part, lay, value, closed)
+                out.voltages[part.name] = None
+                continue
+            u = _carrier_voltage(part, lay, value, sensed)
+            fast = u.scaled(g)
+            out.voltages[part.name] = u
+            out.currents[part.name] = fast.plus(Affine({lay.part_index[part.name]: 1.0}))
+            out.regularisers.append(Regulariser(part.name, "series", reg.r_series, fast))
+        else:
+            out.currents[part.name] = _plain_branch(part, lay, value, closed)
+        if part.kind == INDUCTOR:
+            shunt = Affine(difference(lay, part.p, part.n, 1.0 / reg.r_shunt))
+            out.regularisers.append(Regulariser(part.name, "shunt", reg.r_shunt, shunt))
+    return out
+
+
+def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
+              slow: bool = False) -> tuple[sp.csc_matrix, np.ndarray, sp.csc_matrix]:
+    """(K, b, M) of M y' = -K y + b; with ``slow`` the carriers' u / r_s is left out of KCL."""
+    n = lay.n
+    rows, cols, vals = [], [], []
+    b = np.zeros(n)
+    mrows, mcols, mvals = [], [], []
+
+    def stamp_k(i: int, aff: Affine, sign: float) -> None:
+        for j, a in aff.coef.items():
+            rows.append(i), cols.append(j), vals.append(sign * a)
+        b[i] -= sign * aff.const
+
+    def stamp_m(i: int, j: int, v: float) -> None:
+        mrows.append(i), mcols.append(j), mvals.append(v)
+
+    currents = dict(br.currents)
+    if slow:
+        for name in lay.carriers:
+            if br.voltages[name] is not None:
+                currents[name] = Affine({lay.part_index[name]: 1.0})
+    flows = [(circuit.part(name), cur) for name, cur in currents.items()]
+    flows += [(circuit.part(r.part), r.current) for r in br.regularisers if r.role == "shunt"]
+    for part, cur in flows:
+        for node, sign in ((part.p, 1.0), (part.n, -1.0)):
+            if node in lay.node_index:
+                stamp_k(lay.node_index[node], cur, sign)
+    for name in lay.inductors:  # L di/dt = v_p - v_n
+        part = circuit.part(name)
+        r = lay.part_index[name]
+        stamp_k(r, Affine(difference(lay, part.p, part.n)), -1.0)
+        stamp_m(r, r, part.value)
+    l_p = reg.r_series * reg.t_pulse
+    for name in lay.carriers:  # L_p di_p/dt = u, or i_p' = -i_p / t_pulse when open
+        r = lay.part_index[name]
+        u = br.voltages[name]
+        stamp_k(r, u if u is not None else Affine({r: -l_p / reg.t_pulse}), -1.0)
+        stamp_m(r, r, l_p)
+    for node in lay.nodes:
+        i = lay.node_index[node]
+        stamp_m(i, i, reg.c_node[node])
+    for part in circuit.parts:
+        if part.kind != CAPACITOR:
+            continue
+        for a, sa in ((part.p, 1.0), (part.n, -1.0)):
+            for c, sc in ((part.p, 1.0), (part.n, -1.0)):
+                if a in lay.node_index and c in lay.node_index:
+                    stamp_m(lay.node_index[a], lay.node_index[c], sa * sc * part.value)
+    K = sp.csc_matrix((vals, (rows, cols)), shape=(n, n))
+    M = sp.csc_matrix((mvals, (mrows, mcols)), shape=(n, n))
+    K.sum_duplicates()
+    M.sum_duplicates()
+    return K, b, M
+
+
+def _explicit(K: sp.csc_matrix, b: np.ndarray, M: sp.csc_matrix):
+    """(J, c) = (-M^-1 K, M^-1 b); dense for small systems, sparse above SPARSE_ABOVE."""
+    n = b.shape[0]
+    off = M - sp.diags(M.diagonal())
+    if off.count_nonzero() == 0:
+        inv = 1.0 / M.diagonal()
+        jac = -(sp.diags(inv) @ K).tocsc()
+        c = inv * b
+    elif n <= SPARSE_ABOVE:
+        lu = scipy.linalg.lu_factor(M.toarray())
+        jac = -scipy.linalg.lu_solve(lu, K.toarray())
+        c = scipy.linalg.lu_solve(lu, b)
+        return jac, c
+    else:
+        lu = spla.splu(M.tocsc())
+        jac = -sp.csc_matrix(lu.solve(K.toarray()))
+        jac.eliminate_zeros()
+        c = lu.solve(b)
+    if n <= SPARSE_ABOVE:
+        return jac.toarray(), c
+    return jac, c
+
+
+def build(circuit: Circuit, lay: Layout, reg: Regularisation, time: float,
+          before: bool = False) -> System:
+    """The ODE in force just after ``time`` (or just before it when ``before``).
+
+    Raises:
+        coordinates.Unreduced: the algebraic block is singular in this interval.
+    """
+    br = branch_currents(circuit, lay, reg, time, before)
+    from .coordinates import assemble, forest, reduce  # (coordinates builds on this module)
+
+    K, b, M = _assemble(circuit, lay, reg, br)
+    K_dc, b_dc, _ = _assemble(circuit, lay, reg, br, slow=True)
+    closed = [name for name, u in br.voltages.items() if u is not None]
+    parents = forest(circuit, lay, closed, reg.c_node)
+    K_x, b_x, M_x, T, Tinv = assemble(circuit, lay, br, parents, reg.r_series * reg.t_pulse,
+                                      reg.t_pulse, reg.c_node)
+    red, K_r, b_r, M_r = reduce(K_x, b_x, M_x, T, Tinv)
+    jac, c = _explicit(K_r, b_r, M_r)
+    return System(jac, c, K, b, M, K_dc, b_dc, br.currents, tuple(br.regularisers), br.sources,
+                  br.closed, red, dict(reg.c_node))

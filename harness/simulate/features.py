@@ -1,0 +1,171 @@
+"""Feature extraction from an interval's held waveform (local time s = t - t_k).
+
+* after: the post-pulse segment [s_a, s_a + W] (s_a = ``Regularisation.post_pulse``, 100 pulse
+  time constants; W = ``WINDOW`` * s_a, at most ``WINDOW_FAST`` of the fastest real time
+  constant) is sampled at ``FIT_POINTS`` points of the dense output, fitted with a quadratic
+  polynomial by least squares, and the polynomial is evaluated at s = 0.  Its error is of order
+  (W / tau_fast)^3 of the swing, far below the model error.
+* final: the value at the end of the settled continuation.
+* tau: on the post-pulse waveform d(s) = x(s) - x_inf, a weighted log-linear least-squares fit
+  d ~ A e^(-s/tau) over the span where |d| falls from its largest value to ``FIT_SPAN`` of it;
+  the probe counts as first order when the largest deviation of d from the fitted exponential,
+  over the whole held response, is within ``FIT_RESIDUAL`` of the probe's scale.  Otherwise the
+  slowest time constant is the log-linear slope of the last decade of the decay above the noise.
+* jump: charge moved through a part in the pulse is the integral of its current over [0, s_a]
+  (Gauss-Legendre on each integrator step of the dense output) minus the integral of its
+  post-pulse polynomial over the same span (the non-impulsive part); for a capacitor it is
+  C (after - before) of its voltage.  The dissipated energy is the integral of r i^2 over the
+  regularising resistances, minus the same for the post-pulse polynomials.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .integrate import IntervalRun
+
+#: post-pulse fit window, in units of the post-pulse start s_a
+WINDOW = 20.0
+#: ... and at most this fraction of the fastest real time constant
+WINDOW_FAST = 1e-3
+#: samples in the post-pulse fit
+FIT_POINTS = 13
+#: degree of the post-pulse polynomial
+FIT_DEGREE = 2
+#: the single-exponential fit uses the span where |d| is above this fraction of its maximum
+FIT_SPAN = 1e-3
+#: a single exponential fits when it deviates by at most this fraction of the probe scale
+FIT_RESIDUAL = 3e-6
+#: the tail's time constant is read above 100 times this fraction of the probe scale
+TAIL_NOISE = 1e-10
+#: points of the geometric grid on which the held response is examined for time constants
+GRID = 400
+#: Gauss-Legendre nodes per integrator step for the pulse integrals
+GAUSS = 5
+
+
+@dataclass(frozen=True)
+class PostPulse:
+    """The quadratic x(s) ~ sum c_i (s/W)^i fitted on [s_a, s_a + W] (coefficients highest first)."""
+
+    s_a: float
+    width: float
+    coeffs: np.ndarray  #: shape (FIT_DEGREE + 1, p) for p quantities
+
+    def value(self, s) -> np.ndarray:
+        """Polynomial values at local times ``s`` (s), shape (p, len(s))."""
+        x = np.atleast_1d(np.asarray(s, dtype=float)) / self.width
+        out = np.zeros((self.coeffs.shape[1], x.size))
+        for c in self.coeffs:
+            out = out * x[None, :] + c[:, None]
+        return out
+
+    def at_event(self):
+        """Value at s = 0 (the extrapolated after-value)."""
+        return self.coeffs[-1]
+
+    def integral(self):
+        """Integral of the polynomial over [0, s_a] (per quantity)."""
+        deg = len(self.coeffs) - 1
+        u = self.s_a / self.width
+        return sum(c * self.width * u ** (deg - i + 1) / (deg - i + 1)
+                   for i, c in enumerate(self.coeffs))
+
+
+def fit_window(s_a: float, t_fast: float) -> float:
+    """Width W in s of the post-pulse fit window (see the module docstring)."""
+    return max(s_a, min(WINDOW * s_a, WINDOW_FAST * t_fast))
+
+
+def post_pulse(run: IntervalRun, rows: np.ndarray, offsets: np.ndarray, s_a: float,
+               width: float) -> PostPulse:
+    """Fit the post-pulse polynomials of the quantities rows @ z + offsets.
+
+    Args:
+        rows: shape (p, n), one row per quantity; offsets: shape (p,), their values at the
+            interval's origin.
+    """
+    s = s_a + np.linspace(0.0, width, FIT_POINTS)
+    x = run.probe(rows, offsets, s)  # (p, FIT_POINTS)
+    coeffs = np.polyfit(s / width, x.T, FIT_DEGREE).reshape(FIT_DEGREE + 1, -1)
+    return PostPulse(s_a, width, coeffs)
+
+
+def values(run: IntervalRun, w: np.ndarray, offset: float, s: np.ndarray) -> np.ndarray:
+    """Probe values w . z(s) + offset at local times s (clipped to the held response),
+    shape (len(s),)."""
+    return run.probe(w, offset, s)
+
+
+def _loglinear(s: np.ndarray, d: np.ndarray) -> tuple[float, float]:
+    """Weighted least squares of log|d| = a - s/tau (weights |d|, i.e. absolute residuals);
+    returns (A, tau) with d ~ A e^(-s/tau), tau <= 0 meaning no decay."""
+    weights = np.abs(d)
+    slope, intercept = np.polyfit(s, np.log(np.abs(d)), 1, w=weights)
+    tau = -1.0 / slope if slope < 0 else 0.0
+    return float(np.sign(d[0]) * np.exp(intercept)), float(tau)
+
+
+def decay(run: IntervalRun, w: np.ndarray, offset: float, s_a: float, x_inf: float, scale: float,
+          floor: float) -> tuple[float | None, tuple[float, ...], tuple[str, ...]]:
+    """(tau or None, modes slowest first, notes) of the held response after the pulse.
+
+    Args:
+        scale: the probe's scale (its largest magnitude at any event), in its unit.
+        floor: amplitude below which the decay is invisible (probe unit).
+    """
+    end = run.end
+    if end <= s_a:
+        return None, (), ()
+    grid = np.geomspace(s_a, end, GRID)
+    d = values(run, w, offset, grid) - x_inf
+    dmax = float(np.max(np.abs(d)))
+    if dmax <= floor:
+        return None, (), ()
+    above = np.flatnonzero(np.abs(d) >= FIT_SPAN * dmax)
+    s_b = grid[above[-1]]
+    lin = np.linspace(s_a, s_b, 200)
+    dl = values(run, w, offset, lin) - x_inf
+    signs = np.sign(dl[np.abs(dl) > floor])
+    notes: tuple[str, ...] = ()
+    if signs.size and np.all(signs == signs[0]):
+        amp, tau = _loglinear(lin - s_a, dl)
+        if tau > 0:
+            model = amp * np.exp(-(grid - s_a) / tau)
+            if np.max(np.abs(d - model)) <= FIT_RESIDUAL * scale:
+                return tau, (tau,), ()
+    else:
+        notes = ("the post-pulse response changes sign: more than one mode or an oscillation",)
+    slow = _tail_tau(grid, d, dmax, TAIL_NOISE * scale)
+    return None, ((slow,) if slow else ()), notes
+
+
+def _tail_tau(grid: np.ndarray, d: np.ndarray, dmax: float, noise: float) -> float | None:
+    """Slowest time constant from the last decade of the decay above the noise level."""
+    low = max(100.0 * noise, 1e-9 * dmax)
+    idx = np.flatnonzero(np.abs(d) >= low)
+    if idx.size < 3:
+        return None
+    last = idx[-1]
+    top = np.flatnonzero(np.abs(d[: last + 1]) >= 10.0 * abs(d[last]))
+    first = top[-1] if top.size else idx[0]
+    seg = slice(first, last + 1)
+    sg, dg = grid[seg], d[seg]
+    if sg.size < 3 or not np.all(np.sign(dg) == np.sign(dg[0])):
+        return None
+    _, tau = _loglinear(sg - sg[0], dg)
+    return tau if tau > 0 else None
+
+
+def pulse_points(run: IntervalRun, s_a: float) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss-Legendre nodes and weights covering [0, s_a] step by step, shapes (q,), (q,)."""
+    x, wts = np.polynomial.legendre.leggauss(GAUSS)
+    edges = run.s[run.s < s_a]
+    edges = np.append(edges, min(s_a, run.end))
+    lo, hi = edges[:-1], edges[1:]
+    half = 0.5 * (hi - lo)
+    nodes = (0.5 * (hi + lo))[:, None] + half[:, None] * x[None, :]
+    weights = half[:, None] * wts[None, :]
+    return nodes.ravel(), weights.ravel()

@@ -1,0 +1,165 @@
+"""The state at t = 0-, from this engine's own DC solve of the regularised network.
+
+DESIGN.md "Initial state": with no ``initial`` given anywhere the circuit is in DC steady state
+with every source at its pre-step value and every switch in its pre-step state.  Otherwise each
+capacitor with ``initial`` is held at that voltage and each inductor with ``initial`` carries that
+current, and the rest follows from the DC solve that respects them (capacitors without
+``initial`` open, inductors without it shorted).
+
+Unknowns: the state y (node voltages, inductor currents) and the currents of the held
+capacitors.  Equations: the node rows of K_dc y = b_dc (the pre-step interval's branch currents) plus
+the held capacitors' currents; v_p - v_n = 0 for free inductors, i = I0 for held ones;
+v_p - v_n = V0 for held capacitors.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.sparse as sp
+
+from ..errors import InitialStateError
+from ..model import (CAPACITOR, CCVS, INDUCTOR, RESISTOR, SWITCH, VCVS, VOLTAGE_SOURCE, Circuit)
+from . import linsolve
+from .equations import Layout, System
+from .probes import voltage_row
+
+#: an inductor shunt carrying more than this fraction of the current scale at 0- means the
+#: given initial currents contradict the circuit
+CONTRADICTION = 1e-3
+
+
+def _find(parent: dict, x):
+    parent.setdefault(x, x)
+    while parent[x] != x:
+        parent[x] = parent[parent[x]]
+        x = parent[x]
+    return x
+
+
+def _dc_paths(circuit: Circuit) -> dict[str, str]:
+    """Union-find roots of nodes joined by parts that conduct at DC at 0-."""
+    parent: dict[str, str] = {}
+    for node in circuit.nodes:
+        _find(parent, node)
+    for part in circuit.parts:
+        conducts = part.kind in (RESISTOR, VOLTAGE_SOURCE, VCVS, CCVS, INDUCTOR)
+        if part.kind == SWITCH:
+            conducts = part.is_closed_before(0.0) or bool(part.off_resistance)
+        if part.kind == CAPACITOR:
+            conducts = part.initial is not None
+        if conducts:
+            a, b = _find(parent, part.p), _find(parent, part.n)
+            if a != b:
+                parent[a] = b
+    return {node: _find(parent, node) for node in circuit.nodes}
+
+
+def check_defined(circuit: Circuit) -> None:
+    """Raise InitialStateError for a node whose pre-step voltage no DC path defines."""
+    roots = _dc_paths(circuit)
+    ground = roots[circuit.ground]
+    floating = [n for n in circuit.nodes if roots[n] != ground]
+    if not floating:
+        return
+    for part in circuit.parts:
+        if part.kind == CAPACITOR and part.initial is None and (
+                part.p in floating or part.n in floating):
+            node = part.p if part.p in floating else part.n
+            raise InitialStateError(
+                f"the pre-step voltage of {part.name} is undefined: node {node!r} has no DC path "
+                f"to {circuit.ground!r} at 0-; give {part.name} an initial value",
+                file=circuit.source, part=part.name, field="initial", line=part.line)
+    raise InitialStateError(f"node {floating[0]!r} has no DC path to {circuit.ground!r} at 0-, "
+                            "so its pre-step voltage is undefined", file=circuit.source)
+
+
+def _dc_matrix(circuit: Circuit, lay: Layout, pre: System):
+    """(A, rhs, held capacitors) of the DC system described in the module docstring."""
+    held = [p for p in circuit.parts if p.kind == CAPACITOR and p.initial is not None]
+    n, m = lay.n, len(held)
+    K = pre.K_dc.tolil()
+    rhs = np.concatenate([pre.b_dc, np.zeros(m)])
+    A = sp.lil_matrix((n + m, n + m))
+    A[:n, :n] = K
+    for name in lay.inductors:
+        part = circuit.part(name)
+        r = lay.part_index[name]
+        if part.initial is not None:
+            A[r, :] = 0.0
+            A[r, r] = 1.0
+            rhs[r] = part.initial
+    for j, part in enumerate(held):
+        row = voltage_row(lay, part.p, part.n)
+        for i in np.flatnonzero(row):
+            A[n + j, i] = row[i]
+            A[i, n + j] = row[i]  # the held capacitor's current leaves p and enters n
+        rhs[n + j] = part.initial
+    return A.tocsc(), rhs, held
+
+
+def _voltage_loop(circuit: Circuit) -> str | None:
+    """A part that closes a loop of parts fixing voltages at 0- (voltage sources, vcvs, ccvs,
+    closed switches without resistance, inductors without ``initial``, capacitors with it)."""
+    parent: dict[str, str] = {}
+    for part in circuit.parts:
+        fixes = part.kind in (VOLTAGE_SOURCE, VCVS, CCVS)
+        fixes |= part.kind == INDUCTOR and part.initial is None
+        fixes |= part.kind == CAPACITOR and part.initial is not None
+        fixes |= (part.kind == SWITCH and part.is_closed_before(0.0)
+                  and not part.on_resistance)
+        if not fixes:
+            continue
+        a, b = _find(parent, part.p), _find(parent, part.n)
+        if a == b:
+            return part.name
+        parent[a] = b
+    return None
+
+
+def _solve(A: sp.csc_matrix, rhs: np.ndarray, circuit: Circuit) -> np.ndarray:
+    try:
+        return linsolve.solve(A, rhs)
+    except linsolve.Singular:
+        culprit = _voltage_loop(circuit)
+        if culprit is None:
+            raise InitialStateError("the DC state at 0- is undefined (the DC equations are "
+                                    "singular)", file=circuit.source) from None
+        part = circuit.part(culprit)
+        raise InitialStateError(
+            f"{culprit} closes a loop of parts that fix voltages at 0- (voltage sources, closed "
+            "switches, inductors without an initial current, capacitors with an initial "
+            "voltage): the loop's current is undefined or its voltages contradict each other; "
+            "give the inductors initial values or remove the conflict",
+            file=circuit.source, part=culprit, line=part.line) from None
+
+
+def _check_consistent(circuit: Circuit, pre: System, y: np.ndarray, i_scale: float) -> None:
+    """Raise InitialStateError where an inductor shunt carries what an ideal inductor cannot
+    (inductors in series with different initial currents)."""
+    for reg in pre.regularisers:
+        if reg.role != "shunt":
+            continue
+        current = float(reg.current.dense(y.shape[0]) @ y + reg.current.const)
+        if abs(current) > CONTRADICTION * i_scale:
+            part = circuit.part(reg.part)
+            raise InitialStateError(
+                f"the initial currents force a current through inductor {part.name} that it "
+                "does not carry (inductors in series with different initial currents?)",
+                file=circuit.source, part=part.name, field="initial", line=part.line)
+
+
+def initial_state(circuit: Circuit, lay: Layout, pre: System) -> np.ndarray:
+    """The state y(0-), shape (n,), for the pre-step system ``pre``.
+
+    Raises:
+        InitialStateError: a pre-step value is undefined or the given values contradict the
+            circuit at 0-.
+    """
+    check_defined(circuit)
+    A, rhs, held = _dc_matrix(circuit, lay, pre)
+    x = _solve(A, rhs, circuit)
+    y = x[:lay.n]
+    i_scale = max([abs(circuit.part(nm).initial or 0.0) for nm in lay.inductors]
+                  + [float(np.max(np.abs(y[len(lay.nodes):]), initial=0.0)), 1e-30])
+    _check_consistent(circuit, pre, y, i_scale)
+    return y

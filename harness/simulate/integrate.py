@@ -1,0 +1,283 @@
+"""Stiff integration of one interval, restarted at its event, continued until it settles.
+
+Each interval is integrated in local time s = t - t_k (so that the pulse, many decades faster
+than the interval, is resolved near s = 0 whatever t_k is) with scipy.integrate's Radau method
+(implicit Runge-Kutta, order 5, L-stable) and the constant analytic Jacobian J.
+
+The state is integrated as a deviation z = y - y_o from an origin y_o, the interval's own DC
+operating point (K y_o = b; where K is singular, the one that keeps the conserved charges and
+fluxes of y(t_k-), see linsolve.operating_point): z' = J z + r, where r = 0 when
+y_o is an operating point (its residual is rounding) and r = J y_o + c, the driving term of the
+growth, where none exists.  The ODE is the same for any origin, so the waveform and the settled
+value are still the integrator's; the origin only removes a rounding floor: a node held by a
+source through r_s has v - E ~ r_s i, so its current (v - E)/r_s computed from an absolute v
+carries an error of about 1e-16 |v| / r_s, which makes the step size stall long after the
+response has settled; relative to the origin that error decays with the response.
+
+The runs are:
+
+1. from the state at t_k- through the pulse and the post-pulse fit window, starting with a step
+   of a fraction of the pulse width and with bounded steps (Radau's error estimate filters stiff
+   components, so left to itself it may step over a pulse it does not see);
+2. on to the next event (the step lands exactly on it, giving the state from which the next
+   interval starts);
+3. then, with the same sources held, until the response settles or the horizon is reached.
+
+Settling is read from the response itself: the interval has settled at a step s when every
+dynamic state's (a node voltage with a real capacitor, an inductor current) rate of change,
+times the elapsed time s, is below ``SETTLE`` times that state's scale
+(the largest magnitude of its deviation z after the pulse, at least its absolute-tolerance
+base), judged only from the lower estimate of the fastest real time constant on.  For a decay
+a e^(-s/tau) this holds from s ~ 30 tau on and leaves less than ~1e-13 a; a slow mode still
+moving is caught because its rate times s grows with s.  (The rate J z is free of rounding
+noise because z, unlike y, decays to zero.)  A response that grows past ``BLOW_UP`` times its
+scale, or an interval that reaches the horizon or ``MAX_STEPS`` steps, is reported as not
+settled.
+"""
+
+from __future__ import annotations
+
+import time as _time
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.integrate import OdeSolution, Radau
+
+from .equations import System
+from .linsolve import operating_point
+
+#: rate of change times elapsed time, relative to the scale, below which a state has settled
+SETTLE = 1e-11
+#: growth beyond this multiple of the scale at 0+ is unbounded
+BLOW_UP = 1e9
+#: the pulse window is crossed in at least this many steps
+WINDOW_STEPS = 16
+#: steps allowed in one run (up to the next event, or the settling continuation)
+MAX_STEPS = 50000
+
+
+@dataclass(frozen=True)
+class IntervalStats:
+    """Integrator counters of one interval (both runs), like solve_ivp's result.
+
+    Attributes:
+        steps: accepted steps; nfev, njev, nlu: right-hand-side evaluations, Jacobian
+        evaluations, LU decompositions; seconds: wall time spent stepping the integrator.
+    """
+
+    steps: int = 0
+    nfev: int = 0
+    njev: int = 0
+    nlu: int = 0
+    seconds: float = 0.0
+
+    def plus(self, other: "IntervalStats") -> "IntervalStats":
+        return IntervalStats(self.steps + other.steps, self.nfev + other.nfev,
+                             self.njev + other.njev, self.nlu + other.nlu,
+                             self.seconds + other.seconds)
+
+
+@dataclass(frozen=True)
+class IntervalRun:
+    """The held response of one interval, in local time s = t - t_k.
+
+    Attributes:
+        t0: absolute time of the event t_k (s).
+        length: s from t_k to the next event, or None for the last interval.
+        origin: the origin y_o over the integrated states y_d, shape (n_d,); y_d = y_o + z.
+        origin_full: the origin as a full state, shape (n,) (the refined DC solution).
+        consistent: True when y_o is an operating point (False: the response grows).
+        s: accepted step times, shape (m,), from 0 to ``end``.
+        z: deviations from the origin at those times, shape (n_d, m).
+        dense: continuous z over [0, end] (scipy OdeSolution in local time), or None.
+        y_next: full state at the next event, shape (n,), or None (last interval or failure).
+        end: local time where the held continuation stopped (s).
+        status: ``settled``, ``horizon`` (not settled in time), ``blow-up`` or ``failed``.
+        settle_time: local time at which settling was detected, or None.
+        stats: integrator counters.
+    """
+
+    t0: float
+    length: float | None
+    origin: np.ndarray
+    origin_full: np.ndarray
+    consistent: bool
+    s: np.ndarray
+    z: np.ndarray
+    dense: OdeSolution | None
+    y_next: np.ndarray | None
+    end: float
+    status: str
+    settle_time: float | None
+    stats: IntervalStats
+
+    @property
+    def y(self) -> np.ndarray:
+        """Integrated states y_d at the step times, shape (n_d, m)."""
+        return self.origin[:, None] + self.z
+
+    def probe(self, w: np.ndarray, offset, s: np.ndarray) -> np.ndarray:
+        """w . z(s) + offset at local times ``s`` (clipped to [0, end]), shape (len(s),); with
+        stacked rows w of shape (p, n) and offset of shape (p,), shape (p, len(s)).  The offset
+        is the probe's value at the origin (``probes.probe_offset``)."""
+        s = np.clip(np.atleast_1d(np.asarray(s, dtype=float)), 0.0, self.end)
+        offset = np.asarray(offset, dtype=float)
+        base = offset[..., None] if offset.ndim else offset
+        if self.dense is None:
+            return base + np.zeros(np.shape(w)[:-1] + s.shape)
+        return w @ self.dense(s) + base
+
+
+class _Settle:
+    """Incremental settle and growth detector over the accepted steps of one interval (on z).
+
+    A state's scale is the largest |z| it takes from ``pulse_end`` on (the pulse itself is
+    excluded: its currents are many decades larger than the response), at least ``floor``.
+    Neither settling nor growth is judged before ``earliest``.  Settling is judged on the
+    ``dynamic`` states (mask): voltages of nodes with a real capacitor and inductor currents;
+    the others (capacitor-less nodes, carrier currents) follow them within the pulse time, and
+    their rates carry the rounding of the stiffest rows.
+    """
+
+    def __init__(self, slope, dynamic: np.ndarray, floor: np.ndarray, pulse_end: float,
+                 earliest: float) -> None:
+        self.slope = slope
+        self.dynamic = dynamic
+        self.pulse_end = pulse_end
+        self.earliest = earliest
+        self.scale = floor.copy()
+        self.start_scale: np.ndarray | None = None
+
+    def add(self, s: float, z: np.ndarray) -> str | None:
+        """Record a step; return ``settled``, ``blow-up`` or None."""
+        if s >= self.pulse_end:
+            np.maximum(self.scale, np.abs(z), out=self.scale)
+            if self.start_scale is None:
+                self.start_scale = self.scale.copy()
+        if s < self.earliest or self.start_scale is None:
+            return None
+        if np.any(np.abs(z) > BLOW_UP * self.start_scale):
+            return "blow-up"
+        if not self.dynamic.any():
+            return "settled"
+        drift = np.abs(self.slope(z)) * s / self.scale
+        return "settled" if np.max(drift[self.dynamic]) <= SETTLE else None
+
+
+def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: float, rtol: float,
+         atol: np.ndarray, settle: _Settle | None, first_step: float | None = None,
+         max_step: float = np.inf):
+    """Step Radau on z' = J z + r from s0 to s_bound; returns (s, z, interpolants, status, stats)."""
+    jac = system.jac
+
+    def fun(_t, z):
+        return jac @ z + r
+
+    started = _time.perf_counter()
+    solver = Radau(fun, s0, z0, s_bound, jac=jac, rtol=rtol, atol=atol, first_step=first_step,
+                   max_step=max_step)
+    ss, zs, interps = [s0], [z0.copy()], []
+    status = "reached"
+    while solver.status == "running":
+        if len(interps) >= MAX_STEPS:
+            status = "horizon"
+            break
+        solver.step()
+        if solver.status == "failed":
+            status = "failed"
+            break
+        ss.append(solver.t)
+        zs.append(solver.y.copy())
+        interps.append(solver.dense_output())
+        if settle is not None:
+            verdict = settle.add(solver.t, solver.y)
+            if verdict is not None:
+                status = verdict
+                break
+    stats = IntervalStats(len(interps), solver.nfev, solver.njev, solver.nlu,
+                          _time.perf_counter() - started)
+    return ss, zs, interps, status, stats
+
+
+def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float | None,
+                       horizon: float, rtol: float, atol: np.ndarray, pulse_end: float,
+                       earliest: float, dynamic: np.ndarray, window: float,
+                       first_step: float) -> IntervalRun:
+    """Integrate interval k from y(t_k-) = y0; see the module docstring.
+
+    Args:
+        system: the interval's ODE.
+        y0: full state at t_k-, shape (n,).
+        t0: absolute event time t_k (s), recorded only.
+        length: s to the next event, or None for the last interval.
+        horizon: the longest local time the held continuation may run (s).
+        rtol: relative tolerance; atol: absolute tolerances of the full state, shape (n,).
+        pulse_end: local time (s) after which the pulse has died (``post_pulse``).
+        earliest: local time (s) before which settling is not judged (the lower estimate of
+            the fastest real time constant: before it no real mode has moved measurably).
+        dynamic: boolean mask over the full state, shape (n,), of the states on which settling
+            is judged.
+        window: local time (s) to the end of the post-pulse fit window; the first run ends
+            there, with steps of at most window / WINDOW_STEPS.
+        first_step: the first step (s), a fraction of the pulse width (Radau's own choice from
+            the initial slope can step over a pulse its error estimate does not see).
+    """
+    red = system.reduction
+    origin_full, consistent, origin, r = _origin(system, y0, atol / rtol)
+    atol, dynamic = atol[red.dyn], dynamic[red.dyn]
+    z0 = red.integrated(y0) - origin
+    settle = _Settle(lambda z: system.jac @ z + r, dynamic, atol / rtol, pulse_end, earliest)
+    settle.add(0.0, z0)
+    acc = _Accumulator(z0)
+    y_next, settled = None, False
+    # 1. the pulse and the post-pulse fit window, resolved with small first and bounded steps
+    bound = window if length is None else min(window, length)
+    status = acc.add(*_run(system, r, z0, 0.0, bound, rtol, atol, settle, first_step=first_step,
+                           max_step=bound / WINDOW_STEPS))
+    # 2. on to the next event
+    if status == "reached" and length is not None and acc.s[-1] < length:
+        status = acc.add(*_run(system, r, acc.z[-1], acc.s[-1], length, rtol, atol, None))
+    if status == "reached" and length is not None:
+        y_next = np.asarray(red.lift @ (origin + acc.z[-1])).ravel() + red.lift_c
+        settled = any(settle.add(s, z) == "settled" for s, z in zip(acc.s[1:], acc.z[1:])
+                      if s > bound)
+    elif status == "settled":
+        settled, status = True, "reached"
+    # 3. the held continuation until it settles
+    if status == "reached" and not settled:
+        start = acc.s[-1]
+        status = acc.add(*_run(system, r, acc.z[-1], start, max(horizon, 2.0 * start), rtol,
+                               atol, settle))
+        settled = status == "settled"
+        if status == "reached":
+            status = "horizon"
+    s_arr = np.asarray(acc.s)
+    dense = OdeSolution(s_arr, acc.interps) if acc.interps else None
+    return IntervalRun(t0, length, origin, origin_full, consistent, s_arr,
+                       np.column_stack(acc.z), dense, y_next, float(s_arr[-1]),
+                       "settled" if settled else status, acc.s[-1] if settled else None,
+                       acc.stats)
+
+
+def _origin(system: System, y0: np.ndarray, scale: np.ndarray):
+    """(origin as a full state, consistent, origin over x_d, driving term r) of an interval."""
+    origin_full, consistent = operating_point(system.K_dc, system.b_dc,
+                                              1e9 * scale + 1e3 * np.abs(y0), system.M, y0)
+    origin = system.reduction.integrated(origin_full)
+    r = np.zeros_like(origin) if consistent else system.jac @ origin + system.c
+    return origin_full, consistent, origin, r
+
+
+class _Accumulator:
+    """Joins the runs of one interval into one list of steps."""
+
+    def __init__(self, z0: np.ndarray) -> None:
+        self.s, self.z, self.interps = [0.0], [z0], []
+        self.stats = IntervalStats()
+
+    def add(self, ss, zs, interps, status, stats) -> str:
+        self.s += ss[1:]
+        self.z += zs[1:]
+        self.interps += interps
+        self.stats = self.stats.plus(stats)
+        return status

@@ -1,0 +1,277 @@
+"""NumericSolution: the numerical engine's result, satisfying harness.results.Solution."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..model import CAPACITOR, CCCS, CCVS, VCCS, VCVS, Circuit, Probe
+from ..results import Features, Jump
+from ..tolerances import MODE_VISIBILITY
+from .equations import Layout, System
+from .features import decay, fit_window, post_pulse, pulse_points, values
+from .integrate import IntervalRun, IntervalStats
+from .linsolve import operating_point
+from .probes import probe_offset, probe_row, voltage_row
+from .regularise import Regularisation
+
+#: an impulsive charge below this fraction of (total capacitance x voltage scale) is noise
+CHARGE_FLOOR = 1e-9
+CONTROLLED = (VCVS, VCCS, CCVS, CCCS)
+
+
+@dataclass(frozen=True)
+class NumericSolution:
+    """The narrow-pulse model of one circuit, integrated interval by interval.
+
+    Attributes:
+        circuit: the circuit solved.
+        warnings: circuit-wide diagnostics (each names the interval's event time).
+        regularisation: the regularising values used.
+        layout: the state layout.
+        pre: the system in force just before t = 0.
+        systems: one ODE per interval (index k = event k).
+        y0: state at 0-, shape (n,).
+        runs: the integrated intervals (fewer than the events if an interval failed).
+        rtol: relative tolerance used; atol: absolute tolerances, shape (n,).
+        v_scale, i_scale: voltage (V) and current (A) scales of the states.
+        setup_seconds: wall time outside the integrator (building, DC solve).
+    """
+
+    circuit: Circuit
+    warnings: tuple[str, ...]
+    regularisation: Regularisation
+    layout: Layout
+    pre: System
+    systems: tuple[System, ...]
+    y0: np.ndarray
+    runs: tuple[IntervalRun, ...]
+    rtol: float
+    atol: np.ndarray
+    v_scale: float
+    i_scale: float
+    setup_seconds: float = 0.0
+    engine: str = "numeric"
+    _cache: dict = field(default_factory=dict, compare=False, repr=False)
+
+    # ----- counters ------------------------------------------------------------------------
+    @property
+    def interval_stats(self) -> tuple[IntervalStats, ...]:
+        """Integrator counters per interval (steps, nfev, njev, nlu, seconds)."""
+        return tuple(run.stats for run in self.runs)
+
+    def stats(self, k: int) -> IntervalStats:
+        return self.runs[k].stats
+
+    # ----- helpers -------------------------------------------------------------------------
+    def _t(self, k: int) -> float:
+        return self.circuit.events[k]
+
+    def _system(self, k: int) -> System:
+        return self.pre if k < 0 else self.systems[k]
+
+    def _rows(self, probe: Probe, k: int) -> tuple[np.ndarray, float]:
+        """(w, e) of the probe in interval k (k = -1: before t = 0)."""
+        key = ("rows", probe, k)
+        if key not in self._cache:
+            self._cache[key] = probe_row(self.circuit, self.layout, self._system(k), probe)
+        return self._cache[key]
+
+    def _origin(self, k: int) -> tuple[np.ndarray, bool, np.ndarray]:
+        """(origin over x_d, consistent, origin as a full state) of interval k; for k = -1 the
+        pre-step operating point."""
+        if k >= 0:
+            run = self.runs[k]
+            return run.origin, run.consistent, run.origin_full
+        if "pre-origin" not in self._cache:
+            bound = 1e9 * self.atol / self.rtol + 1e3 * np.abs(self.y0)
+            origin, consistent = operating_point(self.pre.K_dc, self.pre.b_dc, bound,
+                                                 self.pre.M, self.y0)
+            self._cache["pre-origin"] = (self.pre.reduction.integrated(origin), consistent,
+                                         origin)
+        return self._cache["pre-origin"]
+
+    def _offset(self, probe: Probe, k: int) -> float:
+        """The probe's value at interval k's origin (see harness.simulate.probes)."""
+        key = ("offset", probe, k)
+        if key not in self._cache:
+            origin, consistent, full = self._origin(k)
+            self._cache[key] = probe_offset(self.circuit, self.layout, self._system(k), probe,
+                                            origin, consistent, full)
+        return self._cache[key]
+
+    def _state_before(self, k: int) -> np.ndarray | None:
+        if k == 0:
+            return self.y0
+        if k - 1 < len(self.runs):
+            return self.runs[k - 1].y_next
+        return None
+
+    def _before(self, probe: Probe, k: int) -> float | None:
+        """x(t_k-): the state at 0-, or the previous interval's state at this event."""
+        if k - 1 >= len(self.runs):
+            return None
+        w, _ = self._rows(probe, k - 1)
+        if k == 0:
+            origin, _, _ = self._origin(-1)
+            y0 = self.pre.reduction.integrated(self.y0)
+            return float(w @ (y0 - origin) + self._offset(probe, -1))
+        if k - 1 >= len(self.runs) or self.runs[k - 1].y_next is None:
+            return None
+        run = self.runs[k - 1]
+        return float(values(run, w, self._offset(probe, k - 1), np.array([run.length]))[0])
+
+    def _post(self, probe: Probe, k: int):
+        key = ("post", probe, k)
+        if key not in self._cache:
+            w, _ = self._rows(probe, k)
+            reg = self.regularisation
+            pp = post_pulse(self.runs[k], w[None, :], np.array([self._offset(probe, k)]),
+                            reg.post_pulse, fit_window(reg.post_pulse, reg.t_fast))
+            self._cache[key] = pp
+        return self._cache[key]
+
+    def _base(self, probe: Probe, k: int) -> tuple[float | None, float | None, float | None]:
+        """(before, after, final) of ``probe`` at event k."""
+        before = self._before(probe, k)
+        if k >= len(self.runs):
+            return before, None, None
+        run = self.runs[k]
+        after = float(self._post(probe, k).at_event()[0])
+        final = None
+        if run.status == "settled":
+            w, _ = self._rows(probe, k)
+            final = float(values(run, w, self._offset(probe, k), np.array([run.end]))[0])
+        return before, after, final
+
+    def scale(self, probe: Probe) -> float:
+        """The probe's scale: its largest magnitude at any event (else the largest source)."""
+        mags = [abs(v) for k in range(len(self.circuit.events))
+                for v in self._base(probe, k) if v is not None]
+        top = max(mags, default=0.0)
+        return top if top > 0 else self.circuit.largest_source()
+
+    # ----- Solution protocol -----------------------------------------------------------------
+    def features(self, probe: Probe, k: int) -> Features:
+        """Values of ``probe`` at event k (see harness.simulate for the methods)."""
+        before, after, final = self._base(probe, k)
+        if k >= len(self.runs):
+            return Features(before, None, None, notes=("the integration stopped before this "
+                                                       "interval",))
+        run = self.runs[k]
+        notes: tuple[str, ...] = ()
+        tau, modes = None, ()
+        if final is None:
+            notes = (f"the response did not settle ({run.status}): no final value",)
+        else:
+            scale = self.scale(probe)
+            w, _ = self._rows(probe, k)
+            tau, modes, notes = decay(run, w, self._offset(probe, k),
+                                      self.regularisation.post_pulse, final, scale,
+                                      MODE_VISIBILITY * scale)
+        return Features(before, after, final, tau=tau, order=None, modes=modes, notes=notes)
+
+    def span(self, k: int) -> tuple[float, float]:
+        """(t_k, t_end): the event time and the end of the held continuation (s)."""
+        t0 = self._t(k)
+        if k >= len(self.runs):
+            return t0, t0
+        return t0, t0 + self.runs[k].end
+
+    def waveform(self, probe: Probe, k: int, times: np.ndarray) -> np.ndarray:
+        """Held response of interval k at absolute ``times``, shape (n,); within the pulse
+        (before the post-pulse start) the post-pulse polynomial is returned instead."""
+        times = np.asarray(times, dtype=float)
+        if k >= len(self.runs):  # the integration stopped before this interval
+            return np.full(times.shape, np.nan)
+        run = self.runs[k]
+        local = times - self._t(k)
+        w, _ = self._rows(probe, k)
+        out = values(run, w, self._offset(probe, k), local)
+        early = local < self.regularisation.post_pulse
+        if np.any(early):
+            out[early] = self._post(probe, k).value(local[early])[0]
+        return out
+
+    def samples(self, probe: Probe, k: int) -> tuple[np.ndarray, np.ndarray]:
+        """The raw integration points of interval k: (absolute times, probe values), pulse
+        included, shapes (m,), (m,); empty where the integration stopped before interval k."""
+        if k >= len(self.runs):
+            return np.zeros(0), np.zeros(0)
+        run = self.runs[k]
+        w, _ = self._rows(probe, k)
+        return run.s + self._t(k), w @ run.z + self._offset(probe, k)
+
+    def jump(self, k: int) -> Jump:
+        """Charges moved in the pulse at event k, energy dissipated, stored energies."""
+        key = ("jump", k)
+        if key not in self._cache:
+            self._cache[key] = self._jump(k)
+        return self._cache[key]
+
+    def _jump(self, k: int) -> Jump:
+        t = self._t(k)
+        y_before = self._state_before(k)
+        if k >= len(self.runs) or y_before is None:
+            return Jump(t, energy=None, warnings=("the integration stopped before this event",))
+        run, system, lay, reg = self.runs[k], self.systems[k], self.layout, self.regularisation
+        n = lay.n
+        names = list(system.branches)
+        caps = [p for p in self.circuit.parts if p.kind == CAPACITOR]
+        rows = [system.branches[nm].dense(n) for nm in names]
+        rows += [r.current.dense(n) for r in system.regularisers]
+        rows += [voltage_row(lay, p.p, p.n) for p in caps]
+        consts = [system.branches[nm].const for nm in names]
+        consts += [r.current.const for r in system.regularisers]
+        consts += [0.0] * len(caps)
+        rows, consts = np.array(rows).reshape(-1, n), np.array(consts)
+        red = system.reduction
+        rows_d = np.asarray(rows @ red.lift)
+        consts_d = consts + rows @ red.lift_c
+        offsets = rows_d @ run.origin + consts_d
+        pp = post_pulse(run, rows_d, offsets, reg.post_pulse,
+                        fit_window(reg.post_pulse, reg.t_fast))
+        nodes, weights = pulse_points(run, reg.post_pulse)
+        cur = run.probe(rows_d, offsets, nodes) if nodes.size else np.zeros((len(rows), 0))
+        fit = pp.value(nodes) if nodes.size else cur
+        charge = cur @ weights - pp.integral()
+        after = pp.at_event()
+        nb, nr = len(names), len(system.regularisers)
+        q_floor = self._charge_floor()
+        charges = {nm: float(charge[i]) for i, nm in enumerate(names)
+                   if abs(charge[i]) > q_floor}
+        stored_before, stored_after, fluxes = {}, {}, {}
+        v_before = rows[nb + nr:] @ y_before + consts[nb + nr:]
+        for j, part in enumerate(caps):
+            q = part.value * (after[nb + nr + j] - v_before[j])
+            if abs(q) > q_floor:
+                charges[part.name] = float(q)
+            stored_before[part.name] = 0.5 * part.value * float(v_before[j]) ** 2
+            stored_after[part.name] = 0.5 * part.value * float(after[nb + nr + j]) ** 2
+        for name in lay.inductors:
+            part = self.circuit.part(name)
+            i0, i1 = float(y_before[lay.part_index[name]]), float(after[names.index(name)])
+            stored_before[name], stored_after[name] = 0.5 * part.value * i0 ** 2, 0.5 * part.value * i1 ** 2
+            if abs(i1 - i0) > CHARGE_FLOOR * self.i_scale:
+                fluxes[name] = part.value * (i1 - i0)
+        energy = float(sum(r.resistance * ((cur[nb + i] ** 2 - fit[nb + i] ** 2) @ weights)
+                           for i, r in enumerate(system.regularisers)))
+        warnings = tuple(f"the current of inductor {nm} is forced from {y_before[lay.part_index[nm]]:.6g} A "
+                         f"to {after[names.index(nm)]:.6g} A at t = {t:.6g} s: its path is "
+                         "interrupted (an impulse of voltage across it)" for nm in fluxes)
+        if any(self.circuit.part(nm).kind in CONTROLLED for nm in charges):
+            energy = None
+        return Jump(t, charges=charges, fluxes=fluxes, energy=energy,
+                    stored_before=stored_before, stored_after=stored_after, warnings=warnings)
+
+    def _charge_floor(self) -> float:
+        """Charges below this (C) are not reported: CHARGE_FLOOR of the capacitors' charge
+        scale, ten times what the parasitic capacitances can hold, and, where inductors can be
+        forced (their pulses move no finite charge), ten times what a current of the circuit's
+        current scale moves during the pulse window."""
+        reg = self.regularisation
+        c_sum = sum(abs(p.value) for p in self.circuit.parts if p.kind == CAPACITOR)
+        parasitic = sum(reg.c_node.values()) * self.v_scale
+        forced = 10.0 * self.i_scale * reg.post_pulse if self.layout.inductors else 0.0
+        return max(CHARGE_FLOOR * c_sum * self.v_scale, 10.0 * parasitic, forced, 1e-300)

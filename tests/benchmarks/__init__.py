@@ -1,0 +1,1 @@
+"""Performance benchmarks (not collected by pytest): ``python -m tests.benchmarks.perf``."""
