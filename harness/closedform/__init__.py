@@ -33,7 +33,10 @@ Method (no time stepping; plain dense linear algebra).
    e = x(t_k-) - x_p: z0 = [I, -X] U^T R^T e (only the charges and fluxes of e enter) and for
    t > t_k exactly x(t) = x_p + Q1 expm(A (t - t_k)/T) z0, A = s0 I - S11^-1.  This includes
    every jump: the infinite directions carry the impulses and vanish after t_k.  Decompositions
-   are cached per switch configuration.
+   are cached per switch configuration.  Reciprocal RC pencils (G~ and C~ symmetric, from 32
+   unknowns on) take a faster exact route to the same representation (``symmetric``): the
+   capacitance-free unknowns are eliminated by a Schur complement and one symmetric-definite
+   eigenproblem eigh(S, C11) gives the modes; anything else falls back to the route above.
 5. Modes (``modes``).  A is split by eigenvalue cluster (ordered complex Schur + Sylvester):
    the zero cluster (|lambda| <= 1e-10 s0: trapped charge or flux, part of x_inf), and clusters
    of eigenvalues equal to tolerances.MODE_MERGE (identical modes merged; defective ones give

@@ -36,16 +36,19 @@ class Cluster:
     Attributes:
         rate: the cluster's eigenvalue (mean of its members; exactly 0 for the zero cluster).
         block: T_j, shape (m, m), complex: A V_j = V_j T_j.
-        right: V_j, shape (f, m), complex.
-        left: W_j, shape (m, f), complex.
+        right: V_j, shape (f, m), complex (None when ``index`` is set).
+        left: W_j, shape (m, f), complex (None when ``index`` is set).
         zero: True for the zero cluster.
+        index: where V_j and W_j are unit selections (A diagonal), the selected coordinates,
+            else None.
     """
 
     rate: complex
     block: np.ndarray
-    right: np.ndarray
-    left: np.ndarray
+    right: np.ndarray | None
+    left: np.ndarray | None
     zero: bool
+    index: tuple[int, ...] | None = None
 
     @property
     def size(self) -> int:
@@ -78,21 +81,34 @@ class Mode:
 
 def group_rates(rates: np.ndarray, zero_tol: float) -> list[list[int]]:
     """Indices of ``rates`` grouped into clusters: the zero cluster first (if any), then groups
-    joined by single linkage at relative distance MODE_MERGE, slowest |lambda| first."""
-    zero = [i for i, r in enumerate(rates) if abs(r) <= zero_tol]
-    rest = sorted((i for i in range(len(rates)) if i not in zero), key=lambda i: abs(rates[i]))
+    joined by single linkage at relative distance MODE_MERGE, slowest |lambda| first.
+
+    A rate joins the earliest-created group holding a rate within MODE_MERGE of it.  Such a
+    rate has |r_j| >= (1 - MODE_MERGE) |r_i| (triangle inequality), so only the window of
+    already-sorted rates just below r_i in magnitude is searched.
+    """
+    mags = np.abs(np.asarray(rates))
+    zero_mask = mags <= zero_tol
+    zero = [int(i) for i in np.flatnonzero(zero_mask)]
+    rest = [int(i) for i in sorted(np.flatnonzero(~zero_mask), key=lambda i: mags[i])]
     groups: list[list[int]] = []
-    for i in rest:
+    group_of: list[int] = []                  # group id of rest[k]
+    for k, i in enumerate(rest):
+        low = (1.0 - MODE_MERGE - 1e-12) * mags[i]
         home = None
-        for g in groups:
-            if any(abs(rates[i] - rates[j]) <= MODE_MERGE * max(abs(rates[i]), abs(rates[j]))
-                   for j in g):
-                home = g
-                break
+        back = k - 1
+        while back >= 0 and mags[rest[back]] >= low:
+            j = rest[back]
+            if abs(rates[i] - rates[j]) <= MODE_MERGE * max(mags[i], mags[j]):
+                gid = group_of[back]
+                home = gid if home is None else min(home, gid)
+            back -= 1
         if home is None:
+            group_of.append(len(groups))
             groups.append([i])
         else:
-            home.append(i)
+            group_of.append(home)
+            groups[home].append(i)
     return ([zero] if zero else []) + groups
 
 
@@ -110,11 +126,97 @@ def _split(tmat: np.ndarray, member) -> tuple[int, np.ndarray, np.ndarray, np.nd
     return m, u, s, x
 
 
+#: eigenvector bases with a condition number above this are not used for the split
+EIG_CONDITION = 1e6
+#: the eigenvector split is used from this order of A on (below it the Schur splits are cheap)
+EIG_MIN_ORDER = 16
+
+
+def _radius(members: np.ndarray, is_zero: bool, zero_tol: float) -> tuple[complex, float]:
+    """Centre and capture radius of a cluster (the selection of the Schur split)."""
+    center = 0.0 if is_zero else complex(members.sum() / members.size)
+    spread = float(np.abs(members - center).max())
+    radius = zero_tol * 2 if is_zero else max(3 * spread, 0.3 * MODE_MERGE * abs(center))
+    return center, radius
+
+
+def _by_eigenvectors(a: np.ndarray, zero_tol: float) -> tuple[Cluster, ...] | None:
+    """The same split from one eigendecomposition A = V diag(w) V^-1, or None when V is
+    ill-conditioned (a defective or nearly defective A) or a cluster's capture radius reaches
+    a later cluster's eigenvalues.
+
+    For a diagonalisable A the cluster data V_j T_j^m W_j are basis independent (they are the
+    spectral projector times (A - lambda_j I)^m), so T_j = diag(w_j), V_j = V[:, j],
+    W_j = V^-1[j, :] give the same features as the successive Schur splits, in O(f^3)
+    instead of O(f^4) for f distinct modes.
+    """
+    rates, vec = np.linalg.eig(a)
+    if not np.all(np.isfinite(rates)):
+        return None
+    try:
+        inv = np.linalg.inv(vec)
+    except np.linalg.LinAlgError:
+        return None
+    if np.linalg.norm(vec, 1) * np.linalg.norm(inv, 1) > EIG_CONDITION:
+        return None
+    groups = group_rates(rates, zero_tol)
+    taken = np.zeros(rates.size, dtype=bool)
+    out = []
+    for gi, group in enumerate(groups):
+        members = rates[group]
+        is_zero = gi == 0 and all(abs(r) <= zero_tol for r in members)
+        center, radius = _radius(members, is_zero, zero_tol)
+        taken[group] = True
+        if gi < len(groups) - 1 and np.any((np.abs(rates - center) <= radius) & ~taken):
+            return None
+        out.append(Cluster(center, np.diag(members.astype(complex)),
+                           vec[:, group].astype(complex), inv[group, :].astype(complex),
+                           is_zero))
+    return tuple(out)
+
+
+def diagonal_clusters(rates: np.ndarray, zero_tol: float) -> tuple[Cluster, ...]:
+    """The clusters of A = diag(rates) (real or complex), shape (f,): as ``clusters_of`` would
+    give them, as unit selections (``Cluster.index``; right and left are None)."""
+    f = rates.size
+    if f == 0:
+        return ()
+    rates = np.asarray(rates, dtype=complex)
+    groups = group_rates(rates, zero_tol)
+    owner = np.empty(f, dtype=int)
+    for gi, group in enumerate(groups):
+        owner[group] = gi
+    order = np.argsort(np.abs(rates), kind="stable")
+    mags = np.abs(rates)[order]
+    out = []
+    for gi, group in enumerate(groups):
+        members = rates[group]
+        is_zero = gi == 0 and bool(np.all(np.abs(members) <= zero_tol))
+        center, radius = _radius(members, is_zero, zero_tol)
+        if gi < len(groups) - 1:                   # would the Schur split capture more?
+            lo = np.searchsorted(mags, abs(center) - radius, side="left")
+            hi = np.searchsorted(mags, abs(center) + radius, side="right")
+            near = order[lo:hi]
+            near = near[owner[near] > gi]
+            if near.size and np.any(np.abs(rates[near] - center) <= radius):
+                return clusters_of(np.diag(rates), zero_tol)
+        out.append(Cluster(center, np.diag(members), None, None, is_zero, tuple(group)))
+    return tuple(out)
+
+
 def clusters_of(a: np.ndarray, zero_tol: float) -> tuple[Cluster, ...]:
-    """Block-diagonalise A by eigenvalue cluster (see the module docstring)."""
+    """Block-diagonalise A by eigenvalue cluster (see the module docstring).
+
+    From EIG_MIN_ORDER modes on, a well-conditioned eigenvector basis gives the split directly
+    (``_by_eigenvectors``); otherwise successive ordered Schur forms and Sylvester equations
+    do.
+    """
     f = a.shape[0]
     if f == 0:
         return ()
+    fast = _by_eigenvectors(a, zero_tol) if f >= EIG_MIN_ORDER else None
+    if fast is not None:
+        return fast
     rates = np.linalg.eigvals(a)
     groups = group_rates(rates, zero_tol)
     z = np.eye(f, dtype=complex)          # right basis of the part not yet split off
@@ -124,9 +226,7 @@ def clusters_of(a: np.ndarray, zero_tol: float) -> tuple[Cluster, ...]:
     for gi, group in enumerate(groups):
         members = rates[group]
         is_zero = gi == 0 and all(abs(r) <= zero_tol for r in members)
-        center = 0.0 if is_zero else complex(np.mean(members))
-        spread = max(abs(r - center) for r in members)
-        radius = zero_tol * 2 if is_zero else max(3 * spread, 0.3 * MODE_MERGE * abs(center))
+        center, radius = _radius(members, is_zero, zero_tol)
         if gi == len(groups) - 1:
             out.append(Cluster(center, tmat, z, y, is_zero))
             break

@@ -21,11 +21,19 @@ from typing import Mapping
 import numpy as np
 import scipy.linalg as sla
 
+from . import symmetric
 from .interval import Decomposition, augment, decompose
 from .linalg import least_squares
 from .mna import Layout
 from .modes import Cluster
 
+
+
+#: above this many dynamic coordinates, or this many times at once, states are summed per mode
+#: cluster instead of expm(A t) per time (the single-time calls of ``build`` for small systems
+#: keep the expm form)
+DENSE_EXPM_ORDER = 16
+DENSE_EXPM_TIMES = 8
 
 
 @dataclass(frozen=True)
@@ -101,16 +109,41 @@ class IntervalResponse:
         f = self.dec.order
         if f == 0:
             return np.tile(self.xp, (tau.size, 1)), np.zeros((tau.size, self.xp.size))
+        if f > DENSE_EXPM_ORDER or tau.size > DENSE_EXPM_TIMES:
+            return self._states_by_cluster(tau)
         with np.errstate(over="ignore", invalid="ignore"):
             expo = sla.expm(self.dec.a[None, :, :] * tau[:, None, None]) @ self.z0
             x = self.xp[None, :] + expo @ self.dec.q1.T
             dx = expo @ (self.dec.q1 @ self.dec.a).T
         return x, dx
 
+    def _states_by_cluster(self, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """``states`` from the cluster split A = sum V_j T_j W_j: expm(A tau) z0 =
+        sum_j V_j expm(T_j tau) W_j z0, O(n f) per time instead of O(f^3); the 1 x 1
+        clusters are summed in one product."""
+        x = np.tile(self.xp.astype(complex), (tau.size, 1))
+        dx = np.zeros_like(x)
+        single = [d for d in self.clusters if d.cluster.size == 1]
+        with np.errstate(over="ignore", invalid="ignore"):
+            if single:
+                rates = np.array([d.cluster.block[0, 0] for d in single])
+                e = np.exp(np.outer(tau, rates)) * np.array([d.g[0] for d in single])
+                x += e @ np.hstack([d.qv for d in single]).T
+                dx += e @ np.hstack([d.qvt for d in single]).T
+            for data in self.clusters:
+                if data.cluster.size == 1:
+                    continue
+                e = sla.expm(data.cluster.block[None, :, :] * tau[:, None, None]) @ data.g
+                x += e @ data.qv.T
+                dx += e @ data.qvt.T
+        return x.real, dx.real
+
 
 def pencil_of(g: np.ndarray, c: np.ndarray, null: np.ndarray) -> Pencil:
-    """Decompose a non-augmented scaled pencil (SingularPencil if it is not regular)."""
-    return Pencil(g, c, decompose(g, c, null))
+    """Decompose a non-augmented scaled pencil (SingularPencil if it is not regular): by the
+    symmetric route where it applies (``symmetric``), else by the general one."""
+    dec = symmetric.decompose(g, c, null)
+    return Pencil(g, c, dec if dec is not None else decompose(g, c, null))
 
 
 def _particular(g: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, bool]:
@@ -120,9 +153,26 @@ def _particular(g: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, b
 
 def _cluster_data(dec: Decomposition, z0: np.ndarray) -> tuple[ClusterData, ...]:
     out = []
+    general = [cl for cl in dec.clusters if cl.index is None]
+    batch = bool(general) and dec.order > DENSE_EXPM_ORDER
+    if batch:                                     # Q1 V_j for every cluster in one product
+        qv_all = dec.q1 @ np.hstack([cl.right for cl in general])
+        starts = np.cumsum([0] + [cl.size for cl in general])
+    pos = 0
+    q1c, z0c = dec.q1.astype(complex), z0.astype(complex)
     for cl in dec.clusters:
-        qv = dec.q1 @ cl.right
-        out.append(ClusterData(cl, qv, qv @ cl.block, cl.left @ z0))
+        if cl.index is not None:                  # unit selections: pick columns, O(n m)
+            idx = list(cl.index)
+            qv = q1c[:, idx]
+            g = z0c[idx]
+        elif batch:
+            qv = qv_all[:, starts[pos]:starts[pos + 1]]
+            g = cl.left @ z0
+            pos += 1
+        else:
+            qv = dec.q1 @ cl.right
+            g = cl.left @ z0
+        out.append(ClusterData(cl, qv, qv @ cl.block, g))
     return tuple(out)
 
 
