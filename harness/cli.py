@@ -12,12 +12,18 @@ import argparse
 import contextlib
 import json
 import math
+import os
 import signal
 import sys
 import warnings
 from pathlib import Path
 
-from .outcome import ERROR
+# One BLAS thread per process unless the user says otherwise: the engines' matrices are small,
+# and threaded BLAS on a loaded 2-core machine measured 10-14x slower (tests/benchmarks/RESULTS.md).
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
+
+from .outcome import ERROR  # noqa: E402  (after the BLAS setting, which must precede numpy)
 
 
 def _parser() -> argparse.ArgumentParser:

@@ -12,6 +12,7 @@ the current it drives from p through itself to n.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Mapping
 
 RESISTOR = "resistor"
@@ -254,10 +255,12 @@ class Circuit:
 
     def part(self, name: str) -> Part:
         """The part called ``name`` (KeyError if there is none)."""
-        for part in self.parts:
-            if part.name == name:
-                return part
-        raise KeyError(name)
+        return self._by_name[name]
+
+    @cached_property
+    def _by_name(self) -> dict[str, Part]:
+        """Name -> part, built once (a derived index, not state: the parts never change)."""
+        return {part.name: part for part in self.parts}
 
     @property
     def nodes(self) -> tuple[str, ...]:
