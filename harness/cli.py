@@ -154,7 +154,7 @@ def _finish_check(args, result) -> bool:
     ok, written = True, []
     if not args.no_report:
         try:
-            written = write_all(result, Path(args.report_dir))
+            written = write_all(result, Path(args.report_dir), jobs=args.jobs)
         except OSError as err:
             print(f"tauproof: could not write the reports to the folder {args.report_dir}: "
                   f"{err}", file=sys.stderr)
