@@ -35,8 +35,10 @@ Regularisation rule (regularise.py), eps = ``pulse_ratio`` (default 1e-7)
     L_min / R_sum, sqrt(L_min C_min) / 2 pi, divided by 1 + the controlled sources' gains); at
     most the shortest event gap.  Then t_pulse = eps t_fast and
 
-    * r_s = min(eps R_min, t_pulse / (4 C_sum)) but at least 1e-9 R_min (below that 1/r_s
-      swamps 1/R in double precision; t_pulse is then raised to 4 r_s C_sum);
+    * r_s = min(eps R_min, t_pulse / (4 C_loop)) but at least 1e-9 R_min (below that 1/r_s
+      swamps 1/R in double precision; t_pulse is then raised to 4 r_s C_loop); C_loop is the
+      capacitance in loops of carriers and capacitors (regularise.loop_capacitance), the only
+      capacitors whose charge passes through r_s alone;
     * L_p = r_s t_pulse (the pulse's tail L_p / r_s is t_pulse; with r_s C <= t_pulse / 4 the
       r_s || L_p - C loop is over-damped);
     * r_shunt = max(R_sum / eps, L_max / t_pulse);
@@ -63,7 +65,11 @@ Integration (integrate.py)
     1e-3 t_pulse, at least 16 steps), to the next event (whose state starts the next interval),
     then the held continuation until every capacitor voltage and inductor current has
     |rate| * elapsed time <= 1e-11 of its scale, or the horizon, 50000 steps or a 1e9-fold
-    growth (then final None and a warning).
+    growth (then final None and a warning).  A solve has a work budget (engine.STEP_BUDGET
+    steps, engine.EVAL_BUDGET evaluations); an interval that exhausts it, or whose integrator
+    breaks down (overflow), or whose regularised model has a growing pulse-scale mode (a
+    controlled source defeating r_s; checked by eigenvalues up to 300 states), is not reported,
+    nor are the later ones, and a warning says where the engine stopped.
 
 Extraction (features.py)
     before = the value at t_k- (end of the previous interval's run); after = a quadratic

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 import time as _time
 from dataclasses import replace
 
@@ -32,6 +33,11 @@ PILOT_MAX_STATES = 300
 FIRST_STEP = 1e-3
 #: rtol = pulse_ratio by default, kept within these bounds
 RTOL_BOUNDS = (1e-8, 1e-4)
+#: work budget of one solve, over all intervals: accepted steps and right-hand-side
+#: evaluations (about 0.2-0.5 ms each on small systems: together ~10-15 s at most); past it the
+#: interval and the later ones are not reported
+STEP_BUDGET = 30_000
+EVAL_BUDGET = 300_000
 
 
 def _source_max(circuit: Circuit, kind: str) -> float:
@@ -142,6 +148,40 @@ def _fastest_real_mode(circuit: Circuit) -> float | None:
     return 1.0 / max(rates) if rates else None
 
 
+def _pulse_growth(circuit: Circuit, system, reg) -> float | None:
+    """The growth rate (1/s) of a growing mode of the regularised model at the pulse scale
+    (real part above PILOT_SPLIT / t_pulse), or None.
+
+    Such a mode belongs to the regularisation, not to the circuit: a ccvs/cccs (or vcvs) feeds
+    back the current (or voltage) of a carrier with a gain that makes r_s look negative, e.g.
+    a cccs of gain > 1 across a voltage source that senses it, so the pulse grows instead of
+    decaying.  Checked only where there are controlled sources (a passive network with positive
+    r_s has no growing mode) and up to PILOT_MAX_STATES states (dense eigenvalues).
+    """
+    if system.n == 0 or system.n > PILOT_MAX_STATES or not any(
+            p.kind in (VCVS, VCCS, CCVS, CCCS) for p in circuit.parts):
+        return None
+    jac = system.jac.toarray() if hasattr(system.jac, "toarray") else system.jac
+    if not np.all(np.isfinite(jac)):
+        return math.inf
+    growth = float(np.max(np.linalg.eigvals(jac).real))
+    return growth if growth > PILOT_SPLIT / reg.t_pulse else None
+
+
+def _stopped(circuit: Circuit, k: int, run, steps: int) -> str | None:
+    """The warning for an interval whose values are not reported (integrator breakdown or
+    the work budget), or None."""
+    t = circuit.events[k] + (run.end if run.status == "budget" else 0.0)
+    if run.status == "budget":
+        return (f"the numerical engine stopped after {steps} steps at t = {t:.6g} s (its work "
+                "budget): values not reported from that interval on")
+    if run.status == "failed":
+        return (f"the numerical engine's integrator broke down in interval {k} (from t = "
+                f"{t:.6g} s; an overflowing or singular regularised system): values not "
+                "reported from that interval on")
+    return None
+
+
 def _build_all(circuit: Circuit, lay, reg):
     """(pre-step system, one system per interval)."""
     pre = build(circuit, lay, reg, 0.0, before=True)
@@ -186,12 +226,29 @@ def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
     events = circuit.events
     runs, warnings = [], []
     y = y0
+    steps = evals = 0
     for k, t_k in enumerate(events):
         system = systems[k]
         length = events[k + 1] - t_k if k + 1 < len(events) else None
+        growth = _pulse_growth(circuit, system, reg)
+        if growth is not None:
+            what = (f"grows at {growth:.3g}/s, far faster than any mode of the circuit"
+                    if math.isfinite(growth) else "is singular (its Jacobian is not finite)")
+            warnings.append(
+                f"interval {k} (from t = {t_k:.6g} s): the numerical engine's narrow-pulse "
+                f"model {what} (a controlled source feeds back the current or voltage of a "
+                "voltage source, vcvs, ccvs or switch with a gain that defeats its "
+                "regularising resistance): values not reported from that interval on")
+            break
         run = integrate_interval(system, y, t_k, length, reg.horizon, rtol, atol,
                                  reg.post_pulse, reg.t_fast, dynamic, window,
-                                 reg.t_pulse * FIRST_STEP)
+                                 reg.t_pulse * FIRST_STEP,
+                                 budget=(STEP_BUDGET - steps, EVAL_BUDGET - evals))
+        steps, evals = steps + run.stats.steps, evals + run.stats.nfev
+        stopped = _stopped(circuit, k, run, steps)
+        if stopped:
+            warnings.append(stopped)
+            break
         runs.append(run)
         message = _warning(circuit, lay, run, k, system.reduction.dyn)
         if message:

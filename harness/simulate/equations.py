@@ -132,7 +132,8 @@ class System:
             ndarray or scipy.sparse CSC matrix.
         c: shape (n_d,), so that y_d' = J y_d + c.
         K, b, M: the unsolved full form M y' = -K y + b (K, M as CSC matrices, shape (n, n)).
-        K_dc, b_dc: the same rows with each carrier's fast current u / r_s left out.  At an
+        K_dc, b_dc: the same rows with each carrier's fast current u / r_s left out (also
+            where a ccvs or cccs senses it).  At an
             operating point u = 0, so K_dc y = b_dc has the same solutions as K y = b (it is the
             ideal circuit's MNA system), without adding 1/r_s to 1/R in one rounded entry.
         branches: part name -> its current (p to n) as an Affine, every non-capacitor part.
@@ -227,9 +228,11 @@ def _state_of(part: Part, time: float, before: bool) -> tuple[float | None, bool
 
 
 def branch_currents(circuit: Circuit, lay: Layout, reg: Regularisation, time: float,
-                    before: bool) -> Branches:
+                    before: bool, slow: bool = False) -> Branches:
     """Branch currents of every non-capacitor part with sources and switches as just before
-    (``before``) or just after ``time``."""
+    (``before``) or just after ``time``.  With ``slow`` a closed carrier's current is its i_p
+    alone (its u / r_s, zero at an operating point, left out), also where a ccvs or cccs senses
+    it: the DC rows then hold no 1/r_s (K_dc, see ``System``)."""
     out = Branches({}, {}, [], {}, {})
     g = 1.0 / reg.r_series
     ordered = sorted(circuit.parts, key=lambda p: p.kind in (CCVS, CCCS))
@@ -259,7 +262,8 @@ def branch_currents(circuit: Circuit, lay: Layout, reg: Regularisation, time: fl
             u = _carrier_voltage(part, lay, value, sensed)
             fast = u.scaled(g)
             out.voltages[part.name] = u
-            out.currents[part.name] = fast.plus(Affine({lay.part_index[part.name]: 1.0}))
+            own = Affine({lay.part_index[part.name]: 1.0})
+            out.currents[part.name] = own if slow else fast.plus(own)
             out.regularisers.append(Regulariser(part.name, "series", reg.r_series, fast))
         else:
             out.currents[part.name] = _plain_branch(part, lay, value, closed)
@@ -290,14 +294,15 @@ def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
         for name in lay.carriers:
             if br.voltages[name] is not None:
                 currents[name] = Affine({lay.part_index[name]: 1.0})
-    flows = [(circuit.part(name), cur) for name, cur in currents.items()]
-    flows += [(circuit.part(r.part), r.current) for r in br.regularisers if r.role == "shunt"]
+    by_name = {p.name: p for p in circuit.parts}      # Circuit.part is a linear search
+    flows = [(by_name[name], cur) for name, cur in currents.items()]
+    flows += [(by_name[r.part], r.current) for r in br.regularisers if r.role == "shunt"]
     for part, cur in flows:
         for node, sign in ((part.p, 1.0), (part.n, -1.0)):
             if node in lay.node_index:
                 stamp_k(lay.node_index[node], cur, sign)
     for name in lay.inductors:  # L di/dt = v_p - v_n
-        part = circuit.part(name)
+        part = by_name[name]
         r = lay.part_index[name]
         stamp_k(r, Affine(difference(lay, part.p, part.n)), -1.0)
         stamp_m(r, r, part.value)
@@ -358,7 +363,9 @@ def build(circuit: Circuit, lay: Layout, reg: Regularisation, time: float,
     from .coordinates import assemble, forest, reduce  # (coordinates builds on this module)
 
     K, b, M = _assemble(circuit, lay, reg, br)
-    K_dc, b_dc, _ = _assemble(circuit, lay, reg, br, slow=True)
+    K_dc, b_dc, _ = _assemble(circuit, lay, reg,
+                              branch_currents(circuit, lay, reg, time, before, slow=True),
+                              slow=True)
     closed = [name for name, u in br.voltages.items() if u is not None]
     parents = forest(circuit, lay, closed, reg.c_node)
     K_x, b_x, M_x, T, Tinv = assemble(circuit, lay, br, parents, reg.r_series * reg.t_pulse,

@@ -18,7 +18,8 @@ import numpy as np
 import scipy.sparse as sp
 
 from ..errors import InitialStateError
-from ..model import (CAPACITOR, CCVS, INDUCTOR, RESISTOR, SWITCH, VCVS, VOLTAGE_SOURCE, Circuit)
+from ..model import (CAPACITOR, CCCS, CCVS, INDUCTOR, RESISTOR, SWITCH, VCCS, VCVS,
+                     VOLTAGE_SOURCE, Circuit, Part)
 from . import linsolve
 from .equations import Layout, System
 from .probes import voltage_row
@@ -69,8 +70,11 @@ def check_defined(circuit: Circuit) -> None:
                 f"the pre-step voltage of {part.name} is undefined: node {node!r} has no DC path "
                 f"to {circuit.ground!r} at 0-; give {part.name} an initial value",
                 file=circuit.source, part=part.name, field="initial", line=part.line)
-    raise InitialStateError(f"node {floating[0]!r} has no DC path to {circuit.ground!r} at 0-, "
-                            "so its pre-step voltage is undefined", file=circuit.source)
+    part = next(p for p in circuit.parts if floating[0] in p.nodes)
+    raise InitialStateError(f"node {floating[0]!r} has no DC path to {circuit.ground!r} at 0- "
+                            f"(its parts, such as {part.name}, conduct no DC current there), so "
+                            "its pre-step voltage is undefined",
+                            file=circuit.source, part=part.name, field="nodes", line=part.line)
 
 
 def _dc_matrix(circuit: Circuit, lay: Layout, pre: System):
@@ -116,21 +120,100 @@ def _voltage_loop(circuit: Circuit) -> str | None:
     return None
 
 
-def _solve(A: sp.csc_matrix, rhs: np.ndarray, circuit: Circuit) -> np.ndarray:
+def _held_group(circuit: Circuit) -> tuple[Part, list[str]] | None:
+    """(an inductor with ``initial``, the nodes it feeds) where its given current flows into a
+    group of nodes that reaches ground at 0- only through parts of fixed current (inductors with
+    ``initial``, current sources, vccs, cccs): KCL of the group then fixes that current, so a
+    given value contradicts it (or the group's voltage is undefined)."""
+    parent: dict[str, str] = {}
+    for node in circuit.nodes:
+        _find(parent, node)
+    for part in circuit.parts:
+        conducts = part.kind in (RESISTOR, VOLTAGE_SOURCE, VCVS, CCVS)
+        conducts |= part.kind == INDUCTOR and part.initial is None
+        conducts |= part.kind == CAPACITOR and part.initial is not None
+        if part.kind == SWITCH:
+            conducts = part.is_closed_before(0.0) or bool(part.off_resistance)
+        if conducts:
+            a, b = _find(parent, part.p), _find(parent, part.n)
+            if a != b:
+                parent[a] = b
+    ground = _find(parent, circuit.ground)
+    for part in circuit.parts:
+        if part.kind == INDUCTOR and part.initial is not None:
+            for node in part.nodes:
+                root = _find(parent, node)
+                if root != ground:
+                    return part, [n for n in circuit.nodes if _find(parent, n) == root]
+    return None
+
+
+#: a controlled source is blamed for a singular DC system when its nodes or control touch the
+#: unknowns of the null vector above this fraction of its largest component
+NULL_SHARE = 1e-3
+
+
+def _null_owner(circuit: Circuit, lay: Layout, A: sp.csc_matrix) -> Part | None:
+    """The controlled source most involved in the null vector of the (Ruiz-equilibrated) DC
+    matrix, else a part touching its largest unknown; None for large systems.
+
+    Equilibration: D. Ruiz, "A scaling algorithm to equilibrate both rows and columns norms in
+    matrices" (RAL-TR-2001-034), repeated square-root scalings by the row and column maxima.
+    """
+    if A.shape[0] > 400:
+        return None
+    B = np.abs(A.toarray())
+    r, c = np.ones(B.shape[0]), np.ones(B.shape[0])
+    for _ in range(20):
+        S = r[:, None] * B * c[None, :]
+        r /= np.sqrt(np.where(S.max(axis=1) > 0, S.max(axis=1), 1.0))
+        c /= np.sqrt(np.where(S.max(axis=0) > 0, S.max(axis=0), 1.0))
+    v = np.abs(np.linalg.svd(r[:, None] * A.toarray() * c[None, :])[2][-1] * c)
+    names = list(lay.nodes) + list(lay.inductors) + list(lay.carriers)
+    involved = {names[i] for i in np.flatnonzero(v[:len(names)] > NULL_SHARE * v.max())}
+    for part in circuit.parts:
+        if part.kind in (VCVS, VCCS, CCVS, CCCS):
+            touched = set(part.nodes) | ({part.name} if part.name in lay.part_index else set())
+            touched |= set(part.control) if isinstance(part.control, tuple) else {part.control}
+            if touched & involved:
+                return part
+    top = names[int(np.argmax(v[:len(names)]))] if names else None
+    return next((p for p in circuit.parts if top in p.nodes or p.name == top), None)
+
+
+def _solve(A: sp.csc_matrix, rhs: np.ndarray, circuit: Circuit, lay: Layout) -> np.ndarray:
     try:
         return linsolve.solve(A, rhs)
     except linsolve.Singular:
-        culprit = _voltage_loop(circuit)
-        if culprit is None:
-            raise InitialStateError("the DC state at 0- is undefined (the DC equations are "
-                                    "singular)", file=circuit.source) from None
+        pass
+    culprit = _voltage_loop(circuit)
+    if culprit is not None:
         part = circuit.part(culprit)
         raise InitialStateError(
             f"{culprit} closes a loop of parts that fix voltages at 0- (voltage sources, closed "
             "switches, inductors without an initial current, capacitors with an initial "
             "voltage): the loop's current is undefined or its voltages contradict each other; "
             "give the inductors initial values or remove the conflict",
-            file=circuit.source, part=culprit, line=part.line) from None
+            file=circuit.source, part=culprit, line=part.line)
+    held = _held_group(circuit)
+    if held is not None:
+        part, nodes = held
+        raise InitialStateError(
+            f"the initial current of {part.name} flows into node(s) {', '.join(nodes)}, which "
+            "reach ground at 0- only through parts of fixed current (inductors with an initial "
+            "current, current sources, vccs, cccs): Kirchhoff's current law there fixes the "
+            f"current of {part.name}, so a given value contradicts it; remove its initial value "
+            "or give the nodes a DC path",
+            file=circuit.source, part=part.name, field="initial", line=part.line)
+    part = _null_owner(circuit, lay, A)
+    controlled = part is not None and part.kind in (VCVS, VCCS, CCVS, CCCS)
+    raise InitialStateError(
+        "the DC equations at 0- are singular (the pre-step state is undefined or its "
+        + (f"equations contradict each other); check the gain and control of {part.name}"
+           if controlled else "equations contradict each other)"),
+        file=circuit.source, part=None if part is None else part.name,
+        field=("gain" if controlled else "nodes") if part is not None else None,
+        line=None if part is None else part.line)
 
 
 def _check_consistent(circuit: Circuit, pre: System, y: np.ndarray, i_scale: float) -> None:
@@ -157,7 +240,7 @@ def initial_state(circuit: Circuit, lay: Layout, pre: System) -> np.ndarray:
     """
     check_defined(circuit)
     A, rhs, held = _dc_matrix(circuit, lay, pre)
-    x = _solve(A, rhs, circuit)
+    x = _solve(A, rhs, circuit, lay)
     y = x[:lay.n]
     i_scale = max([abs(circuit.part(nm).initial or 0.0) for nm in lay.inductors]
                   + [float(np.max(np.abs(y[len(lay.nodes):]), initial=0.0)), 1e-30])

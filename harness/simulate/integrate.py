@@ -92,7 +92,8 @@ class IntervalRun:
         dense: continuous z over [0, end] (scipy OdeSolution in local time), or None.
         y_next: full state at the next event, shape (n,), or None (last interval or failure).
         end: local time where the held continuation stopped (s).
-        status: ``settled``, ``horizon`` (not settled in time), ``blow-up`` or ``failed``.
+        status: ``settled``, ``horizon`` (not settled in time), ``blow-up``, ``failed`` (the
+            integrator broke down) or ``budget`` (the work budget ran out).
         settle_time: local time at which settling was detected, or None.
         stats: integrator counters.
     """
@@ -166,8 +167,11 @@ class _Settle:
 
 def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: float, rtol: float,
          atol: np.ndarray, settle: _Settle | None, first_step: float | None = None,
-         max_step: float = np.inf):
-    """Step Radau on z' = J z + r from s0 to s_bound; returns (s, z, interpolants, status, stats)."""
+         max_step: float = np.inf, budget: tuple[float, float] = (np.inf, np.inf)):
+    """Step Radau on z' = J z + r from s0 to s_bound; returns (s, z, interpolants, status, stats).
+
+    ``budget`` = (steps, right-hand-side evaluations) this run may still use; past either the
+    status is ``budget``."""
     jac = system.jac
 
     def fun(_t, z):
@@ -182,8 +186,16 @@ def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: floa
         if len(interps) >= MAX_STEPS:
             status = "horizon"
             break
-        solver.step()
-        if solver.status == "failed":
+        if len(interps) >= budget[0] or solver.nfev >= budget[1]:
+            status = "budget"
+            break
+        try:  # an overflowing (e.g. unstable regularised) system: a failure, not a crash
+            with np.errstate(all="ignore"):
+                solver.step()
+        except (ValueError, ArithmeticError, np.linalg.LinAlgError):
+            status = "failed"
+            break
+        if solver.status == "failed" or not np.all(np.isfinite(solver.y)):
             status = "failed"
             break
         ss.append(solver.t)
@@ -202,7 +214,8 @@ def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: floa
 def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float | None,
                        horizon: float, rtol: float, atol: np.ndarray, pulse_end: float,
                        earliest: float, dynamic: np.ndarray, window: float,
-                       first_step: float) -> IntervalRun:
+                       first_step: float,
+                       budget: tuple[float, float] = (np.inf, np.inf)) -> IntervalRun:
     """Integrate interval k from y(t_k-) = y0; see the module docstring.
 
     Args:
@@ -221,6 +234,8 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
             there, with steps of at most window / WINDOW_STEPS.
         first_step: the first step (s), a fraction of the pulse width (Radau's own choice from
             the initial slope can step over a pulse its error estimate does not see).
+        budget: (accepted steps, right-hand-side evaluations) the interval may use in all its
+            runs; past either the run stops with status ``budget``.
     """
     red = system.reduction
     origin_full, consistent, origin, r = _origin(system, y0, atol / rtol)
@@ -233,10 +248,11 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
     # 1. the pulse and the post-pulse fit window, resolved with small first and bounded steps
     bound = window if length is None else min(window, length)
     status = acc.add(*_run(system, r, z0, 0.0, bound, rtol, atol, settle, first_step=first_step,
-                           max_step=bound / WINDOW_STEPS))
+                           max_step=bound / WINDOW_STEPS, budget=acc.left(budget)))
     # 2. on to the next event
     if status == "reached" and length is not None and acc.s[-1] < length:
-        status = acc.add(*_run(system, r, acc.z[-1], acc.s[-1], length, rtol, atol, None))
+        status = acc.add(*_run(system, r, acc.z[-1], acc.s[-1], length, rtol, atol, None,
+                               budget=acc.left(budget)))
     if status == "reached" and length is not None:
         y_next = np.asarray(red.lift @ (origin + acc.z[-1])).ravel() + red.lift_c
         settled = any(settle.add(s, z) == "settled" for s, z in zip(acc.s[1:], acc.z[1:])
@@ -247,7 +263,7 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
     if status == "reached" and not settled:
         start = acc.s[-1]
         status = acc.add(*_run(system, r, acc.z[-1], start, max(horizon, 2.0 * start), rtol,
-                               atol, settle))
+                               atol, settle, budget=acc.left(budget)))
         settled = status == "settled"
         if status == "reached":
             status = "horizon"
@@ -274,6 +290,10 @@ class _Accumulator:
     def __init__(self, z0: np.ndarray) -> None:
         self.s, self.z, self.interps = [0.0], [z0], []
         self.stats = IntervalStats()
+
+    def left(self, budget: tuple[float, float]) -> tuple[float, float]:
+        """What remains of (steps, evaluations) ``budget`` after the runs so far."""
+        return budget[0] - self.stats.steps, budget[1] - self.stats.nfev
 
     def add(self, ss, zs, interps, status, stats) -> str:
         self.s += ss[1:]

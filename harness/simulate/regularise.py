@@ -130,6 +130,37 @@ def _node_rc_time(circuit: Circuit) -> float:
     return min(times, default=math.inf)
 
 
+def loop_capacitance(circuit: Circuit) -> float:
+    """F: the total capacitance of the capacitors that lie in a loop of carriers (voltage
+    sources, vcvs, ccvs, switches without an on-resistance, whatever their state) and other
+    capacitors.  Only these can carry a pulse through r_s alone, of width ~ r_s C; a capacitor
+    with a resistance in every loop sees r_s in series with it and no pulse of its own.
+    (Bounding r_s by the total capacitance instead would tie the pulse of a 1 pF loop to a 1 mF
+    capacitor behind a resistor, and with the floor on r_s push the pulse up to the fastest
+    real mode.)"""
+    edges = [p for p in circuit.parts if p.kind in (VOLTAGE_SOURCE, VCVS, CCVS) or (
+        p.kind == SWITCH and not p.on_resistance) or (p.kind == CAPACITOR and p.value)]
+    total = 0.0
+    for cap in edges:
+        if cap.kind != CAPACITOR:
+            continue
+        parent: dict[str, str] = {}
+
+        def find(x: str) -> str:
+            parent.setdefault(x, x)
+            while parent[x] != x:
+                parent[x] = parent[parent[x]]
+                x = parent[x]
+            return x
+
+        for part in edges:
+            if part is not cap:
+                parent[find(part.p)] = find(part.n)
+        if find(cap.p) == find(cap.n):
+            total += abs(cap.value)
+    return total
+
+
 def _time_scales(circuit: Circuit, v: _Values) -> tuple[float, float]:
     """(t_fast, t_slow) in s from part values and event gaps (see the package docstring)."""
     r_sum = sum(v.resistances)
@@ -234,13 +265,14 @@ def choose(circuit: Circuit, pulse_ratio: float | None = None,
     t_pulse = eps * t_fast
     r_sum = sum(v.resistances)
     r_cands = [eps * min(v.resistances)] if v.resistances else []
-    if v.capacitances:  # r_s C_sum <= t_pulse / 4 keeps a capacitor loop's pulse over-damped
-        r_cands.append(t_pulse / (4.0 * sum(v.capacitances)))
+    c_loop = loop_capacitance(circuit)
+    if c_loop:  # r_s C_loop <= t_pulse / 4 keeps a capacitor loop's pulse over-damped
+        r_cands.append(t_pulse / (4.0 * c_loop))
     r_series = min(r_cands, default=eps * 1.0)
     if v.resistances:  # keep 1/r_s within double precision of 1/R
         r_series = max(r_series, R_SERIES_FLOOR * min(v.resistances))
-    if v.capacitances:  # the pulse lasts up to 4 r_s C_sum where the floor applied
-        t_pulse = max(t_pulse, 4.0 * r_series * sum(v.capacitances))
+    if c_loop:  # the pulse lasts up to 4 r_s C_loop where the floor applied
+        t_pulse = max(t_pulse, 4.0 * r_series * c_loop)
     r_shunt = math.inf
     if v.inductances:
         r_shunt = max(r_sum / eps, max(v.inductances) / t_pulse)

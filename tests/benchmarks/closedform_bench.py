@@ -8,6 +8,7 @@ coordinates (see harness/closedform/symmetric.py); for reference also a dense no
 
 from __future__ import annotations
 
+from pathlib import Path
 import numpy as np
 import scipy.linalg as sla
 
@@ -18,6 +19,8 @@ from harness.model import SWITCH
 
 from .circuits import random_rc, rc_ladder, switched_rc
 from .timing import growth_exponent, median_time, repeats_for
+
+ROOT = Path(__file__).resolve().parents[2]
 
 
 def pencil(circuit):
@@ -153,7 +156,7 @@ def solve_profile(n: int, top: int = 8) -> tuple[float, list[tuple[str, float]]]
     stats = pstats.Stats(prof)
     rows = []
     for (file, line, name), (_cc, _nc, tt, _ct, _callers) in stats.stats.items():
-        short = file.split("site-packages/")[-1].split("/work/main/")[-1]
+        short = file.split("site-packages/")[-1].replace(str(ROOT) + "/", "")
         rows.append((f"{short}:{name}", tt))
     rows.sort(key=lambda r: -r[1])
     return stats.total_tt, rows[:top]
