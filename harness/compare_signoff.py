@@ -18,7 +18,8 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from . import tolerances as tol
-from .model import SIGNOFF_FIELDS, Expectation
+from .model import (CURRENT_SOURCE, RESISTOR, SIGNOFF_FIELDS, SWITCH, THROUGH, VOLTAGE_SOURCE,
+                    Expectation, Probe)
 from .outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
 from .results import DominantTau, Features
 from .units import format_si
@@ -199,11 +200,52 @@ def peak_hint(hand: float, pe, fe: Features, unit: str, relative: float, scale: 
 
 
 # ------------------------------------------------------------------------------- energy
-def _energy_scale(ctx: "CheckContext", value: float | None) -> float:
+def _source_magnitudes(circuit) -> tuple[float, float]:
+    """(largest independent voltage source value in V, largest current source value in A)."""
+    volts, amps = [0.0], [0.0]
+    for p in circuit.parts:
+        if p.kind in (VOLTAGE_SOURCE, CURRENT_SOURCE):
+            mags = [abs(p.value or 0.0)] + [abs(v) for _, v in p.steps]
+            (volts if p.kind == VOLTAGE_SOURCE else amps).extend(mags)
+    return max(volts), max(amps)
+
+
+def _dissipation_scale(ctx: "CheckContext", part_name: str) -> float:
+    """max(R I^2, R_min I_f^2) * T in J, with R the part's resistance in interval k (a switch's
+    on- or off-resistance, 0 for ideal parts), I the largest current it carries at any event,
+    I_f = ``tol.CURRENT_NOISE`` times the circuit's current scale V_s / R_min + I_s (largest
+    source voltage and current, smallest resistance) and T the interval's τ scale (a tenth of
+    the exact span: its slowest τ)."""
+    part = ctx.circuit.part(part_name)
+    resistance = 0.0
+    if part.kind == RESISTOR:
+        resistance = abs(part.value)
+    elif part.kind == SWITCH:
+        closed = part.is_closed(ctx.circuit.events[ctx.k])
+        resistance = abs((part.on_resistance if closed else part.off_resistance) or 0.0)
+    resistances = [abs(p.value) for p in ctx.circuit.parts if p.kind == RESISTOR and p.value]
+    resistances += [resistance] if resistance else []
+    if not resistances:
+        return 0.0
+    from .compare import probe_scale
+    current = probe_scale(ctx.circuit, ctx.exact, Probe(THROUGH, (part_name,)))
+    v_s, i_s = _source_magnitudes(ctx.circuit)
+    r_min = min(resistances)
+    noise = tol.CURRENT_NOISE * (v_s / r_min + i_s)
+    start, end = ctx.exact.span(ctx.k)
+    return max(resistance * current ** 2, r_min * noise ** 2) * (end - start) / 10.0
+
+
+def _energy_scale(ctx: "CheckContext", value: float | None, part_name: str | None = None) -> float:
+    """The circuit's energy scale in J: the largest stored energy at any event, the energy
+    itself and, for a part, its dissipation scale (``_dissipation_scale``), so that a circuit
+    without storage does not judge rounding noise on a zero energy."""
     stored = [0.0 if value is None else abs(value)]
     for k in range(len(ctx.circuit.events)):
         j = ctx.exact.jump(k)
         stored += [abs(v) for v in list(j.stored_before.values()) + list(j.stored_after.values())]
+    if part_name is not None:
+        stored.append(_dissipation_scale(ctx, part_name))
     return max(stored + [1e-300])
 
 
@@ -212,7 +254,7 @@ def compare_energy(exp: Expectation, fe: Features, ctx: "CheckContext") -> Field
     want = exp.energy
     ee = ctx.exact.energy(want.part, ctx.k)
     en = _call(ctx.numeric, "energy", want.part, ctx.k)
-    floor = tol.ENERGY_FLOOR * _energy_scale(ctx, ee.energy)
+    floor = tol.ENERGY_FLOOR * _energy_scale(ctx, ee.energy, want.part)
     verdict, message = PASS, ""
     numeric = None if en is None else en.energy
     if en is not None and not tol.agree(ee.energy, numeric, tol.ENERGY_ENGINE_RELATIVE, floor):

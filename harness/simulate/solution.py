@@ -15,6 +15,7 @@ from .integrate import IntervalRun, IntervalStats
 from .linsolve import operating_point
 from .probes import probe_offset, probe_row, voltage_row
 from .regularise import Regularisation
+from . import signoff
 
 #: an impulsive charge below this fraction of (total capacitance x voltage scale) is noise
 CHARGE_FLOOR = 1e-9
@@ -185,14 +186,38 @@ class NumericSolution:
         times = np.asarray(times, dtype=float)
         if k >= len(self.runs):  # the integration stopped before this interval
             return np.full(times.shape, np.nan)
+        return self.held(probe, k, times - self._t(k))
+
+    def held(self, probe: Probe, k: int, local: np.ndarray) -> np.ndarray:
+        """``waveform`` at local times ``local`` = t - t_k (s), shape (n,) (interval k must
+        have been integrated)."""
+        local = np.asarray(local, dtype=float)
         run = self.runs[k]
-        local = times - self._t(k)
         w, _ = self._rows(probe, k)
         out = values(run, w, self._offset(probe, k), local)
         early = local < self.regularisation.post_pulse
         if np.any(early):
             out[early] = self._post(probe, k).value(local[early])[0]
         return out
+
+    def probe_terms(self, probe: Probe, k: int) -> tuple[np.ndarray, float]:
+        """(w, offset) with the probe's value w . z + offset over interval k's deviations z."""
+        w, _ = self._rows(probe, k)
+        return w, self._offset(probe, k)
+
+    # ----- sign-off quantities (issue 7; harness.results.SignoffSolution) ---------------------
+    def crossing(self, probe: Probe, k: int, level: float, direction: str):
+        """First crossing of ``level`` after event k (``results.CrossingValue``; see
+        harness.simulate.signoff), or None where interval k was not integrated."""
+        return signoff.crossing(self, probe, k, level, direction)
+
+    def peak(self, probe: Probe, k: int):
+        """Largest magnitude of ``probe`` in interval k (``results.PeakValue``), or None."""
+        return signoff.peak(self, probe, k)
+
+    def energy(self, part: str, k: int):
+        """Energy dissipated in ``part`` over interval k (``results.EnergyValue``), or None."""
+        return signoff.energy(self, part, k)
 
     def samples(self, probe: Probe, k: int) -> tuple[np.ndarray, np.ndarray]:
         """The raw integration points of interval k: (absolute times, probe values), pulse
