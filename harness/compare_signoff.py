@@ -236,7 +236,7 @@ def _dissipation_scale(ctx: "CheckContext", part_name: str) -> float:
     return max(resistance * current ** 2, r_min * noise ** 2) * (end - start) / 10.0
 
 
-def _energy_scale(ctx: "CheckContext", value: float | None, part_name: str | None = None) -> float:
+def energy_scale(ctx: "CheckContext", value: float | None, part_name: str | None = None) -> float:
     """The circuit's energy scale in J: the largest stored energy at any event, the energy
     itself and, for a part, its dissipation scale (``_dissipation_scale``), so that a circuit
     without storage does not judge rounding noise on a zero energy."""
@@ -254,7 +254,7 @@ def compare_energy(exp: Expectation, fe: Features, ctx: "CheckContext") -> Field
     want = exp.energy
     ee = ctx.exact.energy(want.part, ctx.k)
     en = _call(ctx.numeric, "energy", want.part, ctx.k)
-    floor = tol.ENERGY_FLOOR * _energy_scale(ctx, ee.energy, want.part)
+    floor = tol.ENERGY_FLOOR * energy_scale(ctx, ee.energy, want.part)
     verdict, message = PASS, ""
     numeric = None if en is None else en.energy
     if en is not None and not tol.agree(ee.energy, numeric, tol.ENERGY_ENGINE_RELATIVE, floor):
