@@ -23,6 +23,7 @@ whose entries are O(1) when part values are typical of one another and whose mod
 
 from __future__ import annotations
 
+from functools import partial
 import math
 import weakref
 from dataclasses import dataclass
@@ -276,6 +277,16 @@ def scaled(g: np.ndarray, c: np.ndarray, b: np.ndarray, layout: Layout,
     return e[:, None] * g * d[None, :], e[:, None] * c * d[None, :] / scale.t, e * b
 
 
+def find_root(parent: dict, x):
+    """The representative of ``x`` in ``parent`` (node -> parent; new nodes join as their own
+    set), halving the path on the way (Tarjan's union-find)."""
+    parent.setdefault(x, x)
+    while parent[x] != x:
+        parent[x] = parent[parent[x]]
+        x = parent[x]
+    return x
+
+
 def capacitor_null_basis(circuit: Circuit, layout: Layout) -> np.ndarray:
     """Orthonormal basis of the null space of C (and of C~), shape (n, m), built from the graph.
 
@@ -286,11 +297,7 @@ def capacitor_null_basis(circuit: Circuit, layout: Layout) -> np.ndarray:
     """
     parent = {n: n for n in circuit.nodes}
 
-    def find(x: str) -> str:
-        while parent[x] != x:
-            parent[x] = parent[parent[x]]
-            x = parent[x]
-        return x
+    find = partial(find_root, parent)
 
     for part in circuit.parts:
         if part.kind == CAPACITOR:
@@ -321,11 +328,7 @@ def floating_groups(circuit: Circuit, connects: Callable[[Part], bool]) -> list[
     """
     parent = {n: n for n in circuit.nodes}
 
-    def find(x: str) -> str:
-        while parent[x] != x:
-            parent[x] = parent[parent[x]]
-            x = parent[x]
-        return x
+    find = partial(find_root, parent)
 
     for part in circuit.parts:
         if connects(part):

@@ -27,6 +27,7 @@ engine's reference time; the zero cluster's growth terms enter with r = 0).  On 
 
 from __future__ import annotations
 
+from functools import partial
 import math
 from dataclasses import dataclass
 
@@ -36,6 +37,7 @@ from scipy.optimize import brentq
 from ..model import CAPACITOR, FALLING, INDUCTOR, RESISTOR, RISING, SWITCH, Probe, THROUGH
 from ..results import CrossingValue, DominantTau, EnergyValue, PeakValue
 from .features import RawEvent
+from .mna import find_root
 
 #: grid: geometric part starts at this fraction of the fastest time constant
 GRID_START = 1e-6
@@ -358,11 +360,7 @@ def coupled_storage(circuit, probe: Probe, closed: dict) -> set[str] | None:
     from ..model import CURRENT_CONTROLLED, CURRENT_SOURCE, VOLTAGE_CONTROLLED, VOLTAGE_SOURCE
     parent: dict[str, str] = {n: n for n in circuit.nodes}
 
-    def find(x):
-        while parent[x] != x:
-            parent[x] = parent[parent[x]]
-            x = parent[x]
-        return x
+    find = partial(find_root, parent)
 
     def join(a, b):
         parent[find(a)] = find(b)

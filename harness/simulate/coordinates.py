@@ -22,6 +22,7 @@ nothing large.
 
 from __future__ import annotations
 
+from functools import partial
 import math
 from dataclasses import dataclass
 
@@ -31,6 +32,7 @@ import scipy.sparse.linalg as spla
 
 from ..model import CAPACITOR, Circuit
 from .equations import SPARSE_ABOVE, Affine, Branches, Layout
+from .nodesets import find_root
 
 Path = dict[int, int]  # coordinate index -> integer multiplier
 
@@ -76,12 +78,7 @@ def forest(circuit: Circuit, lay: Layout, closed: list[str], parasitic: dict[str
     edges += [(n, circuit.ground) for n, c in parasitic.items() if c > 0]
     parent_uf: dict[str, str] = {}
 
-    def find(x: str) -> str:
-        parent_uf.setdefault(x, x)
-        while parent_uf[x] != x:
-            parent_uf[x] = parent_uf[parent_uf[x]]
-            x = parent_uf[x]
-        return x
+    find = partial(find_root, parent_uf)
 
     adjacency: dict[str, list[str]] = {}
     for a, b in edges:
@@ -145,11 +142,7 @@ def _null_directions(circuit: Circuit, lay: Layout, parasitic: dict[str, float])
             out.append(v)
     parent = {n: n for n in circuit.nodes}
 
-    def find(x: str) -> str:
-        while parent[x] != x:
-            parent[x] = parent[parent[x]]
-            x = parent[x]
-        return x
+    find = partial(find_root, parent)
 
     for p in caps:
         parent[find(p.p)] = find(p.n)

@@ -18,6 +18,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from ..errors import InitialStateError
+from .nodesets import find_root
 from ..model import (CAPACITOR, CCCS, CCVS, INDUCTOR, RESISTOR, SWITCH, VCCS, VCVS,
                      VOLTAGE_SOURCE, Circuit, Part)
 from . import linsolve
@@ -29,19 +30,11 @@ from .probes import voltage_row
 CONTRADICTION = 1e-3
 
 
-def _find(parent: dict, x):
-    parent.setdefault(x, x)
-    while parent[x] != x:
-        parent[x] = parent[parent[x]]
-        x = parent[x]
-    return x
-
-
 def _dc_paths(circuit: Circuit) -> dict[str, str]:
     """Union-find roots of nodes joined by parts that conduct at DC at 0-."""
     parent: dict[str, str] = {}
     for node in circuit.nodes:
-        _find(parent, node)
+        find_root(parent, node)
     for part in circuit.parts:
         conducts = part.kind in (RESISTOR, VOLTAGE_SOURCE, VCVS, CCVS, INDUCTOR)
         if part.kind == SWITCH:
@@ -49,10 +42,10 @@ def _dc_paths(circuit: Circuit) -> dict[str, str]:
         if part.kind == CAPACITOR:
             conducts = part.initial is not None
         if conducts:
-            a, b = _find(parent, part.p), _find(parent, part.n)
+            a, b = find_root(parent, part.p), find_root(parent, part.n)
             if a != b:
                 parent[a] = b
-    return {node: _find(parent, node) for node in circuit.nodes}
+    return {node: find_root(parent, node) for node in circuit.nodes}
 
 
 def check_defined(circuit: Circuit) -> None:
@@ -113,7 +106,7 @@ def _voltage_loop(circuit: Circuit) -> str | None:
                   and not part.on_resistance)
         if not fixes:
             continue
-        a, b = _find(parent, part.p), _find(parent, part.n)
+        a, b = find_root(parent, part.p), find_root(parent, part.n)
         if a == b:
             return part.name
         parent[a] = b
@@ -127,7 +120,7 @@ def _held_group(circuit: Circuit) -> tuple[Part, list[str]] | None:
     given value contradicts it (or the group's voltage is undefined)."""
     parent: dict[str, str] = {}
     for node in circuit.nodes:
-        _find(parent, node)
+        find_root(parent, node)
     for part in circuit.parts:
         conducts = part.kind in (RESISTOR, VOLTAGE_SOURCE, VCVS, CCVS)
         conducts |= part.kind == INDUCTOR and part.initial is None
@@ -135,16 +128,16 @@ def _held_group(circuit: Circuit) -> tuple[Part, list[str]] | None:
         if part.kind == SWITCH:
             conducts = part.is_closed_before(0.0) or bool(part.off_resistance)
         if conducts:
-            a, b = _find(parent, part.p), _find(parent, part.n)
+            a, b = find_root(parent, part.p), find_root(parent, part.n)
             if a != b:
                 parent[a] = b
-    ground = _find(parent, circuit.ground)
+    ground = find_root(parent, circuit.ground)
     for part in circuit.parts:
         if part.kind == INDUCTOR and part.initial is not None:
             for node in part.nodes:
-                root = _find(parent, node)
-                if root != ground:
-                    return part, [n for n in circuit.nodes if _find(parent, n) == root]
+                group = find_root(parent, node)
+                if group != ground:
+                    return part, [n for n in circuit.nodes if find_root(parent, n) == group]
     return None
 
 

@@ -7,10 +7,12 @@ and why it is safe).  All values are in SI base units.
 
 from __future__ import annotations
 
+from functools import partial
 import math
 from dataclasses import dataclass, field
 from typing import Mapping
 
+from .nodesets import find_root
 from ..model import (CAPACITOR, CCCS, CCVS, INDUCTOR, RESISTOR, SWITCH, VCCS, VCVS,
                      VOLTAGE_SOURCE, Circuit)
 
@@ -146,12 +148,7 @@ def loop_capacitance(circuit: Circuit) -> float:
             continue
         parent: dict[str, str] = {}
 
-        def find(x: str) -> str:
-            parent.setdefault(x, x)
-            while parent[x] != x:
-                parent[x] = parent[parent[x]]
-                x = parent[x]
-            return x
+        find = partial(find_root, parent)
 
         for part in edges:
             if part is not cap:
@@ -187,12 +184,7 @@ def _groups(circuit: Circuit) -> dict[str, tuple[float, float, int]]:
     do not reach ground (a group is a set of nodes joined by capacitors)."""
     parent: dict[str, str] = {}
 
-    def find(x: str) -> str:
-        parent.setdefault(x, x)
-        while parent[x] != x:
-            parent[x] = parent[parent[x]]
-            x = parent[x]
-        return x
+    find = partial(find_root, parent)
 
     caps = [p for p in circuit.parts if p.kind == CAPACITOR and p.value]
     for part in caps:
@@ -230,11 +222,7 @@ def unanchored(circuit: Circuit) -> set[str]:
     for time, before in [(0.0, True)] + [(t, False) for t in circuit.events]:
         parent = {n: n for n in circuit.nodes}
 
-        def find(x: str) -> str:
-            while parent[x] != x:
-                parent[x] = parent[parent[x]]
-                x = parent[x]
-            return x
+        find = partial(find_root, parent)
 
         for part in circuit.parts:
             if _conducts(part, time, before):
