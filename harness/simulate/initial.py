@@ -224,6 +224,16 @@ def _check_consistent(circuit: Circuit, pre: System, y: np.ndarray, i_scale: flo
                 file=circuit.source, part=part.name, field="initial", line=part.line)
 
 
+def _resistive_current(circuit: Circuit, v_nodes: np.ndarray) -> float:
+    """A current scale in A: the largest node voltage or voltage source over the largest
+    resistance (the smallest current the circuit's resistors carry at that voltage), so that
+    rounding noise in a shunt is not read as a contradiction where no inductor has a current."""
+    res = [abs(p.value) for p in circuit.parts if p.kind == RESISTOR and p.value]
+    volts = [abs(p.value or 0.0) for p in circuit.parts if p.kind == VOLTAGE_SOURCE]
+    volts.append(float(np.max(np.abs(v_nodes), initial=0.0)))
+    return max(volts) / max(res) if res else 0.0
+
+
 def initial_state(circuit: Circuit, lay: Layout, pre: System) -> np.ndarray:
     """The state y(0-), shape (n,), for the pre-step system ``pre``.
 
@@ -236,6 +246,7 @@ def initial_state(circuit: Circuit, lay: Layout, pre: System) -> np.ndarray:
     x = _solve(A, rhs, circuit, lay)
     y = x[:lay.n]
     i_scale = max([abs(circuit.part(nm).initial or 0.0) for nm in lay.inductors]
-                  + [float(np.max(np.abs(y[len(lay.nodes):]), initial=0.0)), 1e-30])
+                  + [float(np.max(np.abs(y[len(lay.nodes):]), initial=0.0)),
+                     _resistive_current(circuit, y[:len(lay.nodes)]), 1e-30])
     _check_consistent(circuit, pre, y, i_scale)
     return y
