@@ -175,6 +175,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--quick", action="store_true", help="smaller sizes, fewer repeats")
     parser.add_argument("--only", nargs="*", default=None,
                         help="sections: threads limits small features events numeric library alt")
+    parser.add_argument("--print-only", action="store_true",
+                        help="print the tables without rewriting RESULTS.md")
     args = parser.parse_args(argv)
     want = set(args.only) if args.only else {"threads", "limits", "small", "features",
                                               "events", "numeric", "library", "alt"}
@@ -195,7 +197,8 @@ def main(argv: list[str] | None = None) -> int:
     text = compose(parts, {"cpu": cpu_model(), "versions": versions(), "load": (load0,
                    load_average()), "seconds": time.perf_counter() - started,
                    "threads": os.environ.get("OPENBLAS_NUM_THREADS", "default")})
-    _write_section(text)
+    if not args.print_only:
+        _write_section(text)
     print(text)
     return 0
 
