@@ -19,8 +19,8 @@ import scipy.sparse as sp
 
 from ..errors import InitialStateError
 from .nodesets import find_root
-from ..model import (CAPACITOR, CCCS, CCVS, INDUCTOR, RESISTOR, SWITCH, VCCS, VCVS,
-                     VOLTAGE_SOURCE, Circuit, Part)
+from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, SWITCH, VCCS,
+                     VCVS, VOLTAGE_SOURCE, Circuit, Part)
 from . import linsolve
 from .equations import Layout, System
 from .probes import voltage_row
@@ -224,14 +224,18 @@ def _check_consistent(circuit: Circuit, pre: System, y: np.ndarray, i_scale: flo
                 file=circuit.source, part=part.name, field="initial", line=part.line)
 
 
-def _resistive_current(circuit: Circuit, v_nodes: np.ndarray) -> float:
-    """A current scale in A: the largest node voltage or voltage source over the largest
-    resistance (the smallest current the circuit's resistors carry at that voltage), so that
-    rounding noise in a shunt is not read as a contradiction where no inductor has a current."""
+def _resistive_current(circuit: Circuit) -> float:
+    """A current scale in A: the largest source voltage or capacitor initial voltage over the
+    largest resistance, plus the largest source current, so that rounding noise in a shunt is
+    not read as a contradiction where no inductor has a current.  Node voltages are left out:
+    a contradiction drives its current through the shunt and raises them with it."""
     res = [abs(p.value) for p in circuit.parts if p.kind == RESISTOR and p.value]
-    volts = [abs(p.value or 0.0) for p in circuit.parts if p.kind == VOLTAGE_SOURCE]
-    volts.append(float(np.max(np.abs(v_nodes), initial=0.0)))
-    return max(volts) / max(res) if res else 0.0
+    volts = [abs(v or 0.0) for p in circuit.parts if p.kind in (VOLTAGE_SOURCE, CAPACITOR)
+             for v in [p.value if p.kind == VOLTAGE_SOURCE else p.initial]
+             + [v for _, v in p.steps]]
+    amps = [abs(v or 0.0) for p in circuit.parts if p.kind == CURRENT_SOURCE
+            for v in [p.value] + [v for _, v in p.steps]]
+    return (max(volts, default=0.0) / max(res) if res else 0.0) + max(amps, default=0.0)
 
 
 def initial_state(circuit: Circuit, lay: Layout, pre: System) -> np.ndarray:
@@ -247,6 +251,6 @@ def initial_state(circuit: Circuit, lay: Layout, pre: System) -> np.ndarray:
     y = x[:lay.n]
     i_scale = max([abs(circuit.part(nm).initial or 0.0) for nm in lay.inductors]
                   + [float(np.max(np.abs(y[len(lay.nodes):]), initial=0.0)),
-                     _resistive_current(circuit, y[:len(lay.nodes)]), 1e-30])
+                     _resistive_current(circuit), 1e-30])
     _check_consistent(circuit, pre, y, i_scale)
     return y
