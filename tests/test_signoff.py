@@ -278,3 +278,14 @@ def test_dominant_estimate_reports_deviation_and_fifty_percent_time():
     assert dom.t50 == pytest.approx(ref, rel=1e-9)
     assert 0 < dom.deviation < 1
     assert sol.features(NODE("b"), 0).dominant_tau == pytest.approx(dom.tau, rel=1e-12)
+
+
+def test_dominant_fifty_percent_time_of_a_current_that_jumps_across_its_half_level():
+    """The input current of the ladder jumps from 0 to 1 A at the step and settles to 0: its
+    50 % time is sympy's root of i_R1 = (1 − v_a)/R1 = 0.5, not the jump at t = 0 (sympy exact)."""
+    t, va, _, _ = _ladder_sympy()
+    ref = float(sp.nsolve((1 - va) / 1 - sp.Rational(1, 2), t, 0.5, prec=30))
+    _, sol = _solve(LADDER)
+    dom = sol.dominant(THROUGH("R1"), 0)
+    assert dom.t50 == pytest.approx(ref, rel=1e-9)
+    assert dom.t50 > 0

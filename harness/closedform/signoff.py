@@ -29,7 +29,7 @@ from __future__ import annotations
 
 from functools import partial
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.optimize import brentq
@@ -162,13 +162,19 @@ def _sides(direction: str, lo: float, hi: float) -> bool:
 
 
 def _first_root(fun, grid: np.ndarray, values: np.ndarray, direction: str) -> float | None:
-    """The first bracketed root of ``fun`` on ``grid`` (with its ``values``) in ``direction``."""
-    for i in range(len(grid) - 1):
-        if _sides(direction, values[i], values[i + 1]):
-            if values[i + 1] == 0:
-                return float(grid[i + 1])
-            return _refine(fun, grid[i], grid[i + 1])
-    return None
+    """The first bracketed root of ``fun`` on ``grid`` (with its ``values``) in ``direction``
+    (the sign changes of all grid cells found at once, as ``_sides`` defines them)."""
+    lo, hi = values[:-1], values[1:]
+    up = (lo < 0) & (0 <= hi)
+    down = (lo > 0) & (0 >= hi)
+    mask = up if direction == RISING else down if direction == FALLING else up | down
+    hits = np.flatnonzero(mask)
+    if hits.size == 0:
+        return None
+    i = int(hits[0])
+    if values[i + 1] == 0:
+        return float(grid[i + 1])
+    return _refine(fun, grid[i], grid[i + 1])
 
 
 def _refine(fun, lo: float, hi: float) -> float:
@@ -336,7 +342,10 @@ def dominant(ex: ExpSum, terms: dict[str, float], rates: list[complex], end: flo
     grid = ex.grid(horizon)
     one = final + swing * np.exp(-grid / tau)
     deviation = float(np.max(np.abs(one - ex.value(grid))) / abs(swing)) if swing else None
-    t50 = crossing(ex, final + swing / 2, "either", horizon, final, None).time if swing else None
+    # the 50 % time of the settling from x(t_k+): a jump across the level is not that crossing
+    settling = replace(ex, before=None)
+    t50 = (crossing(settling, final + swing / 2, "either", horizon, final, None).time
+           if swing else None)
     return DominantTau(tau, dict(terms), msum, deviation, t50, tau * math.log(2))
 
 
