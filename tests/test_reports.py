@@ -322,6 +322,21 @@ def test_checks_without_trace_or_single_tau_still_report(tmp_path):
     assert "order 2, τ = 1 ms, 100 µs" in page and "node mid" in page
 
 
+def test_tables_leave_out_fields_that_carry_no_value(tmp_path):
+    """A τ with no hand value and no value from either engine (not first order) gets no row in
+    the HTML, Markdown and console tables; a field with a value keeps its row."""
+    fields = (_field("before", None, 0.0), _field("after", None, 0.0), _field("final", 1.0, 1.0),
+              _field("tau", None, None, None, unit="s"))
+    check = CheckResult(0, "node out", 0.0, PASS, fields, order=2, modes=(1e-3, 1e-4))
+    run = RunResult(files=(FileResult("two.toml", "two poles", PASS, checks=(check,)),))
+    report.write_all(run, tmp_path)
+    page = (tmp_path / "report.html").read_text(encoding="utf-8")
+    text = (tmp_path / "report.md").read_text(encoding="utf-8")
+    assert "<td>final</td>" in page and "<td>tau</td>" not in page
+    assert "| final |" in text and "| tau |" not in text
+    assert [f.name for f in report.common.shown_fields(check)] == ["before", "after", "final"]
+
+
 def test_unwritable_report_folder_raises_report_error(tmp_path):
     """A report folder that cannot be created raises ReportError, an OSError, naming the folder."""
     blocker = tmp_path / "afile"

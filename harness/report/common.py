@@ -150,6 +150,13 @@ def summary_line(run: RunResult) -> str:
             f"exit {code}: {EXIT_MEANING[code]}")
 
 
+def shown_fields(check: CheckResult) -> list[FieldResult]:
+    """The fields of ``check`` worth a table row: all but those with no hand value and no value
+    from either engine (τ of a probe that is not first order, say), which carry nothing."""
+    return [f for f in check.fields
+            if f.verdict != PASS or any(v is not None for v in (f.hand, f.closed_form, f.numeric))]
+
+
 def failing_fields(check: CheckResult) -> list[FieldResult]:
     """The fields of ``check`` whose verdict is not pass."""
     return [f for f in check.fields if f.verdict != PASS]

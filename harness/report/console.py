@@ -100,7 +100,7 @@ def _check_heading(check: CheckResult) -> str:
 def _check_table(check: CheckResult) -> str:
     with_hand = any(f.hand is not None for f in check.fields)
     rows = []
-    for field in check.fields:
+    for field in common.shown_fields(check):
         unit = common.field_unit(field)
         row = [common.field_label(field)]
         if with_hand:

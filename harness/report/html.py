@@ -153,7 +153,7 @@ def _field_table(check: CheckResult) -> str:
             "<th>tolerance</th><th>verdict</th>" + ("<th>formula</th>" if formulas else "")
             + "</tr>")
     rows = []
-    for field in check.fields:
+    for field in common.shown_fields(check):
         unit = common.field_unit(field)
         cls = "" if field.verdict == PASS else ' class="bad"'
         rows.append(f"<tr{cls}><td>{esc(common.field_label(field))}</td>"

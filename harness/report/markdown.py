@@ -91,7 +91,7 @@ def _check_section(check: CheckResult, plot: str | None) -> list[str]:
         out.append(f"- note: {escape(check.note)}")
     out += ["", "| field | hand | closed form | numeric | tolerance | verdict | formula |",
             "|---|---:|---:|---:|---:|---|---|"]
-    for field in check.fields:
+    for field in common.shown_fields(check):
         unit = common.field_unit(field)
         formula = escape(field.formula) if field.formula else ""
         out.append(f"| {escape(common.field_label(field))} | "
