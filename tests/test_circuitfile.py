@@ -51,6 +51,19 @@ def test_bad_file(path):
     assert "Traceback" not in str(err)
 
 
+def test_file_that_is_not_utf8_names_the_line(tmp_path):
+    """A Latin-1 µ (byte 0xb5) where TOML requires UTF-8 (TOML 1.0 spec) is an InputError naming
+    line 3 and UTF-8.  Written here rather than kept in tests/bad so that every stored file of
+    the project reads as UTF-8."""
+    path = tmp_path / "not_utf8.toml"
+    path.write_bytes(b'# a Latin-1 byte where UTF-8 is required\n\ntitle = "latin-1 \xb5"\n'
+                     b'[parts]\nR1 = { kind = "resistor", nodes = ["a", "gnd"], value = "1k" }\n')
+    with pytest.raises(errors.InputError) as caught:
+        read_circuit(path)
+    assert caught.value.line == 3 and "UTF-8" in caught.value.message
+    assert caught.value.file == str(path)
+
+
 GOOD = '''
 title = "Good: every kind"
 ground = "0"
