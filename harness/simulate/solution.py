@@ -16,6 +16,7 @@ from .linsolve import operating_point
 from .probes import probe_offset, probe_row, voltage_row
 from .regularise import Regularisation
 from . import signoff
+from .dominant import dominant as dominant_tau
 
 #: an impulsive charge below this fraction of (total capacitance x voltage scale) is noise
 CHARGE_FLOOR = 1e-9
@@ -218,6 +219,15 @@ class NumericSolution:
     def energy(self, part: str, k: int):
         """Energy dissipated in ``part`` over interval k (``results.EnergyValue``), or None."""
         return signoff.energy(self, part, k)
+
+    def dominant(self, probe: Probe, k: int):
+        """The numerical engine's zero-value time-constant estimate of ``probe`` in interval k
+        and its distance from the integrated waveform (``results.DominantTau``; see
+        harness.simulate.dominant), or None where interval k was not integrated."""
+        key = ("dominant", probe, k)
+        if key not in self._cache:
+            self._cache[key] = dominant_tau(self, probe, k)
+        return self._cache[key]
 
     def samples(self, probe: Probe, k: int) -> tuple[np.ndarray, np.ndarray]:
         """The raw integration points of interval k: (absolute times, probe values), pulse
