@@ -241,11 +241,29 @@ def energy_scale(ctx: "CheckContext", value: float | None, part_name: str | None
     itself and, for a part, its own dissipation scale (``_dissipation_scale``: R I^2 T, at least
     the rounding-noise floor R_min I_f^2 T), so that a part carrying only rounding noise is not
     judged on it.  The circuit's stored energies are not part of it: a 10 mJ bleed beside a
-    400 V DC link storing 50 J is judged on its own 10 mJ, not on a floor of 1e-6 x 50 J."""
+    400 V DC link storing 50 J is judged on its own 10 mJ, not on a floor of 1e-6 x 50 J.  An
+    ideal closed switch has no R I^2 T: its scale is the energy stored at the event, which
+    bounds the jump loss it can carry (the numerical engine's pulse loss rounds at ~1e-21 J)."""
     scales = [0.0 if value is None else abs(value)]
     if part_name is not None:
         scales.append(_dissipation_scale(ctx, part_name))
+        if _ideal_switch(ctx, part_name):
+            scales += _stored_at_event(ctx)
     return max(scales + [1e-300])
+
+
+def _ideal_switch(ctx: "CheckContext", part_name: str) -> bool:
+    """Whether the part is a switch with no resistance in interval k (closed and ideal)."""
+    part = ctx.circuit.part(part_name)
+    return (part.kind == SWITCH and part.is_closed(ctx.circuit.events[ctx.k])
+            and not part.on_resistance)
+
+
+def _stored_at_event(ctx: "CheckContext") -> list[float]:
+    """Stored energies (J) of every capacitor and inductor just before and after event k: the
+    scale of an ideal switch's only dissipation, the jump loss, which cannot exceed them."""
+    jump = ctx.exact.jump(ctx.k)
+    return [abs(v) for v in list(jump.stored_before.values()) + list(jump.stored_after.values())]
 
 
 def compare_energy(exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldResult:

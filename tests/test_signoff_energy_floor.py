@@ -16,12 +16,11 @@ import pytest
 from harness import tolerances as T
 from harness.circuitfile import parse_circuit
 from harness.compare import CheckContext, compare_file
-from harness.compare_signoff import energy_scale
+from harness.compare_signoff import _dissipation_scale, energy_scale
 from harness.model import Probe
 from harness.outcome import ENGINES_DISAGREE, MISMATCH, PASS
+from harness import closedform
 from harness.simulate import solve as numeric
-
-closedform = pytest.importorskip("harness.closedform")
 
 BLEED = 0.5 * 125e-9 * 400.0 ** 2      # ½CV² = 10 mJ (common practice)
 LINK = 0.5 * 625e-6 * 400.0 ** 2       # 50 J stored in the link
@@ -87,3 +86,32 @@ def test_a_small_engine_error_beside_a_large_store_is_engines_disagree():
     """A 10 µJ numeric error on the 10 mJ bleed (old floor 50 µJ) is engines-disagree."""
     field, _, _ = _energy_field(_text(BLEED), lambda c: _EnergySlip(numeric(c)))
     assert field.verdict == ENGINES_DISAGREE, field
+
+
+SHARE = """
+title = "ideal switch shares charge"
+[parts]
+C1 = { kind = "capacitor", nodes = ["a", "gnd"], value = "1u", initial = "1 V" }
+S1 = { kind = "switch", nodes = ["a", "b"], state = "open", steps = [["0 s", "closed"]] }
+C2 = { kind = "capacitor", nodes = ["b", "gnd"], value = "1u", initial = "0 V" }
+R1 = { kind = "resistor", nodes = ["b", "gnd"], value = "1k" }
+
+[[expect]]
+node = "b"
+energy = { part = "S1", value = "250 nJ" }
+"""
+
+
+def test_an_ideal_switch_is_judged_on_the_energy_stored_at_its_event():
+    """An ideal switch has no R I^2 T of its own: its floor scale is the stored energy at the
+    event (½ C1 (1 V)² = 500 nJ), which bounds its jump loss, ½ C1 C2/(C1 + C2) V² = 250 nJ
+    (charge sharing between capacitors, textbook); without it the switch's scale would be the
+    rounding-noise floor alone."""
+    circuit = parse_circuit(SHARE)
+    exact = closedform.solve(circuit)
+    field = compare_file(circuit, exact, numeric(circuit)).checks[0].fields
+    field = next(f for f in field if f.name == "energy")
+    assert field.closed_form == pytest.approx(250e-9, rel=1e-9) and field.verdict == PASS
+    ctx = CheckContext(circuit, exact, None, Probe("node", ("b",)), 0)
+    assert energy_scale(ctx, 0.0, "S1") >= 500e-9 * (1 - 1e-12)
+    assert _dissipation_scale(ctx, "S1") < 1e-6 * 500e-9     # alone: only a noise floor
