@@ -26,7 +26,9 @@ Model (equations.py)
     cancels exactly from every cutset but its carrier's own.  Coordinates without capacitance
     (capacitor-less nodes, the common mode of a capacitor group without ground) are eliminated
     (Kron reduction).  J = -M_dd^-1 K_r is the exact constant Jacobian of each interval
-    (scipy.sparse above 50 states).
+    (scipy.sparse above 50 states).  Intervals with the same switch states share these
+    matrices and factorisations (only the constant terms, linear in the source values, are
+    recomputed); with the same source values too they share one System.
 
 Regularisation rule (regularise.py), eps = ``pulse_ratio`` (default 1e-7)
     t_fast, a lower estimate of the fastest real time constant: half the fastest mode of a
@@ -65,8 +67,10 @@ Integration (integrate.py)
     1e-3 t_pulse, at least 16 steps), to the next event (whose state starts the next interval),
     then the held continuation until every capacitor voltage and inductor current has
     |rate| * elapsed time <= 1e-11 of its scale, or the horizon, 50000 steps or a 1e9-fold
-    growth (then final None and a warning).  A solve has a work budget (engine.STEP_BUDGET
-    steps, engine.EVAL_BUDGET evaluations); an interval that exhausts it, or whose integrator
+    growth (then final None and a warning).  Each interval has a work budget
+    (engine.STEP_BUDGET steps, engine.EVAL_BUDGET evaluations) and the solve one over all
+    intervals (engine.SOLVE_STEP_BUDGET, engine.SOLVE_EVAL_BUDGET: about a minute at most,
+    ~1,000 RC intervals); an interval that exhausts either, or whose integrator
     breaks down (overflow), or whose regularised model has a growing pulse-scale mode (a
     controlled source defeating r_s; checked by eigenvalues up to 300 states), is not reported,
     nor are the later ones, and a warning says where the engine stopped.

@@ -163,25 +163,28 @@ def _null_directions(circuit: Circuit, lay: Layout, parasitic: dict[str, float])
 class _Transform:
     """Maps full-state expressions to tree coordinates (see the module docstring).
 
-    The node part of the map is an integer unimodular matrix: y_nodes = T x_nodes.  Starting
-    from the forest's paths, each null direction of M that is not yet a coordinate axis is made
-    one by the column operation x = S x' with S = I + (n - e_k) e_k^T (n the direction in x,
-    k a coordinate where it is +-1), so its row of the transformed M vanishes exactly.
+    The node part of the map is an integer unimodular matrix: y_nodes = T x_nodes (held as
+    sparse int64 matrices, so every product is exact).  Starting from the forest's paths, each
+    null direction of M that is not yet a coordinate axis is made one by the column operation
+    x = S x' with S = I + (n - e_k) e_k^T (n the direction in x, k a coordinate where it is
+    +-1), so its row of the transformed M vanishes exactly; T S and S^-1 T^-1 are rank-one
+    updates of T and T^-1.
     """
 
     def __init__(self, lay: Layout, parents: dict[int, int], nulls: list[np.ndarray]) -> None:
         self.nn = nn = len(lay.nodes)
         self.n = lay.n
-        T = np.zeros((nn, nn), dtype=np.int64)
-        for m, path in enumerate(_paths(nn, parents)):
-            T[m, list(path)] = 1
-        Tinv = np.eye(nn, dtype=np.int64)
-        for m, p in parents.items():
-            if p >= 0:
-                Tinv[m, p] = -1
+        paths = _paths(nn, parents)
+        rows = np.repeat(np.arange(nn), [len(path) for path in paths])
+        cols = np.fromiter((k for path in paths for k in path), dtype=np.int64, count=rows.size)
+        T = sp.csr_matrix((np.ones(rows.size, dtype=np.int64), (rows, cols)), shape=(nn, nn))
+        child = np.array([m for m, p in parents.items() if p >= 0], dtype=np.int64)
+        parent = np.array([p for p in parents.values() if p >= 0], dtype=np.int64)
+        Tinv = sp.identity(nn, dtype=np.int64, format="csr") + sp.csr_matrix(
+            (-np.ones(child.size, dtype=np.int64), (child, parent)), shape=(nn, nn))
         pivots: set[int] = set()
         for direction in nulls:
-            v = Tinv @ direction
+            v = np.asarray(Tinv @ direction).ravel()
             units = [k for k in np.flatnonzero(v) if abs(v[k]) == 1 and k not in pivots]
             if not units:
                 continue
@@ -189,14 +192,22 @@ class _Transform:
             pivots.add(k)
             if np.count_nonzero(v) == 1:
                 continue
-            S = np.eye(nn, dtype=np.int64)
-            S[:, k] = v
-            S_inv = np.eye(nn, dtype=np.int64)
-            S_inv[:, k] -= (v - np.eye(nn, dtype=np.int64)[k]) * v[k]  # v_k = +-1: 1/v_k = v_k
-            S_inv[k, k] = v[k]
-            T, Tinv = T @ S, S_inv @ Tinv
-        self.T, self.Tinv = T, Tinv
-        self.paths = [{int(k): int(T[m, k]) for k in np.flatnonzero(T[m])} for m in range(nn)]
+            e_k = np.zeros(nn, dtype=np.int64)
+            e_k[k] = 1
+            # T S = T + (T (v - e_k)) e_k^T
+            T = T + sp.csr_matrix(np.asarray(T @ (v - e_k)).reshape(-1, 1)) @ sp.csr_matrix(
+                e_k.reshape(1, -1))
+            # S^-1 = I + (s - e_k) e_k^T, s = -(v - e_k) v_k with s_k = v_k (v_k = +-1);
+            # S^-1 T^-1 = T^-1 + (s - e_k) (row k of T^-1)
+            s_col = -(v - e_k) * v[k]
+            s_col[k] = v[k]
+            Tinv = Tinv + sp.csr_matrix((s_col - e_k).reshape(-1, 1)) @ Tinv[[k]]
+        T.eliminate_zeros()
+        Tinv.eliminate_zeros()
+        self.T, self.Tinv = T.tocsr(), Tinv.tocsr()
+        self.T.sort_indices()
+        self.paths = [dict(zip(self.T.indices[a:b].tolist(), self.T.data[a:b].tolist()))
+                      for a, b in zip(self.T.indptr[:-1], self.T.indptr[1:])]
 
     def state(self, i: int) -> Path:
         """Coordinates (with integer multipliers) summing to full state i."""
@@ -214,35 +225,32 @@ class _Transform:
     def matrices(self) -> tuple[sp.csr_matrix, sp.csr_matrix]:
         """(T, T^-1) over the full state (identity on the currents)."""
         extra = self.n - self.nn
-        T = sp.block_diag([sp.csr_matrix(self.T.astype(float)), sp.identity(extra)], "csr")
-        Tinv = sp.block_diag([sp.csr_matrix(self.Tinv.astype(float)), sp.identity(extra)], "csr")
+        T = sp.block_diag([self.T.astype(float), sp.identity(extra)], "csr")
+        Tinv = sp.block_diag([self.Tinv.astype(float), sp.identity(extra)], "csr")
         return T, Tinv
 
 
 def assemble(circuit: Circuit, lay: Layout, br: Branches, parents: dict[int, int],
              l_p: float, t_pulse: float, parasitic: dict[str, float]):
-    """(K_x, b_x, M_x, T, T^-1) of M_x x' = -K_x x + b_x in tree coordinates."""
+    """(K_x, M_x, T, T^-1, transform) of M_x x' = -K_x x + b_x in tree coordinates; b_x, the
+    only part that depends on the sources' values, comes from ``constants`` with the same
+    transform."""
     tr = _Transform(lay, parents, _null_directions(circuit, lay, parasitic))
     n = lay.n
     K: dict[tuple[int, int], list[float]] = {}
     M: dict[tuple[int, int], list[float]] = {}
-    b = [[] for _ in range(n)]
 
     def stamp(rowpath: Path, aff: Affine, sign: float) -> None:
         coef = tr.coef(aff)
         for r, m in rowpath.items():
             for j, a in coef.items():
                 K.setdefault((r, j), []).append(sign * m * a)
-            b[r].append(-sign * m * aff.const)
 
-    flows = [(circuit.part(name), cur) for name, cur in br.currents.items()]
-    flows += [(circuit.part(r.part), r.current) for r in br.regularisers if r.role == "shunt"]
-    for part, cur in flows:
-        rows = _combine([(tr.state(lay.node_index[x]), s) for x, s in ((part.p, 1), (part.n, -1))
-                         if x in lay.node_index])
-        stamp(rows, cur, 1.0)
+    by_name = {p.name: p for p in circuit.parts}      # Circuit.part is a linear search
+    for part, cur in _flows(by_name, br):
+        stamp(_cutset(tr, lay, part.p, part.n), cur, 1.0)
     for name in lay.inductors + lay.carriers:  # L di/dt = v_p - v_n; L_p di_p/dt = u
-        part, r = circuit.part(name), lay.part_index[name]
+        part, r = by_name[name], lay.part_index[name]
         if name in lay.inductors:
             u = Affine(_voltage(lay, part.p, part.n))
             M.setdefault((r, r), []).append(part.value)
@@ -253,13 +261,44 @@ def assemble(circuit: Circuit, lay: Layout, br: Branches, parents: dict[int, int
     caps = [(p.p, p.n, p.value) for p in circuit.parts if p.kind == CAPACITOR]
     caps += [(node, circuit.ground, c) for node, c in parasitic.items() if c > 0]
     for p, q, c in caps:
-        d = _combine([(tr.state(lay.node_index[x]), s) for x, s in ((p, 1), (q, -1))
-                      if x in lay.node_index])
+        d = _cutset(tr, lay, p, q)
         for k, mk in d.items():
             for l_, ml in d.items():
                 M.setdefault((k, l_), []).append(c * mk * ml)
     T, Tinv = tr.matrices()
-    return _matrix(K, n), np.array([math.fsum(v) for v in b]), _matrix(M, n), T, Tinv
+    return _matrix(K, n), _matrix(M, n), T, Tinv, tr
+
+
+def constants(circuit: Circuit, lay: Layout, br: Branches, tr: _Transform) -> np.ndarray:
+    """b_x, shape (n,): the constant terms of ``assemble``'s rows for the branch expressions
+    ``br`` (the same stamps, each row an exactly rounded sum, math.fsum).  Only parts whose
+    current or voltage has a constant term contribute."""
+    b: list[list[float]] = [[] for _ in range(lay.n)]
+    by_name = {p.name: p for p in circuit.parts}
+    for part, cur in _flows(by_name, br):
+        if cur.const:
+            for r, m in _cutset(tr, lay, part.p, part.n).items():
+                b[r].append(-m * cur.const)
+    for name in lay.carriers:  # L_p di_p/dt = u: the row of u (an open switch has none)
+        u = br.voltages[name]
+        if u is not None and u.const:
+            b[lay.part_index[name]].append(u.const)
+    return np.array([math.fsum(v) for v in b])
+
+
+def _flows(by_name: dict, br: Branches) -> list:
+    """(part, current) of every branch current stamped into KCL: each non-capacitor part's,
+    then the inductor shunts'."""
+    flows = [(by_name[name], cur) for name, cur in br.currents.items()]
+    flows += [(by_name[r.part], r.current) for r in br.regularisers if r.role == "shunt"]
+    return flows
+
+
+def _cutset(tr: _Transform, lay: Layout, p: str, q: str) -> Path:
+    """The coordinates (integer multipliers) of v_p - v_q: the cutset rows a branch from p to q
+    enters."""
+    return _combine([(tr.state(lay.node_index[x]), s) for x, s in ((p, 1), (q, -1))
+                     if x in lay.node_index])
 
 
 def _voltage(lay: Layout, a: str, b: str) -> dict[int, float]:
@@ -281,42 +320,78 @@ def _matrix(entries: dict[tuple[int, int], list[float]], n: int) -> sp.csr_matri
     return A
 
 
+class Reducer:
+    """The elimination of the coordinates whose M row is zero (Kron reduction), factorised once
+    per set of matrices and applied to any constant vector b (``constants``).
+
+    With a those coordinates and d the rest, 0 = -K_aa x_a - K_ad x_d + b_a gives
+    x_a = P x_d + p (P = -K_aa^-1 K_ad, p = K_aa^-1 b_a), and M_dd x_d' = -K_r x_d + b_r with
+    K_r = K_dd + K_da P, b_r = b_d - K_da p.
+
+    Attributes:
+        K_r, M_r: the reduced matrices (CSC), shape (n_d, n_d).
+
+    Raises:
+        Unreduced: K_aa is singular (on construction).
+    """
+
+    def __init__(self, K: sp.csr_matrix, M: sp.csr_matrix, T: sp.csr_matrix,
+                 Tinv: sp.csr_matrix) -> None:
+        n = K.shape[0]
+        has_m = np.asarray(abs(M).sum(axis=1)).ravel() > 0
+        self.dyn, self.alg = dyn, alg = np.flatnonzero(has_m), np.flatnonzero(~has_m)
+        self.position = -np.ones(n, dtype=int)
+        self.position[dyn] = np.arange(dyn.size)
+        K = K.tocsr()
+        K_dd, self.K_da = K[dyn][:, dyn], K[dyn][:, alg]
+        K_ad, K_aa = K[alg][:, dyn], K[alg][:, alg]
+        self.lu = None
+        if alg.size:
+            try:
+                self.lu = spla.splu(K_aa.tocsc())
+            except RuntimeError:
+                raise Unreduced() from None
+            P = -self.lu.solve(K_ad.toarray()) if dyn.size else np.zeros((alg.size, 0))
+            if not np.all(np.isfinite(P)):
+                raise Unreduced()
+        else:
+            P = np.zeros((0, dyn.size))
+        # lift_x: identity on the integrated coordinates, P on the eliminated ones
+        pr, pc = np.nonzero(P)
+        lift_x = sp.csr_matrix((np.concatenate([np.ones(dyn.size), P[pr, pc]]),
+                                (np.concatenate([dyn, alg[pr]]),
+                                 np.concatenate([np.arange(dyn.size), pc]))),
+                               shape=(n, dyn.size))
+        lift = (T @ lift_x).tocsr()
+        self.T, self.to_d = T, Tinv[dyn]
+        self.K_r = sp.csc_matrix(K_dd + self.K_da @ sp.csr_matrix(P))
+        self.M_r = M.tocsr()[dyn][:, dyn].tocsc()
+        self.lift = lift if n > SPARSE_ABOVE else lift.toarray()
+
+    def constants(self, b: np.ndarray) -> tuple[Reduction, np.ndarray]:
+        """(reduction, b_r) for the constant vector b of the unreduced rows, shape (n,).
+
+        Raises:
+            Unreduced: p = K_aa^-1 b_a is not finite.
+        """
+        alg = self.alg
+        if alg.size:
+            p = self.lu.solve(b[alg])
+            if not np.all(np.isfinite(p)):
+                raise Unreduced()
+        else:
+            p = np.zeros(0)
+        lift_cx = np.zeros(b.shape[0])
+        lift_cx[alg] = p
+        lift_c = np.asarray(self.T @ lift_cx).ravel()
+        b_r = b[self.dyn] - self.K_da @ p
+        return Reduction(self.dyn, self.lift, lift_c, self.position, self.to_d), b_r
+
+
 def reduce(K: sp.csr_matrix, b: np.ndarray, M: sp.csr_matrix, T: sp.csr_matrix,
            Tinv: sp.csr_matrix):
-    """(reduction, K_r, b_r, M_r): eliminate the coordinates whose M row is zero.
-
-    With a those and d the rest, 0 = -K_aa x_a - K_ad x_d + b_a gives x_a = P x_d + p
-    (P = -K_aa^-1 K_ad, p = K_aa^-1 b_a), and M_dd x_d' = -K_r x_d + b_r with
-    K_r = K_dd + K_da P, b_r = b_d - K_da p.
+    """(reduction, K_r, b_r, M_r): eliminate the coordinates whose M row is zero (``Reducer``).
     """
-    n = b.shape[0]
-    has_m = np.asarray(abs(M).sum(axis=1)).ravel() > 0
-    dyn, alg = np.flatnonzero(has_m), np.flatnonzero(~has_m)
-    position = -np.ones(n, dtype=int)
-    position[dyn] = np.arange(dyn.size)
-    K = K.tocsr()
-    K_dd, K_da = K[dyn][:, dyn], K[dyn][:, alg]
-    K_ad, K_aa = K[alg][:, dyn], K[alg][:, alg]
-    if alg.size:
-        try:
-            lu = spla.splu(K_aa.tocsc())
-        except RuntimeError:
-            raise Unreduced() from None
-        P = -lu.solve(K_ad.toarray()) if dyn.size else np.zeros((alg.size, 0))
-        p = lu.solve(b[alg])
-        if not (np.all(np.isfinite(P)) and np.all(np.isfinite(p))):
-            raise Unreduced()
-    else:
-        P, p = np.zeros((0, dyn.size)), np.zeros(0)
-    lift_x = np.zeros((n, dyn.size))
-    lift_x[dyn, np.arange(dyn.size)] = 1.0
-    lift_x[alg] = P
-    lift_cx = np.zeros(n)
-    lift_cx[alg] = p
-    lift = np.asarray(T @ lift_x)
-    lift_c = np.asarray(T @ lift_cx).ravel()
-    K_r = sp.csc_matrix(K_dd + K_da @ sp.csr_matrix(P))
-    b_r = b[dyn] - K_da @ p
-    M_r = M.tocsr()[dyn][:, dyn].tocsc()
-    lift = sp.csr_matrix(lift) if n > SPARSE_ABOVE else lift
-    return Reduction(dyn, lift, lift_c, position, Tinv[dyn]), K_r, b_r, M_r
+    reducer = Reducer(K, M, T, Tinv)
+    red, b_r = reducer.constants(b)
+    return red, reducer.K_r, b_r, reducer.M_r

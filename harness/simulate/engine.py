@@ -15,6 +15,7 @@ from .equations import build, layout
 from .features import fit_window
 from .initial import initial_state
 from .integrate import integrate_interval
+from .nodesets import find_root
 from .regularise import choose
 from .solution import NumericSolution
 
@@ -33,11 +34,17 @@ PILOT_MAX_STATES = 300
 FIRST_STEP = 1e-3
 #: rtol = pulse_ratio by default, kept within these bounds
 RTOL_BOUNDS = (1e-8, 1e-4)
-#: work budget of one solve, over all intervals: accepted steps and right-hand-side
-#: evaluations (about 0.2-0.5 ms each on small systems: together ~10-15 s at most); past it the
-#: interval and the later ones are not reported
+#: work budget of one interval (all its runs): accepted steps and right-hand-side evaluations.
+#: A step collapse (a pulse and a settling horizon ~30 decades apart, Newton failing at ~10
+#: evaluations per step) stops here within a few seconds; that interval and the later ones are
+#: not reported.  A typical interval uses 100-600 steps.
 STEP_BUDGET = 30_000
 EVAL_BUDGET = 300_000
+#: work budget of one solve over all its intervals: bounds the total time (~0.15 ms per step
+#: and ~20 us per evaluation here, so about a minute at most) while a schedule of ~1,000
+#: RC intervals (~400 steps each) keeps every value
+SOLVE_STEP_BUDGET = 450_000
+SOLVE_EVAL_BUDGET = 3_000_000
 
 
 def _source_max(circuit: Circuit, kind: str) -> float:
@@ -89,6 +96,7 @@ def _carrier_floor(circuit: Circuit, lay, systems, atol: np.ndarray, v_scale: fl
     atol = atol.copy()
     nn = len(lay.nodes)
     v = v_scale * _gain(circuit)
+    systems = _distinct(systems)
     for name in lay.carriers:
         r = lay.part_index[name]
         weight = max(float(np.abs(sys_.K[[r], :nn].toarray()).sum()) for sys_ in systems)
@@ -130,14 +138,16 @@ def _fastest_real_mode(circuit: Circuit) -> float | None:
     fastest mode must be a lower bound and is often decades too low (a gain, a node with many
     conductances); the pilot's figure lets the real model's pulse sit just eps below it.
     """
-    pilot = choose(circuit, PILOT_RATIO)
     lay = layout(circuit)
+    if _states_at_least(circuit, lay) > PILOT_MAX_STATES:
+        return None
+    pilot = choose(circuit, PILOT_RATIO)
     try:
         _, systems = _build_all(circuit, lay, pilot)
     except Unreduced:
         return None
     rates = []
-    for system in systems:
+    for system in {id(s.jac): s for s in systems}.values():  # one per distinct Jacobian
         if system.n > PILOT_MAX_STATES:
             return None
         jac = system.jac.toarray() if hasattr(system.jac, "toarray") else system.jac
@@ -146,6 +156,22 @@ def _fastest_real_mode(circuit: Circuit) -> float | None:
         lam = np.abs(np.linalg.eigvals(jac))
         rates += list(lam[(lam > 0) & (lam < PILOT_SPLIT / pilot.t_pulse)])
     return 1.0 / max(rates) if rates else None
+
+
+def _states_at_least(circuit: Circuit, lay) -> int:
+    """A lower bound on the integrated states of any interval, without building one: every
+    inductor and carrier current, plus the rank of the capacitance matrix over the nodes (the
+    nodes on capacitors, less one per capacitor group that does not reach ground)."""
+    parent: dict[str, str] = {}
+    for part in circuit.parts:
+        if part.kind == CAPACITOR and part.value and part.p != part.n:
+            parent[find_root(parent, part.p)] = find_root(parent, part.n)
+    ground = find_root(parent, circuit.ground)
+    roots = {find_root(parent, node) for node in list(parent)}
+    floating = sum(1 for root in roots if root != ground)
+    touched = len(parent) - 1  # the nodes on capacitors, ground excluded
+    inductors = sum(1 for p in circuit.parts if p.kind == INDUCTOR and p.value)
+    return inductors + len(lay.carriers) + max(touched - floating, 0)
 
 
 def _pulse_growth(circuit: Circuit, system, reg) -> float | None:
@@ -168,13 +194,17 @@ def _pulse_growth(circuit: Circuit, system, reg) -> float | None:
     return growth if growth > PILOT_SPLIT / reg.t_pulse else None
 
 
-def _stopped(circuit: Circuit, k: int, run, steps: int) -> str | None:
+def _stopped(circuit: Circuit, k: int, run, steps: int, evals: int) -> str | None:
     """The warning for an interval whose values are not reported (integrator breakdown or
-    the work budget), or None."""
+    a work budget: ``steps``, ``evals`` are the solve's totals so far), or None."""
     t = circuit.events[k] + (run.end if run.status == "budget" else 0.0)
     if run.status == "budget":
+        which = (f"for the whole solve: {SOLVE_STEP_BUDGET} steps or {SOLVE_EVAL_BUDGET} "
+                 "evaluations" if steps >= SOLVE_STEP_BUDGET or evals >= SOLVE_EVAL_BUDGET
+                 else f"per interval: {STEP_BUDGET} steps or {EVAL_BUDGET} evaluations, "
+                 f"reached in interval {k}")
         return (f"the numerical engine stopped after {steps} steps at t = {t:.6g} s (its work "
-                "budget): values not reported from that interval on")
+                f"budget {which}): values not reported from that interval on")
     if run.status == "failed":
         return (f"the numerical engine's integrator broke down in interval {k} (from t = "
                 f"{t:.6g} s; an overflowing or singular regularised system): values not "
@@ -183,9 +213,39 @@ def _stopped(circuit: Circuit, k: int, run, steps: int) -> str | None:
 
 
 def _build_all(circuit: Circuit, lay, reg):
-    """(pre-step system, one system per interval)."""
-    pre = build(circuit, lay, reg, 0.0, before=True)
-    return pre, [build(circuit, lay, reg, t) for t in circuit.events]
+    """(pre-step system, one system per interval).  Intervals with the same switch states and
+    source values share one System object (``equations.build``'s cache), those with the same
+    switch states share its matrices."""
+    cache: dict = {}
+    pre = build(circuit, lay, reg, 0.0, before=True, cache=cache)
+    return pre, [build(circuit, lay, reg, t, cache=cache) for t in circuit.events]
+
+
+def _distinct(systems) -> list:
+    """The distinct System objects of ``systems``, in order of first appearance."""
+    return list({id(s): s for s in systems}.values())
+
+
+def _dynamic(circuit: Circuit, lay) -> np.ndarray:
+    """Boolean mask over the full state, shape (n,): node voltages with a real capacitor and
+    inductor currents (the states settling is judged on)."""
+    dynamic = np.zeros(lay.n, dtype=bool)
+    for part in circuit.parts:
+        if part.kind == CAPACITOR:
+            dynamic[[lay.node_index[x] for x in part.nodes if x in lay.node_index]] = True
+        elif part.kind == INDUCTOR:
+            dynamic[lay.part_index[part.name]] = True
+    return dynamic
+
+
+def _growth_warning(k: int, t_k: float, growth: float) -> str:
+    """The warning for an interval whose regularised model grows at the pulse scale."""
+    what = (f"grows at {growth:.3g}/s, far faster than any mode of the circuit"
+            if math.isfinite(growth) else "is singular (its Jacobian is not finite)")
+    return (f"interval {k} (from t = {t_k:.6g} s): the numerical engine's narrow-pulse "
+            f"model {what} (a controlled source feeds back the current or voltage of a "
+            "voltage source, vcvs, ccvs or switch with a gain that defeats its "
+            "regularising resistance): values not reported from that interval on")
 
 
 def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
@@ -216,36 +276,31 @@ def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
     atol = np.full(lay.n, rtol * ATOL_FRACTION * v_scale)
     atol[nn:] = rtol * ATOL_FRACTION * i_scale
     atol = _carrier_floor(circuit, lay, [pre] + list(systems), atol, v_scale, reg.r_series)
-    dynamic = np.zeros(lay.n, dtype=bool)
-    for part in circuit.parts:
-        if part.kind == CAPACITOR:
-            dynamic[[lay.node_index[x] for x in part.nodes if x in lay.node_index]] = True
-        elif part.kind == INDUCTOR:
-            dynamic[lay.part_index[part.name]] = True
+    dynamic = _dynamic(circuit, lay)
     window = reg.post_pulse + fit_window(reg.post_pulse, reg.t_fast)
     events = circuit.events
     runs, warnings = [], []
     y = y0
     steps = evals = 0
+    growths: dict[int, float | None] = {}
+    factors: dict = {}
     for k, t_k in enumerate(events):
         system = systems[k]
         length = events[k + 1] - t_k if k + 1 < len(events) else None
-        growth = _pulse_growth(circuit, system, reg)
+        if id(system.jac) not in growths:  # intervals sharing a Jacobian share its eigenvalues
+            growths[id(system.jac)] = _pulse_growth(circuit, system, reg)
+        growth = growths[id(system.jac)]
         if growth is not None:
-            what = (f"grows at {growth:.3g}/s, far faster than any mode of the circuit"
-                    if math.isfinite(growth) else "is singular (its Jacobian is not finite)")
-            warnings.append(
-                f"interval {k} (from t = {t_k:.6g} s): the numerical engine's narrow-pulse "
-                f"model {what} (a controlled source feeds back the current or voltage of a "
-                "voltage source, vcvs, ccvs or switch with a gain that defeats its "
-                "regularising resistance): values not reported from that interval on")
+            warnings.append(_growth_warning(k, t_k, growth))
             break
         run = integrate_interval(system, y, t_k, length, reg.horizon, rtol, atol,
                                  reg.post_pulse, reg.t_fast, dynamic, window,
                                  reg.t_pulse * FIRST_STEP,
-                                 budget=(STEP_BUDGET - steps, EVAL_BUDGET - evals))
+                                 budget=(min(STEP_BUDGET, SOLVE_STEP_BUDGET - steps),
+                                         min(EVAL_BUDGET, SOLVE_EVAL_BUDGET - evals)),
+                                 factors=factors)
         steps, evals = steps + run.stats.steps, evals + run.stats.nfev
-        stopped = _stopped(circuit, k, run, steps)
+        stopped = _stopped(circuit, k, run, steps, evals)
         if stopped:
             warnings.append(stopped)
             break

@@ -273,31 +273,38 @@ def branch_currents(circuit: Circuit, lay: Layout, reg: Regularisation, time: fl
     return out
 
 
-def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
-              slow: bool = False) -> tuple[sp.csc_matrix, np.ndarray, sp.csc_matrix]:
-    """(K, b, M) of M y' = -K y + b; with ``slow`` the carriers' u / r_s is left out of KCL."""
-    n = lay.n
-    rows, cols, vals = [], [], []
-    b = np.zeros(n)
-    mrows, mcols, mvals = [], [], []
-
-    def stamp_k(i: int, aff: Affine, sign: float) -> None:
-        for j, a in aff.coef.items():
-            rows.append(i), cols.append(j), vals.append(sign * a)
-        b[i] -= sign * aff.const
-
-    def stamp_m(i: int, j: int, v: float) -> None:
-        mrows.append(i), mcols.append(j), mvals.append(v)
-
+def _currents(lay: Layout, br: Branches, slow: bool) -> dict[str, Affine]:
+    """The branch currents stamped into KCL; with ``slow`` each closed carrier's is i_p alone."""
     currents = dict(br.currents)
     if slow:
         for name in lay.carriers:
             if br.voltages[name] is not None:
                 currents[name] = Affine({lay.part_index[name]: 1.0})
+    return currents
+
+
+def _flows(circuit: Circuit, lay: Layout, br: Branches, slow: bool, by_name: dict) -> list:
+    flows = [(by_name[name], cur) for name, cur in _currents(lay, br, slow).items()]
+    return flows + [(by_name[r.part], r.current) for r in br.regularisers if r.role == "shunt"]
+
+
+def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
+              slow: bool = False) -> tuple[sp.csc_matrix, sp.csc_matrix]:
+    """(K, M) of M y' = -K y + b; with ``slow`` the carriers' u / r_s is left out of KCL.
+    b, the only part that depends on the sources' values, is ``_constants``."""
+    n = lay.n
+    rows, cols, vals = [], [], []
+    mrows, mcols, mvals = [], [], []
+
+    def stamp_k(i: int, aff: Affine, sign: float) -> None:
+        for j, a in aff.coef.items():
+            rows.append(i), cols.append(j), vals.append(sign * a)
+
+    def stamp_m(i: int, j: int, v: float) -> None:
+        mrows.append(i), mcols.append(j), mvals.append(v)
+
     by_name = {p.name: p for p in circuit.parts}      # Circuit.part is a linear search
-    flows = [(by_name[name], cur) for name, cur in currents.items()]
-    flows += [(by_name[r.part], r.current) for r in br.regularisers if r.role == "shunt"]
-    for part, cur in flows:
+    for part, cur in _flows(circuit, lay, br, slow, by_name):
         for node, sign in ((part.p, 1.0), (part.n, -1.0)):
             if node in lay.node_index:
                 stamp_k(lay.node_index[node], cur, sign)
@@ -326,51 +333,101 @@ def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
     M = sp.csc_matrix((mvals, (mrows, mcols)), shape=(n, n))
     K.sum_duplicates()
     M.sum_duplicates()
-    return K, b, M
+    return K, M
 
 
-def _explicit(K: sp.csc_matrix, b: np.ndarray, M: sp.csc_matrix):
-    """(J, c) = (-M^-1 K, M^-1 b); dense for small systems, sparse above SPARSE_ABOVE."""
-    n = b.shape[0]
+def _constants(circuit: Circuit, lay: Layout, br: Branches, slow: bool = False) -> np.ndarray:
+    """b of ``_assemble``'s rows, shape (n,): the constant terms of the same stamps, in the
+    same order (only parts with a constant term contribute)."""
+    b = np.zeros(lay.n)
+    by_name = {p.name: p for p in circuit.parts}
+    for part, cur in _flows(circuit, lay, br, slow, by_name):
+        if cur.const:
+            for node, sign in ((part.p, 1.0), (part.n, -1.0)):
+                if node in lay.node_index:
+                    b[lay.node_index[node]] -= sign * cur.const
+    for name in lay.carriers:
+        u = br.voltages[name]
+        if u is not None and u.const:
+            b[lay.part_index[name]] += u.const
+    return b
+
+
+def _jacobian(K: sp.csc_matrix, M: sp.csc_matrix):
+    """(J, solve) with J = -M^-1 K (dense for small systems, sparse above SPARSE_ABOVE) and
+    solve(b) = M^-1 b, shape (n,); M is factorised once."""
+    n = K.shape[0]
     off = M - sp.diags(M.diagonal())
     if off.count_nonzero() == 0:
         inv = 1.0 / M.diagonal()
         jac = -(sp.diags(inv) @ K).tocsc()
-        c = inv * b
-    elif n <= SPARSE_ABOVE:
-        lu = scipy.linalg.lu_factor(M.toarray())
-        jac = -scipy.linalg.lu_solve(lu, K.toarray())
-        c = scipy.linalg.lu_solve(lu, b)
-        return jac, c
-    else:
-        lu = spla.splu(M.tocsc())
-        jac = -sp.csc_matrix(lu.solve(K.toarray()))
-        jac.eliminate_zeros()
-        c = lu.solve(b)
+        return (jac.toarray() if n <= SPARSE_ABOVE else jac), (lambda b: inv * b)
     if n <= SPARSE_ABOVE:
-        return jac.toarray(), c
-    return jac, c
+        lu = scipy.linalg.lu_factor(M.toarray())
+        return -scipy.linalg.lu_solve(lu, K.toarray()), (lambda b: scipy.linalg.lu_solve(lu, b))
+    lu = spla.splu(M.tocsc())
+    jac = -sp.csc_matrix(lu.solve(K.toarray()))
+    jac.eliminate_zeros()
+    return jac, lu.solve
+
+
+@dataclass(frozen=True)
+class _Shape:
+    """What an interval's ODE shares with every interval of the same switch states: the
+    matrices, the tree transform, the elimination and the factorised M_dd."""
+
+    K: sp.csc_matrix
+    M: sp.csc_matrix
+    K_dc: sp.csc_matrix
+    transform: object
+    reducer: object
+    jac: object
+    solve: object
+
+
+def _shape(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
+           br_dc: Branches) -> _Shape:
+    from .coordinates import Reducer, assemble, forest  # (coordinates builds on this module)
+
+    K, M = _assemble(circuit, lay, reg, br)
+    K_dc, _ = _assemble(circuit, lay, reg, br_dc, slow=True)
+    closed = [name for name, u in br.voltages.items() if u is not None]
+    parents = forest(circuit, lay, closed, reg.c_node)
+    K_x, M_x, T, Tinv, tr = assemble(circuit, lay, br, parents, reg.r_series * reg.t_pulse,
+                                     reg.t_pulse, reg.c_node)
+    reducer = Reducer(K_x, M_x, T, Tinv)
+    jac, solve = _jacobian(reducer.K_r, reducer.M_r)
+    return _Shape(K, M, K_dc, tr, reducer, jac, solve)
 
 
 def build(circuit: Circuit, lay: Layout, reg: Regularisation, time: float,
-          before: bool = False) -> System:
+          before: bool = False, cache: dict | None = None) -> System:
     """The ODE in force just after ``time`` (or just before it when ``before``).
+
+    ``cache`` (a dict owned by the caller, for one circuit and one Regularisation) keeps what
+    is built: an interval whose switch states and source values equal an earlier one's gets
+    the same System, one whose switch states alone are equal shares its matrices and
+    factorisations (only the constant terms, linear in the sources, are recomputed).
 
     Raises:
         coordinates.Unreduced: the algebraic block is singular in this interval.
     """
-    br = branch_currents(circuit, lay, reg, time, before)
-    from .coordinates import assemble, forest, reduce  # (coordinates builds on this module)
+    from .coordinates import constants
 
-    K, b, M = _assemble(circuit, lay, reg, br)
-    K_dc, b_dc, _ = _assemble(circuit, lay, reg,
-                              branch_currents(circuit, lay, reg, time, before, slow=True),
-                              slow=True)
-    closed = [name for name, u in br.voltages.items() if u is not None]
-    parents = forest(circuit, lay, closed, reg.c_node)
-    K_x, b_x, M_x, T, Tinv = assemble(circuit, lay, br, parents, reg.r_series * reg.t_pulse,
-                                      reg.t_pulse, reg.c_node)
-    red, K_r, b_r, M_r = reduce(K_x, b_x, M_x, T, Tinv)
-    jac, c = _explicit(K_r, b_r, M_r)
-    return System(jac, c, K, b, M, K_dc, b_dc, br.currents, tuple(br.regularisers), br.sources,
-                  br.closed, red, dict(reg.c_node))
+    cache = {} if cache is None else cache
+    br = branch_currents(circuit, lay, reg, time, before)
+    s_key = ("shape", tuple(br.closed.items()))
+    key = (s_key, tuple(br.sources.items()))
+    if key in cache:
+        return cache[key]
+    br_dc = branch_currents(circuit, lay, reg, time, before, slow=True)
+    if s_key not in cache:
+        cache[s_key] = _shape(circuit, lay, reg, br, br_dc)
+    shape = cache[s_key]
+    b, b_dc = _constants(circuit, lay, br), _constants(circuit, lay, br_dc, slow=True)
+    red, b_r = shape.reducer.constants(constants(circuit, lay, br, shape.transform))
+    system = System(shape.jac, shape.solve(b_r), shape.K, b, shape.M, shape.K_dc, b_dc,
+                    br.currents, tuple(br.regularisers), br.sources, br.closed, red,
+                    dict(reg.c_node))
+    cache[key] = system
+    return system

@@ -71,27 +71,35 @@ def check_defined(circuit: Circuit) -> None:
 
 
 def _dc_matrix(circuit: Circuit, lay: Layout, pre: System):
-    """(A, rhs, held capacitors) of the DC system described in the module docstring."""
+    """(A, rhs, held capacitors) of the DC system described in the module docstring, assembled
+    as COO triplets: K_dc with each row of an inductor with ``initial`` replaced by i = initial,
+    bordered by one row and column per held capacitor."""
     held = [p for p in circuit.parts if p.kind == CAPACITOR and p.initial is not None]
     n, m = lay.n, len(held)
-    K = pre.K_dc.tolil()
+    by_name = {p.name: p for p in circuit.parts}
     rhs = np.concatenate([pre.b_dc, np.zeros(m)])
-    A = sp.lil_matrix((n + m, n + m))
-    A[:n, :n] = K
+    fixed = np.zeros(n + m, dtype=bool)
     for name in lay.inductors:
-        part = circuit.part(name)
-        r = lay.part_index[name]
+        part, r = by_name[name], lay.part_index[name]
         if part.initial is not None:
-            A[r, :] = 0.0
-            A[r, r] = 1.0
+            fixed[r] = True
             rhs[r] = part.initial
+    K = pre.K_dc.tocoo()
+    keep = ~fixed[K.row]
+    rows, cols, vals = [K.row[keep]], [K.col[keep]], [K.data[keep]]
+    ones = np.flatnonzero(fixed)
+    rows.append(ones), cols.append(ones), vals.append(np.ones(ones.size))
     for j, part in enumerate(held):
         row = voltage_row(lay, part.p, part.n)
-        for i in np.flatnonzero(row):
-            A[n + j, i] = row[i]
-            A[i, n + j] = row[i]  # the held capacitor's current leaves p and enters n
+        idx = np.flatnonzero(row)
+        # the held capacitor's voltage row, and its current leaving p and entering n
+        rows += [np.full(idx.size, n + j), idx]
+        cols += [idx, np.full(idx.size, n + j)]
+        vals += [row[idx], row[idx]]
         rhs[n + j] = part.initial
-    return A.tocsc(), rhs, held
+    A = sp.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                      shape=(n + m, n + m))
+    return A, rhs, held
 
 
 def _voltage_loop(circuit: Circuit) -> str | None:

@@ -38,13 +38,21 @@ settled.
 from __future__ import annotations
 
 import time as _time
+import warnings
 from dataclasses import dataclass
+from functools import partial
 
 import numpy as np
+import scipy.sparse as sp
 from scipy.integrate import OdeSolution, Radau
+from scipy.linalg import LinAlgWarning, get_lapack_funcs
 
 from .equations import System
 from .linsolve import operating_point
+
+#: the LAPACK routines scipy.linalg.lu_factor / lu_solve call, for real and complex matrices
+_DGETRF, _DGETRS = get_lapack_funcs(("getrf", "getrs"), (np.zeros((1, 1)),))
+_ZGETRF, _ZGETRS = get_lapack_funcs(("getrf", "getrs"), (np.zeros((1, 1), dtype=complex),))
 
 #: rate of change times elapsed time, relative to the scale, below which a state has settled
 SETTLE = 1e-11
@@ -149,8 +157,9 @@ class _Settle:
         self.scale = floor.copy()
         self.start_scale: np.ndarray | None = None
 
-    def add(self, s: float, z: np.ndarray) -> str | None:
-        """Record a step; return ``settled``, ``blow-up`` or None."""
+    def add(self, s: float, z: np.ndarray, rate: np.ndarray | None = None) -> str | None:
+        """Record a step; return ``settled``, ``blow-up`` or None.  ``rate``: z' at the step
+        where the caller has it (Radau keeps f(s, z) of its last step), else slope(z)."""
         if s >= self.pulse_end:
             np.maximum(self.scale, np.abs(z), out=self.scale)
             if self.start_scale is None:
@@ -161,8 +170,39 @@ class _Settle:
             return "blow-up"
         if not self.dynamic.any():
             return "settled"
-        drift = np.abs(self.slope(z)) * s / self.scale
+        drift = np.abs(self.slope(z) if rate is None else rate) * s / self.scale
         return "settled" if np.max(drift[self.dynamic]) <= SETTLE else None
+
+
+def _lu_factor(solver: Radau, a: np.ndarray):
+    """scipy.linalg.lu_factor(a, overwrite_a=True) by the same LAPACK call (getrf), counted in
+    the solver's ``nlu`` as Radau's own does; non-finite input raises ValueError."""
+    solver.nlu += 1
+    if not np.isfinite(a).all():
+        raise ValueError("array must not contain infs or NaNs")
+    getrf = _ZGETRF if a.dtype.kind == "c" else _DGETRF
+    lu, piv, info = getrf(a, overwrite_a=True)
+    if info < 0:
+        raise ValueError(f"illegal value in argument {-info} of getrf")
+    if info > 0:
+        warnings.warn(f"Diagonal number {info} is exactly zero. Singular matrix.",
+                      LinAlgWarning, stacklevel=2)
+    return lu, piv
+
+
+def _solve_lu(factors, b: np.ndarray) -> np.ndarray:
+    """x with A x = b from ``factors`` = scipy.linalg.lu_factor(A), overwriting b: the same
+    LAPACK call (getrs) as scipy.linalg.lu_solve, hence the same digits, without its per-call
+    argument handling, which costs ~4/5 of a solve at the engine's small dense systems (each
+    Radau step makes five).  Non-finite input raises ValueError, as lu_solve does."""
+    lu, piv = factors
+    if not np.isfinite(b).all():
+        raise ValueError("array must not contain infs or NaNs")
+    getrs = _ZGETRS if (lu.dtype.kind == "c" or b.dtype.kind == "c") else _DGETRS
+    x, info = getrs(lu, piv, b, overwrite_b=True)
+    if info != 0:
+        raise ValueError(f"illegal value in argument {-info} of getrs")
+    return x
 
 
 def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: float, rtol: float,
@@ -180,6 +220,10 @@ def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: floa
     started = _time.perf_counter()
     solver = Radau(fun, s0, z0, s_bound, jac=jac, rtol=rtol, atol=atol, first_step=first_step,
                    max_step=max_step)
+    if not sp.issparse(jac) and z0.size and hasattr(solver, "solve_lu"):
+        # Radau's dense factorise/solve hooks (instance attributes it calls every step),
+        # replaced by the same LAPACK calls without scipy.linalg's per-call wrapper
+        solver.lu, solver.solve_lu = partial(_lu_factor, solver), _solve_lu
     ss, zs, interps = [s0], [z0.copy()], []
     status = "reached"
     while solver.status == "running":
@@ -202,7 +246,7 @@ def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: floa
         zs.append(solver.y.copy())
         interps.append(solver.dense_output())
         if settle is not None:
-            verdict = settle.add(solver.t, solver.y)
+            verdict = settle.add(solver.t, solver.y, solver.f)
             if verdict is not None:
                 status = verdict
                 break
@@ -215,7 +259,8 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
                        horizon: float, rtol: float, atol: np.ndarray, pulse_end: float,
                        earliest: float, dynamic: np.ndarray, window: float,
                        first_step: float,
-                       budget: tuple[float, float] = (np.inf, np.inf)) -> IntervalRun:
+                       budget: tuple[float, float] = (np.inf, np.inf),
+                       factors: dict | None = None) -> IntervalRun:
     """Integrate interval k from y(t_k-) = y0; see the module docstring.
 
     Args:
@@ -236,9 +281,11 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
             the initial slope can step over a pulse its error estimate does not see).
         budget: (accepted steps, right-hand-side evaluations) the interval may use in all its
             runs; past either the run stops with status ``budget``.
+        factors: a dict owned by the caller for one solve, keeping the DC factorisations of
+            the intervals' systems (linsolve.solve).
     """
     red = system.reduction
-    origin_full, consistent, origin, r = _origin(system, y0, atol / rtol)
+    origin_full, consistent, origin, r = _origin(system, y0, atol / rtol, factors)
     atol, dynamic = atol[red.dyn], dynamic[red.dyn]
     z0 = red.integrated(y0) - origin
     settle = _Settle(lambda z: system.jac @ z + r, dynamic, atol / rtol, pulse_end, earliest)
@@ -275,10 +322,12 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
                        acc.stats)
 
 
-def _origin(system: System, y0: np.ndarray, scale: np.ndarray):
-    """(origin as a full state, consistent, origin over x_d, driving term r) of an interval."""
+def _origin(system: System, y0: np.ndarray, scale: np.ndarray, factors: dict | None = None):
+    """(origin as a full state, consistent, origin over x_d, driving term r) of an interval;
+    ``factors`` keeps the factorisations of K_dc across intervals (linsolve.solve)."""
     origin_full, consistent = operating_point(system.K_dc, system.b_dc,
-                                              1e9 * scale + 1e3 * np.abs(y0), system.M, y0)
+                                              1e9 * scale + 1e3 * np.abs(y0), system.M, y0,
+                                              factors)
     origin = system.reduction.integrated(origin_full)
     r = np.zeros_like(origin) if consistent else system.jac @ origin + system.c
     return origin_full, consistent, origin, r

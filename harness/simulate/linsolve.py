@@ -79,12 +79,27 @@ def _factor(A: sp.csc_matrix):
     return apply
 
 
-def solve(A: sp.spmatrix, b: np.ndarray) -> np.ndarray:
-    """x with A x = b (A square, nonsingular), refined; raises Singular."""
+def solve(A: sp.spmatrix, b: np.ndarray, factors: dict | None = None) -> np.ndarray:
+    """x with A x = b (A square, nonsingular), refined; raises Singular.
+
+    ``factors``: a dict owned by the caller that keeps each matrix's factorisation (or None
+    where it is singular) by id(A) for later solves; A must stay alive and unchanged while the
+    dict is in use."""
+    key = id(A)
     A = sp.csc_matrix(A)
     if A.shape[0] == 0:
         return np.zeros(0)
-    apply = _factor(A)
+    if factors is not None and key in factors:
+        apply = factors[key]
+    else:
+        try:
+            apply = _factor(A)
+        except Singular:
+            apply = None
+        if factors is not None:
+            factors[key] = apply
+    if apply is None:
+        raise Singular()
     x = apply(b)
     coo = A.tocoo()
     for _ in range(SWEEPS):
@@ -130,7 +145,8 @@ def _conserving(K: sp.spmatrix, M: sp.spmatrix, y_p: np.ndarray, y0: np.ndarray)
 
 
 def operating_point(K: sp.spmatrix, b: np.ndarray, bound: np.ndarray, M: sp.spmatrix | None = None,
-                    y0: np.ndarray | None = None) -> tuple[np.ndarray, bool]:
+                    y0: np.ndarray | None = None,
+                    factors: dict | None = None) -> tuple[np.ndarray, bool]:
     """(y_o, consistent): K y_o = b solved and refined, else least squares; y_o shape (n,).
 
     Where K is singular (charge trapped on capacitors, flux in loops of inductors and carriers)
@@ -141,11 +157,12 @@ def operating_point(K: sp.spmatrix, b: np.ndarray, bound: np.ndarray, M: sp.spma
     the largest plausible magnitude of each state; a solution beyond it is replaced by the
     least-squares one, and that by zero.  ``consistent`` is False where no operating point exists
     (unbounded growth): some row's residual exceeds ``CONSISTENT`` times that row's terms.
+    ``factors`` keeps K's factorisation for intervals that share K (see ``solve``).
     """
     n = b.shape[0]
     y = np.zeros(n)
     singular = False
-    for make in (lambda: solve(K, b), lambda: least_squares(K, b)):
+    for make in (lambda: solve(K, b, factors), lambda: least_squares(K, b)):
         try:
             trial = make()
         except (Singular, np.linalg.LinAlgError, RuntimeError):

@@ -139,23 +139,55 @@ def loop_capacitance(circuit: Circuit) -> float:
     with a resistance in every loop sees r_s in series with it and no pulse of its own.
     (Bounding r_s by the total capacitance instead would tie the pulse of a 1 pF loop to a 1 mF
     capacitor behind a resistor, and with the floor on r_s push the pulse up to the fastest
-    real mode.)"""
+    real mode.)
+
+    A capacitor lies in such a loop exactly when it is not a bridge of the multigraph of these
+    parts (a self-loop or a parallel edge is a loop); bridges are found in one depth-first
+    search (Tarjan's low-link rule), O(parts).
+    """
     edges = [p for p in circuit.parts if p.kind in (VOLTAGE_SOURCE, VCVS, CCVS) or (
         p.kind == SWITCH and not p.on_resistance) or (p.kind == CAPACITOR and p.value)]
-    total = 0.0
-    for cap in edges:
-        if cap.kind != CAPACITOR:
+    bridges = _bridges([(p.p, p.n) for p in edges])
+    return sum(abs(p.value) for i, p in enumerate(edges)
+               if p.kind == CAPACITOR and i not in bridges)
+
+
+def _bridges(edges: list[tuple[str, str]]) -> set[int]:
+    """Indices of the bridges of the undirected multigraph ``edges`` (node pairs): the edges
+    whose removal disconnects their two ends.  Iterative depth-first search with low-link
+    values (Tarjan 1974); each edge is entered once by its index, so parallel edges and
+    self-loops are never bridges."""
+    adjacency: dict[str, list[tuple[str, int]]] = {}
+    for i, (a, b) in enumerate(edges):
+        adjacency.setdefault(a, []).append((b, i))
+        adjacency.setdefault(b, []).append((a, i))
+    order: dict[str, int] = {}
+    low: dict[str, int] = {}
+    out: set[int] = set()
+    for root in adjacency:
+        if root in order:
             continue
-        parent: dict[str, str] = {}
-
-        find = partial(find_root, parent)
-
-        for part in edges:
-            if part is not cap:
-                parent[find(part.p)] = find(part.n)
-        if find(cap.p) == find(cap.n):
-            total += abs(cap.value)
-    return total
+        order[root] = low[root] = len(order)
+        stack = [(root, -1, iter(adjacency[root]))]
+        while stack:
+            here, via, it = stack[-1]
+            for there, i in it:
+                if i == via:
+                    continue
+                if there in order:
+                    low[here] = min(low[here], order[there])
+                else:
+                    order[there] = low[there] = len(order)
+                    stack.append((there, i, iter(adjacency[there])))
+                    break
+            else:
+                stack.pop()
+                if stack:
+                    parent = stack[-1][0]
+                    low[parent] = min(low[parent], low[here])
+                    if low[here] > order[parent]:
+                        out.add(via)
+    return out
 
 
 def _time_scales(circuit: Circuit, v: _Values) -> tuple[float, float]:
@@ -218,17 +250,23 @@ def unanchored(circuit: Circuit) -> set[str]:
     others, so it keeps a parasitic capacitance instead of being eliminated (equations.py)."""
     cap_nodes = {n for p in circuit.parts if p.kind == CAPACITOR for n in p.nodes}
     anchors = cap_nodes | {circuit.ground}
+    nodes = circuit.nodes
     out: set[str] = set()
+    seen: set[tuple[bool, ...]] = set()
     for time, before in [(0.0, True)] + [(t, False) for t in circuit.events]:
-        parent = {n: n for n in circuit.nodes}
+        conducting = tuple(_conducts(part, time, before) for part in circuit.parts)
+        if conducting in seen:  # the same parts conduct as in an earlier interval
+            continue
+        seen.add(conducting)
+        parent = {n: n for n in nodes}
 
         find = partial(find_root, parent)
 
-        for part in circuit.parts:
-            if _conducts(part, time, before):
+        for part, conducts in zip(circuit.parts, conducting):
+            if conducts:
                 parent[find(part.p)] = find(part.n)
         anchored = {find(n) for n in anchors}
-        out |= {n for n in circuit.nodes if n not in anchors and find(n) not in anchored}
+        out |= {n for n in nodes if n not in anchors and find(n) not in anchored}
     return out
 
 
