@@ -15,7 +15,9 @@ Method (no time stepping; plain dense linear algebra).
 3. State at 0- (``initial``).  DC steady state of the pre-step circuit, or, where parts carry
    ``initial``, the DC solve with those capacitors held as voltage sources and those inductors
    as current sources; contradictions and undefined storage values raise InitialStateError
-   naming the part and field.  The values at 0- of all other quantities are the right limit of
+   naming the part and field (the SVD that finds free storage values is taken only where an LU
+   condition estimate does not already show the DC matrix regular).  The values at 0- of all
+   other quantities are the right limit of
    the pre-step circuit's own exact response started from that storage state (the resistive
    network at 0- with capacitors as their voltages and inductors as their currents, capacitor
    currents included).  At later events the state before is the previous interval's exact
@@ -37,7 +39,9 @@ Method (no time stepping; plain dense linear algebra).
    unknowns on) take a faster exact route to the same representation (``symmetric``): the
    capacitance-free unknowns are eliminated by a Schur complement and one symmetric-definite
    eigenproblem eigh(S, C11) gives the modes; anything else falls back to the route above.
-5. Modes (``modes``).  A is split by eigenvalue cluster (ordered complex Schur + Sylvester):
+5. Modes (``modes``).  A is split by eigenvalue cluster (from one eigendecomposition where
+   its eigenvector basis is well conditioned, else by ordered complex Schur + Sylvester; on the
+   symmetric route A is diagonal and the clusters are index selections):
    the zero cluster (|lambda| <= 1e-10 s0: trapped charge or flux, part of x_inf), and clusters
    of eigenvalues equal to tolerances.MODE_MERGE (identical modes merged; defective ones give
    polynomial x exponential terms).  Complex pairs report their envelope tau and frequency.
@@ -55,7 +59,10 @@ Method (no time stepping; plain dense linear algebra).
    work of the independent sources during the impulse (None if a controlled source or resistor
    carries an impulse).  An inductor current cut by an opening switch is a warning.
 8. Thevenin (``thevenin``).  Per storage part: sources zeroed, other capacitors open, other
-   inductors shorted, controlled sources kept, a 1 A test injection: R_th = v / 1 A.
+   inductors shorted, controlled sources kept, a 1 A test injection: R_th = v / 1 A.  One LU
+   of the interval's G~ serves every test injection (an inductor's own "open" row by a
+   bordered solve), O(n^3) per interval; where G~ is not provably regular, one least-squares
+   solve per part with one shared null-space test.
 
 Limits: with the shift at the geometric centre of the modes, one interval classifies time
 constants spanning up to ~1e20 (slow ones must stay above the zero threshold 1e-10 s0, fast ones

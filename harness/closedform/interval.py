@@ -62,18 +62,30 @@ class Decomposition:
         left: z0 = left @ e for e = x(0-) - x_p, shape (f, n), real.
         clusters: A split by eigenvalue cluster (``modes.clusters_of``).
         zero_tol: |lambda| at or below which a mode counts as zero.
+        diagonal: A is diagonal (the symmetric route), so expm(A tau) z0 = e^(diag(A) tau) z0.
+        left_factors: (F1, F2) with left = F1 @ F2, kept factored (then ``left`` is None):
+            z0 = F1 (F2 e) costs O(n f) where forming left would cost O(n f r).
     """
 
     s0: float
     q1: np.ndarray
     a: np.ndarray
-    left: np.ndarray
+    left: np.ndarray | None
     clusters: tuple[Cluster, ...]
     zero_tol: float
+    diagonal: bool = False
+    left_factors: tuple[np.ndarray, np.ndarray] | None = None
 
     @property
     def order(self) -> int:
         return self.a.shape[0]
+
+    def coordinates(self, e: np.ndarray) -> np.ndarray:
+        """z0 = left @ e, shape (f,), for e = x(0-) - x_p, shape (n,)."""
+        if self.left is not None:
+            return self.left @ e
+        f1, f2 = self.left_factors
+        return f1 @ (f2 @ e)
 
 
 def _orth_complement(null: np.ndarray, n: int) -> np.ndarray:

@@ -29,7 +29,7 @@ from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, 
 from ..results import Jump
 from ..units import format_si
 from .linalg import least_squares
-from .mna import BRANCH_KINDS, Layout, Scale, current_row, voltage_row
+from .mna import BRANCH_KINDS, Layout, Scale, current_row, part_voltages
 
 #: impulse weights below this fraction of the circuit's charge (flux) scale count as zero
 SIGNIFICANT = 1e-9
@@ -93,9 +93,9 @@ def impulse_weights(g: np.ndarray, c: np.ndarray, x_minus: np.ndarray,
 def stored_energy(circuit: Circuit, layout: Layout, x: np.ndarray) -> dict[str, float]:
     """Energy in J of each capacitor (C v^2 / 2) and inductor (L i^2 / 2) for unscaled x."""
     out = {}
-    for part in circuit.parts:
+    volts = part_voltages(circuit, layout, x)
+    for part, v in zip(circuit.parts, volts):
         if part.kind == CAPACITOR:
-            v = voltage_row(layout, part.p, part.n) @ x
             out[part.name] = float(0.5 * part.value * v * v)
         elif part.kind == INDUCTOR:
             i = x[layout.branch(part.name)]
@@ -106,16 +106,22 @@ def stored_energy(circuit: Circuit, layout: Layout, x: np.ndarray) -> dict[str, 
 def _charges(circuit: Circuit, layout: Layout, q: np.ndarray, dx: np.ndarray) -> dict[str, float]:
     """Impulsive charge p -> n through every part (unscaled q, dx)."""
     out = {}
-    for part in circuit.parts:
+    dv, flux = part_voltages(circuit, layout, dx), part_voltages(circuit, layout, q)
+    for part, dvk, phi in zip(circuit.parts, dv, flux):
         if part.kind == CAPACITOR:
-            out[part.name] = float(part.value * (voltage_row(layout, part.p, part.n) @ dx))
-        elif part.kind in BRANCH_KINDS or part.kind in (RESISTOR, VCCS, CCCS):
+            out[part.name] = float(part.value * dvk)
+        elif part.kind in BRANCH_KINDS:
+            out[part.name] = float(q[layout.branch(part.name)])
+        elif part.kind == RESISTOR:
+            out[part.name] = float(phi / part.value)
+        elif part.kind in (VCCS, CCCS):
             out[part.name] = float(current_row(circuit, layout, part.name) @ q)
     return out
 
 
 def _fluxes(circuit: Circuit, layout: Layout, q: np.ndarray) -> dict[str, float]:
-    return {p.name: float(voltage_row(layout, p.p, p.n) @ q) for p in circuit.parts}
+    flux = part_voltages(circuit, layout, q)
+    return {p.name: float(phi) for p, phi in zip(circuit.parts, flux)}
 
 
 def _energy(circuit: Circuit, before: dict, after: dict, charges: dict, fluxes: dict,

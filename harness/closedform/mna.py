@@ -26,14 +26,19 @@ from __future__ import annotations
 from functools import partial
 import math
 import weakref
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Callable, Mapping
 
 import numpy as np
+import scipy.sparse as sp
+from scipy.sparse import csgraph
 
 from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, SWITCH, VCCS,
                      VCVS, VOLTAGE_SOURCE, Circuit, Part)
 
+#: from this many parts on, node groups come from scipy.sparse.csgraph and resistors and
+#: capacitors are stamped in one vectorised call (below, the plain Python loops are faster)
+GRAPH_MIN_PARTS = 48
 #: part kinds that own a branch-current variable
 BRANCH_KINDS = (VOLTAGE_SOURCE, VCVS, CCVS, INDUCTOR, SWITCH)
 
@@ -76,10 +81,13 @@ class Layout:
 
 
 def layout_of(circuit: Circuit) -> Layout:
-    """The variable layout of ``circuit`` (fixed for all intervals)."""
-    nodes = tuple(n for n in circuit.nodes if n != circuit.ground)
-    branches = tuple(p.name for p in circuit.parts if p.kind in BRANCH_KINDS)
-    return Layout(circuit.ground, nodes, branches)
+    """The variable layout of ``circuit`` (fixed for all intervals; built once per circuit)."""
+    memo = index_of(circuit).components
+    if "layout" not in memo:
+        nodes = tuple(n for n in index_of(circuit).nodes if n != circuit.ground)
+        branches = tuple(p.name for p in circuit.parts if p.kind in BRANCH_KINDS)
+        memo["layout"] = Layout(circuit.ground, nodes, branches)
+    return memo["layout"]
 
 
 @dataclass(frozen=True)
@@ -143,23 +151,77 @@ def voltage_row(layout: Layout, p: str, n: str) -> np.ndarray:
     return row
 
 
-_PART_INDEX: dict[int, tuple[weakref.ref, dict[str, Part]]] = {}
+@dataclass(frozen=True)
+class Index:
+    """Derived, read-only lookups of one circuit, built once (see ``index_of``).
+
+    Attributes:
+        nodes: ``circuit.nodes`` (ground first).
+        parts: part name -> part.
+        terminals: per part (file order), the positions in ``nodes`` of its p and n terminals,
+            shape (parts, 2), int.
+        positions: per node of ``nodes``, its position in the state x of ``layout_of`` (the
+            ground: n_nodes, where a padded zero sits), shape (nodes,), int.
+        components: memo of derived values: ``floating_groups`` (which parts connect, as the
+            bytes of the mask -> the groups), ``_stamp_admittances`` (per kind), ``layout_of``
+            and ``capacitor_null_basis``.
+    """
+
+    nodes: tuple[str, ...]
+    parts: dict
+    terminals: np.ndarray
+    positions: np.ndarray
+    components: dict = field(default_factory=dict, compare=False, repr=False)
+
+
+_INDEX: dict[int, tuple[weakref.ref, Index]] = {}
+
+
+def index_of(circuit: Circuit) -> Index:
+    """The ``Index`` of ``circuit``, built once per circuit.
+
+    Keyed by the circuit's identity and checked through a weak reference, so a new circuit at a
+    recycled address gets a fresh index (the circuit is frozen, so the index never goes stale).
+    """
+    entry = _INDEX.get(id(circuit))
+    if entry is None or entry[0]() is not circuit:
+        if len(_INDEX) > 64:
+            for key in [k for k, (ref, _) in _INDEX.items() if ref() is None]:
+                del _INDEX[key]
+        nodes = circuit.nodes
+        where = {n: i for i, n in enumerate(nodes)}
+        terminals = np.array([[where[p.p], where[p.n]] for p in circuit.parts],
+                             dtype=int).reshape(-1, 2)
+        positions = np.empty(len(nodes), dtype=int)
+        others = [i for i, n in enumerate(nodes) if n != circuit.ground]
+        positions[others] = np.arange(len(others))
+        positions[[i for i, n in enumerate(nodes) if n == circuit.ground]] = len(others)
+        entry = (weakref.ref(circuit), Index(nodes, {p.name: p for p in circuit.parts},
+                                             terminals, positions))
+        _INDEX[id(circuit)] = entry
+    return entry[1]
 
 
 def part_named(circuit: Circuit, name: str) -> Part:
-    """``circuit.part(name)`` through a name index built once per circuit (KeyError if none).
+    """``circuit.part(name)`` through the circuit's ``Index`` (KeyError if none)."""
+    return index_of(circuit).parts[name]
 
-    The index is keyed by the circuit's identity and checked through a weak reference, so a
-    new circuit at a recycled address gets a fresh index.
-    """
-    entry = _PART_INDEX.get(id(circuit))
-    if entry is None or entry[0]() is not circuit:
-        if len(_PART_INDEX) > 64:
-            for key in [k for k, (ref, _) in _PART_INDEX.items() if ref() is None]:
-                del _PART_INDEX[key]
-        entry = (weakref.ref(circuit), {p.name: p for p in circuit.parts})
-        _PART_INDEX[id(circuit)] = entry
-    return entry[1][name]
+
+def part_voltages(circuit: Circuit, layout: Layout, x: np.ndarray) -> np.ndarray:
+    """v(p) - v(n) of every part (file order) for the state ``x`` (shape (n,) or (n, k)),
+    shape (parts,) or (parts, k): the rows ``voltage_row`` gives, applied all at once."""
+    idx = index_of(circuit)
+    pos = _layout_positions(idx, layout)
+    xe = np.concatenate([np.asarray(x)[:layout.n_nodes], np.zeros((1,) + np.shape(x)[1:])])
+    return xe[pos[idx.terminals[:, 0]]] - xe[pos[idx.terminals[:, 1]]]
+
+
+def _layout_positions(idx: Index, layout: Layout) -> np.ndarray:
+    """Position in x of every node of ``idx.nodes`` (ground: n_nodes, a padded zero)."""
+    if layout.ground == idx.nodes[0] and layout.nodes == idx.nodes[1:]:
+        return idx.positions                      # the layout of ``layout_of``
+    return np.array([layout.n_nodes if n == layout.ground else layout.node(n)
+                     for n in idx.nodes], dtype=int)
 
 
 def current_row(circuit: Circuit, layout: Layout, name: str) -> np.ndarray:
@@ -201,18 +263,26 @@ def stamp(circuit: Circuit, layout: Layout, closed: Mapping[str, bool],
           value: Callable[[Part], float]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Unscaled MNA matrices (G, C, b), shapes (n, n), (n, n), (n,).
 
+    From GRAPH_MIN_PARTS parts on, resistors and capacitors are stamped all at once
+    (``_stamp_admittances``); every other part (and, below that size, every part) one by one in
+    file order.
+
     Args:
         closed: switch name -> closed in this interval.
         value: independent source -> its value (V or A) in this interval.
     """
     size = layout.size
     g, c, b = np.zeros((size, size)), np.zeros((size, size)), np.zeros(size)
+    together = len(circuit.parts) >= GRAPH_MIN_PARTS
+    if together:
+        _stamp_admittances(g, circuit, layout, RESISTOR, lambda v: 1.0 / v)
+        _stamp_admittances(c, circuit, layout, CAPACITOR, lambda v: v)
     for part in circuit.parts:
-        if part.kind == RESISTOR:
+        if part.kind == RESISTOR and not together:
             _stamp_two(g, layout, part.p, part.n, 1.0 / part.value)
-            continue
-        if part.kind == CAPACITOR:
+        if part.kind == CAPACITOR and not together:
             _stamp_two(c, layout, part.p, part.n, part.value)
+        if part.kind in (RESISTOR, CAPACITOR):
             continue
         if part.kind == CURRENT_SOURCE:
             _inject(b, layout, part.p, part.n, value(part))
@@ -223,6 +293,43 @@ def stamp(circuit: Circuit, layout: Layout, closed: Mapping[str, bool],
         else:
             _stamp_branch(circuit, layout, part, vrow, closed, value, g, c, b)
     return g, c, b
+
+
+def stamp_sources(circuit: Circuit, layout: Layout, value: Callable[[Part], float]) -> np.ndarray:
+    """The right side b alone, shape (n,): what ``stamp`` gives for b (independent current
+    sources into their KCL rows, voltage sources on their branch rows), in O(parts)."""
+    b = np.zeros(layout.size)
+    for part in circuit.parts:
+        if part.kind == CURRENT_SOURCE:
+            _inject(b, layout, part.p, part.n, value(part))
+        elif part.kind == VOLTAGE_SOURCE:
+            b[layout.branch(part.name)] = value(part)
+    return b
+
+
+def _stamp_admittances(m: np.ndarray, circuit: Circuit, layout: Layout, kind: str,
+                       admittance: Callable[[float], float]) -> None:
+    """Add every two-terminal admittance of the parts of ``kind`` (in file order, each as
+    ``_stamp_two`` would, in the same order of accumulation) with one ``np.add.at``; the
+    entries are built once per circuit (memoised in its ``Index`` for the standard layout)."""
+    idx = index_of(circuit)
+    pos = _layout_positions(idx, layout)
+    key = ("admittances", kind)
+    entries = idx.components.get(key) if pos is idx.positions else None
+    if entries is None:
+        rows = [i for i, p in enumerate(circuit.parts) if p.kind == kind]
+        ip, in_ = pos[idx.terminals[rows, 0]], pos[idx.terminals[rows, 1]]
+        y = np.array([admittance(circuit.parts[i].value) for i in rows], dtype=float)
+        nn = layout.n_nodes                       # the ground's padded position
+        r = np.stack([ip, ip, in_, in_], axis=1).ravel()
+        col = np.stack([ip, in_, in_, ip], axis=1).ravel()
+        val = np.stack([y, -y, y, -y], axis=1).ravel()
+        keep = (r != nn) & (col != nn)
+        entries = (r[keep], col[keep], val[keep])
+        if pos is idx.positions:
+            idx.components[key] = entries
+    if entries[0].size:
+        np.add.at(m, (entries[0], entries[1]), entries[2])
 
 
 def _stamp_two(m: np.ndarray, layout: Layout, p: str, n: str, y: float) -> None:
@@ -294,8 +401,19 @@ def capacitor_null_basis(circuit: Circuit, layout: Layout) -> np.ndarray:
     null space is spanned by (a) every branch current that is not an inductor's, and (b) for each
     set of nodes joined by capacitors that does not reach ground, the (normalised) indicator of
     that set (a node without capacitors is a set of its own).  Exact, with no rank decision.
+    Built once per circuit and layout (read-only).
     """
-    parent = {n: n for n in circuit.nodes}
+    memo = index_of(circuit).components
+    key = ("null", layout)
+    if key not in memo:
+        basis = _capacitor_null_basis(circuit, layout)
+        basis.flags.writeable = False
+        memo[key] = basis
+    return memo[key]
+
+
+def _capacitor_null_basis(circuit: Circuit, layout: Layout) -> np.ndarray:
+    parent = {n: n for n in index_of(circuit).nodes}
 
     find = partial(find_root, parent)
 
@@ -324,20 +442,43 @@ def floating_groups(circuit: Circuit, connects: Callable[[Part], bool]) -> list[
     """Sets of non-ground nodes with no path to ground through parts for which ``connects`` holds.
 
     Control terminals of vcvs/vccs never connect.  Returned in node order, each group in node
-    order; such groups have an undefined common-mode voltage.
+    order; such groups have an undefined common-mode voltage.  Connected components by
+    union-find for small circuits, by scipy.sparse.csgraph (breadth-first search in C) from
+    GRAPH_MIN_PARTS parts on; memoised per circuit by which parts connect (intervals with the
+    same switch states share the answer).
     """
-    parent = {n: n for n in circuit.nodes}
+    idx = index_of(circuit)
+    mask = np.fromiter((connects(p) for p in circuit.parts), bool, len(circuit.parts))
+    key = mask.tobytes()
+    if key not in idx.components:
+        if len(idx.components) > 256:
+            for stale in [k for k in idx.components if isinstance(k, bytes)]:
+                del idx.components[stale]
+        idx.components[key] = _components(circuit, idx, mask)
+    return [list(g) for g in idx.components[key]]
 
-    find = partial(find_root, parent)
 
-    for part in circuit.parts:
-        if connects(part):
-            parent[find(part.p)] = find(part.n)
-    groups: dict[str, list[str]] = {}
-    for node in circuit.nodes:
-        if node != circuit.ground and find(node) != find(circuit.ground):
-            groups.setdefault(find(node), []).append(node)
-    return list(groups.values())
+def _components(circuit: Circuit, idx: Index, mask: np.ndarray) -> tuple[tuple[str, ...], ...]:
+    """The node groups off ground when the parts in ``mask`` connect (``floating_groups``)."""
+    nodes, ground = idx.nodes, circuit.ground
+    if len(circuit.parts) < GRAPH_MIN_PARTS:
+        parent = {n: n for n in nodes}
+        find = partial(find_root, parent)
+        for part, joins in zip(circuit.parts, mask):
+            if joins:
+                parent[find(part.p)] = find(part.n)
+        label = [find(n) for n in nodes]
+    else:
+        ends = idx.terminals[mask]
+        graph = sp.coo_matrix((np.ones(len(ends)), (ends[:, 0], ends[:, 1])),
+                              shape=(len(nodes), len(nodes)))
+        label = csgraph.connected_components(graph, directed=False)[1].tolist()
+    home = label[nodes.index(ground)]
+    groups: dict = {}
+    for node, lab in zip(nodes, label):
+        if node != ground and lab != home:
+            groups.setdefault(lab, []).append(node)
+    return tuple(tuple(g) for g in groups.values())
 
 
 def connects_in_interval(closed: Mapping[str, bool]) -> Callable[[Part], bool]:

@@ -16,6 +16,7 @@ and W_j z0 for the probe features.
 from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
+from functools import cached_property
 from typing import Mapping
 
 import numpy as np
@@ -75,7 +76,8 @@ class IntervalResponse:
         xp: particular solution, shape (n_aug,) (zero when augmented).
         dec: the decomposition used (of the augmented pencil when augmented).
         z0: dynamic coordinates at t_k+, shape (f,).
-        clusters: per-cluster data.
+        clusters: per-cluster data (built on first use: the solve itself needs only the
+            decomposition's clusters, ``dec.clusters``, in the same order).
         x_plus, dx_plus: x~ and dx~/dtau at t_k+, shape (n,).
         x_end, dx_end: the same at t_(k+1)-, or None for the last interval.
     """
@@ -92,7 +94,6 @@ class IntervalResponse:
     xp: np.ndarray
     dec: Decomposition
     z0: np.ndarray
-    clusters: tuple[ClusterData, ...]
     x_plus: np.ndarray
     dx_plus: np.ndarray
     x_end: np.ndarray | None = None
@@ -103,12 +104,22 @@ class IntervalResponse:
     def n(self) -> int:
         return self.g.shape[0]
 
+    @cached_property
+    def clusters(self) -> tuple[ClusterData, ...]:
+        """Per-cluster data, one per ``dec.clusters`` (``_cluster_data``), built once."""
+        return _cluster_data(self.dec, self.z0)
+
     def states(self, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """x~ and dx~/dtau at scaled times ``tau`` >= 0, shapes (len(tau), n_aug) each."""
         tau = np.asarray(tau, dtype=float)
         f = self.dec.order
         if f == 0:
             return np.tile(self.xp, (tau.size, 1)), np.zeros((tau.size, self.xp.size))
+        if self.dec.diagonal:                      # expm(diag(lam) tau) z0 = e^(lam tau) z0
+            lam = np.diagonal(self.dec.a)
+            with np.errstate(over="ignore", invalid="ignore"):
+                expo = np.exp(np.outer(tau, lam)) * self.z0
+                return self.xp[None, :] + expo @ self.dec.q1.T, (expo * lam) @ self.dec.q1.T
         if f > DENSE_EXPM_ORDER or tau.size > DENSE_EXPM_TIMES:
             return self._states_by_cluster(tau)
         with np.errstate(over="ignore", invalid="ignore"):
@@ -160,7 +171,14 @@ def _cluster_data(dec: Decomposition, z0: np.ndarray) -> tuple[ClusterData, ...]
         starts = np.cumsum([0] + [cl.size for cl in general])
     pos = 0
     q1c, z0c = dec.q1.astype(complex), z0.astype(complex)
+    q1t = q1c * np.diagonal(dec.a) if dec.diagonal else None     # Q1 A for a diagonal A
     for cl in dec.clusters:
+        if cl.index is not None and len(cl.index) == 1:   # one unit column: views, O(1)
+            i = cl.index[0]
+            qv = q1c[:, i:i + 1]
+            qvt = q1t[:, i:i + 1] if q1t is not None else qv * cl.block[0, 0]
+            out.append(ClusterData(cl, qv, qvt, z0c[i:i + 1]))
+            continue
         if cl.index is not None:                  # unit selections: pick columns, O(n m)
             idx = list(cl.index)
             qv = q1c[:, idx]
@@ -199,13 +217,16 @@ def build(layout: Layout, pencil: Pencil, null: np.ndarray, b: np.ndarray, x_min
         dec = pencil.dec
         e = x_minus - xp
     with np.errstate(invalid="ignore", over="ignore"):     # a state beyond range stays NaN
-        z0 = dec.left @ e
+        z0 = dec.coordinates(e)
     resp = IntervalResponse(index, start, next_time, dict(values), g, c, b, augmented,
-                            growth_nodes, xp, dec, z0, _cluster_data(dec, z0),
-                            np.zeros(n), np.zeros(n), closed=dict(closed))
+                            growth_nodes, xp, dec, z0, np.zeros(n), np.zeros(n),
+                            closed=dict(closed))
     x0, dx0 = resp.states(np.zeros(1))
     ends: dict = {"x_plus": x0[0, :n], "dx_plus": dx0[0, :n]}
     if next_time is not None:
         x1, dx1 = resp.states(np.array([(next_time - start) / t_ref]))
         ends.update(x_end=x1[0, :n], dx_end=dx1[0, :n])
-    return replace(resp, **ends)
+    out = replace(resp, **ends)
+    if "clusters" in resp.__dict__:              # built by ``states``: keep it
+        out.__dict__["clusters"] = resp.__dict__["clusters"]
+    return out

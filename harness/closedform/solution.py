@@ -17,8 +17,8 @@ from .initial import dc_state
 from .interval import SingularPencil
 from .jumps import Scales, jump_at
 from .mna import (Layout, Scale, capacitor_null_basis, connects_in_interval, floating_groups,
-                  layout_of, pin, scale_of, scaled, stamp)
-from .modes import Mode, mode_of
+                  layout_of, pin, scale_of, scaled, stamp, stamp_sources)
+from .modes import UNDAMPED, Mode, mode_of
 from .probes import functional
 from .response import IntervalResponse, Pencil, build, pencil_of
 from . import signoff
@@ -102,7 +102,7 @@ class ClosedFormSolution:
     def interval_modes(self, k: int) -> tuple[Mode, ...]:
         """Every mode cluster of interval k with its complex rate in 1/s (slowest first)."""
         resp = self.intervals[k]
-        modes = [mode_of(cd.cluster, self.scale.t) for cd in resp.clusters]
+        modes = [mode_of(cl, self.scale.t) for cl in resp.dec.clusters]
         return tuple(sorted(modes, key=lambda m: abs(m.rate)))
 
     def time_constants(self, k: int) -> tuple[float, ...]:
@@ -288,7 +288,7 @@ def _blamed_part(circuit: Circuit, nodes: list[str]) -> tuple[str | None, str | 
 
 
 def _b_scaled(circuit, layout, scale, closed, values) -> np.ndarray:
-    _, _, b = stamp(circuit, layout, closed, lambda p: values[p.name])
+    b = stamp_sources(circuit, layout, lambda p: values[p.name])
     return scale.row(layout) * b
 
 
@@ -352,8 +352,11 @@ def _interval_warnings(circuit: Circuit, resp: IntervalResponse, scale: Scale) -
                    f"{(' (it charges ' + ', '.join(caps) + ')') if caps else ''}: the voltage "
                    f"grows without bound")
     active = [p.name for p in circuit.parts if p.kind in (VCVS, VCCS, CCVS, CCCS)]
-    for cd in resp.clusters:
-        mode = mode_of(cd.cluster, scale.t)
+    for cl in resp.dec.clusters:
+        rate = complex(cl.rate)
+        if cl.zero or rate.real < -UNDAMPED * abs(rate):
+            continue                                  # constant or decaying: nothing to say
+        mode = mode_of(cl, scale.t)
         if mode.kind == "growing":
             out.append(f"from {when} a growing mode (e-folding time "
                        f"{format_si(1 / mode.rate.real, 's')}) makes the response grow without "

@@ -89,9 +89,10 @@ def _symmetric(m: np.ndarray) -> np.ndarray | None:
     """(m + m^T)/2 when max |m - m^T| <= SYMMETRY_REL max |m + m^T|, else None."""
     if not np.all(np.isfinite(m)):
         return None
-    sym = m + m.T
     dev = m - m.T
-    if np.abs(dev).max(initial=0.0) > SYMMETRY_REL * np.abs(sym).max(initial=0.0):
+    np.abs(dev, out=dev)
+    sym = m + m.T
+    if dev.max(initial=0.0) > SYMMETRY_REL * np.abs(sym).max(initial=0.0):
         return None
     sym *= 0.5
     return sym
@@ -107,20 +108,48 @@ def _householder_complement(u: np.ndarray) -> np.ndarray:
     return h[:, 1:]
 
 
+class _Selection:
+    """A 0/1 matrix whose column j is the unit vector e_(rows[j]) (shape (n, k)), or its
+    transpose, applied by indexing: the products R^T M, N0^T M, R V and N0 V of the reduction
+    are row picks and row scatters, exact and O(size of the result)."""
+
+    def __init__(self, rows: np.ndarray, n: int, transposed: bool = False) -> None:
+        self.rows, self.n, self.transposed = rows, n, transposed
+        self.shape = (rows.size, n) if transposed else (n, rows.size)
+
+    @property
+    def T(self) -> "_Selection":
+        return _Selection(self.rows, self.n, not self.transposed)
+
+    def __matmul__(self, m: np.ndarray) -> np.ndarray:
+        m = np.asarray(m)
+        if self.transposed:
+            return m[self.rows]
+        out = np.zeros((self.n,) + m.shape[1:], dtype=m.dtype)
+        out[self.rows] = m
+        return out
+
+
 def _bases(null: np.ndarray, n: int):
-    """N0 (the given null columns) and R (orthonormal complement), scipy.sparse above
-    DENSE_BELOW unknowns, or None when the null columns do not have disjoint supports."""
+    """N0 (the given null columns) and R (orthonormal complement): column selections
+    (``_Selection``) when every null column is a unit vector, else scipy.sparse above
+    DENSE_BELOW unknowns; None when the null columns do not have disjoint supports."""
     owner = np.full(n, -1)
     blocks = []                                    # (support, complement columns)
+    units = []                                     # the row of each unit null column
     for j in range(null.shape[1]):
         support = np.flatnonzero(null[:, j])
         if np.any(owner[support] >= 0):
             return None
         owner[support] = j
+        if support.size == 1 and null[support[0], j] == 1.0:
+            units.append(int(support[0]))
         if support.size > 1:
             u = null[support, j] / np.linalg.norm(null[support, j])
             blocks.append((support, _householder_complement(u)))
     free = np.flatnonzero(owner < 0)
+    if len(units) == null.shape[1]:                # every null column a unit vector e_i
+        return _Selection(np.array(units, dtype=int), n), _Selection(free, n)
     width = free.size + sum(comp.shape[1] for _, comp in blocks)
     if n <= DENSE_BELOW:                           # sparse bookkeeping costs more here
         r = np.zeros((n, width))
@@ -221,5 +250,5 @@ def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray) -> Decomposition |
     q1 = np.asarray(r @ vk)
     if n0.shape[1]:
         q1 = q1 - np.asarray(n0 @ (h @ vk))
-    left = vk.T @ rtc
-    return Decomposition(s0, q1, np.diag(lam), left, diagonal_clusters(lam, zero_tol), zero_tol)
+    return Decomposition(s0, q1, np.diag(lam), None, diagonal_clusters(lam, zero_tol), zero_tol,
+                         diagonal=True, left_factors=(vk.T, rtc))

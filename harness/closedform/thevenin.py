@@ -7,6 +7,19 @@ itself, inject a 1 A test current into P's p terminal (out of n) and read v_p - 
 is R_th, so tau = R_th C or L / R_th for a single-storage circuit; with a controlled source the
 test-source method includes feedback exactly (Miller: R (1 + A) for an inverting gain -A across
 the capacitor).  A terminal pair with no resistive path reads +inf.
+
+Cost, for n unknowns and s storage parts.  Every capacitor sees the same matrix G~, so one LU
+of G~ serves all their test injections at once (one multi-column solve).  An inductor's own
+row is replaced by i = 0; for a regular G~ that is a rank-one change of one row, handled by the
+bordered solve (Sherman-Morrison; Golub & Van Loan, *Matrix Computations*, 4th ed., sec. 2.1.4)
+
+    G~ x = r + e_j lam,  x_j = 0   =>   x = y - w y_j / w_j,   y = G~^-1 r,  w = G~^-1 e_j,
+
+so the whole interval costs O(n^3 + s n^2) instead of one least-squares solve and one SVD per
+part (O(s n^3)).  Where G~ is not provably regular (an LU condition estimate) or an inductor's
+w_j is too small to trust (opening it leaves no resistive path), the per-part route is used: a
+least-squares solve and a null-space test, with the SVD of G~ taken once per interval for all
+capacitors and one per such inductor.
 """
 
 from __future__ import annotations
@@ -14,8 +27,40 @@ from __future__ import annotations
 import numpy as np
 
 from ..model import CAPACITOR, INDUCTOR, Circuit
-from .linalg import least_squares
-from .mna import Layout, Scale, voltage_row
+from .linalg import least_squares, regular_factor
+from .mna import Layout, Scale
+
+#: G~ with an estimated reciprocal condition number (1-norm) above this takes the batched route.
+#: Faithful to the per-part null test (singular values below 1e-12 of the largest): it implies
+#: sigma_min / sigma_max > ~1e-7 / n, far above 1e-12 for any circuit within the part limit
+BATCH_RCOND = 1e-6
+#: an inductor whose bordered pivot |w_j| is below this fraction of max |w| takes the per-part
+#: route (opening it may leave its terminals without a resistive path)
+BORDER_PIVOT = 1e-6
+#: a singular value below this fraction of the largest spans the null space (per-part route)
+NULL_REL = 1e-12
+#: a test voltage row with a null-space component above this reads +inf (no unique voltage)
+NULL_COUPLING = 1e-9
+
+
+def _storage(circuit: Circuit) -> list:
+    return [p for p in circuit.parts if p.kind in (CAPACITOR, INDUCTOR)]
+
+
+def _injections(layout: Layout, scale: Scale, parts: list) -> tuple[np.ndarray, np.ndarray]:
+    """(V, Rhs), shapes (n, s) each: column k is part k's voltage row v_p - v_n and its scaled
+    1 A test injection (on the node rows only)."""
+    n, nn = layout.size, layout.n_nodes
+    vrows = np.zeros((n, len(parts)))
+    for k, part in enumerate(parts):
+        ip, in_ = layout.node(part.p), layout.node(part.n)
+        if ip is not None:
+            vrows[ip, k] += 1.0
+        if in_ is not None:
+            vrows[in_, k] -= 1.0
+    rhs = vrows.copy()
+    rhs[nn:] = 0.0
+    return vrows, scale.r0 * rhs
 
 
 def thevenin_resistances(circuit: Circuit, layout: Layout, scale: Scale,
@@ -25,28 +70,73 @@ def thevenin_resistances(circuit: Circuit, layout: Layout, scale: Scale,
     Args:
         g_scaled: the interval's scaled G~ (shape (n, n)), floating groups already pinned.
     """
+    parts = _storage(circuit)
+    if not parts:
+        return {}
+    vrows, rhs = _injections(layout, scale, parts)
+    factor = regular_factor(g_scaled, BATCH_RCOND, min_size=1)
+    if factor is None:
+        return _per_part(layout, g_scaled, parts, vrows, rhs)
+    solve = (lambda m: _refined_solve(g_scaled, factor, m))
+    x = solve(rhs)                                   # (n, s): every test injection at once
+    out = {p.name: float(vrows[:, k] @ x[:, k]) for k, p in enumerate(parts)
+           if p.kind == CAPACITOR}
+    inductors = [k for k, p in enumerate(parts) if p.kind == INDUCTOR]
+    if inductors:
+        cols = np.array([layout.branch(parts[k].name) for k in inductors])
+        unit = np.zeros((g_scaled.shape[0], cols.size))
+        unit[cols, np.arange(cols.size)] = 1.0
+        w = solve(unit)                              # (n, l): G~^-1 e_j per inductor
+        for i, k in enumerate(inductors):
+            j, wk = cols[i], w[:, i]
+            if abs(wk[j]) <= BORDER_PIVOT * np.abs(wk).max(initial=0.0):
+                out.update(_per_part(layout, g_scaled, [parts[k]], vrows[:, [k]],
+                                     rhs[:, [k]]))
+                continue
+            xk = x[:, k] - wk * (x[j, k] / wk[j])    # x_j = 0: the inductor itself open
+            out[parts[k].name] = float(vrows[:, k] @ xk)
+    return {p.name: out[p.name] for p in parts}
+
+
+def _refined_solve(g: np.ndarray, factor, rhs: np.ndarray) -> np.ndarray:
+    """g^-1 rhs from the LU ``factor`` of g with one step of iterative refinement (the
+    per-part route's least squares refines too), shape like ``rhs``."""
+    x = factor.solve(rhs)
+    return x + factor.solve(rhs - g @ x)
+
+
+def _per_part(layout: Layout, g_scaled: np.ndarray, parts: list, vrows: np.ndarray,
+              rhs: np.ndarray) -> dict[str, float]:
+    """R_th by one least-squares solve per part and a null-space test: the SVD of G~ is taken
+    once for all capacitors, and once per inductor (whose own row is replaced by i = 0)."""
     out = {}
-    for part in circuit.parts:
-        if part.kind not in (CAPACITOR, INDUCTOR):
-            continue
-        g = g_scaled.copy()
+    shared = None
+    for k, part in enumerate(parts):
+        g = g_scaled
         if part.kind == INDUCTOR:
+            g = g_scaled.copy()
             j = layout.branch(part.name)
             g[j, :] = 0.0
-            g[j, j] = 1.0                       # the part itself open: i = 0
-        vrow = voltage_row(layout, part.p, part.n)
-        rhs = scale.r0 * vrow[:layout.size] * (np.arange(layout.size) < layout.n_nodes)
-        out[part.name] = _solve_ratio(g, rhs, vrow)
+            g[j, j] = 1.0                            # the part itself open: i = 0
+            null = _null_space(g)
+        else:
+            shared = _null_space(g) if shared is None else shared
+            null = shared
+        out[part.name] = _solve_ratio(g, rhs[:, k], vrows[:, k], null)
     return out
 
 
-def _solve_ratio(g: np.ndarray, rhs: np.ndarray, vrow: np.ndarray) -> float:
+def _null_space(g: np.ndarray) -> np.ndarray:
+    """Rows spanning the numerical null space of g (singular values <= NULL_REL * largest)."""
+    _, sv, vh = np.linalg.svd(g)
+    return vh[sv <= NULL_REL * sv.max()]
+
+
+def _solve_ratio(g: np.ndarray, rhs: np.ndarray, vrow: np.ndarray, null: np.ndarray) -> float:
     """v = vrow . x for G~ x = rhs (1 A injected, scaled); +inf if no solution or not unique."""
     x, _, consistent = least_squares(g, rhs)
     if not consistent:
         return float("inf")
-    _, sv, vh = np.linalg.svd(g)
-    null = vh[sv <= 1e-12 * sv.max()]
-    if null.shape[0] and np.max(np.abs(null @ vrow)) > 1e-9:
+    if null.shape[0] and np.max(np.abs(null @ vrow)) > NULL_COUPLING:
         return float("inf")
     return float(vrow @ x)

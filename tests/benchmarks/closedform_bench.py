@@ -1,8 +1,11 @@
 """Closed-form engine against its linear-algebra limit, and its scaling (sections 1 and 3).
 
-The limit is the bare LAPACK work on the same matrices the engine decomposes: for the symmetric
-route the LU of the algebraic block and ``scipy.linalg.eigh(S, C11)`` on the reduced capacitor
-coordinates (see harness/closedform/symmetric.py); for reference also a dense non-symmetric
+The limit is the bare LAPACK work on the same matrices the engine decomposes, for the route the
+engine takes on that circuit: for the symmetric route the LU of the algebraic block and
+``scipy.linalg.eigh(S, C11)`` on the reduced capacitor coordinates (see
+harness/closedform/symmetric.py); for the general route (small circuits, inductors, controlled
+sources) the LU of G~ + s0 C~, the solve for M R, the ordered real Schur form of K and the
+Sylvester equation (harness/closedform/interval.py).  For reference also a dense non-symmetric
 ``eig`` of C11^-1 S and QZ (``scipy.linalg.eig(G, C)``) on the full MNA pencil.
 """
 
@@ -54,8 +57,28 @@ def _general_only(fn):
         response.symmetric.decompose = real
 
 
+def general_limit(gs, cs, null, reps: int) -> float:
+    """Median time in s of the general route's decomposition calls on the pencil at s0 = 1:
+    lu_factor(G~ + C~), lu_solve for M R = (G~ + C~)^-1 C~ R, the ordered real Schur form of
+    K = R^T M R (finite block first) and the Sylvester equation that decouples it."""
+    import math
+    from harness.closedform.interval import INFINITE_REL, _orth_complement
+    r = _orth_complement(null, gs.shape[0])
+    cr = cs @ r
+    thr = INFINITE_REL
+
+    def bare():
+        lu = sla.lu_factor(gs + cs, check_finite=False)
+        k = r.T @ sla.lu_solve(lu, cr, check_finite=False)
+        t, _, f = sla.schur(k, output="real", sort=lambda x, y: math.hypot(x, y) > thr)
+        if 0 < f < t.shape[0]:
+            sla.solve_sylvester(t[:f, :f], -t[f:, f:], -t[:f, f:])
+    return median_time(bare, reps)
+
+
 def limit_row(circuit, with_general: bool, with_reference: bool) -> dict:
-    """Median times in s of the engine's solve and of the bare decompositions for one circuit."""
+    """Median times in s of the engine's solve and of the bare decompositions for one circuit
+    (``limit``, for the route the engine takes: ``route`` "symmetric" or "general")."""
     t_solve = median_time(lambda: solve(circuit), 1, warmup=0)
     reps = repeats_for(t_solve, budget=4.0, low=3, high=15)
     row = {"circuit": circuit.title, "unknowns": None, "solve": median_time(
@@ -66,18 +89,21 @@ def limit_row(circuit, with_general: bool, with_reference: bool) -> dict:
     if red is not None:
         s, c11, g22 = red
         row["coords"] = s.shape[0]
+    if symmetric.decompose(gs, cs, null) is not None:
+        row["route"] = "symmetric"
 
         def bare():
             if g22.size:
                 sla.lu_factor(g22, check_finite=False)
             sla.eigh(s, c11, check_finite=False)
         row["limit"] = median_time(bare, reps)
-        if with_reference:
-            row["eig"] = median_time(lambda: np.linalg.eig(np.linalg.solve(c11, s)), 3)
-            if gs.shape[0] <= 400:
-                row["qz"] = median_time(lambda: sla.eig(gs, cs, right=False), 3)
-    if row["unknowns"] >= 100:
-        row["projected"] = projected(circuit)
+    else:
+        row["route"] = "general"
+        row["limit"] = general_limit(gs, cs, null, reps)
+    if red is not None and with_reference:
+        row["eig"] = median_time(lambda: np.linalg.eig(np.linalg.solve(c11, s)), 3)
+        if gs.shape[0] <= 400:
+            row["qz"] = median_time(lambda: sla.eig(gs, cs, right=False), 3)
     if with_general:
         row["general"] = median_time(lambda: _general_only(lambda: solve(circuit)), 3)
     return row
@@ -160,37 +186,3 @@ def solve_profile(n: int, top: int = 8) -> tuple[float, list[tuple[str, float]]]
         rows.append((f"{short}:{name}", tt))
     rows.sort(key=lambda r: -r[1])
     return stats.total_tt, rows[:top]
-
-
-def _gated_check_unique():
-    """A what-if for initial._check_unique: skip its full SVD when an LU condition estimate
-    shows the DC matrix is regular (then it has no null space); the original otherwise."""
-    from harness.closedform import initial
-    original = initial._check_unique
-
-    def gated(circuit, layout, scale, gd):
-        from scipy.linalg import lapack
-        lu, _piv, info = lapack.dgetrf(gd)
-        if info == 0:
-            rcond, info2 = lapack.dgecon(lu, float(np.abs(gd).sum(axis=0).max()), norm="1")
-            if info2 == 0 and rcond > 1e-8:
-                return None
-        return original(circuit, layout, scale, gd)
-    return initial, original, gated
-
-
-def projected(circuit) -> float:
-    """Median solve time with two changes outside this task's files, patched in here only:
-    the gated DC uniqueness check, and ``Circuit.part`` through a name index (it is a linear
-    search, called once per part by jumps._significant: O(parts^2))."""
-    from harness.closedform.mna import part_named
-    from harness.model import Circuit
-    initial, original, gated = _gated_check_unique()
-    lookup = Circuit.part
-    initial._check_unique = gated
-    Circuit.part = lambda self, name: part_named(self, name)
-    try:
-        return median_time(lambda: solve(circuit), 3)
-    finally:
-        initial._check_unique = original
-        Circuit.part = lookup

@@ -1,0 +1,327 @@
+"""The closed form's fast paths give what the slow ones (and outside references) give.
+
+* The DC uniqueness check skips its SVD only where an LU condition estimate shows the matrix is
+  regular: it must still refuse a DC circuit that leaves a storage value free, and the gate must
+  never call a matrix regular that numpy's SVD finds singular.
+* Thevenin resistances of all storage parts come from one LU of the interval's G~ (inductors by
+  a bordered solve): they must equal the per-part route and, on RC networks, the textbook
+  two-port value (e_a - e_b)^T Y^-1 (e_a - e_b) of the nodal admittance matrix built here.
+* Least squares refined with the LU factors equals numpy's least-squares solution.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from harness import closedform
+from harness.closedform import initial, linalg, thevenin
+from harness.errors import InitialStateError
+from tests.closedform_circuits import C, E, L, R, V, circuit
+
+
+# ------------------------------------------------------------------------ uniqueness gate
+def _ladder(sections: int):
+    """An RC ladder from node "in", so that the DC system is large enough for the gate."""
+    parts, prev = [], "in"
+    for k in range(sections):
+        parts += [R(f"Rl{k}", prev, f"l{k}", 1e3), C(f"Cl{k}", f"l{k}", "gnd", 1e-9)]
+        prev = f"l{k}"
+    return parts
+
+
+@pytest.mark.parametrize("sections", [0, 40])
+def test_gated_uniqueness_check_still_refuses_parallel_inductors(sections):
+    """Two ideal inductors in parallel across a DC source path: the circulating DC current is
+    undetermined (textbook: a loop of ideal inductors has no DC equation for its loop current),
+    so the state at 0- is refused, naming an inductor and its initial value; with 40 extra
+    sections the DC matrix is past the gate's size and the gate must send it to the SVD."""
+    circ = circuit(V("V1", "in", "gnd", 5.0), R("R1", "in", "a", 1.0),
+                   L("L1", "a", "gnd", 1e-3), L("L2", "a", "gnd", 2e-3), *_ladder(sections))
+    with pytest.raises(InitialStateError) as info:
+        closedform.solve(circ)
+    assert info.value.part in ("L1", "L2") and info.value.field == "initial"
+
+
+@pytest.mark.parametrize("sections", [0, 40])
+def test_gated_uniqueness_check_accepts_the_same_circuit_with_one_initial_current(sections):
+    """With L1's initial current given, the split is fixed (KCL at node a: i_L2 = 5 A - i_L1,
+    the DC current 5 V / 1 ohm); the gate lets it through and the state is the hand value."""
+    circ = circuit(V("V1", "in", "gnd", 5.0), R("R1", "in", "a", 1.0),
+                   L("L1", "a", "gnd", 1e-3, initial=2.0), L("L2", "a", "gnd", 2e-3),
+                   *_ladder(sections))
+    sol = closedform.solve(circ)
+    i_l2 = sol.prestep.x_plus[sol.layout.branch("L2")] / sol.scale.r0
+    assert i_l2 == pytest.approx(3.0, rel=1e-12)
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_regular_gate_never_passes_a_matrix_the_svd_finds_singular(seed):
+    """For random matrices with singular values spread over 0 to 20 decades (and exactly
+    rank-deficient ones), the gate's "regular" implies numpy's SVD ratio above the 1e-12 the
+    null-space test uses; exactly rank-deficient matrices are never "regular"."""
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(initial._GATE_MIN_SIZE, 120))
+    u, _ = np.linalg.qr(rng.standard_normal((n, n)))
+    v, _ = np.linalg.qr(rng.standard_normal((n, n)))
+    sv = np.logspace(0, -rng.uniform(0, 20), n)
+    if seed % 3 == 0:
+        sv[-int(rng.integers(1, 3)):] = 0.0             # exactly singular
+    a = (u * sv) @ v.T
+    ratio = np.linalg.svd(a, compute_uv=False)
+    ratio = ratio.min() / ratio.max()
+    if initial._regular(a):
+        assert ratio > initial._NULL
+    if seed % 3 == 0:
+        assert not initial._regular(a)
+    if ratio > 1e-6:                                    # a well-conditioned matrix passes
+        assert initial._regular(a)
+
+
+@pytest.mark.parametrize("grounded", [True, False])
+@pytest.mark.parametrize("n", [70, 600])
+def test_regular_gate_on_sparse_laplacians(n, grounded):
+    """Sparse matrices (past linalg.SPARSE_LU_MIN: the sparse LU and its norm estimate;
+    below: the dense LU and dgecon) are gated alike: a resistor chain's
+    nodal matrix with one end grounded is regular (kappa ~ n^2, textbook), the same chain
+    floating is exactly singular (its row sums vanish); numpy's SVD is the reference."""
+    rng = np.random.default_rng(n)
+    g = 10 ** rng.uniform(-1, 1, n)
+    a = np.zeros((n, n))
+    for k in range(n - 1):
+        a[k, k] += g[k]
+        a[k + 1, k + 1] += g[k]
+        a[k, k + 1] -= g[k]
+        a[k + 1, k] -= g[k]
+    if grounded:
+        a[0, 0] += g[-1]
+    assert linalg._pattern(a) is not None
+    sv = np.linalg.svd(a, compute_uv=False)
+    assert initial._regular(a) == grounded
+    assert (sv.min() / sv.max() > initial._NULL) == grounded
+
+
+# ------------------------------------------------------------------------ least squares
+@pytest.mark.parametrize("n", [5, 40, 120])
+def test_least_squares_with_lu_refinement_matches_numpy(n):
+    """x of a regular system equals numpy.linalg.lstsq's (reference) to rounding."""
+    rng = np.random.default_rng(n)
+    a = rng.standard_normal((n, n)) + n * np.eye(n)
+    b = rng.standard_normal(n)
+    x, _, consistent = linalg.least_squares(a, b)
+    ref = np.linalg.lstsq(a, b, rcond=None)[0]
+    assert consistent
+    np.testing.assert_allclose(x, ref, rtol=1e-12, atol=1e-14 * np.abs(ref).max())
+
+
+# ------------------------------------------------------------------------ Thevenin
+def _random_rlc(rng: np.random.Generator, nodes: int, with_vcvs: bool):
+    """A random connected network: a resistor tree, extra resistors, grounded and floating
+    capacitors, a few inductors, optionally a vcvs, driven by a voltage source."""
+    names = [f"n{k}" for k in range(nodes)]
+    parts = [V("V1", "in", "gnd", 0.0, ((0.0, 1.0),)), R("Rs", "in", names[0], 50.0)]
+    count = 0
+
+    def name(prefix):
+        nonlocal count
+        count += 1
+        return f"{prefix}{count}"
+
+    for k in range(1, nodes):
+        parts.append(R(name("R"), names[k], names[int(rng.integers(0, k))],
+                       float(10 ** rng.uniform(2, 5))))
+    for _ in range(nodes // 2):
+        a, b = rng.choice(nodes, 2, replace=False)
+        parts.append(R(name("R"), names[a], names[b], float(10 ** rng.uniform(2, 5))))
+    parts.append(R(name("R"), names[-1], "gnd", float(10 ** rng.uniform(3, 5))))
+    for k in range(nodes):
+        if rng.random() < 0.6:
+            parts.append(C(name("C"), names[k], "gnd", float(10 ** rng.uniform(-10, -7))))
+    a, b = rng.choice(nodes, 2, replace=False)
+    parts.append(C(name("C"), names[a], names[b], float(10 ** rng.uniform(-10, -8))))
+    for _ in range(int(rng.integers(1, 3))):
+        a, b = rng.choice(nodes, 2, replace=False)
+        parts.append(L(name("L"), names[a], names[b], float(10 ** rng.uniform(-6, -3))))
+    if with_vcvs:
+        parts += [E("E1", "amp", "gnd", -float(rng.uniform(1, 20)), names[1], "gnd"),
+                  R(name("R"), "amp", names[0], float(10 ** rng.uniform(3, 5)))]
+    return circuit(*parts)
+
+
+@pytest.mark.parametrize("seed", range(10))
+def test_batched_thevenin_equals_the_per_part_route_on_random_circuits(seed):
+    """One LU for every test injection (inductors by the bordered solve) gives the R_th of one
+    least-squares solve and one SVD null test per part (the per-part route, the engine's
+    method before batching), inf included."""
+    rng = np.random.default_rng(100 + seed)
+    circ = _random_rlc(rng, int(rng.integers(3, 40)), with_vcvs=seed % 2 == 1)
+    sol = closedform.solve(circ)
+    g = sol.intervals[0].g
+    parts = thevenin._storage(circ)
+    vrows, rhs = thevenin._injections(sol.layout, sol.scale, parts)
+    slow = thevenin._per_part(sol.layout, g, parts, vrows, rhs)
+    fast = thevenin.thevenin_resistances(circ, sol.layout, sol.scale, g)
+    assert fast.keys() == slow.keys()
+    for name, value in slow.items():
+        if np.isinf(value):
+            assert np.isinf(fast[name]), name
+        else:
+            assert fast[name] == pytest.approx(value, rel=1e-10), name
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_thevenin_of_random_rc_networks_matches_the_nodal_two_port_formula(seed):
+    """R_th across a capacitor (a, b) = (e_a - e_b)^T Y^-1 (e_a - e_b), Y the nodal admittance
+    matrix of the resistors with the source node grounded (textbook: the driving-point
+    resistance of a resistive network), built here with numpy."""
+    rng = np.random.default_rng(200 + seed)
+    n = int(rng.integers(3, 50))
+    circ = _random_rlc(rng, n, with_vcvs=False)
+    circ = circuit(*[p for p in circ.parts if p.kind != "inductor"])
+    index = {f"n{k}": k for k in range(n)}
+    y = np.zeros((n, n))
+    for p in circ.parts:
+        if p.kind != "resistor":
+            continue
+        for u, w in ((p.p, p.n), (p.n, p.p)):
+            if u in index:
+                y[index[u], index[u]] += 1.0 / p.value
+                if w in index:
+                    y[index[u], index[w]] -= 1.0 / p.value
+    sol = closedform.solve(circ)
+    rth = sol.thevenin(0)
+    for p in circ.parts:
+        if p.kind != "capacitor":
+            continue
+        e = np.zeros(n)
+        e[index[p.p]] += 1.0
+        if p.n in index:
+            e[index[p.n]] -= 1.0
+        assert rth[p.name] == pytest.approx(float(e @ np.linalg.solve(y, e)), rel=1e-9)
+
+
+def test_inductor_whose_opening_isolates_a_node_reads_infinite():
+    """L1 is node b's only link to the resistors (C2 is open in the Thevenin network):
+    opening L1 leaves b with no resistive path, so R_th(L1) = inf (definition; the per-part
+    route), while C2 sees R1 || R2 through L1 shorted (textbook)."""
+    circ = circuit(V("V1", "in", "gnd", 0.0, ((0.0, 1.0),)), R("R1", "in", "a", 100.0),
+                   R("R2", "a", "gnd", 300.0), L("L1", "a", "b", 1e-3),
+                   C("C2", "b", "gnd", 1e-9))
+    rth = closedform.solve(circ).thevenin(0)
+    assert rth["L1"] == float("inf")
+    assert rth["C2"] == pytest.approx(100 * 300 / 400, rel=1e-12)
+
+
+# ------------------------------------------------------------------------ vectorised helpers
+def _ruiz(p: np.ndarray, sweeps: int = 8):
+    """Ruiz's equilibration as the paper states it (D. Ruiz, RAL-TR-2001-034), dense, with the
+    engine's rounding of the scalings to powers of 2: the reference for the sparse sweep."""
+    a = np.abs(p)
+    dr, dc = np.ones(a.shape[0]), np.ones(a.shape[1])
+    for _ in range(sweeps):
+        s = dr[:, None] * a * dc[None, :]
+        r, c = s.max(axis=1), s.max(axis=0)
+        r[r == 0], c[c == 0] = 1.0, 1.0
+        dr, dc = dr / np.sqrt(r), dc / np.sqrt(c)
+    return np.exp2(np.round(np.log2(dr))), np.exp2(np.round(np.log2(dc)))
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_sparse_equilibration_and_residual_match_the_dense_definitions(seed):
+    """A sparse matrix past linalg.SPARSE_MIN_ENTRIES (a random ladder-like band with values
+    over 12 decades and an empty row) is swept on its non-zeros: the scalings equal the dense
+    reference, and the extended-precision residual equals b - a y in np.longdouble."""
+    rng = np.random.default_rng(300 + seed)
+    n = 150
+    a = np.zeros((n, n))
+    for k in range(n):
+        for j in (k - 1, k, k + 1, int(rng.integers(0, n))):
+            if 0 <= j < n:
+                a[k, j] = rng.choice([-1, 1]) * 10 ** rng.uniform(-6, 6)
+    a[7] = 0.0
+    assert linalg._pattern(a) is not None                 # the sparse path is taken
+    dr, dc = linalg.equilibrate(a)
+    ref_r, ref_c = _ruiz(a)
+    np.testing.assert_array_equal(dr, ref_r)
+    np.testing.assert_array_equal(dc, ref_c)
+    b, y = rng.standard_normal(n), rng.standard_normal(n)
+    wide = np.longdouble
+    ref = (b.astype(wide) - a.astype(wide) @ y.astype(wide)).astype(float)
+    np.testing.assert_allclose(linalg._wide_residual(a, b)(y), ref, rtol=1e-15,
+                               atol=1e-18 * np.abs(ref).max())
+
+
+def _components_by_search(circ, connects):
+    """Node groups off ground by breadth-first search over the connecting parts (textbook
+    graph search, written here): the reference for mna.floating_groups."""
+    from collections import deque
+    adj = {n: set() for n in circ.nodes}
+    for p in circ.parts:
+        if connects(p):
+            adj[p.p].add(p.n)
+            adj[p.n].add(p.p)
+    seen, queue = {circ.ground}, deque([circ.ground])
+    while queue:
+        for m in adj[queue.popleft()] - seen:
+            seen.add(m)
+            queue.append(m)
+    groups, done = [], set(seen)
+    for node in circ.nodes:
+        if node in done:
+            continue
+        group, queue = [], deque([node])
+        done.add(node)
+        while queue:
+            u = queue.popleft()
+            group.append(u)
+            for m in adj[u] - done:
+                done.add(m)
+                queue.append(m)
+        groups.append(sorted(group, key=circ.nodes.index))
+    return sorted(groups, key=lambda g: circ.nodes.index(g[0]))
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_floating_groups_match_a_graph_search_on_both_paths(seed):
+    """Random circuits below and above mna.GRAPH_MIN_PARTS (union-find and csgraph paths),
+    with a random half of the parts not connecting: the same groups as a breadth-first search,
+    in node order."""
+    from harness.closedform import mna
+    rng = np.random.default_rng(400 + seed)
+    nodes = int(rng.integers(4, 12)) if seed % 2 == 0 else int(rng.integers(40, 90))
+    names = [f"n{k}" for k in range(nodes)] + ["gnd"]
+    parts = [R(f"R{k}", *rng.choice(names, 2, replace=False), 1.0)
+             for k in range(int(1.3 * nodes))]
+    circ = circuit(*parts)
+    assert (len(circ.parts) >= mna.GRAPH_MIN_PARTS) == (seed % 2 == 1)
+    off = {p.name for p in circ.parts if rng.random() < 0.5}
+    connects = (lambda p: p.name not in off)
+    got = mna.floating_groups(circ, connects)
+    assert got == _components_by_search(circ, connects)
+    assert mna.floating_groups(circ, connects) == got     # the memoised answer is the same
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_separated_rates_give_the_clusters_of_the_general_grouping(seed, monkeypatch):
+    """modes.diagonal_clusters' fast path for well-separated rates gives the clusters the
+    general route gives for diag(rates) (modes.clusters_of with ordered Schur splits): same
+    rates in the same order, same zero flags, and each unit selection picks the coordinate the
+    general route's right vector lives on."""
+    from harness.closedform import modes
+    rng = np.random.default_rng(500 + seed)
+    f = int(rng.integers(2, 30))
+    rates = -np.exp(np.sort(rng.uniform(-8, 8, f)))
+    rates = rates[np.r_[True, np.abs(np.diff(rates)) > 1e-3 * np.abs(rates[1:])]]
+    if seed % 2:
+        rates = np.concatenate([rates, [0.0, 0.0]])
+    rng.shuffle(rates)
+    fast = modes._separated(rates.astype(complex), 1e-10)
+    assert fast is not None
+    monkeypatch.setattr(modes, "EIG_MIN_ORDER", 10 ** 9)  # force the Schur splits
+    slow = modes.clusters_of(np.diag(rates), 1e-10)
+    assert len(fast) == len(slow)
+    for a, b in zip(fast, slow):
+        assert a.zero == b.zero and a.size == b.size
+        assert complex(a.rate) == pytest.approx(complex(b.rate), rel=1e-12, abs=1e-300)
+        picked = sorted(int(i) for i in np.flatnonzero(np.abs(b.right).max(axis=1) > 0.5))
+        assert sorted(a.index) == picked
