@@ -262,9 +262,9 @@ class Circuit:
         """Name -> part, built once (a derived index, not state: the parts never change)."""
         return {part.name: part for part in self.parts}
 
-    @property
+    @cached_property
     def nodes(self) -> tuple[str, ...]:
-        """All node names, ground first, then in order of first appearance."""
+        """All node names, ground first, then in order of first appearance (built once)."""
         seen = {self.ground: None}
         for part in self.parts:
             for node in part.nodes:
@@ -274,9 +274,10 @@ class Circuit:
                     seen.setdefault(node, None)
         return tuple(seen)
 
-    @property
+    @cached_property
     def events(self) -> tuple[float, ...]:
-        """Event times in seconds, sorted: 0 and every step time of every source and switch."""
+        """Event times in seconds, sorted: 0 and every step time of every source and switch
+        (built once)."""
         times = {0.0}
         for part in self.parts:
             times.update(when for when, _ in part.steps)
