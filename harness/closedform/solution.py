@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -58,7 +59,7 @@ class ClosedFormSolution:
         out = classify(raws[k], scale, self.scale.t)
         if out.order is not None and out.order > 1:
             try:
-                out = replace(out, dominant_tau=self.dominant(probe, k).tau)
+                out = replace(out, dominant_tau=self._dominant_sum(probe, k))
             except (ValueError, ArithmeticError, np.linalg.LinAlgError):
                 pass                       # an estimate only: never costs the features
         return out
@@ -159,10 +160,7 @@ class ClosedFormSolution:
         key = ("dominant", probe.label, k)
         if key in self._probe_cache:
             return self._probe_cache[key]
-        terms, _ = self._zero_value(k)
-        coupled = signoff.coupled_storage(self.circuit, probe, self.intervals[k].closed)
-        if coupled is not None:
-            terms = {p: t for p, t in terms.items() if p in coupled}
+        terms = self._coupled_terms(probe, k)
         end, _ = self._held(k)
         ex = self.exponential_sum(probe, k)
         _, scale = self._raw(probe)
@@ -171,6 +169,23 @@ class ClosedFormSolution:
         final = classify(raws[k], scale, self.scale.t).final
         self._probe_cache[key] = signoff.dominant(ex, terms, rates, end, final)
         return self._probe_cache[key]
+
+    def _coupled_terms(self, probe: Probe, k: int) -> dict[str, float]:
+        """Zero-value time constants (s) of the storage parts coupled to ``probe`` in interval k."""
+        terms, _ = self._zero_value(k)
+        coupled = signoff.coupled_storage(self.circuit, probe, self.intervals[k].closed)
+        if coupled is not None:
+            terms = {p: t for p, t in terms.items() if p in coupled}
+        return terms
+
+    def _dominant_sum(self, probe: Probe, k: int) -> float | None:
+        """The dominant-τ estimate alone (s): the sum of the coupled zero-value time constants,
+        None unless finite and positive.  ``features`` needs only this; the deviation and 50 %
+        time of ``dominant`` cost a scan of the waveform (and every node's features are read
+        for the cautions)."""
+        terms = self._coupled_terms(probe, k)
+        total = sum(terms.values()) if terms else None
+        return total if total is not None and math.isfinite(total) and total > 0 else None
 
     def _zero_value(self, k: int) -> tuple[dict[str, float], float | None]:
         """(part -> zero-value time constant, their sum or None) for interval k, memoised."""
