@@ -15,11 +15,13 @@ would run as a formula (starting with ``=``, ``+``, ``-``, ``@``, tab or CR) are
 from __future__ import annotations
 
 import math
-
-import pandas as pd
+from typing import TYPE_CHECKING
 
 from ..outcome import ERROR, RunResult
 from . import common
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 COLUMNS = ("file", "title", "file_verdict", "check", "probe", "direction", "at", "check_verdict",
            "order", "modes", "deviation", "field", "unit", "hand", "closed_form", "numeric",
@@ -47,6 +49,7 @@ def frame(run: RunResult) -> pd.DataFrame:
                              "numeric": _num(field.numeric), "verdict": field.verdict,
                              "tolerance": field.tolerance, "formula": field.formula,
                              "message": field.message, "label": common.field_label(field)})
+    import pandas as pd               # imported when writing: a run without reports skips it
     table = pd.DataFrame(rows, columns=list(COLUMNS))
     for column in _TEXT:
         table[column] = table[column].map(_defuse)

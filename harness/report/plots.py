@@ -19,9 +19,6 @@ import io
 import math
 
 import numpy as np
-from matplotlib.backends.backend_agg import FigureCanvasAgg
-from matplotlib.figure import Figure
-from matplotlib.ticker import EngFormatter
 
 from ..outcome import CheckResult, FieldResult
 from . import common
@@ -89,6 +86,9 @@ def plot_check(check: CheckResult, title: str = "") -> bytes | None:
     if trace is None:
         return None
     unit = trace.unit or (check.fields[0].unit if check.fields else "")
+    from matplotlib.backends.backend_agg import FigureCanvasAgg  # imported when drawing: a
+    from matplotlib.figure import Figure                           # run without reports does
+    from matplotlib.ticker import EngFormatter                     # not pay ~0.3 s for it
     fig = Figure(figsize=SIZE, dpi=DPI, layout="constrained")
     FigureCanvasAgg(fig)
     ax = fig.add_subplot()
