@@ -289,3 +289,18 @@ def test_dominant_fifty_percent_time_of_a_current_that_jumps_across_its_half_lev
     dom = sol.dominant(THROUGH("R1"), 0)
     assert dom.t50 == pytest.approx(ref, rel=1e-9)
     assert dom.t50 > 0
+
+
+def test_thevenin_resistance_through_an_open_switch_is_its_off_resistance():
+    """With the switch open, the hold capacitor's only path is the 10 GΩ off-resistance to the
+    zeroed source: R_th = 10 GΩ (common practice: the Thevenin resistance of a single path is
+    its resistance), not 'no resistive path' because that resistance is a large MNA entry."""
+    _, sol = _solve("""
+title = "hold through an off-switch"
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "1 V" }
+S1 = { kind = "switch", nodes = ["in", "hold"], state = "closed", steps = [["1 us", "open"]], on-resistance = "200", off-resistance = "10G" }
+Ch = { kind = "capacitor", nodes = ["hold", "gnd"], value = "1n" }
+""")
+    assert sol.thevenin(0)["Ch"] == pytest.approx(200.0, rel=1e-12)
+    assert sol.thevenin(1)["Ch"] == pytest.approx(1e10, rel=1e-9)

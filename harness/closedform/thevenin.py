@@ -27,7 +27,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..model import CAPACITOR, INDUCTOR, Circuit
-from .linalg import least_squares, regular_factor
+from .linalg import equilibrate, least_squares, regular_factor
 from .mna import Layout, Scale
 
 #: G~ with an estimated reciprocal condition number (1-norm) above this takes the batched route.
@@ -127,9 +127,14 @@ def _per_part(layout: Layout, g_scaled: np.ndarray, parts: list, vrows: np.ndarr
 
 
 def _null_space(g: np.ndarray) -> np.ndarray:
-    """Rows spanning the numerical null space of g (singular values <= NULL_REL * largest)."""
-    _, sv, vh = np.linalg.svd(g)
-    return vh[sv <= NULL_REL * sv.max()]
+    """Unit rows spanning the numerical null space of g: singular values <= NULL_REL * largest
+    of the Ruiz-equilibrated dr g dc, mapped back (x = dc y).  Equilibrating first keeps a
+    branch-stamped resistance (a 10 GOhm off-switch reads -5e7 in its row of G~) from looking
+    like a null direction of the unscaled matrix."""
+    dr, dc = equilibrate(g)
+    _, sv, vh = np.linalg.svd(dr[:, None] * g * dc[None, :])
+    null = vh[sv <= NULL_REL * sv.max()] * dc[None, :]
+    return null / np.linalg.norm(null, axis=1, keepdims=True) if null.shape[0] else null
 
 
 def _solve_ratio(g: np.ndarray, rhs: np.ndarray, vrow: np.ndarray, null: np.ndarray) -> float:
