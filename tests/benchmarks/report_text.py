@@ -5,64 +5,76 @@ from __future__ import annotations
 from .timing import ms
 
 TARGETS = """\
-Targets (figures of the run of 2026-12-01 quoted; the tables above are the latest run):
+Targets (figures of the run of 2026-12-02 quoted; the tables above are the latest run):
 
-- **Exact engine within 2x of its limit for n >= 100: not met.**  From n = 1000 the remaining
-  gap is two pieces outside this task's files: the full SVD in `initial._check_unique` (37 % of
-  a 1000-ladder solve, a larger O(n^3) call than the eigh itself) and `Circuit.part`, a linear
-  search called once per part by `jumps._significant` (9 %).  With both patched in by the
-  benchmark ("what-if") the ratio is 1.6-2.5x at n = 2000 and 2.3-3.4x at n = 1000.  At n = 100
-  the LAPACK limit is 0.4-0.7 ms while a solve has ~2 ms of fixed Python cost (stamping,
-  union-finds, dataclasses, per-part loops in jumps/energy): 2x there needs those vectorised.
-- **Under 2 ms per small circuit: met at the median** (1.8 ms for the library's circuits of
-  fewer than 10 nodes, solve + every expectation's features), not for all: the slowest carry
-  sign-off features (crossings, zero-value time constants) added in `features`.
-- **Features of a higher-order probe** grow as n^3-n^4 through `thevenin_resistances` (one
-  least-squares solve and one SVD per storage part, called for the dominant-tau estimate): 1 s
-  at 200 sections.  One LU of G~ for all test injections and one null-space test per interval
-  would make it O(n^3) in all.
-- **Numeric engine within 1.3x of a bare solve_ivp: not met for the whole solve, met for the
-  stepping** (0.9-1.5x).  The rest is set-up: the equations are assembled four times (pilot
-  model + real model, pre-step + interval) in Python dictionaries per part
-  (`coordinates.assemble` ~0.3 s of 0.8 s at n = 1000, half of it `Circuit.part` look-ups),
-  and the pilot's eigenvalues.  The assembly of `equations._assemble` was O(parts^2) through
-  `Circuit.part` and is now linear (1.15 s -> 0.81 s under the profiler at n = 1000).  Sparse
-  Jacobians are in place: the 1000-section ladder integrates in 0.4 s (dense Radau: 14 s).
-- **Library --jobs 2 >= 1.7x: not met, and not measurable on this machine while other sessions
-  use both cores** (load average ~5: two workers got 0.6-0.8x).  Independently of the load, 75 %
-  of a check run is plotting (194 plots at 80-160 ms each, rendered one by one in the parent
-  process after the analysis), so by Amdahl's law parallel analysis alone cannot exceed ~1.3x;
-  rendering the plots in the workers (or a pool in `report.write_all`) is what would meet it
-  (measured 1.9x for the plots alone on an idle moment: 16.8 s -> 8.8 s).
-- **BLAS threads**: with the default OpenBLAS threading a 200-ladder solve was 10-14x slower
-  than single-threaded on this shared machine; worker processes (and --jobs runs) should set
-  one BLAS thread each (`runner`/`pool`, not in this task's files).
+- **Exact engine within 2x of its limit for n >= 100: met from n = 1000 on RC ladders (1.40x
+  at 1000, 1.20x at 2000) and at n = 2000 on random networks (1.74x); not met below** (ladders
+  4.2x at 100, 2.6x at 300; random 6.2x at 100, 3.1x at 300, 2.1x at 1000).  At n = 100 the
+  `eigh` itself is ~1 ms while the rest of a solve (~3 ms) is spread over ~40 calls of
+  0.1-0.6 ms each (equilibration, three small LUs, the DC system, mode clusters, jump
+  bookkeeping).  What would meet it: recognising that the DC matrix, the pre-step pencil and
+  the interval-0 pencil are one matrix when a circuit has no switches and no initial values
+  (~1 ms), the scaled pencil assembled once in sparse form, and the ~100 cluster objects held
+  as arrays.  On random networks at 1000-2000 the remainder is the fill-in of the sparse LU,
+  two sparse factorisations (0.14 s at 2000) and the O(n m r) product for the rows of Q1 at
+  capacitance-free nodes.
+- **Under 2 ms per small circuit: not met** (median 2.9-4.4 ms over three runs on this machine
+  today, 1.8 ms on 2026-12-01 before the extended-precision refinement of the particular
+  solution and the conditioning and sign-off work): the time is spread thinly, with
+  `linalg.least_squares` (with its refinement) 27 %, `linalg.equilibrate` 16 %, the pencil
+  decomposition 23 % and the features 20 % of the small circuits' total.  Small systems
+  (< 32 unknowns) keep their SVD routes so that their values stay bit-identical; an LU route
+  for them measured only 3-5 % faster.
+- **Features of a higher-order probe: met** (10 ms at 200 sections, was 1.08 s; growth
+  n^0.75, was n^2.34): one LU of G~ for every test injection of an interval, bordered solves
+  for inductors, one null-space test on the equilibrated G~ where G~ is not provably regular.
+- **Numeric engine within 1.3x of a bare solve_ivp: met at 10, 30 and 2000 sections (1.15-1.32x),
+  not at 100-1000 (1.31-1.48x)**; the stepping alone is 0.89-1.26x of the bare integrator.
+  The rest is 10-190 ms of set-up and features and, at small n, extra steps (402 vs 269 at
+  n = 10): ~70 steps resolve the narrow pulse (the carrier's L_p/r_s transient, from 1e-3 of
+  the pulse width with at least 16 steps) and the tolerance applies to the decaying deviation
+  rather than to the absolute state; removing either changes the engine's accuracy rules, not
+  its speed.  What would meet it at n >= 1000: array-based stamps per part kind (the per-part
+  Python stamping is ~0.2 s under the profiler at n = 2000).  Per event, computing the held
+  continuation only on demand would save 25-50 % of the steps.
+- **Scaling**: both engines grow linearly with the number of events (closed form m^1.00,
+  numeric m^0.98-1.03) and the numeric engine sub-linearly with circuit size over 10-2000
+  sections (n^0.53, the bare integrator n^0.60); the closed form grows as n^2.3 against its
+  LAPACK limit's n^2.6-2.7.  A 1,000-event schedule now keeps every numeric value (~60 s).
+- **Library --jobs 2 >= 1.7x: met** (2.05x: 38.8 s -> 19.0 s on a quiet machine; the plots,
+  78 % of a run, are drawn in the worker processes: 2.45x for the plots alone, 1.82x for the
+  analysis alone).
+- **BLAS threads**: every process runs one OpenBLAS thread (`cli` sets it before numpy loads);
+  the default threading measured 1.2-2.7x slower today and 5-14x on 2026-12-01 under load.
 """
 
 CHANGES = """\
-Changes made for speed (results unchanged to rounding; tests/test_closedform_*.py pass):
+Changes made for speed (results unchanged: `tauproof solve circuits/library --json` agrees to
+3e-14 in the closed form and bit for bit in the numerical engine; the tests hold references):
 
-- `harness/closedform/symmetric.py` (new): passive reciprocal pencils (G~ symmetric after
-  clearing open-switch columns, C~ symmetric with a positive definite capacitance block) are
-  reduced to the capacitor coordinates (Schur complement of the capacitance-free block) and
-  decomposed by one `scipy.linalg.eigh(S, C11)`; everything else (controlled sources,
-  inductors, capacitor loops with ideal voltage-type parts) falls back to the general route.
-  Hooked in `response.pencil_of`.  Verified in tests/test_closedform_symmetric.py.
-- `modes.clusters_of`: one eigendecomposition instead of one complex Schur form per mode
-  cluster when the eigenvector basis is well conditioned (was O(f^4) for f distinct modes;
-  0.44 s -> 0.01 s at f = 200); `group_rates` searches only the magnitude window that can merge
-  (was O(f^2) Python); `diagonal_clusters` for the symmetric route.
-- `response`: cluster data without per-cluster products, states summed per mode cluster above
-  16 modes instead of `expm` of the whole A per time point (O(n f) instead of O(f^3) each).
-- `linalg.least_squares`: LU with a condition estimate (LAPACK dgecon) for square, well
-  conditioned systems; the SVD-based `lstsq` only where the system is singular or
-  ill-conditioned.
-- `mna.stamp`: resistor and capacitor stamps write their four entries instead of adding O(n)
-  rows; `mna.current_row` looks parts up in a per-circuit name index instead of a linear search.
-- `linalg.equilibrate` stops at its fixed point (bit-identical results).
-- `harness/simulate/equations.py`: `_assemble` looks parts up in one dict (was O(parts^2)).
-- Small circuits (< 32 unknowns) keep the previous routes: `tauproof solve circuits/library
-  --closed-form-only --json` is byte-identical before and after these changes.
+- closed form, 2026-12-01: `symmetric.py`, one `eigh(S, C11)` for passive reciprocal RC
+  pencils (general route elsewhere); one eigendecomposition for all mode clusters
+  (`modes.clusters_of`, was O(f^4)); per-cluster sums instead of `expm` per time point; LU with
+  a condition estimate in `linalg.least_squares`; four-entry stamps; a name index for
+  `Circuit.part`.
+- closed form, 2026-12-02: the DC uniqueness test and the iterative refinement go through an
+  LU with a condition estimate (`linalg.regular_factor`), the SVD only where a matrix is not
+  provably regular (was 37 % of a 1000-ladder solve); batched Thevenin resistances
+  (`thevenin.py`); a per-circuit index of node positions, layout, null basis and node groups
+  (`scipy.sparse.csgraph` from 48 parts); vectorised resistor and capacitor stamps; jump
+  bookkeeping in one pass; a fast path for well-separated modes; index selections instead of
+  products with selection matrices on the symmetric route; `features` computes only the sum
+  of the dominant-tau estimate, not its deviation and 50 % time (every node's features are read
+  for the cautions: a 100-section ladder check 8 s -> 1 s).  Small systems (< 32 unknowns) keep
+  their routes.
+- numerical engine, 2026-12-02: bridges instead of one union-find per capacitor for the loop
+  capacitance (was quadratic: 1.8 s twice at n = 1000); systems shared by intervals with the
+  same switch states (`equations.build(cache=)`); a sparse tree transform; the pilot model
+  skipped above 300 states; eigenvalues once per distinct Jacobian; Radau's LU hooks call
+  LAPACK directly (steps digit for digit those of stock Radau); COO assembly of the DC matrix;
+  a work budget per interval and per solve.
+- everywhere: `Circuit.nodes` and `.events` built once; matplotlib and pandas imported only when
+  reports are written (~0.5 s off a run without reports); plots drawn in the worker processes.
 """
 
 
@@ -102,29 +114,27 @@ def compose(parts: dict, meta: dict) -> str:
     if "limits" in parts:
         text, data = parts["limits"]
         out += ["### 1. Exact engine vs its linear-algebra limit", "",
-                "limit = the bare LAPACK calls on the same matrices: LU of the algebraic block "
-                "and `eigh(S, C11)` of the symmetric route.  general route = the same solve "
-                "with the symmetric route switched off (shift-invert, ordered Schur, "
-                "Sylvester).  dense eig = `numpy.linalg.eig(C11^-1 S)`; QZ = "
-                "`scipy.linalg.eig(G~, C~)` on the full MNA pencil.  what-if = solve with two changes "
-                "outside this task's files, patched in by the benchmark only: the DC uniqueness "
-                "check `initial._check_unique` gated by an LU condition estimate (its full SVD "
-                "skipped for a regular DC matrix) and `Circuit.part` through a name index "
-                "(`jumps._significant` calls the linear search once per part, O(parts^2)).",
+                "limit = the bare LAPACK calls of the route the engine takes, on the same "
+                "matrices: LU of the algebraic block and `eigh(S, C11)` on the symmetric route "
+                "(passive RC), or the general route's LU, solve, ordered Schur and Sylvester "
+                "calls (marked \"general\").  general route ms = the same solve with the "
+                "symmetric route switched off.  dense eig = `numpy.linalg.eig(C11^-1 S)`; QZ = "
+                "`scipy.linalg.eig(G~, C~)` on the full MNA pencil.",
                 "",
                 _limits(text, data, data.get("profile")), ""]
     if "small" in parts:
         out += ["### 1b. Small circuits", "", parts["small"][0], ""]
     if "features" in parts:
         out += ["### 1c. Features of a higher-order probe", "",
-                "`features` of a probe that is not first order also computes the zero-value "
-                "time-constant estimate (the sum of R_th C over every storage part, "
-                "`thevenin_resistances`: one least-squares solve and one SVD per storage "
-                "part, O(n^4) in all).", "", parts["features"][0], ""]
-    if "events" in parts:
-        out += ["### 3. Scaling with the number of events", "", parts["events"][0], ""]
+                "`features` of a probe that is not first order also gives the zero-value "
+                "time-constant estimate (the sum of R_th C over the coupled storage parts, "
+                "`thevenin_resistances`: one LU of G~ for every test injection, bordered "
+                "solves for inductors).", "", parts["features"][0], ""]
     if "numeric" in parts:
         out += [parts["numeric"][0], ""]
+    if "events" in parts:
+        out += ["### 3. Scaling with the number of events (closed form; the numerical engine's "
+                "is in section 2)", "", parts["events"][0], ""]
     if "library" in parts:
         out += ["### 4. Library throughput", "", parts["library"][0], ""]
     if "alt" in parts:
