@@ -248,34 +248,14 @@ def _growth_warning(k: int, t_k: float, growth: float) -> str:
             "regularising resistance): values not reported from that interval on")
 
 
-def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
-          rtol: float | None = None) -> NumericSolution:
-    """Integrate the narrow-pulse model of ``circuit`` (see the package docstring).
+def _march(circuit: Circuit, lay, systems, y0: np.ndarray, reg, rtol: float,
+           atol: np.ndarray) -> tuple[list, list[str]]:
+    """Integrate interval after interval from y(0-) = ``y0`` (shape (n,)); stop at the first
+    interval with pulse-scale growth, a spent work budget or a failed integration.
 
-    Args:
-        circuit: the parsed circuit.
-        pulse_ratio: eps, ratio of the regularising to the real time constants (default 1e-7).
-        rtol: the integrator's relative tolerance (default: eps within RTOL_BOUNDS).
-
-    Raises:
-        InitialStateError: the state at 0- is undefined or contradicts the circuit.
-        InputError: a probe or a controlled source names something that does not exist.
+    Returns:
+        (runs, warnings): one ``IntervalRun`` per interval reached, and the warnings.
     """
-    started = _time.perf_counter()
-    reg = choose(circuit, pulse_ratio, fastest=_fastest_real_mode(circuit))
-    rtol = float(np.clip(reg.pulse_ratio, *RTOL_BOUNDS)) if rtol is None else float(rtol)
-    lay = layout(circuit)
-    try:
-        pre, systems = _build_all(circuit, lay, reg)
-    except Unreduced:  # give every capacitor-less node a parasitic capacitance instead
-        reg = replace(reg, c_node={n: c or reg.c_base for n, c in reg.c_node.items()})
-        pre, systems = _build_all(circuit, lay, reg)
-    y0 = initial_state(circuit, lay, pre)
-    v_scale, i_scale = _scales(circuit, lay, y0)
-    nn = len(lay.nodes)
-    atol = np.full(lay.n, rtol * ATOL_FRACTION * v_scale)
-    atol[nn:] = rtol * ATOL_FRACTION * i_scale
-    atol = _carrier_floor(circuit, lay, [pre] + list(systems), atol, v_scale, reg.r_series)
     dynamic = _dynamic(circuit, lay)
     window = reg.post_pulse + fit_window(reg.post_pulse, reg.t_fast)
     events = circuit.events
@@ -313,6 +293,38 @@ def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
                             "not reported")
             break
         y = run.y_next
+    return runs, warnings
+
+
+def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
+          rtol: float | None = None) -> NumericSolution:
+    """Integrate the narrow-pulse model of ``circuit`` (see the package docstring).
+
+    Args:
+        circuit: the parsed circuit.
+        pulse_ratio: eps, ratio of the regularising to the real time constants (default 1e-7).
+        rtol: the integrator's relative tolerance (default: eps within RTOL_BOUNDS).
+
+    Raises:
+        InitialStateError: the state at 0- is undefined or contradicts the circuit.
+        InputError: a probe or a controlled source names something that does not exist.
+    """
+    started = _time.perf_counter()
+    reg = choose(circuit, pulse_ratio, fastest=_fastest_real_mode(circuit))
+    rtol = float(np.clip(reg.pulse_ratio, *RTOL_BOUNDS)) if rtol is None else float(rtol)
+    lay = layout(circuit)
+    try:
+        pre, systems = _build_all(circuit, lay, reg)
+    except Unreduced:  # give every capacitor-less node a parasitic capacitance instead
+        reg = replace(reg, c_node={n: c or reg.c_base for n, c in reg.c_node.items()})
+        pre, systems = _build_all(circuit, lay, reg)
+    y0 = initial_state(circuit, lay, pre)
+    v_scale, i_scale = _scales(circuit, lay, y0)
+    nn = len(lay.nodes)
+    atol = np.full(lay.n, rtol * ATOL_FRACTION * v_scale)
+    atol[nn:] = rtol * ATOL_FRACTION * i_scale
+    atol = _carrier_floor(circuit, lay, [pre] + list(systems), atol, v_scale, reg.r_series)
+    runs, warnings = _march(circuit, lay, systems, y0, reg, rtol, atol)
     total = _time.perf_counter() - started
     stepping = sum(run.stats.seconds for run in runs)
     return NumericSolution(circuit=circuit, warnings=tuple(warnings), regularisation=reg,
