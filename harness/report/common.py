@@ -99,7 +99,7 @@ def dominant_text(check: CheckResult) -> str:
     terms = " + ".join(f"{p} {time(t)}" for p, t in dict(dom.get("terms", {})).items())
     text = f"dominant τ ≈ {time(dom['tau'])} (Σ zero-value τ: {terms})"
     if dom.get("deviation") is not None:
-        text += f"; one-τ curve off by {dom['deviation']:.2g} of the swing"
+        text += f"; one-τ curve off by {dom['deviation']:.1%} of the swing"
     if dom.get("t50") is not None and dom.get("t50_estimate") is not None:
         text += f"; 50 % at {time(dom['t50'])} vs τ·ln 2 = {time(dom['t50_estimate'])}"
     return text
