@@ -325,3 +325,85 @@ def test_separated_rates_give_the_clusters_of_the_general_grouping(seed, monkeyp
         assert complex(a.rate) == pytest.approx(complex(b.rate), rel=1e-12, abs=1e-300)
         picked = sorted(int(i) for i in np.flatnonzero(np.abs(b.right).max(axis=1) > 0.5))
         assert sorted(a.index) == picked
+
+
+# ------------------------------------------------------------------------ small dense fast paths
+def _wide_range(rng: np.random.Generator, m: int, n: int) -> np.ndarray:
+    """A dense m x n matrix with entries 18 decades apart, one zero row and one zero column."""
+    a = rng.standard_normal((m, n)) * 10.0 ** rng.uniform(-9, 9, (m, n))
+    a[rng.integers(m)] = 0.0
+    a[:, rng.integers(n)] = 0.0
+    return a
+
+
+@pytest.mark.parametrize("shape", [(1, 1), (3, 3), (6, 6), (9, 5), (5, 9), (12, 12)])
+def test_dense_equilibration_equals_checked_sweeps(shape):
+    """The dense Ruiz sweeps without per-sweep zero and fixed-point tests give the floats of
+    the sweeps that test both (the slow path, reference), and the rounded scalings bring every
+    non-zero row and column maximum of |dr a dc| within a factor 4 of 1 (Ruiz's iteration
+    converges to maxima of 1; rounding to powers of 2 moves each scaling by at most sqrt 2)."""
+    rng = np.random.default_rng(sum(shape))
+    for _ in range(20):
+        a = _wide_range(rng, *shape)
+        fast = linalg._sweep_dense(np.abs(a), 8)
+        slow = linalg._sweep_checked(np.abs(a), 8)
+        assert np.array_equal(fast[0], slow[0]) and np.array_equal(fast[1], slow[1])
+        dr, dc = linalg.equilibrate(a)
+        scaled = np.abs(dr[:, None] * a * dc)
+        for axis in (0, 1):
+            big = scaled.max(axis=axis)
+            big = big[big > 0]
+            assert np.all((big > 0.25) & (big < 4.0))
+
+
+def test_equilibration_of_non_finite_matrix_takes_checked_sweeps():
+    """A matrix with an infinite entry gives the checked sweeps' result (reference)."""
+    a = np.array([[1.0, np.inf], [2.0, 3.0]])
+    with np.errstate(invalid="ignore"):
+        got = linalg.equilibrate(a)
+        dr, dc = linalg._sweep_checked(np.abs(a), 8)
+        ref = np.exp2(np.round(np.log2(dr))), np.exp2(np.round(np.log2(dc)))
+    np.testing.assert_array_equal(got[0], ref[0])
+    np.testing.assert_array_equal(got[1], ref[1])
+
+
+@pytest.mark.parametrize("shape", [(4, 4), (7, 7), (9, 5), (5, 9)])
+def test_direct_gelsd_equals_scipy_lstsq(shape):
+    """The direct dgelsd call gives scipy.linalg.lstsq's x (reference) bit for bit, also for a
+    rank-deficient a, and a non-finite b raises as lstsq does."""
+    import scipy.linalg as sla
+    rng = np.random.default_rng(shape[0] * 10 + shape[1])
+    a = rng.standard_normal(shape)
+    a[:, -1] = a[:, 0] + a[:, 1]                       # rank deficient
+    solve = linalg._svd_solver(a)
+    for _ in range(5):
+        b = rng.standard_normal(shape[0])
+        assert np.array_equal(solve(b), sla.lstsq(a, b)[0])
+    with pytest.raises(ValueError):
+        solve(np.full(shape[0], np.nan))
+
+
+@pytest.mark.parametrize("singular", [False, True])
+def test_kept_least_squares_equals_fresh_solves(singular):
+    """One ``LeastSquares`` reused for several b gives ``least_squares(a, b)`` of each (the
+    slow path) bit for bit, and x agrees with numpy.linalg.lstsq's minimum-norm solution
+    (reference) to rounding; a b outside the range of a singular a is reported inconsistent."""
+    rng = np.random.default_rng(7 + singular)
+    n = 6
+    a = rng.standard_normal((n, n)) * 10.0 ** rng.uniform(-1, 1, n)   # numpy keeps its digits
+    if singular:
+        a[:, 0] = 0.0
+        a[0] = 0.0                                  # a floating node: a zero row and column
+    kept = linalg.LeastSquares(a)
+    for _ in range(4):
+        b = a @ rng.standard_normal(n)              # in the range of a: consistent
+        x, r, consistent = kept.solve(b)
+        x_ref, r_ref, c_ref = linalg.least_squares(a, b)
+        assert np.array_equal(x, x_ref) and np.array_equal(r, r_ref) and consistent == c_ref
+        assert consistent
+        ref = np.linalg.lstsq(a, b, rcond=None)[0]
+        np.testing.assert_allclose(x, ref, rtol=1e-9, atol=1e-12 * np.abs(ref).max())
+    if singular:
+        b = np.zeros(n)
+        b[0] = 1.0                                  # charge into the floating node
+        assert not kept.solve(b)[2]

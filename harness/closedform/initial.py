@@ -19,7 +19,7 @@ import numpy as np
 
 from ..errors import InitialStateError
 from ..model import (CAPACITOR, CCCS, CURRENT_SOURCE, INDUCTOR, SWITCH, VCCS, Circuit, Part)
-from .linalg import equilibrate, least_squares, regular_factor
+from .linalg import LeastSquares, regular_factor
 from .mna import Layout, Scale, floating_groups, stamp, voltage_row
 
 _RESIDUAL = 1e-9
@@ -146,15 +146,17 @@ def _regular(a: np.ndarray) -> bool:
     return regular_factor(a, _GATE_RCOND * max(n, 1), min_size=_GATE_MIN_SIZE) is not None
 
 
-def _check_unique(circuit: Circuit, layout: Layout, scale: Scale, gd: np.ndarray) -> None:
+def _check_unique(circuit: Circuit, layout: Layout, scale: Scale, gd: np.ndarray,
+                  solver: LeastSquares | None = None) -> None:
     """Storage values that the DC system leaves free are undefined.
 
-    The null space is found by an SVD of the equilibrated DC matrix; where an LU condition
-    estimate already shows the matrix is regular (``_regular``) there is none and the SVD is
-    not taken.
+    The null space is found by an SVD of the equilibrated DC matrix (``linalg.equilibrate``,
+    taken from ``solver``, the DC solve's ``LeastSquares(gd)``, when given); where an LU
+    condition estimate already shows the matrix is regular (``_regular``) there is none and the
+    SVD is not taken.
     """
-    dr, dc = equilibrate(gd)         # part values decades apart must not look like a null space
-    eq = dr[:, None] * gd * dc[None, :]
+    # part values decades apart must not look like a null space
+    dr, dc, eq = (solver if solver is not None else LeastSquares(gd)).scaled()
     if _regular(eq):
         return
     _, sv, vh = np.linalg.svd(eq)
@@ -193,10 +195,11 @@ def dc_state(circuit: Circuit, layout: Layout, scale: Scale) -> np.ndarray:
     for group in groups:                       # undefined common modes of DC islands: 0 V
         i = layout.node(group[0])
         pinned[i, i] += 1.0
-    x, _, consistent = least_squares(pinned, bd)
+    solver = LeastSquares(pinned)
+    x, _, consistent = solver.solve(bd)
     resid = bd - gd @ x                        # a pin that carries current hides a contradiction
     if not consistent or np.linalg.norm(resid) > _RESIDUAL * (
             np.linalg.norm(gd) * np.linalg.norm(x) + np.linalg.norm(bd)):
         _inconsistent(circuit, layout, held, resid)
-    _check_unique(circuit, layout, scale, pinned)
+    _check_unique(circuit, layout, scale, pinned, solver)
     return x[:layout.size]

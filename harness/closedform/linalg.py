@@ -53,29 +53,53 @@ def equilibrate(p: np.ndarray, sweeps: int = 8,
     ``pattern`` is its ``_pattern`` when the caller has it already.
     """
     m, n = p.shape
-    dr, dc = np.ones(m), np.ones(n)
     if m == 0 or n == 0:
-        return dr, dc
+        return np.ones(m), np.ones(n)
     pattern = _pattern(p) if isinstance(pattern, str) else pattern
-    by_col = None
     if pattern is None:
-        a = np.abs(p)
+        dr, dc = _sweep_dense(np.abs(p), sweeps)
+        if not (np.isfinite(dr).all() and np.isfinite(dc).all()):
+            dr, dc = _sweep_checked(np.abs(p), sweeps)     # non-finite entries or underflow
     else:
-        rows, cols = pattern[0], pattern[1]
-        a = np.abs(p[rows, cols])
-        order = np.argsort(cols, kind="stable")
-        cpresent, cstarts = np.unique(cols[order], return_index=True)
-        by_col = (order, cstarts, cpresent)
+        dr, dc = _sweep_sparse(p, pattern, sweeps)
+    return np.exp2(np.round(np.log2(dr))), np.exp2(np.round(np.log2(dc)))
+
+
+_MAX = np.maximum.reduce
+
+
+def _sweep_dense(a: np.ndarray, sweeps: int) -> tuple[np.ndarray, np.ndarray]:
+    """Ruiz's sweeps on a dense non-negative ``a``, shape (m, n): the unrounded (dr, dc).
+
+    The rows and columns that are zero in ``a`` are found once (a scaled entry is zero only
+    where ``a`` is: the scalings stay positive and far from underflow) and their maxima taken
+    as 1.  A sweep at the fixed point divides by sqrt(1) = 1 exactly, so running every sweep
+    gives the same floats as stopping there; per sweep this is 6 array operations.
+    """
+    dr, dc = np.ones(a.shape[0]), np.ones(a.shape[1])
+    row_zero, col_zero = _MAX(a, axis=1) == 0, _MAX(a, axis=0) == 0
+    fix_rows, fix_cols = bool(row_zero.any()), bool(col_zero.any())
+    col, scaled = dr[:, None], np.empty_like(a)       # col: a view that follows dr
     for _ in range(sweeps):
-        if pattern is None:
-            scaled = dr[:, None] * a
-            scaled *= dc
-        else:
-            scaled = dr[rows] * a * dc[cols]
-        if pattern is None:
-            rmax, cmax = scaled.max(axis=1), scaled.max(axis=0)
-        else:
-            rmax, cmax = _row_col_max(scaled, pattern, (m, n), by_col)
+        np.multiply(col, a, out=scaled)
+        scaled *= dc
+        rmax, cmax = _MAX(scaled, axis=1), _MAX(scaled, axis=0)
+        if fix_rows:
+            rmax[row_zero] = 1.0
+        if fix_cols:
+            cmax[col_zero] = 1.0
+        dr /= np.sqrt(rmax, out=rmax)
+        dc /= np.sqrt(cmax, out=cmax)
+    return dr, dc
+
+
+def _sweep_checked(a: np.ndarray, sweeps: int) -> tuple[np.ndarray, np.ndarray]:
+    """``_sweep_dense`` testing every sweep's maxima for zeros and the fixed point."""
+    dr, dc = np.ones(a.shape[0]), np.ones(a.shape[1])
+    for _ in range(sweeps):
+        scaled = dr[:, None] * a
+        scaled *= dc
+        rmax, cmax = scaled.max(axis=1), scaled.max(axis=0)
         if not rmax.all():
             rmax[rmax == 0] = 1.0
         if not cmax.all():
@@ -84,7 +108,31 @@ def equilibrate(p: np.ndarray, sweeps: int = 8,
             break                       # a fixed point: further sweeps change nothing
         dr /= np.sqrt(rmax)
         dc /= np.sqrt(cmax)
-    return np.exp2(np.round(np.log2(dr))), np.exp2(np.round(np.log2(dc)))
+    return dr, dc
+
+
+def _sweep_sparse(p: np.ndarray, pattern, sweeps: int) -> tuple[np.ndarray, np.ndarray]:
+    """Ruiz's sweeps on the non-zero entries of a sparse p (``_pattern``), O(nnz) each: the
+    unrounded (dr, dc)."""
+    m, n = p.shape
+    dr, dc = np.ones(m), np.ones(n)
+    rows, cols = pattern[0], pattern[1]
+    a = np.abs(p[rows, cols])
+    order = np.argsort(cols, kind="stable")
+    cpresent, cstarts = np.unique(cols[order], return_index=True)
+    by_col = (order, cstarts, cpresent)
+    for _ in range(sweeps):
+        scaled = dr[rows] * a * dc[cols]
+        rmax, cmax = _row_col_max(scaled, pattern, (m, n), by_col)
+        if not rmax.all():
+            rmax[rmax == 0] = 1.0
+        if not cmax.all():
+            cmax[cmax == 0] = 1.0
+        if (rmax == 1.0).all() and (cmax == 1.0).all():
+            break                       # a fixed point: further sweeps change nothing
+        dr /= np.sqrt(rmax)
+        dc /= np.sqrt(cmax)
+    return dr, dc
 
 
 def least_squares(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, bool]:
@@ -92,27 +140,89 @@ def least_squares(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray,
 
     Returns (x, r, consistent): r = b - a x in the original units, and whether the equilibrated
     residual is at rounding level (|r'| <= CONSISTENT (|a'| |x'| + |b'|), the normwise backward
-    error criterion of Rigal and Gaches).
+    error criterion of Rigal and Gaches).  ``LeastSquares(a).solve(b)`` is the same solve with
+    the work that depends on a alone kept for further right-hand sides.
     """
-    if a.size == 0 or not np.any(b):
-        return np.zeros(a.shape[1]), np.zeros(a.shape[0]), True
-    if not (np.all(np.isfinite(a)) and np.all(np.isfinite(b))):
-        return np.full(a.shape[1], np.nan), np.full(a.shape[0], np.nan), False
-    pattern = _pattern(a)                # scaling by powers of 2 keeps the non-zero pattern
-    dr, dc = equilibrate(a, pattern=pattern)
-    a2, b2 = dr[:, None] * a * dc[None, :], dr * b
-    factor = regular_factor(a2, pattern=pattern)
-    if factor is not None:
-        y = factor.solve(b2)
-        correction = factor.solve
-    else:
-        y, *_ = sla.lstsq(a2, b2)
-        correction = None
-    y = _refine(a2, b2, y, correction, pattern)
-    r2 = b2 - a2 @ y
-    bound = CONSISTENT * (np.linalg.norm(a2) * np.linalg.norm(y) + np.linalg.norm(b2))
-    x = dc * y
-    return x, b - a @ x, bool(np.linalg.norm(r2) <= bound)
+    return LeastSquares(a).solve(b)
+
+
+class LeastSquares:
+    """``least_squares`` for one matrix a, shape (m, n), and any number of b, shape (m,).
+
+    The equilibration (``equilibrate``), the scaled a' = dr a dc, its LU factors where
+    ``regular_factor`` gives them, its extended-precision copy for the refinement residual and
+    its Frobenius norm depend on a alone; they are made on the first ``solve`` that needs them
+    and reused, so every b gets the floats ``least_squares(a, b)`` gives.
+    """
+
+    def __init__(self, a: np.ndarray) -> None:
+        self.a = a
+        self._scaled = None
+        self._prepared = None
+        self._finite = None
+
+    def scaled(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(dr, dc, a') of ``equilibrate``: a' = dr[:, None] * a * dc, shapes (m,), (n,), (m, n)."""
+        if self._scaled is None:
+            a = self.a
+            pattern = _pattern(a)        # scaling by powers of 2 keeps the non-zero pattern
+            dr, dc = equilibrate(a, pattern=pattern)
+            self._scaled = (dr, dc, dr[:, None] * a * dc[None, :], pattern)
+        return self._scaled[:3]
+
+    def _prepare(self):
+        self.scaled()
+        dr, dc, a2, pattern = self._scaled
+        factor = regular_factor(a2, pattern=pattern)
+        svd = factor.solve if factor is not None else _svd_solver(a2)
+        self._prepared = (dr, dc, a2, svd, _wide_product(a2, pattern), np.linalg.norm(a2))
+        return self._prepared
+
+    def solve(self, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, bool]:
+        """(x, r, consistent) of ``least_squares(a, b)``."""
+        a, b = self.a, np.asarray(b)
+        if a.size == 0 or not b.any():
+            return np.zeros(a.shape[1]), np.zeros(a.shape[0]), True
+        if self._finite is None:
+            self._finite = bool(np.isfinite(a).all())
+        if not (self._finite and np.isfinite(b).all()):
+            return np.full(a.shape[1], np.nan), np.full(a.shape[0], np.nan), False
+        dr, dc, a2, svd, product, anorm = self._prepared or self._prepare()
+        b2 = dr * b
+        y = svd(b2)
+        y = _refine(a2, b2, y, svd, product=product)
+        r2 = b2 - a2 @ y
+        bound = CONSISTENT * (anorm * np.linalg.norm(y) + np.linalg.norm(b2))
+        x = dc * y
+        return x, b - a @ x, bool(np.linalg.norm(r2) <= bound)
+
+
+def _svd_solver(a: np.ndarray):
+    """b -> ``scipy.linalg.lstsq(a, b)[0]`` (LAPACK dgelsd, rcond = machine epsilon) for a
+    float64 ``a``, shape (m, n), and b of shape (m,): the same LAPACK call with the same
+    workspace, its size queried once, without the wrapper's per-call checks (a b that is not
+    finite goes through the wrapper, which raises as before)."""
+    m, n = a.shape
+    if a.dtype != np.float64 or m == 0 or n == 0:
+        return lambda b: sla.lstsq(a, b)[0]
+    eps = np.finfo(np.float64).eps
+    try:    # scipy's own workspace query (a private helper: without it, use the wrapper)
+        gelsd, gelsd_lwork = sla.get_lapack_funcs(("gelsd", "gelsd_lwork"), (a,))
+        lwork, iwork = lapack._compute_lwork(gelsd_lwork, m, n, 1, eps)
+    except (AttributeError, ValueError, TypeError):
+        return lambda b: sla.lstsq(a, b)[0]
+    a_f = np.asfortranarray(a)
+
+    def solve(b: np.ndarray) -> np.ndarray:
+        if b.dtype != np.float64 or b.shape != (m,) or not np.isfinite(b).all():
+            return sla.lstsq(a, b)[0]
+        if m < n:
+            b = np.concatenate([b, np.zeros(n - m)])
+        x, _, _, info = gelsd(a_f, b, lwork, iwork, eps, False, False)
+        if info != 0:
+            return sla.lstsq(a, b[:m])[0]           # the wrapper's error, as before
+        return x[:n] if m > n else x
+    return solve
 
 
 #: iterative-refinement steps on the least-squares solution
@@ -120,20 +230,21 @@ REFINE_STEPS = 2
 
 
 def _refine(a: np.ndarray, b: np.ndarray, y: np.ndarray, correction=None,
-            pattern="find") -> np.ndarray:
+            pattern="find", product=None) -> np.ndarray:
     """Iterative refinement with the residual in extended precision (np.longdouble).
 
     Wilkinson's classical refinement: each step solves a dy = r for the residual computed in
     more precision than the solve, which recovers the digits an ill-conditioned a loses (parts
     from 1 mOhm to 1 TOhm in one circuit).  A step that does not shrink the residual is undone.
     ``correction(r)`` solves a dy = r (the LU factors of a regular a, O(n^2) per step); without
-    it each step is a least-squares solve (an SVD, O(n^3)).
+    it each step is a least-squares solve (an SVD, O(n^3)).  ``product`` is a's
+    ``_wide_product`` when the caller has it already.
     """
-    residual = _wide_residual(a, b, pattern)
+    residual = _wide_residual(a, b, pattern, product)
     res = residual(y)
     best = float(np.linalg.norm(res))
     for _ in range(REFINE_STEPS):
-        if not np.any(res):
+        if not res.any():
             break
         dy = correction(res) if correction is not None else sla.lstsq(a, res)[0]
         trial = y + dy
@@ -145,24 +256,32 @@ def _refine(a: np.ndarray, b: np.ndarray, y: np.ndarray, correction=None,
     return y
 
 
-def _wide_residual(a: np.ndarray, b: np.ndarray, pattern="find"):
+def _wide_residual(a: np.ndarray, b: np.ndarray, pattern="find", product=None):
     """y -> b - a y computed in np.longdouble and rounded to float64 (on the non-zero entries
     of a sparse a: the same products and sums, without the zeros)."""
+    if product is None:
+        if isinstance(pattern, str):
+            pattern = _pattern(a) if a.ndim == 2 else None
+        product = _wide_product(a, pattern)
+    b_w = b.astype(np.longdouble)
+    return lambda y: product(b_w, y)
+
+
+def _wide_product(a: np.ndarray, pattern):
+    """(b_w, y) -> b_w - a y in np.longdouble, rounded to float64, for b_w in np.longdouble;
+    a sparse a (``_pattern``) on its non-zero entries, row by row in the same order."""
     wide = np.longdouble
-    b_w = b.astype(wide)
-    if isinstance(pattern, str):
-        pattern = _pattern(a) if a.ndim == 2 else None
     if pattern is None:
         a_w = a.astype(wide)
-        return lambda y: (b_w - a_w @ y.astype(wide)).astype(float)
+        return lambda b_w, y: (b_w - a_w @ y.astype(wide)).astype(float)
     rows, cols, starts, present = pattern
     vals = a[rows, cols].astype(wide)
 
-    def residual(y: np.ndarray) -> np.ndarray:
+    def product(b_w: np.ndarray, y: np.ndarray) -> np.ndarray:
         out = b_w.copy()
         out[present] -= np.add.reduceat(vals * y.astype(wide)[cols], starts)
         return out.astype(float)
-    return residual
+    return product
 
 
 #: from this size on a sparse-enough matrix (``_pattern``) is factored by a sparse LU (below it

@@ -24,7 +24,7 @@ import scipy.linalg as sla
 
 from . import symmetric
 from .interval import Decomposition, augment, decompose
-from .linalg import least_squares
+from .linalg import LeastSquares
 from .mna import Layout
 from .modes import Cluster
 
@@ -61,6 +61,12 @@ class Pencil:
     g: np.ndarray
     c: np.ndarray
     dec: Decomposition
+
+    @cached_property
+    def particular(self) -> LeastSquares:
+        """The least-squares solve of G~ x = b~ for this configuration, kept for every interval
+        with it (only b~ changes between them)."""
+        return LeastSquares(self.g)
 
 
 @dataclass(frozen=True)
@@ -157,9 +163,10 @@ def pencil_of(g: np.ndarray, c: np.ndarray, null: np.ndarray) -> Pencil:
     return Pencil(g, c, dec if dec is not None else decompose(g, c, null))
 
 
-def _particular(g: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, bool]:
-    """Least-squares x_p with G~ x_p ~ b~, the residual b~ - G~ x_p, and whether it vanishes."""
-    return least_squares(g, b)
+def _particular(pencil: Pencil, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, bool]:
+    """Least-squares x_p with G~ x_p ~ b~, the residual b~ - G~ x_p, and whether it vanishes
+    (``linalg.least_squares`` on the pencil's kept solve)."""
+    return pencil.particular.solve(b)
 
 
 def _cluster_data(dec: Decomposition, z0: np.ndarray) -> tuple[ClusterData, ...]:
@@ -203,7 +210,7 @@ def build(layout: Layout, pencil: Pencil, null: np.ndarray, b: np.ndarray, x_min
     """
     g, c = pencil.g, pencil.c
     n = g.shape[0]
-    xp, resid, consistent = _particular(g, b)
+    xp, resid, consistent = _particular(pencil, b)
     augmented = not consistent
     growth_nodes: tuple[str, ...] = ()
     if augmented:

@@ -215,10 +215,12 @@ class ClosedFormSolution:
         if key not in self._probe_cache:
             fn = functional(self.circuit, self.layout, probe)
             raws = []
+            before = self._before(0, fn)
             for k, resp in enumerate(self.intervals):
                 start, end = self.span(k)
-                raws.append(raw_event(resp, self._before(k, fn), self._terms(fn, resp),
-                                      (end - start) / self.scale.t))
+                terms = self._terms(fn, resp)    # this interval's, and the next one's "before"
+                raws.append(raw_event(resp, before, terms, (end - start) / self.scale.t))
+                before = (resp.x_end, resp.dx_end) + terms
             sc = self._jump_scales()
             floor = SCALE_FLOOR * (sc.current if fn.dimension == "A" else sc.voltage)
             self._probe_cache[key] = (raws, probe_scale(raws, floor))
