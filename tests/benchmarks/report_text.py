@@ -18,13 +18,16 @@ Targets (figures of the run of 2026-12-02 quoted; the tables above are the lates
   as arrays.  On random networks at 1000-2000 the remainder is the fill-in of the sparse LU,
   two sparse factorisations (0.14 s at 2000) and the O(n m r) product for the rows of Q1 at
   capacitance-free nodes.
-- **Under 2 ms per small circuit: not met** (median 2.9-4.4 ms over three runs on this machine
-  today, 1.8 ms on 2026-12-01 before the extended-precision refinement of the particular
-  solution and the conditioning and sign-off work): the time is spread thinly, with
-  `linalg.least_squares` (with its refinement) 27 %, `linalg.equilibrate` 16 %, the pencil
-  decomposition 23 % and the features 20 % of the small circuits' total.  Small systems
-  (< 32 unknowns) keep their SVD routes so that their values stay bit-identical; an LU route
-  for them measured only 3-5 % faster.
+- **Under 2 ms per small circuit: not met** (median 2.85-3.86 ms over four runs after the
+  small-circuit pass of 2026-12-02, which made them 16-21 % faster in same-run alternation
+  with the previous code; 1.8 ms on 2026-12-01, before the extended-precision refinement of
+  the particular solution and the conditioning and sign-off work).  What remains is spread
+  thinly over chains of small numpy/scipy calls of 1-2 µs overhead each: the pencil
+  decomposition (null-space SVD, Schur form, eigenvalue clusters) ~25 %, the features ~20 %,
+  building each interval ~17 %, the DC state ~10 %, the jumps ~8 %.  Meeting it would mean
+  restructuring how a pencil is decomposed for small sizes (one fused routine instead of
+  ~40 library calls).  Small systems (< 32 unknowns) keep their SVD routes so that their
+  values stay bit-identical; an LU route for them measured no gain.
 - **Features of a higher-order probe: met** (10 ms at 200 sections, was 1.08 s; growth
   n^0.75, was n^2.34): one LU of G~ for every test injection of an interval, bordered solves
   for inductors, one null-space test on the equilibrated G~ where G~ is not provably regular.
@@ -66,7 +69,9 @@ Changes made for speed (results unchanged: `tauproof solve circuits/library --js
   products with selection matrices on the symmetric route; `features` computes only the sum
   of the dominant-tau estimate, not its deviation and 50 % time (every node's features are read
   for the cautions: a 100-section ladder check 8 s -> 1 s).  Small systems (< 32 unknowns) keep
-  their routes.
+  their routes; for them a dense Ruiz sweep with fewer array operations, one kept
+  least-squares solver per pencil (`linalg.LeastSquares`, `Pencil.particular`) reused by every
+  interval with that switch state, and a direct `dgelsd` call without the wrapper's checks.
 - numerical engine, 2026-12-02: bridges instead of one union-find per capacitor for the loop
   capacitance (was quadratic: 1.8 s twice at n = 1000); systems shared by intervals with the
   same switch states (`equations.build(cache=)`); a sparse tree transform; the pilot model
