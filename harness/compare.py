@@ -8,6 +8,7 @@ hand value outside tolerance is a ``mismatch`` whose message comes from ``diagno
 
 from __future__ import annotations
 
+import math
 from dataclasses import replace
 
 import numpy as np
@@ -43,12 +44,23 @@ def event_index(circuit: Circuit, at: float) -> int:
 
 
 def probe_scale(circuit: Circuit, exact: Solution, probe: Probe) -> float:
-    """Largest magnitude the probe takes at any event (before, after, final), for tolerance floors."""
+    """Largest magnitude the probe takes at any event (before, after, final), for tolerance
+    floors; a probe that is ~0 at every event (a pulse through a coupling capacitor, a current
+    sensed while a capacitor charges) takes its peaks within the intervals as well, so that its
+    rounding noise at the events is not judged against its own noise."""
     values = []
     for k in range(len(circuit.events)):
         f = exact.features(probe, k)
         values += [abs(v) for v in (f.before, f.after, f.final) if v is not None]
     scale = max(values, default=0.0)
+    if scale <= tol.SCALE_FROM_PEAKS * circuit.largest_source() and hasattr(exact, "peak"):
+        for k in range(len(circuit.events)):
+            try:
+                magnitude = exact.peak(probe, k).magnitude
+            except (ValueError, ArithmeticError, np.linalg.LinAlgError):
+                continue
+            if magnitude is not None and math.isfinite(magnitude):
+                scale = max(scale, abs(magnitude))
     return scale if scale > 0 else circuit.largest_source()
 
 

@@ -16,6 +16,10 @@ HAND_RELATIVE = 0.01
 HAND_FLOOR = 1e-6
 #: closed-form values below this fraction of the probe's scale are rounding noise, shown as 0
 ZERO_NOISE = 1e-13
+#: a probe whose values at every event (before, after, final) are below this fraction of the
+#: circuit's largest source takes its tolerance scale from its peaks within the intervals too
+#: (compare.probe_scale): it is ~0 at the events only, like a pulse through a coupling capacitor
+SCALE_FROM_PEAKS = 1e-9
 #: closed form vs numeric (DESIGN.md: 1e-4); a failure here blames the engines, not the hand
 ENGINE_RELATIVE = 1e-4
 #: absolute floor for closed form vs numeric, as a fraction of the probe's scale

@@ -36,6 +36,7 @@ from scipy.optimize import brentq
 
 from ..model import CAPACITOR, FALLING, INDUCTOR, RESISTOR, RISING, SWITCH, Probe, THROUGH
 from ..results import CrossingValue, DominantTau, EnergyValue, PeakValue
+from ..tolerances import WAVEFORM_SWING_FLOOR
 from .features import RawEvent
 from .mna import find_root
 
@@ -340,12 +341,16 @@ def dominant(ex: ExpSum, terms: dict[str, float], rates: list[complex], end: flo
     swing = ex.after - final
     horizon = max(end, 10 * tau)
     grid = ex.grid(horizon)
+    values = ex.value(grid)
+    excursion = float(np.max(np.abs(values - final), initial=0.0))
+    if not abs(swing) > WAVEFORM_SWING_FLOOR * excursion:
+        # a pulse that starts and ends near its final value: no one-τ curve describes it
+        return DominantTau(tau, dict(terms), msum, None, None, tau * math.log(2))
     one = final + swing * np.exp(-grid / tau)
-    deviation = float(np.max(np.abs(one - ex.value(grid))) / abs(swing)) if swing else None
+    deviation = float(np.max(np.abs(one - values)) / abs(swing))
     # the 50 % time of the settling from x(t_k+): a jump across the level is not that crossing
     settling = replace(ex, before=None)
-    t50 = (crossing(settling, final + swing / 2, "either", horizon, final, None).time
-           if swing else None)
+    t50 = crossing(settling, final + swing / 2, "either", horizon, final, None).time
     return DominantTau(tau, dict(terms), msum, deviation, t50, tau * math.log(2))
 
 
@@ -390,7 +395,7 @@ def coupled_storage(circuit, probe: Probe, closed: dict) -> set[str] | None:
         if part.kind in VOLTAGE_CONTROLLED and isinstance(part.control, tuple):
             group += list(part.control)
         elif part.kind in CURRENT_CONTROLLED and isinstance(part.control, str):
-            group += list(circuit.part(part.control).nodes)
+            group += _sensed_nodes(circuit, circuit.part(part.control), reference)
         links.append(tuple(n for n in group if n not in reference))
     for group in links:
         for a, b in zip(group, group[1:]):
@@ -404,3 +409,17 @@ def coupled_storage(circuit, probe: Probe, closed: dict) -> set[str] | None:
         return None
     return {p.name for p in circuit.parts if p.kind in (CAPACITOR, INDUCTOR)
             and any(n not in reference and find(n) in roots for n in p.nodes)}
+
+
+def _sensed_nodes(circuit, sensed, reference: set[str]) -> list[str]:
+    """The nodes whose dynamics set the current of ``sensed`` (a part a ccvs/cccs reads): its own
+    nodes and, when both lie in the reference class (a grounded source), the other nodes of the
+    parts meeting it at its ungrounded terminal, whose currents add up to it there (KCL)."""
+    nodes = list(sensed.nodes)
+    if any(n not in reference for n in nodes):
+        return nodes
+    terminal = sensed.p if sensed.p != circuit.ground else sensed.n
+    for part in circuit.parts:
+        if part.name != sensed.name and terminal in part.nodes:
+            nodes += [n for n in part.nodes if n != terminal]
+    return nodes

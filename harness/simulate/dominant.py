@@ -57,8 +57,10 @@ import scipy.sparse as sp
 from scipy.optimize import brentq
 from scipy.sparse.csgraph import connected_components
 
-from ..model import BETWEEN, CAPACITOR, INDUCTOR, NODE, SWITCH, VOLTAGE_SOURCE, Probe
+from ..model import (BETWEEN, CAPACITOR, CCCS, CCVS, INDUCTOR, NODE, SWITCH, VOLTAGE_SOURCE,
+                     Probe)
 from ..results import DominantTau
+from ..tolerances import WAVEFORM_SWING_FLOOR
 from .equations import is_carrier
 from .linsolve import Singular, _factor, _residual
 from .nodesets import find_root
@@ -104,15 +106,42 @@ def _pinned_states(circuit, lay, reference: set[str]) -> np.ndarray:
 def groups(circuit, lay, system) -> tuple[np.ndarray, np.ndarray]:
     """(label, pinned): the connected component of each full state (shape (n,), -1 where
     pinned) in the sparsity graph of K_dc + M without the pinned states."""
-    pinned = _pinned_states(circuit, lay, reference_nodes(circuit, system))
+    reference = reference_nodes(circuit, system)
+    pinned = _pinned_states(circuit, lay, reference)
     pattern = (abs(system.K_dc) + abs(system.M)).tocoo()
-    keep = ~pinned[pattern.row] & ~pinned[pattern.col]
+    rows, cols = _sensing_edges(circuit, lay, reference)
+    rows = np.concatenate([pattern.row, rows]).astype(int)
+    cols = np.concatenate([pattern.col, cols]).astype(int)
+    keep = ~pinned[rows] & ~pinned[cols]
     n = lay.n
-    graph = sp.coo_matrix((np.ones(int(keep.sum())), (pattern.row[keep], pattern.col[keep])),
-                          shape=(n, n))
+    graph = sp.coo_matrix((np.ones(int(keep.sum())), (rows[keep], cols[keep])), shape=(n, n))
     _, label = connected_components(graph, directed=False)
     label = np.where(pinned, -1, label)
     return label, pinned
+
+
+def _sensing_edges(circuit, lay, reference: set[str]) -> tuple[np.ndarray, np.ndarray]:
+    """Extra graph edges (rows, cols of node states) for a ccvs/cccs that reads the current of
+    a part with both terminals in the reference class (a grounded source): that current is the
+    sum of the currents of the parts meeting it at its ungrounded terminal (KCL), but the
+    reference rows that carry that sum are left out of the graph, so the controlled source's
+    output nodes are joined to those parts' other nodes here."""
+    rows, cols = [], []
+    for part in circuit.parts:
+        if part.kind not in (CCVS, CCCS) or not isinstance(part.control, str):
+            continue
+        sensed = circuit.part(part.control)
+        if not (sensed.p in reference and sensed.n in reference):
+            continue
+        terminal = sensed.p if sensed.p != circuit.ground else sensed.n
+        far = {n for q in circuit.parts if q.name != sensed.name and terminal in q.nodes
+               for n in q.nodes if n != terminal}
+        out = [lay.node_index[n] for n in part.nodes if n in lay.node_index]
+        for node in far:
+            if node in lay.node_index:
+                rows += out
+                cols += [lay.node_index[node]] * len(out)
+    return np.array(rows, dtype=int), np.array(cols, dtype=int)
 
 
 def coupled_storage(circuit, lay, system, probe: Probe) -> set[str] | None:
@@ -249,11 +278,13 @@ def dominant(sol, probe: Probe, k: int) -> DominantTau | None:
     if tau is None or fe.final is None or fe.after is None:
         return DominantTau(tau, terms, msum)
     swing = fe.after - fe.final
-    if swing == 0:
-        return DominantTau(tau, terms, msum, None, None, tau * math.log(2))
     grid = scan_grid(sol, k)
     values = sol.held(probe, k, grid)
     values[0] = fe.after
+    excursion = float(np.max(np.abs(values - fe.final), initial=0.0))
+    if not abs(swing) > WAVEFORM_SWING_FLOOR * excursion:
+        # a pulse that starts and ends near its final value: no one-τ curve describes it
+        return DominantTau(tau, terms, msum, None, None, tau * math.log(2))
     one = fe.final + swing * np.exp(-grid / tau)
     deviation = float(np.max(np.abs(one - values)) / abs(swing))
     t50 = _first_crossing(sol, probe, k, grid, values, fe.final + swing / 2)
