@@ -228,16 +228,25 @@ def _state_of(part: Part, time: float, before: bool) -> tuple[float | None, bool
 
 
 def branch_currents(circuit: Circuit, lay: Layout, reg: Regularisation, time: float,
-                    before: bool, slow: bool = False) -> Branches:
+                    before: bool, slow: bool = False, fixed: dict | None = None) -> Branches:
     """Branch currents of every non-capacitor part with sources and switches as just before
     (``before``) or just after ``time``.  With ``slow`` a closed carrier's current is its i_p
     alone (its u / r_s, zero at an operating point, left out), also where a ccvs or cccs senses
-    it: the DC rows then hold no 1/r_s (K_dc, see ``System``)."""
+    it: the DC rows then hold no 1/r_s (K_dc, see ``System``).  ``fixed``: a dict owned by the
+    caller for one circuit and layout that keeps the currents of resistors and vccs
+    (the same Affine whatever the interval), so that repeated calls build them once."""
     out = Branches({}, {}, [], {}, {})
     g = 1.0 / reg.r_series
     ordered = sorted(circuit.parts, key=lambda p: p.kind in (CCVS, CCCS))
+    fixed = {} if fixed is None else fixed
     for part in ordered:
         if part.kind == CAPACITOR:
+            continue
+        if part.kind in (RESISTOR, VCCS):  # neither a source, a switch nor a regulariser
+            cur = fixed.get(part.name)
+            if cur is None:
+                cur = fixed[part.name] = _plain_branch(part, lay, None, None)
+            out.currents[part.name] = cur
             continue
         value, closed = _state_of(part, time, before)
         if value is not None:
@@ -415,12 +424,13 @@ def build(circuit: Circuit, lay: Layout, reg: Regularisation, time: float,
     from .coordinates import constants
 
     cache = {} if cache is None else cache
-    br = branch_currents(circuit, lay, reg, time, before)
+    fixed = cache.setdefault("fixed", {})
+    br = branch_currents(circuit, lay, reg, time, before, fixed=fixed)
     s_key = ("shape", tuple(br.closed.items()))
     key = (s_key, tuple(br.sources.items()))
     if key in cache:
         return cache[key]
-    br_dc = branch_currents(circuit, lay, reg, time, before, slow=True)
+    br_dc = branch_currents(circuit, lay, reg, time, before, slow=True, fixed=fixed)
     if s_key not in cache:
         cache[s_key] = _shape(circuit, lay, reg, br, br_dc)
     shape = cache[s_key]

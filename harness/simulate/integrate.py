@@ -156,22 +156,29 @@ class _Settle:
         self.earliest = earliest
         self.scale = floor.copy()
         self.start_scale: np.ndarray | None = None
+        self._limit: np.ndarray | None = None        # BLOW_UP * start_scale, once known
+        self._dyn = np.flatnonzero(dynamic)          # the indices settling is judged on
 
     def add(self, s: float, z: np.ndarray, rate: np.ndarray | None = None) -> str | None:
         """Record a step; return ``settled``, ``blow-up`` or None.  ``rate``: z' at the step
         where the caller has it (Radau keeps f(s, z) of its last step), else slope(z)."""
+        size = np.abs(z)
         if s >= self.pulse_end:
-            np.maximum(self.scale, np.abs(z), out=self.scale)
+            np.maximum(self.scale, size, out=self.scale)
             if self.start_scale is None:
                 self.start_scale = self.scale.copy()
+                self._limit = BLOW_UP * self.start_scale
         if s < self.earliest or self.start_scale is None:
             return None
-        if np.any(np.abs(z) > BLOW_UP * self.start_scale):
+        if np.any(size > self._limit):
             return "blow-up"
-        if not self.dynamic.any():
+        dyn = self._dyn
+        if not dyn.size:
             return "settled"
-        drift = np.abs(self.slope(z) if rate is None else rate) * s / self.scale
-        return "settled" if np.max(drift[self.dynamic]) <= SETTLE else None
+        # the same quotients as |rate| * s / scale over all states, on the dynamic ones only
+        rate = self.slope(z) if rate is None else rate
+        drift = np.abs(rate[dyn]) * s / self.scale[dyn]
+        return "settled" if np.max(drift) <= SETTLE else None
 
 
 def _lu_factor(solver: Radau, a: np.ndarray):
