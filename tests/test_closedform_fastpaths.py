@@ -407,3 +407,286 @@ def test_kept_least_squares_equals_fresh_solves(singular):
         b = np.zeros(n)
         b[0] = 1.0                                  # charge into the floating node
         assert not kept.solve(b)[2]
+
+
+# ------------------------------------------------------------------------ issue 6: solve at n = 100-300
+def _driven_ladder(sections: int, before: float = 2.0, initial=None, switch: bool = False):
+    """An RC ladder from a source at ``before`` volts before 0 (1 V after); optionally an
+    initial voltage on the first capacitor, or a switch to ground that closes at 0."""
+    parts = [V("V1", "in", "gnd", before, steps=((0.0, 1.0),)), *_ladder(sections)]
+    if initial is not None:
+        parts[2] = C("Cl0", "l0", "gnd", 1e-9, initial=initial)
+    if switch:
+        from tests.closedform_circuits import S
+        parts.append(S("S1", f"l{sections // 2}", "gnd", False, steps=((0.0, 1.0),), on=50.0))
+    return circuit(*parts)
+
+
+def _prestep_pencil(circ):
+    """(layout, scale, G~ solve, b~, pinned) of the pre-step configuration, as solve builds it."""
+    from harness.closedform import mna, solution
+    layout, scale = mna.layout_of(circ), mna.scale_of(circ)
+    closed, values, groups = solution._interval_setup(circ, layout, scale, 0.0, True)
+    g, c, _ = mna.stamp(circ, layout, closed, lambda p: 0.0)
+    mna.pin(g, layout, groups, 1.0 / scale.r0)
+    gs, _, _ = mna.scaled(g, c, np.zeros(layout.size), layout, scale)
+    b = solution._b_scaled(circ, layout, scale, closed, values)
+    return layout, scale, linalg.LeastSquares(gs), b, bool(groups)
+
+
+@pytest.mark.parametrize("sections", [5, 40])
+def test_dc_state_reusing_the_prestep_solve_equals_the_separate_dc_solve(sections):
+    """Without initial values and floating groups the DC system is the pre-step pencil's G~:
+    the reused solve gives the separate DC solve's state float for float, and that state is
+    the textbook DC value (capacitors open, so no resistor current: every node at the
+    source's 2 V before the step, every branch current 0)."""
+    circ = _driven_ladder(sections)
+    layout, scale, solver, b, pinned = _prestep_pencil(circ)
+    assert not pinned
+    fresh = initial.dc_state(circ, layout, scale)
+    reused = initial.dc_state(circ, layout, scale, reuse=(solver, b))
+    np.testing.assert_array_equal(reused, fresh)
+    np.testing.assert_allclose(reused[:layout.n_nodes], 2.0, rtol=1e-13)
+    np.testing.assert_allclose(reused[layout.n_nodes:], 0.0, atol=1e-13)
+
+
+@pytest.mark.parametrize("sections", [5, 40])
+def test_dc_state_with_an_initial_value_ignores_the_offered_solve(sections):
+    """An initial value adds a held-voltage row, so the DC system is not G~: the offered solve
+    must be ignored (same state as without it), and the held capacitor sits at its 0.5 V
+    (textbook: it acts as a 0.5 V source at 0-; the source side stays at 2 V)."""
+    circ = _driven_ladder(sections, initial=0.5)
+    layout, scale, solver, b, _ = _prestep_pencil(circ)
+    fresh = initial.dc_state(circ, layout, scale)
+    reused = initial.dc_state(circ, layout, scale, reuse=(solver, b))
+    np.testing.assert_array_equal(reused, fresh)
+    assert reused[layout.node("l0")] == pytest.approx(0.5, rel=1e-12)
+    assert reused[layout.node("in")] == pytest.approx(2.0, rel=1e-12)
+
+
+def test_solve_with_a_switch_at_zero_keeps_both_pencils_and_the_textbook_state():
+    """A switch closing at 0 makes the pre-step and interval-0 pencils differ; the state at
+    0- must still be the DC value (every node at 2 V: the open switch carries nothing) and the
+    final value after 0 the divider value of the closed switch (textbook: R_on = 50 ohm from
+    the middle node to ground through the sections before it, 1 V source)."""
+    sections = 40
+    circ = _driven_ladder(sections, switch=True)
+    sol = closedform.solve(circ)
+    mid = f"l{sections // 2}"
+    x0 = sol.prestep.x_plus
+    assert x0[sol.layout.node(mid)] == pytest.approx(2.0, rel=1e-12)
+    from tests.closedform_circuits import node
+    upstream = 1e3 * (sections // 2 + 1)               # R from "in" to the middle node
+    final = sol.features(node(mid), 0).final
+    assert final == pytest.approx(50.0 / (50.0 + upstream), rel=1e-9)
+
+
+@pytest.mark.parametrize("ill", [False, True])
+def test_kept_factor_decides_regularity_as_a_fresh_gate_does(ill):
+    """LeastSquares.regular (from the factor its solves use) answers what a fresh
+    regular_factor on the equilibrated matrix answers at the DC gate's bound, for a well and
+    an ill conditioned (singular values over 14 decades, textbook SVD construction) matrix."""
+    rng = np.random.default_rng(77)
+    n = 60
+    u, _ = np.linalg.qr(rng.standard_normal((n, n)))
+    v, _ = np.linalg.qr(rng.standard_normal((n, n)))
+    sv = np.logspace(0, -14 if ill else -3, n)
+    a = (u * sv) @ v.T
+    solver = linalg.LeastSquares(a)
+    bound = initial._GATE_RCOND * n
+    known = solver.regular(bound, initial._GATE_MIN_SIZE)
+    gate = linalg.regular_factor(solver.scaled()[2], bound, min_size=initial._GATE_MIN_SIZE)
+    assert known in (None, gate is not None)
+    if known is None:                                  # not decided: the factor was refused
+        assert solver.factor is None and gate is None
+    assert (known is True) == (not ill)
+
+
+def test_least_squares_memo_returns_copies_of_the_same_answer():
+    """The kept last answer: a repeated b gives the same floats as the first solve, and the
+    arrays handed out are copies (changing one does not change the next answer)."""
+    rng = np.random.default_rng(5)
+    a = rng.standard_normal((40, 40)) + 40 * np.eye(40)
+    b = rng.standard_normal(40)
+    solver = linalg.LeastSquares(a)
+    x1, r1, ok1 = solver.solve(b)
+    keep = x1.copy()
+    x1[:] = 0.0
+    x2, r2, ok2 = solver.solve(b.copy())
+    np.testing.assert_array_equal(x2, keep)
+    assert ok1 and ok2
+    np.testing.assert_allclose(a @ x2, b, rtol=1e-12)   # the definition of the solution
+
+
+def _block_null(rng, n: int):
+    """A null basis with disjoint supports: unit columns, a -1 column and normalised
+    multi-row vectors, in random order (the shape mna.capacitor_null_basis produces)."""
+    rows = rng.permutation(n)
+    cols, at = [], 0
+    for kind in rng.choice(["unit", "minus", "block"], 8):
+        size = 1 if kind != "block" else int(rng.integers(2, 5))
+        col = np.zeros(n)
+        sup = rows[at:at + size]
+        at += size
+        col[sup] = 1.0 if kind == "unit" else (-1.0 if kind == "minus" else rng.uniform(0.5, 2, size))
+        cols.append(col / np.linalg.norm(col))
+    return np.column_stack(cols)
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_block_bases_products_equal_the_dense_products(seed):
+    """symmetric._Blocks applies R and N0 as row picks and per-support blocks: every product
+    equals the dense product of the explicit matrix (numpy matmul), R is orthonormal and
+    orthogonal to N0 (R^T R = I, N0^T R = 0: the definition of the complement)."""
+    from harness.closedform import symmetric
+    rng = np.random.default_rng(900 + seed)
+    n = 40
+    null = _block_null(rng, n)
+    n0, r = symmetric._bases(null, n)
+    assert isinstance(r, symmetric._Blocks)
+    eye = np.eye(n)
+    r_dense, n0_dense = r.T @ eye, n0.T @ eye          # rows of R^T and N0^T
+    np.testing.assert_allclose(r_dense @ r_dense.T, np.eye(r.shape[1]), atol=1e-14)
+    np.testing.assert_allclose(n0_dense @ r_dense.T, 0.0, atol=1e-14)
+    assert np.linalg.matrix_rank(np.column_stack([n0_dense.T, null])) == null.shape[1]
+    m = rng.standard_normal((n, 7))
+    np.testing.assert_allclose(r.T @ m, r_dense @ m, rtol=1e-14, atol=1e-14)
+    w = rng.standard_normal((r.shape[1], 3))
+    np.testing.assert_allclose(r @ w, r_dense.T @ w, rtol=1e-14, atol=1e-14)
+    z = rng.standard_normal((n0.shape[1], 2))
+    np.testing.assert_allclose(n0 @ z, n0_dense.T @ z, rtol=1e-14, atol=1e-14)
+    p = rng.standard_normal((5, n))
+    np.testing.assert_allclose(r.right(p), p @ r_dense.T, rtol=1e-14, atol=1e-14)
+    np.testing.assert_allclose(n0.right(p), p @ n0_dense.T, rtol=1e-14, atol=1e-14)
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_block_reduction_equals_the_dense_product_reduction(seed):
+    """symmetric._reduced with ``_Blocks`` bases gives the (S, C11, H, R^T C~) of the same
+    reduction written with the explicit dense R and N0 (numpy products: the general branch),
+    on a random symmetric pencil with a positive definite C11 (the Schur complement
+    S = G11 - G12 G22^-1 G21, textbook block elimination)."""
+    from harness.closedform import symmetric
+    rng = np.random.default_rng(950 + seed)
+    n = 36
+    null = _block_null(rng, n)
+    n0, r = symmetric._bases(null, n)
+    eye = np.eye(n)
+    r_dense, n0_dense = (r.T @ eye).T, (n0.T @ eye).T
+    a = rng.standard_normal((n, n))
+    g = a + a.T + 2 * n * np.eye(n)
+    k = r_dense @ rng.standard_normal((r.shape[1], r.shape[1]))
+    c = k @ k.T                                         # null space = span(N0)
+    c = 0.5 * (c + c.T)
+    fast = symmetric._reduced(g, c, n0, r)
+    slow = symmetric._reduced(g, c, n0_dense, r_dense)
+    for x, y in zip(fast, slow):
+        np.testing.assert_allclose(x, y, rtol=1e-12, atol=1e-12 * np.abs(y).max())
+
+
+@pytest.mark.parametrize("null_rows", [[4, 17, 22], [0, 29], [0, 1, 2]])
+def test_selected_blocks_equal_the_selection_products(null_rows):
+    """With unit-column bases the reduction picks submatrices (slices where the rows are
+    consecutive): the same floats as the products with explicit 0/1 selection matrices
+    (numpy matmul, exact for 0/1 entries)."""
+    from harness.closedform import symmetric
+    rng = np.random.default_rng(3)
+    n = 30
+    m = rng.standard_normal((n, n))
+    g, c = m + m.T, (m @ m.T)
+    c = 0.5 * (c + c.T)
+    null_rows = np.array(null_rows)
+    rows = np.setdiff1d(np.arange(n), null_rows)
+    rsel, nsel = np.eye(n)[:, rows], np.eye(n)[:, null_rows]
+    rtc, c11, g11, g21, g22 = symmetric._selected_blocks(g, c, null_rows, rows)
+    np.testing.assert_array_equal(rtc, rsel.T @ c)
+    np.testing.assert_array_equal(c11, rsel.T @ c @ rsel)
+    np.testing.assert_array_equal(g11, rsel.T @ g @ rsel)
+    np.testing.assert_array_equal(g21, nsel.T @ g @ rsel)
+    np.testing.assert_array_equal(g22, nsel.T @ g @ nsel)
+
+
+def test_symmetric_fast_path_returns_the_average():
+    """_symmetric: an exactly symmetric matrix comes back as (m + m^T)/2 (itself), a nearly
+    symmetric one as that average, an asymmetric one is refused (numpy reference)."""
+    from harness.closedform import symmetric
+    rng = np.random.default_rng(8)
+    m = rng.standard_normal((20, 20))
+    sym = m + m.T
+    np.testing.assert_array_equal(symmetric._symmetric(sym), 0.5 * (sym + sym.T))
+    near = sym.copy()
+    near[2, 5] *= 1 + 1e-15
+    np.testing.assert_array_equal(symmetric._symmetric(near), 0.5 * (near + near.T))
+    assert symmetric._symmetric(m) is None
+
+
+def test_single_mode_clusters_equal_the_dataclass_constructor():
+    """modes._single builds the same frozen Cluster as its constructor (field by field)."""
+    from dataclasses import FrozenInstanceError, fields
+    from harness.closedform import modes
+    block = np.array([[-2.5 + 0j]])
+    fast = modes._single(-2.5 + 0j, block, 7)
+    slow = modes.Cluster(-2.5 + 0j, block, None, None, False, (7,))
+    for f in fields(modes.Cluster):
+        a, b = getattr(fast, f.name), getattr(slow, f.name)
+        assert (np.array_equal(a, b) if isinstance(a, np.ndarray) else a == b), f.name
+    with pytest.raises(FrozenInstanceError):
+        fast.rate = 0j
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_interval_groups_match_a_graph_search(seed):
+    """mna.interval_groups (the mask from arrays) gives the groups of a breadth-first search
+    over the parts that connect in the interval (all but current sources, open ideal
+    switches), for random switch states, below and above GRAPH_MIN_PARTS."""
+    from harness.closedform import mna
+    from tests.closedform_circuits import I, S
+    rng = np.random.default_rng(600 + seed)
+    nodes = int(rng.integers(4, 10)) if seed % 2 == 0 else int(rng.integers(40, 70))
+    names = [f"n{k}" for k in range(nodes)] + ["gnd"]
+    parts = []
+    for k in range(int(1.4 * nodes)):
+        a, b = rng.choice(names, 2, replace=False)
+        kind = rng.choice(["R", "S", "Sr", "I"])
+        if kind == "R":
+            parts.append(R(f"R{k}", a, b, 1.0))
+        elif kind == "I":
+            parts.append(I(f"I{k}", a, b, 1.0))
+        else:
+            parts.append(S(f"S{k}", a, b, False, off=1e6 if kind == "Sr" else None))
+    circ = circuit(*parts)
+    closed = {p.name: bool(rng.random() < 0.5) for p in circ.parts if p.kind == "switch"}
+    connects = mna.connects_in_interval(closed)
+    assert mna.interval_groups(circ, closed) == _components_by_search(circ, connects)
+
+
+def test_jump_sums_equal_the_per_part_textbook_values():
+    """jumps.stored_energy and _charges (array expressions) against the per-part textbook
+    values written here: C v^2 / 2 and L i^2 / 2; C dv for a capacitor, the branch variable
+    for a source, inductor or switch, phi / R for a resistor, g (phi_cp - phi_cn) for a vccs."""
+    from harness.closedform import jumps, mna
+    from tests.closedform_circuits import G, S
+    circ = circuit(V("V1", "in", "gnd", 1.0), R("R1", "in", "a", 10.0),
+                   C("C1", "a", "gnd", 1e-6), L("L1", "a", "b", 1e-3),
+                   S("S1", "b", "gnd", True), G("G1", "a", "gnd", 0.1, "in", "b"),
+                   C("C2", "in", "b", 2e-6))
+    layout = mna.layout_of(circ)
+    rng = np.random.default_rng(1)
+    x, q, dx = (rng.standard_normal(layout.size) for _ in range(3))
+
+    def volt(vec, p, n):
+        return (vec[layout.node(p)] if layout.node(p) is not None else 0.0) - \
+               (vec[layout.node(n)] if layout.node(n) is not None else 0.0)
+
+    energy = jumps.stored_energy(circ, layout, x)
+    assert list(energy) == ["C1", "L1", "C2"]
+    assert energy["C1"] == pytest.approx(0.5 * 1e-6 * volt(x, "a", "gnd") ** 2, rel=1e-15)
+    assert energy["C2"] == pytest.approx(0.5 * 2e-6 * volt(x, "in", "b") ** 2, rel=1e-15)
+    assert energy["L1"] == pytest.approx(0.5 * 1e-3 * x[layout.branch("L1")] ** 2, rel=1e-15)
+    charges = jumps._charges(circ, layout, q, dx)
+    assert list(charges) == [p.name for p in circ.parts]
+    assert charges["C1"] == pytest.approx(1e-6 * volt(dx, "a", "gnd"), rel=1e-15)
+    assert charges["R1"] == pytest.approx(volt(q, "in", "a") / 10.0, rel=1e-15)
+    for name in ("V1", "L1", "S1"):
+        assert charges[name] == q[layout.branch(name)]
+    assert charges["G1"] == pytest.approx(0.1 * volt(q, "in", "b"), rel=1e-14)

@@ -16,7 +16,9 @@ Method (no time stepping; plain dense linear algebra).
    ``initial``, the DC solve with those capacitors held as voltage sources and those inductors
    as current sources; contradictions and undefined storage values raise InitialStateError
    naming the part and field (the SVD that finds free storage values is taken only where an LU
-   condition estimate does not already show the DC matrix regular).  The values at 0- of all
+   condition estimate does not already show the DC matrix regular; without initial values and
+   DC-floating groups the DC matrix is the pre-step pencil's G~, and one kept solve, with its
+   equilibration, LU and condition estimate, serves both).  The values at 0- of all
    other quantities are the right limit of
    the pre-step circuit's own exact response started from that storage state (the resistive
    network at 0- with capacitors as their voltages and inductors as their currents, capacitor

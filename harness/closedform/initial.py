@@ -45,6 +45,8 @@ def _dc_connects(part: Part) -> bool:
 
 def _check_defined(circuit: Circuit, groups: list[list[str]]) -> None:
     """A capacitor without ``initial`` with a terminal in a DC-floating group has no DC value."""
+    if not groups:
+        return
     group_of = {node: gi for gi, g in enumerate(groups) for node in g}
     for part in circuit.parts:
         if part.kind != CAPACITOR or part.initial is not None:
@@ -156,8 +158,10 @@ def _check_unique(circuit: Circuit, layout: Layout, scale: Scale, gd: np.ndarray
     SVD is not taken.
     """
     # part values decades apart must not look like a null space
-    dr, dc, eq = (solver if solver is not None else LeastSquares(gd)).scaled()
-    if _regular(eq):
+    solver = solver if solver is not None else LeastSquares(gd)
+    dr, dc, eq = solver.scaled()
+    known = solver.regular(_GATE_RCOND * max(eq.shape[0], 1), _GATE_MIN_SIZE)
+    if known if known is not None else _regular(eq):
         return
     _, sv, vh = np.linalg.svd(eq)
     null = vh[sv <= _NULL * max(sv.max(), 1e-300)] * dc[None, :]
@@ -181,21 +185,36 @@ def _check_unique(circuit: Circuit, layout: Layout, scale: Scale, gd: np.ndarray
                 file=circuit.source, part=part.name, field="initial", line=part.line)
 
 
-def dc_state(circuit: Circuit, layout: Layout, scale: Scale) -> np.ndarray:
+def dc_state(circuit: Circuit, layout: Layout, scale: Scale,
+             reuse: tuple[LeastSquares, np.ndarray] | None = None) -> np.ndarray:
     """The scaled state x~ at 0- from the DC solve, shape (n,); its charges and fluxes C~ x~ are
     the storage state at 0-.
+
+    ``reuse`` = (solve, b~): the pre-step pencil's kept particular solve (``LeastSquares`` of
+    its G~) and its right side b~, given only when that pencil pins no floating group.  Without
+    initial values and without DC-floating groups the DC system *is* that one: ``_dc_system``
+    builds E G D from the same stamp (the switches in their pre-step states, inductors as
+    shorts) and E b from the pre-step source values, with no rows added and nothing pinned, so
+    it is skipped and the kept equilibration, LU and condition estimate serve (and the DC
+    solution is the pre-step particular solution, same floats).
 
     Raises:
         InitialStateError: contradicting initial values or undefined pre-step storage values.
     """
     groups = floating_groups(circuit, _dc_connects)
     _check_defined(circuit, groups)
-    gd, bd, held = _dc_system(circuit, layout, scale)
-    pinned = gd.copy()
-    for group in groups:                       # undefined common modes of DC islands: 0 V
-        i = layout.node(group[0])
-        pinned[i, i] += 1.0
-    solver = LeastSquares(pinned)
+    storage = any(p.initial is not None for p in circuit.parts
+                  if p.kind in (CAPACITOR, INDUCTOR))
+    if reuse is not None and not groups and not storage:
+        solver, bd = reuse
+        gd, held, pinned = solver.a, [], solver.a
+    else:
+        gd, bd, held = _dc_system(circuit, layout, scale)
+        pinned = gd.copy()
+        for group in groups:                   # undefined common modes of DC islands: 0 V
+            i = layout.node(group[0])
+            pinned[i, i] += 1.0
+        solver = LeastSquares(pinned)
     x, _, consistent = solver.solve(bd)
     resid = bd - gd @ x                        # a pin that carries current hides a contradiction
     if not consistent or np.linalg.norm(resid) > _RESIDUAL * (

@@ -29,7 +29,7 @@ from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, 
 from ..results import Jump
 from ..units import format_si
 from .linalg import least_squares
-from .mna import BRANCH_KINDS, Layout, Scale, current_row, part_voltages
+from .mna import BRANCH_KINDS, Layout, Scale, current_row, index_of, part_voltages
 
 #: impulse weights below this fraction of the circuit's charge (flux) scale count as zero
 SIGNIFICANT = 1e-9
@@ -58,17 +58,30 @@ def _significant(circuit: Circuit, charges: dict, fluxes: dict, scales: Scales,
     fluxes above the largest of: SIGNIFICANT times the circuit's scale, the rounding level of the
     impulse solve, RELATIVE times the largest of their kind.
     """
-    q_big = max((abs(v) for v in charges.values()), default=0.0)
-    f_big = max((abs(v) for v in fluxes.values()), default=0.0)
+    qv = np.fromiter(charges.values(), float, len(charges))
+    fv = np.fromiter(fluxes.values(), float, len(fluxes))
+    q_big = float(np.abs(qv).max(initial=0.0))
+    f_big = float(np.abs(fv).max(initial=0.0))
     q_floor = max(SIGNIFICANT * scales.charge, rounding[0], RELATIVE * q_big)
     f_floor = max(SIGNIFICANT * scales.flux, rounding[1], RELATIVE * f_big)
-    sig_q = {}
-    for name, q in charges.items():
-        part = circuit.part(name)
-        floor = CAP_ROUNDING * part.value * scales.voltage if part.kind == CAPACITOR else q_floor
-        if abs(q) > floor:
-            sig_q[name] = q
-    return sig_q, {n: f for n, f in fluxes.items() if abs(f) > f_floor}
+    cap_value = _capacitances(circuit, tuple(charges))
+    floor = np.where(np.isnan(cap_value), q_floor, CAP_ROUNDING * cap_value * scales.voltage)
+    q_names, q_vals = list(charges), list(charges.values())
+    f_names, f_vals = list(fluxes), list(fluxes.values())
+    sig_q = {q_names[i]: q_vals[i] for i in np.flatnonzero(np.abs(qv) > floor).tolist()}
+    return sig_q, {f_names[i]: f_vals[i] for i in np.flatnonzero(np.abs(fv) > f_floor).tolist()}
+
+
+def _capacitances(circuit: Circuit, names: tuple[str, ...]) -> np.ndarray:
+    """C in F of each named part (NaN for a part that is not a capacitor), memoised per
+    circuit and name list."""
+    memo = index_of(circuit).components
+    key = ("capacitances", names)
+    if key not in memo:
+        parts = index_of(circuit).parts
+        memo[key] = np.array([parts[n].value if parts[n].kind == CAPACITOR else np.nan
+                              for n in names], dtype=float)
+    return memo[key]
 
 
 def impulse_weights(g: np.ndarray, c: np.ndarray, x_minus: np.ndarray,
@@ -90,38 +103,98 @@ def impulse_weights(g: np.ndarray, c: np.ndarray, x_minus: np.ndarray,
     return q if consistent else None
 
 
+@dataclass(frozen=True)
+class _PartArrays:
+    """Per-circuit arrays for the per-part sums of a jump, in file order (built once per
+    circuit and layout; ``_arrays``).
+
+    Attributes:
+        names: every part's name.
+        storage: positions (in parts) of the capacitors and inductors; storage_names their
+            names; storage_value C or L; storage_branch the inductor's branch index in x (-1
+            for a capacitor); storage_cap whether a capacitor.
+        carriers: positions of the parts whose impulsive charge is reported (capacitors,
+            branch parts, resistors, vccs/cccs); carrier_names; carrier_kind 0 capacitor,
+            1 branch, 2 resistor, 3 controlled output; carrier_value C or R; carrier_branch
+            the branch index (-1 where none).
+    """
+
+    names: tuple[str, ...]
+    storage: np.ndarray
+    storage_names: tuple[str, ...]
+    storage_value: np.ndarray
+    storage_branch: np.ndarray
+    storage_cap: np.ndarray
+    carriers: np.ndarray
+    carrier_names: tuple[str, ...]
+    carrier_kind: np.ndarray
+    carrier_value: np.ndarray
+    carrier_branch: np.ndarray
+
+
+_CARRIER_KIND = {CAPACITOR: 0, RESISTOR: 2, VCCS: 3, CCCS: 3}
+
+
+def _arrays(circuit: Circuit, layout: Layout) -> _PartArrays:
+    """The ``_PartArrays`` of ``circuit`` under ``layout``, memoised in the circuit's index."""
+    memo = index_of(circuit).components
+    key = ("jump-arrays", layout.nodes, layout.branches)
+    if key not in memo:
+        parts = circuit.parts
+        st = [i for i, p in enumerate(parts) if p.kind in (CAPACITOR, INDUCTOR)]
+        ca = [i for i, p in enumerate(parts) if p.kind in _CARRIER_KIND or p.kind in BRANCH_KINDS]
+        kinds = [1 if parts[i].kind in BRANCH_KINDS else _CARRIER_KIND[parts[i].kind]
+                 for i in ca]
+        memo[key] = _PartArrays(
+            tuple(p.name for p in parts), np.array(st, dtype=int),
+            tuple(parts[i].name for i in st),
+            np.array([parts[i].value for i in st], dtype=float),
+            np.array([layout.branch(parts[i].name) if parts[i].kind == INDUCTOR else -1
+                      for i in st], dtype=int),
+            np.array([parts[i].kind == CAPACITOR for i in st], dtype=bool),
+            np.array(ca, dtype=int), tuple(parts[i].name for i in ca),
+            np.array(kinds, dtype=int),
+            np.array([parts[i].value if k in (0, 2) else 0.0 for i, k in zip(ca, kinds)],
+                     dtype=float),
+            np.array([layout.branch(parts[i].name) if k == 1 else -1
+                      for i, k in zip(ca, kinds)], dtype=int))
+    return memo[key]
+
+
 def stored_energy(circuit: Circuit, layout: Layout, x: np.ndarray) -> dict[str, float]:
-    """Energy in J of each capacitor (C v^2 / 2) and inductor (L i^2 / 2) for unscaled x."""
-    out = {}
-    volts = part_voltages(circuit, layout, x)
-    for part, v in zip(circuit.parts, volts):
-        if part.kind == CAPACITOR:
-            out[part.name] = float(0.5 * part.value * v * v)
-        elif part.kind == INDUCTOR:
-            i = x[layout.branch(part.name)]
-            out[part.name] = float(0.5 * part.value * i * i)
-    return out
+    """Energy in J of each capacitor (C v^2 / 2) and inductor (L i^2 / 2) for unscaled x,
+    shape (n,): one array expression over the storage parts (``_arrays``), file order."""
+    arr = _arrays(circuit, layout)
+    if arr.storage.size == 0:
+        return {}
+    volts = part_voltages(circuit, layout, x)[arr.storage]
+    amps = np.asarray(x)[np.maximum(arr.storage_branch, 0)]
+    q = np.where(arr.storage_cap, volts, amps)
+    return dict(zip(arr.storage_names, (0.5 * arr.storage_value * q * q).tolist()))
 
 
 def _charges(circuit: Circuit, layout: Layout, q: np.ndarray, dx: np.ndarray) -> dict[str, float]:
-    """Impulsive charge p -> n through every part (unscaled q, dx)."""
-    out = {}
-    dv, flux = part_voltages(circuit, layout, dx), part_voltages(circuit, layout, q)
-    for part, dvk, phi in zip(circuit.parts, dv, flux):
-        if part.kind == CAPACITOR:
-            out[part.name] = float(part.value * dvk)
-        elif part.kind in BRANCH_KINDS:
-            out[part.name] = float(q[layout.branch(part.name)])
-        elif part.kind == RESISTOR:
-            out[part.name] = float(phi / part.value)
-        elif part.kind in (VCCS, CCCS):
-            out[part.name] = float(current_row(circuit, layout, part.name) @ q)
-    return out
+    """Impulsive charge p -> n through every part (unscaled q, dx), file order: C dv for a
+    capacitor, the branch variable of q for a branch part, phi / R for a resistor, the output
+    current row applied to q for a vccs/cccs."""
+    arr = _arrays(circuit, layout)
+    if arr.carriers.size == 0:
+        return {}
+    dv = part_voltages(circuit, layout, dx)[arr.carriers]
+    flux = part_voltages(circuit, layout, q)[arr.carriers]
+    kind = arr.carrier_kind
+    with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+        out = np.where(kind == 0, arr.carrier_value * dv,
+                       np.where(kind == 2, flux / np.where(kind == 2, arr.carrier_value, 1.0),
+                                q[np.maximum(arr.carrier_branch, 0)]))
+    for j in np.flatnonzero(kind == 3):
+        out[j] = current_row(circuit, layout, arr.carrier_names[j]) @ q
+    return dict(zip(arr.carrier_names, out.tolist()))
 
 
 def _fluxes(circuit: Circuit, layout: Layout, q: np.ndarray) -> dict[str, float]:
     flux = part_voltages(circuit, layout, q)
-    return {p.name: float(phi) for p, phi in zip(circuit.parts, flux)}
+    return dict(zip(_arrays(circuit, layout).names, flux.tolist()))
 
 
 def _energy(circuit: Circuit, before: dict, after: dict, charges: dict, fluxes: dict,

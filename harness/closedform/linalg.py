@@ -152,7 +152,9 @@ class LeastSquares:
     The equilibration (``equilibrate``), the scaled a' = dr a dc, its LU factors where
     ``regular_factor`` gives them, its extended-precision copy for the refinement residual and
     its Frobenius norm depend on a alone; they are made on the first ``solve`` that needs them
-    and reused, so every b gets the floats ``least_squares(a, b)`` gives.
+    and reused, so every b gets the floats ``least_squares(a, b)`` gives.  The last b and its
+    answer are kept too: the DC solve at 0- and the pre-step interval's particular solution are
+    the same system when the circuit has no switches and no initial values (copies returned).
     """
 
     def __init__(self, a: np.ndarray) -> None:
@@ -160,6 +162,20 @@ class LeastSquares:
         self._scaled = None
         self._prepared = None
         self._finite = None
+        self._last = None
+        self.factor: Factor | None = None
+
+    def regular(self, rcond_min: float, min_size: int) -> bool | None:
+        """Whether a' (``scaled``) is provably regular at ``rcond_min`` (>= REGULAR_RCOND) from
+        the factor the solves use (made here if no solve has needed it yet): True/False when
+        that decides it (the same estimate ``regular_factor(a', rcond_min, min_size)`` would
+        compute), None when it does not (a' not admitted at REGULAR_RCOND, or not finite)."""
+        if rcond_min < REGULAR_RCOND or min_size != REGULAR_MIN_SIZE or self.a.size == 0 \
+                or not np.isfinite(self.a).all():
+            return None
+        if self._prepared is None:
+            self._prepare()
+        return None if self.factor is None else self.factor.rcond > rcond_min
 
     def scaled(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(dr, dc, a') of ``equilibrate``: a' = dr[:, None] * a * dc, shapes (m,), (n,), (m, n)."""
@@ -173,7 +189,7 @@ class LeastSquares:
     def _prepare(self):
         self.scaled()
         dr, dc, a2, pattern = self._scaled
-        factor = regular_factor(a2, pattern=pattern)
+        factor = self.factor = regular_factor(a2, pattern=pattern)
         svd = factor.solve if factor is not None else _svd_solver(a2)
         self._prepared = (dr, dc, a2, svd, _wide_product(a2, pattern), np.linalg.norm(a2))
         return self._prepared
@@ -187,6 +203,10 @@ class LeastSquares:
             self._finite = bool(np.isfinite(a).all())
         if not (self._finite and np.isfinite(b).all()):
             return np.full(a.shape[1], np.nan), np.full(a.shape[0], np.nan), False
+        key = b.tobytes()
+        if self._last is not None and self._last[0] == key and b.dtype == self._last[1]:
+            x, r, ok = self._last[2]
+            return x.copy(), r.copy(), ok
         dr, dc, a2, svd, product, anorm = self._prepared or self._prepare()
         b2 = dr * b
         y = svd(b2)
@@ -194,7 +214,9 @@ class LeastSquares:
         r2 = b2 - a2 @ y
         bound = CONSISTENT * (anorm * np.linalg.norm(y) + np.linalg.norm(b2))
         x = dc * y
-        return x, b - a @ x, bool(np.linalg.norm(r2) <= bound)
+        out = (x, b - a @ x, bool(np.linalg.norm(r2) <= bound))
+        self._last = (key, b.dtype, (out[0].copy(), out[1].copy(), out[2]))
+        return out
 
 
 def _svd_solver(a: np.ndarray):
@@ -296,10 +318,11 @@ REGULAR_MIN_SIZE = 32
 class Factor:
     """LU factors of a regular square matrix: dense (LAPACK getrf) or, for a large sparse one,
     sparse (SuperLU with partial pivoting, scipy.sparse.linalg.splu); ``solve(b)`` for b of
-    shape (n,) or (n, k)."""
+    shape (n,) or (n, k).  ``rcond`` is the 1-norm reciprocal condition estimate that admitted
+    it (``regular_factor``), so a caller with a stricter bound need not factor again."""
 
-    def __init__(self, dense=None, sparse=None) -> None:
-        self._dense, self._sparse = dense, sparse
+    def __init__(self, dense=None, sparse=None, rcond: float = 0.0) -> None:
+        self._dense, self._sparse, self.rcond = dense, sparse, rcond
 
     def solve(self, b: np.ndarray) -> np.ndarray:
         if self._sparse is not None:
@@ -335,9 +358,8 @@ def regular_factor(a: np.ndarray, rcond_min: float = REGULAR_RCOND,
             return None
     if not np.all(np.isfinite(lu)) or np.any(np.diagonal(lu) == 0):
         return None
-    if rcond_estimate(a, lu) > rcond_min:
-        return Factor(dense=(lu, piv))
-    return None
+    rcond = rcond_estimate(a, lu)
+    return Factor(dense=(lu, piv), rcond=rcond) if rcond > rcond_min else None
 
 
 def _sparse_factor(a: np.ndarray, pattern, rcond_min: float) -> Factor | None:
@@ -361,7 +383,8 @@ def _sparse_factor(a: np.ndarray, pattern, rcond_min: float) -> Factor | None:
     anorm = float(np.abs(a).sum(axis=0).max(initial=0.0))
     if not (np.isfinite(inv_norm) and inv_norm > 0 and anorm > 0):
         return None
-    return Factor(sparse=lu) if 1.0 / (anorm * inv_norm) > rcond_min else None
+    rcond = 1.0 / (anorm * inv_norm)
+    return Factor(sparse=lu, rcond=rcond) if rcond > rcond_min else None
 
 
 def rcond_estimate(a: np.ndarray, lu: np.ndarray) -> float:

@@ -379,9 +379,15 @@ def _stamp_branch(circuit: Circuit, layout: Layout, part: Part, vrow: np.ndarray
 
 def scaled(g: np.ndarray, c: np.ndarray, b: np.ndarray, layout: Layout,
            scale: Scale) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """(G~, C~, b~) = (E G D, E C D / T, E b) as in the module docstring."""
+    """(G~, C~, b~) = (E G D, E C D / T, E b) as in the module docstring (each product taken
+    left to right as written, the later ones in place: no temporaries of shape (n, n))."""
     d, e = scale.var(layout), scale.row(layout)
-    return e[:, None] * g * d[None, :], e[:, None] * c * d[None, :] / scale.t, e * b
+    gs = e[:, None] * g
+    gs *= d[None, :]
+    cs = e[:, None] * c
+    cs *= d[None, :]
+    cs /= scale.t
+    return gs, cs, e * b
 
 
 def find_root(parent: dict, x):
@@ -449,6 +455,11 @@ def floating_groups(circuit: Circuit, connects: Callable[[Part], bool]) -> list[
     """
     idx = index_of(circuit)
     mask = np.fromiter((connects(p) for p in circuit.parts), bool, len(circuit.parts))
+    return _groups_of(circuit, idx, mask)
+
+
+def _groups_of(circuit: Circuit, idx: Index, mask: np.ndarray) -> list[list[str]]:
+    """The floating groups when the parts in ``mask`` connect, memoised by the mask."""
     key = mask.tobytes()
     if key not in idx.components:
         if len(idx.components) > 256:
@@ -479,6 +490,26 @@ def _components(circuit: Circuit, idx: Index, mask: np.ndarray) -> tuple[tuple[s
         if node != ground and lab != home:
             groups.setdefault(lab, []).append(node)
     return tuple(tuple(g) for g in groups.values())
+
+
+def interval_groups(circuit: Circuit, closed: Mapping[str, bool]) -> list[list[str]]:
+    """``floating_groups(circuit, connects_in_interval(closed))``, the mask built from arrays:
+    every part but current-type outputs connects, a switch when closed or resistive when open
+    (the static part of the mask and the switch positions are kept in the circuit's index)."""
+    idx = index_of(circuit)
+    if "interval-mask" not in idx.components:
+        parts = circuit.parts
+        base = np.array([p.kind not in (CURRENT_SOURCE, VCCS, CCCS, SWITCH) for p in parts],
+                        dtype=bool)
+        switches = [i for i, p in enumerate(parts) if p.kind == SWITCH]
+        idx.components["interval-mask"] = (
+            base, np.array(switches, dtype=int), tuple(parts[i].name for i in switches),
+            np.array([bool(parts[i].off_resistance) for i in switches], dtype=bool))
+    base, where, names, resistive = idx.components["interval-mask"]
+    mask = base.copy()
+    if where.size:
+        mask[where] = np.array([bool(closed[n]) for n in names], dtype=bool) | resistive
+    return _groups_of(circuit, idx, mask)
 
 
 def connects_in_interval(closed: Mapping[str, bool]) -> Callable[[Part], bool]:

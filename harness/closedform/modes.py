@@ -196,10 +196,20 @@ def _separated(rates: np.ndarray, zero_tol: float) -> tuple[Cluster, ...] | None
     out = []
     if zero.size:
         out.append(Cluster(0.0, np.diag(rates[zero]), None, None, True, tuple(zero.tolist())))
-    blocks = rates[rest].reshape(-1, 1, 1)
-    for i, block in zip(rest.tolist(), blocks):
-        out.append(Cluster(complex(block[0, 0]), block, None, None, False, (i,)))
+    picked = rates[rest]
+    blocks = picked.reshape(-1, 1, 1)
+    for i, rate, block in zip(rest.tolist(), picked.tolist(), blocks):
+        out.append(_single(rate, block, i))
     return tuple(out)
+
+
+def _single(rate: complex, block: np.ndarray, i: int) -> Cluster:
+    """``Cluster(rate, block, None, None, False, (i,))`` for a 1 x 1 unit selection, its fields
+    set directly (what the frozen dataclass's own ``__init__`` does field by field through
+    ``object.__setattr__``): one per mode of a large diagonal A."""
+    cl = object.__new__(Cluster)
+    cl.__dict__.update(rate=rate, block=block, right=None, left=None, zero=False, index=(i,))
+    return cl
 
 
 def diagonal_clusters(rates: np.ndarray, zero_tol: float) -> tuple[Cluster, ...]:

@@ -17,8 +17,8 @@ from .features import SCALE_FLOOR, RawEvent, classify, probe_scale, raw_event
 from .initial import dc_state
 from .interval import SingularPencil
 from .jumps import Scales, jump_at
-from .mna import (Layout, Scale, capacitor_null_basis, connects_in_interval, floating_groups,
-                  layout_of, pin, scale_of, scaled, stamp, stamp_sources)
+from .mna import (Layout, Scale, capacitor_null_basis, interval_groups, layout_of, pin,
+                  scale_of, scaled, stamp, stamp_sources)
 from .modes import UNDAMPED, Mode, mode_of
 from .probes import functional
 from .response import IntervalResponse, Pencil, build, pencil_of
@@ -238,15 +238,15 @@ def _circuit_scales(sol: ClosedFormSolution) -> Scales:
     current = Vs / R0."""
     r0, nn = sol.scale.r0, sol.layout.n_nodes
     mags, volts = [1e-30], [1e-30]
+    sources = [p for p in sol.circuit.parts if p.kind in SOURCES]
     for resp in (sol.prestep,) + sol.intervals:
         for x in (resp.x_plus, resp.x_end):
             if x is not None and np.all(np.isfinite(x)) and x.size:
                 mags.append(float(np.max(np.abs(x))))     # scaled currents are in volts
                 volts.append(float(np.max(np.abs(x[:nn]), initial=0.0)))
-        for part in sol.circuit.parts:
-            if part.kind in SOURCES:
-                v = abs(resp.values.get(part.name, 0.0))
-                mags.append(v * (r0 if part.kind == CURRENT_SOURCE else 1.0))
+        for part in sources:
+            v = abs(resp.values.get(part.name, 0.0))
+            mags.append(v * (r0 if part.kind == CURRENT_SOURCE else 1.0))
     vs, vn = max(mags), max(volts)
     caps = [p.value for p in sol.circuit.parts if p.kind == CAPACITOR]
     charge = vn * (min(caps) if caps else sol.scale.t / r0)
@@ -259,7 +259,7 @@ def _interval_setup(circuit: Circuit, layout: Layout, scale: Scale, time: float,
               for p in circuit.parts if p.kind == SWITCH}
     values = {p.name: (p.source_value_before(time) if pre else p.source_value(time))
               for p in circuit.parts if p.kind in SOURCES}
-    groups = floating_groups(circuit, connects_in_interval(closed))
+    groups = interval_groups(circuit, closed)
     return closed, values, groups
 
 
@@ -327,12 +327,20 @@ def solve(circuit: Circuit) -> ClosedFormSolution:
         closed, values, groups = _interval_setup(circuit, layout, scale, time, pre)
         if groups and not pre:
             warnings.append(_floating_warning(time, groups))
-        pencil = _pencil(circuit, layout, scale, null, closed, groups, cache, time)
+        try:
+            pencil = _pencil(circuit, layout, scale, null, closed, groups, cache, time)
+        except TopologyError:
+            if x_minus is None:             # an error in the state at 0- is reported first
+                dc_state(circuit, layout, scale)
+            raise
         b = _b_scaled(circuit, layout, scale, closed, values)
+        if x_minus is None:                 # the pre-step interval: the DC state at 0-
+            reuse = None if groups else (pencil.particular, b)
+            x_minus = dc_state(circuit, layout, scale, reuse=reuse)
         return build(layout, pencil, null, b, x_minus, index=index, start=time,
                      next_time=next_time, values=values, closed=closed, t_ref=scale.t)
 
-    prestep = run(0.0, -1, None, dc_state(circuit, layout, scale), pre=True)
+    prestep = run(0.0, -1, None, None, pre=True)
     intervals = []
     x_minus = prestep.x_plus
     for k, time in enumerate(events):

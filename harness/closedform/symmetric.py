@@ -41,7 +41,9 @@ modes with |mu| = 1/|s0 - lambda| at or below max(INFINITE_REL / s0, 1e3 eps |K|
 instantaneous and dropped (|K|_F estimated by the norm of the mu); |lambda| <= ZERO_REL s0 is the
 zero cluster.  A growing mode (never present in a passive network) returns None.
 
-Used from MIN_SIZE unknowns on (below it the general route is as fast).  Cost: O(n^2) assembly with sparse R and N0, one LU of the m x m algebraic block and one
+Used from MIN_SIZE unknowns on (below it the general route is as fast).  Cost: O(n^2) assembly
+with R and N0 applied as row picks and small per-support blocks (``_Selection``, ``_Blocks``),
+one LU of the m x m algebraic block and one
 symmetric-definite eigenproblem of the r capacitor coordinates, against the general route's
 LU, ordered Schur form, Sylvester equation and non-symmetric eigenproblems of the full pencil.
 """
@@ -53,7 +55,6 @@ import warnings
 
 import numpy as np
 import scipy.linalg as sla
-import scipy.sparse as sp
 
 from .interval import INFINITE_REL, ZERO_REL, Decomposition
 from .modes import diagonal_clusters
@@ -61,8 +62,6 @@ from .modes import diagonal_clusters
 #: asymmetry of G~ (after clearing open-switch columns), relative to its largest entry,
 #: tolerated as rounding
 SYMMETRY_REL = 1e-12
-#: below this many unknowns the bases are kept dense
-DENSE_BELOW = 150
 #: below this many unknowns the general route is used: it is as fast there, and small circuits
 #: keep bit for bit the results they had before this route existed
 MIN_SIZE = 32
@@ -70,6 +69,8 @@ MIN_SIZE = 32
 PIVOT_REL = 1e-12
 #: a negative w beyond this fraction of the largest |w| is a growing mode (fall back)
 GROWING_REL = 1e-9
+#: below this magnitude m + m^T cannot overflow, so (m + m^T)/2 of a symmetric m is m exactly
+_HALF_MAX = np.finfo(float).max / 2
 
 
 def _cleared(g: np.ndarray, c: np.ndarray) -> np.ndarray:
@@ -89,6 +90,8 @@ def _symmetric(m: np.ndarray) -> np.ndarray | None:
     """(m + m^T)/2 when max |m - m^T| <= SYMMETRY_REL max |m + m^T|, else None."""
     if not np.all(np.isfinite(m)):
         return None
+    if np.array_equal(m, m.T) and max(m.max(initial=0.0), -m.min(initial=0.0)) < _HALF_MAX:
+        return m                                   # exactly symmetric: (m + m^T)/2 is m
     dev = m - m.T
     np.abs(dev, out=dev)
     sym = m + m.T
@@ -130,51 +133,100 @@ class _Selection:
         return out
 
 
+class _Blocks:
+    """A matrix of shape (n, k) whose columns have disjoint supports: unit columns e_(units[i])
+    first, then per block b the columns ``vecs[b]`` (shape (|support_b|, k_b)) on the rows
+    ``supports[b]``; or its transpose.  Products with dense matrices are a row pick plus one
+    small dense product per block, O(size of the result + sum over blocks), where a general
+    sparse product costs a sparse matrix-times-dense-columns pass."""
+
+    def __init__(self, units: np.ndarray, supports: list, vecs: list, n: int,
+                 transposed: bool = False) -> None:
+        self.units, self.supports, self.vecs, self.n = units, supports, vecs, n
+        self.transposed = transposed
+        self.width = units.size + sum(v.shape[1] for v in vecs)
+        self.shape = (self.width, n) if transposed else (n, self.width)
+
+    @property
+    def T(self) -> "_Blocks":
+        return _Blocks(self.units, self.supports, self.vecs, self.n, not self.transposed)
+
+    def __matmul__(self, m: np.ndarray) -> np.ndarray:
+        m = np.asarray(m)
+        if self.transposed:                        # B^T m: rows of m, block-combined
+            parts = [m[self.units]] + [v.T @ m[sup] for sup, v in zip(self.supports, self.vecs)]
+            return np.concatenate(parts, axis=0)
+        out = np.zeros((self.n,) + m.shape[1:], dtype=np.result_type(m, float))
+        out[self.units] = m[:self.units.size]
+        col = self.units.size
+        for sup, v in zip(self.supports, self.vecs):
+            out[sup] += v @ m[col:col + v.shape[1]]
+            col += v.shape[1]
+        return out
+
+    def right(self, m: np.ndarray) -> np.ndarray:
+        """m @ B for the (not transposed) B, m of shape (p, n): columns of m picked and
+        block-combined, shape (p, k), C-ordered."""
+        cols = _index(self.units)
+        parts = [np.ascontiguousarray(m[:, cols])]
+        parts += [m[:, sup] @ v for sup, v in zip(self.supports, self.vecs)]
+        return np.concatenate(parts, axis=1) if len(parts) > 1 else parts[0]
+
+
 def _bases(null: np.ndarray, n: int):
     """N0 (the given null columns) and R (orthonormal complement): column selections
-    (``_Selection``) when every null column is a unit vector, else scipy.sparse above
-    DENSE_BELOW unknowns; None when the null columns do not have disjoint supports."""
+    (``_Selection``) when every null column is a unit vector, else ``_Blocks`` (R: the rows no
+    null column touches as unit columns, then per multi-row support the Householder complement
+    of its null vector); None when the null columns do not have disjoint supports."""
+    m = null.shape[1]
+    cols, rows = np.nonzero(null.T)                # by column, rows ascending in each
     owner = np.full(n, -1)
-    blocks = []                                    # (support, complement columns)
-    units = []                                     # the row of each unit null column
-    for j in range(null.shape[1]):
-        support = np.flatnonzero(null[:, j])
-        if np.any(owner[support] >= 0):
-            return None
-        owner[support] = j
-        if support.size == 1 and null[support[0], j] == 1.0:
-            units.append(int(support[0]))
-        if support.size > 1:
-            u = null[support, j] / np.linalg.norm(null[support, j])
-            blocks.append((support, _householder_complement(u)))
+    if np.unique(rows).size != rows.size:
+        return None                                # a row in two null columns' supports
+    owner[rows] = cols
+    starts = np.searchsorted(cols, np.arange(m + 1))
     free = np.flatnonzero(owner < 0)
-    if len(units) == null.shape[1]:                # every null column a unit vector e_i
-        return _Selection(np.array(units, dtype=int), n), _Selection(free, n)
-    width = free.size + sum(comp.shape[1] for _, comp in blocks)
-    if n <= DENSE_BELOW:                           # sparse bookkeeping costs more here
-        r = np.zeros((n, width))
-        r[free, np.arange(free.size)] = 1.0
-        col = free.size
-        for support, comp in blocks:
-            r[np.ix_(support, np.arange(col, col + comp.shape[1]))] = comp
-            col += comp.shape[1]
-        return null, r
-    rows, cols, vals = [free], [np.arange(free.size)], [np.ones(free.size)]
-    col = free.size
-    for support, comp in blocks:
-        k = comp.shape[1]
-        rows.append(np.repeat(support, k))
-        cols.append(np.tile(np.arange(col, col + k), support.size))
-        vals.append(comp.ravel())
-        col += k
-    r = sp.csc_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
-                      shape=(n, width))
-    n0 = sp.csc_matrix(null) if null.shape[1] else sp.csc_matrix((n, 0))
-    return n0, r
+    single = np.diff(starts) == 1
+    unit_rows = rows[starts[:-1][single]] if m else np.zeros(0, dtype=int)
+    if single.all() and np.all(null[unit_rows, np.flatnonzero(single)] == 1.0):
+        return _Selection(unit_rows.astype(int), n), _Selection(free, n)
+    n_units, n_sup, n_vec = [], [], []   # N0: its unit columns first, then the others
+    r_sup, r_vec = [], []
+    for j in range(m):
+        support = rows[starts[j]:starts[j + 1]]
+        vals = null[support, j]
+        if support.size == 1 and vals[0] == 1.0:
+            n_units.append(int(support[0]))
+            continue
+        n_sup.append(support)
+        n_vec.append(vals.reshape(-1, 1))
+        if support.size > 1:
+            r_sup.append(support)
+            r_vec.append(_householder_complement(vals / np.linalg.norm(vals)))
+    n0 = _Blocks(np.array(n_units, dtype=int), n_sup, n_vec, n)
+    return n0, _Blocks(free, r_sup, r_vec, n)
 
 
 def _reduced(g: np.ndarray, c: np.ndarray, n0, r):
-    """(S, C11, H, R^T C~) of the module docstring, H = G22^-1 G21; None if G22 is singular."""
+    """(S, C11, H, R^T C~) of the module docstring, H = G22^-1 G21; None if G22 is singular.
+
+    ``g`` and ``c`` are exactly symmetric (``_symmetric``), so with unit-column bases
+    (``_Selection``) every block is a submatrix picked in one indexing step, the same floats
+    as the products (``_selected_blocks``).
+    """
+    if isinstance(r, _Selection) and isinstance(n0, _Selection):
+        rtc, c11, g11, g21, g22 = _selected_blocks(g, c, n0.rows, r.rows)
+        if n0.shape[1] == 0:
+            return 0.5 * (g11 + g11.T), c11, np.zeros((0, r.shape[1])), rtc
+        return _schur(g11, g21, g22, c11, rtc)
+    if isinstance(r, _Blocks) and isinstance(n0, _Blocks):
+        rtc, rtg = r.T @ c, r.T @ g                # (r, n) each; C~, G~ symmetric
+        c11, g11 = r.right(rtc), r.right(rtg)      # R^T C~ R, R^T G~ R
+        if n0.shape[1] == 0:
+            return 0.5 * (g11 + g11.T), 0.5 * (c11 + c11.T), np.zeros((0, r.shape[1])), rtc
+        g21 = n0.right(rtg).T                      # N0^T G~ R = (R^T G~ N0)^T, (m, r)
+        g22 = n0.right(n0.T @ g)                   # N0^T G~ N0
+        return _schur(g11, np.ascontiguousarray(g21), g22, 0.5 * (c11 + c11.T), rtc)
     rtc = np.asarray(r.T @ c)                      # (r, n); C~ symmetric
     c11 = np.asarray(r.T @ rtc.T)
     rtg = np.asarray(r.T @ g)                      # (r, n); G~ symmetric
@@ -183,6 +235,42 @@ def _reduced(g: np.ndarray, c: np.ndarray, n0, r):
         return 0.5 * (g11 + g11.T), 0.5 * (c11 + c11.T), np.zeros((0, r.shape[1])), rtc
     g21 = np.asarray(n0.T @ rtg.T)                 # (m, r)
     g22 = np.asarray(n0.T @ np.asarray(n0.T @ g).T)
+    return _schur(g11, g21, g22, 0.5 * (c11 + c11.T), rtc)
+
+
+def _selected_blocks(g: np.ndarray, c: np.ndarray, null_rows: np.ndarray, rows: np.ndarray):
+    """(R^T C~, C11, G11, G21, G22) for bases of unit columns: R picks ``rows``, N0 picks
+    ``null_rows``.  For the exactly symmetric g, c these are the submatrices the products of
+    ``_reduced`` give (R^T (R^T C~)^T is C~[rows][:, rows]^T = C~[rows][:, rows], and C11 is
+    already exactly symmetric, so its (C11 + C11^T)/2 is itself)."""
+    sel = _index(rows)
+    rtc = c[sel]
+    c11 = np.ascontiguousarray(rtc[:, sel])
+    g11 = _pick(g, sel, sel)
+    g21 = _pick(g, _index(null_rows), sel)
+    g22 = _pick(g, _index(null_rows), _index(null_rows))
+    return rtc, c11, g11, g21, g22
+
+
+def _index(rows: np.ndarray):
+    """``rows`` as a slice when they are consecutive (a view, no gather), else as they are."""
+    if rows.size and rows[-1] - rows[0] + 1 == rows.size and np.all(np.diff(rows) == 1):
+        return slice(int(rows[0]), int(rows[-1]) + 1)
+    return rows
+
+
+def _pick(m: np.ndarray, rows, cols) -> np.ndarray:
+    """The submatrix m[rows][:, cols] as a new C-ordered array (rows, cols: ``_index``)."""
+    if isinstance(rows, slice) and isinstance(cols, slice):
+        return m[rows, cols].copy()
+    if isinstance(rows, slice) or isinstance(cols, slice):
+        return np.ascontiguousarray(m[rows][:, cols])
+    return m[np.ix_(rows, cols)]
+
+
+def _schur(g11, g21, g22, c11, rtc):
+    """(S, C11, H, R^T C~) with S = G11 - G21^T G22^-1 G21 symmetrised, H = G22^-1 G21; None
+    when a pivot of G22's LU is below PIVOT_REL of the largest (``_reduced``)."""
     try:
         with warnings.catch_warnings():           # a singular block is an answer here
             warnings.simplefilter("ignore", sla.LinAlgWarning)
@@ -194,7 +282,7 @@ def _reduced(g: np.ndarray, c: np.ndarray, n0, r):
         return None
     h = sla.lu_solve(lu, g21, check_finite=False)
     s = g11 - g21.T @ h
-    return 0.5 * (s + s.T), 0.5 * (c11 + c11.T), h, rtc
+    return 0.5 * (s + s.T), c11, h, rtc
 
 
 def _finite(lam: np.ndarray, s0: float) -> np.ndarray:
