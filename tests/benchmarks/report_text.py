@@ -7,18 +7,18 @@ from .timing import ms
 TARGETS = """\
 Targets (figures of the run of 2026-12-02 quoted; the tables above are the latest run):
 
-- **Exact engine within 2x of its limit for n >= 100: met from n = 1000 on RC ladders (1.40x
-  at 1000, 1.20x at 2000) and at n = 2000 on random networks (1.74x); not met below** (ladders
-  4.2x at 100, 2.6x at 300; random 6.2x at 100, 3.1x at 300, 2.1x at 1000).  At n = 100 the
-  `eigh` itself is ~1 ms while the rest of a solve (~3 ms) is spread over ~40 calls of
-  0.1-0.6 ms each (equilibration, three small LUs, the DC system, mode clusters, jump
-  bookkeeping).  What would meet it: recognising that the DC matrix, the pre-step pencil and
-  the interval-0 pencil are one matrix when a circuit has no switches and no initial values
-  (~1 ms), the scaled pencil assembled once in sparse form, and the ~100 cluster objects held
-  as arrays.  On random networks at 1000-2000 the remainder is the fill-in of the sparse LU,
+- **Exact engine within 2x of its limit for n >= 100: met from n = 1000** (RC ladders 1.17x
+  at 1000 and 1.19x at 2000, random networks 1.89x and 1.53x), **not met at 100-300** (ladders
+  3.5x at 100, 2.1x at 300; random 4.8x at 100, 2.3x at 300).  At n = 100 the limit is only
+  0.5-0.9 ms; the remaining ~2 ms is spread thin: the particular solve's equilibration and LU
+  ~0.45 ms (needed in any case), jump bookkeeping ~0.25 ms, the two interval builds ~0.2 ms,
+  the reduction and mode-cluster overhead ~0.3 ms and about ten items of 0.03-0.1 ms.  The
+  DC state now reuses the pre-step pencil's solver where they are one system.  Meeting 2x
+  there would need a particular solution taken from the eigendecomposition itself, which
+  changes what counts as a consistent system.  On random networks at 1000-2000 the remainder is the fill-in of the sparse LU,
   two sparse factorisations (0.14 s at 2000) and the O(n m r) product for the rows of Q1 at
   capacitance-free nodes.
-- **Under 2 ms per small circuit: not met** (median 2.85-3.86 ms over four runs after the
+- **Under 2 ms per small circuit: not met** (median 2.85-3.86 ms over five runs after the
   small-circuit pass of 2026-12-02, which made them 16-21 % faster in same-run alternation
   with the previous code; 1.8 ms on 2026-12-01, before the extended-precision refinement of
   the particular solution and the conditioning and sign-off work).  What remains is spread
@@ -29,7 +29,7 @@ Targets (figures of the run of 2026-12-02 quoted; the tables above are the lates
   ~40 library calls).  Small systems (< 32 unknowns) keep their SVD routes so that their
   values stay bit-identical; an LU route for them measured no gain.
 - **Features of a higher-order probe: met** (10 ms at 200 sections, was 1.08 s; growth
-  n^0.75, was n^2.34): one LU of G~ for every test injection of an interval, bordered solves
+  n^0.75-1.07, was n^2.34): one LU of G~ for every test injection of an interval, bordered solves
   for inductors, one null-space test on the equilibrated G~ where G~ is not provably regular.
 - **Numeric engine within 1.3x of a bare solve_ivp: met at 10, 30 and 2000 sections (1.15-1.32x),
   not at 100-1000 (1.31-1.48x)**; the stepping alone is 0.89-1.26x of the bare integrator.
@@ -71,13 +71,18 @@ Changes made for speed (results unchanged: `tauproof solve circuits/library --js
   for the cautions: a 100-section ladder check 8 s -> 1 s).  Small systems (< 32 unknowns) keep
   their routes; for them a dense Ruiz sweep with fewer array operations, one kept
   least-squares solver per pencil (`linalg.LeastSquares`, `Pencil.particular`) reused by every
-  interval with that switch state, and a direct `dgelsd` call without the wrapper's checks.
+  interval with that switch state, and a direct `dgelsd` call without the wrapper's checks;
+  the DC state reuses the pre-step pencil's solver where they are one system (no initial
+  values, no floating groups), the uniqueness test is answered from the kept factor, the
+  symmetric reduction picks rows instead of multiplying by selection matrices, and the jump
+  sums are array expressions (n = 100-300: 18-26 % faster, library values byte-identical).
 - numerical engine, 2026-12-02: bridges instead of one union-find per capacitor for the loop
   capacitance (was quadratic: 1.8 s twice at n = 1000); systems shared by intervals with the
   same switch states (`equations.build(cache=)`); a sparse tree transform; the pilot model
   skipped above 300 states; eigenvalues once per distinct Jacobian; Radau's LU hooks call
   LAPACK directly (steps digit for digit those of stock Radau); COO assembly of the DC matrix;
-  a work budget per interval and per solve.
+  a work budget per interval and per solve; resistor and vccs current expressions built once
+  per solve; the settle detector's limits computed once (values byte-identical).
 - everywhere: `Circuit.nodes` and `.events` built once; matplotlib and pandas imported only when
   reports are written (~0.5 s off a run without reports); plots drawn in the worker processes.
 """
