@@ -76,8 +76,47 @@ EXIT_SIGNAL_BASE = 128
 EXIT_REPORTS = 2
 
 
+class _PipeSafe:
+    """stdout that survives a reader closing the pipe (``tauproof check … | head``): the rest
+    of the output is dropped, the reports are still written and the exit code is kept."""
+
+    def __init__(self, stream) -> None:
+        self._stream, self._broken = stream, False
+
+    def write(self, text: str) -> int:
+        if not self._broken:
+            try:
+                return self._stream.write(text)
+            except BrokenPipeError:
+                self._drop()
+        return len(text)
+
+    def flush(self) -> None:
+        if not self._broken:
+            try:
+                self._stream.flush()
+            except BrokenPipeError:
+                self._drop()
+
+    def _drop(self) -> None:
+        self._broken = True
+        with contextlib.suppress(OSError, ValueError):   # no later flush may raise at exit
+            os.dup2(os.open(os.devnull, os.O_WRONLY), self._stream.fileno())
+
+    def __getattr__(self, name):
+        return getattr(self._stream, name)
+
+
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the console script; returns the exit code."""
+    previous, sys.stdout = sys.stdout, _PipeSafe(sys.stdout)
+    try:
+        return _main(argv)
+    finally:
+        sys.stdout = previous
+
+
+def _main(argv: list[str] | None) -> int:
     args = _parser().parse_args(argv)
     from .runner import RunInterrupted, RunOptions, run
     options = RunOptions(numeric=not args.closed_form_only, jobs=args.jobs,

@@ -124,3 +124,24 @@ def test_missing_path_exits_two(tmp_path, capsys):
     """A path that does not exist is reported by name with exit 2."""
     code, out, err = run(capsys, "check", str(tmp_path / "nope.toml"), "--no-report")
     assert code == 2 and "nope.toml" in err
+
+
+def test_a_closed_stdout_pipe_costs_neither_the_reports_nor_the_exit_code(tmp_path):
+    """``tauproof check … | head`` closing the pipe early: no traceback, the reports are still
+    written and the exit code is the run's (0 for the bundled supervisor circuit, which passes).
+    A reader that exits at once is the usual way a pipe closes (common practice: EPIPE)."""
+    import os
+    import subprocess
+    import sys
+    read_end, write_end = os.pipe()
+    os.close(read_end)                       # the reader is gone before the first line
+    out = tmp_path / "reports"
+    proc = subprocess.run(
+        [sys.executable, "-m", "harness", "check", "circuits/library/logger/supervisor-reset.toml",
+         "--closed-form-only", "--report-dir", str(out)],
+        stdout=write_end, stderr=subprocess.PIPE, text=True,
+        cwd=Path(__file__).resolve().parent.parent, timeout=120)
+    os.close(write_end)
+    assert proc.returncode == 0, proc.stderr
+    assert "Traceback" not in proc.stderr
+    assert (out / "report.html").exists() and (out / "junit.xml").exists()
