@@ -93,6 +93,21 @@ def _sweep_dense(a: np.ndarray, sweeps: int) -> tuple[np.ndarray, np.ndarray]:
     return dr, dc
 
 
+def _ruiz_step(dr: np.ndarray, dc: np.ndarray, rmax: np.ndarray, cmax: np.ndarray) -> bool:
+    """One Ruiz update in place: divide dr, dc by the square roots of the row and column maxima
+    of the scaled matrix (a zero row or column keeps its scale); True, with nothing changed, at
+    the fixed point (every maximum 1)."""
+    if not rmax.all():
+        rmax[rmax == 0] = 1.0
+    if not cmax.all():
+        cmax[cmax == 0] = 1.0
+    if (rmax == 1.0).all() and (cmax == 1.0).all():
+        return True
+    dr /= np.sqrt(rmax)
+    dc /= np.sqrt(cmax)
+    return False
+
+
 def _sweep_checked(a: np.ndarray, sweeps: int) -> tuple[np.ndarray, np.ndarray]:
     """``_sweep_dense`` testing every sweep's maxima for zeros and the fixed point."""
     dr, dc = np.ones(a.shape[0]), np.ones(a.shape[1])
@@ -100,14 +115,8 @@ def _sweep_checked(a: np.ndarray, sweeps: int) -> tuple[np.ndarray, np.ndarray]:
         scaled = dr[:, None] * a
         scaled *= dc
         rmax, cmax = scaled.max(axis=1), scaled.max(axis=0)
-        if not rmax.all():
-            rmax[rmax == 0] = 1.0
-        if not cmax.all():
-            cmax[cmax == 0] = 1.0
-        if (rmax == 1.0).all() and (cmax == 1.0).all():
+        if _ruiz_step(dr, dc, rmax, cmax):
             break                       # a fixed point: further sweeps change nothing
-        dr /= np.sqrt(rmax)
-        dc /= np.sqrt(cmax)
     return dr, dc
 
 
@@ -124,14 +133,8 @@ def _sweep_sparse(p: np.ndarray, pattern, sweeps: int) -> tuple[np.ndarray, np.n
     for _ in range(sweeps):
         scaled = dr[rows] * a * dc[cols]
         rmax, cmax = _row_col_max(scaled, pattern, (m, n), by_col)
-        if not rmax.all():
-            rmax[rmax == 0] = 1.0
-        if not cmax.all():
-            cmax[cmax == 0] = 1.0
-        if (rmax == 1.0).all() and (cmax == 1.0).all():
+        if _ruiz_step(dr, dc, rmax, cmax):
             break                       # a fixed point: further sweeps change nothing
-        dr /= np.sqrt(rmax)
-        dc /= np.sqrt(cmax)
     return dr, dc
 
 
