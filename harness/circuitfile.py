@@ -255,24 +255,18 @@ def _expectation(index: int, raw: object, circuit: m.Circuit, values: dict,
     probe = _probe(raw, circuit, where, index)
     at = _event(raw.get("at", 0.0), circuit, where, index)
     hand, formulas = {}, {}
-    for name in m.FIELDS:
-        if name in raw:
-            dimension = "s" if name == "tau" else probe.dimension
-            hand[name], text = _hand_value(raw[name], dimension, values, where, index, name)
-            if text is not None:
-                formulas[name] = text
-            if name == "tau" and not hand[name] > 0:
-                raise where.error(f"tau must be greater than zero, got {raw[name]!r}",
-                                  path=base + (name,), part=label, field=name)
-    for key, dimension in (("peak", probe.dimension), ("dominant-tau", "s")):
-        if key in raw:
-            name = SIGNOFF_KEYS[key]
-            hand[name], text = _hand_value(raw[key], dimension, values, where, index, key)
-            if text is not None:
-                formulas[name] = text
-            if name == "dominant_tau" and not hand[name] > 0:
-                raise where.error(f"dominant-tau must be greater than zero, got {raw[key]!r}",
-                                  path=base + (key,), part=label, field=key)
+    scalar_keys = [(name, name) for name in m.FIELDS] + [(key, SIGNOFF_KEYS[key])
+                                                         for key in ("peak", "dominant-tau")]
+    for key, name in scalar_keys:
+        if key not in raw:
+            continue
+        dimension = "s" if name in ("tau", "dominant_tau") else probe.dimension
+        hand[name], text = _hand_value(raw[key], dimension, values, where, index, key)
+        if text is not None:
+            formulas[name] = text
+        if name in ("tau", "dominant_tau") and not hand[name] > 0:
+            raise where.error(f"{key} must be greater than zero, got {raw[key]!r}",
+                              path=base + (key,), part=label, field=key)
     crossing = _crossing(raw["crossing"], probe, values, where, index) \
         if "crossing" in raw else None
     energy = _energy(raw["energy"], circuit, values, where, index) if "energy" in raw else None
