@@ -17,8 +17,9 @@ from .errors import InputError
 from .filelines import Where, name_problem, quoted_list, suggest
 
 #: upper limits a user can rely on (past them: an input error, not a hang); measured in
-#: tests/benchmarks/RESULTS.md "Reliability": a 200-part RC ladder takes ~0.5 s to solve and
-#: ~25 s per probe whose every mode is visible (closed form); 2500 steps ~1 s (closed form)
+#: tests/benchmarks/RESULTS.md "Reliability": a 200-part RC ladder checked with both engines
+#: and the reports in ~3 s (2026-12-02; 25 s per probe before the speed work); 2500 steps ~1 s
+#: (closed form)
 MAX_PARTS = 200
 MAX_STEPS = 2500
 
