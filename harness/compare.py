@@ -14,7 +14,7 @@ from dataclasses import replace
 import numpy as np
 
 from . import tolerances as tol
-from .compare_signoff import dominant_json, signoff_fields
+from .compare_signoff import dominant_json, signoff_fields, withheld
 from .diagnose import explain
 from .model import FIELDS, Circuit, Expectation, Probe, NODE, BETWEEN, ACROSS
 from .outcome import (ENGINES_DISAGREE, MISMATCH, PASS, CheckResult, FieldResult, FileResult,
@@ -55,6 +55,8 @@ def probe_scale(circuit: Circuit, exact: Solution, probe: Probe) -> float:
     scale = max(values, default=0.0)
     if scale <= tol.SCALE_FROM_PEAKS * circuit.largest_source() and hasattr(exact, "peak"):
         for k in range(len(circuit.events)):
+            if withheld(exact, k):
+                continue
             try:
                 magnitude = exact.peak(probe, k).magnitude
             except (ValueError, ArithmeticError, np.linalg.LinAlgError):

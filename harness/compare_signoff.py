@@ -56,7 +56,32 @@ def signoff_fields(exp: Expectation, fe: Features, ctx: "CheckContext") -> list[
     order."""
     makers = {"crossing": compare_crossing, "peak": compare_peak, "energy": compare_energy,
               "dominant_tau": compare_dominant}
+    note = withheld(ctx.exact, ctx.k)
+    if note:
+        return [_withheld_field(name, exp, note) for name in SIGNOFF_FIELDS if exp.wants(name)]
     return [makers[name](exp, fe, ctx) for name in SIGNOFF_FIELDS if exp.wants(name)]
+
+
+def withheld(solution, k: int) -> str | None:
+    """Why interval k's values are not reported (a conditioning guard), or None."""
+    ask = getattr(solution, "withheld", None)
+    return ask(k) if ask is not None else None
+
+
+def _withheld_field(name: str, exp: Expectation, note: str) -> FieldResult:
+    """A sign-off field of an interval whose values are not reported: no engine value; a hand
+    value cannot be confirmed (mismatch, as for the four classical fields)."""
+    extra: dict[str, Any] = {}
+    if name == "crossing":
+        hand, unit = exp.crossing.time, "s"
+        extra = {"level": exp.crossing.level, "direction": exp.crossing.direction, "at": None}
+    elif name == "energy":
+        hand, unit, extra = exp.energy.value, "J", {"part": exp.energy.part}
+    else:
+        hand, unit = exp.hand[name], ("s" if name == "dominant_tau" else exp.probe.dimension)
+    return FieldResult(name=name, hand=hand, closed_form=None, numeric=None,
+                       verdict=MISMATCH if hand is not None else PASS, unit=unit, message=note,
+                       extra=extra)
 
 
 # ------------------------------------------------------------------------------- crossing

@@ -24,7 +24,7 @@ from harness.circuitfile import parse_circuit
 from harness.cli import main
 from harness.closedform.conditioning import assess
 from harness.model import Probe
-from harness.outcome import ENGINES_DISAGREE, PASS
+from harness.outcome import ENGINES_DISAGREE, MISMATCH, PASS
 
 BAD = Path(__file__).parent / "bad"
 #: ill-posed kinds of the issue, each a file in tests/bad/ (with its expect-error header)
@@ -213,6 +213,24 @@ def test_conditioning_beyond_bound_reports_no_digits(tmp_path, capsys):
     assert any(re.search(r"conditioning \de\+1\d beyond 1e\+12 from 0 s on: values not reported",
                          m) for m in file["checks"][0]["messages"])
     assert any("ill-conditioned" in w for w in file["warnings"])
+
+
+def test_conditioning_beyond_bound_withholds_the_signoff_values_too(tmp_path, capsys):
+    """The same near-singular circuit with a crossing, a peak and an energy asked for: none of
+    them is reported from either engine, each says why, and a hand value is not confirmed."""
+    path = tmp_path / "near.toml"
+    path.write_text(NEAR_SINGULAR + textwrap.dedent("""
+        crossing = { level = "1 V", time = "1 ms" }
+        peak = "10 TV"
+        energy = { part = "R1" }
+        """), encoding="utf-8")
+    main(["check", str(path), "--json", "--no-report"])
+    fields = json.loads(capsys.readouterr().out)["files"][0]["checks"][0]["fields"]
+    for name in ("crossing", "peak", "energy"):
+        assert fields[name]["closed_form"] is None and fields[name]["numeric"] is None, name
+        assert "values not reported" in fields[name]["message"], name
+    assert fields["crossing"]["verdict"] == fields["peak"]["verdict"] == MISMATCH
+    assert fields["energy"]["verdict"] == PASS        # no hand value: nothing to confirm
 
 
 def test_conditioning_estimate_tracks_distance_to_singular():

@@ -101,7 +101,8 @@ def assess(solution) -> tuple[Conditioning, ...]:
 class Guarded:
     """An engine solution whose untrustworthy intervals report None (``Solution`` protocol).
 
-    Attributes other than ``features``, ``waveform`` and ``warnings`` pass to the wrapped one.
+    Attributes other than ``features``, ``waveform``, ``withheld`` and ``warnings`` pass to the
+    wrapped one.
     """
 
     def __init__(self, inner, conditioning: tuple[Conditioning, ...]) -> None:
@@ -125,6 +126,12 @@ class Guarded:
                            tau=None, order=None, modes=(), oscillation=(),
                            notes=f.notes + (note,))
         return replace(f, before=None, notes=f.notes + (note,))
+
+    def withheld(self, k: int) -> str | None:
+        """The note saying why interval k's values are not reported, or None when they are
+        (the sign-off comparisons ask this before using ``crossing``, ``peak``, ``energy``
+        and ``dominant``, which pass through unguarded)."""
+        return None if self.conditioning[k].trusted else self.conditioning[k].note()
 
     def waveform(self, probe, k: int, times):
         values = np.asarray(self._inner.waveform(probe, k, times), dtype=float)
