@@ -20,12 +20,11 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, assume, given, settings, strategies as st
 
+from harness import closedform
 from harness import tolerances as T
 from harness.model import Probe
+from harness.simulate import solve as numeric
 from simulate_random import kind_scale, probes, random_circuit, ringing
-
-closedform = pytest.importorskip("harness.closedform")
-from harness.simulate import solve as numeric  # noqa: E402
 
 
 def waveform_peak(num, probe: Probe, k: int) -> float:

@@ -276,7 +276,11 @@ def test_dominant_estimate_reports_deviation_and_fifty_percent_time():
     assert dom.tau == pytest.approx(1 * 1 + (1 + 2) * 0.5, rel=1e-12)  # R1·C1 + (R1+R2)·C2
     assert dom.t50_estimate == pytest.approx(dom.tau * math.log(2), rel=1e-12)
     assert dom.t50 == pytest.approx(ref, rel=1e-9)
-    assert 0 < dom.deviation < 1
+    grid = np.linspace(0.0, 30 * dom.tau, 200_001)
+    exact = sp.lambdify(t, vb, "numpy")(grid)
+    # the one-τ curve's largest departure, from sympy's exact v_b sampled densely (sympy exact)
+    assert dom.deviation == pytest.approx(
+        float(np.max(np.abs((1 - np.exp(-grid / dom.tau)) - exact))), rel=1e-3)
     assert sol.features(NODE("b"), 0).dominant_tau == pytest.approx(dom.tau, rel=1e-12)
 
 

@@ -114,7 +114,9 @@ def test_solution_protocol_and_counters():
     sol = solve(rc())
     assert isinstance(sol, NumericSolution) and sol.engine == "numeric"
     t0, t1 = sol.span(0)
-    assert t0 == 0.0 and t1 >= 20e-3  # settled only after many time constants (1 ms)
+    # settled (within rtol 1e-7 = e^-16) only after ~16 τ, τ = 1 ms here (common practice: a
+    # first-order step is within e^-n of its final value after n τ)
+    assert t0 == 0.0 and t1 >= 16e-3
     stats = sol.stats(0)
     assert stats.steps > 0 and stats.nfev >= stats.steps and stats.nlu > 0 and stats.seconds > 0
     times, values = sol.samples(node("a"), 0)

@@ -19,6 +19,7 @@ import pytest
 import sympy as sp
 from hypothesis import HealthCheck, assume, given, settings, strategies as st
 
+from harness import closedform
 from harness import tolerances as T
 from harness.circuitfile import parse_circuit
 from harness.compare import CheckContext, compare_file
@@ -28,7 +29,6 @@ from harness.outcome import ENGINES_DISAGREE, PASS
 from harness.simulate import solve as numeric
 from simulate_random import kind_scale, probes, random_circuit, ringing
 
-closedform = pytest.importorskip("harness.closedform")
 
 
 def _rc(r: str, c: str = "1u", v: str = "5 V", steps: str = '[["0 s", "5 V"]]') -> str:
