@@ -140,7 +140,7 @@ class Guarded:
 
 def _warning(c: Conditioning) -> str:
     verdict = ("values not reported" if not c.trusted else
-               f"values may carry a relative error up to ~{c.kappa * 2.2e-16:.0e}")
+               f"values may carry a relative error up to ~{c.kappa * np.finfo(float).eps:.0e}")
     return (f"from {format_si(c.start, 's')} the equations are ill-conditioned (conditioning "
             f"{c.kappa:.0e}, bound {tol.CONDITION_LIMIT:.0e}): {verdict}")
 

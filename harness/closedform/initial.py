@@ -20,7 +20,7 @@ import numpy as np
 from ..errors import InitialStateError
 from ..model import (CAPACITOR, CCCS, CURRENT_SOURCE, INDUCTOR, SWITCH, VCCS, Circuit, Part)
 from .linalg import LeastSquares, regular_factor
-from .mna import Layout, Scale, floating_groups, stamp, voltage_row
+from .mna import Layout, Scale, floating_groups, pin, stamp, voltage_row
 
 _RESIDUAL = 1e-9
 _NULL = 1e-12
@@ -211,9 +211,7 @@ def dc_state(circuit: Circuit, layout: Layout, scale: Scale,
     else:
         gd, bd, held = _dc_system(circuit, layout, scale)
         pinned = gd.copy()
-        for group in groups:                   # undefined common modes of DC islands: 0 V
-            i = layout.node(group[0])
-            pinned[i, i] += 1.0
+        pin(pinned, layout, groups, 1.0)       # undefined common modes of DC islands: 0 V
         solver = LeastSquares(pinned)
     x, _, consistent = solver.solve(bd)
     resid = bd - gd @ x                        # a pin that carries current hides a contradiction

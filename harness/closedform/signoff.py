@@ -308,6 +308,13 @@ def zero_value_terms(circuit, rth: dict[str, float]) -> dict[str, float]:
     return out
 
 
+def estimate(terms: dict[str, float]) -> float | None:
+    """The dominant-τ estimate in s: the sum of the zero-value ``terms``, None unless finite
+    and positive."""
+    total = sum(terms.values()) if terms else None
+    return total if total is not None and math.isfinite(total) and total > 0 else None
+
+
 def modes_sum(rates: list[complex]) -> float | None:
     """sum of -1/lambda over the given non-zero rates (1/s), real part; None if any is 0."""
     if any(r == 0 for r in rates):
@@ -333,8 +340,7 @@ def dominant(ex: ExpSum, terms: dict[str, float], rates: list[complex], end: flo
         terms: the zero-value time constants of the storage parts coupled to the probe (s).
         rates: the modes visible in the probe (1/s), for ``modes_sum``.
     """
-    total = sum(terms.values()) if terms else None
-    tau = total if total is not None and math.isfinite(total) and total > 0 else None
+    tau = estimate(terms)
     msum = modes_sum(rates)
     if tau is None or final is None or ex.after is None:
         return DominantTau(tau, dict(terms), msum)

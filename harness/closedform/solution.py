@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -172,7 +171,7 @@ class ClosedFormSolution:
 
     def _coupled_terms(self, probe: Probe, k: int) -> dict[str, float]:
         """Zero-value time constants (s) of the storage parts coupled to ``probe`` in interval k."""
-        terms, _ = self._zero_value(k)
+        terms = self._zero_value(k)
         coupled = signoff.coupled_storage(self.circuit, probe, self.intervals[k].closed)
         if coupled is not None:
             terms = {p: t for p, t in terms.items() if p in coupled}
@@ -183,18 +182,13 @@ class ClosedFormSolution:
         None unless finite and positive.  ``features`` needs only this; the deviation and 50 %
         time of ``dominant`` cost a scan of the waveform (and every node's features are read
         for the cautions)."""
-        terms = self._coupled_terms(probe, k)
-        total = sum(terms.values()) if terms else None
-        return total if total is not None and math.isfinite(total) and total > 0 else None
+        return signoff.estimate(self._coupled_terms(probe, k))
 
-    def _zero_value(self, k: int) -> tuple[dict[str, float], float | None]:
-        """(part -> zero-value time constant, their sum or None) for interval k, memoised."""
+    def _zero_value(self, k: int) -> dict[str, float]:
+        """Part -> zero-value time constant (s) for interval k, memoised."""
         key = ("zero-value", k)
         if key not in self._jump_cache:
-            terms = signoff.zero_value_terms(self.circuit, self.thevenin(k))
-            total = sum(terms.values()) if terms else None
-            ok = total is not None and np.isfinite(total) and total > 0
-            self._jump_cache[key] = (terms, total if ok else None)
+            self._jump_cache[key] = signoff.zero_value_terms(self.circuit, self.thevenin(k))
         return self._jump_cache[key]
 
     # ----------------------------------------------------------------- internals

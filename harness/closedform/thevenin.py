@@ -28,7 +28,7 @@ import numpy as np
 
 from ..model import CAPACITOR, INDUCTOR, Circuit
 from .linalg import equilibrate, least_squares, regular_factor
-from .mna import Layout, Scale
+from .mna import Layout, Scale, voltage_row
 
 #: G~ with an estimated reciprocal condition number (1-norm) above this takes the batched route.
 #: Faithful to the per-part null test (singular values below 1e-12 of the largest): it implies
@@ -50,16 +50,9 @@ def _storage(circuit: Circuit) -> list:
 def _injections(layout: Layout, scale: Scale, parts: list) -> tuple[np.ndarray, np.ndarray]:
     """(V, Rhs), shapes (n, s) each: column k is part k's voltage row v_p - v_n and its scaled
     1 A test injection (on the node rows only)."""
-    n, nn = layout.size, layout.n_nodes
-    vrows = np.zeros((n, len(parts)))
-    for k, part in enumerate(parts):
-        ip, in_ = layout.node(part.p), layout.node(part.n)
-        if ip is not None:
-            vrows[ip, k] += 1.0
-        if in_ is not None:
-            vrows[in_, k] -= 1.0
+    vrows = np.column_stack([voltage_row(layout, p.p, p.n) for p in parts])
     rhs = vrows.copy()
-    rhs[nn:] = 0.0
+    rhs[layout.n_nodes:] = 0.0
     return vrows, scale.r0 * rhs
 
 
