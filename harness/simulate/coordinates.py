@@ -387,11 +387,3 @@ class Reducer:
         b_r = b[self.dyn] - self.K_da @ p
         return Reduction(self.dyn, self.lift, lift_c, self.position, self.to_d), b_r
 
-
-def reduce(K: sp.csr_matrix, b: np.ndarray, M: sp.csr_matrix, T: sp.csr_matrix,
-           Tinv: sp.csr_matrix):
-    """(reduction, K_r, b_r, M_r): eliminate the coordinates whose M row is zero (``Reducer``).
-    """
-    reducer = Reducer(K, M, T, Tinv)
-    red, b_r = reducer.constants(b)
-    return red, reducer.K_r, b_r, reducer.M_r

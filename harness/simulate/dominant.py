@@ -64,15 +64,13 @@ from ..tolerances import WAVEFORM_SWING_FLOOR
 from .equations import is_carrier
 from .linsolve import Singular, _factor, _residual
 from .nodesets import find_root
+from .regularise import PILOT_SPLIT
 from .signoff import scan_grid
 
 #: refinement sweeps of each zero-value solve (residuals in extended precision)
 SWEEPS = 2
 #: modes_sum from the restricted Jacobian's eigenvalues up to this many coupled coordinates
 EIGEN_UP_TO = 300
-#: eigenvalues with |lambda| t_pulse above this are the regularisation's pulse modes (the same
-#: cut regularise.py applies to its pilot model)
-PULSE_MODE = 0.03
 
 
 # ------------------------------------------------------------------------------- coupling
@@ -217,7 +215,7 @@ def zero_value_terms(circuit, lay, system, names: set[str]) -> dict[str, float] 
 # ------------------------------------------------------------------------------- modes
 def modes_sum(sol, k: int, names: set[str]) -> float | None:
     """sum of -1/lambda (s) over the eigenvalues of interval k's Jacobian restricted to the
-    coordinates of the groups of ``names``, pulse modes (|lambda| t_pulse > PULSE_MODE) and
+    coordinates of the groups of ``names``, pulse modes (|lambda| t_pulse > PILOT_SPLIT) and
     modes not decaying within the held run left out; None above EIGEN_UP_TO coordinates."""
     system, lay = sol.systems[k], sol.layout
     label, _ = groups(sol.circuit, lay, system)
@@ -236,7 +234,7 @@ def modes_sum(sol, k: int, names: set[str]) -> float | None:
     except np.linalg.LinAlgError:
         return None
     slow = 1.0 / max(sol.runs[k].end, 1e-300) if k < len(sol.runs) else 0.0
-    fast = PULSE_MODE / sol.regularisation.t_pulse
+    fast = PILOT_SPLIT / sol.regularisation.t_pulse
     lam = lam[(np.abs(lam) < fast) & (np.abs(lam) > 1e-3 * slow)]
     return float(np.sum((-1.0 / lam).real)) if lam.size else None
 

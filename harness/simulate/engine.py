@@ -16,7 +16,7 @@ from .features import fit_window
 from .initial import initial_state
 from .integrate import integrate_interval
 from .nodesets import find_root
-from .regularise import choose
+from .regularise import PILOT_SPLIT, choose
 from .solution import NumericSolution
 
 #: the absolute tolerance of a state is rtol times this fraction of its kind's scale
@@ -26,8 +26,6 @@ ATOL_FRACTION = 1e-4
 CARRIER_NOISE = 1e-14
 #: pulse ratio of the pilot model that locates the fastest real mode
 PILOT_RATIO = 1e-3
-#: eigenvalues below this over the pilot's t_pulse are real modes
-PILOT_SPLIT = 0.03
 #: the pilot is skipped above this many integrated states (dense eigenvalues)
 PILOT_MAX_STATES = 300
 #: the first step of an interval, as a fraction of the pulse width

@@ -22,9 +22,9 @@ DEFAULT_PULSE_RATIO = 1e-7
 FAST_SAFETY = 0.25
 #: the settle horizon of an interval, in units of the slowest-mode bound
 HORIZON_FACTOR = 1e3
-#: parasitic capacitance of a node in a floating capacitor group, relative to the group's
-#: capacitance (keeps the capacitance matrix factorisable in double precision)
-FLOATING_GROUP_FLOOR = 1e-12
+#: eigenvalues of the regularised model below this over its t_pulse are the circuit's own
+#: modes, above it the regularisation's pulse modes (engine's pilot model, dominant.modes_sum)
+PILOT_SPLIT = 0.03
 #: r_s is at least this fraction of the smallest resistance: a conductance 1/r_s beyond ~1e9
 #: times 1/R leaves too few digits of 1/R where the two meet in one KCL row or elimination
 R_SERIES_FLOOR = 1e-9
@@ -51,9 +51,8 @@ class Regularisation:
         r_on: equal to r_series (the r_s of an ideal closed switch).
         c_base: farads of parasitic capacitance for a node that would otherwise float.
         c_node: node name -> parasitic capacitance in F to ground: c_base for a capacitor-less
-            node that reaches neither ground nor a capacitor in some interval, a small
-            fraction of the group's capacitance for a node in a capacitor group that does not
-            reach ground, 0 elsewhere (capacitor-less nodes are eliminated, equations.py).
+            node that reaches neither ground nor a capacitor in some interval, 0 elsewhere
+            (capacitor-less nodes are eliminated, equations.py).
         r_shunt: ohms across every inductor (math.inf when there is none).
         horizon: s, the longest time an interval is continued while waiting for it to settle.
         post_pulse: s after the event from which the waveform is taken to be free of the pulse.
@@ -209,29 +208,6 @@ def _time_scales(circuit: Circuit, v: _Values) -> tuple[float, float]:
     if v.gaps:
         t_slow = max(t_slow, max(v.gaps))
     return t_fast / v.gain_factor, t_slow * v.gain_factor
-
-
-def _groups(circuit: Circuit) -> dict[str, tuple[float, float, int]]:
-    """Node -> (total, smallest capacitance, node count) of its capacitor group, for groups that
-    do not reach ground (a group is a set of nodes joined by capacitors)."""
-    parent: dict[str, str] = {}
-
-    find = partial(find_root, parent)
-
-    caps = [p for p in circuit.parts if p.kind == CAPACITOR and p.value]
-    for part in caps:
-        a, b = find(part.p), find(part.n)
-        if a != b:
-            parent[a] = b
-    stats: dict[str, list] = {}
-    for part in caps:
-        entry = stats.setdefault(find(part.p), [0.0, math.inf, set()])
-        entry[0] += abs(part.value)
-        entry[1] = min(entry[1], abs(part.value))
-        entry[2].update(part.nodes)
-    ground = find(circuit.ground)
-    return {node: (stats[find(node)][0], stats[find(node)][1], len(stats[find(node)][2]))
-            for node in list(parent) if find(node) != ground and find(node) in stats}
 
 
 def _conducts(part, time: float, before: bool) -> bool:

@@ -58,11 +58,6 @@ class NumericSolution:
     _cache: dict = field(default_factory=dict, compare=False, repr=False)
 
     # ----- counters ------------------------------------------------------------------------
-    @property
-    def interval_stats(self) -> tuple[IntervalStats, ...]:
-        """Integrator counters per interval (steps, nfev, njev, nlu, seconds)."""
-        return tuple(run.stats for run in self.runs)
-
     def stats(self, k: int) -> IntervalStats:
         return self.runs[k].stats
 
