@@ -31,7 +31,7 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from ..model import CAPACITOR, Circuit
-from .equations import SPARSE_ABOVE, Affine, Branches, Layout
+from .equations import SPARSE_ABOVE, Affine, Branches, Layout, flows
 from .nodesets import find_root
 
 Path = dict[int, int]  # coordinate index -> integer multiplier
@@ -247,7 +247,7 @@ def assemble(circuit: Circuit, lay: Layout, br: Branches, parents: dict[int, int
                 K.setdefault((r, j), []).append(sign * m * a)
 
     by_name = {p.name: p for p in circuit.parts}      # Circuit.part is a linear search
-    for part, cur in _flows(by_name, br):
+    for part, cur in flows(by_name, br):
         stamp(_cutset(tr, lay, part.p, part.n), cur, 1.0)
     for name in lay.inductors + lay.carriers:  # L di/dt = v_p - v_n; L_p di_p/dt = u
         part, r = by_name[name], lay.part_index[name]
@@ -275,7 +275,7 @@ def constants(circuit: Circuit, lay: Layout, br: Branches, tr: _Transform) -> np
     current or voltage has a constant term contribute."""
     b: list[list[float]] = [[] for _ in range(lay.n)]
     by_name = {p.name: p for p in circuit.parts}
-    for part, cur in _flows(by_name, br):
+    for part, cur in flows(by_name, br):
         if cur.const:
             for r, m in _cutset(tr, lay, part.p, part.n).items():
                 b[r].append(-m * cur.const)
@@ -284,14 +284,6 @@ def constants(circuit: Circuit, lay: Layout, br: Branches, tr: _Transform) -> np
         if u is not None and u.const:
             b[lay.part_index[name]].append(u.const)
     return np.array([math.fsum(v) for v in b])
-
-
-def _flows(by_name: dict, br: Branches) -> list:
-    """(part, current) of every branch current stamped into KCL: each non-capacitor part's,
-    then the inductor shunts'."""
-    flows = [(by_name[name], cur) for name, cur in br.currents.items()]
-    flows += [(by_name[r.part], r.current) for r in br.regularisers if r.role == "shunt"]
-    return flows
 
 
 def _cutset(tr: _Transform, lay: Layout, p: str, q: str) -> Path:

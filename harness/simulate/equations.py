@@ -282,25 +282,20 @@ def branch_currents(circuit: Circuit, lay: Layout, reg: Regularisation, time: fl
     return out
 
 
-def _currents(lay: Layout, br: Branches, slow: bool) -> dict[str, Affine]:
-    """The branch currents stamped into KCL; with ``slow`` each closed carrier's is i_p alone."""
-    currents = dict(br.currents)
-    if slow:
-        for name in lay.carriers:
-            if br.voltages[name] is not None:
-                currents[name] = Affine({lay.part_index[name]: 1.0})
-    return currents
+def flows(by_name: dict, br: Branches) -> list:
+    """(part, current) of every branch current stamped into KCL: each non-capacitor part's
+    (a closed carrier's i_p alone in the DC branches of ``branch_currents`` with ``slow``),
+    then the inductor shunts'."""
+    out = [(by_name[name], cur) for name, cur in br.currents.items()]
+    out += [(by_name[r.part], r.current) for r in br.regularisers if r.role == "shunt"]
+    return out
 
 
-def _flows(circuit: Circuit, lay: Layout, br: Branches, slow: bool, by_name: dict) -> list:
-    flows = [(by_name[name], cur) for name, cur in _currents(lay, br, slow).items()]
-    return flows + [(by_name[r.part], r.current) for r in br.regularisers if r.role == "shunt"]
-
-
-def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
-              slow: bool = False) -> tuple[sp.csc_matrix, sp.csc_matrix]:
-    """(K, M) of M y' = -K y + b; with ``slow`` the carriers' u / r_s is left out of KCL.
-    b, the only part that depends on the sources' values, is ``_constants``."""
+def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation,
+              br: Branches) -> tuple[sp.csc_matrix, sp.csc_matrix]:
+    """(K, M) of M y' = -K y + b for the branches ``br`` (the DC branches leave the carriers'
+    u / r_s out of KCL).  b, the only part that depends on the sources' values, is
+    ``_constants``."""
     n = lay.n
     rows, cols, vals = [], [], []
     mrows, mcols, mvals = [], [], []
@@ -313,7 +308,7 @@ def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
         mrows.append(i), mcols.append(j), mvals.append(v)
 
     by_name = {p.name: p for p in circuit.parts}      # Circuit.part is a linear search
-    for part, cur in _flows(circuit, lay, br, slow, by_name):
+    for part, cur in flows(by_name, br):
         for node, sign in ((part.p, 1.0), (part.n, -1.0)):
             if node in lay.node_index:
                 stamp_k(lay.node_index[node], cur, sign)
@@ -345,12 +340,12 @@ def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
     return K, M
 
 
-def _constants(circuit: Circuit, lay: Layout, br: Branches, slow: bool = False) -> np.ndarray:
+def _constants(circuit: Circuit, lay: Layout, br: Branches) -> np.ndarray:
     """b of ``_assemble``'s rows, shape (n,): the constant terms of the same stamps, in the
     same order (only parts with a constant term contribute)."""
     b = np.zeros(lay.n)
     by_name = {p.name: p for p in circuit.parts}
-    for part, cur in _flows(circuit, lay, br, slow, by_name):
+    for part, cur in flows(by_name, br):
         if cur.const:
             for node, sign in ((part.p, 1.0), (part.n, -1.0)):
                 if node in lay.node_index:
@@ -399,7 +394,7 @@ def _shape(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
     from .coordinates import Reducer, assemble, forest  # (coordinates builds on this module)
 
     K, M = _assemble(circuit, lay, reg, br)
-    K_dc, _ = _assemble(circuit, lay, reg, br_dc, slow=True)
+    K_dc, _ = _assemble(circuit, lay, reg, br_dc)
     closed = [name for name, u in br.voltages.items() if u is not None]
     parents = forest(circuit, lay, closed, reg.c_node)
     K_x, M_x, T, Tinv, tr = assemble(circuit, lay, br, parents, reg.r_series * reg.t_pulse,
@@ -434,7 +429,7 @@ def build(circuit: Circuit, lay: Layout, reg: Regularisation, time: float,
     if s_key not in cache:
         cache[s_key] = _shape(circuit, lay, reg, br, br_dc)
     shape = cache[s_key]
-    b, b_dc = _constants(circuit, lay, br), _constants(circuit, lay, br_dc, slow=True)
+    b, b_dc = _constants(circuit, lay, br), _constants(circuit, lay, br_dc)
     red, b_r = shape.reducer.constants(constants(circuit, lay, br, shape.transform))
     system = System(shape.jac, shape.solve(b_r), shape.K, b, shape.M, shape.K_dc, b_dc,
                     br.currents, tuple(br.regularisers), br.sources, br.closed, red,
