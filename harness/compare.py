@@ -14,12 +14,14 @@ from dataclasses import replace
 import numpy as np
 
 from . import tolerances as tol
-from .compare_signoff import dominant_json, signoff_fields, withheld
+from .compare_signoff import (dominant_json, engine_message, hand_relative, signoff_fields,
+                              withheld)
 from .diagnose import explain
 from .model import FIELDS, Circuit, Expectation, Probe, NODE, BETWEEN, ACROSS
 from .outcome import (ENGINES_DISAGREE, MISMATCH, PASS, CheckResult, FieldResult, FileResult,
                       Trace, worst)
 from .results import Features, Solution
+from .units import format_si
 
 #: plot and waveform-comparison grid size per check
 GRID_POINTS = 400
@@ -88,13 +90,12 @@ def compare_field(name: str, exp: Expectation, fe: Features, fn: Features | None
         closed = snap_zero(closed, ctx.scale)
     numeric = getattr(fn, name) if fn is not None else None
     unit = "s" if name == "tau" else exp.probe.dimension
-    relative = exp.tolerance if exp.tolerance is not None else ctx.circuit.settings.tolerance
+    relative = hand_relative(exp, ctx)
     floor = 0.0 if name == "tau" else ctx.scale
     verdict, message = PASS, ""
     if fn is not None and not _engine_ok(name, closed, numeric, tol.ENGINE_FLOOR * floor):
         verdict = ENGINES_DISAGREE
-        message = (f"the closed form gives {_fmt(closed, unit)} but the numerical engine gives "
-                   f"{_fmt(numeric, unit)}: an engine problem, not a hand-calculation error")
+        message = engine_message(closed, numeric, unit)
     elif hand is not None and not (closed is not None and
                                    tol.agree(hand, closed, relative, tol.HAND_FLOOR * floor)):
         verdict = MISMATCH
@@ -117,9 +118,6 @@ class CheckContext:
         self.scale = probe_scale(circuit, exact, probe)
 
 
-def _fmt(value: float | None, unit: str) -> str:
-    from .units import format_si
-    return format_si(value, unit)
 
 
 def compare_check(circuit: Circuit, exp: Expectation, exact: Solution,
@@ -154,7 +152,8 @@ def _with_marks(trace: Trace, fields, dominant, t_k: float, final: float | None)
     marks, levels = [], []
     for f in fields:
         if f.name == "crossing":
-            levels.append((f"level {_fmt(f.extra.get('level'), trace.unit)}", f.extra["level"]))
+            level = f.extra["level"]
+            levels.append((f"level {format_si(level, trace.unit)}", level))
             if f.extra.get("at") is not None:
                 marks.append(("crossing", f.extra["at"], f.extra["level"]))
         elif f.name == "peak" and f.extra.get("at") is not None:

@@ -34,11 +34,13 @@ def _call(solution, name: str, *args):
     return method(*args) if method is not None else None
 
 
-def _relative(exp: Expectation, ctx: "CheckContext") -> float:
+def hand_relative(exp: Expectation, ctx: "CheckContext") -> float:
+    """The expectation's relative hand tolerance, else the file's."""
     return exp.tolerance if exp.tolerance is not None else ctx.circuit.settings.tolerance
 
 
-def _engine_msg(closed, numeric, unit: str) -> str:
+def engine_message(closed, numeric, unit: str) -> str:
+    """The message of an engines-disagree verdict."""
     return (f"the closed form gives {format_si(closed, unit)} but the numerical engine gives "
             f"{format_si(numeric, unit)}: an engine problem, not a hand-calculation error")
 
@@ -107,14 +109,14 @@ def compare_crossing(exp: Expectation, fe: Features, ctx: "CheckContext") -> Fie
     unit = exp.probe.dimension
     verdict, message = PASS, ""
     if cn is not None and not _crossing_engines_agree(ce.time, cn.time, ctx, t_k, scale_t):
-        verdict, message = ENGINES_DISAGREE, _engine_msg(ce.time, cn.time, "s")
+        verdict, message = ENGINES_DISAGREE, engine_message(ce.time, cn.time, "s")
     elif ce.time is None:
         verdict = MISMATCH
         message = (f"never crosses {format_si(want.level, unit)}"
                    f"{'' if want.direction == 'either' else ' ' + want.direction}: heads to "
                    f"{format_si(ce.approaches, unit)}" if ce.approaches is not None else
                    f"never crosses {format_si(want.level, unit)} (the response does not settle)")
-    elif want.time is not None and not tol.agree(want.time, ce.time, _relative(exp, ctx),
+    elif want.time is not None and not tol.agree(want.time, ce.time, hand_relative(exp, ctx),
                                                  tol.CROSSING_HAND_FLOOR * scale_t):
         verdict = MISMATCH
         message = crossing_hint(want, ce.time, fe, t_k)
@@ -139,7 +141,7 @@ def compare_crossing(exp: Expectation, fe: Features, ctx: "CheckContext") -> Fie
     formula = " ; ".join(f"{k} {v}" for k, v in want.formulas.items())
     return FieldResult(name="crossing", hand=want.time, closed_form=ce.time,
                        numeric=None if cn is None else cn.time, verdict=verdict, unit="s",
-                       message=message, formula=formula, tolerance=_relative(exp, ctx),
+                       message=message, formula=formula, tolerance=hand_relative(exp, ctx),
                        extra=extra)
 
 
@@ -188,10 +190,10 @@ def compare_peak(exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldRe
     numeric = None if pn is None else pn.magnitude
     if pn is not None and not tol.agree(pe.magnitude, numeric, tol.ENGINE_RELATIVE,
                                         tol.ENGINE_FLOOR * ctx.scale):
-        verdict, message = ENGINES_DISAGREE, _engine_msg(pe.magnitude, numeric, unit)
-    elif not tol.agree(hand, pe.magnitude, _relative(exp, ctx), tol.HAND_FLOOR * ctx.scale):
+        verdict, message = ENGINES_DISAGREE, engine_message(pe.magnitude, numeric, unit)
+    elif not tol.agree(hand, pe.magnitude, hand_relative(exp, ctx), tol.HAND_FLOOR * ctx.scale):
         verdict = MISMATCH
-        message = peak_hint(hand, pe, fe, unit, _relative(exp, ctx), ctx.scale)
+        message = peak_hint(hand, pe, fe, unit, hand_relative(exp, ctx), ctx.scale)
     elif pe.after_next_event:
         message = (f"the peak at {format_si(pe.time, 's')} after the event lies beyond the next "
                    f"event at {format_si(ctx.circuit.events[ctx.k + 1], 's')} (continued "
@@ -203,7 +205,7 @@ def compare_peak(exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldRe
         extra["numeric_at"] = None if pn.time is None else t_k + pn.time
     return FieldResult(name="peak", hand=hand, closed_form=pe.magnitude, numeric=numeric,
                        verdict=verdict, unit=unit, message=message,
-                       formula=exp.formulas.get("peak", ""), tolerance=_relative(exp, ctx),
+                       formula=exp.formulas.get("peak", ""), tolerance=hand_relative(exp, ctx),
                        extra=extra)
 
 
@@ -300,11 +302,11 @@ def compare_energy(exp: Expectation, fe: Features, ctx: "CheckContext") -> Field
     verdict, message = PASS, ""
     numeric = None if en is None else en.energy
     if en is not None and not tol.agree(ee.energy, numeric, tol.ENERGY_ENGINE_RELATIVE, floor):
-        verdict, message = ENGINES_DISAGREE, _engine_msg(ee.energy, numeric, "J")
+        verdict, message = ENGINES_DISAGREE, engine_message(ee.energy, numeric, "J")
     elif ee.energy is None:
         verdict = MISMATCH if want.value is not None else PASS
         message = "the response does not settle, so the dissipated energy is unbounded"
-    elif want.value is not None and not tol.agree(want.value, ee.energy, _relative(exp, ctx),
+    elif want.value is not None and not tol.agree(want.value, ee.energy, hand_relative(exp, ctx),
                                                   floor):
         verdict = MISMATCH
         message = energy_hint(want.value, ee, ctx)
@@ -316,7 +318,7 @@ def compare_energy(exp: Expectation, fe: Features, ctx: "CheckContext") -> Field
                          " plus the jump's loss where the part carries its impulse"}
     return FieldResult(name="energy", hand=want.value, closed_form=ee.energy, numeric=numeric,
                        verdict=verdict, unit="J", message=message, formula=want.formula,
-                       tolerance=_relative(exp, ctx), extra=extra)
+                       tolerance=hand_relative(exp, ctx), extra=extra)
 
 
 def energy_hint(hand: float, ee, ctx: "CheckContext") -> str:
@@ -372,7 +374,7 @@ def compare_dominant(exp: Expectation, fe: Features, ctx: "CheckContext") -> Fie
     if problems:
         verdict = ENGINES_DISAGREE
         message = "; ".join(problems) + ": an engine problem, not a hand-calculation error"
-    elif not tol.agree(hand, dv.tau, _relative(exp, ctx)):
+    elif not tol.agree(hand, dv.tau, hand_relative(exp, ctx)):
         verdict = MISMATCH
         terms = ", ".join(f"{p} {format_si(t, 's')}" for p, t in dv.terms.items())
         message = (f"hand {format_si(hand, 's')}, the zero-value time constants sum to "
@@ -386,7 +388,7 @@ def compare_dominant(exp: Expectation, fe: Features, ctx: "CheckContext") -> Fie
     return FieldResult(name="dominant_tau", hand=hand, closed_form=dv.tau, numeric=numeric,
                        verdict=verdict, unit="s", message=message,
                        formula=exp.formulas.get("dominant_tau", ""),
-                       tolerance=_relative(exp, ctx), extra=extra)
+                       tolerance=hand_relative(exp, ctx), extra=extra)
 
 
 def dominant_engine_problems(dv: DominantTau, dn: DominantTau, fe: Features,
