@@ -62,13 +62,12 @@ from ..model import (BETWEEN, CAPACITOR, CCCS, CCVS, INDUCTOR, NODE, SWITCH, VOL
 from ..results import DominantTau
 from ..tolerances import WAVEFORM_SWING_FLOOR
 from .equations import is_carrier
-from .linsolve import Singular, _factor, _residual
+from . import linsolve
+from .linsolve import Singular
 from .nodesets import find_root
 from .regularise import PILOT_SPLIT
 from .signoff import scan_grid
 
-#: refinement sweeps of each zero-value solve (residuals in extended precision)
-SWEEPS = 2
 #: modes_sum from the restricted Jacobian's eigenvalues up to this many coupled coordinates
 EIGEN_UP_TO = 300
 
@@ -173,17 +172,11 @@ def _rhs(lay, part) -> np.ndarray:
 
 
 def _solver(K: sp.csc_matrix):
-    """A refined solve function for K (linsolve's equilibrated LU, SWEEPS refinement sweeps);
-    raises linsolve.Singular."""
-    apply = _factor(K)
-    coo = K.tocoo()
-
-    def solve(rhs: np.ndarray) -> np.ndarray:
-        x = apply(rhs)
-        for _ in range(SWEEPS):
-            x = x + apply(_residual(coo, rhs, x))
-        return x
-    return solve
+    """A refined solve function for K (``linsolve.solve``: equilibrated LU, factorised once,
+    extended-precision refinement); raises linsolve.Singular at once for a singular K."""
+    factors: dict = {}
+    linsolve.solve(K, np.zeros(K.shape[0]), factors)
+    return lambda rhs: linsolve.solve(K, rhs, factors)
 
 
 def zero_value_terms(circuit, lay, system, names: set[str]) -> dict[str, float] | None:
