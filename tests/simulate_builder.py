@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import sympy as sp
+
 from harness.model import Circuit, Part, Probe
 
 
@@ -64,3 +66,22 @@ def sharing(c1: float = 1e-6, c2: float = 3e-6, v1: float = 1.0, v2: float = 0.0
     return circuit("sharing", part("C1", "capacitor", "a", "gnd", c1, initial=v1),
                    part("S1", "switch", "a", "b", closed=False, steps=((at, 1.0),)),
                    part("C2", "capacitor", "b", "gnd", c2, initial=v2))
+
+
+#: agreement of the numerical engine with an exact reference in its tests: issue 3's target
+#: (1e-5 relative), with a floor of 1e-9 of the quantity's scale
+REL = 1e-5
+
+
+def close(a, b, scale=1.0, rel=REL):
+    """Assert a and b agree within ``rel`` relative, floor 1e-9 * scale."""
+    assert a is not None and b is not None, (a, b)
+    assert abs(a - b) <= max(rel * max(abs(a), abs(b)), 1e-9 * scale), (a, b)
+
+
+def first_order(tau, x0, xinf):
+    """sympy.dsolve of tau x' + x = xinf with x(0) = x0, as an expression of
+    t = sympy.symbols("t", nonnegative=True)."""
+    t = sp.symbols("t", nonnegative=True)
+    x = sp.Function("x")
+    return sp.dsolve(sp.Eq(tau * x(t).diff(t) + x(t), xinf), x(t), ics={x(0): x0}).rhs

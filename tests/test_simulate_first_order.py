@@ -13,30 +13,20 @@ import pytest
 import sympy as sp
 
 from harness.simulate import NumericSolution, solve
-from simulate_builder import circuit, node, part, rc, step_source, through
+from simulate_builder import circuit, close, first_order, node, part, rc, step_source, through
 
-REL = 1e-5
 t = sp.symbols("t", nonnegative=True)
 
 
-def close(a, b, scale=1.0, rel=REL):
-    """a and b agree within rel relative, floor 1e-9 * scale."""
-    assert a is not None and b is not None, (a, b)
-    assert abs(a - b) <= max(rel * max(abs(a), abs(b)), 1e-9 * scale), (a, b)
 
 
-def first_order_reference(tau, x0, xinf):
-    """sympy.dsolve of tau x' + x = xinf with x(0) = x0, as an expression of t."""
-    x = sp.Function("x")
-    sol = sp.dsolve(sp.Eq(tau * x(t).diff(t) + x(t), xinf), x(t), ics={x(0): x0})
-    return sol.rhs
 
 
 def test_rc_charging_matches_dsolve():
     """A step into R-C gives v = V (1 - e^(-t/RC)): before, after, final and tau match dsolve."""
     r, c, v = 4.7e3, 2.2e-7, 3.3
     sol = solve(rc(r, c, v))
-    ref = first_order_reference(sp.Float(r * c), 0, v)
+    ref = first_order(sp.Float(r * c), 0, v)
     f = sol.features(node("a"), 0)
     close(f.before, 0.0, v)
     close(f.after, float(ref.subs(t, 0)), v)
@@ -48,7 +38,7 @@ def test_rc_waveform_matches_dsolve():
     """The whole held waveform of the RC node matches the dsolve expression within 1e-6 of V."""
     r, c, v = 1e3, 1e-6, 1.0
     sol = solve(rc(r, c, v))
-    expr = sp.lambdify(t, first_order_reference(sp.Float(r * c), 0, v), "numpy")
+    expr = sp.lambdify(t, first_order(sp.Float(r * c), 0, v), "numpy")
     times = np.linspace(1e-6, 8e-3, 400)
     assert np.max(np.abs(sol.waveform(node("a"), 0, times) - expr(times))) <= 1e-6 * v
 
@@ -65,7 +55,7 @@ def test_capacitor_and_source_currents():
     """Through C1 is C dv/dt = (V/R) e^(-t/RC); through V1 is its negative (passive sign)."""
     r, c, v = 1e3, 1e-6, 2.0
     sol = solve(rc(r, c, v))
-    vc = first_order_reference(sp.Float(r * c), 0, v)
+    vc = first_order(sp.Float(r * c), 0, v)
     ic = sp.Float(c) * vc.diff(t)
     fc, fv = sol.features(through("C1"), 0), sol.features(through("V1"), 0)
     close(fc.after, float(ic.subs(t, 0)), v / r)
@@ -84,7 +74,7 @@ def test_rl_step_matches_dsolve():
     c = circuit("rl", step_source("V1", "in", "gnd", 0.0, (0.0, v)),
                 part("R1", "resistor", "in", "a", r), part("L1", "inductor", "a", "gnd", l))
     sol = solve(c)
-    i_ref = first_order_reference(sp.Float(l / r), 0, v / r)
+    i_ref = first_order(sp.Float(l / r), 0, v / r)
     vl_ref = sp.Float(l) * i_ref.diff(t)
     fi, fv = sol.features(through("L1"), 0), sol.features(node("a"), 0)
     close(fi.after, 0.0, v / r)
@@ -101,7 +91,7 @@ def test_rc_discharge_from_initial_voltage():
     circ = circuit("discharge", part("C1", "capacitor", "a", "gnd", c, initial=5.0),
                    part("R1", "resistor", "a", "gnd", r))
     sol = solve(circ)
-    ref = first_order_reference(sp.Float(r * c), 5, 0)
+    ref = first_order(sp.Float(r * c), 5, 0)
     f = sol.features(node("a"), 0)
     close(f.before, 5.0, 5.0)
     close(f.after, float(ref.subs(t, 0)), 5.0)

@@ -18,14 +18,11 @@ import numpy as np
 import sympy as sp
 
 from harness.simulate import solve
-from simulate_builder import circuit, node, part, step_source, through
+from simulate_builder import circuit, close, node, part, step_source, through
 
 s = sp.symbols("s")
 
 
-def close(a, b, scale=1.0, rel=1e-5):
-    assert a is not None and b is not None, (a, b)
-    assert abs(a - b) <= max(rel * max(abs(a), abs(b)), 1e-9 * scale), (a, b)
 
 
 def _two_branches():

@@ -14,14 +14,11 @@ import pytest
 import sympy as sp
 
 from harness.simulate import solve
-from simulate_builder import circuit, divider, node, part, sharing, through
+from simulate_builder import circuit, close, divider, node, part, sharing, through
 
 s = sp.symbols("s", positive=True)
 
 
-def close(a, b, scale=1.0, rel=1e-5):
-    assert a is not None and b is not None, (a, b)
-    assert abs(a - b) <= max(rel * max(abs(a), abs(b)), 1e-9 * scale), (a, b)
 
 
 def divider_reference(c1, c2, r2, v):

@@ -12,20 +12,13 @@ import sympy as sp
 
 from harness.errors import InitialStateError
 from harness.simulate import solve
-from simulate_builder import circuit, node, part, step_source, through
+from simulate_builder import circuit, close, first_order, node, part, step_source, through
 
 t = sp.symbols("t", nonnegative=True)
 
 
-def close(a, b, scale=1.0, rel=1e-5):
-    assert a is not None and b is not None, (a, b)
-    assert abs(a - b) <= max(rel * max(abs(a), abs(b)), 1e-9 * scale), (a, b)
 
 
-def first_order(tau, x0, xinf):
-    """sympy.dsolve of tau x' + x = xinf, x(0) = x0."""
-    x = sp.Function("x")
-    return sp.dsolve(sp.Eq(tau * x(t).diff(t) + x(t), xinf), x(t), ics={x(0): x0}).rhs
 
 
 def _check(sol, probe, expr, tau, scale):
