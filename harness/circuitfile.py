@@ -33,7 +33,7 @@ MAX_EVENTS = 2500
 TOP_LEVEL = ("title", "ground", "settings", "parts", "expect")
 SETTINGS = ("tolerance",)
 PROBE_KEYS = (m.NODE, m.BETWEEN, m.ACROSS, m.THROUGH)
-#: sign-off keys of an [[expect]] block (issue 7): file key -> field name
+#: sign-off keys of an [[expect]] block: file key -> field name
 SIGNOFF_KEYS = {"crossing": "crossing", "peak": "peak", "energy": "energy",
                 "dominant-tau": "dominant_tau"}
 EXPECT_KEYS = PROBE_KEYS + ("at",) + m.FIELDS + tuple(SIGNOFF_KEYS) + ("tolerance", "note")

@@ -1,4 +1,4 @@
-"""The comparison of the sign-off fields (issue 7): crossing, peak, energy, dominant τ.
+"""The comparison of the sign-off fields: crossing, peak, energy, dominant τ.
 
 Same rule as the four classical fields (``tolerances.agree``): hand vs closed form with the
 expectation's tolerance, closed form vs numeric with the engine tolerances of

@@ -41,7 +41,7 @@ PROBE_KINDS = (NODE, BETWEEN, ACROSS, THROUGH)
 
 #: hand-value fields of an expectation, in report order
 FIELDS = ("before", "after", "final", "tau")
-#: sign-off fields (issue 7), reported only where an expectation asks for them, in report order;
+#: sign-off fields, reported only where an expectation asks for them, in report order;
 #: ``peak`` and ``dominant_tau`` hand values live in ``Expectation.hand`` like the four above
 SIGNOFF_FIELDS = ("crossing", "peak", "energy", "dominant_tau")
 #: crossing directions

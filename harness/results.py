@@ -181,7 +181,7 @@ class DominantTau:
 
 
 class SignoffSolution(Protocol):
-    """The sign-off quantities (issue 7) an engine may add to ``Solution``.
+    """The sign-off quantities an engine may add to ``Solution``.
 
     The comparator calls these only where an engine has them (``hasattr``); a missing method
     reads as "not computed by this engine" and is never an engine disagreement.

@@ -49,7 +49,7 @@ def relative_error(a: float, b: float, floor: float = 0.0) -> float:
     denom = max(abs(a), abs(b), floor)
     return 0.0 if denom == 0 else abs(a - b) / denom
 
-# ---- sign-off fields (issue 7): crossings, peaks, energy, dominant τ --------------------------
+# ---- sign-off fields: crossings, peaks, energy, dominant τ --------------------------
 #: crossing time, hand vs closed form: the expectation's hand tolerance (relative), with an
 #: absolute floor of this fraction of the interval's τ scale (its slowest visible τ)
 CROSSING_HAND_FLOOR = 1e-6
@@ -65,17 +65,19 @@ CROSSING_ENGINE = 1e-5
 #: most 1.4e-9 on the bundled circuits and 4.3e-7 on the same random circuits; 1e-5 keeps a
 #: margin of about 20 (the error is first order in the pulse ratio)
 ENERGY_ENGINE_RELATIVE = 1e-5
-#: dominant τ (sum of zero-value time constants), closed form vs numeric (relative; the numeric
-#: value is harness.simulate.dominant: one sparse solve of the engine's own DC rows K_dc per
-#: storage part, the pulse-scale L_p and parasitic-capacitance terms left out, < 1.3e-8 of the
-#: sum on the tests' circuits).  Measured: at most 3.1e-8 on the bundled circuits (44
-#: higher-order probe-intervals) and 2.1e-8 on 195 random circuits of tests/simulate_random.py
-#: (415 of them); the error comes from the inductor shunts r_shunt, which add up to
-#: pulse_ratio * R_th / R_sum to each inductor's term.  1e-6 keeps a margin of about 30
+#: dominant τ, closed form (zero-value time constants of the storage that reaches the probe)
+#: vs numeric (sum of -1/lambda over the modes of its own pencil observed in the probe),
+#: relative.  Measured: at most 1.0e-7 over 1,748 probe-intervals of 300 random circuits of
+#: tests/simulate_random.py (the inductor shunts r_shunt of the narrow-pulse model, which add
+#: about pulse_ratio to an inductor's time constant); 1e-6 keeps a margin of 10
 DOMINANT_ENGINE = 1e-6
+#: a Thevenin resistance below this fraction of the circuit's reference resistance (the
+#: geometric mean of its resistances) is a short up to rounding: its zero-value term is 0 and
+#: the part has no mode of its own (a capacitor across a closed ideal switch or a source)
+THEVENIN_SHORT = 1e-12
 #: a part's current scale for the energy floor is at least this fraction of the circuit's
 #: current scale (largest source voltage over the smallest resistance plus the largest source
-#: current), so a part that carries only rounding noise is not judged on it (issue 3's floor)
+#: current), so a part that carries only rounding noise is not judged on it
 CURRENT_NOISE = 1e-9
 #: absolute floor for energies, as a fraction of the part's own energy scale: the energy itself
 #: or the part's dissipation scale R I^2 τ, at least the rounding-noise floor R_min I_f^2 τ

@@ -487,3 +487,18 @@ def storage_cutsets(circuit: m.Circuit, k: int) -> list[tuple[str, ...]]:
                 and changed.intersection(cut) and cut not in out):
             out.append(cut)
     return out
+
+
+def dangling_nodes(circuit: m.Circuit) -> list[tuple[str, str]]:
+    """(node, part) for every node other than ground that exactly one part terminal touches and
+    no controlled source senses: an open end, usually a node-name typo (R2 to 'gdn').  File
+    order of the parts."""
+    touches: dict[str, list[str]] = {n: [] for n in circuit.nodes}
+    for p in circuit.parts:
+        for node in p.nodes:
+            touches.setdefault(node, []).append(p.name)
+        if isinstance(p.control, tuple):
+            for node in p.control:
+                touches.setdefault(node, []).extend([p.name, p.name])
+    return [(node, names[0]) for node, names in touches.items()
+            if node != circuit.ground and len(names) == 1]

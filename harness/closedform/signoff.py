@@ -27,7 +27,6 @@ engine's reference time; the zero cluster's growth terms enter with r = 0).  On 
 
 from __future__ import annotations
 
-from functools import partial
 import math
 from dataclasses import dataclass, replace
 
@@ -36,9 +35,8 @@ from scipy.optimize import brentq
 
 from ..model import CAPACITOR, FALLING, INDUCTOR, RESISTOR, RISING, SWITCH, Probe, THROUGH
 from ..results import CrossingValue, DominantTau, EnergyValue, PeakValue
-from ..tolerances import WAVEFORM_SWING_FLOOR
+from ..tolerances import THEVENIN_SHORT, WAVEFORM_SWING_FLOOR
 from .features import RawEvent
-from .mna import find_root
 
 #: grid: geometric part starts at this fraction of the fastest time constant
 GRID_START = 1e-6
@@ -296,13 +294,16 @@ def _square_quad(ex: ExpSum, length: float, end: float) -> float:
 
 
 # ------------------------------------------------------------------------------- dominant τ
-def zero_value_terms(circuit, rth: dict[str, float]) -> dict[str, float]:
-    """Storage part -> zero-value time constant in s: R_th C, or L / R_th (inf for no path)."""
+def zero_value_terms(circuit, rth: dict[str, float], r_ref: float) -> dict[str, float]:
+    """Storage part -> zero-value time constant in s: R_th C, or L / R_th (inf for no path).
+    A capacitor's R_th below ``THEVENIN_SHORT`` * ``r_ref`` (ohms) is a short up to rounding
+    (a capacitor across a closed ideal switch): its term is 0."""
     out = {}
     for name, r in rth.items():
         part = circuit.part(name)
         if part.kind == CAPACITOR:
-            out[name] = r * part.value if math.isfinite(r) else math.inf
+            short = abs(r) < THEVENIN_SHORT * r_ref
+            out[name] = 0.0 if short else r * part.value if math.isfinite(r) else math.inf
         elif part.kind == INDUCTOR:
             out[name] = part.value / r if r != 0 else math.inf
     return out
@@ -363,69 +364,3 @@ def dominant(ex: ExpSum, terms: dict[str, float], rates: list[complex], end: flo
 def probe_current_of(part) -> Probe:
     """The ``through`` probe of a part."""
     return Probe(THROUGH, (part.name,))
-
-
-# ------------------------------------------------------------------------------- coupling
-def coupled_storage(circuit, probe: Probe, closed: dict) -> set[str] | None:
-    """The capacitors and inductors whose dynamics can reach ``probe`` in an interval.
-
-    With the sources zeroed, the nodes tied to ground by independent voltage sources (and
-    ideal closed switches) form the reference class; the other nodes are grouped by every
-    remaining part that conducts (resistors, storage parts, switches that are closed or have an
-    off-resistance, controlled sources together with their control nodes or sensed part).
-    Groups that meet only through the reference class are dynamically independent.  Returns the
-    storage parts with a terminal in a group the probe touches, or None when the probe touches
-    only the reference class (then every storage part counts).
-    """
-    from ..model import CURRENT_CONTROLLED, CURRENT_SOURCE, VOLTAGE_CONTROLLED, VOLTAGE_SOURCE
-    parent: dict[str, str] = {n: n for n in circuit.nodes}
-
-    find = partial(find_root, parent)
-
-    def join(a, b):
-        parent[find(a)] = find(b)
-
-    ground = circuit.ground
-    for part in circuit.parts:
-        ideal_short = part.kind == SWITCH and closed.get(part.name) and part.on_resistance is None
-        if part.kind == VOLTAGE_SOURCE or ideal_short:
-            join(part.p, part.n)                 # zeroed source / short: same node
-    reference = {n for n in circuit.nodes if find(n) == find(ground)}
-    links: list[tuple[str, ...]] = []
-    for part in circuit.parts:
-        if part.kind in (VOLTAGE_SOURCE, CURRENT_SOURCE):
-            continue
-        if part.kind == SWITCH and not closed.get(part.name) and part.off_resistance is None:
-            continue
-        group = list(part.nodes)
-        if part.kind in VOLTAGE_CONTROLLED and isinstance(part.control, tuple):
-            group += list(part.control)
-        elif part.kind in CURRENT_CONTROLLED and isinstance(part.control, str):
-            group += _sensed_nodes(circuit, circuit.part(part.control), reference)
-        links.append(tuple(n for n in group if n not in reference))
-    for group in links:
-        for a, b in zip(group, group[1:]):
-            join(a, b)
-    if probe.kind in ("node", "between"):
-        touched = set(probe.targets)
-    else:
-        touched = set(circuit.part(probe.targets[0]).nodes)
-    roots = {find(n) for n in touched if n not in reference}
-    if not roots:
-        return None
-    return {p.name for p in circuit.parts if p.kind in (CAPACITOR, INDUCTOR)
-            and any(n not in reference and find(n) in roots for n in p.nodes)}
-
-
-def _sensed_nodes(circuit, sensed, reference: set[str]) -> list[str]:
-    """The nodes whose dynamics set the current of ``sensed`` (a part a ccvs/cccs reads): its own
-    nodes and, when both lie in the reference class (a grounded source), the other nodes of the
-    parts meeting it at its ungrounded terminal, whose currents add up to it there (KCL)."""
-    nodes = list(sensed.nodes)
-    if any(n not in reference for n in nodes):
-        return nodes
-    terminal = sensed.p if sensed.p != circuit.ground else sensed.n
-    for part in circuit.parts:
-        if part.name != sensed.name and terminal in part.nodes:
-            nodes += [n for n in part.nodes if n != terminal]
-    return nodes

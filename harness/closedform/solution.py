@@ -20,6 +20,7 @@ from .mna import (Layout, Scale, capacitor_null_basis, interval_groups, layout_o
                   scale_of, scaled, stamp, stamp_sources)
 from .modes import UNDAMPED, Mode, mode_of
 from .probes import functional
+from .reach import reaching_storage, voltage_of_capacitor
 from .response import IntervalResponse, Pencil, build, pencil_of
 from . import signoff
 from .thevenin import thevenin_resistances
@@ -114,7 +115,7 @@ class ClosedFormSolution:
                 taus += [mode.tau] * mode.multiplicity
         return tuple(sorted(taus, reverse=True))
 
-    # ----------------------------------------------------------------- sign-off (issue 7)
+    # ----------------------------------------------------------------- sign-off
     def exponential_sum(self, probe: Probe, k: int) -> "signoff.ExpSum":
         """The probe's exact waveform in interval k as an exponential sum (``signoff``)."""
         raws, _ = self._raw(probe)
@@ -170,9 +171,15 @@ class ClosedFormSolution:
         return self._probe_cache[key]
 
     def _coupled_terms(self, probe: Probe, k: int) -> dict[str, float]:
-        """Zero-value time constants (s) of the storage parts coupled to ``probe`` in interval k."""
+        """Zero-value time constants (s) of the storage parts that reach ``probe`` in interval k
+        (``reach.reaching_storage``: a non-zero transfer function to the probe; a controlled
+        source couples one way, from control to output)."""
         terms = self._zero_value(k)
-        coupled = signoff.coupled_storage(self.circuit, probe, self.intervals[k].closed)
+        resp, n = self.intervals[k], self.layout.size
+        fn = functional(self.circuit, self.layout, voltage_of_capacitor(self.circuit, probe))
+        row, drow, _ = fn.terms(self.layout, self.scale, resp.g, resp.b, resp.values, n)
+        coupled = reaching_storage(self.circuit, self.layout, resp.g[:n, :n], resp.c[:n, :n],
+                                   row, drow)
         if coupled is not None:
             terms = {p: t for p, t in terms.items() if p in coupled}
         return terms
@@ -188,7 +195,8 @@ class ClosedFormSolution:
         """Part -> zero-value time constant (s) for interval k, memoised."""
         key = ("zero-value", k)
         if key not in self._jump_cache:
-            self._jump_cache[key] = signoff.zero_value_terms(self.circuit, self.thevenin(k))
+            self._jump_cache[key] = signoff.zero_value_terms(self.circuit, self.thevenin(k),
+                                                                 self.scale.r0)
         return self._jump_cache[key]
 
     # ----------------------------------------------------------------- internals

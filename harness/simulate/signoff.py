@@ -1,4 +1,4 @@
-"""Sign-off quantities (issue 7) read from the numerical engine's own integration.
+"""Sign-off quantities read from the numerical engine's own integration.
 
 Every value here comes from interval k's integrated held response (local time s = t - t_k): the
 accepted steps of the stiff integrator and its dense output (Radau's collocation polynomial,

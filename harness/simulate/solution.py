@@ -201,7 +201,7 @@ class NumericSolution:
         w, _ = self._rows(probe, k)
         return w, self._offset(probe, k)
 
-    # ----- sign-off quantities (issue 7; harness.results.SignoffSolution) ---------------------
+    # ----- sign-off quantities (harness.results.SignoffSolution) ---------------------
     def crossing(self, probe: Probe, k: int, level: float, direction: str):
         """First crossing of ``level`` after event k (``results.CrossingValue``; see
         harness.simulate.signoff), or None where interval k was not integrated."""

@@ -1,0 +1,85 @@
+"""Which storage parts can reach a probe: the exact engine's resolvent route.
+
+A controlled source couples one way, from its control to its output, and a current can cancel
+exactly (a loop that closes on itself, an open end), so the storage parts that set a probe's
+response are not the ones merely *connected* to it.  The closed form answers the question
+with its own interval pencil (scaled MNA C~ x' + G~ x = b~, sources zeroed): a storage part's
+dynamics enter the equations through its C~ entries, along the injection vector a_X (e_p - e_n
+over the KCL rows of a capacitor's terminals; the unit vector of an inductor's branch row).
+Its influence on the probe y = r . x (r the probe's row over x~ and dx~/dtau at s) is the
+transfer function
+
+    H_X(s) = r(s)^T (G~ + s C~)^-1 a_X,
+
+and X reaches the probe when H_X is not identically zero.  A rational function that vanishes at
+two generic complex points s0 (chosen away from the real axis, where the modes of passive
+circuits lie, and with |s0| = O(1) in the scaled time) is zero but for a coincidence, so X
+counts when |H_X(s0)| > ``REACH`` * max over the rows of |r^T (G~ + s0 C~)^-1| at either point.
+One LU of G~ + s0 C~ and one transposed solve per probe and point.
+
+For a block-triangular pencil the first coefficient of det(G + sC)/det(G) splits over the
+diagonal blocks, so the sum of the zero-value time constants of the reaching storage is the
+sum of the time constants of the modes that can appear in the probe (its transfer function's
+poles; Cochrun & Grabel, IEEE Trans. Circuit Theory 20 (1973) 8-14).  A capacitor's current
+C dv/dt has the modes of its voltage, so a through probe of a capacitor is read as the voltage
+across it.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.linalg as la
+
+from ..model import ACROSS, CAPACITOR, INDUCTOR, THROUGH, Circuit, Probe
+from .mna import Layout
+
+#: generic points in scaled time at which the transfer functions are tested
+POINTS = (0.8183 + 0.5477j, 2.6971 - 1.3089j)
+#: H_X(s0) below this fraction of the probe's largest row sensitivity counts as zero
+REACH = 1e-9
+
+
+def voltage_of_capacitor(circuit: Circuit, probe: Probe) -> Probe:
+    """The probe whose row carries the modes of ``probe``: a capacitor's current i = C dv/dt
+    has the modes of its voltage (for every non-zero rate), read from the capacitor's own
+    nodes rather than from the KCL sum the current functional uses."""
+    if probe.kind == THROUGH and circuit.part(probe.targets[0]).kind == CAPACITOR:
+        return Probe(ACROSS, probe.targets)
+    return probe
+
+
+def _injection(layout: Layout, part, size: int) -> np.ndarray:
+    """a_X over the rows (shape (size,)): where the part's C~ entries enter the equations."""
+    a = np.zeros(size)
+    if part.kind == INDUCTOR:
+        a[layout.branch(part.name)] = 1.0
+        return a
+    for node, sign in ((part.p, 1.0), (part.n, -1.0)):
+        i = layout.node(node)
+        if i is not None:
+            a[i] += sign
+    return a
+
+
+def reaching_storage(circuit: Circuit, layout: Layout, g: np.ndarray, c: np.ndarray,
+                     row: np.ndarray, drow: np.ndarray) -> set[str] | None:
+    """The capacitors and inductors whose transfer function to the probe is not zero (module
+    docstring) in the scaled pencil (g, c) of one interval; ``row``, ``drow``: the probe's
+    coefficients over x~ and dx~/dtau (shape (n,)).  None when the pencil is singular at both
+    points (then the caller counts every storage part)."""
+    storage = [p for p in circuit.parts if p.kind in (CAPACITOR, INDUCTOR)]
+    inject = np.array([_injection(layout, p, g.shape[0]) for p in storage]).reshape(
+        len(storage), g.shape[0])
+    reached = np.zeros(len(storage), dtype=bool)
+    solved = False
+    for s0 in POINTS:
+        try:
+            z = la.solve((g + s0 * c).T, row + s0 * drow, check_finite=True)
+        except (la.LinAlgError, ValueError):
+            continue
+        solved = True
+        top = float(np.max(np.abs(z), initial=0.0))
+        reached |= np.abs(inject @ z) > REACH * top
+    if not solved:
+        return None
+    return {p.name for p, hit in zip(storage, reached) if hit}
