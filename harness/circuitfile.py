@@ -31,7 +31,7 @@ MAX_TEXT = 2000
 MAX_EVENTS = 2500
 
 TOP_LEVEL = ("title", "ground", "settings", "parts", "expect")
-SETTINGS = ("tolerance",)
+SETTINGS = ("tolerance", "acknowledge")
 PROBE_KEYS = (m.NODE, m.BETWEEN, m.ACROSS, m.THROUGH)
 #: sign-off keys of an [[expect]] block: file key -> field name
 SIGNOFF_KEYS = {"crossing": "crossing", "peak": "peak", "energy": "energy",
@@ -214,10 +214,21 @@ def _settings(raw: object, where: Where) -> m.Settings:
             raise where.error(f"unknown setting {key!r}{suggest(key, SETTINGS)}; [settings] "
                               f"takes {quoted_list(SETTINGS)}", path=("settings", key),
                               part="settings", field=key)
-    if "tolerance" not in raw:
-        return m.Settings()
-    return m.Settings(tolerance=_tolerance(raw["tolerance"], where, ("settings", "tolerance"),
-                                           "settings"))
+    tolerance = m.Settings.tolerance
+    if "tolerance" in raw:
+        tolerance = _tolerance(raw["tolerance"], where, ("settings", "tolerance"), "settings")
+    return m.Settings(tolerance=tolerance, acknowledge=_acknowledge(raw, where))
+
+
+def _acknowledge(raw: dict, where: Where) -> tuple[str, ...]:
+    """[settings] acknowledge: node and part names whose findings the file accepts."""
+    names = raw.get("acknowledge", [])
+    path = ("settings", "acknowledge")
+    if not isinstance(names, list) or not all(isinstance(n, str) for n in names):
+        raise where.error("acknowledge must be a list of node or part names, e.g. "
+                          "acknowledge = [\"tp1\", \"S1\"]", path=path, part="settings",
+                          field="acknowledge")
+    return tuple(names)
 
 
 def _tolerance(raw: object, where: Where, path: tuple, part: str) -> float:

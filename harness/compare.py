@@ -17,8 +17,9 @@ from . import tolerances as tol
 from .compare_signoff import (dominant_json, engine_message, hand_relative, signoff_fields,
                               withheld)
 from .diagnose import explain
+from .findings import findings
 from .model import FIELDS, Circuit, Expectation, Probe, NODE, BETWEEN, ACROSS
-from .outcome import (ENGINES_DISAGREE, MISMATCH, PASS, CheckResult, FieldResult, FileResult,
+from .outcome import (ENGINES_DISAGREE, FINDING, MISMATCH, PASS, CheckResult, FieldResult, FileResult,
                       Trace, worst)
 from .results import Features, Solution
 from .units import format_si
@@ -208,8 +209,11 @@ def compare_file(circuit: Circuit, exact: Solution, numeric: Solution | None,
     if numeric is not None:
         warnings += [f"numerical engine: {w}" for w in numeric.warnings
                      if w not in exact.warnings]
+    found = findings(circuit, exact, numeric)
+    open_findings = [FINDING for f in found if not f.acknowledged]
     return FileResult(file=circuit.source, title=circuit.title,
-                      verdict=worst(c.verdict for c in checks), checks=checks,
+                      verdict=worst([c.verdict for c in checks] + open_findings), checks=checks,
+                      findings=tuple(f.to_json() for f in found),
                       warnings=tuple(warnings), cautions=cautions,
                       jumps=tuple(_jump_json(exact, k) for k in range(len(circuit.events))),
                       seconds=seconds)
@@ -219,4 +223,5 @@ def _jump_json(exact: Solution, k: int) -> dict:
     j = exact.jump(k)
     return {"at": j.time, "charges": dict(j.charges), "energy": j.energy,
             "loops": list(j.loops), "stored_before": dict(j.stored_before),
-            "stored_after": dict(j.stored_after), "warnings": list(j.warnings)}
+            "stored_after": dict(j.stored_after), "warnings": list(j.warnings),
+            "forced": {n: list(pair) for n, pair in j.forced.items()}, "opened": list(j.opened)}

@@ -228,9 +228,12 @@ class Settings:
 
     Attributes:
         tolerance: relative tolerance for hand vs computed values (fraction, 0.01 = 1 %).
+        acknowledge: node and part names whose findings (an open node, an interrupted coil
+            current, unbounded growth) the file accepts: they are reported but do not fail it.
     """
 
     tolerance: float = 0.01
+    acknowledge: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)

@@ -15,8 +15,11 @@ PASS = "pass"
 MISMATCH = "mismatch"
 ENGINES_DISAGREE = "engines-disagree"
 ERROR = "error"
+#: a file with a finding it does not acknowledge (harness.findings): an open node, an
+#: interrupted coil current, unbounded growth
+FINDING = "finding"
 #: worst last: the overall verdict of several is the worst of them
-VERDICT_ORDER = (PASS, MISMATCH, ENGINES_DISAGREE, ERROR)
+VERDICT_ORDER = (PASS, MISMATCH, ENGINES_DISAGREE, FINDING, ERROR)
 
 
 def worst(verdicts) -> str:
@@ -121,9 +124,12 @@ class FileResult:
     cautions: tuple[str, ...] = ()
     jumps: tuple[dict, ...] = ()   # per event: time, charges, energy (JSON-ready)
     seconds: float = 0.0
+    #: harness.findings.Finding.to_json() of each finding, acknowledged ones included
+    findings: tuple[dict, ...] = ()
 
     def to_json(self) -> dict[str, Any]:
         return {"file": self.file, "title": self.title, "verdict": self.verdict,
+                "findings": list(self.findings),
                 "warnings": list(self.warnings), "errors": list(self.errors),
                 "cautions": list(self.cautions), "jumps": list(self.jumps),
                 "checks": [c.to_json() for c in self.checks]}

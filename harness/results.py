@@ -66,7 +66,13 @@ class Jump:
             inductor just before and just after the instant.
         loops: human-readable descriptions of why the jump happens (``C1, C2 and S1 form a
             loop``); may be empty.
-        warnings: diagnostics (an inductor current interrupted with no other path …).
+        warnings: diagnostics (a state beyond floating-point range …).
+        forced: inductor name -> (i(t_k-), i(t_k+)) in A for every inductor whose current the
+            event forces to jump (an impulse of voltage across it); values below the circuit's
+            current noise floor are 0.  An inductor forced to 0 from a non-zero current is an
+            interrupted current.
+        opened: the switches opening at the event that carry the impulse of voltage (where the
+            jump's energy is dissipated in the ideal limit).
     """
 
     time: float
@@ -77,6 +83,37 @@ class Jump:
     stored_after: Mapping[str, float] = field(default_factory=dict)
     loops: tuple[str, ...] = ()
     warnings: tuple[str, ...] = ()
+    forced: Mapping[str, tuple[float, float]] = field(default_factory=dict)
+    opened: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class Hazard:
+    """A condition that makes a circuit unsafe or its analysis meaningless, as data (the report
+    side writes the English, ``harness.findings``).
+
+    Attributes:
+        code: ``interrupted-current`` (an inductor's current cut to zero with no other path),
+            ``forced-current`` (inductor currents forced to jump: an impulse of voltage across
+            the opening switch), ``unbounded-growth`` (a current into nodes with no DC path, or a
+            growing mode).
+        time: the event time in s from which it holds.
+        parts: the parts involved (switch first, then the inductors; or the feeding parts).
+        nodes: the nodes involved (unbounded growth), else empty.
+        values: named numbers in SI units: ``"<inductor>:before"``, ``"<inductor>:after"`` (A),
+            ``"energy"`` (J, the jump's loss), ``"e-folding"`` (s, for a growing mode).
+    """
+
+    code: str
+    time: float
+    parts: tuple[str, ...] = ()
+    nodes: tuple[str, ...] = ()
+    values: Mapping[str, float] = field(default_factory=dict)
+
+
+INTERRUPTED = "interrupted-current"
+FORCED = "forced-current"
+GROWTH = "unbounded-growth"
 
 
 @dataclass(frozen=True)

@@ -216,31 +216,30 @@ def _energy(circuit: Circuit, before: dict, after: dict, charges: dict, fluxes: 
     return float(sum(before.values()) - sum(after.values()) + work)
 
 
-def _warnings(circuit: Circuit, layout: Layout, time: float, x_minus: np.ndarray,
-              x_plus: np.ndarray, fluxes: dict, scales: Scales) -> tuple[str, ...]:
-    """Interrupted or forced inductor currents (``fluxes``: the significant voltage impulses)."""
-    jumped = [p for p in circuit.parts if p.kind == INDUCTOR and abs(
-        x_plus[layout.branch(p.name)] - x_minus[layout.branch(p.name)]) > 1e-6 * scales.current]
-    if not jumped:
-        return ()
-    openers = [p for p in circuit.parts if p.kind == SWITCH and p.is_closed_before(time)
-               and not p.is_closed(time) and p.name in fluxes]
-    out = []
-    when = format_si(time, "s")
-    for sw in openers:
-        for ind in jumped:
-            cut = abs(x_minus[layout.branch(ind.name)])
-            out.append(f"at {when} opening {sw.name} interrupts {format_si(cut, 'A')} in "
-                       f"{ind.name} with no other path: the voltage across {sw.name} is unbounded")
-    if not openers:
-        across = [p.name for p in circuit.parts if p.kind != INDUCTOR and p.name in fluxes]
-        for ind in jumped:
-            a = x_minus[layout.branch(ind.name)]
-            b = x_plus[layout.branch(ind.name)]
-            out.append(f"at {when} the current of {ind.name} is forced to jump from "
-                       f"{format_si(a, 'A')} to {format_si(b, 'A')}: the voltage across "
-                       f"{', '.join(across) or ind.name} is impulsive")
-    return tuple(out)
+#: an inductor current change above this fraction of the circuit's current scale is a jump
+FORCED_JUMP = 1e-6
+#: currents below this fraction of the circuit's current scale are reported as 0 (rounding)
+CURRENT_ROUNDING = 1e-9
+
+
+def _forced(circuit: Circuit, layout: Layout, time: float, x_minus: np.ndarray,
+            x_plus: np.ndarray, fluxes: dict, scales: Scales):
+    """(forced, opened): inductor -> (i-, i+) in A for the inductors whose current jumps
+    (currents below CURRENT_ROUNDING of the scale set to 0), and the switches opening at
+    ``time`` that carry the voltage impulse (in ``fluxes``)."""
+    def clean(i: float) -> float:
+        return 0.0 if abs(i) < CURRENT_ROUNDING * scales.current else float(i)
+
+    forced = {}
+    for p in circuit.parts:
+        if p.kind != INDUCTOR:
+            continue
+        i0, i1 = x_minus[layout.branch(p.name)], x_plus[layout.branch(p.name)]
+        if abs(i1 - i0) > FORCED_JUMP * scales.current:
+            forced[p.name] = (clean(i0), clean(i1))
+    opened = tuple(p.name for p in circuit.parts if p.kind == SWITCH and p.name in fluxes
+                   and p.is_closed_before(time) and not p.is_closed(time))
+    return forced, opened
 
 
 def _loops(charges: dict, fluxes: dict) -> tuple[str, ...]:
@@ -285,6 +284,6 @@ def jump_at(circuit: Circuit, layout: Layout, scale: Scale, g: np.ndarray, c: np
     charges, fluxes = _significant(circuit, charges, fluxes, scales, rounding)
     energy = _energy(circuit, before, after, charges, fluxes, values) if charges or fluxes \
         else 0.0                                  # nothing impulsive: storage is continuous
-    warnings = _warnings(circuit, layout, time, xm, xp, fluxes, scales)
+    forced, opened = _forced(circuit, layout, time, xm, xp, fluxes, scales)
     loops = _loops(charges, fluxes)
-    return Jump(time, charges, fluxes, energy, before, after, loops, warnings)
+    return Jump(time, charges, fluxes, energy, before, after, loops, (), forced, opened)

@@ -9,7 +9,7 @@ import numpy as np
 from ..errors import TopologyError
 from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, SOURCES, SWITCH, VCCS, VCVS, Circuit,
                      Probe)
-from ..results import Features, Jump
+from ..results import GROWTH, Features, Hazard, Jump
 from ..tolerances import MODE_VISIBILITY
 from ..units import format_si
 from .features import SCALE_FLOOR, RawEvent, classify, probe_scale, raw_event
@@ -38,6 +38,8 @@ class ClosedFormSolution:
         intervals: interval k's exact response, k = 0 .. len(events) - 1.
         prestep: the pre-step circuit's response, whose value at its start is the state at 0-.
         warnings: circuit-wide diagnostics naming parts and event times.
+        hazards: unbounded growth in each interval, as data (``harness.results.Hazard``), in
+            event order (interrupted and forced currents are in each ``jump``).
 
     Frozen; features and jumps are computed on first request and memoised in private caches.
     """
@@ -48,6 +50,7 @@ class ClosedFormSolution:
     intervals: tuple[IntervalResponse, ...]
     prestep: IntervalResponse
     warnings: tuple[str, ...]
+    hazards: tuple[Hazard, ...] = ()
     engine: str = ENGINE
     _probe_cache: dict = field(default_factory=dict, repr=False)
     _jump_cache: dict = field(default_factory=dict, repr=False)
@@ -146,7 +149,7 @@ class ClosedFormSolution:
         end, gap = self._held(k)
         jump = self.jump(k)
         loss = 0.0
-        if part.kind == SWITCH and part_name in jump.charges:
+        if part.kind == SWITCH and (part_name in jump.charges or part_name in jump.fluxes):
             if jump.energy is None:
                 from ..results import EnergyValue
                 return EnergyValue(None)
@@ -352,9 +355,12 @@ def solve(circuit: Circuit) -> ClosedFormSolution:
         warnings += _interval_warnings(circuit, resp, scale)
         x_minus = resp.x_end
     sol = ClosedFormSolution(circuit, layout, scale, tuple(intervals), prestep, ())
-    for k in range(len(intervals)):
-        warnings += list(sol.jump(k).warnings)
-    return replace(sol, warnings=tuple(dict.fromkeys(warnings)))
+    hazards = []
+    for k, resp in enumerate(intervals):
+        jump = sol.jump(k)
+        warnings += list(jump.warnings)
+        hazards += _interval_hazards(circuit, resp, scale)
+    return replace(sol, warnings=tuple(dict.fromkeys(warnings)), hazards=tuple(hazards))
 
 
 def _floating_warning(time: float, groups: list[list[str]]) -> str:
@@ -363,32 +369,37 @@ def _floating_warning(time: float, groups: list[list[str]]) -> str:
             f"switches or current sources: their common voltage is undefined and taken as 0 V")
 
 
-def _interval_warnings(circuit: Circuit, resp: IntervalResponse, scale: Scale) -> list[str]:
-    """Unbounded growth and growing or undamped modes of one interval."""
+def _interval_hazards(circuit: Circuit, resp: IntervalResponse, scale: Scale) -> list[Hazard]:
+    """Unbounded growth in one interval: a current into nodes with no DC path (the feeding
+    parts named) or a growing mode (its e-folding time, the active parts named)."""
     out = []
-    when = format_si(resp.start, "s")
     if resp.augmented:
         nodes = set(resp.growth_nodes)
-        feeders = [p.name for p in circuit.parts if p.kind in (CURRENT_SOURCE, VCCS, CCCS)
-                   and (p.p in nodes or p.n in nodes)]
-        caps = [p.name for p in circuit.parts if p.kind == CAPACITOR
-                and (p.p in nodes or p.n in nodes)]
-        source = f"from {', '.join(feeders)} " if feeders else ""
-        out.append(f"from {when} the current {source}"
-                   f"into node(s) {', '.join(sorted(nodes))} has no DC path"
-                   f"{(' (it charges ' + ', '.join(caps) + ')') if caps else ''}: the voltage "
-                   f"grows without bound")
-    active = [p.name for p in circuit.parts if p.kind in (VCVS, VCCS, CCVS, CCCS)]
+        feeders = tuple(p.name for p in circuit.parts if p.kind in (CURRENT_SOURCE, VCCS, CCCS)
+                        and (p.p in nodes or p.n in nodes))
+        out.append(Hazard(GROWTH, resp.start, feeders, tuple(sorted(nodes))))
+    active = tuple(p.name for p in circuit.parts if p.kind in (VCVS, VCCS, CCVS, CCCS))
+    for cl in resp.dec.clusters:
+        rate = complex(cl.rate)
+        if cl.zero or rate.real < -UNDAMPED * abs(rate):
+            continue
+        mode = mode_of(cl, scale.t)
+        if mode.kind == "growing":
+            out.append(Hazard(GROWTH, resp.start, active, (),
+                              {"e-folding": 1 / mode.rate.real}))
+    return out
+
+
+def _interval_warnings(circuit: Circuit, resp: IntervalResponse, scale: Scale) -> list[str]:
+    """Undamped modes of one interval (growth is a ``Hazard``)."""
+    out = []
+    when = format_si(resp.start, "s")
     for cl in resp.dec.clusters:
         rate = complex(cl.rate)
         if cl.zero or rate.real < -UNDAMPED * abs(rate):
             continue                                  # constant or decaying: nothing to say
         mode = mode_of(cl, scale.t)
-        if mode.kind == "growing":
-            out.append(f"from {when} a growing mode (e-folding time "
-                       f"{format_si(1 / mode.rate.real, 's')}) makes the response grow without "
-                       f"bound{(' (active parts: ' + ', '.join(active) + ')') if active else ''}")
-        elif mode.kind == "undamped" and mode.rate.imag > 0:
+        if mode.kind == "undamped" and mode.rate.imag > 0:
             out.append(f"from {when} an undamped oscillation at {format_si(mode.frequency, 'Hz')}"
                        f" never settles")
     return out

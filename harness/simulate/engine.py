@@ -16,7 +16,7 @@ from .features import fit_window
 from .initial import initial_state
 from .integrate import integrate_interval
 from .nodesets import find_root
-from .regularise import PILOT_SPLIT, choose
+from .regularise import PILOT_SPLIT, choose, gain_factor
 from .solution import NumericSolution
 
 #: the absolute tolerance of a state is rtol times this fraction of its kind's scale
@@ -71,29 +71,13 @@ def _scales(circuit: Circuit, lay, y0: np.ndarray) -> tuple[float, float]:
     return v, i
 
 
-def _gain(circuit: Circuit) -> float:
-    """1 + the controlled sources' gains made dimensionless: how far voltages may exceed the
-    sources' (an amplifier's output is its gain times its input)."""
-    res = [abs(p.value) for p in circuit.parts if p.kind == RESISTOR and p.value]
-    gain = 1.0
-    for part in circuit.parts:
-        g = abs(part.value or 0.0)
-        if part.kind in (VCVS, CCCS):
-            gain += g
-        elif part.kind == VCCS and res:
-            gain += g * max(res)
-        elif part.kind == CCVS and res:
-            gain += g / min(res)
-    return gain
-
-
 def _carrier_floor(circuit: Circuit, lay, systems, atol: np.ndarray, v_scale: float,
                    r_series: float) -> np.ndarray:
     """atol with each carrier current raised to CARRIER_NOISE * |u| / r_s, |u| bounded by the
     sum of its voltage coefficients times the (gain-scaled) voltage scale."""
     atol = atol.copy()
     nn = len(lay.nodes)
-    v = v_scale * _gain(circuit)
+    v = v_scale * gain_factor(circuit)
     systems = _distinct(systems)
     for name in lay.carriers:
         r = lay.part_index[name]

@@ -293,3 +293,19 @@ def choose(circuit: Circuit, pulse_ratio: float | None = None,
         pulse_ratio=eps, t_fast=t_fast, t_slow=t_slow, t_pulse=t_pulse, r_series=r_series,
         r_on=r_series, c_base=c_base, c_node=c_node, r_shunt=r_shunt,
         horizon=HORIZON_FACTOR * t_slow, post_pulse=PULSE_DECAY * t_pulse)
+
+
+def gain_factor(circuit: Circuit) -> float:
+    """1 + the controlled sources' gains made dimensionless: how far voltages may exceed the
+    sources' (an amplifier's output is its gain times its input)."""
+    res = [abs(p.value) for p in circuit.parts if p.kind == RESISTOR and p.value]
+    gain = 1.0
+    for part in circuit.parts:
+        g = abs(part.value or 0.0)
+        if part.kind in (VCVS, CCCS):
+            gain += g
+        elif part.kind == VCCS and res:
+            gain += g * max(res)
+        elif part.kind == CCVS and res:
+            gain += g / min(res)
+    return gain

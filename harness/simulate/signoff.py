@@ -203,7 +203,7 @@ def energy(sol, part_name: str, k: int) -> EnergyValue | None:
     loss = 0.0
     if part.kind == SWITCH:
         jump = sol.jump(k)
-        if part_name in jump.charges:
+        if part_name in jump.charges or part_name in jump.fluxes:
             if jump.energy is None:
                 return EnergyValue(None)
             loss = float(jump.energy)

@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..model import CAPACITOR, CCCS, CCVS, VCCS, VCVS, Circuit, Probe
+from ..model import CAPACITOR, CCCS, CCVS, SWITCH, VCCS, VCVS, Circuit, Probe
 from ..results import Features, Jump
 from ..tolerances import MODE_VISIBILITY
 from .equations import Layout, System
@@ -14,12 +14,14 @@ from .features import decay, fit_window, post_pulse, pulse_points, values
 from .integrate import IntervalRun, IntervalStats
 from .linsolve import operating_point
 from .probes import probe_offset, probe_row, voltage_row
-from .regularise import Regularisation
+from .regularise import Regularisation, gain_factor
 from . import signoff
 from .dominant import dominant as dominant_tau
 
 #: an impulsive charge below this fraction of (total capacitance x voltage scale) is noise
 CHARGE_FLOOR = 1e-9
+#: currents below this fraction of the current scale are reported as 0 in a jump
+CURRENT_ROUNDING = 1e-6
 CONTROLLED = (VCVS, VCCS, CCVS, CCCS)
 
 
@@ -285,15 +287,43 @@ class NumericSolution:
             stored_before[name], stored_after[name] = 0.5 * part.value * i0 ** 2, 0.5 * part.value * i1 ** 2
             if abs(i1 - i0) > CHARGE_FLOOR * self.i_scale:
                 fluxes[name] = part.value * (i1 - i0)
+        opened = self._opening_fluxes(k, run, system, nodes, weights)
+        fluxes.update(opened)
         energy = float(sum(r.resistance * ((cur[nb + i] ** 2 - fit[nb + i] ** 2) @ weights)
                            for i, r in enumerate(system.regularisers)))
-        warnings = tuple(f"the current of inductor {nm} is forced from {y_before[lay.part_index[nm]]:.6g} A "
-                         f"to {after[names.index(nm)]:.6g} A at t = {t:.6g} s: its path is "
-                         "interrupted (an impulse of voltage across it)" for nm in fluxes)
+        forced = {nm: (self._clean(y_before[lay.part_index[nm]]),
+                       self._clean(after[names.index(nm)])) for nm in fluxes
+                  if nm in lay.inductors}
         if any(self.circuit.part(nm).kind in CONTROLLED for nm in charges):
             energy = None
         return Jump(t, charges=charges, fluxes=fluxes, energy=energy,
-                    stored_before=stored_before, stored_after=stored_after, warnings=warnings)
+                    stored_before=stored_before, stored_after=stored_after, forced=forced,
+                    opened=tuple(opened))
+
+    def _clean(self, current: float) -> float:
+        """A current in A, 0 below CURRENT_ROUNDING of the circuit's current scale."""
+        return 0.0 if abs(current) < CURRENT_ROUNDING * self.i_scale else float(current)
+
+    def _opening_fluxes(self, k: int, run, system, nodes: np.ndarray,
+                        weights: np.ndarray) -> dict[str, float]:
+        """Switch name -> the impulsive flux (V s) across each switch opening at event k: the
+        integral over the pulse window of its voltage less the post-pulse fit's, where it
+        exceeds what ten times the circuit's voltage scale (times the controlled gains) can
+        give over the window: a forced inductor current's voltage impulse, read from the
+        integrated waveform."""
+        t, lay, reg = self._t(k), self.layout, self.regularisation
+        opening = [p for p in self.circuit.parts if p.kind == SWITCH
+                   and p.is_closed_before(t) and not p.is_closed(t)]
+        if not opening or not nodes.size:
+            return {}
+        rows = np.array([voltage_row(lay, p.p, p.n) for p in opening])
+        rows_d = np.asarray(rows @ system.reduction.lift)
+        offsets = rows_d @ run.origin + rows @ system.reduction.lift_c
+        pp = post_pulse(run, rows_d, offsets, reg.post_pulse,
+                        fit_window(reg.post_pulse, reg.t_fast))
+        flux = run.probe(rows_d, offsets, nodes) @ weights - pp.integral()
+        floor = 10.0 * self.v_scale * gain_factor(self.circuit) * reg.post_pulse
+        return {p.name: float(f) for p, f in zip(opening, flux) if abs(f) > floor}
 
     def _charge_floor(self) -> float:
         """Charges below this (C) are not reported: CHARGE_FLOOR of the capacitors' charge

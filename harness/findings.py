@@ -1,0 +1,141 @@
+"""Findings: what makes a checked circuit unsafe or probably not the circuit meant.
+
+A finding fails the file (verdict ``finding``, exit 1) unless the file acknowledges it in
+``[settings] acknowledge = [...]`` by a node or part name the finding names; an acknowledged
+finding is still reported.  Kinds (``Finding.code``):
+
+* ``open-node``: a node other than ground that exactly one part terminal touches (and no
+  controlled source senses): an open end, usually a mistyped node name (``topology``);
+* ``interrupted-current``: an opening switch cuts an inductor's current to zero with no other
+  path: the voltage across the switch is unbounded in the ideal circuit (from the engines'
+  ``Jump.forced`` / ``Jump.opened``);
+* ``forced-current``: an opening switch forces inductor currents to jump: an impulse of voltage
+  across the switch dissipates the jump's energy in it;
+* ``unbounded-growth``: a current into nodes with no DC path, or a growing mode
+  (``ClosedFormSolution.hazards``).
+
+The jump findings come from the closed form's jump; where the numerical engine, by its own
+integration, sees a different set of forced inductors, the message says so.  This module is
+where the English for these is written.
+"""
+
+from __future__ import annotations
+
+import difflib
+from dataclasses import dataclass
+
+from .model import Circuit
+from .results import FORCED, GROWTH, INTERRUPTED, Hazard, Jump
+from .topology import dangling_nodes
+from .units import format_si
+
+OPEN_NODE = "open-node"
+
+
+@dataclass(frozen=True)
+class Finding:
+    """One finding: its kind, the node and part names it concerns, the sentence, and whether the
+    file acknowledges it."""
+
+    code: str
+    subjects: tuple[str, ...]
+    message: str
+    acknowledged: bool = False
+
+    def to_json(self) -> dict:
+        return {"code": self.code, "subjects": list(self.subjects), "message": self.message,
+                "acknowledged": self.acknowledged}
+
+
+def jump_hazards(jump: Jump) -> list[Hazard]:
+    """An interrupted current (an inductor forced to 0 A from a non-zero current) or forced
+    currents at an event, from one engine's jump; empty when no inductor current jumps."""
+    if not jump.forced:
+        return []
+    cut = any(i1 == 0.0 and i0 != 0.0 for i0, i1 in jump.forced.values())
+    values = {f"{n}:{side}": v for n, pair in jump.forced.items()
+              for side, v in zip(("before", "after"), pair)}
+    if jump.energy is not None:
+        values["energy"] = float(jump.energy)
+    return [Hazard(INTERRUPTED if cut else FORCED, jump.time,
+                   tuple(jump.opened) + tuple(jump.forced), (), values)]
+
+
+def _open_node(circuit: Circuit, node: str, part: str) -> Finding:
+    owner = circuit.part(part)
+    side = "p" if owner.p == node else "n"
+    others = [n for n in circuit.nodes if n != node]
+    near = difflib.get_close_matches(node, others, n=1, cutoff=0.6)
+    hint = f" — did you mean {near[0]!r}?" if near else ""
+    return Finding(OPEN_NODE, (node, part),
+                   f"node {node!r} is touched only by {part} (its {side} terminal){hint} An open "
+                   f"end carries no current, so {part} does nothing; if the node is meant to be "
+                   f"open (a test point), list it in [settings] acknowledge")
+
+
+def _currents(h: Hazard) -> str:
+    names = [p for p in h.parts if f"{p}:before" in h.values]
+    return ", ".join(f"{n} ({format_si(h.values[f'{n}:before'], 'A')} → "
+                     f"{format_si(h.values[f'{n}:after'], 'A')})" for n in names)
+
+
+def _jump_text(h: Hazard) -> str:
+    when = format_si(h.time, "s")
+    switches = [p for p in h.parts if f"{p}:before" not in h.values]
+    across = ", ".join(switches) or "the part that opened"
+    loss = h.values.get("energy")
+    lost = f" and dissipates {format_si(loss, 'J')} in it" if loss else ""
+    if h.code == INTERRUPTED:
+        return (f"at {when} opening {across} interrupts the current of {_currents(h)} with no "
+                f"other path: the voltage across {across} is unbounded in the ideal circuit{lost} "
+                f"(an arc or avalanche in a real switch); give the coil a flyback path (diode, "
+                f"snubber, clamp) or list {across} in [settings] acknowledge")
+    return (f"at {when} opening {across} forces the current of {_currents(h)} to jump: an "
+            f"impulse of voltage appears across {across}{lost}; a real switch must absorb it "
+            f"(or list {across} in [settings] acknowledge)")
+
+
+def _growth_text(h: Hazard) -> str:
+    when = format_si(h.time, "s")
+    if "e-folding" in h.values:
+        active = f" (active parts: {', '.join(h.parts)})" if h.parts else ""
+        return (f"from {when} a growing mode (e-folding time "
+                f"{format_si(h.values['e-folding'], 's')}) makes the response grow without "
+                f"bound{active}")
+    source = f"from {', '.join(h.parts)} " if h.parts else ""
+    return (f"from {when} the current {source}into node(s) {', '.join(h.nodes)} has no DC path: "
+            f"the voltage grows without bound")
+
+
+def _hazard_finding(h: Hazard, numeric_sees: bool | None) -> Finding:
+    text = _growth_text(h) if h.code == GROWTH else _jump_text(h)
+    if numeric_sees is False:
+        text += " (the numerical engine's integration does not show this jump: review it)"
+    return Finding(h.code, tuple(h.parts) + tuple(h.nodes), text)
+
+
+def _numeric_sees(h: Hazard, numeric, k: int) -> bool | None:
+    """Whether the numerical engine's own jump forces the same inductors (None: not run)."""
+    if numeric is None or h.code == GROWTH:
+        return None
+    jump = numeric.jump(k)
+    if jump.energy is None and not jump.forced and jump.warnings:
+        return None                              # it stopped before this event
+    return set(jump.forced) == {p for p in h.parts if f"{p}:before" in h.values}
+
+
+def findings(circuit: Circuit, exact, numeric=None) -> tuple[Finding, ...]:
+    """Every finding of a solved circuit, acknowledged ones marked (module docstring)."""
+    out = [_open_node(circuit, node, part) for node, part in dangling_nodes(circuit)]
+    for k in range(len(circuit.events)):
+        for h in jump_hazards(exact.jump(k)):
+            out.append(_hazard_finding(h, _numeric_sees(h, numeric, k)))
+    seen = set()
+    for h in getattr(exact, "hazards", ()):
+        key = (h.code, h.parts, h.nodes, tuple(sorted(h.values)))
+        if key not in seen:
+            seen.add(key)
+            out.append(_hazard_finding(h, None))
+    ack = set(circuit.settings.acknowledge)
+    return tuple(Finding(f.code, f.subjects, f.message, bool(ack & set(f.subjects)))
+                 for f in out)
