@@ -21,7 +21,8 @@ from .model import FIELDS, Circuit, Expectation, Probe, NODE, BETWEEN, ACROSS
 from .outcome import (ENGINES_DISAGREE, MISMATCH, PASS, CheckResult, FieldResult, FileResult,
                       Trace, worst)
 from .results import Features, Solution
-from .units import format_si
+from .schedule import schedule
+from .units import format_exact
 
 #: plot and waveform-comparison grid size per check
 GRID_POINTS = 400
@@ -102,7 +103,8 @@ def compare_field(name: str, exp: Expectation, fe: Features, fn: Features | None
         message = explain(name, hand, exp, fe, ctx)
     return FieldResult(name=name, hand=hand, closed_form=closed, numeric=numeric,
                        verdict=verdict, unit=unit, message=message,
-                       formula=exp.formulas.get(name, ""), tolerance=relative)
+                       formula=exp.formulas.get(name, ""), tolerance=relative,
+                       floor=tol.ENGINE_FLOOR * floor)
 
 
 class CheckContext:
@@ -153,7 +155,7 @@ def _with_marks(trace: Trace, fields, dominant, t_k: float, final: float | None)
     for f in fields:
         if f.name == "crossing":
             level = f.extra["level"]
-            levels.append((f"level {format_si(level, trace.unit)}", level))
+            levels.append((f"level {format_exact(level, trace.unit)}", level))
             if f.extra.get("at") is not None:
                 marks.append(("crossing", f.extra["at"], f.extra["level"]))
         elif f.name == "peak" and f.extra.get("at") is not None:
@@ -183,11 +185,13 @@ def make_trace(ctx: CheckContext, exp: Expectation, fe: Features) -> Trace:
                     float(np.ptp(closed)), tol.WAVEFORM_SWING_FLOOR * ctx.scale, 1e-300)
         deviation = float(np.nanmax(np.abs(numeric_x - closed)) / swing)
     hand_t, hand_x = _hand_curve(exp, fe, t)
+    events = ctx.circuit.events
     return Trace(unit=exp.probe.dimension, numeric_t=numeric_t, numeric_x=numeric_x,
                  closed_t=t, closed_x=closed, hand_t=hand_t, hand_x=hand_x,
-                 event=ctx.circuit.events[ctx.k], before=snap_zero(fe.before, ctx.scale),
+                 event=events[ctx.k], before=snap_zero(fe.before, ctx.scale),
                  after=snap_zero(fe.after, ctx.scale),
-                 deviation=deviation)
+                 deviation=deviation, scale=ctx.scale,
+                 next_event=events[ctx.k + 1] if ctx.k + 1 < len(events) else None)
 
 
 def _hand_curve(exp: Expectation, fe: Features, t: np.ndarray):
@@ -208,11 +212,14 @@ def compare_file(circuit: Circuit, exact: Solution, numeric: Solution | None,
     if numeric is not None:
         warnings += [f"numerical engine: {w}" for w in numeric.warnings
                      if w not in exact.warnings]
+    probes = list(dict.fromkeys(exp.probe for exp in circuit.expectations))
     return FileResult(file=circuit.source, title=circuit.title,
                       verdict=worst(c.verdict for c in checks), checks=checks,
                       warnings=tuple(warnings), cautions=cautions,
                       jumps=tuple(_jump_json(exact, k) for k in range(len(circuit.events))),
-                      seconds=seconds)
+                      seconds=seconds,
+                      schedule=schedule(circuit, exact, numeric, probes,
+                                        [probe_scale(circuit, exact, p) for p in probes]))
 
 
 def _jump_json(exact: Solution, k: int) -> dict:
