@@ -3,8 +3,9 @@
 Nothing on the page is fetched: no scripts, no external style sheets or images, and a
 Content-Security-Policy that forbids loading anything but ``data:`` images.  Every piece of text
 goes through ``html.escape``.  Layout: overall summary and file list at the top; per file a header
-(file, verdict, cautions boxed first, errors, warnings, jumps), then per check its field table
-and facts beside its waveform plot.
+(file, verdict, cautions boxed first, errors, warnings, jumps) and its whole-schedule plot, then
+per check its field table and facts (failures in red, notes of passing fields apart) beside its
+waveform plot.
 """
 
 from __future__ import annotations

@@ -1,8 +1,9 @@
 """report.md: the discrepancy report as Markdown (GitHub-flavoured tables).
 
 An overall summary and the list of files at the top; per file a header (file, verdict, cautions
-first and prominent, errors, warnings, jumps) and per check a field table, the probe's reference
-direction, order and modes, the waveform deviation, the messages and a link to its plot PNG.
+first and prominent, errors, warnings, jumps, a link to its whole-schedule plot) and per check a
+field table, the probe's reference direction, order and modes, the waveform deviation, the
+messages (notes of passing fields marked "note:") and a link to its plot PNG.
 
 All untrusted text (titles, part names, messages) goes through ``escape``: Markdown punctuation is
 backslash-escaped, ``|`` cannot split a table cell, and ``<``/``>``/``&`` become HTML entities
