@@ -1,6 +1,7 @@
 """The ``tauproof`` command: ``check`` (compare and report) and ``solve`` (computed values).
 
-Exit codes: 0 every check passed; 1 at least one mismatch or engines-disagree; 2 at least one
+Exit codes: 0 every check passed; 1 at least one mismatch or engines-disagree, or (``check``) a
+file with no ``[[expect]]`` block, where nothing was checked; 2 at least one
 file could not be analysed (message on stderr naming file, part and field; never a traceback),
 timed out, lost its worker, or the reports could not be written; 130 stopped by SIGINT (Ctrl-C),
 143 stopped by SIGTERM (the previous reports are then left as they were).
@@ -10,7 +11,6 @@ from __future__ import annotations
 
 import argparse
 import contextlib
-import json
 import math
 import os
 import signal
@@ -127,11 +127,15 @@ def _main(argv: list[str] | None) -> int:
             result = run(args.paths, options)
     except RunInterrupted as stop:
         return _interrupted(stop)
+    if args.command == "check":
+        from .outcome import require_checks
+        result = require_checks(result)
     for file in result.files:
         for message in file.errors:
             print(f"tauproof: {message}", file=sys.stderr)
     if args.json:
-        print(json.dumps(result.to_json(), indent=2))
+        from .report import jsonout
+        sys.stdout.write(jsonout.render(result))
     code = result.exit_code
     if args.command == "check":
         if not _finish_check(args, result):
@@ -189,7 +193,8 @@ def _finish_check(args, result) -> bool:
     """Reports and the console table of a check run; False when the reports could not be written
     (the message, naming the folder, is on stderr; the table is still printed)."""
     from .report import write_all
-    from .report.console import render_failures, render_summary
+    from .report.console import (render_failures, render_findings, render_summary,
+                                  render_warnings)
     ok, written = True, []
     if not args.no_report:
         try:
@@ -199,9 +204,9 @@ def _finish_check(args, result) -> bool:
                   f"{err}", file=sys.stderr)
             ok = False
     if not args.json:
-        table = render_failures(result)
-        if table:
-            print(table)
+        for text in (render_failures(result), render_findings(result), render_warnings(result)):
+            if text:
+                print(text)
         print(render_summary(result))
         main_files = [p for p in written if p.parent == Path(args.report_dir)]
         if main_files:

@@ -19,10 +19,11 @@ from .compare_signoff import (dominant_json, engine_message, hand_relative, sign
 from .diagnose import explain
 from .findings import findings
 from .model import FIELDS, Circuit, Expectation, Probe, NODE, BETWEEN, ACROSS
-from .outcome import (ENGINES_DISAGREE, FINDING, MISMATCH, PASS, CheckResult, FieldResult, FileResult,
-                      Trace, worst)
+from .outcome import (ENGINES_DISAGREE, FINDING, MISMATCH, PASS, CheckResult, FieldResult,
+                      FileResult, Trace, worst)
 from .results import Features, Solution
-from .units import format_si
+from .schedule import schedule
+from .units import format_exact
 
 #: plot and waveform-comparison grid size per check
 GRID_POINTS = 400
@@ -103,7 +104,8 @@ def compare_field(name: str, exp: Expectation, fe: Features, fn: Features | None
         message = explain(name, hand, exp, fe, ctx)
     return FieldResult(name=name, hand=hand, closed_form=closed, numeric=numeric,
                        verdict=verdict, unit=unit, message=message,
-                       formula=exp.formulas.get(name, ""), tolerance=relative)
+                       formula=exp.formulas.get(name, ""), tolerance=relative,
+                       floor=tol.ENGINE_FLOOR * floor)
 
 
 class CheckContext:
@@ -154,7 +156,7 @@ def _with_marks(trace: Trace, fields, dominant, t_k: float, final: float | None)
     for f in fields:
         if f.name == "crossing":
             level = f.extra["level"]
-            levels.append((f"level {format_si(level, trace.unit)}", level))
+            levels.append((f"level {format_exact(level, trace.unit)}", level))
             if f.extra.get("at") is not None:
                 marks.append(("crossing", f.extra["at"], f.extra["level"]))
         elif f.name == "peak" and f.extra.get("at") is not None:
@@ -184,11 +186,13 @@ def make_trace(ctx: CheckContext, exp: Expectation, fe: Features) -> Trace:
                     float(np.ptp(closed)), tol.WAVEFORM_SWING_FLOOR * ctx.scale, 1e-300)
         deviation = float(np.nanmax(np.abs(numeric_x - closed)) / swing)
     hand_t, hand_x = _hand_curve(exp, fe, t)
+    events = ctx.circuit.events
     return Trace(unit=exp.probe.dimension, numeric_t=numeric_t, numeric_x=numeric_x,
                  closed_t=t, closed_x=closed, hand_t=hand_t, hand_x=hand_x,
-                 event=ctx.circuit.events[ctx.k], before=snap_zero(fe.before, ctx.scale),
+                 event=events[ctx.k], before=snap_zero(fe.before, ctx.scale),
                  after=snap_zero(fe.after, ctx.scale),
-                 deviation=deviation)
+                 deviation=deviation, scale=ctx.scale,
+                 next_event=events[ctx.k + 1] if ctx.k + 1 < len(events) else None)
 
 
 def _hand_curve(exp: Expectation, fe: Features, t: np.ndarray):
@@ -211,12 +215,15 @@ def compare_file(circuit: Circuit, exact: Solution, numeric: Solution | None,
                      if w not in exact.warnings]
     found = findings(circuit, exact, numeric)
     open_findings = [FINDING for f in found if not f.acknowledged]
+    probes = list(dict.fromkeys(exp.probe for exp in circuit.expectations))
     return FileResult(file=circuit.source, title=circuit.title,
                       verdict=worst([c.verdict for c in checks] + open_findings), checks=checks,
                       findings=tuple(f.to_json() for f in found),
                       warnings=tuple(warnings), cautions=cautions,
                       jumps=tuple(_jump_json(exact, k) for k in range(len(circuit.events))),
-                      seconds=seconds)
+                      seconds=seconds,
+                      schedule=schedule(circuit, exact, numeric, probes,
+                                        [probe_scale(circuit, exact, p) for p in probes]))
 
 
 def _jump_json(exact: Solution, k: int) -> dict:

@@ -22,7 +22,7 @@ from .model import (CURRENT_SOURCE, RESISTOR, SIGNOFF_FIELDS, SWITCH, THROUGH, V
                     Expectation, Probe)
 from .outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
 from .results import DominantTau, Features
-from .units import format_si
+from .units import exact_digits, format_apart, format_exact, format_si
 
 if TYPE_CHECKING:  # pragma: no cover
     from .compare import CheckContext
@@ -41,8 +41,9 @@ def hand_relative(exp: Expectation, ctx: "CheckContext") -> float:
 
 def engine_message(closed, numeric, unit: str) -> str:
     """The message of an engines-disagree verdict."""
-    return (f"the closed form gives {format_si(closed, unit)} but the numerical engine gives "
-            f"{format_si(numeric, unit)}: an engine problem, not a hand-calculation error")
+    closed_text, numeric_text = format_apart([closed, numeric], unit)
+    return (f"the closed form gives {closed_text} but the numerical engine gives "
+            f"{numeric_text}: an engine problem, not a hand-calculation error")
 
 
 def tau_scale(fe: Features, ctx: "CheckContext") -> float:
@@ -112,10 +113,7 @@ def compare_crossing(exp: Expectation, fe: Features, ctx: "CheckContext") -> Fie
         verdict, message = ENGINES_DISAGREE, engine_message(ce.time, cn.time, "s")
     elif ce.time is None:
         verdict = MISMATCH
-        message = (f"never crosses {format_si(want.level, unit)}"
-                   f"{'' if want.direction == 'either' else ' ' + want.direction}: heads to "
-                   f"{format_si(ce.approaches, unit)}" if ce.approaches is not None else
-                   f"never crosses {format_si(want.level, unit)} (the response does not settle)")
+        message = never_crosses(want, ce.approaches, unit)
     elif want.time is not None and not tol.agree(want.time, ce.time, hand_relative(exp, ctx),
                                                  tol.CROSSING_HAND_FLOOR * scale_t):
         verdict = MISMATCH
@@ -145,6 +143,17 @@ def compare_crossing(exp: Expectation, fe: Features, ctx: "CheckContext") -> Fie
                        extra=extra)
 
 
+def never_crosses(want, approaches: float | None, unit: str) -> str:
+    """``never crosses 1.79978 V rising: heads to 1.8 V`` (the level as written, the value it
+    heads to with the digits that tell them apart)."""
+    way = "" if want.direction == "either" else " " + want.direction
+    if approaches is None:
+        return f"never crosses {format_exact(want.level, unit)}{way} (the response does not settle)"
+    level, heads = format_apart([want.level, approaches], unit,
+                                digits=exact_digits(want.level))
+    return f"never crosses {level}{way}: heads to {heads}"
+
+
 def _crossing_engines_agree(te, tn, ctx, t_k: float, scale_t: float) -> bool:
     if te is None or tn is None:
         return te is None and tn is None
@@ -156,8 +165,8 @@ def _crossing_engines_agree(te, tn, ctx, t_k: float, scale_t: float) -> bool:
 
 def crossing_hint(want, computed: float, fe: Features, t_k: float) -> str:
     """``crosses at 52 ms, not 69.3 ms (τ·ln(...) suggests ...)``."""
-    text = (f"crosses at {format_si(computed, 's')} after the event, not "
-            f"{format_si(want.time, 's')}")
+    computed_text, hand_text = format_apart([computed, want.time], "s")
+    text = f"crosses at {computed_text} after the event, not {hand_text}"
     hints = []
     if t_k > 0 and tol.agree(want.time, t_k + computed, 0.01):
         hints.append(f"your time fits t = {format_si(t_k + computed, 's')} from t = 0; crossing "
@@ -206,7 +215,7 @@ def compare_peak(exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldRe
     return FieldResult(name="peak", hand=hand, closed_form=pe.magnitude, numeric=numeric,
                        verdict=verdict, unit=unit, message=message,
                        formula=exp.formulas.get("peak", ""), tolerance=hand_relative(exp, ctx),
-                       extra=extra)
+                       extra=extra, floor=tol.ENGINE_FLOOR * ctx.scale)
 
 
 def peak_hint(hand: float, pe, fe: Features, unit: str, relative: float, scale: float) -> str:
@@ -214,8 +223,8 @@ def peak_hint(hand: float, pe, fe: Features, unit: str, relative: float, scale: 
     when = ("as t → ∞ (the final value)" if pe.time is None else
             "just after the event, x(t_k+)" if pe.time == 0 else
             f"at {format_si(pe.time, 's')} after the event")
-    text = (f"the largest magnitude is {format_si(pe.magnitude, unit)} {when}, not "
-            f"{format_si(hand, unit)}")
+    computed_text, hand_text = format_apart([pe.magnitude, hand], unit)
+    text = f"the largest magnitude is {computed_text} {when}, not {hand_text}"
     floor = tol.HAND_FLOOR * scale
     if fe.final is not None and pe.time is not None and \
             tol.agree(hand, abs(fe.final), relative, floor):
@@ -318,12 +327,13 @@ def compare_energy(exp: Expectation, fe: Features, ctx: "CheckContext") -> Field
                          " plus the jump's loss where the part carries its impulse"}
     return FieldResult(name="energy", hand=want.value, closed_form=ee.energy, numeric=numeric,
                        verdict=verdict, unit="J", message=message, formula=want.formula,
-                       tolerance=hand_relative(exp, ctx), extra=extra)
+                       tolerance=hand_relative(exp, ctx), extra=extra, floor=floor)
 
 
 def energy_hint(hand: float, ee, ctx: "CheckContext") -> str:
     """The hand energy against the computed one, with the stored-energy change beside it."""
-    text = f"hand {format_si(hand, 'J')}, closed form {format_si(ee.energy, 'J')}"
+    hand_text, closed_text = format_apart([hand, ee.energy], "J")
+    text = f"hand {hand_text}, closed form {closed_text}"
     jump, nxt = ctx.exact.jump(ctx.k), None
     if ctx.k + 1 < len(ctx.circuit.events):
         nxt = ctx.exact.jump(ctx.k + 1)

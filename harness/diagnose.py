@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING
 from . import tolerances as tol
 from .model import CAPACITOR, INDUCTOR, Expectation
 from .results import Features
-from .units import format_si
+from .units import format_apart, format_si
 
 if TYPE_CHECKING:  # pragma: no cover
     from .compare import CheckContext
@@ -26,8 +26,8 @@ def explain(name: str, hand: float, exp: Expectation, fe: Features, ctx: "CheckC
     if computed is None:
         return _undefined(name, hand, fe, ctx)
     relative = exp.tolerance if exp.tolerance is not None else ctx.circuit.settings.tolerance
-    base = (f"hand {format_si(hand, unit)}, closed form {format_si(computed, unit)} "
-            f"({_percent(hand, computed)})")
+    hand_text, computed_text = format_apart([hand, computed], unit)
+    base = f"hand {hand_text}, closed form {computed_text} ({_percent(hand, computed)})"
     floor = tol.HAND_FLOOR * ctx.scale
     for rule in (_sign_rule, _jump_rule, _trapped_rule, _thevenin_rule):
         hint = rule(name, hand, computed, fe, ctx, relative, floor)

@@ -6,7 +6,7 @@ All values are SI base-unit floats or None.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
 import numpy as np
@@ -15,11 +15,15 @@ PASS = "pass"
 MISMATCH = "mismatch"
 ENGINES_DISAGREE = "engines-disagree"
 ERROR = "error"
+#: a file ``check`` read and solved but that holds nothing to check (no ``[[expect]]`` block)
+UNCHECKED = "unchecked"
 #: a file with a finding it does not acknowledge (harness.findings): an open node, an
 #: interrupted coil current, unbounded growth
 FINDING = "finding"
 #: worst last: the overall verdict of several is the worst of them
-VERDICT_ORDER = (PASS, MISMATCH, ENGINES_DISAGREE, FINDING, ERROR)
+VERDICT_ORDER = (PASS, UNCHECKED, MISMATCH, ENGINES_DISAGREE, FINDING, ERROR)
+#: the message of an unchecked file
+NOTHING_CHECKED = "no [[expect]] blocks: nothing was checked"
 
 
 def worst(verdicts) -> str:
@@ -46,6 +50,9 @@ class FieldResult:
     formula: str = ""
     tolerance: float | None = None
     extra: Mapping[str, Any] = field(default_factory=dict)
+    #: the probe's noise floor in the field's unit: engine values below it are rounding noise
+    #: (the absolute floor the engines are compared with; 0 where there is none)
+    floor: float = 0.0
 
     def to_json(self) -> dict[str, Any]:
         out: dict[str, Any] = {"hand": self.hand, "closed_form": self.closed_form,
@@ -81,6 +88,33 @@ class Trace:
     #: the one-τ curve of the dominant (zero-value) time constant, absolute times
     estimate_t: np.ndarray | None = None
     estimate_x: np.ndarray | None = None
+    #: the next event's time (s) or None for the last interval: the curves past it show the
+    #: interval continued with its sources held, which the circuit never does
+    next_event: float | None = None
+    #: the probe's scale (its unit): the largest magnitude it takes, as for the tolerances
+    scale: float = 0.0
+
+
+@dataclass(frozen=True)
+class ProbeSchedule:
+    """One probe over the whole schedule: each interval from its event to the next (the last
+    until it settles), closed form and numeric on the same absolute times (s); an event's time
+    appears twice, at the end of one interval and the start of the next, so jumps are drawn."""
+
+    probe: str
+    unit: str
+    t: np.ndarray
+    closed_x: np.ndarray
+    numeric_x: np.ndarray | None
+    scale: float
+
+
+@dataclass(frozen=True)
+class Schedule:
+    """Every probe of a file across every event (s), for the reports' whole-schedule plot."""
+
+    events: tuple[float, ...]
+    probes: tuple[ProbeSchedule, ...]
 
 
 @dataclass(frozen=True)
@@ -126,13 +160,20 @@ class FileResult:
     seconds: float = 0.0
     #: harness.findings.Finding.to_json() of each finding, acknowledged ones included
     findings: tuple[dict, ...] = ()
+    #: what the file's verdict rests on beside its checks (``NOTHING_CHECKED``)
+    messages: tuple[str, ...] = ()
+    #: every probe of the file across the whole schedule, for the reports' schedule plot
+    schedule: Schedule | None = None
 
     def to_json(self) -> dict[str, Any]:
-        return {"file": self.file, "title": self.title, "verdict": self.verdict,
-                "findings": list(self.findings),
-                "warnings": list(self.warnings), "errors": list(self.errors),
-                "cautions": list(self.cautions), "jumps": list(self.jumps),
-                "checks": [c.to_json() for c in self.checks]}
+        out = {"file": self.file, "title": self.title, "verdict": self.verdict,
+               "findings": list(self.findings),
+               "warnings": list(self.warnings), "errors": list(self.errors),
+               "cautions": list(self.cautions), "jumps": list(self.jumps),
+               "checks": [c.to_json() for c in self.checks]}
+        if self.messages:
+            out["messages"] = list(self.messages)
+        return out
 
 
 @dataclass(frozen=True)
@@ -147,10 +188,19 @@ class RunResult:
 
     @property
     def exit_code(self) -> int:
-        """0 all pass, 1 any mismatch or engines-disagree, 2 any file that could not be analysed."""
+        """0 all pass, 1 any mismatch, engines-disagree or unchecked file, 2 any file that could
+        not be analysed."""
         if any(f.verdict == ERROR for f in self.files):
             return 2
         return 0 if self.verdict == PASS else 1
 
     def to_json(self) -> dict[str, Any]:
         return {"verdict": self.verdict, "files": [f.to_json() for f in self.files]}
+
+
+def require_checks(run: RunResult) -> RunResult:
+    """``run`` with every file that was analysed but holds no ``[[expect]]`` block made
+    ``unchecked`` (with ``NOTHING_CHECKED``): for ``check`` nothing checked is not a pass."""
+    files = tuple(replace(f, verdict=UNCHECKED, messages=f.messages + (NOTHING_CHECKED,))
+                  if not f.checks and f.verdict == PASS else f for f in run.files)
+    return RunResult(files=files)

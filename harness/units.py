@@ -148,13 +148,16 @@ def format_si(value: float | None, unit: str = "", digits: int = 4) -> str:
     """Format ``value`` (SI base units) with an engineering prefix: ``format_si(0.0047, "F")`` -> ``4.7 mF``.
 
     ``unit`` is a dimension name or symbol (``"ohm"`` prints as Ω); ``None`` prints as ``—``.
+    The value is rounded to ``digits`` significant digits before the prefix is chosen, so
+    0.99997e-3 J prints as ``1 mJ``, never ``1000 µJ``.
     """
     if value is None:
         return "—"
     symbol = _SYMBOL.get(unit, unit)
     if value == 0 or not math.isfinite(value):
         return f"{value:g} {symbol}".rstrip()
-    mag = abs(value)
+    rounded = float(f"{value:.{digits}g}")
+    mag = abs(rounded)
     if mag < 1e-15 * 0.9999995 or mag >= 1e15:
         return f"{value:.{digits}g} {symbol}".rstrip()
     for scale, prefix in _ENG:
@@ -162,5 +165,46 @@ def format_si(value: float | None, unit: str = "", digits: int = 4) -> str:
             break
     else:
         scale, prefix = _ENG[-1]
-    text = f"{value / scale:.{digits}g}"
+    text = f"{rounded / scale:.{digits}g}"
     return f"{text} {prefix}{symbol}".rstrip()
+
+
+#: most significant digits ``format_apart`` and ``format_exact`` use (a double holds about 16)
+MOST_DIGITS = 12
+
+
+def exact_digits(value: float | None, digits: int = 4) -> int:
+    """The significant digits (at least ``digits``, at most ``MOST_DIGITS``) at which ``value``
+    reads back exactly: 6 for 1.79978."""
+    n = digits
+    if value is None or not math.isfinite(value):
+        return n
+    while n < MOST_DIGITS and float(f"{value:.{n}g}") != value:
+        n += 1
+    return n
+
+
+def format_exact(value: float | None, unit: str = "", digits: int = 4) -> str:
+    """``format_si`` with the digits the value needs to read back exactly (``exact_digits``): a
+    threshold written 1.79978 V prints as such, not as 1.8 V."""
+    return format_si(value, unit, exact_digits(value, digits))
+
+
+def format_apart(values, unit: str = "", digits: int = 4, apart=None) -> list[str]:
+    """``format_si`` of each value with the fewest significant digits, from ``digits`` up to
+    ``MOST_DIGITS``, at which every two values that ``apart(a, b)`` calls different print
+    differently (default: any two values that are not equal).  Nones print as ``—``.
+
+    Values in SI base units; ``apart`` takes two floats and returns a bool.
+    """
+    values = list(values)
+    if apart is None:
+        def apart(a, b):
+            return a != b
+    pairs = [(i, j) for i in range(len(values)) for j in range(i + 1, len(values))
+             if values[i] is not None and values[j] is not None and apart(values[i], values[j])]
+    for n in range(digits, MOST_DIGITS + 1):
+        texts = [format_si(v, unit, n) for v in values]
+        if all(texts[i] != texts[j] for i, j in pairs):
+            return texts
+    return texts

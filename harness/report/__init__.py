@@ -1,9 +1,9 @@
 """The report writers: console text, summary.csv, results.json, report.md, report.html, junit.xml.
 
 ``write_all(run, report_dir)`` writes every report file for one run, each atomically (temporary
-file in the same folder, then ``os.replace``), plus one PNG per check with a trace under
-``report_dir/plots/`` (named ``<file number>-<sanitised title>-c<check>.png``; untrusted titles
-cannot leave the folder).  The HTML embeds the same plots as data URIs; the Markdown links the
+file in the same folder, then ``os.replace``), plus one PNG per check with a trace and one
+whole-schedule PNG per file under ``report_dir/plots/`` (named ``<file number>-<sanitised
+title>-c<check>.png`` and ``…-schedule.png``; untrusted titles cannot leave the folder).  The HTML embeds the same plots as data URIs; the Markdown links the
 PNG files.  Failures to write raise ``ReportError`` (an ``OSError``).
 """
 
@@ -15,6 +15,7 @@ from pathlib import Path
 
 from ..outcome import RunResult
 from . import csvout, html, jsonout, junit, markdown, plots
+from .plot_schedule import SCHEDULE, plot_schedule
 from .atomic import ReportError, ensure_dir, inside, safe_name, write_atomic
 
 __all__ = ["REPORT_FILES", "ReportError", "render_plots", "write_all"]
@@ -23,16 +24,19 @@ __all__ = ["REPORT_FILES", "ReportError", "render_plots", "write_all"]
 REPORT_FILES = ("report.html", "report.md", "summary.csv", "results.json", "junit.xml")
 PLOT_DIR = "plots"
 #: names this package gives plot files; older ones matching it are removed from plots/
-_PLOT_NAME = re.compile(r"^\d{3,}-[A-Za-z0-9_-]+-c\d+\.png$")
+_PLOT_NAME = re.compile(r"^\d{3,}-[A-Za-z0-9_-]+-(c\d+|schedule)\.png$")
 
 
 def _plot_one(item):
-    """(key, check, file name) -> (key, PNG bytes or None, warning text or None)."""
-    key, check, file = item
+    """(key, check or file, file name) -> (key, PNG bytes or None, warning text or None)."""
+    key, what, file = item
     try:
-        return key, plots.plot_check(check), None
+        if key[1] == SCHEDULE:
+            return key, plot_schedule(what), None
+        return key, plots.plot_check(what), None
     except Exception as exc:  # a bad trace must not cost the whole report
-        return key, None, f"{file}: no plot for check #{check.index + 1}: {exc}"
+        name = "the schedule" if key[1] == SCHEDULE else f"check #{what.index + 1}"
+        return key, None, f"{file}: no plot for {name}: {exc}"
 
 
 #: fewer plots than this are drawn in this process even when jobs > 1
@@ -40,13 +44,16 @@ PARALLEL_PLOTS = 16
 
 
 def render_plots(run: RunResult, jobs: int = 1) -> dict[tuple[int, int], bytes]:
-    """(file index, check index) -> PNG bytes for every check that carries a trace.
+    """(file index, check index) -> PNG bytes for every check that carries a trace, and
+    (file index, ``SCHEDULE``) -> the file's whole-schedule plot.
 
     With ``jobs`` > 1 and many plots they are drawn in worker processes (drawing is most of a
     report's cost: ~0.1 s a plot); the result is the same.
     """
-    items = [((i, check.index), check, file.file) for i, file in enumerate(run.files)
-             for check in file.checks]
+    items = []
+    for i, file in enumerate(run.files):
+        items.append(((i, SCHEDULE), file, file.file))
+        items += [((i, check.index), check, file.file) for check in file.checks]
     if jobs > 1 and len(items) >= PARALLEL_PLOTS:
         from concurrent.futures import ProcessPoolExecutor
         with ProcessPoolExecutor(max_workers=jobs) as pool:
@@ -62,12 +69,13 @@ def render_plots(run: RunResult, jobs: int = 1) -> dict[tuple[int, int], bytes]:
     return out
 
 
-def plot_name(run: RunResult, key: tuple[int, int]) -> str:
-    """The plot's file name: ``003-logger-board-reset-c2.png`` (sanitised, inside the folder)."""
+def plot_name(run: RunResult, key: tuple[int, int | str]) -> str:
+    """The plot's file name: ``003-logger-board-reset-c2.png``, ``003-logger-board-reset-
+    schedule.png`` (sanitised, inside the folder)."""
     i, index = key
     file = run.files[i]
     stem = safe_name(file.title or Path(file.file).stem)
-    return f"{i + 1:03d}-{stem}-c{index + 1}.png"
+    return f"{i + 1:03d}-{stem}-{SCHEDULE if index == SCHEDULE else f'c{index + 1}'}.png"
 
 
 def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,

@@ -51,9 +51,15 @@ def cautions_for(circuit: Circuit, *, voltages: Iterable[float] = (), jumps: Ite
     peak, where = _highest_voltage(circuit, voltages)
     stored = _stored_energies(circuit, peak, jumps)
     hot = {name: (joules, how) for name, (joules, how) in stored.items() if joules > HAZARD_ENERGY}
-    if peak <= HAZARD_VOLTAGE and not hot:
+    cut = [j for j in jumps if getattr(j, "forced", None) and getattr(j, "opened", ())]
+    if peak <= HAZARD_VOLTAGE and not hot and not cut:
         return ()
     notes: list[str] = []
+    if cut:
+        notes.append("Interrupted coil current: opening a switch in series with an inductor "
+                     "gives a voltage spike limited only by what breaks down (the switch, its "
+                     "insulation, a person touching the circuit); give every coil a flyback path "
+                     "(diode, snubber or clamp) rated for its current and stored energy.")
     if peak > HAZARD_VOLTAGE:
         notes.append(f"Hazardous voltage: the circuit reaches {format_si(peak, 'V')} ({where}), "
                      f"above the {format_si(HAZARD_VOLTAGE, 'V')} DC that common practice treats "

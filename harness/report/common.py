@@ -9,13 +9,15 @@ import math
 import re
 from typing import Any, Iterable, Mapping
 
-from ..outcome import ENGINES_DISAGREE, ERROR, MISMATCH, PASS, VERDICT_ORDER, CheckResult, \
-    FieldResult, FileResult, RunResult
-from ..units import format_si
+from .. import tolerances as tol
+from ..outcome import ENGINES_DISAGREE, ERROR, FINDING, MISMATCH, PASS, UNCHECKED, VERDICT_ORDER, \
+    CheckResult, FieldResult, FileResult, RunResult
+from ..units import format_apart, format_exact, format_si
 
 #: what each exit code means, for the summary line
 EXIT_MEANING = {0: "every check passed",
-                1: "a hand value or the engines need review",
+                1: "a hand value, the engines, a finding or a file with nothing checked need "
+                   "review",
                 2: "a file could not be analysed"}
 
 
@@ -48,7 +50,7 @@ def field_label(field: FieldResult) -> str:
     """
     extra = field.extra or {}
     if field.name == "crossing":
-        level = value(extra.get("level"), extra.get("level_unit", ""))
+        level = format_exact(extra.get("level"), extra.get("level_unit", ""))
         way = extra.get("direction", "either")
         return (f"crossing {level}{'' if way == 'either' else ' ' + way} "
                 f"(time after the event)")
@@ -70,6 +72,35 @@ def value(x: float | None, unit: str = "") -> str:
     if not math.isfinite(x):
         return f"{x}"
     return format_si(x, unit, digits=4)
+
+
+#: closed form vs numeric tolerance of each field (relative); ``ENGINE_RELATIVE`` otherwise
+_ENGINE_RELATIVE = {"energy": tol.ENERGY_ENGINE_RELATIVE, "dominant_tau": tol.DOMINANT_ENGINE}
+
+
+def field_values(field: FieldResult) -> list[str]:
+    """The field's hand, closed-form and numeric values as text, side by side.
+
+    Engine values below the field's noise floor (``FieldResult.floor``) print as 0; every value
+    gets the digits (4 or more) that keep two values apart that differ beyond the finer of the
+    hand and the engine tolerance, so a mismatch never reads ``180 µA`` against ``180 µA``.
+    """
+    unit = field_unit(field)
+    values = [field.hand] + [_noise_to_zero(v, field.floor)
+                             for v in (field.closed_form, field.numeric)]
+    relative = min(field.tolerance if field.tolerance is not None else tol.HAND_RELATIVE,
+                   _ENGINE_RELATIVE.get(field.name, tol.ENGINE_RELATIVE))
+
+    def apart(a: float, b: float) -> bool:
+        return not tol.agree(a, b, relative, field.floor)
+
+    texts = format_apart([v if v is None or math.isfinite(v) else None for v in values], unit,
+                         apart=apart)
+    return [text if v is None or math.isfinite(v) else f"{v}" for text, v in zip(texts, values)]
+
+
+def _noise_to_zero(x: float | None, floor: float) -> float | None:
+    return 0.0 if x is not None and math.isfinite(x) and abs(x) < floor else x
 
 
 def time(t: float | None) -> str:
@@ -137,14 +168,22 @@ def file_counts(run: RunResult) -> dict[str, int]:
 
 
 def summary_line(run: RunResult) -> str:
-    """One line: files, checks, counts per verdict and what the exit code means."""
+    """One line: files, checks, counts per verdict and what the exit code means.
+
+    A file that could not be analysed counts as one error (it has no checks to count), and a
+    file with nothing to check is named."""
     files, checks = file_counts(run), check_counts(run)
     n_checks = sum(checks.values())
-    per = ", ".join(f"{checks[v]} {v}" for v in (PASS, MISMATCH, ENGINES_DISAGREE, ERROR))
-    bad_files = files[ERROR]
+    errors = checks[ERROR] + sum(1 for f in run.files if f.verdict == ERROR and not f.checks)
+    counts = {**checks, ERROR: errors}
+    per = ", ".join(f"{counts[v]} {v}" for v in (PASS, MISMATCH, ENGINES_DISAGREE, ERROR))
     file_part = plural(len(run.files), "file")
-    if bad_files:
-        file_part += f" ({bad_files} could not be analysed)"
+    if files[ERROR]:
+        file_part += f" ({files[ERROR]} could not be analysed)"
+    if files[UNCHECKED]:
+        file_part += f" ({files[UNCHECKED]} with nothing checked)"
+    if files[FINDING]:
+        file_part += f" ({files[FINDING]} with findings to review)"
     code = run.exit_code
     return (f"{run.verdict.upper()}: {file_part}, {plural(n_checks, 'check')} — {per}; "
             f"exit {code}: {EXIT_MEANING[code]}")
@@ -157,9 +196,17 @@ def shown_fields(check: CheckResult) -> list[FieldResult]:
             if f.verdict != PASS or any(v is not None for v in (f.hand, f.closed_form, f.numeric))]
 
 
-def failing_fields(check: CheckResult) -> list[FieldResult]:
-    """The fields of ``check`` whose verdict is not pass."""
-    return [f for f in check.fields if f.verdict != PASS]
+def field_note(field: FieldResult) -> str:
+    """The message of a field that passed, as the check's messages hold it (``crossing: …``),
+    or ``""``: such a message is a note, never a reason for the check's verdict."""
+    return f"{field.name}: {field.message}" if field.message and field.verdict == PASS else ""
+
+
+def split_messages(check: CheckResult) -> tuple[list[str], list[str]]:
+    """(the check's messages that explain a verdict, the notes of its passing fields)."""
+    notes = {field_note(f) for f in check.fields} - {""}
+    messages = check_messages(check)
+    return [m for m in messages if m not in notes], [m for m in messages if m in notes]
 
 
 def check_messages(check: CheckResult) -> list[str]:
@@ -170,6 +217,14 @@ def check_messages(check: CheckResult) -> list[str]:
         if text and text not in out:
             out.append(text)
     return out
+
+
+def finding_lines(file: FileResult) -> list[str]:
+    """``finding: <text>`` for each finding that fails the file, then ``acknowledged finding:
+    <text>`` for each the file acknowledges (harness.findings)."""
+    open_ = [f"finding: {f['message']}" for f in file.findings if not f["acknowledged"]]
+    known = [f"acknowledged finding: {f['message']}" for f in file.findings if f["acknowledged"]]
+    return open_ + known
 
 
 def jump_lines(file: FileResult) -> list[str]:

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 from tabulate import tabulate
 
-from ..outcome import ERROR, PASS, CheckResult, FileResult, RunResult
+from ..outcome import PASS, CheckResult, FileResult, RunResult
 from . import common
 
 #: widest message column before tabulate wraps it
@@ -18,14 +18,14 @@ def render_failures(run: RunResult) -> str:
     """A table of every field (or check, or file) that did not pass; ``""`` when all passed.
 
     Columns: file, check, field, hand, closed form, numeric, verdict, message.  A failing check
-    without a failing field (a check-level message) gets one row with field ``—``; a file that
-    could not be analysed gets one row with its errors.
+    without a failing field (a check-level message) gets one row with field ``—``; a passing
+    field of a failing check that carries a note gets its row with verdict pass and the note; a
+    file with nothing to check gets one row saying so.  A file that could not be analysed has no
+    row: its message is on stderr and the summary counts it.
     """
     rows = []
     for file in run.files:
-        if file.verdict == ERROR and not file.checks:
-            rows.append([file.file, "—", "—", "", "", "", ERROR, "; ".join(file.errors)])
-            continue
+        rows += [[file.file, "—", "—", "", "", "", file.verdict, text] for text in file.messages]
         for check in file.checks:
             if check.verdict == PASS:
                 continue
@@ -40,19 +40,38 @@ def render_failures(run: RunResult) -> str:
 
 def _failure_rows(file: FileResult, check: CheckResult) -> list[list[str]]:
     label = common.check_label(check)
-    rows, names = [], []
-    for field in common.failing_fields(check):
-        names.append(field.name)
-        unit = common.field_unit(field)
-        rows.append([file.file, label, common.field_label(field), common.value(field.hand, unit),
-                     common.value(field.closed_form, unit), common.value(field.numeric, unit),
-                     field.verdict, field.message])
-    shown = {r[-1] for r in rows} | {f"{n}: {r[-1]}" for n, r in zip(names, rows)}
+    rows, shown = [], set()
+    for field in check.fields:
+        note = common.field_note(field)
+        if field.verdict == PASS and not note:
+            continue
+        shown |= {field.message, f"{field.name}: {field.message}"}
+        message = f"note: {field.message}" if note else field.message
+        rows.append([file.file, label, common.field_label(field), *common.field_values(field),
+                     field.verdict, message])
+    failing = [r for r in rows if r[6] != PASS]
     extra = [m for m in check.messages if m not in shown]
-    if extra or not rows:
+    if extra or not failing:
         rows.append([file.file, label, "—", "", "", "", check.verdict,
                      "; ".join(extra) or check.note])
     return rows
+
+
+def render_findings(run: RunResult) -> str:
+    """``finding: <file>: <text>`` for every file's findings (acknowledged ones marked);
+    ``""`` when there are none."""
+    lines = [f"{line.split(': ', 1)[0]}: {file.file}: {line.split(': ', 1)[1]}"
+             for file in run.files for line in common.finding_lines(file)]
+    return common.printable("\n".join(lines))
+
+
+def render_warnings(run: RunResult) -> str:
+    """``warning: <file>: <text>`` for every file's warnings, each once per file; ``""`` when
+    there are none."""
+    lines = []
+    for file in run.files:
+        lines += [f"warning: {file.file}: {text}" for text in dict.fromkeys(file.warnings)]
+    return common.printable("\n".join(lines))
 
 
 def render_summary(run: RunResult) -> str:
@@ -69,6 +88,7 @@ def render_solve(file_result: FileResult) -> str:
     """
     out = [f"{file_result.title or file_result.file}", f"file: {file_result.file}",
            f"verdict: {file_result.verdict}"]
+    out += common.finding_lines(file_result)
     for label, items in (("error", file_result.errors), ("warning", file_result.warnings),
                          ("caution", file_result.cautions)):
         out += [f"{label}: {text}" for text in items]
@@ -101,12 +121,9 @@ def _check_table(check: CheckResult) -> str:
     with_hand = any(f.hand is not None for f in check.fields)
     rows = []
     for field in common.shown_fields(check):
-        unit = common.field_unit(field)
-        row = [common.field_label(field)]
-        if with_hand:
-            row.append(common.value(field.hand, unit))
-        row += [common.value(field.closed_form, unit), common.value(field.numeric, unit),
-                field.verdict]
+        hand, closed, numeric = common.field_values(field)
+        row = [common.field_label(field)] + ([hand] if with_hand else [])
+        row += [closed, numeric, field.verdict]
         rows.append(row)
     headers = ["field"] + (["hand"] if with_hand else []) + ["closed form", "numeric", "verdict"]
     return tabulate(rows, headers=headers, tablefmt="simple", disable_numparse=True)

@@ -7,7 +7,8 @@ tolerance (fraction), formula, message, label (what a sign-off field means: cros
 direction with its time measured from the event, the part of an energy …).
 
 A file that could not be analysed and has no checks gets one row with an empty ``field``, verdict
-``error`` and its errors in ``message``, so every file appears.  Text cells that a spreadsheet
+``error`` and its errors in ``message``, and a file with nothing to check one row with verdict
+``unchecked`` and that message, so every file appears.  Text cells that a spreadsheet
 would run as a formula (starting with ``=``, ``+``, ``-``, ``@``, tab or CR) are prefixed with
 ``'`` (common practice against CSV formula injection); numeric columns are left as numbers.
 """
@@ -37,6 +38,8 @@ def frame(run: RunResult) -> pd.DataFrame:
         head = {"file": file.file, "title": file.title, "file_verdict": file.verdict}
         if not file.checks and file.verdict == ERROR:
             rows.append({**head, "verdict": ERROR, "message": "; ".join(file.errors)})
+        elif not file.checks and file.messages:
+            rows.append({**head, "verdict": file.verdict, "message": "; ".join(file.messages)})
         for check in file.checks:
             deviation = None if check.trace is None else check.trace.deviation
             base = {**head, "check": check.index + 1, "probe": check.probe,

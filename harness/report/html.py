@@ -3,8 +3,9 @@
 Nothing on the page is fetched: no scripts, no external style sheets or images, and a
 Content-Security-Policy that forbids loading anything but ``data:`` images.  Every piece of text
 goes through ``html.escape``.  Layout: overall summary and file list at the top; per file a header
-(file, verdict, cautions boxed first, errors, warnings, jumps), then per check its field table
-and facts beside its waveform plot.
+(file, verdict, cautions boxed first, errors, warnings, jumps) and its whole-schedule plot, then
+per check its field table and facts (failures in red, notes of passing fields apart) beside its
+waveform plot.
 """
 
 from __future__ import annotations
@@ -15,6 +16,7 @@ from typing import Mapping
 
 from ..outcome import PASS, CheckResult, FileResult, RunResult
 from . import common
+from .plot_schedule import SCHEDULE
 
 CSS = """
 body{font:14px/1.45 system-ui,-apple-system,"Segoe UI",Roboto,"DejaVu Sans",sans-serif;
@@ -29,6 +31,7 @@ td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
  white-space:nowrap}
 .v-pass{background:#e3f4e6;color:#17602a}.v-mismatch{background:#fde4e2;color:#a3221a}
 .v-engines-disagree{background:#fff0d4;color:#8a4b00}.v-error{background:#5c1a1a;color:#fff}
+.v-finding{background:#7a1f6e;color:#fff}.v-unchecked{background:#eceff1;color:#37474f}
 tr.bad td{background:#fff8f7}
 .check{display:flex;flex-wrap:wrap;gap:16px;align-items:flex-start;margin:14px 0;padding:10px;
  border:1px solid #e0e0e0;border-left:5px solid #9e9e9e;border-radius:4px}
@@ -39,7 +42,8 @@ tr.bad td{background:#fff8f7}
 .caution{border:2px solid #c77700;background:#fff6e0;padding:8px 12px;margin:8px 0;
  border-radius:4px}.caution strong{color:#8a4b00}
 .errors{border:2px solid #a3221a;background:#fdecea;padding:6px 12px;margin:8px 0}
-ul{margin:4px 0;padding-left:22px}.msg{color:#a3221a;font-weight:600}
+ul{margin:4px 0;padding-left:22px}.msg{color:#a3221a;font-weight:600}.notes{color:#444}
+.v-unchecked{background:#fde4e2;color:#a3221a}.check.c-unchecked{border-left-color:#c62828}
 """
 
 _CSP = "default-src 'none'; img-src data:; style-src 'unsafe-inline'"
@@ -55,7 +59,8 @@ def badge(verdict: str) -> str:
 
 
 def render(run: RunResult, plots: Mapping[tuple[int, int], bytes] | None = None) -> str:
-    """The HTML page.  ``plots`` maps (file index, check index) to PNG bytes."""
+    """The HTML page.  ``plots`` maps (file index, check index) to PNG bytes, and (file index,
+    ``SCHEDULE``) to the file's whole-schedule plot."""
     plots = plots or {}
     body = ["<h1>tauproof discrepancy report</h1>",
             f'<p class="summary">{badge(run.verdict)} {esc(common.summary_line(run))}</p>',
@@ -89,12 +94,17 @@ def _file_section(i: int, file: FileResult, plots) -> str:
            f"<h2>{i + 1}. {esc(file.title or file.file)} {badge(file.verdict)}</h2>",
            f'<p class="meta">file {esc(file.file)} · {common.plural(len(file.checks), "check")}'
            f' · {file.seconds:.2f} s</p>']
+    findings = common.finding_lines(file)
+    if findings:
+        out.append('<div class="errors"><strong>Findings</strong><ul>'
+                   + "".join(f"<li>{esc(f)}</li>" for f in findings) + "</ul></div>")
     if file.cautions:
         out.append('<div class="caution"><strong>⚠ Safety cautions</strong><ul>'
                    + "".join(f"<li>{esc(c)}</li>" for c in file.cautions) + "</ul></div>")
-    if file.errors:
-        out.append('<div class="errors"><strong>Errors</strong><ul>'
-                   + "".join(f"<li>{esc(e)}</li>" for e in file.errors) + "</ul></div>")
+    for label, items in (("Errors", file.errors), ("Not checked", file.messages)):
+        if items:
+            out.append(f'<div class="errors"><strong>{label}</strong><ul>'
+                       + "".join(f"<li>{esc(e)}</li>" for e in items) + "</ul></div>")
     if file.warnings:
         out.append("<p><strong>Warnings</strong></p><ul>"
                    + "".join(f"<li>{esc(w)}</li>" for w in file.warnings) + "</ul>")
@@ -103,6 +113,9 @@ def _file_section(i: int, file: FileResult, plots) -> str:
         out.append("<p><strong>Jumps</strong> (charge moved, energy dissipated)</p><ul>"
                    + "".join(f"<li>{esc(j)}</li>" for j in jumps) + "</ul>")
     out.append(_stored_table(file))
+    schedule = plots.get((i, SCHEDULE))
+    if schedule:
+        out.append(_image(schedule, f"whole schedule of {file.title or file.file}"))
     for check in file.checks:
         out.append(_check_block(check, plots.get((i, check.index))))
     out.append("</section>")
@@ -119,19 +132,22 @@ def _check_block(check: CheckResult, png: bytes | None) -> str:
     if check.dominant is not None and check.dominant.get("tau"):
         facts.append(f'<p class="meta">{esc(common.dominant_text(check))}</p>')
     facts.append(_field_table(check))
-    messages = common.check_messages(check)
-    if messages:
-        cls = ' class="msg"' if check.verdict != PASS else ""
-        facts.append(f"<ul{cls}>" + "".join(f"<li>{esc(m)}</li>" for m in messages) + "</ul>")
+    failing, notes = common.split_messages(check)
+    for cls, items in (("msg" if check.verdict != PASS else "notes", failing), ("notes", notes)):
+        if items:
+            facts.append(f'<ul class="{cls}">' + "".join(f"<li>{esc(m)}</li>" for m in items)
+                         + "</ul>")
     if check.note:
         facts.append(f'<p class="meta">note: {esc(check.note)}</p>')
-    plot = ""
-    if png:
-        data = base64.b64encode(png).decode("ascii")
-        plot = (f'<div class="plot"><img src="data:image/png;base64,{data}" '
-                f'alt="waveform of {esc(common.check_label(check))}"></div>')
+    plot = _image(png, f"waveform of {common.check_label(check)}") if png else ""
     return (f'<div class="check c-{esc(check.verdict)}"><div class="facts">' + "".join(facts)
             + "</div>" + plot + "</div>")
+
+
+def _image(png: bytes, alt: str) -> str:
+    """A plot as an inline data-URI image."""
+    data = base64.b64encode(png).decode("ascii")
+    return f'<div class="plot"><img src="data:image/png;base64,{data}" alt="{esc(alt)}"></div>'
 
 
 def _stored_table(file: FileResult) -> str:
@@ -154,13 +170,10 @@ def _field_table(check: CheckResult) -> str:
             + "</tr>")
     rows = []
     for field in common.shown_fields(check):
-        unit = common.field_unit(field)
         cls = "" if field.verdict == PASS else ' class="bad"'
         rows.append(f"<tr{cls}><td>{esc(common.field_label(field))}</td>"
-                    f'<td class="num">{esc(common.value(field.hand, unit))}</td>'
-                    f'<td class="num">{esc(common.value(field.closed_form, unit))}</td>'
-                    f'<td class="num">{esc(common.value(field.numeric, unit))}</td>'
-                    f'<td class="num">{esc(common.tolerance_text(field))}</td>'
+                    + "".join(f'<td class="num">{esc(v)}</td>' for v in common.field_values(field))
+                    + f'<td class="num">{esc(common.tolerance_text(field))}</td>'
                     f"<td>{badge(field.verdict)}</td>"
                     + (f"<td>{esc(field.formula)}</td>" if formulas else "") + "</tr>")
     return f"<table>{head}{''.join(rows)}</table>"

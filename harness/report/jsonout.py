@@ -1,7 +1,10 @@
-"""results.json: ``RunResult.to_json()``, the same document ``--json`` prints (DESIGN.md contract).
+"""The one JSON writer: results.json and ``--json`` on stdout are the same bytes of
+``RunResult.to_json()`` (DESIGN.md contract).
 
 Strict JSON: non-finite floats (NaN, ±inf) become ``null`` and numpy scalars plain numbers, so
-every JSON parser reads the file.
+every JSON parser reads it (``allow_nan=False`` makes a value that slipped through an error, not
+an ``Infinity``).  Non-ASCII characters are escaped (``\\u00b5``), so the text is the same
+whatever the console's encoding.
 """
 
 from __future__ import annotations
@@ -21,8 +24,8 @@ def document(run: RunResult) -> dict[str, Any]:
 
 
 def render(run: RunResult) -> str:
-    """The JSON text, indented, UTF-8 characters kept, with a final newline."""
-    return json.dumps(document(run), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    """The JSON text, indented, ASCII (other characters escaped), with a final newline."""
+    return json.dumps(document(run), indent=2, allow_nan=False) + "\n"
 
 
 def _clean(obj: Any) -> Any:

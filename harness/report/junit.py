@@ -6,7 +6,8 @@ The layout CI systems read (the common JUnit XML convention): ``testsuites`` > `
 verdict is ``mismatch`` or ``engines-disagree`` carries a ``failure`` (type = the verdict,
 message = its first message, text = every message and the field table); a check with verdict
 ``error`` carries an ``error``.  A file that could not be analysed gets a single testcase
-``analyse`` with an ``error`` holding the file's errors.  Characters XML 1.0 forbids are dropped.
+``analyse`` with an ``error`` holding the file's errors; a file with nothing to check a single
+testcase ``expectations`` with a ``failure`` saying so (CI must not read 0 tests as a pass).  Characters XML 1.0 forbids are dropped.
 """
 
 from __future__ import annotations
@@ -53,20 +54,33 @@ def _suite(file: FileResult) -> ET.Element:
         text = "\n".join(file.errors) or "the file could not be analysed"
         ET.SubElement(case, "error", type=ERROR, message=_x(text.splitlines()[0])).text = _x(text)
         errors += 1
+    elif not cases and file.messages:
+        case = ET.SubElement(suite, "testcase", classname=classname, name="expectations")
+        text = "\n".join(file.messages)
+        ET.SubElement(case, "failure", type=file.verdict,
+                      message=_x(file.messages[0])).text = _x(text)
+        failures += 1
+    found = [f["message"] for f in file.findings if not f["acknowledged"]]
+    if found:
+        case = ET.SubElement(suite, "testcase", classname=classname, name="findings")
+        ET.SubElement(case, "failure", type="finding",
+                      message=_x(found[0])).text = _x("\n".join(found))
+        failures += 1
     for check in cases:
         case = ET.SubElement(suite, "testcase", classname=classname,
                              name=_x(common.check_label(check)))
         if check.verdict == PASS:
             continue
         tag = "error" if check.verdict == ERROR else "failure"
-        messages = common.check_messages(check) or [check.verdict]
+        failing, notes = common.split_messages(check)
+        messages = failing + [f"note: {m}" for m in notes] or [check.verdict]
         ET.SubElement(case, tag, type=check.verdict,
                       message=_x(messages[0])).text = _x(_details(check, messages))
         if tag == "error":
             errors += 1
         else:
             failures += 1
-    suite.set("tests", str(max(len(cases), 1 if file.verdict == ERROR else 0)))
+    suite.set("tests", str(max(len(cases) + bool(found), errors + failures)))
     suite.set("failures", str(failures))
     suite.set("errors", str(errors))
     if file.warnings:
@@ -82,8 +96,7 @@ def _details(check: CheckResult, messages: list[str]) -> str:
     lines.append(common.modes_text(check))
     lines += messages
     for field in check.fields:
-        unit = common.field_unit(field)
-        lines.append(f"{field.name}: hand {common.value(field.hand, unit)}, closed form "
-                     f"{common.value(field.closed_form, unit)}, numeric "
-                     f"{common.value(field.numeric, unit)} -> {field.verdict}")
+        hand, closed, numeric = common.field_values(field)
+        lines.append(f"{field.name}: hand {hand}, closed form {closed}, numeric {numeric} -> "
+                     f"{field.verdict}")
     return "\n".join(lines)

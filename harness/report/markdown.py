@@ -1,8 +1,9 @@
 """report.md: the discrepancy report as Markdown (GitHub-flavoured tables).
 
 An overall summary and the list of files at the top; per file a header (file, verdict, cautions
-first and prominent, errors, warnings, jumps) and per check a field table, the probe's reference
-direction, order and modes, the waveform deviation, the messages and a link to its plot PNG.
+first and prominent, errors, warnings, jumps, a link to its whole-schedule plot) and per check a
+field table, the probe's reference direction, order and modes, the waveform deviation, the
+messages (notes of passing fields marked "note:") and a link to its plot PNG.
 
 All untrusted text (titles, part names, messages) goes through ``escape``: Markdown punctuation is
 backslash-escaped, ``|`` cannot split a table cell, and ``<``/``>``/``&`` become HTML entities
@@ -16,6 +17,7 @@ from typing import Mapping
 
 from ..outcome import PASS, CheckResult, FileResult, RunResult
 from . import common
+from .plot_schedule import SCHEDULE
 
 #: punctuation that can start Markdown markup mid-line (GFM); text never starts a line here
 _SPECIAL = re.compile(r"([\\`*_\[\]#|~$])")
@@ -30,7 +32,8 @@ def escape(text: str) -> str:
 
 def render(run: RunResult, plots: Mapping[tuple[int, int], str] | None = None) -> str:
     """The Markdown text.  ``plots`` maps (file index, check index) to a path relative to the
-    report folder (``plots/001-x-c1.png``); checks without one get no image."""
+    report folder (``plots/001-x-c1.png``), and (file index, ``SCHEDULE``) to the file's
+    whole-schedule plot; checks without one get no image."""
     plots = plots or {}
     out = ["# tauproof discrepancy report", "",
            f"**{escape(common.summary_line(run))}**", ""]
@@ -57,11 +60,15 @@ def _summary_table(run: RunResult) -> list[str]:
 def _file_section(i: int, file: FileResult, plots) -> list[str]:
     out = [f"## {i + 1}\\. {escape(file.title or file.file)}", "",
            f"File {escape(file.file)} — verdict **{file.verdict}**", ""]
+    findings = common.finding_lines(file)
+    if findings:
+        out += ["**Findings**", ""] + [f"- {escape(text)}" for text in findings] + [""]
     if file.cautions:
         out += ["> **⚠ Safety cautions**", ">"]
         out += [f"> - {escape(text)}" for text in file.cautions]
         out.append("")
-    for label, items in (("Errors", file.errors), ("Warnings", file.warnings)):
+    for label, items in (("Errors", file.errors), ("Not checked", file.messages),
+                         ("Warnings", file.warnings)):
         if items:
             out += [f"**{label}**", ""] + [f"- {escape(text)}" for text in items] + [""]
     jumps = common.jump_lines(file)
@@ -73,6 +80,9 @@ def _file_section(i: int, file: FileResult, plots) -> list[str]:
                 "each event)", "", "| " + " | ".join(escape(h) for h in headers) + " |",
                 "|" + "---:|" * len(headers)]
         out += ["| " + " | ".join(escape(c) for c in row) + " |" for row in rows] + [""]
+    schedule = plots.get((i, SCHEDULE))
+    if schedule:
+        out += [f"![whole schedule of {escape(file.title or file.file)}]({schedule})", ""]
     for check in file.checks:
         out += _check_section(check, plots.get((i, check.index)))
     return out
@@ -92,18 +102,16 @@ def _check_section(check: CheckResult, plot: str | None) -> list[str]:
     out += ["", "| field | hand | closed form | numeric | tolerance | verdict | formula |",
             "|---|---:|---:|---:|---:|---|---|"]
     for field in common.shown_fields(check):
-        unit = common.field_unit(field)
         formula = escape(field.formula) if field.formula else ""
-        out.append(f"| {escape(common.field_label(field))} | "
-                   f"{escape(common.value(field.hand, unit))} | "
-                   f"{escape(common.value(field.closed_form, unit))} | "
-                   f"{escape(common.value(field.numeric, unit))} | "
+        values = " | ".join(escape(v) for v in common.field_values(field))
+        out.append(f"| {escape(common.field_label(field))} | {values} | "
                    f"{escape(common.tolerance_text(field))} | {field.verdict} | {formula} |")
     out.append("")
-    messages = common.check_messages(check)
-    if messages:
-        out += [f"- **{escape(m)}**" if check.verdict != PASS else f"- {escape(m)}"
-                for m in messages] + [""]
+    failing, notes = common.split_messages(check)
+    out += [f"- **{escape(m)}**" if check.verdict != PASS else f"- {escape(m)}" for m in failing]
+    out += [f"- note: {escape(m)}" for m in notes]
+    if failing or notes:
+        out.append("")
     if plot:
         out += [f"![waveform of {escape(common.check_label(check))}]({plot})", ""]
     return out

@@ -1,8 +1,12 @@
 """One waveform plot per check, as PNG bytes (matplotlib object API on the Agg canvas).
 
-The figure shows, for the check's interval: the numeric waveform, the closed-form curve, the
-curve the hand values predict, the event (a vertical line) and the jump x(t_k-) -> x(t_k+)
-(an arrow).  Time runs from the event (t - t_k, so τ can be read off directly; the event time is
+The figure shows, for the check's interval up to the next event (a dotted vertical line): the
+numeric waveform, the closed-form curve, the curve the hand values predict, the event (a
+vertical line) and the jump x(t_k-) -> x(t_k+) (an arrow, only where the two differ beyond the
+engine tolerance).  Past the next event only the closed form goes on, grey and dashed, labelled
+"if held" (the circuit never follows it), for a quarter of the interval or as far as a crossing
+or peak mark that lies there (also grey, "if held").  The y-axis spans at least ``MIN_SPAN`` of
+the probe's scale.  Time runs from the event (t - t_k, so τ can be read off directly; the event time is
 in the axis label).  Axes carry SI prefixes through matplotlib's ``EngFormatter``.  No pyplot,
 no global state and no display: ``Figure`` plus ``FigureCanvasAgg`` render off-screen anywhere.
 
@@ -16,11 +20,15 @@ comparator supplies them, are drawn instead.
 from __future__ import annotations
 
 import io
+import json
 import math
+from dataclasses import dataclass
 
 import numpy as np
 
+from .. import tolerances as tol
 from ..outcome import CheckResult, FieldResult
+from ..units import format_apart
 from . import common
 
 #: figure size in inches and resolution: 7 x 4 in at 90 dpi is 630 x 360 px
@@ -28,9 +36,17 @@ SIZE = (7.0, 4.0)
 DPI = 90
 #: points on the hand-predicted curve
 HAND_POINTS = 400
+#: the y-axis spans at least this fraction of the probe's scale (its largest magnitude)
+MIN_SPAN = 0.02
+#: past the next event the x-axis goes on for this fraction of the interval (the held
+#: continuation, grey), further only to show a mark that lies there
+HELD_VIEW = 0.25
+#: room left of the event on the x-axis, as a fraction of the axis
+X_MARGIN = 0.03
 
 _COLOURS = {"numeric": "#1f5fbf", "closed": "#e07b00", "hand": "#2a9d3a", "event": "#777777",
-            "jump": "#c0262d", "estimate": "#8e44ad", "level": "#555555", "mark": "#000000"}
+            "jump": "#c0262d", "estimate": "#8e44ad", "level": "#555555", "mark": "#000000",
+            "held": "#9a9a9a"}
 
 
 def hand_curve(check: CheckResult,
@@ -75,7 +91,7 @@ def _trace_end(check: CheckResult) -> float | None:
     return max(ends) if ends else None
 
 
-def _plain(text: str) -> str:
+def plain(text: str) -> str:
     """Text safe from matplotlib's mathtext (``$`` starts math; escape it)."""
     return text.replace("\\", "\\\\").replace("$", r"\$")
 
@@ -86,65 +102,152 @@ def plot_check(check: CheckResult, title: str = "") -> bytes | None:
     if trace is None:
         return None
     unit = trace.unit or (check.fields[0].unit if check.fields else "")
+    fig, ax = new_figure()
+    t_k = trace.event if trace.event is not None else check.at
+    view = _view(check, t_k)
+    ends = _draw_curves(ax, check, t_k, view)
+    _draw_signoff(ax, check, t_k, view)
+    _draw_event(ax, check, unit, t_k)
+    axis_format(ax, unit)
+    width = view.end - t_k
+    ax.set_xlim(min(_start(check) - t_k, 0.0) - X_MARGIN * width, view.end - t_k)
+    keep_span(ax, trace.scale)
+    ax.set_xlabel(f"time since the event at t = {common.time(t_k)}", fontsize=9)
+    ax.set_ylabel(plain(shorten(check.probe, 40)), fontsize=9)
+    heading = title or common.check_label(check)
+    ax.set_title(plain(shorten(heading, 80)), fontsize=10, loc="left")
+    fig.legend(loc="outside lower center", ncols=3, fontsize=8.5, frameon=False)
+    return png(fig, [ax], curves_end=max(ends, default=None))
+
+
+def new_figure(rows: int = 1, size: tuple[float, float] = SIZE):
+    """A Figure on the Agg canvas (no pyplot, no global state) and its axes (one per row)."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg  # imported when drawing: a
     from matplotlib.figure import Figure                           # run without reports does
-    from matplotlib.ticker import EngFormatter                     # not pay ~0.3 s for it
-    fig = Figure(figsize=SIZE, dpi=DPI, layout="constrained")
+    fig = Figure(figsize=size, dpi=DPI, layout="constrained")     # not pay ~0.3 s for it
     FigureCanvasAgg(fig)
-    ax = fig.add_subplot()
-    t_k = trace.event if trace.event is not None else check.at
-    _draw_curves(ax, check, t_k)
-    _draw_signoff(ax, check, unit, t_k)
-    _draw_event(ax, check, unit, t_k)
+    axes = fig.subplots(rows, 1, sharex=True, squeeze=False)[:, 0]
+    return fig, (axes[0] if rows == 1 else list(axes))
+
+
+def axis_format(ax, unit: str) -> None:
+    """SI-prefixed ticks (time on x, the probe's unit on y) and the light grid."""
+    from matplotlib.ticker import EngFormatter
     ax.xaxis.set_major_formatter(EngFormatter(unit="s", places=None))
     ax.yaxis.set_major_formatter(EngFormatter(unit=_symbol(unit)))
-    ax.set_xlabel(f"time since the event at t = {common.time(t_k)}", fontsize=9)
-    ax.set_ylabel(_plain(_shorten(check.probe, 40)), fontsize=9)
     ax.grid(True, color="#dddddd", linewidth=0.6)
     ax.tick_params(labelsize=9)
-    heading = title or common.check_label(check)
-    ax.set_title(_plain(_shorten(heading, 80)), fontsize=10, loc="left")
-    fig.legend(loc="outside lower center", ncols=3, fontsize=8.5, frameon=False)
+
+
+def keep_span(ax, scale: float) -> None:
+    """Widen the y-axis to at least ``MIN_SPAN`` of the probe's scale about its middle, so a
+    probe that hardly moves is not drawn at the scale of its rounding."""
+    low, high = ax.get_ylim()
+    span = MIN_SPAN * scale
+    if span > 0 and high - low < span:
+        middle = 0.5 * (low + high)
+        ax.set_ylim(middle - span / 2, middle + span / 2)
+
+
+def png(fig, axes, **facts) -> bytes:
+    """The figure as PNG bytes, with its legend labels and axis limits (SI units, times as on the
+    axes) in the PNG text chunk ``tauproof`` (JSON) for whoever reads the file without eyes."""
+    labels = []
+    for ax in axes:
+        labels += [label for label in ax.get_legend_handles_labels()[1] if label not in labels]
+    facts = {"legend": labels, "xlim": list(axes[0].get_xlim()),
+             "ylim": list(axes[0].get_ylim()), "ylims": [list(ax.get_ylim()) for ax in axes],
+             **facts}
     buffer = io.BytesIO()
-    fig.savefig(buffer, format="png", dpi=DPI)
+    fig.savefig(buffer, format="png", dpi=DPI,
+                metadata={"tauproof": json.dumps(facts, allow_nan=False)})
     return buffer.getvalue()
 
 
-def _draw_curves(ax, check: CheckResult, t_k: float) -> None:
-    """Numeric, closed-form and hand curves against time since the event, t - t_k."""
-    trace = check.trace
-    if trace.numeric_t is not None and len(trace.numeric_t):
-        ax.plot(np.asarray(trace.numeric_t) - t_k, trace.numeric_x, color=_COLOURS["numeric"],
-                linewidth=2.4, alpha=0.55, label="numeric")
-    if trace.closed_t is not None and len(trace.closed_t):
-        ax.plot(np.asarray(trace.closed_t) - t_k, trace.closed_x, color=_COLOURS["closed"],
-                linewidth=1.3, linestyle="--", label="closed form")
+@dataclass(frozen=True)
+class _View:
+    """What the plot shows: the next event (s, absolute; None for the last interval) and the end
+    of the x-axis (s, absolute)."""
+
+    next_event: float | None
+    end: float
+
+
+def _view(check: CheckResult, t_k: float) -> _View:
+    """Up to the next event plus ``HELD_VIEW`` of the interval (to show where a mark on the held
+    continuation lies, at most its span); the whole trace for the last interval."""
+    trace, end = check.trace, _trace_end(check)
+    nxt = trace.next_event
+    if nxt is None or end is None or not t_k < nxt < end:
+        return _View(None, end if end is not None else t_k)
+    width = nxt - t_k
+    beyond = [when for _, when, _ in trace.marks if when > nxt]
+    stop = max([nxt + HELD_VIEW * width] + [w + 0.1 * width for w in beyond])
+    return _View(nxt, min(stop, end))
+
+
+def _start(check: CheckResult) -> float:
+    start = _trace_start(check)
+    return start if start is not None else check.at
+
+
+def _split(t: np.ndarray, x: np.ndarray, cut: float | None):
+    """(t, x) up to ``cut`` (its value there interpolated) and (t, x) from it; the second is
+    empty without a cut."""
+    t, x = np.asarray(t, float), np.asarray(x, float)
+    if cut is None or not t.size or cut >= t[-1]:
+        return (t, x), (t[:0], x[:0])
+    at = float(np.interp(cut, t, x))
+    inside = t < cut
+    return ((np.append(t[inside], cut), np.append(x[inside], at)),
+            (np.insert(t[~inside], 0, cut), np.insert(x[~inside], 0, at)))
+
+
+def _draw_curves(ax, check: CheckResult, t_k: float, view: _View) -> list[float]:
+    """Numeric, closed-form and hand curves against t - t_k, each up to the next event; the
+    closed form's held continuation beyond it grey and dashed ("if held").  Returns the
+    absolute times where the solid curves end."""
+    trace, ends = check.trace, []
+    styles = [(trace.numeric_t, trace.numeric_x, dict(color=_COLOURS["numeric"], linewidth=2.4,
+                                                      alpha=0.55, label="numeric")),
+              (trace.closed_t, trace.closed_x, dict(color=_COLOURS["closed"], linewidth=1.3,
+                                                    linestyle="--", label="closed form"))]
     curve = hand_curve(check)
     if curve is not None:
-        ax.plot(curve[0] - t_k, curve[1], color=_COLOURS["hand"], linewidth=1.3, linestyle=":",
-                label="hand values")
-        before = {f.name: f for f in check.fields}.get("before")
-        start = _trace_start(check)
-        if before is not None and before.hand is not None and start is not None \
-                and start < check.at:
-            ax.plot([start - t_k, check.at - t_k], [before.hand, before.hand],
-                    color=_COLOURS["hand"], linewidth=1.3, linestyle=":")
+        styles.append((curve[0], curve[1], dict(color=_COLOURS["hand"], linewidth=1.3,
+                                                linestyle=":", label="hand values")))
+    for t, x, style in styles:
+        if t is None or not len(t):
+            continue
+        (t_in, x_in), held = _split(t, x, view.next_event)
+        ax.plot(t_in - t_k, x_in, **style)
+        ends.append(float(t_in[-1]))
+        if style["label"] == "closed form" and len(held[0]):
+            shown = held[0] <= view.end
+            ax.plot(held[0][shown] - t_k, held[1][shown], color=_COLOURS["held"],
+                    linewidth=1.1, linestyle=(0, (4, 3)), label="closed form if held")
+    return ends
 
 
-def _draw_signoff(ax, check: CheckResult, unit: str, t_k: float) -> None:
-    """Crossing level (dashed line), crossing and peak marks, the one-τ dominant estimate."""
+def _draw_signoff(ax, check: CheckResult, t_k: float, view: _View) -> None:
+    """Crossing level (dashed line), crossing and peak marks (grey and "if held" past the next
+    event), the one-τ dominant estimate up to the next event."""
     trace = check.trace
     if trace.estimate_t is not None and trace.estimate_x is not None:
-        ax.plot(np.asarray(trace.estimate_t) - t_k, trace.estimate_x, color=_COLOURS["estimate"],
-                linewidth=1.1, linestyle=(0, (5, 2, 1, 2)), label="one-τ estimate")
+        (t, x), _ = _split(trace.estimate_t, trace.estimate_x, view.next_event)
+        ax.plot(t - t_k, x, color=_COLOURS["estimate"], linewidth=1.1,
+                linestyle=(0, (5, 2, 1, 2)), label="one-τ estimate")
     for label, level in trace.levels:
         ax.axhline(level, color=_COLOURS["level"], linewidth=0.8, linestyle="--",
-                   label=_plain(label))
+                   label=plain(label))
     for label, when, x in trace.marks:
-        marker = "x" if label == "crossing" else "^"
-        ax.plot([when - t_k], [x], marker=marker, markersize=7, color=_COLOURS["mark"],
-                linestyle="none",
-                label=_plain(f"{label} +{common.time(when - t_k)}"))
+        held = view.next_event is not None and when > view.next_event
+        text = f"{label} +{common.time(when - t_k)}" + (" (if held)" if held else "")
+        ax.plot([when - t_k], [x], marker="x" if label == "crossing" else "^", markersize=7,
+                color=_COLOURS["held" if held else "mark"], linestyle="none", label=plain(text))
+    if view.next_event is not None:
+        ax.axvline(view.next_event - t_k, color=_COLOURS["event"], linewidth=0.9,
+                   linestyle=(0, (1, 2)), label=f"next event t = {common.time(view.next_event)}")
 
 
 def _trace_start(check: CheckResult) -> float | None:
@@ -155,21 +258,24 @@ def _trace_start(check: CheckResult) -> float | None:
 
 
 def _draw_event(ax, check: CheckResult, unit: str, t_k: float) -> None:
-    """The event line (0 on the relative axis) and, where the trace knows both sides, the jump."""
+    """The event line (0 on the relative axis) and, where the trace knows both sides, the jump
+    (named a jump only when the two sides differ beyond the engine tolerance)."""
     trace = check.trace
     ax.axvline(0.0, color=_COLOURS["event"], linewidth=0.9, linestyle="-.",
                label=f"event t = {common.time(t_k)}")
     before, after = trace.before, trace.after
     if before is None or after is None:
         return
-    if before == after:
-        label = _plain(f"no jump ({common.value(before, unit)})")
+    jumps = not tol.agree(before, after, tol.ENGINE_RELATIVE, tol.ENGINE_FLOOR * trace.scale)
+    if jumps:
+        a, b = format_apart([before, after], unit)
+        label = plain(f"jump {a} → {b}")
     else:
-        label = _plain(f"jump {common.value(before, unit)} → {common.value(after, unit)}")
+        label = plain(f"no jump ({common.value(after, unit)})")
     ax.plot([0.0], [before], marker="o", markersize=5, markerfacecolor="white",
             markeredgecolor=_COLOURS["jump"], linestyle="none", label=label)
     ax.plot([0.0], [after], marker="o", markersize=5, color=_COLOURS["jump"], linestyle="none")
-    if before != after:
+    if jumps:
         ax.annotate("", xy=(0.0, after), xytext=(0.0, before),
                     arrowprops={"arrowstyle": "->", "color": _COLOURS["jump"], "linewidth": 1.4})
 
@@ -178,5 +284,5 @@ def _symbol(unit: str) -> str:
     return {"ohm": "Ω", "1": ""}.get(unit, unit)
 
 
-def _shorten(text: str, limit: int) -> str:
+def shorten(text: str, limit: int) -> str:
     return text if len(text) <= limit else text[: limit - 1] + "…"
