@@ -128,6 +128,8 @@ def _main(argv: list[str] | None) -> int:
     except RunInterrupted as stop:
         return _interrupted(stop)
     for file in result.files:
+        for message in file.input_warnings:
+            print(f"tauproof: warning: {message}", file=sys.stderr)
         for message in file.errors:
             print(f"tauproof: {message}", file=sys.stderr)
     if args.json:

@@ -204,7 +204,7 @@ def compare_file(circuit: Circuit, exact: Solution, numeric: Solution | None,
                  cautions: tuple[str, ...] = (), seconds: float = 0.0) -> FileResult:
     """Compare every expectation of a circuit; collect warnings, jumps and cautions."""
     checks = tuple(compare_check(circuit, exp, exact, numeric) for exp in circuit.expectations)
-    warnings = list(exact.warnings)
+    warnings = list(circuit.warnings) + list(exact.warnings)
     if numeric is not None:
         warnings += [f"numerical engine: {w}" for w in numeric.warnings
                      if w not in exact.warnings]
@@ -212,7 +212,7 @@ def compare_file(circuit: Circuit, exact: Solution, numeric: Solution | None,
                       verdict=worst(c.verdict for c in checks), checks=checks,
                       warnings=tuple(warnings), cautions=cautions,
                       jumps=tuple(_jump_json(exact, k) for k in range(len(circuit.events))),
-                      seconds=seconds)
+                      seconds=seconds, input_warnings=circuit.warnings)
 
 
 def _jump_json(exact: Solution, k: int) -> dict:

@@ -110,7 +110,8 @@ class CheckResult:
 
 @dataclass(frozen=True)
 class FileResult:
-    """One circuit file."""
+    """One circuit file.  ``warnings`` holds the reader's warnings about the file first (also in
+    ``input_warnings``, which the command line prints on stderr), then the engines'."""
 
     file: str
     title: str
@@ -121,6 +122,7 @@ class FileResult:
     cautions: tuple[str, ...] = ()
     jumps: tuple[dict, ...] = ()   # per event: time, charges, energy (JSON-ready)
     seconds: float = 0.0
+    input_warnings: tuple[str, ...] = ()
 
     def to_json(self) -> dict[str, Any]:
         return {"file": self.file, "title": self.title, "verdict": self.verdict,
