@@ -45,7 +45,8 @@ BARE_TOLERANCE_WARNING = 0.2
 EVENT_REL, EVENT_ABS = 1e-12, 1e-15
 
 _QUOTED = re.compile(r'"(?:[^"\\\n]|\\.)*"|\'[^\'\n]*\'')
-_BARE_VALUE = re.compile(r"([A-Za-z0-9_-]+)[ \t]*=[ \t]*([+-]?[0-9.][^,}\]#=\"']*?)[ \t]*(?=[,}\]#]|$)")
+_BARE_VALUE = re.compile(r"([=\[,])[ \t]*([+-]?[0-9.][^,}\]\[#=\"']*?)[ \t]*(?=[,}\]#]|$)")
+_KEY_BEFORE = re.compile(r"([A-Za-z0-9_-]+)[ \t]*=")
 _TOML_WHERE = re.compile(r"\s*\((?:at line (\d+), column (\d+)|at end of document)\)\s*$")
 
 
@@ -132,25 +133,29 @@ def _toml_error(message: str, where: Where) -> InputError:
     shown = loc.text_of(line)
     bare = _unquoted_quantity(shown)
     if bare is not None:
-        key, token = bare
-        return where.error(f"{key} = {token} on line {line} is not quoted: TOML reads only plain "
-                           f"numbers without quotes, so quote values with units or prefixes, "
-                           f"e.g. {key} = \"{token}\"", part=part, field=key, line=line)
+        key, token, listed = bare
+        what, quoted = (f"{key}: {token}", f'"{token}"') if listed else \
+            (f"{key} = {token}", f'{key} = "{token}"')
+        return where.error(f"{what} on line {line} is not quoted: TOML reads only plain numbers "
+                           f"without quotes, so quote values with units or prefixes, e.g. "
+                           f"{quoted}", part=part, field=key, line=line)
     at = f" on line {line}" if line else ""
     return where.error(f"not valid TOML: {body}{at}" + (f": {shown}" if shown else ""),
                        part=part, field=field, line=line)
 
 
-def _unquoted_quantity(line: str) -> tuple[str, str] | None:
-    """(key, text) of the first ``key = 100k`` on ``line`` whose value is unquoted quantity text
-    (a number with a prefix or unit, not a TOML number), or None."""
+def _unquoted_quantity(line: str) -> tuple[str, str, bool] | None:
+    """(key, text, in an array) of the first unquoted quantity text on ``line`` (a number with a
+    prefix or unit that is not a TOML number: ``value = 100k``, ``steps = [["1 ms", 5 V]]``)."""
     plain = _QUOTED.sub('""', line).split("#", 1)[0]
-    for key, token in _BARE_VALUE.findall(plain):
+    for found in _BARE_VALUE.finditer(plain):
+        token = found.group(2)
         if has_suffix(token):
             try:
                 tomllib.loads(f"x = {token}")
             except tomllib.TOMLDecodeError:
-                return key, token
+                keys = _KEY_BEFORE.findall(plain[:found.start(2)])
+                return (keys[-1] if keys else "value"), token, found.group(1) != "="
     return None
 
 

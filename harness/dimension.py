@@ -15,6 +15,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from fractions import Fraction
+from functools import lru_cache
 from itertools import product
 
 BASES = ("kg", "m", "s", "A")
@@ -88,19 +89,26 @@ def symbol(dim: Dimension) -> str:
     then units earlier in ``_SYMBOLS``), else the base-unit product (``kg·m²·s⁻³``)."""
     if dim.dimensionless:
         return "1"
+    terms = _named_products().get(dim)
+    if terms is None:
+        terms = [(base, e) for base, e in zip(BASES, dim.exponents) if e]
+    return _product(terms)
+
+
+@lru_cache(maxsize=1)
+def _named_products() -> dict[Dimension, list[tuple[str, Fraction]]]:
+    """Every U^a·W^b of ``symbol``'s search -> its simplest terms (built once, ~0.1 s)."""
     order = list(_SYMBOLS)
-    best = None
+    best: dict[Dimension, tuple[tuple, list]] = {}
     for (u, w), (a, b) in product(product(order, repeat=2), product(_POWERS, repeat=2)):
-        if order.index(u) >= order.index(w) or a == 0 \
-                or UNIT_DIMENSIONS[u] ** a * UNIT_DIMENSIONS[w] ** b != dim:
+        if order.index(u) >= order.index(w) or a == 0:
             continue
+        dim = UNIT_DIMENSIONS[u] ** a * UNIT_DIMENSIONS[w] ** b
         cost = ((a.denominator > 1) + (b.denominator > 1), bool(b), abs(a) + abs(b),
                 order.index(u) + (order.index(w) if b else 0))
-        if best is None or cost < best[0]:
-            best = (cost, [(_SYMBOLS[u], a), (_SYMBOLS[w], b)])
-    if best is not None:
-        return _product(best[1])
-    return _product([(base, e) for base, e in zip(BASES, dim.exponents) if e])
+        if dim not in best or cost < best[dim][0]:
+            best[dim] = (cost, [(_SYMBOLS[u], a), (_SYMBOLS[w], b)])
+    return {dim: terms for dim, (_, terms) in best.items()}
 
 
 def _product(terms: list[tuple[str, Fraction | int]]) -> str:

@@ -126,6 +126,16 @@ def test_unquoted_quantity_is_named_with_its_quoted_form(value, token):
     assert parse_circuit(_rc(f'"{token}"')).part("C1").value > 0
 
 
+def test_unquoted_quantity_in_a_schedule_is_named():
+    """The same inside a ``steps`` pair (TOML 1.0: array elements are values too)."""
+    text = _rc('"1u"').replace('steps = [["0 s", "5 V"]]', 'steps = [["0 s", 5 V]]')
+    with pytest.raises(InputError) as caught:
+        parse_circuit(text, "c.toml")
+    err = caught.value
+    assert (err.part, err.field, err.line) == ("V1", "steps", 3), str(err)
+    assert 'steps: 5 V on line 3 is not quoted' in err.message and '"5 V"' in err.message
+
+
 def test_unquoted_plain_number_is_still_a_number():
     """TOML 1.0: ``1e-6`` is a float, read as farads as before (no error, no warning)."""
     assert parse_circuit(_rc("1e-6")).part("C1").value == 1e-6
