@@ -212,7 +212,20 @@ def _check_connected(circuit, closed, when, changed) -> None:
     ground = forest.root(circuit.ground)
     for root, nodes in forest.groups(circuit.nodes).items():
         if root != ground:
-            raise _floating_error(circuit, nodes, closed, when, changed)
+            raise _with_near_miss(circuit, nodes,
+                                  _floating_error(circuit, nodes, closed, when, changed))
+
+
+def _with_near_miss(circuit, nodes: list, err: TopologyError) -> TopologyError:
+    """``err`` moved to the ``nodes`` of the part terminal that names a near-miss node of
+    ``nodes`` (``_near_miss``), with the likely name suggested; ``err`` itself otherwise."""
+    typo = _near_miss(circuit, nodes)
+    if typo is None or err.field == "steps":
+        return err
+    node, owner, side, meant = typo
+    return _error(TopologyError, circuit, owner, "nodes",
+                  f"node '{node}' ({owner.name}'s {side} terminal) may be a typo: "
+                  f"did you mean '{meant}'? ({err.message})")
 
 
 def _floating_error(circuit, nodes, closed, when, changed) -> TopologyError:
