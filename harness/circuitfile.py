@@ -13,15 +13,15 @@ import math
 import os
 import re
 import tomllib
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 from . import model as m
 from . import topology
 from .errors import InputError, UnitError
-from .fields import parse_parts
+from .fields import VALUE_DIMENSION, parse_parts
 from .filelines import Locator, Where, expect_label, name_problem, quoted_list, suggest
-from .units import format_si
+from .units import format_si, has_suffix
 
 #: upper limits a user can rely on (past them: an input error, not a hang)
 MAX_FILE_BYTES = 1_000_000
@@ -39,9 +39,14 @@ SIGNOFF_KEYS = {"crossing": "crossing", "peak": "peak", "energy": "energy",
 EXPECT_KEYS = PROBE_KEYS + ("at",) + m.FIELDS + tuple(SIGNOFF_KEYS) + ("tolerance", "note")
 CROSSING_KEYS = ("level", "time", "direction")
 ENERGY_KEYS = ("part", "value")
+#: a tolerance given as a bare fraction above this gets a warning (0.5 is 50 %, seldom meant)
+BARE_TOLERANCE_WARNING = 0.2
 #: an ``at`` matches an event within this relative amount plus ``EVENT_ABS`` seconds
 EVENT_REL, EVENT_ABS = 1e-12, 1e-15
 
+_QUOTED = re.compile(r'"(?:[^"\\\n]|\\.)*"|\'[^\'\n]*\'')
+_BARE_VALUE = re.compile(r"([=\[,])[ \t]*([+-]?[0-9.][^,}\]\[#=\"']*?)[ \t]*(?=[,}\]#]|$)")
+_KEY_BEFORE = re.compile(r"([A-Za-z0-9_-]+)[ \t]*=")
 _TOML_WHERE = re.compile(r"\s*\((?:at line (\d+), column (\d+)|at end of document)\)\s*$")
 
 
@@ -84,7 +89,8 @@ def parse_circuit(text: str, source: str = "<memory>") -> m.Circuit:
     data = _load_toml(text, where)
     circuit = _build(data, where)
     topology.check(circuit)
-    return circuit
+    ordered = sorted(where.warnings, key=lambda w: w.line or 0)
+    return replace(circuit, warnings=tuple(str(w) for w in ordered))
 
 
 def _load_toml(text: str, where: Where) -> dict:
@@ -125,9 +131,32 @@ def _toml_error(message: str, where: Where) -> InputError:
         return where.error(f"field {dup.group(1)!r} is given twice on line {line}; give each "
                            f"field once", part=part, field=dup.group(1), line=line)
     shown = loc.text_of(line)
+    bare = _unquoted_quantity(shown)
+    if bare is not None:
+        key, token, listed = bare
+        what, quoted = (f"{key}: {token}", f'"{token}"') if listed else \
+            (f"{key} = {token}", f'{key} = "{token}"')
+        return where.error(f"{what} on line {line} is not quoted: TOML reads only plain numbers "
+                           f"without quotes, so quote values with units or prefixes, e.g. "
+                           f"{quoted}", part=part, field=key, line=line)
     at = f" on line {line}" if line else ""
     return where.error(f"not valid TOML: {body}{at}" + (f": {shown}" if shown else ""),
                        part=part, field=field, line=line)
+
+
+def _unquoted_quantity(line: str) -> tuple[str, str, bool] | None:
+    """(key, text, in an array) of the first unquoted quantity text on ``line`` (a number with a
+    prefix or unit that is not a TOML number: ``value = 100k``, ``steps = [["1 ms", 5 V]]``)."""
+    plain = _QUOTED.sub('""', line).split("#", 1)[0]
+    for found in _BARE_VALUE.finditer(plain):
+        token = found.group(2)
+        if has_suffix(token):
+            try:
+                tomllib.loads(f"x = {token}")
+            except tomllib.TOMLDecodeError:
+                keys = _KEY_BEFORE.findall(plain[:found.start(2)])
+                return (keys[-1] if keys else "value"), token, found.group(1) != "="
+    return None
 
 
 def _owner_labels(path: tuple) -> tuple[str | None, str | None]:
@@ -236,6 +265,10 @@ def _tolerance(raw: object, where: Where, path: tuple, part: str) -> float:
     if not 0 < value < 1:
         raise where.error(f"tolerance must be between 0 and 1 (or 0 % and 100 %), got {raw!r}; "
                           f"write \"2%\" or 0.02", path=path, part=part, field="tolerance")
+    if value > BARE_TOLERANCE_WARNING and not (isinstance(raw, str) and "%" in raw):
+        where.warn(f"tolerance = {raw!r} without '%' means {value * 100:g} %; write "
+                   f"\"{value:g} %\" or \"{value * 100:g} %\" to say which is meant", path=path,
+                   part=part, field="tolerance")
     return value
 
 
@@ -248,11 +281,21 @@ def _expectations(raw: object, circuit: m.Circuit, where: Where) -> tuple[m.Expe
     if len(raw) > MAX_EXPECTATIONS:
         raise where.error(f"{len(raw)} [[expect]] blocks; the limit is {MAX_EXPECTATIONS}",
                           path=("expect",), field="expect")
-    values = {p.name: p.value for p in circuit.parts if p.value is not None}
-    return tuple(_expectation(i, block, circuit, values, where) for i, block in enumerate(raw))
+    scope = _Scope({p.name: p.value for p in circuit.parts if p.value is not None},
+                    {p.name: VALUE_DIMENSION[p.kind] for p in circuit.parts
+                     if p.value is not None})
+    return tuple(_expectation(i, block, circuit, scope, where) for i, block in enumerate(raw))
 
 
-def _expectation(index: int, raw: object, circuit: m.Circuit, values: dict,
+@dataclass(frozen=True)
+class _Scope:
+    """What a hand-value formula may name: part name -> SI value, and -> its dimension word."""
+
+    values: dict
+    units: dict
+
+
+def _expectation(index: int, raw: object, circuit: m.Circuit, scope: _Scope,
                  where: Where) -> m.Expectation:
     label, base = expect_label(index), ("expect", index)
     if not isinstance(raw, dict):
@@ -272,15 +315,15 @@ def _expectation(index: int, raw: object, circuit: m.Circuit, values: dict,
         if key not in raw:
             continue
         dimension = "s" if name in ("tau", "dominant_tau") else probe.dimension
-        hand[name], text = _hand_value(raw[key], dimension, values, where, index, key)
+        hand[name], text = _hand_value(raw[key], dimension, scope, where, index, key)
         if text is not None:
             formulas[name] = text
         if name in ("tau", "dominant_tau") and not hand[name] > 0:
             raise where.error(f"{key} must be greater than zero, got {raw[key]!r}",
                               path=base + (key,), part=label, field=key)
-    crossing = _crossing(raw["crossing"], probe, values, where, index) \
+    crossing = _crossing(raw["crossing"], probe, scope, where, index) \
         if "crossing" in raw else None
-    energy = _energy(raw["energy"], circuit, values, where, index) if "energy" in raw else None
+    energy = _energy(raw["energy"], circuit, scope, where, index) if "energy" in raw else None
     tolerance = None
     if "tolerance" in raw:
         tolerance = _tolerance(raw["tolerance"], where, base + ("tolerance",), label)
@@ -310,7 +353,7 @@ def _subtable(raw: object, keys: tuple[str, ...], required: str, example: str, w
     return raw
 
 
-def _crossing(raw: object, probe: m.Probe, values: dict, where: Where,
+def _crossing(raw: object, probe: m.Probe, scope: _Scope, where: Where,
               index: int) -> m.Crossing:
     """``crossing = { level = "2 V", time = "69.3 ms", direction = "rising" }``; the time is
     measured from the event (``at``), the level is in the probe's unit."""
@@ -318,12 +361,12 @@ def _crossing(raw: object, probe: m.Probe, values: dict, where: Where,
     table = _subtable(raw, CROSSING_KEYS, "level", example, where, index, "crossing")
     label, path = expect_label(index), ("expect", index, "crossing")
     formulas = {}
-    level, text = _hand_value(table["level"], probe.dimension, values, where, index, "crossing")
+    level, text = _hand_value(table["level"], probe.dimension, scope, where, index, "crossing")
     if text is not None:
         formulas["level"] = text
     time = None
     if "time" in table:
-        time, text = _hand_value(table["time"], "s", values, where, index, "crossing")
+        time, text = _hand_value(table["time"], "s", scope, where, index, "crossing")
         if text is not None:
             formulas["time"] = text
         if time < 0:
@@ -338,7 +381,7 @@ def _crossing(raw: object, probe: m.Probe, values: dict, where: Where,
     return m.Crossing(level=level, time=time, direction=direction, formulas=formulas)
 
 
-def _energy(raw: object, circuit: m.Circuit, values: dict, where: Where,
+def _energy(raw: object, circuit: m.Circuit, scope: _Scope, where: Where,
             index: int) -> m.EnergyCheck:
     """``energy = { part = "R1", value = "12.5 mJ" }`` for a resistor or a switch."""
     example = 'energy = { part = "R1", value = "12.5 mJ" }'
@@ -358,7 +401,7 @@ def _energy(raw: object, circuit: m.Circuit, values: dict, where: Where,
                           field="energy")
     value, text = None, None
     if "value" in table:
-        value, text = _hand_value(table["value"], "J", values, where, index, "energy")
+        value, text = _hand_value(table["value"], "J", scope, where, index, "energy")
         if value < 0:
             raise where.error(f"dissipated energy must not be negative, got "
                               f"{table['value']!r}", path=path, part=label, field="energy")
@@ -415,7 +458,7 @@ def _event(raw: object, circuit: m.Circuit, where: Where, index: int) -> float:
                       part=label, field="at")
 
 
-def _hand_value(raw: object, dimension: str, values: dict, where: Where, index: int,
+def _hand_value(raw: object, dimension: str, scope: _Scope, where: Where, index: int,
                 name: str) -> tuple[float, str | None]:
     """(value in SI, formula text or None) for one hand field."""
     label, path = expect_label(index), ("expect", index, name)
@@ -427,7 +470,7 @@ def _hand_value(raw: object, dimension: str, values: dict, where: Where, index: 
         raise where.error(f"formulas cannot be evaluated here ({exc})", path=path, part=label,
                           field=name) from None
     try:
-        value = formula.evaluate(raw, values, dimension)
+        value = formula.evaluate(raw, scope.values, dimension, scope.units)
     except InputError as exc:
         err = exc.located(file=where.source, part=label, field=name)
         err.line = where.locator.line_of(path)

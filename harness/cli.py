@@ -131,6 +131,8 @@ def _main(argv: list[str] | None) -> int:
         from .outcome import require_checks
         result = require_checks(result)
     for file in result.files:
+        for message in file.input_warnings if args.json or args.command != "check" else ():
+            print(f"tauproof: warning: {message}", file=sys.stderr)  # check's table lists them
         for message in file.errors:
             print(f"tauproof: {message}", file=sys.stderr)
     if args.json:

@@ -209,7 +209,7 @@ def compare_file(circuit: Circuit, exact: Solution, numeric: Solution | None,
                  cautions: tuple[str, ...] = (), seconds: float = 0.0) -> FileResult:
     """Compare every expectation of a circuit; collect warnings, jumps and cautions."""
     checks = tuple(compare_check(circuit, exp, exact, numeric) for exp in circuit.expectations)
-    warnings = list(exact.warnings)
+    warnings = list(circuit.warnings) + list(exact.warnings)
     if numeric is not None:
         warnings += [f"numerical engine: {w}" for w in numeric.warnings
                      if w not in exact.warnings]
@@ -221,7 +221,7 @@ def compare_file(circuit: Circuit, exact: Solution, numeric: Solution | None,
                       findings=tuple(f.to_json() for f in found),
                       warnings=tuple(warnings), cautions=cautions,
                       jumps=tuple(_jump_json(exact, k) for k in range(len(circuit.events))),
-                      seconds=seconds,
+                      seconds=seconds, input_warnings=circuit.warnings,
                       schedule=schedule(circuit, exact, numeric, probes,
                                         [probe_scale(circuit, exact, p) for p in probes]))
 

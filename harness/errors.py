@@ -1,10 +1,13 @@
-"""The one exception family for input errors.
+"""The one exception family for input errors, and the warnings about input that still runs.
 
 Every error that comes from what the user wrote carries the file, the part (or expectation) and
 the field, so the command line can print a message that points at the fault and exit with code 2.
+An ``InputWarning`` carries the same location but does not stop the check.
 """
 
 from __future__ import annotations
+
+from dataclasses import dataclass
 
 
 class InputError(Exception):
@@ -36,18 +39,39 @@ class InputError(Exception):
 
     def where(self) -> str:
         """The location as ``file:line: part C1, field value``."""
-        head = self.file or "<input>"
-        if self.line is not None:
-            head += f":{self.line}"
-        bits = []
-        if self.part:
-            bits.append(self.part if self.part.startswith("expect") else f"part {self.part}")
-        if self.field:
-            bits.append(f"field {self.field}")
-        return head + (": " + ", ".join(bits) if bits else "")
+        return location(self.file, self.line, self.part, self.field)
 
     def __str__(self) -> str:
         return f"{self.where()}: {self.message}"
+
+
+def location(file: str | None, line: int | None, part: str | None, field: str | None) -> str:
+    """``file:line: part C1, field value`` (``expect #2`` stands as it is; parts are optional)."""
+    head = file or "<input>"
+    if line is not None:
+        head += f":{line}"
+    bits = []
+    if part:
+        bits.append(part if part.startswith("expect") else f"part {part}")
+    if field:
+        bits.append(f"field {field}")
+    return head + (": " + ", ".join(bits) if bits else "")
+
+
+@dataclass(frozen=True)
+class InputWarning:
+    """Something in a circuit file that is probably a slip but can still be analysed (a value
+    far outside its kind's plausible range, a tolerance without ``%``): the check runs and the
+    file's result carries the warning.  Same location fields as ``InputError``."""
+
+    message: str
+    file: str | None = None
+    part: str | None = None
+    field: str | None = None
+    line: int | None = None
+
+    def __str__(self) -> str:
+        return f"{location(self.file, self.line, self.part, self.field)}: {self.message}"
 
 
 class UnitError(InputError):

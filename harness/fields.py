@@ -15,6 +15,7 @@ import math
 from . import model as m
 from .errors import InputError
 from .filelines import Where, name_problem, quoted_list, suggest
+from .plausible import implausible
 
 #: upper limits a user can rely on (past them: an input error, not a hang); measured in
 #: tests/benchmarks/RESULTS.md "Reliability": a 200-part RC ladder checked with both engines
@@ -159,7 +160,16 @@ def _value(name: str, kind: str, spec: dict, where: Where) -> float:
                 if kind == m.RESISTOR and value == 0 else "")
         raise where.error(f"{_a(kind)}'s value must be greater than zero, got "
                           f"{spec[field_name]!r}{hint}", path=path, part=name, field=field_name)
+    slip = implausible(kind, value)
+    if slip is not None:
+        where.warn(f"{name} = {_shown(spec[field_name])} {slip}", path=path, part=name,
+                   field=field_name)
     return value
+
+
+def _shown(raw: object) -> str:
+    """A value as the file wrote it: text as is, numbers as TOML numbers."""
+    return raw if isinstance(raw, str) else repr(raw)
 
 
 def _switch(name: str, spec: dict, where: Where) -> dict:

@@ -16,7 +16,7 @@ import re
 from dataclasses import dataclass, field
 from typing import Iterable
 
-from .errors import InputError, UnitError
+from .errors import InputError, InputWarning, UnitError
 from .units import parse_quantity
 
 _ATOM = r'(?:"(?:[^"\\\n]|\\.)*"|\'[^\'\n]*\'|[A-Za-z0-9_-]+)'
@@ -121,12 +121,18 @@ def expect_label(index: int) -> str:
     return f"expect #{index + 1}"
 
 
-def suggest(word: str, choices: Iterable[str]) -> str:
-    """`` (did you mean 'x'?)`` for the closest of ``choices`` to ``word``, or ''."""
+def closest(word: str, choices: Iterable[str]) -> str | None:
+    """The choice closest to ``word`` (difflib ratio ≥ 0.6, case folded), or None."""
     choices = list(dict.fromkeys(str(c) for c in choices))
     folded = {c.lower(): c for c in choices}
     hits = difflib.get_close_matches(str(word).lower(), list(folded), n=1, cutoff=0.6)
-    return f" (did you mean '{folded[hits[0]]}'?)" if hits else ""
+    return folded[hits[0]] if hits else None
+
+
+def suggest(word: str, choices: Iterable[str]) -> str:
+    """`` (did you mean 'x'?)`` for the closest of ``choices`` to ``word``, or ''."""
+    hit = closest(word, choices)
+    return f" (did you mean '{hit}'?)" if hit is not None else ""
 
 
 def quoted_list(items: Iterable[str], limit: int = 12) -> str:
@@ -138,10 +144,18 @@ def quoted_list(items: Iterable[str], limit: int = 12) -> str:
 
 @dataclass(frozen=True)
 class Where:
-    """Builds located errors for one file: the source path and its ``Locator``."""
+    """Builds located errors for one file: the source path and its ``Locator``; collects the
+    reader's warnings about this file in ``warnings`` (one list per file read)."""
 
     source: str
     locator: Locator
+    warnings: list[InputWarning] = field(default_factory=list, compare=False)
+
+    def warn(self, message: str, *, path: Iterable = (), part: str | None = None,
+             field: str | None = None) -> None:
+        """Record a warning at key ``path`` (the check still runs)."""
+        self.warnings.append(InputWarning(message, file=self.source, part=part, field=field,
+                                          line=self.locator.line_of(path)))
 
     def error(self, message: str, *, path: Iterable = (), part: str | None = None,
               field: str | None = None, cls: type[InputError] = InputError,

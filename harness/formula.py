@@ -23,8 +23,17 @@ word that is not a suffix (``2 R1``) is not multiplied implicitly: it is an erro
 start with a letter, so ``R47`` is a part name here (write ``0R47`` for 0.47 Ω).  Compound units
 such as ``V/V`` are not read: ``/`` is always division.
 
-Units only scale: the value is a float in SI base units; dimensions are not tracked.  The one
-cheap check: a formula that is a single quantity with a unit (``= 100 ms``) must fit the field.
+Units: the value is a float in SI base units, and with ``units`` given the formula is also
+dimension-checked (:mod:`harness.dimension`).  A part name carries its kind's unit (resistor Ω,
+capacitor F, inductor H, voltage source V, current source A, switch Ω; gains: vcvs and cccs a
+plain number, vccs S, ccvs Ω), a quantity its unit (``3.3 ms``), a bare number, ``%`` and ``pi``
+none.  ``*`` and ``/`` multiply and divide dimensions; ``+``, ``-``, ``min``, ``max`` and
+``par`` need like units; ``exp``, ``ln`` and ``log10`` need a plain-number argument; ``sqrt``
+halves the exponents; ``**`` needs a plain-number exponent, a constant (a ratio with a small
+denominator) when the base has a unit.  The result must be in the field's unit (``R1*C1`` for a
+time constant).  A formula of bare numbers alone (no part, no unit) is a plain number taken in
+the field's unit, as a bare number is in any other field.  A formula that is a single quantity
+with a unit (``= 100 ms``) must fit the field even without ``units``.
 
 Every failure is a :class:`FormulaError` naming the token and its 1-based column.  Limits: at
 most 500 characters, nesting (parentheses, signs, exponents) at most 50 deep, and every
@@ -38,13 +47,17 @@ import math
 import operator
 import re
 from dataclasses import dataclass
+from fractions import Fraction
 from typing import Callable, Mapping
 
+from .dimension import ONE, Dimension, describe, of_unit
 from .errors import UnitError
 from .units import DIMENSION_NAMES, PREFIXES, UNITS, parse_quantity
 
 MAX_LENGTH = 500
 MAX_DEPTH = 50
+#: largest denominator of a fractional power of a quantity with a unit (``sqrt`` is 1/2)
+MAX_DENOMINATOR = 12
 
 _NUMBER = re.compile(r"(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?")
 _IEC = re.compile(r"[0-9]+[RrKkMGTpnuµμmf][0-9]+")
@@ -87,16 +100,21 @@ def is_formula(raw: object) -> bool:
     return isinstance(raw, str) and raw.lstrip().startswith("=")
 
 
-def evaluate(text: str, values: Mapping[str, float], dimension: str | None = None) -> float:
+def evaluate(text: str, values: Mapping[str, float], dimension: str | None = None,
+             units: Mapping[str, str] | None = None) -> float:
     """Evaluate formula ``text`` with part names bound to ``values``; return the SI float.
 
     Args:
         text: the formula, starting with ``=`` (leading blanks allowed).
         values: part name -> value in SI base units (ohms, farads, henries, volts, amperes, gain).
-        dimension: the field's dimension (``"s"``, ``"V"`` ...) for the single-quantity check.
+        dimension: the field's dimension (``"s"``, ``"V"`` ...), a units.py dimension word.
+        units: part name -> the dimension word of its value (``"ohm"``, ``"F"`` ...); with it
+            and ``dimension`` the formula is dimension-checked (module doc, "Units").  A part
+            missing from it has an unknown unit and leaves what it touches unchecked.
 
     Raises:
-        FormulaError: unreadable text, unknown part or function, or a result that is not finite.
+        FormulaError: unreadable text, unknown part or function, a result that is not finite,
+            or (with ``units``) unlike units combined or a result not in the field's unit.
     """
     tree = _Parser(text).tree
     lone = tree
@@ -108,7 +126,10 @@ def evaluate(text: str, values: Mapping[str, float], dimension: str | None = Non
                     f"{DIMENSION_NAMES.get(unit, unit)}, but this field is in "
                     f"{DIMENSION_NAMES.get(dimension, dimension)}", text, lone[2].text,
                     lone[2].column)
-    return _Evaluator(text, values).run(tree)
+    value = _Evaluator(text, values).run(tree)
+    if dimension is not None and units is not None:
+        _Dimensions(text, values, units).check(tree, dimension)
+    return value
 
 
 def names(text: str) -> set[str]:
@@ -334,28 +355,42 @@ _FUNCTIONS: dict[str, tuple[bool, Callable[..., float], Callable[[float], bool],
 }
 
 
-class _Evaluator:
-    """Evaluates a parse tree in floating point; every intermediate result must be finite."""
+class _Walker:
+    """Folds a parse tree bottom-up (node kinds: ``_Parser``); a subclass says what a number,
+    a part name, a sign, a power, a call and a ``+ - * /`` step give."""
 
-    def __init__(self, text: str, values: Mapping[str, float]) -> None:
-        self.text, self.values = text, values
-
-    def run(self, node: tuple) -> float:
+    def run(self, node: tuple):
         kind = node[0]
         if kind == "num":
-            return node[1]
+            return self.number(node)
         if kind == "name":
             return self.lookup(node[1])
         if kind == "neg":
-            return -self.run(node[1])
+            return self.negate(self.run(node[1]))
         if kind == "pow":
-            return self.binary(node[3], self.run(node[1]), self.run(node[2]))
+            return self.power(node[1], node[2], node[3])
         if kind == "call":
             return self.call(node[1], [self.run(arg) for arg in node[2]])
         acc = self.run(node[1])
         for op, sub in node[2]:
             acc = self.binary(op, acc, self.run(sub))
         return acc
+
+
+class _Evaluator(_Walker):
+    """Evaluates a parse tree in floating point; every intermediate result must be finite."""
+
+    def __init__(self, text: str, values: Mapping[str, float]) -> None:
+        self.text, self.values = text, values
+
+    def number(self, node: tuple) -> float:
+        return node[1]
+
+    def negate(self, value: float) -> float:
+        return -value
+
+    def power(self, base: tuple, exponent: tuple, op: _Token) -> float:
+        return self.binary(op, self.run(base), self.run(exponent))
 
     def lookup(self, token: _Token) -> float:
         where = f"{token.text!r} at column {token.column}"
@@ -412,3 +447,94 @@ class _Evaluator:
             raise _fail(f"overflow at {token.text!r} at column {token.column} (the result is "
                         f"not a finite number)", self.text, token.text, token.column)
         return result
+
+
+class _Dimensions(_Walker):
+    """The dimension of each node of a parse tree (module doc, "Units"); None means unknown
+    (a part without a known unit).  ``carried`` records whether a part or a unit was met."""
+
+    def __init__(self, text: str, values: Mapping[str, float], units: Mapping[str, str]) -> None:
+        self.text, self.values, self.units, self.carried = text, values, units, False
+
+    def check(self, tree: tuple, dimension: str) -> None:
+        """Raise FormulaError unless the formula's result is in ``dimension``."""
+        found, want = self.run(tree), of_unit(dimension)
+        if found is None or not self.carried or found == want:
+            return
+        raise _fail(f"the formula gives {describe(found)}, but this field is in "
+                    f"{describe(want)}", self.text,
+                    tail=" (a part carries its unit: resistor Ω, capacitor F, inductor H, "
+                         "voltage source V, current source A; so R·C and L/R are in seconds, "
+                         "V/R in amperes)")
+
+    def number(self, node: tuple) -> Dimension:
+        unit = node[2].unit
+        self.carried |= unit not in (None, "%", "1")
+        return of_unit(unit)
+
+    def lookup(self, token: _Token) -> Dimension | None:
+        self.carried = True
+        unit = self.units.get(token.text)
+        return None if unit is None else of_unit(unit)
+
+    def negate(self, dim: Dimension | None) -> Dimension | None:
+        return dim
+
+    def binary(self, op: _Token, a: Dimension | None, b: Dimension | None) -> Dimension | None:
+        if a is None or b is None:
+            return None
+        if op.kind == "*":
+            return a * b
+        if op.kind == "/":
+            return a / b
+        if a != b:
+            verb = "adds" if op.kind == "+" else "subtracts"
+            raise _fail(f"{op.text!r} at column {op.column} {verb} unlike units: "
+                        f"{describe(a)} and {describe(b)}", self.text, op.text, op.column,
+                        _plain_hint(a, b))
+        return a
+
+    def power(self, base: tuple, exponent: tuple, op: _Token) -> Dimension | None:
+        """``base ** exponent``: a plain-number exponent, constant when the base has a unit."""
+        dim, power = self.run(base), self.run(exponent)
+        where = f"{op.text!r} at column {op.column}"
+        if power is not None and not power.dimensionless:
+            raise _fail(f"the exponent of {where} is in {describe(power)}; an exponent must "
+                        f"be a plain number", self.text, op.text, op.column)
+        if dim is None or dim.dimensionless:
+            return dim
+        value = _Evaluator(self.text, self.values).run(exponent)
+        ratio = Fraction(value).limit_denominator(MAX_DENOMINATOR)
+        if abs(ratio - value) > 1e-9 * max(1.0, abs(value)):
+            raise _fail(f"{describe(dim)} to the power {value:g} at {where} has no unit; raise "
+                        f"a quantity with a unit only to a whole or simple fractional power",
+                        self.text, op.text, op.column)
+        return dim ** ratio
+
+    def call(self, token: _Token, dims: list[Dimension | None]) -> Dimension | None:
+        name, where = token.text, f"at column {token.column}"
+        if any(d is None for d in dims):
+            return None
+        if name in ("exp", "ln", "log10"):
+            if not dims[0].dimensionless:
+                raise _fail(f"{name}() {where} needs a plain-number argument, got "
+                            f"{describe(dims[0])} (write a ratio such as V1/(1 V))", self.text,
+                            name, token.column)
+            return ONE
+        if name == "sqrt":
+            return dims[0] ** Fraction(1, 2)
+        for d in dims[1:]:
+            if d != dims[0]:
+                raise _fail(f"{name}() {where} mixes unlike units: {describe(dims[0])} and "
+                            f"{describe(d)}", self.text, name, token.column,
+                            _plain_hint(dims[0], d))
+        return dims[0]
+
+
+def _plain_hint(a: Dimension, b: Dimension) -> str:
+    """A hint when one of two unlike operands is a plain number (a number written without its
+    unit, which in a formula stays a plain number)."""
+    if a.dimensionless or b.dimensionless:
+        return " (a number without a unit is a plain number in a formula: write its unit, " \
+               "e.g. '4k7 Ω' or '0 V')"
+    return ""

@@ -247,6 +247,8 @@ class Circuit:
         expectations: the ``[[expect]]`` blocks in file order.
         settings: file-wide settings.
         source: the path the circuit was read from (for messages), or ``"<memory>"``.
+        warnings: the reader's warnings about what the file says (probable slips that still
+            run, each naming file, line, part and field), in file order.
     """
 
     title: str
@@ -255,6 +257,7 @@ class Circuit:
     expectations: tuple[Expectation, ...] = ()
     settings: Settings = Settings()
     source: str = "<memory>"
+    warnings: tuple[str, ...] = ()
 
     def part(self, name: str) -> Part:
         """The part called ``name`` (KeyError if there is none)."""

@@ -147,7 +147,8 @@ class CheckResult:
 
 @dataclass(frozen=True)
 class FileResult:
-    """One circuit file."""
+    """One circuit file.  ``warnings`` holds the reader's warnings about the file first (also in
+    ``input_warnings``, which the command line prints on stderr), then the engines'."""
 
     file: str
     title: str
@@ -164,6 +165,7 @@ class FileResult:
     messages: tuple[str, ...] = ()
     #: every probe of the file across the whole schedule, for the reports' schedule plot
     schedule: Schedule | None = None
+    input_warnings: tuple[str, ...] = ()
 
     def to_json(self) -> dict[str, Any]:
         out = {"file": self.file, "title": self.title, "verdict": self.verdict,

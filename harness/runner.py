@@ -55,8 +55,10 @@ def collect(paths: Iterable[str]) -> tuple[list[str], list[FileResult]]:
     return list(dict.fromkeys(files)), missing
 
 
-def _error_result(file: str, message: str, title: str = "") -> FileResult:
-    return FileResult(file=file, title=title, verdict=ERROR, errors=(message,))
+def _error_result(file: str, message: str, title: str = "",
+                  warnings: tuple[str, ...] = ()) -> FileResult:
+    return FileResult(file=file, title=title, verdict=ERROR, errors=(message,),
+                      warnings=warnings, input_warnings=warnings)
 
 
 def check_file(path: str, numeric: bool = True) -> FileResult:
@@ -84,12 +86,13 @@ def check_file(path: str, numeric: bool = True) -> FileResult:
         return compare_file(circuit, exact, sim, cautions=cautions,
                             seconds=time.perf_counter() - started)
     except InputError as err:
-        return _error_result(path, str(err.located(file=path)), circuit.title)
+        return _error_result(path, str(err.located(file=path)), circuit.title, circuit.warnings)
     except Exception as err:  # an engine fault must not take the run down with it
         if os.environ.get("TAUPROOF_DEBUG"):
             raise
         return _error_result(path, f"{path}: internal error while analysing: "
-                                   f"{type(err).__name__}: {err}", circuit.title)
+                                   f"{type(err).__name__}: {err}", circuit.title,
+                             circuit.warnings)
 
 
 #: node-voltage evaluations spent looking for hazardous voltages (nodes × events)

@@ -25,6 +25,7 @@ from collections import deque
 
 from . import model as m
 from .errors import InitialStateError, TopologyError
+from .filelines import closest
 from .units import format_si
 
 VOLTAGE_TYPE, CURRENT_TYPE, OPEN, RESISTIVE = "voltage-type", "current-type", "open", "resistive"
@@ -211,7 +212,20 @@ def _check_connected(circuit, closed, when, changed) -> None:
     ground = forest.root(circuit.ground)
     for root, nodes in forest.groups(circuit.nodes).items():
         if root != ground:
-            raise _floating_error(circuit, nodes, closed, when, changed)
+            raise _with_near_miss(circuit, nodes,
+                                  _floating_error(circuit, nodes, closed, when, changed))
+
+
+def _with_near_miss(circuit, nodes: list, err: TopologyError) -> TopologyError:
+    """``err`` moved to the ``nodes`` of the part terminal that names a near-miss node of
+    ``nodes`` (``_near_miss``), with the likely name suggested; ``err`` itself otherwise."""
+    typo = _near_miss(circuit, nodes)
+    if typo is None or err.field == "steps":
+        return err
+    node, owner, side, meant = typo
+    return _error(TopologyError, circuit, owner, "nodes",
+                  f"node '{node}' ({owner.name}'s {side} terminal) may be a typo: "
+                  f"did you mean '{meant}'? ({err.message})")
 
 
 def _floating_error(circuit, nodes, closed, when, changed) -> TopologyError:
@@ -361,13 +375,42 @@ def _check_capacitor_paths(circuit, closed) -> None:
         rp, rn = forest.root(p.p), forest.root(p.n)
         if rp == rn or (rp == ground and rn == ground):
             continue
-        nodes = groups[rp if rp != ground else rn]
-        raise _error(InitialStateError, circuit, p, "initial",
-                     f"{p.name}'s voltage before t = 0 is undefined: {_nodes_text(nodes)} "
-                     f"{'has' if len(nodes) == 1 else 'have'} no DC path to ground "
-                     f"('{circuit.ground}') (before t = 0 capacitors without initial are open "
-                     f"and inductors with initial act as current sources); give {p.name} an "
-                     f"initial value")
+        end = "p" if rp != ground else "n"
+        raise _capacitor_path_error(circuit, p, end, groups[rp if rp != ground else rn])
+
+
+def _capacitor_path_error(circuit, cap: m.Part, end: str, nodes: list) -> InitialStateError:
+    """The error for capacitor ``cap`` whose ``end`` terminal ("p"/"n") is on ``nodes``, a group
+    with no DC path to ground: a near-miss node name is blamed on the terminal that wrote it."""
+    gnd = circuit.ground
+    why = ("before t = 0 capacitors without initial are open and inductors with initial act as "
+           "current sources")
+    typo = _near_miss(circuit, nodes)
+    if typo is not None:
+        node, owner, side, meant = typo
+        return _error(InitialStateError, circuit, owner, "nodes",
+                      f"node '{node}' ({owner.name}'s {side} terminal) has no DC path to ground "
+                      f"('{gnd}'); did you mean '{meant}'? (as written, {cap.name}'s voltage "
+                      f"before t = 0 is undefined: {why})")
+    node = cap.p if end == "p" else cap.n
+    return _error(InitialStateError, circuit, cap, "initial",
+                  f"{cap.name}'s voltage before t = 0 is undefined: {_nodes_text(nodes)} "
+                  f"{'has' if len(nodes) == 1 else 'have'} no DC path to ground ('{gnd}') "
+                  f"({cap.name}'s {end} terminal is on '{node}'; {why}); give {cap.name} an "
+                  f"initial value")
+
+
+def _near_miss(circuit, nodes: list) -> tuple[str, m.Part, str, str] | None:
+    """(node, part, terminal "p"/"n", likely name) for a node of ``nodes`` that only one part
+    terminal names and whose name is close to a node outside ``nodes``, or None."""
+    others = [n for n in circuit.nodes if n not in set(nodes)]
+    for node in nodes:
+        ends = [(part, side) for part in circuit.parts
+                for side, name in (("p", part.p), ("n", part.n)) if name == node]
+        meant = closest(node, others) if len(ends) == 1 else None
+        if meant is not None:
+            return node, ends[0][0], ends[0][1], meant
+    return None
 
 
 def _check_initial_currents(circuit, closed) -> None:

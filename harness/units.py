@@ -113,6 +113,20 @@ def _parse_text(text: str, dimension: str, allow_percent: bool) -> float:
     raise UnitError(f"cannot read {text!r} as a quantity (examples: '4k7', '3.3 V', '100 ms', '1 uF')")
 
 
+def has_suffix(text: str) -> bool:
+    """True when ``text`` is quantity text with a prefix or unit (``100k``, ``4k7``, ``10 uF``):
+    what TOML cannot read unquoted, unlike a plain number."""
+    m = _PLAIN.match(text)
+    if m and m.group(2):
+        try:
+            _split_suffix(m.group(2))
+            return True
+        except ValueError:
+            pass
+    m = _IEC.match(text)
+    return bool(m and (m.group(2) or m.group(3) in "Rr") and m.group(5) in ("", *UNITS))
+
+
 def _scaled(digits: str, scale: float) -> float:
     """``digits`` times a power-of-ten ``scale``, rounded once (so ``10 µs`` is exactly 1e-05)."""
     if not digits.lstrip("+-"):

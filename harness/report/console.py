@@ -70,7 +70,8 @@ def render_warnings(run: RunResult) -> str:
     there are none."""
     lines = []
     for file in run.files:
-        lines += [f"warning: {file.file}: {text}" for text in dict.fromkeys(file.warnings)]
+        lines += [f"warning: {text}" if text.startswith(f"{file.file}:")
+                  else f"warning: {file.file}: {text}" for text in dict.fromkeys(file.warnings)]
     return common.printable("\n".join(lines))
 
 
