@@ -38,7 +38,7 @@ SIGNOFF_KEYS = {"crossing": "crossing", "peak": "peak", "energy": "energy",
                 "dominant-tau": "dominant_tau"}
 EXPECT_KEYS = PROBE_KEYS + ("at",) + m.FIELDS + tuple(SIGNOFF_KEYS) + ("tolerance", "note")
 CROSSING_KEYS = ("level", "time", "direction")
-ENERGY_KEYS = ("part", "value")
+ENERGY_KEYS = ("part", "value", "until")
 #: a tolerance given as a bare fraction above this gets a warning (0.5 is 50 %, seldom meant)
 BARE_TOLERANCE_WARNING = 0.2
 #: an ``at`` matches an event within this relative amount plus ``EVENT_ABS`` seconds
@@ -383,7 +383,8 @@ def _crossing(raw: object, probe: m.Probe, scope: _Scope, where: Where,
 
 def _energy(raw: object, circuit: m.Circuit, scope: _Scope, where: Where,
             index: int) -> m.EnergyCheck:
-    """``energy = { part = "R1", value = "12.5 mJ" }`` for a resistor or a switch."""
+    """``energy = { part = "R1", value = "12.5 mJ", until = "5 ms" }`` for a resistor, a switch
+    or a controlled source (``until`` optional)."""
     example = 'energy = { part = "R1", value = "12.5 mJ" }'
     table = _subtable(raw, ENERGY_KEYS, "part", example, where, index, "energy")
     label, path = expect_label(index), ("expect", index, "energy")
@@ -396,16 +397,21 @@ def _energy(raw: object, circuit: m.Circuit, scope: _Scope, where: Where,
     kind = circuit.part(name).kind
     if kind not in m.DISSIPATIVE:
         raise where.error(f"energy part {name} is a {kind}; dissipated energy is reported for "
-                          f"resistors and switches (stored energy of capacitors and inductors "
-                          f"is in the report at every event)", path=path, part=label,
-                          field="energy")
+                          f"resistors, switches and controlled sources (stored energy of "
+                          f"capacitors and inductors is in the report at every event)",
+                          path=path, part=label, field="energy")
     value, text = None, None
     if "value" in table:
         value, text = _hand_value(table["value"], "J", scope, where, index, "energy")
-        if value < 0:
-            raise where.error(f"dissipated energy must not be negative, got "
-                              f"{table['value']!r}", path=path, part=label, field="energy")
-    return m.EnergyCheck(part=name, value=value, formula=text or "")
+    until = None
+    if "until" in table:
+        until = where.quantity(table["until"], "s", path=path + ("until",), part=label,
+                               field="energy.until")
+        if not until > 0:
+            raise where.error(f"energy until must be a time after the event, got "
+                              f"{table['until']!r}", path=path + ("until",), part=label,
+                              field="energy.until")
+    return m.EnergyCheck(part=name, value=value, formula=text or "", until=until)
 
 
 def _probe(raw: dict, circuit: m.Circuit, where: Where, index: int) -> m.Probe:

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
+from functools import cached_property
 
 import numpy as np
 
@@ -118,7 +119,11 @@ class CheckContext:
         self.numeric = numeric
         self.probe = probe
         self.k = k
-        self.scale = probe_scale(circuit, exact, probe)
+
+    @cached_property
+    def scale(self) -> float:
+        """The probe's scale (``probe_scale``), computed on first use."""
+        return probe_scale(self.circuit, self.exact, self.probe)
 
 
 

@@ -18,8 +18,8 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from . import tolerances as tol
-from .model import (CURRENT_SOURCE, RESISTOR, SIGNOFF_FIELDS, SWITCH, THROUGH, VOLTAGE_SOURCE,
-                    Expectation, Probe)
+from .model import (CURRENT_SOURCE, RESISTOR, SIGNOFF_FIELDS, SWITCH, VOLTAGE_SOURCE,
+                    Expectation)
 from .outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
 from .results import DominantTau, Features
 from .units import exact_digits, format_apart, format_exact, format_si
@@ -246,46 +246,44 @@ def _source_magnitudes(circuit) -> tuple[float, float]:
     return max(volts), max(amps)
 
 
-def _dissipation_scale(ctx: "CheckContext", part_name: str) -> float:
-    """max(R I^2, R_min I_f^2) * T in J, with R the part's resistance in interval k (a switch's
-    on- or off-resistance, 0 for ideal parts), I the largest current it carries at any event,
-    I_f = ``tol.CURRENT_NOISE`` times the circuit's current scale V_s / R_min + I_s (largest
-    source voltage and current, smallest resistance) and T the interval's τ scale (a tenth of
-    the exact span: its slowest τ)."""
-    part = ctx.circuit.part(part_name)
-    resistance = 0.0
-    if part.kind == RESISTOR:
-        resistance = abs(part.value)
-    elif part.kind == SWITCH:
-        closed = part.is_closed(ctx.circuit.events[ctx.k])
-        resistance = abs((part.on_resistance if closed else part.off_resistance) or 0.0)
+def _noise_energy(ctx: "CheckContext") -> float:
+    """R_min I_f^2 T in J: what rounding noise dissipates, with R_min the circuit's smallest
+    resistance, I_f = ``tol.CURRENT_NOISE`` times its current scale V_s / R_min + I_s (largest
+    source voltage and current) and T the interval's τ scale (a tenth of the exact span)."""
     resistances = [abs(p.value) for p in ctx.circuit.parts if p.kind == RESISTOR and p.value]
-    resistances += [resistance] if resistance else []
+    resistances += [abs(r) for p in ctx.circuit.parts if p.kind == SWITCH
+                    for r in (p.on_resistance, p.off_resistance) if r]
     if not resistances:
         return 0.0
-    from .compare import probe_scale
-    current = probe_scale(ctx.circuit, ctx.exact, Probe(THROUGH, (part_name,)))
     v_s, i_s = _source_magnitudes(ctx.circuit)
     r_min = min(resistances)
     noise = tol.CURRENT_NOISE * (v_s / r_min + i_s)
     start, end = ctx.exact.span(ctx.k)
-    return max(resistance * current ** 2, r_min * noise ** 2) * (end - start) / 10.0
+    return r_min * noise ** 2 * (end - start) / 10.0
 
 
-def energy_scale(ctx: "CheckContext", value: float | None, part_name: str | None = None) -> float:
-    """The energy scale in J that the floor of one part's energy is a fraction of: the energy
-    itself and, for a part, its own dissipation scale (``_dissipation_scale``: R I^2 T, at least
-    the rounding-noise floor R_min I_f^2 T), so that a part carrying only rounding noise is not
-    judged on it.  The circuit's stored energies are not part of it: a 10 mJ bleed beside a
-    400 V DC link storing 50 J is judged on its own 10 mJ, not on a floor of 1e-6 x 50 J.  An
-    ideal closed switch has no R I^2 T: its scale is the energy stored at the event, which
-    bounds the jump loss it can carry (the numerical engine's pulse loss rounds at ~1e-21 J)."""
-    scales = [0.0 if value is None else abs(value)]
-    if part_name is not None:
-        scales.append(_dissipation_scale(ctx, part_name))
-        if _ideal_switch(ctx, part_name):
-            scales += _stored_at_event(ctx)
-    return max(scales + [1e-300])
+def engine_energy_floor(ctx: "CheckContext", ee, part_name: str) -> float:
+    """The floor (J) of the two engines' energies of one part: ``energy_floor`` and the
+    numerical engine's noise on an energy *above* a steady dissipation p_inf,
+    ``tol.ENGINE_FLOOR`` of p_inf over the interval's τ scale (a tenth of the exact span): its
+    integrated i^2 carries relative errors of about its tolerance on the whole current."""
+    start, end = ctx.exact.span(ctx.k)
+    steady = tol.ENGINE_FLOOR * abs(ee.steady_power or 0.0) * (end - start) / 10.0
+    return max(energy_floor(ctx, ee.energy, part_name), steady)
+
+
+def energy_floor(ctx: "CheckContext", value: float | None, part_name: str | None = None) -> float:
+    """The absolute floor in J below which two energies of one part compare as equal: small
+    against the energy itself (``tol.ENERGY_FLOOR`` of it), or the rounding noise where the
+    energy is at the noise (``_noise_energy``), and for an ideal closed switch, whose only
+    dissipation is a jump loss computed as a difference of stored energies, that difference's
+    rounding (``tol.JUMP_ENERGY_NOISE`` of the energy stored at the event).  Never a scale of
+    the part's peak current times the interval's span: a nanosecond spike of 0.1 A beside a
+    10 ms tail made such a floor larger than the energy."""
+    floors = [tol.ENERGY_FLOOR * (0.0 if value is None else abs(value)), _noise_energy(ctx)]
+    if part_name is not None and _ideal_switch(ctx, part_name):
+        floors += [tol.JUMP_ENERGY_NOISE * v for v in _stored_at_event(ctx)]
+    return max(floors + [1e-300])
 
 
 def _ideal_switch(ctx: "CheckContext", part_name: str) -> bool:
@@ -305,12 +303,13 @@ def _stored_at_event(ctx: "CheckContext") -> list[float]:
 def compare_energy(exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldResult:
     """Energy dissipated in a part over the interval continued until settled."""
     want = exp.energy
-    ee = ctx.exact.energy(want.part, ctx.k)
-    en = _call(ctx.numeric, "energy", want.part, ctx.k)
-    floor = tol.ENERGY_FLOOR * energy_scale(ctx, ee.energy, want.part)
+    ee = ctx.exact.energy(want.part, ctx.k, want.until)
+    en = _call(ctx.numeric, "energy", want.part, ctx.k, want.until)
+    floor = energy_floor(ctx, ee.energy, want.part)
     verdict, message = PASS, ""
     numeric = None if en is None else en.energy
-    if en is not None and not tol.agree(ee.energy, numeric, tol.ENERGY_ENGINE_RELATIVE, floor):
+    if en is not None and not tol.agree(ee.energy, numeric, tol.ENERGY_ENGINE_RELATIVE,
+                                        engine_energy_floor(ctx, ee, want.part)):
         verdict, message = ENGINES_DISAGREE, engine_message(ee.energy, numeric, "J")
     elif ee.energy is None:
         verdict = MISMATCH if want.value is not None else PASS
@@ -323,8 +322,11 @@ def compare_energy(exp: Expectation, fe: Features, ctx: "CheckContext") -> Field
     message = "; ".join(([message] if message else []) + notes)
     extra = {"part": want.part, "jump": ee.jump, "steady_power": ee.steady_power,
              "in_interval": ee.in_interval,
-             "includes": "the transient above the steady dissipation, from t_k+ until settled,"
-                         " plus the jump's loss where the part carries its impulse"}
+             "until": want.until,
+             "includes": ("the whole absorbed energy from t_k to t_k + until, plus the jump's loss "
+                          "where the part carries its impulse" if want.until is not None else
+                          "the transient above the steady dissipation, from t_k+ until settled,"
+                          " plus the jump's loss where the part carries its impulse")}
     return FieldResult(name="energy", hand=want.value, closed_form=ee.energy, numeric=numeric,
                        verdict=verdict, unit="J", message=message, formula=want.formula,
                        tolerance=hand_relative(exp, ctx), extra=extra, floor=floor)

@@ -32,6 +32,8 @@ SOURCES = (VOLTAGE_SOURCE, CURRENT_SOURCE)
 STORAGE = (CAPACITOR, INDUCTOR)
 VOLTAGE_CONTROLLED = (VCVS, VCCS)
 CURRENT_CONTROLLED = (CCVS, CCCS)
+#: every controlled source
+CONTROLLED = VOLTAGE_CONTROLLED + CURRENT_CONTROLLED
 #: parts whose current a ccvs/cccs may sense
 CURRENT_SENSORS = (VOLTAGE_SOURCE, SWITCH, INDUCTOR, RESISTOR)
 
@@ -48,7 +50,7 @@ SIGNOFF_FIELDS = ("crossing", "peak", "energy", "dominant_tau")
 RISING, FALLING, EITHER = "rising", "falling", "either"
 DIRECTIONS = (RISING, FALLING, EITHER)
 #: the part kinds whose dissipated energy an expectation may ask for
-DISSIPATIVE = (RESISTOR, SWITCH)
+DISSIPATIVE = (RESISTOR, SWITCH, VCVS, VCCS, CCVS, CCCS)
 
 
 @dataclass(frozen=True)
@@ -169,16 +171,22 @@ class EnergyCheck:
     """Hand value for the energy dissipated in one part over an interval.
 
     Attributes:
-        part: a resistor, or a switch (its on-/off-resistance; an ideal switch dissipates only
-            the loss of a jump whose impulse it carries).
+        part: a resistor, a switch (its on-/off-resistance; an ideal switch dissipates only
+            the loss of a jump whose impulse it carries) or a controlled source (the power it
+            absorbs, v·i under the passive sign convention: a transconductance stage sinking
+            current).
         value: the hand value in J, or None when only the computed energy is wanted.  The
-            quantity is defined in ``harness.results.EnergyValue``.
+            quantity is defined in ``harness.results.EnergyValue``; it may be negative (the
+            transient above a steady dissipation falls when the dissipation falls).
+        until: s after the event: when given, the energy is the whole dissipation from the
+            event to that time (steady part included, never negative for a resistor).
         formula: the formula text ``value`` was evaluated from, or "".
     """
 
     part: str
     value: float | None = None
     formula: str = ""
+    until: float | None = None
 
 
 @dataclass(frozen=True)

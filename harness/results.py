@@ -157,11 +157,14 @@ class PeakValue:
 
 @dataclass(frozen=True)
 class EnergyValue:
-    """Energy dissipated in one part over interval k, continued until settled.
+    """Energy absorbed by one part over interval k, continued until settled.
 
-    E = E_jump + integral from t_k+ to infinity of (p(t) - p_inf) dt, with p = i^2 R (R the
-    resistance, or a switch's on-/off-resistance in interval k) and p_inf = i_inf^2 R the steady
-    dissipation the held interval ends in.  E_jump is the jump's own loss at t_k (impulsive
+    E = E_jump + integral from t_k+ to infinity of (p(t) - p_inf) dt, with p = v i the power the
+    part absorbs under the passive sign convention (i^2 R for a resistor, or a switch with its
+    on-/off-resistance in interval k; a controlled source's v i, negative where it delivers
+    power) and p_inf the steady power the held interval ends in; E is negative where the power
+    falls below p_inf.  With ``until`` (s) given: E = E_jump + integral from t_k to t_k + until
+    of p dt, the whole absorbed energy over that window.  E_jump is the jump's own loss at t_k (impulsive
     currents through ideal parts) when the part is a switch that carries the impulse; a resistor
     never carries one.  With p_inf = 0 this is the whole energy; with p_inf > 0 the steady part
     (which grows without bound as long as the sources are held) is reported separately.
@@ -230,8 +233,8 @@ class SignoffSolution(Protocol):
     def peak(self, probe: Probe, k: int) -> PeakValue:
         """Largest magnitude of ``probe`` in interval k."""
 
-    def energy(self, part: str, k: int) -> EnergyValue:
-        """Energy dissipated in ``part`` over interval k."""
+    def energy(self, part: str, k: int, until: float | None = None) -> EnergyValue:
+        """Energy absorbed by ``part`` over interval k (or from the event to ``until`` s)."""
 
     def dominant(self, probe: Probe, k: int) -> DominantTau:
         """The zero-value time-constant estimate and how far it is from the exact waveform."""

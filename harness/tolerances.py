@@ -79,11 +79,13 @@ THEVENIN_SHORT = 1e-12
 #: current scale (largest source voltage over the smallest resistance plus the largest source
 #: current), so a part that carries only rounding noise is not judged on it
 CURRENT_NOISE = 1e-9
-#: absolute floor for energies, as a fraction of the part's own energy scale: the energy itself
-#: or the part's dissipation scale R I^2 τ, at least the rounding-noise floor R_min I_f^2 τ
-#: (compare_signoff.energy_scale and _dissipation_scale).  The circuit's largest stored energy
-#: is no longer part of it: beside a 50 J DC link it made the floor of a 10 mJ bleed 50 µJ
+#: absolute floor for energies, as a fraction of the energy itself (compare_signoff.
+#: energy_floor, beside the rounding-noise floor R_min I_f^2 T): a hand energy of 0 J, or half
+#: or twice the computed one, is never within it
 ENERGY_FLOOR = 1e-6
+#: rounding of a jump loss computed as stored energy before - after (+ source work), as a
+#: fraction of the energies stored at the event (double precision: ~1e-16 per term)
+JUMP_ENERGY_NOISE = 1e-13
 
 #: conditioning (harness.closedform.conditioning) above which a solution carries a warning:
 #: relative errors up to ~CONDITION_WARN * 2.2e-16 = 2e-8 (Higham 2002, ch. 7: log10 kappa digits)

@@ -33,7 +33,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 from scipy.optimize import brentq
 
-from ..model import CAPACITOR, FALLING, INDUCTOR, RESISTOR, RISING, SWITCH, Probe, THROUGH
+from ..model import CAPACITOR, FALLING, INDUCTOR, RISING
 from ..results import CrossingValue, DominantTau, EnergyValue, PeakValue
 from ..tolerances import THEVENIN_SHORT, WAVEFORM_SWING_FLOOR
 from .features import RawEvent
@@ -137,11 +137,13 @@ class ExpSum:
             total += sum(am / (-r) ** (m + 1) for m, am in enumerate(a))
         return total * self.t_ref
 
-    def square_integral(self) -> complex:
-        """int_0^inf delta(u)^2 du in unit²·s (requires ``decays``)."""
+    def product_integral(self, other: "ExpSum") -> complex:
+        """int_0^inf delta(u) delta_other(u) du in unit·unit_other·s (both must decay): each
+        pair of terms a u^m/m! e^(r u) b u^n/n! e^(q u) integrates to a b (m+n)!/(m! n!)
+        / (-(r+q))^(m+n+1) (the Laplace transform of u^(m+n) at 0)."""
         total = 0j
         for ri, ai in zip(self.rates, self.coeffs):
-            for rj, aj in zip(self.rates, self.coeffs):
+            for rj, aj in zip(other.rates, other.coeffs):
                 mu = -(ri + rj)
                 for m, am in enumerate(ai):
                     for n, an in enumerate(aj):
@@ -234,11 +236,12 @@ def peak(ex: ExpSum, end: float, final: float | None, next_gap: float | None) ->
     grid = np.concatenate([[0.0], ex.grid(end)])
     slopes = ex.slope(grid)
     fun = (lambda u: float(ex.slope(np.array([u]))[0]))
-    for i in range(len(grid) - 1):
-        if np.isfinite(slopes[i]) and np.isfinite(slopes[i + 1]) and \
-                slopes[i] * slopes[i + 1] < 0:
-            u = _refine(fun, grid[i], grid[i + 1])
-            candidates.append((float(ex.value(np.array([u]))[0]), u))
+    with np.errstate(invalid="ignore", over="ignore"):
+        turns = np.isfinite(slopes[:-1]) & np.isfinite(slopes[1:]) & \
+            (slopes[:-1] * slopes[1:] < 0)
+    for i in np.flatnonzero(turns):
+        u = _refine(fun, grid[i], grid[i + 1])
+        candidates.append((float(ex.value(np.array([u]))[0]), u))
     if final is not None:
         candidates.append((final, None))
     else:                           # no final value: the largest magnitude seen on the span
@@ -251,46 +254,54 @@ def peak(ex: ExpSum, end: float, final: float | None, next_gap: float | None) ->
 
 
 # ------------------------------------------------------------------------------- energy
-def resistance_in(part, closed: bool | None) -> float:
-    """The part's dissipating resistance in an interval (0 for ideal parts)."""
-    if part.kind == RESISTOR:
-        return float(part.value)
-    if part.kind == SWITCH:
-        r = part.on_resistance if closed else part.off_resistance
-        return float(r) if r is not None else 0.0
-    return 0.0
-
-
-def energy(ex: ExpSum, resistance: float, jump_loss: float, next_gap: float | None,
-           end: float) -> EnergyValue:
-    """Energy in a part with current ``ex`` and dissipating ``resistance`` (ohm) over an
-    interval (``harness.results.EnergyValue``); ``jump_loss`` is the included jump loss (J)."""
-    if resistance == 0.0:
-        return EnergyValue(jump_loss, jump=jump_loss, in_interval=None if next_gap is None
-                           else jump_loss)
-    if not ex.decays:
-        return EnergyValue(None, jump=jump_loss)
+def _settled_constant(ex: ExpSum) -> float:
+    """The final value, 0 where it is rounding noise of a waveform that decays to zero."""
     c = ex.constant
     if abs(c) <= 1e-12 * max(abs(ex.after or 0.0), abs(ex.before or 0.0), 1e-300):
-        c = 0.0                     # rounding noise of a current that decays to zero
-    transient = float(resistance * (2 * c * ex.integral() + ex.square_integral()).real)
+        return 0.0
+    return c
+
+
+def energy(voltage: ExpSum | None, current: ExpSum, jump_loss: float, next_gap: float | None,
+           end: float, until: float | None = None) -> EnergyValue:
+    """Energy absorbed by a part over an interval, p = v i under the passive sign convention
+    (``harness.results.EnergyValue``): the transient above the steady p_inf = v_inf i_inf as
+    c_v int delta_i + c_i int delta_v + int delta_v delta_i (closed form), or with ``until``
+    (s) the whole absorbed energy from the event to that time (Gauss-Legendre on the exact
+    waveforms).  ``voltage`` None: a part that absorbs nothing outside the jump (an ideal
+    switch); ``jump_loss`` (J) is the included jump loss."""
+    if voltage is None:
+        return EnergyValue(jump_loss, jump=jump_loss,
+                           in_interval=None if next_gap is None else jump_loss)
     in_interval = None
     if next_gap is not None:
-        in_interval = jump_loss + resistance * _square_quad(ex, next_gap, end)
-    return EnergyValue(transient + jump_loss, jump=jump_loss, steady_power=float(resistance * c * c),
+        in_interval = jump_loss + _product_quad(voltage, current, next_gap, end)
+    if not (voltage.decays and current.decays):
+        if until is not None:
+            return EnergyValue(jump_loss + _product_quad(voltage, current, until, end),
+                               jump=jump_loss, in_interval=in_interval)
+        return EnergyValue(None, jump=jump_loss)
+    cv, ci = _settled_constant(voltage), _settled_constant(current)
+    steady = float(cv * ci)
+    if until is not None:
+        total = jump_loss + _product_quad(voltage, current, until, end)
+        return EnergyValue(total, jump=jump_loss, steady_power=steady, in_interval=in_interval)
+    transient = float((cv * current.integral() + ci * voltage.integral()
+                       + voltage.product_integral(current)).real)
+    return EnergyValue(transient + jump_loss, jump=jump_loss, steady_power=steady,
                        in_interval=in_interval)
 
 
-def _square_quad(ex: ExpSum, length: float, end: float) -> float:
-    """int_0^length y(u)^2 du by composite Gauss-Legendre on the mode-resolving grid."""
-    grid = np.concatenate([[0.0], ex.grid(max(length, end))])
+def _product_quad(a: ExpSum, b: ExpSum, length: float, end: float) -> float:
+    """int_0^length a(u) b(u) du by composite Gauss-Legendre on both mode-resolving grids."""
+    grid = np.concatenate([[0.0], a.grid(max(length, end)), b.grid(max(length, end))])
     grid = np.unique(np.concatenate([grid[grid < length], [length]]))
     nodes, weights = np.polynomial.legendre.leggauss(GAUSS)
-    a, b = grid[:-1], grid[1:]
-    mid, half = (a + b) / 2, (b - a) / 2
+    lo, hi = grid[:-1], grid[1:]
+    mid, half = (lo + hi) / 2, (hi - lo) / 2
     u = (mid[:, None] + half[:, None] * nodes[None, :]).ravel()
-    y = ex.value(u).reshape(len(a), GAUSS)
-    return float(np.sum(half[:, None] * weights[None, :] * y * y))
+    y = (a.value(u) * b.value(u)).reshape(len(lo), GAUSS)
+    return float(np.sum(half[:, None] * weights[None, :] * y))
 
 
 # ------------------------------------------------------------------------------- dominant τ
@@ -359,8 +370,3 @@ def dominant(ex: ExpSum, terms: dict[str, float], rates: list[complex], end: flo
     settling = replace(ex, before=None)
     t50 = crossing(settling, final + swing / 2, "either", horizon, final, None).time
     return DominantTau(tau, dict(terms), msum, deviation, t50, tau * math.log(2))
-
-
-def probe_current_of(part) -> Probe:
-    """The ``through`` probe of a part."""
-    return Probe(THROUGH, (part.name,))

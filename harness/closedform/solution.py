@@ -7,8 +7,8 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ..errors import TopologyError
-from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, SOURCES, SWITCH, VCCS, VCVS, Circuit,
-                     Probe)
+from ..model import (ACROSS, CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, SOURCES, SWITCH, THROUGH,
+                     VCCS, VCVS, Circuit, Probe)
 from ..results import GROWTH, Features, Hazard, Jump
 from ..tolerances import MODE_VISIBILITY
 from ..units import format_si
@@ -142,9 +142,9 @@ class ClosedFormSolution:
         return signoff.peak(self.exponential_sum(probe, k), end, self.features(probe, k).final,
                             gap)
 
-    def energy(self, part_name: str, k: int):
-        """Energy dissipated in a resistor or switch over interval k
-        (``harness.results.EnergyValue``)."""
+    def energy(self, part_name: str, k: int, until: float | None = None):
+        """Energy absorbed by a resistor, switch or controlled source over interval k, or with
+        ``until`` (s) from the event to that time (``harness.results.EnergyValue``)."""
         part = self.circuit.part(part_name)
         end, gap = self._held(k)
         jump = self.jump(k)
@@ -154,9 +154,11 @@ class ClosedFormSolution:
                 from ..results import EnergyValue
                 return EnergyValue(None)
             loss = float(jump.energy)
-        resistance = signoff.resistance_in(part, self.intervals[k].closed.get(part_name))
-        current = self.exponential_sum(signoff.probe_current_of(part), k)
-        return signoff.energy(current, resistance, loss, gap, end)
+        closed = self.intervals[k].closed.get(part_name)
+        ideal = part.kind == SWITCH and not (part.on_resistance if closed else part.off_resistance)
+        voltage = None if ideal else self.exponential_sum(Probe(ACROSS, (part_name,)), k)
+        current = self.exponential_sum(Probe(THROUGH, (part_name,)), k)
+        return signoff.energy(voltage, current, loss, gap, end, until)
 
     def dominant(self, probe: Probe, k: int):
         """Zero-value time-constant estimate vs the exact waveform (``results.DominantTau``)."""

@@ -176,6 +176,28 @@ def _pulse_growth(circuit: Circuit, system, reg) -> float | None:
     return growth if growth > PILOT_SPLIT / reg.t_pulse else None
 
 
+#: settling is not judged before this many of the interval's slowest time constants
+#: (e^-25 ~ 1.4e-11: a mode has then decayed to the settle threshold integrate.SETTLE)
+SETTLE_SPAN = 25.0
+
+
+def _earliest_settle(system, reg) -> float:
+    """Local time (s) before which an interval is not judged settled: reg.t_fast, and at least
+    SETTLE_SPAN times the slowest decaying circuit mode of this interval's own Jacobian (up to
+    PILOT_MAX_STATES states; the pulse-scale modes and modes slower than the horizon left
+    out), capped at the horizon.  Without it a 10 s mode beside a 1 ps one read as settled
+    after 35 ps: its rate times the elapsed time was still below the threshold."""
+    if system.n == 0 or system.n > PILOT_MAX_STATES:
+        return reg.t_fast
+    jac = system.jac.toarray() if hasattr(system.jac, "toarray") else system.jac
+    if not np.all(np.isfinite(jac)):
+        return reg.t_fast
+    decay = -np.linalg.eigvals(jac).real
+    circuit_modes = decay[(decay > 1.0 / reg.horizon) & (decay < PILOT_SPLIT / reg.t_pulse)]
+    slowest = 1.0 / float(np.min(circuit_modes)) if circuit_modes.size else 0.0
+    return min(max(reg.t_fast, SETTLE_SPAN * slowest), reg.horizon)
+
+
 def _stopped(circuit: Circuit, k: int, run, steps: int, evals: int) -> str | None:
     """The warning for an interval whose values are not reported (integrator breakdown or
     a work budget: ``steps``, ``evals`` are the solve's totals so far), or None."""
@@ -245,6 +267,7 @@ def _march(circuit: Circuit, lay, systems, y0: np.ndarray, reg, rtol: float,
     y = y0
     steps = evals = 0
     growths: dict[int, float | None] = {}
+    earliest: dict[int, float] = {}
     factors: dict = {}
     for k, t_k in enumerate(events):
         system = systems[k]
@@ -255,8 +278,10 @@ def _march(circuit: Circuit, lay, systems, y0: np.ndarray, reg, rtol: float,
         if growth is not None:
             warnings.append(_growth_warning(k, t_k, growth))
             break
+        if id(system.jac) not in earliest:
+            earliest[id(system.jac)] = _earliest_settle(system, reg)
         run = integrate_interval(system, y, t_k, length, reg.horizon, rtol, atol,
-                                 reg.post_pulse, reg.t_fast, dynamic, window,
+                                 reg.post_pulse, earliest[id(system.jac)], dynamic, window,
                                  reg.t_pulse * FIRST_STEP,
                                  budget=(min(STEP_BUDGET, SOLVE_STEP_BUDGET - steps),
                                          min(EVAL_BUDGET, SOLVE_EVAL_BUDGET - evals)),

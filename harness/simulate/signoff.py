@@ -32,7 +32,7 @@ import math
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
-from ..model import EITHER, FALLING, RESISTOR, RISING, SWITCH, THROUGH, Probe
+from ..model import ACROSS, CONTROLLED, EITHER, FALLING, RESISTOR, RISING, SWITCH, THROUGH, Probe
 from ..results import CrossingValue, EnergyValue, PeakValue
 
 #: interior points per accepted step at which the dense output is scanned
@@ -192,35 +192,70 @@ def step_quadrature(run, stop: float) -> tuple[np.ndarray, np.ndarray]:
     return nodes.ravel(), (half[:, None] * wts[None, :]).ravel()
 
 
-def energy(sol, part_name: str, k: int) -> EnergyValue | None:
-    """Energy dissipated in a resistor or switch over interval k from the numerical
-    integration (module docstring); None when the integration stopped before interval k."""
+def _jump_loss(sol, part, k: int) -> float | None:
+    """The jump's loss (J) a switch carries at event k (its impulse of current or voltage in
+    this engine's pulse), 0 for other parts, None where the jump's energy is undefined."""
+    if part.kind != SWITCH:
+        return 0.0
+    jump = sol.jump(k)
+    if part.name in jump.charges or part.name in jump.fluxes:
+        return None if jump.energy is None else float(jump.energy)
+    return 0.0
+
+
+def _deviations(sol, run, k: int, probe: Probe, nodes: np.ndarray) -> tuple[np.ndarray, float]:
+    """(x - x_inf at local times ``nodes``, x_inf) of a probe, free of its offset.  Within the
+    pulse window the post-pulse fit extrapolated back to t_k+ stands in for the pulse (as for
+    ``after``): a finite current over the pulse's vanishing width dissipates nothing in the
+    ideal limit, and a switch's impulse is counted as the jump's loss instead."""
+    w, offset = sol.probe_terms(probe, k)
+    x_inf = float(run.probe(w, offset, np.array([run.end]))[0])
+    dev = run.probe(w, 0.0, nodes) - (x_inf - offset)
+    early = nodes < sol.regularisation.post_pulse
+    if np.any(early):
+        dev[early] = sol.held(probe, k, nodes[early]) - x_inf
+    return dev, x_inf
+
+
+def _power(sol, part, run, k: int, nodes: np.ndarray) -> tuple[np.ndarray, float]:
+    """(p - p_inf at ``nodes``, p_inf) in W: R i^2 for a resistor or switch (its resistance in
+    interval k), v i (passive sign convention) for a controlled source."""
+    di, i_inf = _deviations(sol, run, k, Probe(THROUGH, (part.name,)), nodes)
+    if part.kind in CONTROLLED:
+        dv, v_inf = _deviations(sol, run, k, Probe(ACROSS, (part.name,)), nodes)
+        return v_inf * di + i_inf * dv + dv * di, v_inf * i_inf
+    resistance = resistance_in(part, part.is_closed(sol.circuit.events[k]))
+    return resistance * di * (di + 2.0 * i_inf), resistance * i_inf ** 2
+
+
+def energy(sol, part_name: str, k: int, until: float | None = None) -> EnergyValue | None:
+    """Energy absorbed by a resistor, switch or controlled source over interval k from the
+    numerical integration (module docstring), or with ``until`` (s) the whole energy from the
+    event to that time; None when the integration stopped before interval k."""
     if k >= len(sol.runs):
         return None
     part = sol.circuit.part(part_name)
-    run = sol.runs[k]
+    run, loss = sol.runs[k], _jump_loss(sol, part, k)
+    if loss is None:
+        return EnergyValue(None)
     gap = run.length
-    loss = 0.0
-    if part.kind == SWITCH:
-        jump = sol.jump(k)
-        if part_name in jump.charges or part_name in jump.fluxes:
-            if jump.energy is None:
-                return EnergyValue(None)
-            loss = float(jump.energy)
-    resistance = resistance_in(part, part.is_closed(sol.circuit.events[k]))
-    if resistance == 0.0:
+    if part.kind == SWITCH and resistance_in(part, part.is_closed(sol.circuit.events[k])) == 0:
         return EnergyValue(loss, jump=loss, in_interval=None if gap is None else loss)
+
+    def total(stop: float) -> float | None:
+        nodes, weights = step_quadrature(run, stop)
+        dev, p_inf = _power(sol, part, run, k, nodes)
+        beyond = max(stop - run.end, 0.0)
+        if beyond and run.status != "settled":
+            return None
+        return loss + float(weights @ dev) + p_inf * (min(stop, run.end) + beyond)
+
+    in_interval = None if gap is None else total(gap)
+    if until is not None:
+        return EnergyValue(total(until), jump=loss, in_interval=in_interval)
     if run.status != "settled":
         return EnergyValue(None, jump=loss)
-    probe = Probe(THROUGH, (part_name,))
-    w, offset = sol.probe_terms(probe, k)
-    i_inf = float(run.probe(w, offset, np.array([run.end]))[0])
     nodes, weights = step_quadrature(run, run.end)
-    dev = run.probe(w, 0.0, nodes) - (i_inf - offset)   # i - i_inf, free of the offset
-    transient = resistance * float(weights @ (dev * (dev + 2.0 * i_inf)))
-    in_interval = None
-    if gap is not None:
-        nodes, weights = step_quadrature(run, gap)
-        in_interval = loss + resistance * float(weights @ run.probe(w, offset, nodes) ** 2)
-    return EnergyValue(transient + loss, jump=loss, steady_power=resistance * i_inf ** 2,
+    dev, p_inf = _power(sol, part, run, k, nodes)
+    return EnergyValue(float(weights @ dev) + loss, jump=loss, steady_power=p_inf,
                        in_interval=in_interval)

@@ -213,9 +213,10 @@ class NumericSolution:
         """Largest magnitude of ``probe`` in interval k (``results.PeakValue``), or None."""
         return signoff.peak(self, probe, k)
 
-    def energy(self, part: str, k: int):
-        """Energy dissipated in ``part`` over interval k (``results.EnergyValue``), or None."""
-        return signoff.energy(self, part, k)
+    def energy(self, part: str, k: int, until: float | None = None):
+        """Energy absorbed by ``part`` over interval k, or with ``until`` (s) from the event to
+        that time (``results.EnergyValue``), or None."""
+        return signoff.energy(self, part, k, until)
 
     def dominant(self, probe: Probe, k: int):
         """The numerical engine's zero-value time-constant estimate of ``probe`` in interval k
