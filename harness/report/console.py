@@ -46,19 +46,50 @@ def render_failures(run: RunResult, style: Style | None = None, show_all: bool =
 
 
 def _file_block(file: FileResult, rows: list[list[str]], style: Style) -> str:
-    """The file's heading line and its table, the message column fitted to the width."""
+    """The file's heading line and its table, the message column fitted to the width; when
+    the width leaves the messages too little room they go under their rows, full width."""
     title = f" — {file.title}" if file.title and file.title != file.file else ""
-    head = f"{common.printable(file.file)}{common.printable(title)}  " \
-           f"{style.verdict(file.verdict)}"
+    head = _coloured_tail(wrap(common.printable(f"{file.file}{title}  {file.verdict}"), style),
+                          file.verdict, style)
     rows = [[common.printable(c) for c in row] for row in rows]
-    widest = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(_HEADERS[:-1])]
+    # tabulate's simple format: a column is at least its header plus 2, columns 2 apart
+    widest = [max(len(h) + 2, *(len(r[i]) for r in rows)) for i, h in enumerate(_HEADERS[:-1])]
     room = MESSAGE_WIDTH if style.width is None else \
-        max(MIN_MESSAGE_WIDTH, style.width - sum(widest) - 2 * len(widest) - 2)
+        style.width - sum(widest) - 2 * len(widest) - 2
+    if style.width is not None and sum(widest) + 2 * len(widest) + 2 > style.width:
+        return head + "\n" + _stacked(rows, style)
+    messages = [row.pop() for row in rows] if room < MIN_MESSAGE_WIDTH else None
     for row in rows:
         row[5] = style.verdict(row[5])
-    table = tabulate(rows, headers=_HEADERS, tablefmt="simple",
-                     maxcolwidths=[None] * 6 + [room], disable_numparse=True)
-    return head + "\n" + "\n".join("  " + line for line in table.splitlines())
+    headers = _HEADERS if messages is None else _HEADERS[:-1]
+    table = tabulate(rows, headers=headers, tablefmt="simple", disable_numparse=True,
+                     maxcolwidths=[None] * 6 + [room] * (messages is None)).splitlines()
+    if messages is not None:
+        under = Style(width=(style.width or MESSAGE_WIDTH) - 4)
+        table = table[:2] + [line for row, text in zip(table[2:], messages)
+                             for line in [row] + ["  " + t for t in wrap(text, under)
+                                                  .splitlines() if t.strip()]]
+    return head + "\n" + "\n".join("  " + line for line in table)
+
+
+def _stacked(rows: list[list[str]], style: Style) -> str:
+    """Rows as wrapped lines for a terminal too narrow for the table: ``#1 node x at 0 s ·
+    after: hand 0 V, closed form 3.8 V, numeric — → mismatch``, the message under it."""
+    out = []
+    for check, field, hand, closed, numeric, verdict, message in rows:
+        line = wrap(f"{check} · {field}: hand {hand or '—'}, closed form {closed or '—'}, "
+                    f"numeric {numeric or '—'} → {verdict}", Style(width=style.width - 2))
+        out.append(_coloured_tail(line, verdict, style))
+        if message:
+            out.append(wrap(message, Style(width=style.width - 4)).replace("\n", "\n  ")
+                       .join(("  ", "")))
+    return "\n".join("  " + line for text in out for line in text.splitlines())
+
+
+def _coloured_tail(text: str, verdict: str, style: Style) -> str:
+    """``text`` (wrapped, ending in ``verdict``) with that last word coloured."""
+    body, _, _ = text.rpartition(verdict)
+    return body + style.verdict(verdict)
 
 
 def _passing_rows(check: CheckResult) -> list[list[str]]:
