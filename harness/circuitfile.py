@@ -44,14 +44,51 @@ BARE_TOLERANCE_WARNING = 0.2
 #: an ``at`` matches an event within this relative amount plus ``EVENT_ABS`` seconds
 EVENT_REL, EVENT_ABS = 1e-12, 1e-15
 
+#: what each key means, for the file-format reference (harness/reference.py writes it from these)
+TOP_LEVEL_HELP = {
+    "title": "text naming the circuit in the reports (default: the file name)",
+    "ground": "the reference node's name (default \"gnd\"); it must be a terminal of a part",
+    "settings": "a table of file-wide settings (below)",
+    "parts": "a table of name = { kind = …, nodes = [p, n], … } (below)",
+    "expect": "[[expect]] blocks: the hand values to check (below)",
+}
+SETTINGS_HELP = {
+    "tolerance": "relative tolerance for hand against computed values: \"1 %\" or 0.01 "
+                 "(default 1 %, or the project's `tolerance`); a bare number above 0.2 warns",
+    "acknowledge": "list of node and part names whose findings (an open node, an interrupted "
+                   "coil current, unbounded growth) the file accepts: reported, not failed",
+}
+EXPECT_HELP = {
+    m.NODE: ("", "probe: the voltage of this node against ground"),
+    m.BETWEEN: ("", "probe: [\"a\", \"b\"], the voltage v(a) − v(b)"),
+    m.ACROSS: ("", "probe: a part's voltage v(p) − v(n)"),
+    m.THROUGH: ("", "probe: a part's current from p through it to n"),
+    "at": ("s", "the event: t = 0 (default) or the time of a step of any source or switch"),
+    "before": ("probe", "value just before the event, x(t−)"),
+    "after": ("probe", "value just after the event, x(t+), jumps included"),
+    "final": ("probe", "value the interval heads to if nothing else happens, x(∞)"),
+    "tau": ("s", "the time constant of a first-order interval"),
+    "crossing": ("", "{ level = x (probe's unit), time = t (s, after the event; optional), "
+                     "direction = \"rising\" | \"falling\" | \"either\" }: when the probe "
+                     "first passes the level"),
+    "peak": ("probe", "largest magnitude |x| in the interval"),
+    "energy": ("", "{ part = \"R1\", value = e (J; optional) }: energy dissipated in a "
+                   "resistor or switch above the steady dissipation, jump loss included"),
+    "dominant-tau": ("s", "a one-τ estimate of a higher-order probe: the sum of its "
+                          "zero-value time constants"),
+    "tolerance": ("", "this block's own relative tolerance (as in [settings])"),
+    "note": ("", "free text shown in the reports"),
+}
+
 _QUOTED = re.compile(r'"(?:[^"\\\n]|\\.)*"|\'[^\'\n]*\'')
 _BARE_VALUE = re.compile(r"([=\[,])[ \t]*([+-]?[0-9.][^,}\]\[#=\"']*?)[ \t]*(?=[,}\]#]|$)")
 _KEY_BEFORE = re.compile(r"([A-Za-z0-9_-]+)[ \t]*=")
 _TOML_WHERE = re.compile(r"\s*\((?:at line (\d+), column (\d+)|at end of document)\)\s*$")
 
 
-def read_circuit(path: str | os.PathLike) -> m.Circuit:
-    """Read, validate and check the circuit file at ``path``.
+def read_circuit(path: str | os.PathLike, default_tolerance: float | None = None) -> m.Circuit:
+    """Read, validate and check the circuit file at ``path``; ``default_tolerance`` replaces
+    ``Settings.tolerance`` for a file whose ``[settings]`` give none (a project setting).
 
     Raises:
         InputError: the file cannot be read, is larger than ``MAX_FILE_BYTES``, is not UTF-8,
@@ -73,10 +110,11 @@ def read_circuit(path: str | os.PathLike) -> m.Circuit:
         line = data[:exc.start].count(b"\n") + 1
         raise InputError(f"the file is not UTF-8 text (byte 0x{data[exc.start]:02x} on line "
                          f"{line}); save it as UTF-8", file=source, line=line) from None
-    return parse_circuit(text, source)
+    return parse_circuit(text, source, default_tolerance)
 
 
-def parse_circuit(text: str, source: str = "<memory>") -> m.Circuit:
+def parse_circuit(text: str, source: str = "<memory>",
+                  default_tolerance: float | None = None) -> m.Circuit:
     """Parse, validate and check circuit-file ``text``; ``source`` names it in messages.
 
     A missing ``title`` defaults to the file name's stem (``untitled`` for ``<memory>``).
@@ -87,7 +125,7 @@ def parse_circuit(text: str, source: str = "<memory>") -> m.Circuit:
     text = text.removeprefix("\ufeff")
     where = Where(source, Locator.scan(text))
     data = _load_toml(text, where)
-    circuit = _build(data, where)
+    circuit = _build(data, where, default_tolerance)
     topology.check(circuit)
     ordered = sorted(where.warnings, key=lambda w: w.line or 0)
     return replace(circuit, warnings=tuple(str(w) for w in ordered))
@@ -183,7 +221,7 @@ def _duplicate_error(dup: tuple, where: Where) -> InputError:
     return where.error(text, part=part, field=field, line=again)
 
 
-def _build(data: dict, where: Where) -> m.Circuit:
+def _build(data: dict, where: Where, default_tolerance: float | None = None) -> m.Circuit:
     for key in data:
         if key not in TOP_LEVEL:
             hint = suggest(key, TOP_LEVEL) or f"; the top level takes {quoted_list(TOP_LEVEL)}"
@@ -207,7 +245,8 @@ def _build(data: dict, where: Where) -> m.Circuit:
                           f"node or connect a part to {ground!r}", path=("ground",),
                           field="ground")
     circuit = m.Circuit(title=title, parts=parts, ground=ground,
-                        settings=_settings(data.get("settings", {}), where), source=where.source)
+                        settings=_settings(data.get("settings", {}), where, default_tolerance),
+                        source=where.source)
     return replace(circuit, expectations=_expectations(data.get("expect", []), circuit, where))
 
 
@@ -235,7 +274,7 @@ def _default_title(source: str) -> str:
     return "untitled" if source == "<memory>" else Path(source).stem
 
 
-def _settings(raw: object, where: Where) -> m.Settings:
+def _settings(raw: object, where: Where, default_tolerance: float | None = None) -> m.Settings:
     if not isinstance(raw, dict):
         raise where.error("[settings] must be a table", path=("settings",), part="settings")
     for key in raw:
@@ -243,7 +282,7 @@ def _settings(raw: object, where: Where) -> m.Settings:
             raise where.error(f"unknown setting {key!r}{suggest(key, SETTINGS)}; [settings] "
                               f"takes {quoted_list(SETTINGS)}", path=("settings", key),
                               part="settings", field=key)
-    tolerance = m.Settings.tolerance
+    tolerance = m.Settings.tolerance if default_tolerance is None else default_tolerance
     if "tolerance" in raw:
         tolerance = _tolerance(raw["tolerance"], where, ("settings", "tolerance"), "settings")
     return m.Settings(tolerance=tolerance, acknowledge=_acknowledge(raw, where))

@@ -42,6 +42,25 @@ VALUE_DIMENSION = {m.RESISTOR: "ohm", m.CAPACITOR: "F", m.INDUCTOR: "H",
                    m.VOLTAGE_SOURCE: "V", m.CURRENT_SOURCE: "A",
                    m.VCVS: "1", m.VCCS: "S", m.CCVS: "ohm", m.CCCS: "1"}
 INITIAL_DIMENSION = {m.CAPACITOR: "V", m.INDUCTOR: "A"}
+#: what each field of a part means (the file-format reference is written from it)
+FIELD_HELP = {
+    "kind": "the part kind (below)",
+    "nodes": "[\"p\", \"n\"]: the two node names it connects; its voltage is v(p) − v(n) and "
+             "its current flows from p through it to n",
+    "value": "its value; for a source the value before the first step; for a controlled "
+             "source a synonym of `gain`",
+    "initial": "the state at t = 0−: a capacitor's voltage or an inductor's current (default: "
+               "the DC solution before t = 0)",
+    "steps": "[[time, new value], …] in increasing time order, each time ≥ 0 s; a switch steps "
+             "to \"open\" or \"closed\"",
+    "state": "\"open\" or \"closed\": the switch's state before its first step",
+    "on-resistance": "resistance when closed (default: an ideal short)",
+    "off-resistance": "resistance when open, greater than on-resistance (default: ideal open)",
+    "gain": "the gain (unit below)",
+    "control": "vcvs, vccs: [\"cp\", \"cn\"], the nodes whose voltage v(cp) − v(cn) it senses; "
+               "ccvs, cccs: the name of the part whose current it senses (a "
+               + ", ".join(m.CURRENT_SENSORS) + ")",
+}
 _ARTICLE = {m.INDUCTOR: "an"}
 _STATES = {"open": 0.0, "closed": 1.0}
 

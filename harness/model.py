@@ -28,6 +28,23 @@ CCCS = "cccs"
 
 KINDS = (RESISTOR, CAPACITOR, INDUCTOR, VOLTAGE_SOURCE, CURRENT_SOURCE, SWITCH, VCVS, VCCS, CCVS,
          CCCS)
+#: what each kind is, in a sentence (the file-format reference is written from it)
+KIND_HELP = {
+    RESISTOR: "a linear resistor",
+    CAPACITOR: "a linear capacitor; its voltage v(p) − v(n) is a state",
+    INDUCTOR: "a linear inductor; its current from p to n is a state",
+    VOLTAGE_SOURCE: "an ideal voltage source: v(p) − v(n) = value, stepped by `steps`",
+    CURRENT_SOURCE: "an ideal current source driving `value` from p through itself to n, "
+                    "stepped by `steps`",
+    SWITCH: "an ideal switch (a short when closed, open when open) or, with `on-resistance` / "
+            "`off-resistance`, a resistance that changes with its state",
+    VCVS: "voltage-controlled voltage source: v(p) − v(n) = gain · (v(cp) − v(cn))",
+    VCCS: "voltage-controlled current source: current gain · (v(cp) − v(cn)) from p through "
+          "itself to n",
+    CCVS: "current-controlled voltage source: v(p) − v(n) = gain · i(control part)",
+    CCCS: "current-controlled current source: current gain · i(control part) from p through "
+          "itself to n",
+}
 SOURCES = (VOLTAGE_SOURCE, CURRENT_SOURCE)
 STORAGE = (CAPACITOR, INDUCTOR)
 VOLTAGE_CONTROLLED = (VCVS, VCCS)

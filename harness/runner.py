@@ -10,7 +10,6 @@ SIGTERM stops the run with ``RunInterrupted`` carrying the results that finished
 from __future__ import annotations
 
 import os
-import sys
 import time
 from dataclasses import dataclass
 from pathlib import Path
@@ -20,17 +19,21 @@ from .errors import InputError
 from .outcome import ERROR, FileResult, RunResult
 from .pool import Interrupted, run_tasks
 from .pool import RunInterrupted as PoolInterrupted
+from .progress import Progress
 
 
 @dataclass(frozen=True)
 class RunOptions:
     """How to run: ``numeric`` runs the numerical engine too; ``jobs`` worker processes;
-    ``timeout`` the limit in s per file (None: none; any limit runs files in workers)."""
+    ``timeout`` the limit in s per file (None: none; any limit runs files in workers);
+    ``tolerance`` the relative tolerance of files whose ``[settings]`` give none (None: the
+    model's default); ``progress`` a bar on stderr (a ``report.progress.Progress`` or True)."""
 
     numeric: bool = True
     jobs: int = 1
-    progress: bool = False
+    progress: object = False
     timeout: float | None = None
+    tolerance: float | None = None
 
 
 def collect(paths: Iterable[str]) -> tuple[list[str], list[FileResult]]:
@@ -61,8 +64,9 @@ def _error_result(file: str, message: str, title: str = "",
                       warnings=warnings, input_warnings=warnings)
 
 
-def check_file(path: str, numeric: bool = True) -> FileResult:
-    """Analyse one circuit file; never raises (faults become an ``error`` result)."""
+def check_file(path: str, numeric: bool = True, tolerance: float | None = None) -> FileResult:
+    """Analyse one circuit file; never raises (faults become an ``error`` result).
+    ``tolerance`` is the default for a file whose ``[settings]`` give none."""
     from .circuitfile import read_circuit
     from . import closedform
     from .compare import compare_file
@@ -71,7 +75,7 @@ def check_file(path: str, numeric: bool = True) -> FileResult:
 
     started = time.perf_counter()
     try:
-        circuit = read_circuit(path)
+        circuit = read_circuit(path, tolerance)
     except InputError as err:
         return _error_result(path, str(err.located(file=path)))
     try:
@@ -148,27 +152,41 @@ class RunInterrupted(Exception):
 
 def _run_here(files: list[str], options: RunOptions, missing: list[FileResult]) -> list:
     results: list[FileResult] = []
+    bar = _bar(files, options)
     try:
-        for f in _progress(files, options):
-            results.append(check_file(f, options.numeric))
+        for f in files:
+            results.append(_check_task(f, options.numeric, options.tolerance))
+            bar.step()
     except KeyboardInterrupt:
         raise RunInterrupted(2, RunResult(tuple(missing) + tuple(results)), len(files)) from None
     except Interrupted as stop:
         raise RunInterrupted(stop.signum, RunResult(tuple(missing) + tuple(results)),
                              len(files)) from None
+    finally:
+        _done(bar, options)
     return results
 
 
-def _progress(files: list[str], options: RunOptions):
-    if options.progress and len(files) > 3 and sys.stderr.isatty():
-        from tqdm import tqdm
-        return tqdm(files, unit="file", leave=False)
-    return files
+def _bar(files: list[str], options: RunOptions) -> Progress:
+    """The run's bar (``options.progress`` when the caller made one) with the files added."""
+    bar = options.progress if isinstance(options.progress, Progress) \
+        else Progress(bool(options.progress))
+    bar.add(len(files), "analysing")
+    return bar
 
 
-def _check_task(path: str, numeric: bool) -> FileResult:
-    """What a worker runs: ``check_file`` looked up at call time (tests may replace it)."""
-    return check_file(path, numeric)
+def _done(bar: Progress, options: RunOptions) -> None:
+    """Close a bar the runner made itself; the caller's bar goes on (plots come next)."""
+    if bar is not options.progress:
+        bar.close()
+
+
+def _check_task(path: str, numeric: bool, tolerance: float | None = None) -> FileResult:
+    """What a worker runs: ``check_file`` looked up at call time (tests may replace it); the
+    tolerance is passed only when the project sets one."""
+    if tolerance is None:
+        return check_file(path, numeric)
+    return check_file(path, numeric, tolerance)
 
 
 def _preload(numeric: bool) -> None:
@@ -183,10 +201,7 @@ def _run_workers(files: list[str], options: RunOptions, missing: list[FileResult
     """Every file in a worker process (``pool.run_tasks``); faults become error results."""
     limit = options.timeout
     _preload(options.numeric)
-    bar = None
-    if options.progress and len(files) > 3 and sys.stderr.isatty():
-        from tqdm import tqdm
-        bar = tqdm(total=len(files), unit="file", leave=False)
+    bar = _bar(files, options)
 
     def timed_out(i: int) -> FileResult:
         return _error_result(files[i], f"{files[i]}: timed out after {limit:g} s (the --timeout "
@@ -198,14 +213,13 @@ def _run_workers(files: list[str], options: RunOptions, missing: list[FileResult
                                        f"are not affected)")
 
     try:
-        done = run_tasks([(f, options.numeric) for f in files], _check_task, jobs=options.jobs,
+        done = run_tasks([(f, options.numeric, options.tolerance) for f in files], _check_task, jobs=options.jobs,
                          timeout=limit, on_timeout=timed_out, on_death=died,
-                         on_done=(lambda i: bar.update(1)) if bar else None)
+                         on_done=lambda i: bar.step())
     except PoolInterrupted as stop:
         finished = tuple(stop.done[i] for i in sorted(stop.done))
         raise RunInterrupted(stop.signum, RunResult(tuple(missing) + finished),
                              len(files)) from None
     finally:
-        if bar is not None:
-            bar.close()
+        _done(bar, options)
     return [done[i] for i in range(len(files))]

@@ -13,7 +13,10 @@ import re
 import warnings
 from pathlib import Path
 
+from typing import Mapping
+
 from ..outcome import RunResult
+from ..progress import Progress
 from . import csvout, html, jsonout, junit, markdown, plots
 from .plot_schedule import SCHEDULE, plot_schedule
 from .atomic import ReportError, ensure_dir, inside, safe_name, write_atomic
@@ -43,23 +46,26 @@ def _plot_one(item):
 PARALLEL_PLOTS = 16
 
 
-def render_plots(run: RunResult, jobs: int = 1) -> dict[tuple[int, int], bytes]:
+def render_plots(run: RunResult, jobs: int = 1,
+                 progress: Progress | None = None) -> dict[tuple[int, int], bytes]:
     """(file index, check index) -> PNG bytes for every check that carries a trace, and
     (file index, ``SCHEDULE``) -> the file's whole-schedule plot.
 
     With ``jobs`` > 1 and many plots they are drawn in worker processes (drawing is most of a
-    report's cost: ~0.1 s a plot); the result is the same.
+    report's cost: ~0.1 s a plot); the result is the same.  ``progress`` is stepped per plot.
     """
     items = []
     for i, file in enumerate(run.files):
         items.append(((i, SCHEDULE), file, file.file))
         items += [((i, check.index), check, file.file) for check in file.checks]
+    progress = progress or Progress(False)
+    progress.add(len(items), "plots")
     if jobs > 1 and len(items) >= PARALLEL_PLOTS:
         from concurrent.futures import ProcessPoolExecutor
         with ProcessPoolExecutor(max_workers=jobs) as pool:
-            drawn = list(pool.map(_plot_one, items, chunksize=8))
+            drawn = [_stepped(d, progress) for d in pool.map(_plot_one, items, chunksize=8)]
     else:
-        drawn = [_plot_one(item) for item in items]
+        drawn = [_stepped(_plot_one(item), progress) for item in items]
     out = {}
     for key, png, problem in drawn:
         if problem:
@@ -67,6 +73,11 @@ def render_plots(run: RunResult, jobs: int = 1) -> dict[tuple[int, int], bytes]:
         elif png is not None:
             out[key] = png
     return out
+
+
+def _stepped(drawn, progress: Progress):
+    progress.step()
+    return drawn
 
 
 def plot_name(run: RunResult, key: tuple[int, int | str]) -> str:
@@ -79,7 +90,8 @@ def plot_name(run: RunResult, key: tuple[int, int | str]) -> str:
 
 
 def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
-              jobs: int = 1) -> list[Path]:
+              jobs: int = 1, progress: Progress | None = None,
+              provenance: Mapping | None = None) -> list[Path]:
     """Write the five report files (``REPORT_FILES``) and the plot PNGs into ``report_dir``.
 
     Returns the paths written: the five report files in ``REPORT_FILES`` order, then the plots.
@@ -88,17 +100,19 @@ def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
     are rendered before anything is written, so an exception from a serializer leaves the old
     report untouched; each file is then replaced atomically, so an I/O failure part-way leaves
     every file either as the previous run wrote it or complete from this run.
-    ``with_plots=False`` skips the (slowish, ~0.1 s each) plots.
+    ``with_plots=False`` skips the (slowish, ~0.1 s each) plots.  ``progress`` is stepped per
+    plot; ``provenance`` (``report.provenance.collect``) heads the HTML and Markdown reports.
 
     Raises:
         ReportError: the folder cannot be created or written, or a file cannot be replaced.
     """
     folder = ensure_dir(Path(report_dir))
-    pngs = render_plots(run, jobs) if with_plots else {}
+    pngs = render_plots(run, jobs, progress) if with_plots else {}
     names = {key: plot_name(run, key) for key in pngs}
     links = {key: f"{PLOT_DIR}/{name}" for key, name in names.items()}
     # every serializer runs before any file is touched: if one raises, the old report stays whole
-    texts = {"report.html": html.render(run, pngs), "report.md": markdown.render(run, links),
+    texts = {"report.html": html.render(run, pngs, provenance),
+             "report.md": markdown.render(run, links, provenance),
              "summary.csv": csvout.render(run), "results.json": jsonout.render(run),
              "junit.xml": junit.render(run)}
     written: list[Path] = []

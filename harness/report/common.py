@@ -189,6 +189,12 @@ def summary_line(run: RunResult) -> str:
             f"exit {code}: {EXIT_MEANING[code]}")
 
 
+def attention_order(run: RunResult) -> list[int]:
+    """Indexes of ``run.files``, the worst verdicts first (collection order within a verdict)."""
+    return sorted(range(len(run.files)),
+                  key=lambda i: -VERDICT_ORDER.index(run.files[i].verdict))
+
+
 def shown_fields(check: CheckResult) -> list[FieldResult]:
     """The fields of ``check`` worth a table row: all but those with no hand value and no value
     from either engine (τ of a probe that is not first order, say), which carry nothing."""

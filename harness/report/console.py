@@ -1,6 +1,8 @@
-"""Console output: the compact table of what did not pass, the one-line summary, the solve table.
+"""Console output: what needs attention grouped by file, the one-line summary, the solve table.
 
-Plain text for a terminal (tabulate's ``simple`` format); values carry SI prefixes.
+Text for a terminal (tabulate's ``simple`` format), fitted to the width and coloured as
+``report.style.Style`` says (colour only on a terminal, never when piped unless asked); values
+carry SI prefixes.
 """
 
 from __future__ import annotations
@@ -9,36 +11,94 @@ from tabulate import tabulate
 
 from ..outcome import PASS, CheckResult, FileResult, RunResult
 from . import common
+from .style import Style
 
-#: widest message column before tabulate wraps it
+#: widest message column when the width is unknown (output piped, no ``COLUMNS``)
 MESSAGE_WIDTH = 60
+#: narrowest message column however narrow the terminal
+MIN_MESSAGE_WIDTH = 24
+_HEADERS = ["check", "field", "hand", "closed form", "numeric", "verdict", "message"]
 
 
-def render_failures(run: RunResult) -> str:
-    """A table of every field (or check, or file) that did not pass; ``""`` when all passed.
+def render_failures(run: RunResult, style: Style | None = None, show_all: bool = False) -> str:
+    """Per file that needs attention a heading line (path, title, verdict) and a table of every
+    field (or check) that did not pass; ``""`` when all passed.
 
-    Columns: file, check, field, hand, closed form, numeric, verdict, message.  A failing check
-    without a failing field (a check-level message) gets one row with field ``—``; a passing
-    field of a failing check that carries a note gets its row with verdict pass and the note; a
-    file with nothing to check gets one row saying so.  A file that could not be analysed has no
-    row: its message is on stderr and the summary counts it.
+    Columns: check, field, hand, closed form, numeric, verdict, message (wrapped to the width
+    ``style`` gives).  A failing check without a failing field (a check-level message) gets one
+    row with field ``—``; a passing field of a failing check that carries a note gets its row
+    with verdict pass and the note; a file with nothing to check gets one row saying so.  A file
+    that could not be analysed has no rows: its message is on stderr and the summary counts it.
+    ``show_all`` lists passing files and checks too, row by row.
     """
-    rows = []
+    style = style or Style()
+    blocks = []
     for file in run.files:
-        rows += [[file.file, "—", "—", "", "", "", file.verdict, text] for text in file.messages]
+        rows = [["—", "—", "", "", "", file.verdict, text] for text in file.messages]
         for check in file.checks:
-            if check.verdict == PASS:
-                continue
-            rows.extend(_failure_rows(file, check))
-    if not rows:
-        return ""
-    headers = ["file", "check", "field", "hand", "closed form", "numeric", "verdict", "message"]
-    widths = [None, None, None, None, None, None, None, MESSAGE_WIDTH]
-    return common.printable(tabulate(rows, headers=headers, tablefmt="simple",
-                                     maxcolwidths=widths, disable_numparse=True))
+            if check.verdict != PASS:
+                rows.extend(_failure_rows(check))
+            elif show_all:
+                rows.extend(_passing_rows(check))
+        if rows:
+            blocks.append(_file_block(file, rows, style))
+    return "\n\n".join(blocks)
 
 
-def _failure_rows(file: FileResult, check: CheckResult) -> list[list[str]]:
+def _file_block(file: FileResult, rows: list[list[str]], style: Style) -> str:
+    """The file's heading line and its table, the message column fitted to the width; when
+    the width leaves the messages too little room they go under their rows, full width."""
+    title = f" — {file.title}" if file.title and file.title != file.file else ""
+    head = _coloured_tail(wrap(common.printable(f"{file.file}{title}  {file.verdict}"), style),
+                          file.verdict, style)
+    rows = [[common.printable(c) for c in row] for row in rows]
+    # tabulate's simple format: a column is at least its header plus 2, columns 2 apart
+    widest = [max(len(h) + 2, *(len(r[i]) for r in rows)) for i, h in enumerate(_HEADERS[:-1])]
+    room = MESSAGE_WIDTH if style.width is None else \
+        style.width - sum(widest) - 2 * len(widest) - 2
+    if style.width is not None and sum(widest) + 2 * len(widest) + 2 > style.width:
+        return head + "\n" + _stacked(rows, style)
+    messages = [row.pop() for row in rows] if room < MIN_MESSAGE_WIDTH else None
+    for row in rows:
+        row[5] = style.verdict(row[5])
+    headers = _HEADERS if messages is None else _HEADERS[:-1]
+    table = tabulate(rows, headers=headers, tablefmt="simple", disable_numparse=True,
+                     maxcolwidths=[None] * 6 + [room] * (messages is None)).splitlines()
+    if messages is not None:
+        under = Style(width=(style.width or MESSAGE_WIDTH) - 4)
+        table = table[:2] + [line for row, text in zip(table[2:], messages)
+                             for line in [row] + ["  " + t for t in wrap(text, under)
+                                                  .splitlines() if t.strip()]]
+    return head + "\n" + "\n".join("  " + line for line in table)
+
+
+def _stacked(rows: list[list[str]], style: Style) -> str:
+    """Rows as wrapped lines for a terminal too narrow for the table: ``#1 node x at 0 s ·
+    after: hand 0 V, closed form 3.8 V, numeric — → mismatch``, the message under it."""
+    out = []
+    for check, field, hand, closed, numeric, verdict, message in rows:
+        line = wrap(f"{check} · {field}: hand {hand or '—'}, closed form {closed or '—'}, "
+                    f"numeric {numeric or '—'} → {verdict}", Style(width=style.width - 2))
+        out.append(_coloured_tail(line, verdict, style))
+        if message:
+            out.append(wrap(message, Style(width=style.width - 4)).replace("\n", "\n  ")
+                       .join(("  ", "")))
+    return "\n".join("  " + line for text in out for line in text.splitlines())
+
+
+def _coloured_tail(text: str, verdict: str, style: Style) -> str:
+    """``text`` (wrapped, ending in ``verdict``) with that last word coloured."""
+    body, _, _ = text.rpartition(verdict)
+    return body + style.verdict(verdict)
+
+
+def _passing_rows(check: CheckResult) -> list[list[str]]:
+    label = common.check_label(check)
+    return [[label, common.field_label(f), *common.field_values(f), f.verdict,
+             common.field_note(f) and f"note: {f.message}"] for f in common.shown_fields(check)]
+
+
+def _failure_rows(check: CheckResult) -> list[list[str]]:
     label = common.check_label(check)
     rows, shown = [], set()
     for field in check.fields:
@@ -47,14 +107,24 @@ def _failure_rows(file: FileResult, check: CheckResult) -> list[list[str]]:
             continue
         shown |= {field.message, f"{field.name}: {field.message}"}
         message = f"note: {field.message}" if note else field.message
-        rows.append([file.file, label, common.field_label(field), *common.field_values(field),
+        rows.append([label, common.field_label(field), *common.field_values(field),
                      field.verdict, message])
-    failing = [r for r in rows if r[6] != PASS]
+    failing = [r for r in rows if r[5] != PASS]
     extra = [m for m in check.messages if m not in shown]
     if extra or not failing:
-        rows.append([file.file, label, "—", "", "", "", check.verdict,
-                     "; ".join(extra) or check.note])
+        rows.append([label, "—", "", "", "", check.verdict, "; ".join(extra) or check.note])
     return rows
+
+
+def render_passes(run: RunResult) -> str:
+    """One line summarising the passes not listed: ``120 checks passed (36 files in full);
+    --all lists them``; ``""`` when nothing passed."""
+    files = [f for f in run.files if f.verdict == PASS]
+    checks = sum(1 for f in run.files for c in f.checks if c.verdict == PASS)
+    if not checks:
+        return ""
+    return (f"{common.plural(checks, 'check')} passed ({common.plural(len(files), 'file')} in "
+            f"full); --all lists them")
 
 
 def render_findings(run: RunResult) -> str:
@@ -75,9 +145,24 @@ def render_warnings(run: RunResult) -> str:
     return common.printable("\n".join(lines))
 
 
-def render_summary(run: RunResult) -> str:
-    """One line: number of files and checks, counts per verdict, the exit code and its meaning."""
-    return common.printable(common.summary_line(run))
+def render_summary(run: RunResult, style: Style | None = None) -> str:
+    """One line: number of files and checks, counts per verdict, the exit code and its meaning;
+    the leading verdict coloured where ``style`` colours."""
+    style = style or Style()
+    line = wrap(common.printable(common.summary_line(run)), style)
+    head, _, rest = line.partition(":")
+    return f"{style.verdict(head, run.verdict)}:{rest}"
+
+
+def wrap(text: str, style: Style) -> str:
+    """Each line of ``text`` wrapped to ``style.width`` (continuations indented two spaces);
+    ``text`` as it is when the width is unknown."""
+    if style.width is None or not text:
+        return text
+    import textwrap
+    return "\n".join(textwrap.fill(line, style.width, subsequent_indent="  ",
+                                    break_on_hyphens=False) or line
+                      for line in text.splitlines())
 
 
 def render_solve(file_result: FileResult) -> str:

@@ -10,7 +10,8 @@ A file that could not be analysed and has no checks gets one row with an empty `
 ``error`` and its errors in ``message``, and a file with nothing to check one row with verdict
 ``unchecked`` and that message, so every file appears.  Text cells that a spreadsheet
 would run as a formula (starting with ``=``, ``+``, ``-``, ``@``, tab or CR) are prefixed with
-``'`` (common practice against CSV formula injection); numeric columns are left as numbers.
+``'`` (common practice against CSV formula injection); numeric columns are left as numbers.  Read it back with ``read`` (or ``dtype=str`` for the
+``TEXT_COLUMNS``), so that a column whose cells are all empty, such as ``formula``, stays text.
 """
 
 from __future__ import annotations
@@ -27,7 +28,7 @@ if TYPE_CHECKING:
 COLUMNS = ("file", "title", "file_verdict", "check", "probe", "direction", "at", "check_verdict",
            "order", "modes", "deviation", "field", "unit", "hand", "closed_form", "numeric",
            "verdict", "tolerance", "formula", "message", "label")
-_TEXT = ("file", "title", "probe", "direction", "modes", "field", "unit", "formula", "message",
+TEXT_COLUMNS = _TEXT = ("file", "title", "probe", "direction", "modes", "field", "unit", "formula", "message",
          "label")
 
 
@@ -64,6 +65,14 @@ def frame(run: RunResult) -> pd.DataFrame:
 def render(run: RunResult) -> str:
     """The CSV text (UTF-8, comma-separated, header row, floats in shortest round-trip form)."""
     return frame(run).to_csv(index=False, lineterminator="\n")
+
+
+def read(path) -> pd.DataFrame:
+    """summary.csv read back as written: the text columns (``TEXT_COLUMNS``) stay text when
+    every cell is empty (a plain ``pandas.read_csv`` makes an all-empty column float)."""
+    import pandas as pd
+    return pd.read_csv(path, dtype={c: "string" for c in TEXT_COLUMNS}, keep_default_na=False,
+                       na_values={c: [""] for c in COLUMNS if c not in TEXT_COLUMNS})
 
 
 def _num(x: float | None) -> float | None:

@@ -2,17 +2,20 @@
 
 Nothing on the page is fetched: no scripts, no external style sheets or images, and a
 Content-Security-Policy that forbids loading anything but ``data:`` images.  Every piece of text
-goes through ``html.escape``.  Layout: overall summary and file list at the top; per file a header
-(file, verdict, cautions boxed first, errors, warnings, jumps) and its whole-schedule plot, then
-per check its field table and facts (failures in red, notes of passing fields apart) beside its
-waveform plot.
+goes through ``html.escape``.  Layout: the provenance (tool, time, command, versions, git
+commit), the overall summary, a verdict filter (CSS radio buttons) and the file list at the top,
+files that need attention first; per file a header (file, SHA-256, verdict, findings and cautions
+boxed first, errors, warnings, jumps), its parts as written, its whole-schedule plot, then per
+check its field table and facts (failures in red, notes of passing fields apart) beside its
+waveform plot, failing checks first and passing ones folded; a passing file is folded whole.
+Print styles drop the filter and unfold everything.
 """
 
 from __future__ import annotations
 
 import base64
 from html import escape as _escape
-from typing import Mapping
+from typing import Any, Mapping
 
 from ..outcome import PASS, CheckResult, FileResult, RunResult
 from . import common
@@ -44,6 +47,19 @@ tr.bad td{background:#fff8f7}
 .errors{border:2px solid #a3221a;background:#fdecea;padding:6px 12px;margin:8px 0}
 ul{margin:4px 0;padding-left:22px}.msg{color:#a3221a;font-weight:600}.notes{color:#444}
 .v-unchecked{background:#fde4e2;color:#a3221a}.check.c-unchecked{border-left-color:#c62828}
+.prov td{font-size:12px}.prov code,.hash{font-family:ui-monospace,monospace;font-size:11px}
+.filter{position:sticky;top:0;background:#fff;padding:6px 0;border-bottom:1px solid #ddd;
+ z-index:1}.filter label{margin-right:12px;cursor:pointer}
+#show-attention:checked~main .f-pass,#show-attention:checked~main .check.c-pass,
+#show-attention:checked~main details.passes{display:none}
+#show-failing:checked~main .file:not(.f-mismatch):not(.f-engines-disagree):not(.f-error)
+ :not(.f-finding):not(.f-unchecked){display:none}
+#show-passing:checked~main .file:not(.f-pass){display:none}
+details>summary{cursor:pointer;font-weight:600;margin:8px 0}
+a.top{display:inline-block;margin:8px 0;font-size:12px}
+@media print{.filter,a.top,input{display:none}body{max-width:none;margin:0;font-size:11px}
+ details::details-content{content-visibility:visible;display:contents}
+ section,.check{break-inside:avoid}h2{break-before:auto}.plot img{max-width:90%}}
 """
 
 _CSP = "default-src 'none'; img-src data:; style-src 'unsafe-inline'"
@@ -58,20 +74,48 @@ def badge(verdict: str) -> str:
     return f'<span class="v v-{esc(verdict)}">{esc(verdict)}</span>'
 
 
-def render(run: RunResult, plots: Mapping[tuple[int, int], bytes] | None = None) -> str:
+def render(run: RunResult, plots: Mapping[tuple[int, int], bytes] | None = None,
+           provenance: Mapping[str, Any] | None = None) -> str:
     """The HTML page.  ``plots`` maps (file index, check index) to PNG bytes, and (file index,
-    ``SCHEDULE``) to the file's whole-schedule plot."""
-    plots = plots or {}
-    body = ["<h1>tauproof discrepancy report</h1>",
+    ``SCHEDULE``) to the file's whole-schedule plot; ``provenance`` (``provenance.collect``)
+    heads the page and gives each file's parts as written.  Files that need attention come
+    first; passing files and checks are folded (``<details>``); a CSS-only filter by verdict
+    (radio buttons, no script) sits above the files."""
+    plots, provenance = plots or {}, provenance or {}
+    order = common.attention_order(run)
+    body = ['<h1 id="top">tauproof discrepancy report</h1>', _provenance_table(provenance),
             f'<p class="summary">{badge(run.verdict)} {esc(common.summary_line(run))}</p>',
-            _counts_table(run), _file_list(run)]
-    for i, file in enumerate(run.files):
-        body.append(_file_section(i, file, plots))
+            _counts_table(run), FILTER, "<main>", _file_list(run, order)]
+    files = provenance.get("files", {})
+    for i in order:
+        body.append(_file_section(i, run.files[i], plots, files.get(run.files[i].file, {})))
+    body.append("</main>")
     return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
             f'<meta http-equiv="Content-Security-Policy" content="{_CSP}">\n'
             '<meta name="viewport" content="width=device-width, initial-scale=1">\n'
             "<title>tauproof report</title>\n"
             f"<style>{CSS}</style>\n</head>\n<body>\n" + "\n".join(body) + "\n</body>\n</html>\n")
+
+
+#: the verdict filter: radio buttons whose state the style sheet reads (no script)
+FILTER = ('<div class="filter">show: '
+          + "".join(f'<input type="radio" name="show" id="show-{key}"{" checked" * (key == "all")}>'
+                    f'<label for="show-{key}">{text}</label>'
+                    for key, text in (("all", "everything"), ("attention", "needs attention"),
+                                      ("failing", "failing files"), ("passing", "passing files")))
+          + "</div>")
+
+
+def _provenance_table(facts: Mapping[str, Any]) -> str:
+    """Tool, time, command, library versions and the circuits' git commit(s)."""
+    if not facts:
+        return ""
+    rows = [("tool", facts.get("tool", "")), ("date and time", facts.get("time", "")),
+            ("command", facts.get("command", "")), ("libraries", facts.get("versions", ""))]
+    rows += [(f"git commit of {folder}", commit)
+             for folder, commit in facts.get("commits", {}).items()]
+    body = "".join(f"<tr><th>{esc(k)}</th><td><code>{esc(v)}</code></td></tr>" for k, v in rows)
+    return f'<table class="prov">{body}</table>'
 
 
 def _counts_table(run: RunResult) -> str:
@@ -81,19 +125,47 @@ def _counts_table(run: RunResult) -> str:
     return f"<table><tr><th>verdict</th><th>checks</th><th>files</th></tr>{rows}</table>"
 
 
-def _file_list(run: RunResult) -> str:
+def _file_list(run: RunResult, order: list[int]) -> str:
     items = "".join(f'<li>{badge(f.verdict)} <a href="#file-{i + 1}">{esc(f.title or f.file)}</a>'
                     f' <span class="meta">{esc(f.file)} · '
                     f'{common.plural(len(f.checks), "check")}</span></li>'
-                    for i, f in enumerate(run.files))
+                    for i, f in ((i, run.files[i]) for i in order))
     return f"<h2>Files</h2><ol>{items}</ol>"
 
 
-def _file_section(i: int, file: FileResult, plots) -> str:
-    out = [f'<section id="file-{i + 1}">',
-           f"<h2>{i + 1}. {esc(file.title or file.file)} {badge(file.verdict)}</h2>",
+def _file_section(i: int, file: FileResult, plots, facts: Mapping[str, Any]) -> str:
+    head = f"{i + 1}. {esc(file.title or file.file)} {badge(file.verdict)}"
+    out = [f'<section id="file-{i + 1}" class="file f-{esc(file.verdict)}">',
+           f"<h2>{head}</h2>" if file.verdict != PASS else
+           f"<details><summary>{head}</summary>",
            f'<p class="meta">file {esc(file.file)} · {common.plural(len(file.checks), "check")}'
-           f' · {file.seconds:.2f} s</p>']
+           f' · {file.seconds:.2f} s'
+           + (f' · SHA-256 <span class="hash">{esc(facts["sha256"])}</span>'
+              if facts.get("sha256") else "") + "</p>"]
+    out += _file_notices(file)
+    out.append(_parts_table(facts.get("parts", [])))
+    out.append(_stored_table(file))
+    schedule = plots.get((i, SCHEDULE))
+    if schedule:
+        out.append(_image(schedule, f"whole schedule of {file.title or file.file}"))
+    failing = [c for c in file.checks if c.verdict != PASS]
+    passing = [c for c in file.checks if c.verdict == PASS]
+    out += [_check_block(c, plots.get((i, c.index))) for c in failing]
+    if passing and failing:
+        out.append(f'<details class="passes"><summary>{common.plural(len(passing), "passing check")}'
+                   "</summary>")
+    out += [_check_block(c, plots.get((i, c.index))) for c in passing]
+    if passing and failing:
+        out.append("</details>")
+    if file.verdict == PASS:
+        out.append("</details>")
+    out.append('<a class="top" href="#top">↑ back to top</a></section>')
+    return "\n".join(out)
+
+
+def _file_notices(file: FileResult) -> list[str]:
+    """Findings, cautions, errors, what was not checked, warnings and jumps, in that order."""
+    out = []
     findings = common.finding_lines(file)
     if findings:
         out.append('<div class="errors"><strong>Findings</strong><ul>'
@@ -112,14 +184,18 @@ def _file_section(i: int, file: FileResult, plots) -> str:
     if jumps:
         out.append("<p><strong>Jumps</strong> (charge moved, energy dissipated)</p><ul>"
                    + "".join(f"<li>{esc(j)}</li>" for j in jumps) + "</ul>")
-    out.append(_stored_table(file))
-    schedule = plots.get((i, SCHEDULE))
-    if schedule:
-        out.append(_image(schedule, f"whole schedule of {file.title or file.file}"))
-    for check in file.checks:
-        out.append(_check_block(check, plots.get((i, check.index))))
-    out.append("</section>")
-    return "\n".join(out)
+    return out
+
+
+def _parts_table(parts: list[Mapping[str, str]]) -> str:
+    """The parts as the file writes them: name, kind, nodes, value, initial, schedule."""
+    if not parts:
+        return ""
+    keys = ("name", "kind", "nodes", "value", "initial", "schedule")
+    head = "".join(f"<th>{k}</th>" for k in keys)
+    body = "".join("<tr>" + "".join(f"<td>{esc(p.get(k, ''))}</td>" for k in keys) + "</tr>"
+                   for p in parts)
+    return f"<p><strong>Parts</strong> (as written)</p><table>{head}{body}</table>"
 
 
 def _check_block(check: CheckResult, png: bytes | None) -> str:
@@ -144,9 +220,31 @@ def _check_block(check: CheckResult, png: bytes | None) -> str:
             + "</div>" + plot + "</div>")
 
 
+#: colours an embedded plot keeps: a palette PNG of the plot's few line colours and their
+#: anti-aliasing is ~3.5x smaller than the full-colour one (the whole-library page 7.9 MB -> see
+#: DEVELOPERS.md) and reads the same; the PNG files in plots/ stay full colour
+EMBED_COLOURS = 32
+
+
+def embedded(png: bytes) -> bytes:
+    """``png`` as a palette PNG of ``EMBED_COLOURS`` colours for the page (``png`` itself when
+    it cannot be read)."""
+    import io
+    try:
+        from PIL import Image
+        image = Image.open(io.BytesIO(png)).convert("RGB")
+        small = image.quantize(colors=EMBED_COLOURS, method=Image.Quantize.MEDIANCUT,
+                               dither=Image.Dither.NONE)
+        out = io.BytesIO()
+        small.save(out, "PNG", optimize=True)
+    except Exception:  # a plot the imaging library cannot read is embedded as drawn
+        return png
+    return out.getvalue() if len(out.getvalue()) < len(png) else png
+
+
 def _image(png: bytes, alt: str) -> str:
-    """A plot as an inline data-URI image."""
-    data = base64.b64encode(png).decode("ascii")
+    """A plot as an inline data-URI image (``embedded``: a palette PNG)."""
+    data = base64.b64encode(embedded(png)).decode("ascii")
     return f'<div class="plot"><img src="data:image/png;base64,{data}" alt="{esc(alt)}"></div>'
 
 

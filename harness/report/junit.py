@@ -2,7 +2,7 @@
 
 The layout CI systems read (the common JUnit XML convention): ``testsuites`` > ``testsuite``
 (name = the file's title, attributes tests/failures/errors/skipped/time) > ``testcase``
-(classname = the file path with ``/`` as ``.``, name = ``#1 node rst at 0 s``).  A check whose
+(classname = the file path with ``/`` as ``.``, no leading ``.``, name = ``#1 node rst at 0 s``).  A check whose
 verdict is ``mismatch`` or ``engines-disagree`` carries a ``failure`` (type = the verdict,
 message = its first message, text = every message and the field table); a check with verdict
 ``error`` carries an ``error``.  A file that could not be analysed gets a single testcase
@@ -46,7 +46,7 @@ def _suite(file: FileResult) -> ET.Element:
     props = ET.SubElement(suite, "properties")
     ET.SubElement(props, "property", name="file", value=_x(file.file))
     ET.SubElement(props, "property", name="verdict", value=file.verdict)
-    classname = _x(file.file.replace("\\", "/").removesuffix(".toml").replace("/", "."))
+    classname = _x(class_name(file.file))
     failures = errors = 0
     cases = list(file.checks)
     if not cases and file.verdict == ERROR:
@@ -87,6 +87,14 @@ def _suite(file: FileResult) -> ET.Element:
         ET.SubElement(suite, "system-out").text = _x("\n".join(f"warning: {w}"
                                                               for w in file.warnings))
     return suite
+
+
+def class_name(path: str) -> str:
+    """The file path as a dotted class name: ``circuits.library.logger.reset``; the root, drive,
+    ``.`` and ``..`` steps are left out, so an absolute path never gives a leading ``.``."""
+    steps = [s for s in path.replace("\\", "/").removesuffix(".toml").split("/")
+             if s not in ("", ".", "..") and not s.endswith(":")]
+    return ".".join(steps) or "circuit"
 
 
 def _details(check: CheckResult, messages: list[str]) -> str:

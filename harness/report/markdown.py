@@ -13,7 +13,7 @@ so no raw HTML reaches a renderer.
 from __future__ import annotations
 
 import re
-from typing import Mapping
+from typing import Any, Mapping
 
 from ..outcome import PASS, CheckResult, FileResult, RunResult
 from . import common
@@ -30,17 +30,46 @@ def escape(text: str) -> str:
     return _SPECIAL.sub(r"\\\1", text)
 
 
-def render(run: RunResult, plots: Mapping[tuple[int, int], str] | None = None) -> str:
+def render(run: RunResult, plots: Mapping[tuple[int, int], str] | None = None,
+           provenance: Mapping[str, Any] | None = None) -> str:
     """The Markdown text.  ``plots`` maps (file index, check index) to a path relative to the
     report folder (``plots/001-x-c1.png``), and (file index, ``SCHEDULE``) to the file's
-    whole-schedule plot; checks without one get no image."""
-    plots = plots or {}
-    out = ["# tauproof discrepancy report", "",
-           f"**{escape(common.summary_line(run))}**", ""]
+    whole-schedule plot; checks without one get no image.  ``provenance``
+    (``provenance.collect``) heads the text and gives each file's SHA-256 and parts as written.
+    Files that need attention come first."""
+    plots, provenance = plots or {}, provenance or {}
+    out = ["# tauproof discrepancy report", ""] + _provenance(provenance)
+    out += [f"**{escape(common.summary_line(run))}**", ""]
     out += _summary_table(run)
-    for i, file in enumerate(run.files):
-        out += _file_section(i, file, plots)
+    files = provenance.get("files", {})
+    for i in common.attention_order(run):
+        out += _file_section(i, run.files[i], plots)
+        out += _parts(files.get(run.files[i].file, {}))
     return "\n".join(out) + "\n"
+
+
+def _provenance(facts: Mapping[str, Any]) -> list[str]:
+    if not facts:
+        return []
+    lines = [f"- {label}: {escape(facts.get(key, ''))}" for key, label in
+             (("tool", "tool"), ("time", "date and time"), ("command", "command"),
+              ("versions", "libraries"))]
+    lines += [f"- git commit of {escape(folder)}: {escape(commit)}"
+              for folder, commit in facts.get("commits", {}).items()]
+    return lines + [""]
+
+
+def _parts(facts: Mapping[str, Any]) -> list[str]:
+    """The file's SHA-256 and its parts as written."""
+    out = [f"SHA-256 of the file: {facts['sha256']}", ""] if facts.get("sha256") else []
+    parts = facts.get("parts", [])
+    if parts:
+        keys = ("name", "kind", "nodes", "value", "initial", "schedule")
+        out += ["**Parts** (as written)", "", "| " + " | ".join(keys) + " |",
+                "|" + "---|" * len(keys)]
+        out += ["| " + " | ".join(escape(p.get(k, "")) for k in keys) + " |" for p in parts]
+        out.append("")
+    return out
 
 
 def _summary_table(run: RunResult) -> list[str]:
