@@ -72,8 +72,10 @@ EXPECT_HELP = {
                      "direction = \"rising\" | \"falling\" | \"either\" }: when the probe "
                      "first passes the level"),
     "peak": ("probe", "largest magnitude |x| in the interval"),
-    "energy": ("", "{ part = \"R1\", value = e (J; optional) }: energy dissipated in a "
-                   "resistor or switch above the steady dissipation, jump loss included"),
+    "energy": ("", "{ part = \"R1\", value = e (J; optional), until = t (s; optional) }: "
+                   "energy absorbed by a resistor, switch or controlled source (v·i) above the "
+                   "steady power, jump loss included (may be negative); with until, the whole "
+                   "energy from the event to that time"),
     "dominant-tau": ("s", "a one-τ estimate of a higher-order probe: the sum of its "
                           "zero-value time constants"),
     "tolerance": ("", "this block's own relative tolerance (as in [settings])"),
