@@ -35,7 +35,8 @@ SETTINGS = ("tolerance", "acknowledge")
 PROBE_KEYS = (m.NODE, m.BETWEEN, m.ACROSS, m.THROUGH)
 #: sign-off keys of an [[expect]] block: file key -> field name
 SIGNOFF_KEYS = {"crossing": "crossing", "peak": "peak", "energy": "energy",
-                "dominant-tau": "dominant_tau"}
+                "dominant-tau": "dominant_tau", "ring-frequency": "ring_frequency",
+                "damping": "damping", "q": "q", "overshoot": "overshoot"}
 EXPECT_KEYS = PROBE_KEYS + ("at",) + m.FIELDS + tuple(SIGNOFF_KEYS) + ("tolerance", "note")
 CROSSING_KEYS = ("level", "time", "direction")
 ENERGY_KEYS = ("part", "value", "until")
@@ -76,8 +77,13 @@ EXPECT_HELP = {
                    "energy absorbed by a resistor, switch or controlled source (v·i) above the "
                    "steady power, jump loss included (may be negative); with until, the whole "
                    "energy from the event to that time"),
-    "dominant-tau": ("s", "a one-τ estimate of a higher-order probe: the sum of its "
-                          "zero-value time constants"),
+    "dominant-tau": ("s", "a one-τ estimate of a higher-order probe: the sum of the time "
+                          "constants of the modes that reach it (zero-value time constants)"),
+    "ring-frequency": ("Hz", "damped frequency f_d of the probe's slowest visible complex pair"),
+    "damping": ("", "damping ratio ζ of that pair (λ = −ζω_n ± jω_n√(1 − ζ²))"),
+    "q": ("", "its quality factor Q = 1/(2ζ)"),
+    "overshoot": ("", "how far the response passes its final value, as a fraction of the step "
+                      "(\"16.3 %\"); e^(−πζ/√(1 − ζ²)) for a pure second-order step"),
     "tolerance": ("", "this block's own relative tolerance (as in [settings])"),
     "note": ("", "free text shown in the reports"),
 }
@@ -350,13 +356,18 @@ def _expectation(index: int, raw: object, circuit: m.Circuit, scope: _Scope,
     probe = _probe(raw, circuit, where, index)
     at = _event(raw.get("at", 0.0), circuit, where, index)
     hand, formulas = {}, {}
-    scalar_keys = [(name, name) for name in m.FIELDS] + [(key, SIGNOFF_KEYS[key])
-                                                         for key in ("peak", "dominant-tau")]
+    scalar_keys = [(name, name) for name in m.FIELDS] + [
+        (key, SIGNOFF_KEYS[key]) for key in SIGNOFF_KEYS if key not in ("crossing", "energy")]
     for key, name in scalar_keys:
         if key not in raw:
             continue
-        dimension = "s" if name in ("tau", "dominant_tau") else probe.dimension
-        hand[name], text = _hand_value(raw[key], dimension, scope, where, index, key)
+        dimension = "s" if name in ("tau", "dominant_tau") else \
+            m.RING_FIELDS.get(name, probe.dimension)
+        hand[name], text = _hand_value(raw[key], dimension, scope, where, index, key,
+                                       allow_percent=name == "overshoot")
+        if name in m.RING_FIELDS and not hand[name] >= 0:
+            raise where.error(f"{key} must not be negative, got {raw[key]!r}",
+                              path=base + (key,), part=label, field=key)
         if text is not None:
             formulas[name] = text
         if name in ("tau", "dominant_tau") and not hand[name] > 0:
@@ -506,11 +517,12 @@ def _event(raw: object, circuit: m.Circuit, where: Where, index: int) -> float:
 
 
 def _hand_value(raw: object, dimension: str, scope: _Scope, where: Where, index: int,
-                name: str) -> tuple[float, str | None]:
+                name: str, allow_percent: bool = False) -> tuple[float, str | None]:
     """(value in SI, formula text or None) for one hand field."""
     label, path = expect_label(index), ("expect", index, name)
     if not (isinstance(raw, str) and raw.lstrip().startswith("=")):
-        return where.quantity(raw, dimension, path=path, part=label, field=name), None
+        return where.quantity(raw, dimension, path=path, part=label, field=name,
+                              allow_percent=allow_percent), None
     try:
         from . import formula
     except ImportError as exc:

@@ -144,15 +144,55 @@ def compare_check(circuit: Circuit, exp: Expectation, exact: Solution,
                        fe.final)
     messages = [f"{f.name}: {f.message}" for f in fields if f.message]
     verdicts = [f.verdict for f in fields]
+    order = order_problem(fe, fn, ctx)
+    if order:
+        verdicts.append(ENGINES_DISAGREE)
+        messages.append(order)
     if trace.deviation is not None and trace.deviation > tol.WAVEFORM_RELATIVE:
         verdicts.append(ENGINES_DISAGREE)
         messages.append(f"waveform: the numerical waveform departs from the closed form by "
                         f"{trace.deviation:.2%} of the swing (limit {tol.WAVEFORM_RELATIVE:.1%})")
     return CheckResult(index=exp.index, probe=exp.probe.label, at=circuit.events[k],
                        verdict=worst(verdicts), fields=fields, order=fe.order, modes=fe.modes,
+                       rings=fe.rings,
                        messages=tuple(messages) + fe.notes, note=exp.note,
                        direction=direction(exp.probe, circuit), trace=trace,
                        dominant=dominant_json(dominant))
+
+
+def _kind_scale(circuit: Circuit, probe: Probe) -> float:
+    """The circuit's own scale in the probe's unit: the largest source voltage (or source
+    current times the largest resistance) for a voltage, V_s / R_min + I_s for a current."""
+    from .compare_signoff import _source_magnitudes
+    v_s, i_s = _source_magnitudes(circuit)
+    res = [abs(p.value) for p in circuit.parts if p.kind == "resistor" and p.value]
+    if probe.kind == "through":
+        return v_s / min(res, default=1.0) + i_s
+    return max(v_s, i_s * max(res, default=1.0))
+
+
+def order_problem(fe: Features, fn: Features | None, ctx: CheckContext) -> str:
+    """Where the numerical engine's own modes (its QZ and integrated response) see a different
+    order than the closed form's: the message, else "".  Not judged for a probe whose values
+    are below ``tol.ENGINE_FLOOR`` of the circuit's scale in its unit (its modes are rounding
+    noise in either engine; the probe's own values at the event are the measure, since
+    ``ctx.scale`` falls back to the largest source for a probe that is zero), where an engine
+    has no order, or where the closed form's order lies within the numerical engine's
+    ``order_bounds`` (a mode whose amplitude is near the visibility threshold)."""
+    if fn is None or fn.order is None or fe.order is None or fe.order == fn.order:
+        return ""
+    low, high = fn.order_bounds or (fn.order, fn.order)
+    if low <= fe.order <= high:
+        return ""                 # within the band the numerical engine cannot resolve
+    seen_values = [abs(v) for f in (fe, fn) for v in (f.before, f.after, f.final)
+                   if v is not None and math.isfinite(v)]
+    if max(seen_values, default=0.0) < tol.ENGINE_FLOOR * _kind_scale(ctx.circuit, ctx.probe):
+        return ""
+    def seen(f: Features) -> str:
+        taus = ", ".join(format_exact(t, "s") for t in f.modes) or "no decaying mode"
+        return f"order {f.order} ({taus})"
+    return (f"order: the closed form sees {seen(fe)} but the numerical engine sees {seen(fn)}: "
+            f"an engine problem, not a hand-calculation error")
 
 
 def _with_marks(trace: Trace, fields, dominant, t_k: float, final: float | None) -> Trace:

@@ -18,8 +18,8 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from . import tolerances as tol
-from .model import (CURRENT_SOURCE, RESISTOR, SIGNOFF_FIELDS, SWITCH, VOLTAGE_SOURCE,
-                    Expectation)
+from .model import (CURRENT_SOURCE, RESISTOR, RING_FIELDS, SIGNOFF_FIELDS, SWITCH,
+                    VOLTAGE_SOURCE, Expectation)
 from .outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
 from .results import DominantTau, Features
 from .units import exact_digits, format_apart, format_exact, format_si
@@ -58,11 +58,17 @@ def signoff_fields(exp: Expectation, fe: Features, ctx: "CheckContext") -> list[
     """FieldResults of the sign-off fields the expectation asks for, in ``SIGNOFF_FIELDS``
     order."""
     makers = {"crossing": compare_crossing, "peak": compare_peak, "energy": compare_energy,
-              "dominant_tau": compare_dominant}
+              "dominant_tau": compare_dominant, "ring_frequency": compare_ring,
+              "damping": compare_ring, "q": compare_ring, "overshoot": compare_ring}
     note = withheld(ctx.exact, ctx.k)
     if note:
         return [_withheld_field(name, exp, note) for name in SIGNOFF_FIELDS if exp.wants(name)]
-    return [makers[name](exp, fe, ctx) for name in SIGNOFF_FIELDS if exp.wants(name)]
+    return [_made(makers[name], name, exp, fe, ctx) for name in SIGNOFF_FIELDS
+            if exp.wants(name)]
+
+
+def _made(maker, name: str, exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldResult:
+    return maker(exp, fe, ctx, name) if maker is compare_ring else maker(exp, fe, ctx)
 
 
 def withheld(solution, k: int) -> str | None:
@@ -81,7 +87,8 @@ def _withheld_field(name: str, exp: Expectation, note: str) -> FieldResult:
     elif name == "energy":
         hand, unit, extra = exp.energy.value, "J", {"part": exp.energy.part}
     else:
-        hand, unit = exp.hand[name], ("s" if name == "dominant_tau" else exp.probe.dimension)
+        hand, unit = exp.hand[name], ("s" if name == "dominant_tau" else
+                                      RING_FIELDS.get(name, exp.probe.dimension))
     return FieldResult(name=name, hand=hand, closed_form=None, numeric=None,
                        verdict=MISMATCH if hand is not None else PASS, unit=unit, message=note,
                        extra=extra)
@@ -447,3 +454,65 @@ def dominant_summary(dv: DominantTau) -> str:
         text += (f"; 50 % time {format_si(dv.t50, 's')} exact vs τ·ln 2 = "
                  f"{format_si(dv.t50_estimate, 's')} ({dv.t50_error:+.1%})")
     return text
+
+
+# ------------------------------------------------------------------------------- ring, overshoot
+def _ring_value(features: Features | None, name: str) -> float | None:
+    """f_d (Hz), zeta or Q = 1/(2 zeta) of the slowest visible complex pair, or None."""
+    if features is None or not features.rings:
+        return None
+    frequency, zeta = features.rings[0]
+    if name == "ring_frequency":
+        return frequency
+    return zeta if name == "damping" else 1.0 / (2.0 * zeta)
+
+
+def _ring_values(ctx: "CheckContext", fe: Features, name: str) -> tuple:
+    """(closed form, numeric) of a ring field or the overshoot."""
+    if name == "overshoot":
+        return ctx.exact.overshoot(ctx.probe, ctx.k), _call(ctx.numeric, "overshoot",
+                                                              ctx.probe, ctx.k)
+    numeric = None if ctx.numeric is None else ctx.numeric.features(ctx.probe, ctx.k)
+    if numeric is not None and numeric.order is None:
+        return _ring_value(fe, name), _NOT_COMPUTED          # its modes were not computed
+    return _ring_value(fe, name), _ring_value(numeric, name)
+
+
+#: an engine that did not compute a value (never a disagreement)
+_NOT_COMPUTED = object()
+
+
+def compare_ring(exp: Expectation, fe: Features, ctx: "CheckContext", name: str) -> FieldResult:
+    """The ring of the probe's slowest visible complex pair (damped frequency, damping ratio,
+    Q) or its overshoot (a fraction of the step): hand vs closed form vs numeric; each engine
+    from its own modes (the closed form's exact pencil, the numerical engine's own QZ and
+    integrated response) and its own waveform (the overshoot)."""
+    closed, numeric = _ring_values(ctx, fe, name)
+    computed = ctx.numeric is not None and numeric is not _NOT_COMPUTED
+    numeric = None if numeric is _NOT_COMPUTED else numeric
+    hand, unit = exp.hand[name], RING_FIELDS[name]
+    floor = tol.ENGINE_FLOOR if name == "overshoot" else 0.0
+    verdict, message = PASS, ""
+    if computed and (closed is None) != (numeric is None) or (
+            closed is not None and numeric is not None
+            and not tol.agree(closed, numeric, tol.RING_ENGINE_RELATIVE, floor)):
+        verdict, message = ENGINES_DISAGREE, engine_message(closed, numeric, unit)
+    elif closed is None:
+        verdict = MISMATCH
+        message = ("no overshoot is defined: the probe has no step to settle from"
+                   if name == "overshoot" else
+                   f"the probe shows no decaying complex pair in this interval (order "
+                   f"{fe.order}, modes {', '.join(format_si(t, 's') for t in fe.modes) or 'none'})")
+    elif not tol.agree(hand, closed, hand_relative(exp, ctx), tol.HAND_FLOOR if floor else 0.0):
+        verdict = MISMATCH
+        hand_text, closed_text = format_apart([hand, closed], unit)
+        message = f"hand {hand_text}, closed form {closed_text}"
+        if name == "overshoot" and fe.rings:
+            zeta = fe.rings[0][1]
+            pure = math.exp(-math.pi * zeta / math.sqrt(1 - zeta * zeta))
+            message += (f" (a pure second-order step with ζ = {zeta:.4g} overshoots by "
+                        f"e^(−πζ/√(1−ζ²)) = {pure:.4g}; zeros and other modes change it)")
+    return FieldResult(name=name, hand=hand, closed_form=closed, numeric=numeric,
+                       verdict=verdict, unit=unit, message=message,
+                       formula=exp.formulas.get(name, ""), tolerance=hand_relative(exp, ctx),
+                       floor=floor)

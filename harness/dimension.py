@@ -58,14 +58,15 @@ UNIT_DIMENSIONS: dict[str, Dimension] = {
     "H": Dimension.of(kg=1, m=2, s=-2, A=-2),
     "J": Dimension.of(kg=1, m=2, s=-2),
     "W": Dimension.of(kg=1, m=2, s=-3),
+    "Hz": Dimension.of(s=-1),
     "C": Dimension.of(s=1, A=1),
 }
 _WORDS = {"1": "a plain number", "s": "seconds (s)", "A": "amperes (A)", "V": "volts (V)",
           "ohm": "ohms (Ω)", "S": "siemens (S)", "F": "farads (F)", "H": "henries (H)",
-          "J": "joules (J)", "W": "watts (W)", "C": "coulombs (C)"}
+          "J": "joules (J)", "W": "watts (W)", "C": "coulombs (C)", "Hz": "hertz (Hz)"}
 #: unit word -> symbol, in the order ``symbol`` prefers them
 _SYMBOLS = {"s": "s", "V": "V", "A": "A", "ohm": "Ω", "F": "F", "H": "H", "S": "S", "J": "J",
-            "W": "W", "C": "C"}
+            "W": "W", "C": "C", "Hz": "Hz"}
 _POWERS = [Fraction(k, 2) for k in range(-6, 7)]
 _SUPERSCRIPT = str.maketrans("0123456789-/", "⁰¹²³⁴⁵⁶⁷⁸⁹⁻ᐟ")
 

@@ -62,7 +62,11 @@ PROBE_KINDS = (NODE, BETWEEN, ACROSS, THROUGH)
 FIELDS = ("before", "after", "final", "tau")
 #: sign-off fields, reported only where an expectation asks for them, in report order;
 #: ``peak`` and ``dominant_tau`` hand values live in ``Expectation.hand`` like the four above
-SIGNOFF_FIELDS = ("crossing", "peak", "energy", "dominant_tau")
+SIGNOFF_FIELDS = ("crossing", "peak", "energy", "dominant_tau", "ring_frequency", "damping",
+                  "q", "overshoot")
+#: hand fields that describe the probe's slowest visible complex pair (ring) and its step
+#: response's overshoot (a fraction of the step), with their units
+RING_FIELDS = {"ring_frequency": "Hz", "damping": "1", "q": "1", "overshoot": "1"}
 #: crossing directions
 RISING, FALLING, EITHER = "rising", "falling", "either"
 DIRECTIONS = (RISING, FALLING, EITHER)
@@ -215,8 +219,11 @@ class Expectation:
         probe: what is observed.
         at: the event time in seconds (an element of ``Circuit.events``).
         hand: field name -> hand value in SI units (only the fields given); fields from ``FIELDS``
-            and the scalar sign-off fields ``peak`` (largest magnitude, V or A) and
-            ``dominant_tau`` (the first-order estimate of a higher-order probe, s).
+            and the scalar sign-off fields ``peak`` (largest magnitude, V or A),
+            ``dominant_tau`` (the first-order estimate of a higher-order probe, s) and
+            ``RING_FIELDS``: ``ring_frequency`` (damped frequency f_d of the slowest visible
+            complex pair, Hz), ``damping`` (its zeta), ``q`` (1/(2 zeta)), ``overshoot`` (how far
+            the response passes its final value, a fraction of the step).
         formulas: field name -> the formula text the value was evaluated from (``"= R1*C1"``).
         tolerance: relative tolerance for hand vs computed, or None for the file's setting.
         note: free text from the file, shown in reports.

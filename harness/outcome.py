@@ -128,6 +128,8 @@ class CheckResult:
     fields: tuple[FieldResult, ...]
     order: int | None = None
     modes: tuple[float, ...] = ()
+    #: (damped frequency Hz, damping ratio) of each visible decaying complex pair (closed form)
+    rings: tuple[tuple[float, float], ...] = ()
     messages: tuple[str, ...] = ()
     note: str = ""
     direction: str = ""   # the probe's reference direction in words
@@ -138,7 +140,10 @@ class CheckResult:
 
     def to_json(self) -> dict[str, Any]:
         out = {"probe": self.probe, "at": self.at, "verdict": self.verdict, "order": self.order,
-               "modes": list(self.modes), "messages": list(self.messages),
+               "modes": list(self.modes),
+               "rings": [{"frequency": f, "damping": z, "q": 1.0 / (2.0 * z)}
+                         for f, z in self.rings],
+               "messages": list(self.messages),
                "fields": {f.name: f.to_json() for f in self.fields}}
         if self.dominant is not None:
             out["dominant_tau"] = dict(self.dominant)

@@ -35,6 +35,12 @@ class Features:
         dominant_tau: for a probe that is not first order, the first-order estimate an
             engineer would make: the sum of the zero-value time constants of interval k (see
             ``DominantTau``), in s; None for first-order probes or where the engine has none.
+        rings: (damped frequency f_d in Hz, damping ratio zeta) of every visible decaying
+            complex pair lambda = -zeta w_n +- j w_n sqrt(1 - zeta^2), slowest envelope first;
+            Q = 1 / (2 zeta).
+        order_bounds: (lowest, highest) order the engine would give with its visibility
+            threshold 100 times higher and lower, where its amplitudes carry errors that could
+            move a mode across the threshold (None: ``order`` is exact).
     """
 
     before: float | None
@@ -46,6 +52,8 @@ class Features:
     oscillation: tuple[float, ...] = ()
     notes: tuple[str, ...] = ()
     dominant_tau: float | None = None
+    rings: tuple[tuple[float, float], ...] = ()
+    order_bounds: tuple[int, int] | None = None
 
 
 @dataclass(frozen=True)

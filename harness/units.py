@@ -32,12 +32,12 @@ UNITS: dict[str, str] = {
     "V": "V", "A": "A", "Ω": "ohm", "ohm": "ohm", "Ohm": "ohm", "ohms": "ohm", "R": "ohm",
     "F": "F", "H": "H", "s": "s", "S": "S", "%": "%",
     "V/V": "1", "A/A": "1", "A/V": "S", "V/A": "ohm",
-    "J": "J", "W": "W",
+    "J": "J", "W": "W", "Hz": "Hz",
 }
 
 DIMENSION_NAMES = {"V": "volts", "A": "amperes", "ohm": "ohms", "F": "farads", "H": "henries",
                    "s": "seconds", "S": "siemens", "1": "a plain number", "%": "a percentage",
-                   "J": "joules", "W": "watts"}
+                   "J": "joules", "W": "watts", "Hz": "hertz"}
 
 _NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
 _PLAIN = re.compile(rf"^\s*({_NUMBER})\s*(\S*)\s*$")
@@ -161,12 +161,15 @@ _SYMBOL = {"ohm": "Ω", "1": "", "V": "V", "A": "A", "F": "F", "H": "H", "s": "s
 def format_si(value: float | None, unit: str = "", digits: int = 4) -> str:
     """Format ``value`` (SI base units) with an engineering prefix: ``format_si(0.0047, "F")`` -> ``4.7 mF``.
 
-    ``unit`` is a dimension name or symbol (``"ohm"`` prints as Ω); ``None`` prints as ``—``.
+    ``unit`` is a dimension name or symbol (``"ohm"`` prints as Ω; ``"1"``, a plain number,
+    prints without a prefix); ``None`` prints as ``—``.
     The value is rounded to ``digits`` significant digits before the prefix is chosen, so
     0.99997e-3 J prints as ``1 mJ``, never ``1000 µJ``.
     """
     if value is None:
         return "—"
+    if unit == "1":                     # a plain number (a damping ratio, a fraction): no prefix
+        return f"{value:.{digits}g}"
     symbol = _SYMBOL.get(unit, unit)
     if value == 0 or not math.isfinite(value):
         return f"{value:g} {symbol}".rstrip()

@@ -101,8 +101,8 @@ def test_a_part_of_unknown_unit_leaves_its_terms_unchecked():
 
 
 def test_unnamed_dimensions_read_as_simple_products():
-    """Ω/F, V·s and 1/s are named as written by hand, not in base units."""
+    """Ω/F and V·s are named as written by hand, not in base units; 1/s is the hertz."""
     assert describe(of_unit("ohm") / of_unit("F")) == "Ω/F"
     assert describe(of_unit("V") * of_unit("s")) == "s·V"
-    assert describe(ONE / of_unit("s")) == "1/s"
+    assert describe(ONE / of_unit("s")) == "hertz (Hz)"     # SI: Hz = 1/s (a ring's frequency)
     assert describe(ONE) == "a plain number"

@@ -117,7 +117,7 @@ def _merge(taus: list[float]) -> tuple[float, ...]:
 def classify(ev: RawEvent, scale: float, t_ref: float) -> Features:
     """Features of one probe at one event from its raw values (``t_ref`` = T in s)."""
     thr = MODE_VISIBILITY * scale
-    order, taus, freqs, notes = 0, [], [], []
+    order, taus, freqs, notes, rings = 0, [], [], [], []
     real_visible, complex_visible = 0, 0
     bounded = True
     for rate, coeffs in ev.clusters:
@@ -145,6 +145,7 @@ def classify(ev: RawEvent, scale: float, t_ref: float) -> Features:
                 complex_visible += 1
                 if lam.imag > 0:
                     freqs.append(lam.imag / (2 * math.pi))
+                    rings.append((-1.0 / lam.real, lam.imag / (2 * math.pi), -lam.real / abs(lam)))
             else:
                 real_visible += 1
     if ev.growth.size and np.any(
@@ -159,4 +160,5 @@ def classify(ev: RawEvent, scale: float, t_ref: float) -> Features:
     tau = modes[0] if (order == 1 and real_visible == 1 and complex_visible == 0) else None
     final = ev.constant if bounded else None
     return Features(before=ev.before, after=ev.after, final=final, tau=tau, order=order,
-                    modes=modes, oscillation=tuple(sorted(set(freqs))), notes=tuple(notes))
+                    modes=modes, oscillation=tuple(sorted(set(freqs))), notes=tuple(notes),
+                    rings=tuple((f, z) for _, f, z in sorted(rings, reverse=True)))

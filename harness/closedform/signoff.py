@@ -228,20 +228,42 @@ def crossing(ex: ExpSum, level: float, direction: str, end: float, final: float 
 
 
 # ------------------------------------------------------------------------------- peaks
+def _extrema(ex: ExpSum, grid: np.ndarray) -> list[tuple[float, float]]:
+    """(value, local time) of every extremum of y on ``grid`` (a root of y' refined by Brent's
+    method between grid points where y' changes sign)."""
+    slopes = ex.slope(grid)
+    fun = (lambda u: float(ex.slope(np.array([u]))[0]))
+    with np.errstate(invalid="ignore", over="ignore"):
+        turns = np.isfinite(slopes[:-1]) & np.isfinite(slopes[1:]) & \
+            (slopes[:-1] * slopes[1:] < 0)
+    out = []
+    for i in np.flatnonzero(turns):
+        u = _refine(fun, grid[i], grid[i + 1])
+        out.append((float(ex.value(np.array([u]))[0]), u))
+    return out
+
+
+def overshoot(ex: ExpSum, end: float, final: float | None) -> float | None:
+    """How far y passes its final value, as a fraction of the step x_inf - x(0+): the largest
+    sign (y - x_inf) / |x_inf - x(0+)| over the extrema (0 when it never passes), None without
+    a final value or a step."""
+    if final is None or ex.after is None or not ex.decays:
+        return None
+    step = final - ex.after
+    if not abs(step) > 1e-9 * max(abs(final), abs(ex.after)):
+        return None
+    grid = np.concatenate([[0.0], ex.grid(end)])
+    beyond = [math.copysign(1.0, step) * (v - final) for v, _ in _extrema(ex, grid)]
+    return max([0.0] + beyond) / abs(step)
+
+
 def peak(ex: ExpSum, end: float, final: float | None, next_gap: float | None) -> PeakValue:
     """Largest |y| over (0, inf): y(0+), the extrema (roots of y') and the final value."""
     candidates: list[tuple[float, float | None]] = []
     if ex.after is not None:
         candidates.append((ex.after, 0.0))
     grid = np.concatenate([[0.0], ex.grid(end)])
-    slopes = ex.slope(grid)
-    fun = (lambda u: float(ex.slope(np.array([u]))[0]))
-    with np.errstate(invalid="ignore", over="ignore"):
-        turns = np.isfinite(slopes[:-1]) & np.isfinite(slopes[1:]) & \
-            (slopes[:-1] * slopes[1:] < 0)
-    for i in np.flatnonzero(turns):
-        u = _refine(fun, grid[i], grid[i + 1])
-        candidates.append((float(ex.value(np.array([u]))[0]), u))
+    candidates += _extrema(ex, grid)
     if final is not None:
         candidates.append((final, None))
     else:                           # no final value: the largest magnitude seen on the span

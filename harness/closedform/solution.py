@@ -142,6 +142,13 @@ class ClosedFormSolution:
         return signoff.peak(self.exponential_sum(probe, k), end, self.features(probe, k).final,
                             gap)
 
+    def overshoot(self, probe: Probe, k: int) -> float | None:
+        """How far ``probe`` passes its final value in interval k, as a fraction of the step
+        (``signoff.overshoot``)."""
+        end, _ = self._held(k)
+        return signoff.overshoot(self.exponential_sum(probe, k), end,
+                                 self.features(probe, k).final)
+
     def energy(self, part_name: str, k: int, until: float | None = None):
         """Energy absorbed by a resistor, switch or controlled source over interval k, or with
         ``until`` (s) from the event to that time (``harness.results.EnergyValue``)."""

@@ -118,7 +118,9 @@ def modes_text(check: CheckResult) -> str:
     order = "order unknown" if check.order is None else f"order {check.order}"
     if not check.modes:
         return order + (", no decaying mode" if check.order == 0 else "")
-    return order + ", τ = " + ", ".join(time(t) for t in check.modes)
+    rings = "".join(f"; rings at {format_si(f, 'Hz')} (ζ = {z:.4g}, Q = {1 / (2 * z):.4g})"
+                    for f, z in check.rings)
+    return order + ", τ = " + ", ".join(time(t) for t in check.modes) + rings
 
 
 def dominant_text(check: CheckResult) -> str:

@@ -158,6 +158,34 @@ def peak(sol, probe: Probe, k: int) -> PeakValue | None:
     return PeakValue(magnitude=abs(value), value=float(value), time=time, after_next_event=late)
 
 
+def overshoot(sol, probe: Probe, k: int) -> float | None:
+    """How far ``probe`` passes its settled final value in interval k, as a fraction of the
+    step x_inf - x(t_k+), from the held waveform: local maxima of sign (x - x_inf) on the scan
+    grid refined by a bounded search on the dense output; 0 when it never passes; None without
+    a final value or a step, or where the integration stopped."""
+    if k >= len(sol.runs):
+        return None
+    fe = sol.features(probe, k)
+    if fe.final is None or fe.after is None:
+        return None
+    step = fe.final - fe.after
+    if not abs(step) > 1e-9 * max(abs(fe.final), abs(fe.after)):
+        return None
+    sign, final = math.copysign(1.0, step), fe.final
+    grid = scan_grid(sol, k)
+    beyond = sign * (sol.held(probe, k, grid) - final)
+    fun = _evaluator(sol, probe, k)
+    best = 0.0
+    inner = np.flatnonzero((beyond[1:-1] > beyond[:-2]) & (beyond[1:-1] >= beyond[2:])) + 1
+    for i in inner:
+        if beyond[i] <= 0:
+            continue
+        value, _ = _refine_extremum(lambda u: sign * (fun(u) - final), grid[i - 1], grid[i],
+                                    grid[i + 1], beyond[i])
+        best = max(best, value)
+    return best / abs(step)
+
+
 def _refine_extremum(fun, lo: float, mid: float, hi: float, at_mid: float):
     """(value, time) of the largest |x| in [lo, hi] by a bounded scalar search on the dense
     output, never worse than the grid point ``mid``."""

@@ -17,6 +17,7 @@ from .probes import probe_offset, probe_row, voltage_row
 from .regularise import Regularisation, gain_factor
 from . import signoff
 from .dominant import dominant as dominant_tau
+from .modal import visible as visible_modes
 
 #: an impulsive charge below this fraction of (total capacitance x voltage scale) is noise
 CHARGE_FLOOR = 1e-9
@@ -169,6 +170,11 @@ class NumericSolution:
             tau, modes, notes = decay(run, w, self._offset(probe, k),
                                       self.regularisation.post_pulse, final, scale,
                                       MODE_VISIBILITY * scale)
+            seen = visible_modes(self, probe, k, scale)
+            if seen is not None:
+                return Features(before, after, final, tau=tau, order=seen.order,
+                                modes=seen.modes, oscillation=seen.oscillation, notes=notes,
+                                rings=seen.rings, order_bounds=seen.bounds)
         return Features(before, after, final, tau=tau, order=None, modes=modes, notes=notes)
 
     def span(self, k: int) -> tuple[float, float]:
@@ -212,6 +218,11 @@ class NumericSolution:
     def peak(self, probe: Probe, k: int):
         """Largest magnitude of ``probe`` in interval k (``results.PeakValue``), or None."""
         return signoff.peak(self, probe, k)
+
+    def overshoot(self, probe: Probe, k: int) -> float | None:
+        """How far ``probe`` passes its final value in interval k, as a fraction of the step
+        (``signoff.overshoot``)."""
+        return signoff.overshoot(self, probe, k)
 
     def energy(self, part: str, k: int, until: float | None = None):
         """Energy absorbed by ``part`` over interval k, or with ``until`` (s) from the event to

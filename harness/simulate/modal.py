@@ -1,0 +1,202 @@
+"""The numerical engine's own modes: a modal decomposition of its ideal interval equations.
+
+Interval k's equations M y' = -K_dc y + b (equations.py: node voltages, inductor currents,
+carrier currents; K_dc the ideal circuit's rows, no 1/r_s) with the regularisation's carrier
+inductances L_p taken out of M are the ideal circuit's pencil in this engine's own
+formulation.  QZ (``scipy.linalg.eig`` with left and right vectors) gives its finite modes
+lambda_i with right vectors v_i and left vectors u_i, and every deviation from the interval's
+final state expands as
+
+    y(t) - y_inf = sum_i v_i alpha_i e^(lambda_i t),   alpha_i = u_i^H M (y(t0) - y_inf)
+                                                                  / (u_i^H M v_i) e^(-lambda_i t0).
+
+Two uses:
+
+* ``decompose`` also returns each mode's *reach*, sum_j |(u_i^H M)_j| a_j / |u_i^H M v_i| with
+  a_j the states' voltage or current scales: how far the mode can move the state from an
+  initial deviation within those scales (the dominant-τ route, ``dominant.py``);
+* ``visible`` expands the integrated response itself, taken at the end of the narrow pulse
+  (t0 = ``Regularisation.post_pulse``, where the regularisation has died) against the settled
+  state, and keeps the modes whose amplitude c v_i alpha_i in the probe's ideal row c exceeds
+  ``tolerances.MODE_VISIBILITY`` of the probe's scale: this engine's order, modes and rings.
+
+Pulse-scale modes of the parasitic node capacitances (|lambda| t_pulse > PILOT_SPLIT) are the
+model's and are left out.  Cost: one dense QZ per switch configuration (memoised), up to
+``EIGEN_UP_TO`` states; above that nothing is reported (None).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg as la
+
+from ..model import ACROSS, BETWEEN, CAPACITOR, CCCS, CURRENT_SOURCE, NODE, Probe
+from ..tolerances import MODE_MERGE, MODE_VISIBILITY
+from .probes import voltage_row
+from .regularise import PILOT_SPLIT
+
+#: largest state whose modes are computed (dense QZ)
+EIGEN_UP_TO = 800
+#: a mode decaying slower than this fraction of its magnitude is undamped (not in the order)
+UNDAMPED = 1e-9
+#: the order is also counted at this many times the visibility threshold and at its inverse:
+#: the band within which this engine's amplitudes (errors ~ its tolerance) cannot place a mode
+BAND = 100.0
+#: the integration's relative error on a state, in units of its tolerance (rtol)
+NOISE = 10.0
+
+
+@dataclass(frozen=True)
+class Modes:
+    """The finite modes of one system's ideal pencil: rates lam (1/s, shape (m,)), right
+    vectors v (n, m), the rows u_i^H M (m, n), their norms u_i^H M v_i (m,) and reach (m,)."""
+
+    lam: np.ndarray
+    v: np.ndarray
+    um: np.ndarray
+    norm: np.ndarray
+    reach: np.ndarray
+
+
+def state_scales(sol) -> np.ndarray:
+    """a_j: the voltage scale for node states, the current scale for current states (n,)."""
+    a = np.full(sol.layout.n, sol.i_scale)
+    a[:len(sol.layout.nodes)] = sol.v_scale
+    return a
+
+
+def decompose(sol, system) -> Modes | None:
+    """The ideal pencil's modes (module docstring), memoised per system; None above
+    EIGEN_UP_TO states or when QZ fails."""
+    key = ("modes", id(system))
+    if key not in sol._cache:
+        sol._cache[key] = _qz(sol, system)
+    return sol._cache[key]
+
+
+def _qz(sol, system) -> Modes | None:
+    lay = sol.layout
+    K = system.K_dc.toarray()
+    M = system.M.toarray()
+    carriers = [lay.part_index[n] for n in lay.carriers]
+    M[carriers, :] = 0.0
+    M[:, carriers] = 0.0
+    if not (0 < lay.n <= EIGEN_UP_TO and np.all(np.isfinite(K)) and np.all(np.isfinite(M))):
+        return None
+    try:
+        (alpha, beta), left, right = la.eig(-K, M, left=True, right=True,
+                                            homogeneous_eigvals=True)
+    except (la.LinAlgError, ValueError):
+        return None
+    finite = np.abs(beta) > 1e-12 * np.abs(alpha)
+    lam = alpha[finite] / beta[finite]
+    circuit_mode = np.abs(lam) * sol.regularisation.t_pulse <= PILOT_SPLIT
+    v, u = right[:, finite], left[:, finite]
+    um = u.conj().T @ M
+    norm = np.sum(um * v.T, axis=1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        reach = (np.abs(um) @ state_scales(sol)) / np.abs(norm)
+    ok = np.isfinite(reach) & circuit_mode
+    return Modes(lam[ok], v[:, ok], um[ok], norm[ok], reach[ok])
+
+
+def ideal_row(sol, system, probe: Probe) -> np.ndarray:
+    """The probe's row c over the full state of the ideal pencil, shape (n,): a voltage
+    difference; a capacitor's current as the voltage across it (the same modes for lambda != 0);
+    a carrier's or inductor's current its own state; a cccs its control's row; other parts
+    their resistive branch rows; an independent current source none."""
+    circuit, lay = sol.circuit, sol.layout
+    if probe.kind == NODE:
+        return voltage_row(lay, probe.targets[0], circuit.ground)
+    if probe.kind == BETWEEN:
+        return voltage_row(lay, probe.targets[0], probe.targets[1])
+    part = circuit.part(probe.targets[0])
+    if probe.kind == ACROSS or part.kind == CAPACITOR:
+        return voltage_row(lay, part.p, part.n)
+    if part.name in lay.part_index:
+        row = np.zeros(lay.n)
+        row[lay.part_index[part.name]] = 1.0
+        return row
+    if part.kind == CCCS and isinstance(part.control, str):
+        return ideal_row(sol, system, Probe(probe.kind, (part.control,)))
+    if part.kind == CURRENT_SOURCE:
+        return np.zeros(lay.n)
+    return system.branches[part.name].dense(lay.n)
+
+
+@dataclass(frozen=True)
+class Visible:
+    """This engine's view of a probe's modes in one interval: order (a complex pair counts
+    2), envelope time constants (s, slowest first, merged), damped frequencies (Hz), rings
+    ((f_d Hz, zeta), slowest envelope first) and the order counted at BAND times the
+    threshold and at its inverse (lowest, highest)."""
+
+    order: int
+    modes: tuple[float, ...]
+    oscillation: tuple[float, ...]
+    rings: tuple[tuple[float, float], ...]
+    bounds: tuple[int, int] = (0, 0)
+
+
+def _deviation(sol, k: int) -> np.ndarray | None:
+    """y(t0) - y_inf over the full state, t0 the end of the pulse (module docstring)."""
+    run, system = sol.runs[k], sol.systems[k]
+    if run.status != "settled" or run.dense is None:
+        return None
+    t0 = sol.regularisation.post_pulse
+    dz = np.asarray(run.dense(t0)).ravel() - np.asarray(run.dense(run.end)).ravel()
+    return np.asarray(system.reduction.lift @ dz).ravel()
+
+
+def visible(sol, probe: Probe, k: int, scale: float) -> Visible | None:
+    """The modes visible in ``probe`` in interval k (module docstring), or None where they
+    cannot be computed (too many states, the interval did not settle)."""
+    if k >= len(sol.runs):
+        return None
+    modes, dev = decompose(sol, sol.systems[k]), _deviation(sol, k)
+    if modes is None or dev is None:
+        return None
+    t0 = sol.regularisation.post_pulse
+    with np.errstate(over="ignore", invalid="ignore"):
+        alpha = (modes.um @ dev) / modes.norm * np.exp(-modes.lam * t0)
+    gain = np.abs(ideal_row(sol, sol.systems[k], probe) @ modes.v)
+    amp = gain * np.abs(alpha)
+    decaying = np.isfinite(amp) & (modes.lam.real < -UNDAMPED * np.abs(modes.lam))
+    thr = MODE_VISIBILITY * scale
+    seen = modes.lam[decaying & (amp > thr)]
+    # what the integration's own error (about its tolerance on every state) can put into a
+    # mode's amplitude, and a mode that decayed by more than e over the pulse window (its
+    # error magnified by the extrapolation back to t_k+): such modes may or may not be visible
+    # as far as this engine can tell
+    noise = gain * modes.reach * NOISE * max(sol.rtol, sol.regularisation.pulse_ratio)
+    unsure = decaying & ((np.abs(modes.lam.real) * t0 > 1.0) | (noise > thr / BAND))
+    bounds = (int(np.sum(decaying & ~unsure & (amp > BAND * thr))),
+              int(np.sum(decaying & (unsure | (amp > thr / BAND)))))
+    return _summarise(seen, ring_split(sol.regularisation.pulse_ratio), bounds)
+
+
+def ring_split(pulse_ratio: float) -> float:
+    """|Im lambda| / |lambda| below which a pair is a split double real pole, not a ring: the
+    narrow-pulse model perturbs the pencil by about ``pulse_ratio`` (its inductor shunts), which
+    splits a double pole by its square root; ten times that."""
+    return 10.0 * math.sqrt(pulse_ratio)
+
+
+def _summarise(lam: np.ndarray, split: float, bounds: tuple[int, int]) -> Visible:
+    taus, rings = [], []
+    for rate in sorted(lam, key=lambda r: r.real, reverse=True):
+        if abs(rate.imag) > split * abs(rate) and rate.imag < 0:
+            continue                                  # the conjugate of a pair counted below
+        taus.append(float(-1.0 / rate.real))
+        if abs(rate.imag) > split * abs(rate):
+            rings.append((float(rate.imag / (2 * math.pi)), float(-rate.real / abs(rate))))
+    order = int(lam.size)
+    merged: list[float] = []
+    for tau in taus:
+        if not merged or abs(merged[-1] - tau) > max(MODE_MERGE, split) * max(merged[-1], tau):
+            merged.append(tau)
+    return Visible(order, tuple(merged), tuple(sorted(f for f, _ in rings)), tuple(rings),
+                   bounds)
