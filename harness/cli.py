@@ -24,6 +24,7 @@ for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")
 
 from .outcome import ERROR  # noqa: E402  (after the BLAS setting, which must precede numpy)
+from .safetext import printable  # noqa: E402
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -72,9 +73,6 @@ def _positive(text: str) -> int:
 
 #: exit code for a run stopped by a signal: 128 + the signal number (common practice)
 EXIT_SIGNAL_BASE = 128
-#: exit code when the reports could not be written
-EXIT_REPORTS = 2
-
 
 class _PipeSafe:
     """stdout that survives a reader closing the pipe (``tauproof check … | head``): the rest
@@ -109,45 +107,91 @@ class _PipeSafe:
 
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the console script; returns the exit code."""
+    streams = _escape_unencodable()
     previous, sys.stdout = sys.stdout, _PipeSafe(sys.stdout)
     try:
         return _main(argv)
     finally:
         sys.stdout = previous
+        for stream, errors in streams:
+            with contextlib.suppress(Exception):
+                stream.reconfigure(errors=errors)
+
+
+def _escape_unencodable() -> list:
+    """stdout and stderr write what their encoding cannot hold as escapes, never raising
+    (a lone surrogate from a file name that is not UTF-8); returns what to restore."""
+    changed = []
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            errors = stream.errors
+            stream.reconfigure(errors="backslashreplace")
+            changed.append((stream, errors))
+        except (AttributeError, ValueError, OSError):  # not a text stream we can reconfigure
+            pass
+    return changed
+
+
+def say(text: str) -> None:
+    """One line on stderr, ``tauproof: <text>``, untrusted text shown as escapes."""
+    print(f"tauproof: {printable(text)}", file=sys.stderr)
 
 
 def _main(argv: list[str] | None) -> int:
-    args = _parser().parse_args(argv)
+    args = _parse(argv)
+    from .pool import Interrupted
     from .runner import RunInterrupted, RunOptions, run
     options = RunOptions(numeric=not args.closed_form_only, jobs=args.jobs,
                          progress=not args.json, timeout=args.timeout)
+    result, written = None, []
     try:
         with _sigterm_raises(), warnings.catch_warnings():
             _quiet_numerics()
             result = run(args.paths, options)
+            if args.command == "check":
+                from .outcome import require_checks
+                result, written = _write_reports(args, require_checks(result))
     except RunInterrupted as stop:
-        return _interrupted(stop)
-    if args.command == "check":
-        from .outcome import require_checks
-        result = require_checks(result)
+        return _interrupted(args, stop.signum, stop.partial, stop.total, False)
+    except (KeyboardInterrupt, Interrupted) as stop:  # while the reports were being written
+        return _interrupted(args, getattr(stop, "signum", signal.SIGINT), result,
+                            len(result.files) if result else 0,
+                            getattr(stop, "reports_written", False))
     for file in result.files:
         for message in file.input_warnings if args.json or args.command != "check" else ():
-            print(f"tauproof: warning: {message}", file=sys.stderr)  # check's table lists them
+            say(f"warning: {message}")  # check's table lists them
         for message in file.errors:
-            print(f"tauproof: {message}", file=sys.stderr)
+            say(message)
+    for message in result.errors:
+        say(message)
     if args.json:
         from .report import jsonout
         sys.stdout.write(jsonout.render(result))
-    code = result.exit_code
-    if args.command == "check":
-        if not _finish_check(args, result):
-            code = max(code, EXIT_REPORTS)
-    elif not args.json:
+    elif args.command == "check":
+        _print_check(args, result, written)
+    else:
         from .report.console import render_solve
         for file in result.files:
             if file.verdict != ERROR or file.checks:
                 print(render_solve(file))
-    return code
+    return result.exit_code
+
+
+def _parse(argv: list[str] | None) -> argparse.Namespace:
+    """The parsed arguments.  A usage error exits 2; with ``--json`` among the arguments its
+    message is also a JSON document on stdout (verdict ``error``, the message in ``errors``)."""
+    parser = _parser()
+    words = sys.argv[1:] if argv is None else list(argv)
+    if "--json" in words:
+        def error(message: str):
+            from .outcome import RunResult
+            from .report import jsonout
+            say(f"error: {message}")
+            sys.stdout.write(jsonout.render(RunResult(errors=(f"usage: {message}",))))
+            raise SystemExit(2)
+        for each in [parser, *parser._subparsers._group_actions[0].choices.values()]:
+            each.error = error  # type: ignore[method-assign]
+    return parser.parse_args(words)
 
 
 def _quiet_numerics() -> None:
@@ -160,6 +204,15 @@ def _quiet_numerics() -> None:
         warnings.filterwarnings("ignore", category=LinAlgWarning)
     except ImportError:  # pragma: no cover
         pass
+    warnings.showwarning = _show_warning
+
+
+def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """A warning that reaches the user: ``tauproof: warning: <text>``, never a source line; the
+    numerical libraries' own warnings (their categories) are dropped."""
+    if category.__module__.split(".")[0] in ("numpy", "scipy"):
+        return
+    say(f"warning: {message}")
 
 
 @contextlib.contextmanager
@@ -181,40 +234,50 @@ def _sigterm_raises():
         signal.signal(signal.SIGTERM, previous)
 
 
-def _interrupted(stop) -> int:
-    """One line on stderr for a run stopped by a signal; the exit code 128 + signal."""
-    name = {signal.SIGINT: "SIGINT", signal.SIGTERM: "SIGTERM"}.get(stop.signum,
-                                                                   f"signal {stop.signum}")
-    finished = sum(1 for f in stop.partial.files if f.file)
-    print(f"tauproof: stopped by {name} after {finished} of {stop.total} file(s); reports not "
-          f"written (the previous reports are left as they were)", file=sys.stderr)
-    return EXIT_SIGNAL_BASE + stop.signum
+def _interrupted(args, signum: int, partial, total: int, reports_written: bool) -> int:
+    """One line on stderr for a run stopped by a signal (with ``--json`` also the document of
+    what had finished, the stop in its ``errors``); the exit code 128 + signal."""
+    from .outcome import RunResult
+    name = {signal.SIGINT: "SIGINT", signal.SIGTERM: "SIGTERM"}.get(signum, f"signal {signum}")
+    files = partial.files if partial is not None else ()
+    finished = sum(1 for f in files if f.file)
+    reports = ("the reports were written" if reports_written else
+               "reports not written (the previous reports are left as they were)")
+    text = f"stopped by {name} after {finished} of {total} file(s); {reports}"
+    say(text)
+    if args.json:
+        from .report import jsonout
+        sys.stdout.write(jsonout.render(RunResult(files=tuple(files), errors=(text,))))
+    return EXIT_SIGNAL_BASE + int(signum)
 
 
-def _finish_check(args, result) -> bool:
-    """Reports and the console table of a check run; False when the reports could not be written
-    (the message, naming the folder, is on stderr; the table is still printed)."""
+def _write_reports(args, result):
+    """(the result, the paths written): the reports of a check run, unless ``--no-report``;
+    a failure to write them becomes an error of the run, naming the folder."""
+    from .outcome import RunResult
     from .report import write_all
+    if args.no_report:
+        return result, []
+    try:
+        return result, write_all(result, Path(args.report_dir), jobs=args.jobs)
+    except OSError as err:
+        problem = f"could not write the reports to the folder {args.report_dir}: {err}"
+        return RunResult(files=result.files, errors=result.errors + (problem,)), []
+
+
+def _print_check(args, result, written: list) -> None:
+    """The console table of a check run: failures, findings, warnings, summary, report paths."""
     from .report.console import (render_failures, render_findings, render_summary,
                                   render_warnings)
-    ok, written = True, []
-    if not args.no_report:
-        try:
-            written = write_all(result, Path(args.report_dir), jobs=args.jobs)
-        except OSError as err:
-            print(f"tauproof: could not write the reports to the folder {args.report_dir}: "
-                  f"{err}", file=sys.stderr)
-            ok = False
-    if not args.json:
-        for text in (render_failures(result), render_findings(result), render_warnings(result)):
-            if text:
-                print(text)
-        print(render_summary(result))
-        main_files = [p for p in written if p.parent == Path(args.report_dir)]
-        if main_files:
-            print(f"reports in {args.report_dir}/: {', '.join(p.name for p in main_files)}"
-                  f" (+{len(written) - len(main_files)} plots)")
-    return ok
+    for text in (render_failures(result), render_findings(result), render_warnings(result)):
+        if text:
+            print(text)
+    print(render_summary(result))
+    main_files = [p for p in written if p.parent == Path(args.report_dir)]
+    if main_files:
+        print(printable(f"reports in {args.report_dir}/: "
+                        f"{', '.join(p.name for p in main_files)} "
+                        f"(+{len(written) - len(main_files)} plots)"))
 
 
 if __name__ == "__main__":  # pragma: no cover

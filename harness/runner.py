@@ -9,6 +9,8 @@ SIGTERM stops the run with ``RunInterrupted`` carrying the results that finished
 
 from __future__ import annotations
 
+import contextlib
+import ctypes
 import os
 import sys
 import time
@@ -64,10 +66,6 @@ def _error_result(file: str, message: str, title: str = "",
 def check_file(path: str, numeric: bool = True) -> FileResult:
     """Analyse one circuit file; never raises (faults become an ``error`` result)."""
     from .circuitfile import read_circuit
-    from . import closedform
-    from .compare import compare_file
-    from .report.cautions import cautions_for
-    from .closedform.conditioning import assess, guard
 
     started = time.perf_counter()
     try:
@@ -75,16 +73,8 @@ def check_file(path: str, numeric: bool = True) -> FileResult:
     except InputError as err:
         return _error_result(path, str(err.located(file=path)))
     try:
-        exact = closedform.solve(circuit)
-        trust = assess(exact)  # beyond tolerances.CONDITION_LIMIT both engines report None
-        exact, sim = guard(exact, trust), None
-        if numeric:
-            from . import simulate
-            sim = guard(simulate.solve(circuit), trust)
-        cautions = cautions_for(circuit, voltages=_node_voltages(circuit, exact),
-                                jumps=[exact.jump(k) for k in range(len(circuit.events))])
-        return compare_file(circuit, exact, sim, cautions=cautions,
-                            seconds=time.perf_counter() - started)
+        with native_output_silenced():
+            return _analyse(path, circuit, numeric, started)
     except InputError as err:
         return _error_result(path, str(err.located(file=path)), circuit.title, circuit.warnings)
     except Exception as err:  # an engine fault must not take the run down with it
@@ -93,6 +83,55 @@ def check_file(path: str, numeric: bool = True) -> FileResult:
         return _error_result(path, f"{path}: internal error while analysing: "
                                    f"{type(err).__name__}: {err}", circuit.title,
                              circuit.warnings)
+
+
+def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
+    """Both engines, the trust guard, the cautions and the comparison of one read circuit."""
+    from . import closedform
+    from .compare import compare_file
+    from .report.cautions import cautions_for
+    from .closedform.conditioning import assess, guard
+
+    exact = closedform.solve(circuit)
+    trust = assess(exact)  # beyond tolerances.CONDITION_LIMIT both engines report None
+    exact, sim = guard(exact, trust), None
+    if numeric:
+        from . import simulate
+        sim = guard(simulate.solve(circuit), trust)
+    cautions = cautions_for(circuit, voltages=_node_voltages(circuit, exact),
+                            jumps=[exact.jump(k) for k in range(len(circuit.events))])
+    return compare_file(circuit, exact, sim, cautions=cautions,
+                        seconds=time.perf_counter() - started)
+
+
+@contextlib.contextmanager
+def native_output_silenced():
+    """File descriptor 1 goes to the null device for the block: the linear-algebra libraries'
+    C code prints there on its own (LAPACK's "On entry to DLASCL parameter number 4 had an
+    illegal value"), which would corrupt ``--json`` on stdout.  Python's and C's buffers are
+    flushed on both sides, so nothing of ours is lost and nothing of theirs leaks later."""
+    try:
+        sys.stdout.flush()
+        saved = os.dup(1)
+    except (OSError, ValueError, AttributeError):  # no usable descriptor 1: nothing to guard
+        yield
+        return
+    null = os.open(os.devnull, os.O_WRONLY)
+    try:
+        os.dup2(null, 1)
+        yield
+    finally:
+        _flush_c_streams()
+        os.dup2(saved, 1)
+        os.close(saved)
+        os.close(null)
+
+
+def _flush_c_streams() -> None:
+    try:
+        ctypes.CDLL(None).fflush(None)
+    except (OSError, AttributeError):  # pragma: no cover - no C library to flush
+        pass
 
 
 #: node-voltage evaluations spent looking for hazardous voltages (nodes × events)
