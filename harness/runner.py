@@ -18,7 +18,8 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Iterable
 
-from .errors import InputError
+from .closedform.interval import SingularPencil
+from .errors import InputError, location
 from .outcome import ERROR, FileResult, RunResult
 from .pool import Interrupted, run_tasks
 from .pool import RunInterrupted as PoolInterrupted
@@ -77,12 +78,29 @@ def check_file(path: str, numeric: bool = True) -> FileResult:
             return _analyse(path, circuit, numeric, started)
     except InputError as err:
         return _error_result(path, str(err.located(file=path)), circuit.title, circuit.warnings)
+    except SingularPencil:
+        return _error_result(path, _singular_message(path, circuit), circuit.title,
+                             circuit.warnings)
     except Exception as err:  # an engine fault must not take the run down with it
         if os.environ.get("TAUPROOF_DEBUG"):
             raise
         return _error_result(path, f"{path}: internal error while analysing: "
                                    f"{type(err).__name__}: {err}", circuit.title,
                              circuit.warnings)
+
+
+def _singular_message(path: str, circuit) -> str:
+    """Why the closed form found no regular pencil, blaming the parts whose values are outside
+    their plausible ranges (the reader warned about them) when there are any."""
+    from .plausible import PLAUSIBLE
+    limit = ("the circuit's equations are singular to working precision at every shift tried: "
+             "part values this many decades apart cannot be solved in double precision")
+    odd = [p.name for p in circuit.parts if p.kind in PLAUSIBLE and p.value
+           and not PLAUSIBLE[p.kind][0] <= abs(p.value) <= PLAUSIBLE[p.kind][1]]
+    if not odd:
+        return f"{path}: {limit} (look for values many decades apart)"
+    return f"{location(path, None, odd[0], 'value')}: {limit}" + \
+        (f" (also {', '.join(odd[1:])})" if odd[1:] else "")
 
 
 def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:

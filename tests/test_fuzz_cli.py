@@ -114,6 +114,43 @@ def test_undamped_parasitic_tank_with_a_dangling_source_stops_within_seconds(tmp
     strict(out)
 
 
+def test_voltage_source_across_a_resistor_beside_a_huge_capacitor(tmp_path):
+    """The LC output filter with C1 = 1e30 F (the edge of the accepted range) and a voltage
+    source added across the load resistor: analysed or refused, never an internal error (the
+    numerical engine's first step exceeded its window)."""
+    text = LC_FILTER.read_text().replace('value = "100u"', 'value = "1e30 F"')
+    text = text.replace("[parts]\n", '[parts]\nVx = { kind = "voltage-source", '
+                                     'nodes = ["out", "gnd"], value = "0 V" }\n')
+    path = tmp_path / "across.toml"
+    path.write_text(text)
+    code, out, err, _ = cli("solve", "--json", str(path))
+    assert code in (0, 1, 2) and "internal error" not in err and "Traceback" not in err, err
+    strict(out)
+
+
+def test_values_too_many_decades_apart_blame_the_implausible_part(tmp_path):
+    """A 1e30 Ω resistor feeding a 350 mS transconductance: the equations are singular to double
+    precision; exit 2 blaming the resistor's value, not an internal error."""
+    path = tmp_path / "apart.toml"
+    path.write_text(textwrap.dedent("""
+        [parts]
+        V1 = { kind = "voltage-source", nodes = ["dim", "gnd"], value = "0 V", steps = [["0 s", "1 V"]] }
+        R1 = { kind = "resistor", nodes = ["dim", "ctl"], value = "10k" }
+        C1 = { kind = "capacitor", nodes = ["ctl", "gnd"], value = "100n" }
+        V2 = { kind = "voltage-source", nodes = ["vled", "gnd"], value = "36 V" }
+        Rd = { kind = "resistor", nodes = ["vled", "a"], value = "1e30" }
+        Vf = { kind = "voltage-source", nodes = ["a", "k"], value = "28 V" }
+        G1 = { kind = "vccs", nodes = ["k", "gnd"], value = "350 mS", control = ["ctl", "gnd"] }
+        [[expect]]
+        node = "k"
+        final = "4.5 V"
+        """))
+    code, out, err, _ = cli("check", "--json", "--no-report", str(path))
+    assert code == 2 and "internal error" not in err
+    assert f"{path}: part Rd, field value: the circuit's equations are singular" in err
+    strict(out)
+
+
 @pytest.mark.parametrize("args", [["check", "--no-report"], ["solve"],
                                   ["check", "--json", "--no-report"]])
 def test_file_name_that_is_not_utf8_prints_as_escapes(tmp_path, args):
