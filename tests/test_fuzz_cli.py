@@ -128,6 +128,20 @@ def test_voltage_source_across_a_resistor_beside_a_huge_capacitor(tmp_path):
     strict(out)
 
 
+def test_mode_faster_than_the_resolution_of_the_event_time(tmp_path):
+    """The supervisor reset with C1 = 1e-30 F: 10 tau (~8e-25 s) added to the 200 ms event is
+    200 ms again in floating point; the sign-off span is then 10 tau itself, not an empty
+    geometric grid (an internal error)."""
+    library = ROOT / "circuits" / "library" / "logger" / "supervisor-reset.toml"
+    text = library.read_text()
+    assert text.count('value = "1u" }') == 1
+    path = tmp_path / "fast.toml"
+    path.write_text(text.replace('value = "1u" }', 'value = "1e-30 F" }'))
+    code, out, err, _ = cli("solve", "--json", str(path))
+    assert code in (0, 1) and "internal error" not in err and "Traceback" not in err, err
+    strict(out)
+
+
 def test_values_too_many_decades_apart_blame_the_implausible_part(tmp_path):
     """A 1e30 Ω resistor feeding a 350 mS transconductance: the equations are singular to double
     precision; exit 2 blaming the resistor's value, not an internal error."""
