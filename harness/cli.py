@@ -27,17 +27,37 @@ from .outcome import ERROR  # noqa: E402  (after the BLAS setting, which must pr
 from .safetext import printable  # noqa: E402
 
 
-def _parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
-        prog="tauproof",
+class _Parser(argparse.ArgumentParser):
+    """An argument parser whose usage errors, when ``json_errors``, are also a JSON document on
+    stdout (verdict ``error``, the message in ``errors``) before the exit with code 2."""
+
+    def __init__(self, *args, json_errors: bool = False, **kwargs) -> None:
+        super().__init__(*args, **kwargs)
+        self.json_errors = json_errors
+
+    def error(self, message: str):
+        if not self.json_errors:
+            super().error(message)
+        from .outcome import RunResult
+        from .report import jsonout
+        say(f"error: {message}")
+        sys.stdout.write(jsonout.render(RunResult(errors=(f"usage: {message}",))))
+        raise SystemExit(2)
+
+
+def _parser(json_errors: bool = False) -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="tauproof", json_errors=json_errors,
         description="Check hand-calculated RC/RL step responses against an exact and a "
                     "numerical engine.")
     sub = parser.add_subparsers(dest="command", required=True)
-    check = sub.add_parser("check", help="compare hand values with both engines and write reports")
+    check = sub.add_parser("check", help="compare hand values with both engines and write reports",
+                           json_errors=json_errors)
     check.add_argument("paths", nargs="+", metavar="PATH", help="circuit files or folders")
     check.add_argument("--report-dir", default="reports", help="where reports go (default: reports/)")
     check.add_argument("--no-report", action="store_true", help="do not write report files")
-    solve = sub.add_parser("solve", help="print the computed values for every expectation's probe")
+    solve = sub.add_parser("solve", help="print the computed values for every expectation's probe",
+                           json_errors=json_errors)
     solve.add_argument("paths", nargs="+", metavar="FILE", help="circuit files or folders")
     for sp in (check, solve):
         sp.add_argument("--json", action="store_true", help="machine-readable result on stdout")
@@ -179,19 +199,9 @@ def _main(argv: list[str] | None) -> int:
 
 def _parse(argv: list[str] | None) -> argparse.Namespace:
     """The parsed arguments.  A usage error exits 2; with ``--json`` among the arguments its
-    message is also a JSON document on stdout (verdict ``error``, the message in ``errors``)."""
-    parser = _parser()
+    message is also a JSON document on stdout."""
     words = sys.argv[1:] if argv is None else list(argv)
-    if "--json" in words:
-        def error(message: str):
-            from .outcome import RunResult
-            from .report import jsonout
-            say(f"error: {message}")
-            sys.stdout.write(jsonout.render(RunResult(errors=(f"usage: {message}",))))
-            raise SystemExit(2)
-        for each in [parser, *parser._subparsers._group_actions[0].choices.values()]:
-            each.error = error  # type: ignore[method-assign]
-    return parser.parse_args(words)
+    return _parser(json_errors="--json" in words).parse_args(words)
 
 
 def _quiet_numerics() -> None:

@@ -165,7 +165,8 @@ def test_control_and_bidi_characters_never_reach_stderr_or_a_report(tmp_path):
         '[[expect]]\nthrough = "R\x9b1"\nfinal = "1 A"\ntau = "2 ms"\n'
         'note = "bell \\u0007 here"\n', encoding="utf-8")
     reports = tmp_path / "reports"
-    for args in (["check", "--report-dir", str(reports)], ["solve"], ["check", "--json", "--no-report"]):
+    for args in (["check", "--report-dir", str(reports)], ["solve"],
+                 ["check", "--json", "--no-report"]):
         code, out, err = cli(*args, str(path), "--closed-form-only")
         assert code == 1, err
         for text in (out, err):
