@@ -21,7 +21,7 @@ from . import topology
 from .errors import InputError, UnitError
 from .fields import VALUE_DIMENSION, parse_parts
 from .filelines import Locator, Where, expect_label, name_problem, quoted_list, suggest
-from .units import format_si, has_suffix
+from .units import check_magnitude, format_si, has_suffix
 
 #: upper limits a user can rely on (past them: an input error, not a hang)
 MAX_FILE_BYTES = 1_000_000
@@ -538,4 +538,8 @@ def _hand_value(raw: object, dimension: str, scope: _Scope, where: Where, index:
             or not math.isfinite(value):
         raise where.error(f"formula {raw!r} did not give a finite number", path=path,
                           part=label, field=name, cls=UnitError)
+    try:
+        check_magnitude(float(value), dimension, f"{raw.strip()} = {float(value):g}")
+    except InputError as exc:
+        raise where.error(exc.message, path=path, part=label, field=name, cls=UnitError) from None
     return float(value), raw.strip()

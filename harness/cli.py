@@ -24,17 +24,37 @@ for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")
 
 from .outcome import ERROR  # noqa: E402  (after the BLAS setting, which must precede numpy)
+from .safetext import printable  # noqa: E402
 
 
-def _parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
-        prog="tauproof",
+class _Parser(argparse.ArgumentParser):
+    """An argument parser whose usage errors, when ``json_errors``, are also a JSON document on
+    stdout (verdict ``error``, the message in ``errors``) before the exit with code 2."""
+
+    def __init__(self, *args, json_errors: bool = False, **kwargs) -> None:
+        super().__init__(*args, **kwargs)
+        self.json_errors = json_errors
+
+    def error(self, message: str):
+        if not self.json_errors:
+            super().error(message)
+        from .outcome import RunResult
+        from .report import jsonout
+        say(f"error: {message}")
+        sys.stdout.write(jsonout.render(RunResult(errors=(f"usage: {message}",))))
+        raise SystemExit(2)
+
+
+def _parser(json_errors: bool = False) -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="tauproof", json_errors=json_errors,
         description="Check hand-calculated RC/RL step responses against an exact and a "
                     "numerical engine. Settings come from [tool.tauproof] in the nearest "
                     "pyproject.toml (`tauproof help config`); options here override them.")
     parser.add_argument("--version", action="version", version=f"tauproof {_version()}")
     sub = parser.add_subparsers(dest="command", required=True)
-    check = sub.add_parser("check", help="compare hand values with both engines and write reports")
+    check = sub.add_parser("check", help="compare hand values with both engines and write reports",
+                           json_errors=json_errors)
     check.add_argument("paths", nargs="*", metavar="PATH",
                        help="circuit files or folders (default: [tool.tauproof] paths)")
     check.add_argument("--report-dir", default=None,
@@ -43,7 +63,8 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--all", action="store_true", dest="show_all",
                        help="list every check on the console, passes too (default: what needs "
                             "attention in full, passes summarised)")
-    solve = sub.add_parser("solve", help="print the computed values for every expectation's probe")
+    solve = sub.add_parser("solve", help="print the computed values for every expectation's probe",
+                           json_errors=json_errors)
     solve.add_argument("paths", nargs="*", metavar="FILE",
                        help="circuit files or folders (default: [tool.tauproof] paths)")
     for sp in (check, solve):
@@ -129,15 +150,38 @@ class _PipeSafe:
 
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the console script; returns the exit code."""
+    streams = _escape_unencodable()
     previous, sys.stdout = sys.stdout, _PipeSafe(sys.stdout)
     try:
         return _main(argv)
     finally:
         sys.stdout = previous
+        for stream, errors in streams:
+            with contextlib.suppress(Exception):
+                stream.reconfigure(errors=errors)
+
+
+def _escape_unencodable() -> list:
+    """stdout and stderr write what their encoding cannot hold as escapes, never raising
+    (a lone surrogate from a file name that is not UTF-8); returns what to restore."""
+    changed = []
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            errors = stream.errors
+            stream.reconfigure(errors="backslashreplace")
+            changed.append((stream, errors))
+        except (AttributeError, ValueError, OSError):  # not a text stream we can reconfigure
+            pass
+    return changed
+
+
+def say(text: str) -> None:
+    """One line on stderr, ``tauproof: <text>``, untrusted text shown as escapes."""
+    print(f"tauproof: {printable(text)}", file=sys.stderr)
 
 
 def _main(argv: list[str] | None) -> int:
-    args = _parser().parse_args(argv)
+    args = _parse(argv)
     if args.command in ("help", "new"):
         from . import starter
         return starter.main(args)
@@ -145,28 +189,36 @@ def _main(argv: list[str] | None) -> int:
     try:
         settings = _settings(args, load())
     except ConfigError as err:
-        print(f"tauproof: {err}", file=sys.stderr)
+        say(str(err))
         return EXIT_USAGE
     if not args.paths:
-        print("tauproof: no circuit files given: name files or folders, or set paths in "
-              "[tool.tauproof] of pyproject.toml (tauproof help config)", file=sys.stderr)
+        say("no circuit files given: name files or folders, or set paths in [tool.tauproof] "
+            "of pyproject.toml (tauproof help config)")
         return EXIT_USAGE
+    from .pool import Interrupted
     from .progress import Progress
     from .runner import RunInterrupted, RunOptions, run
     bar = Progress(enabled=not args.json)
     options = RunOptions(numeric=not args.closed_form_only, jobs=args.jobs, progress=bar,
                          timeout=args.timeout, tolerance=settings.tolerance)
+    result, written = None, []
     try:
         with _sigterm_raises(), warnings.catch_warnings():
             _quiet_numerics()
             result = run(args.paths, options)
+            if args.command == "check":
+                from .outcome import require_checks
+                result, written = _write_reports(args, argv, require_checks(result), bar)
     except RunInterrupted as stop:
         bar.close()
-        return _interrupted(stop)
-    try:
-        return _report(args, argv, result, bar)
-    finally:
+        return _interrupted(args, stop.signum, stop.partial, stop.total, False)
+    except (KeyboardInterrupt, Interrupted) as stop:  # while the reports were being written
         bar.close()
+        return _interrupted(args, getattr(stop, "signum", signal.SIGINT), result,
+                            len(result.files) if result else 0,
+                            getattr(stop, "reports_written", False))
+    bar.close()
+    return _report(args, result, written)
 
 
 def _settings(args, settings):
@@ -184,29 +236,33 @@ def _settings(args, settings):
     return settings
 
 
-def _report(args, argv, result, bar) -> int:
-    """Messages, ``--json``, the reports and the console text of a finished run."""
-    if args.command == "check":
-        from .outcome import require_checks
-        result = require_checks(result)
+def _report(args, result, written: list) -> int:
+    """Messages, ``--json`` and the console text of a finished run; its exit code."""
     for file in result.files:
         for message in file.input_warnings if args.json or args.command != "check" else ():
-            print(f"tauproof: warning: {message}", file=sys.stderr)  # check's table lists them
+            say(f"warning: {message}")  # check's table lists them
         for message in file.errors:
-            print(f"tauproof: {message}", file=sys.stderr)
+            say(message)
+    for message in result.errors:
+        say(message)
     if args.json:
         from .report import jsonout
         sys.stdout.write(jsonout.render(result))
-    code = result.exit_code
-    if args.command == "check":
-        if not _finish_check(args, argv, result, bar):
-            code = max(code, EXIT_REPORTS)
-    elif not args.json:
+    elif args.command == "check":
+        _print_check(args, result, written)
+    else:
         from .report.console import render_solve
         for file in result.files:
             if file.verdict != ERROR or file.checks:
                 print(render_solve(file))
-    return code
+    return result.exit_code
+
+
+def _parse(argv: list[str] | None) -> argparse.Namespace:
+    """The parsed arguments.  A usage error exits 2; with ``--json`` among the arguments its
+    message is also a JSON document on stdout."""
+    words = sys.argv[1:] if argv is None else list(argv)
+    return _parser(json_errors="--json" in words).parse_args(words)
 
 
 def _quiet_numerics() -> None:
@@ -219,6 +275,15 @@ def _quiet_numerics() -> None:
         warnings.filterwarnings("ignore", category=LinAlgWarning)
     except ImportError:  # pragma: no cover
         pass
+    warnings.showwarning = _show_warning
+
+
+def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """A warning that reaches the user: ``tauproof: warning: <text>``, never a source line; the
+    numerical libraries' own warnings (their categories) are dropped."""
+    if category.__module__.split(".")[0] in ("numpy", "scipy"):
+        return
+    say(f"warning: {message}")
 
 
 @contextlib.contextmanager
@@ -240,50 +305,59 @@ def _sigterm_raises():
         signal.signal(signal.SIGTERM, previous)
 
 
-def _interrupted(stop) -> int:
-    """One line on stderr for a run stopped by a signal; the exit code 128 + signal."""
-    name = {signal.SIGINT: "SIGINT", signal.SIGTERM: "SIGTERM"}.get(stop.signum,
-                                                                   f"signal {stop.signum}")
-    finished = sum(1 for f in stop.partial.files if f.file)
-    print(f"tauproof: stopped by {name} after {finished} of {stop.total} file(s); reports not "
-          f"written (the previous reports are left as they were)", file=sys.stderr)
-    return EXIT_SIGNAL_BASE + stop.signum
+def _interrupted(args, signum: int, partial, total: int, reports_written: bool) -> int:
+    """One line on stderr for a run stopped by a signal (with ``--json`` also the document of
+    what had finished, the stop in its ``errors``); the exit code 128 + signal."""
+    from .outcome import RunResult
+    name = {signal.SIGINT: "SIGINT", signal.SIGTERM: "SIGTERM"}.get(signum, f"signal {signum}")
+    files = partial.files if partial is not None else ()
+    finished = sum(1 for f in files if f.file)
+    reports = ("the reports were written" if reports_written else
+               "reports not written (the previous reports are left as they were)")
+    text = f"stopped by {name} after {finished} of {total} file(s); {reports}"
+    say(text)
+    if args.json:
+        from .report import jsonout
+        sys.stdout.write(jsonout.render(RunResult(files=tuple(files), errors=(text,))))
+    return EXIT_SIGNAL_BASE + int(signum)
 
 
-def _finish_check(args, argv, result, bar) -> bool:
-    """Reports and the console text of a check run; False when the reports could not be written
-    (the message, naming the folder, is on stderr; the console text is still printed)."""
+def _write_reports(args, argv, result, bar):
+    """(the result, the paths written): the reports of a check run, unless ``--no-report``,
+    headed by the run's provenance; a failure to write them becomes an error of the run,
+    naming the folder."""
+    from .outcome import RunResult
     from .report import write_all
+    from .report.provenance import collect
+    if args.no_report:
+        return result, []
+    facts = collect(result, sys.argv[1:] if argv is None else argv)
+    try:
+        return result, write_all(result, Path(args.report_dir), jobs=args.jobs, progress=bar,
+                                 provenance=facts)
+    except OSError as err:
+        problem = f"could not write the reports to the folder {args.report_dir}: {err}"
+        return RunResult(files=result.files, errors=result.errors + (problem,)), []
+
+
+def _print_check(args, result, written: list) -> None:
+    """The console text of a check run: failures, findings, warnings, passes, summary, paths."""
     from .report.console import (render_failures, render_findings, render_passes,
                                   render_summary, render_warnings, wrap)
     from .report.style import for_stream
-    ok, written = True, []
-    if not args.no_report:
-        from .report.provenance import collect
-        facts = collect(result, sys.argv[1:] if argv is None else argv)
-        try:
-            written = write_all(result, Path(args.report_dir), jobs=args.jobs, progress=bar,
-                                provenance=facts)
-        except OSError as err:
-            print(f"tauproof: could not write the reports to the folder {args.report_dir}: "
-                  f"{err}", file=sys.stderr)
-            ok = False
-    bar.close()
-    if not args.json:
-        style = for_stream(sys.stdout)
-        texts = [render_failures(result, style, args.show_all),
-                 wrap(render_findings(result), style), wrap(render_warnings(result), style),
-                 "" if args.show_all else wrap(render_passes(result), style)]
-        for text in texts:
-            if text:
-                print(text)
-        print(render_summary(result, style))
-        main_files = [p for p in written if p.parent == Path(args.report_dir)]
-        if main_files:
-            print(wrap(f"reports in {args.report_dir}/: "
-                       f"{', '.join(p.name for p in main_files)}"
-                       f" (+{len(written) - len(main_files)} plots)", style))
-    return ok
+    style = for_stream(sys.stdout)
+    texts = [render_failures(result, style, args.show_all),
+             wrap(render_findings(result), style), wrap(render_warnings(result), style),
+             "" if args.show_all else wrap(render_passes(result), style)]
+    for text in texts:
+        if text:
+            print(text)
+    print(render_summary(result, style))
+    main_files = [p for p in written if p.parent == Path(args.report_dir)]
+    if main_files:
+        print(wrap(printable(f"reports in {args.report_dir}/: "
+                             f"{', '.join(p.name for p in main_files)}"
+                             f" (+{len(written) - len(main_files)} plots)"), style))
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -207,7 +207,7 @@ def _quantity(text: str, i: int) -> tuple[_Token, int]:
         unit = None
     raw = text[i:end]
     try:
-        value = parse_quantity(raw, unit or "1", allow_percent=True)
+        value = parse_quantity(raw, unit or "1", allow_percent=True, ranged=False)
     except UnitError as err:
         raise _fail(f"cannot read {raw!r} at column {i + 1}", text, raw, i + 1,
                     f": {err.message}") from None

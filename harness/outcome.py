@@ -188,21 +188,28 @@ class RunResult:
     """A whole run over files and folders."""
 
     files: tuple[FileResult, ...] = field(default_factory=tuple)
+    #: what went wrong with the run itself, not with a file (the reports could not be written,
+    #: a signal stopped it, the command line was wrong); each makes the verdict ``error``
+    errors: tuple[str, ...] = ()
 
     @property
     def verdict(self) -> str:
-        return worst(f.verdict for f in self.files)
+        return ERROR if self.errors else worst(f.verdict for f in self.files)
 
     @property
     def exit_code(self) -> int:
         """0 all pass, 1 any mismatch, engines-disagree or unchecked file, 2 any file that could
-        not be analysed."""
-        if any(f.verdict == ERROR for f in self.files):
+        not be analysed or an error of the run itself."""
+        if self.errors or any(f.verdict == ERROR for f in self.files):
             return 2
         return 0 if self.verdict == PASS else 1
 
     def to_json(self) -> dict[str, Any]:
-        return {"verdict": self.verdict, "files": [f.to_json() for f in self.files]}
+        """``verdict``, ``files`` and, only when the run itself failed, ``errors``."""
+        out: dict[str, Any] = {"verdict": self.verdict, "files": [f.to_json() for f in self.files]}
+        if self.errors:
+            out["errors"] = list(self.errors)
+        return out
 
 
 def require_checks(run: RunResult) -> RunResult:
@@ -210,4 +217,4 @@ def require_checks(run: RunResult) -> RunResult:
     ``unchecked`` (with ``NOTHING_CHECKED``): for ``check`` nothing checked is not a pass."""
     files = tuple(replace(f, verdict=UNCHECKED, messages=f.messages + (NOTHING_CHECKED,))
                   if not f.checks and f.verdict == PASS else f for f in run.files)
-    return RunResult(files=files)
+    return RunResult(files=files, errors=run.errors)

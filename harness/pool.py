@@ -14,13 +14,20 @@ over its own pipe and waits on the pipes, the process sentinels and the nearest 
   every worker is killed and ``RunInterrupted`` carries the results that had finished.
 
 Workers ignore SIGINT (a terminal's Ctrl-C reaches the whole process group; the parent decides)
-and take SIGTERM's default action.
+and take SIGTERM's default action, and die with the parent even when it is killed outright
+(SIGKILL, out of memory): on Linux through ``prctl(PR_SET_PDEATHSIG, SIGKILL)``, elsewhere by a
+watchdog thread that notices the parent is gone.  A forked worker also closes the parent's ends
+of the other workers' pipes, so no worker keeps another one's pipe open.
 """
 
 from __future__ import annotations
 
+import ctypes
 import multiprocessing as mp
+import os
 import signal
+import sys
+import threading
 import time
 from collections import deque
 from multiprocessing.connection import wait
@@ -28,6 +35,10 @@ from typing import Callable
 
 #: how often (s) the parent wakes when no deadline is nearer, to notice dead workers promptly
 _POLL = 0.5
+#: prctl option: the signal a process gets when its parent dies (linux/prctl.h)
+_PR_SET_PDEATHSIG = 1
+#: how often (s) the watchdog thread of a worker without prctl looks at its parent
+_WATCH = 0.5
 
 
 class Interrupted(BaseException):
@@ -55,8 +66,35 @@ def _context():
     return mp.get_context("fork" if "fork" in methods else "spawn")
 
 
-def _serve(conn, work: Callable) -> None:
-    """Worker loop: receive (index, args), send (index, work(*args)); stop on None."""
+def die_with_parent(parent: int) -> None:
+    """Make this process end when the process ``parent`` (its parent) ends, however it ends."""
+    if sys.platform.startswith("linux"):
+        try:
+            libc = ctypes.CDLL(None, use_errno=True)
+            if libc.prctl(_PR_SET_PDEATHSIG, int(signal.SIGKILL), 0, 0, 0) == 0:
+                if os.getppid() != parent:  # it was gone before the call took effect
+                    os._exit(1)
+                return
+        except (OSError, AttributeError):  # pragma: no cover - no usable libc
+            pass
+
+    def watch() -> None:  # pragma: no cover - platforms without prctl
+        while os.getppid() == parent:
+            time.sleep(_WATCH)
+        os._exit(1)
+
+    threading.Thread(target=watch, daemon=True).start()
+
+
+def _serve(conn, work: Callable, parent: int, others: list) -> None:
+    """Worker loop: receive (index, args), send (index, work(*args)); stop on None.
+    ``others``: the parent's ends of the other workers' pipes, closed here at once."""
+    die_with_parent(parent)
+    for other in others:
+        try:
+            other.close()
+        except OSError:
+            pass
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     signal.signal(signal.SIGTERM, signal.SIG_DFL)
     while True:
@@ -73,9 +111,12 @@ def _serve(conn, work: Callable) -> None:
 class _Worker:
     """One worker process and the parent's end of its pipe."""
 
-    def __init__(self, ctx, work: Callable) -> None:
+    def __init__(self, ctx, work: Callable, others: list | None = None) -> None:
         self.conn, child = ctx.Pipe()
-        self.process = ctx.Process(target=_serve, args=(child, work), daemon=True)
+        inherited = [w.conn for w in others or () if not w.conn.closed] \
+            if ctx.get_start_method() == "fork" else []
+        self.process = ctx.Process(target=_serve, args=(child, work, os.getpid(), inherited),
+                                   daemon=True)
         self.process.start()
         child.close()
         self.task: int | None = None
@@ -131,7 +172,8 @@ def run_tasks(tasks: list[tuple], work: Callable, *, jobs: int, timeout: float |
     done: dict = {}
     workers: list[_Worker] = []
     try:
-        workers = [_Worker(ctx, work) for _ in range(max(1, min(jobs, len(tasks))))]
+        for _ in range(max(1, min(jobs, len(tasks)))):
+            workers.append(_Worker(ctx, work, workers))
         while len(done) < len(tasks):
             for i, worker in enumerate(workers):
                 if worker.task is None and pending:
@@ -140,7 +182,7 @@ def run_tasks(tasks: list[tuple], work: Callable, *, jobs: int, timeout: float |
                         worker.give(index, tasks[index], timeout)
                     except OSError:  # died while idle: replace it and try again later
                         worker.kill()
-                        workers[i] = _Worker(ctx, work)
+                        workers[i] = _Worker(ctx, work, workers)
                         pending.appendleft(index)
             _wait_round(ctx, work, workers, done, on_timeout, on_death, on_done)
     except KeyboardInterrupt:
@@ -184,7 +226,7 @@ def _wait_round(ctx, work, workers, done, on_timeout, on_death, on_done) -> None
         worker.task = None
         if expired or not worker.process.is_alive():
             worker.kill()
-            workers[i] = _Worker(ctx, work)
+            workers[i] = _Worker(ctx, work, workers)
 
 
 def _kill_all(workers: list[_Worker]) -> None:

@@ -9,13 +9,17 @@ SIGTERM stops the run with ``RunInterrupted`` carrying the results that finished
 
 from __future__ import annotations
 
+import contextlib
+import ctypes
 import os
+import sys
 import time
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Iterable
 
-from .errors import InputError
+from .closedform.interval import SingularPencil
+from .errors import InputError, location
 from .outcome import ERROR, FileResult, RunResult
 from .pool import Interrupted, run_tasks
 from .pool import RunInterrupted as PoolInterrupted
@@ -68,10 +72,6 @@ def check_file(path: str, numeric: bool = True, tolerance: float | None = None) 
     """Analyse one circuit file; never raises (faults become an ``error`` result).
     ``tolerance`` is the default for a file whose ``[settings]`` give none."""
     from .circuitfile import read_circuit
-    from . import closedform
-    from .compare import compare_file
-    from .report.cautions import cautions_for
-    from .closedform.conditioning import assess, guard
 
     started = time.perf_counter()
     try:
@@ -79,24 +79,82 @@ def check_file(path: str, numeric: bool = True, tolerance: float | None = None) 
     except InputError as err:
         return _error_result(path, str(err.located(file=path)))
     try:
-        exact = closedform.solve(circuit)
-        trust = assess(exact)  # beyond tolerances.CONDITION_LIMIT both engines report None
-        exact, sim = guard(exact, trust), None
-        if numeric:
-            from . import simulate
-            sim = guard(simulate.solve(circuit), trust)
-        cautions = cautions_for(circuit, voltages=_node_voltages(circuit, exact),
-                                jumps=[exact.jump(k) for k in range(len(circuit.events))])
-        return compare_file(circuit, exact, sim, cautions=cautions,
-                            seconds=time.perf_counter() - started)
+        with native_output_silenced():
+            return _analyse(path, circuit, numeric, started)
     except InputError as err:
         return _error_result(path, str(err.located(file=path)), circuit.title, circuit.warnings)
+    except SingularPencil:
+        return _error_result(path, _singular_message(path, circuit), circuit.title,
+                             circuit.warnings)
     except Exception as err:  # an engine fault must not take the run down with it
         if os.environ.get("TAUPROOF_DEBUG"):
             raise
         return _error_result(path, f"{path}: internal error while analysing: "
                                    f"{type(err).__name__}: {err}", circuit.title,
                              circuit.warnings)
+
+
+def _singular_message(path: str, circuit) -> str:
+    """Why the closed form found no regular pencil, blaming the parts whose values are outside
+    their plausible ranges (the reader warned about them) when there are any."""
+    from .plausible import PLAUSIBLE
+    limit = ("the circuit's equations are singular to working precision at every shift tried: "
+             "part values this many decades apart cannot be solved in double precision")
+    odd = [p.name for p in circuit.parts if p.kind in PLAUSIBLE and p.value
+           and not PLAUSIBLE[p.kind][0] <= abs(p.value) <= PLAUSIBLE[p.kind][1]]
+    if not odd:
+        return f"{path}: {limit} (look for values many decades apart)"
+    return f"{location(path, None, odd[0], 'value')}: {limit}" + \
+        (f" (also {', '.join(odd[1:])})" if odd[1:] else "")
+
+
+def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
+    """Both engines, the trust guard, the cautions and the comparison of one read circuit."""
+    from . import closedform
+    from .compare import compare_file
+    from .report.cautions import cautions_for
+    from .closedform.conditioning import assess, guard
+
+    exact = closedform.solve(circuit)
+    trust = assess(exact)  # beyond tolerances.CONDITION_LIMIT both engines report None
+    exact, sim = guard(exact, trust), None
+    if numeric:
+        from . import simulate
+        sim = guard(simulate.solve(circuit), trust)
+    cautions = cautions_for(circuit, voltages=_node_voltages(circuit, exact),
+                            jumps=[exact.jump(k) for k in range(len(circuit.events))])
+    return compare_file(circuit, exact, sim, cautions=cautions,
+                        seconds=time.perf_counter() - started)
+
+
+@contextlib.contextmanager
+def native_output_silenced():
+    """File descriptor 1 goes to the null device for the block: the linear-algebra libraries'
+    C code prints there on its own (LAPACK's "On entry to DLASCL parameter number 4 had an
+    illegal value"), which would corrupt ``--json`` on stdout.  Python's and C's buffers are
+    flushed on both sides, so nothing of ours is lost and nothing of theirs leaks later."""
+    try:
+        sys.stdout.flush()
+        saved = os.dup(1)
+    except (OSError, ValueError, AttributeError):  # no usable descriptor 1: nothing to guard
+        yield
+        return
+    null = os.open(os.devnull, os.O_WRONLY)
+    try:
+        os.dup2(null, 1)
+        yield
+    finally:
+        _flush_c_streams()
+        os.dup2(saved, 1)
+        os.close(saved)
+        os.close(null)
+
+
+def _flush_c_streams() -> None:
+    try:
+        ctypes.CDLL(None).fflush(None)
+    except (OSError, AttributeError):  # pragma: no cover - no C library to flush
+        pass
 
 
 #: node-voltage evaluations spent looking for hazardous voltages (nodes × events)

@@ -61,16 +61,20 @@ def _split_suffix(suffix: str) -> tuple[float, str | None]:
     raise ValueError(suffix)
 
 
-def parse_quantity(raw: object, dimension: str, *, allow_percent: bool = False) -> float:
+def parse_quantity(raw: object, dimension: str, *, allow_percent: bool = False,
+                   ranged: bool = True) -> float:
     """Read a quantity for a field of the given dimension; return it in SI base units.
 
     Args:
         raw: a TOML value (int, float or str).
         dimension: the field's dimension, one of the values of ``UNITS`` (``"V"``, ``"ohm"`` …).
         allow_percent: accept ``%`` (the result is a fraction: ``"1%"`` -> 0.01).
+        ranged: refuse a value outside ``check_magnitude``'s range (False for a number inside a
+            formula, whose result is checked instead).
 
     Raises:
-        UnitError: the text is not a quantity, the unit does not fit, or the value is not finite.
+        UnitError: the text is not a quantity, the unit does not fit, the value is not finite,
+            or (``ranged``) it is neither 0 nor of a magnitude in the accepted range.
     """
     if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
         raise UnitError(f"expected a number or a quantity such as '4k7' or '3.3 V', "
@@ -84,7 +88,30 @@ def parse_quantity(raw: object, dimension: str, *, allow_percent: bool = False) 
         value = _parse_text(raw, dimension, allow_percent)
     if not math.isfinite(value):
         raise UnitError(f"value {raw!r} is not finite")
-    return value
+    return check_magnitude(value, dimension, raw) if ranged else value
+
+
+#: the accepted magnitudes of a non-zero quantity (in its SI unit): the range of the SI prefixes,
+#: quecto to quetta.  Within it every square and product of three values the engines form stays
+#: a normal float; a subnormal or a value near the float limits does not.
+MAGNITUDE_MIN = 1e-30
+MAGNITUDE_MAX = 1e30
+
+
+def check_magnitude(value: float, dimension: str, raw: object = None) -> float:
+    """``value`` when it is 0 or its magnitude lies in [``MAGNITUDE_MIN``, ``MAGNITUDE_MAX``].
+
+    Raises:
+        UnitError: naming the value as written (``raw``) and the accepted range in the unit.
+    """
+    if value == 0 or MAGNITUDE_MIN <= abs(value) <= MAGNITUDE_MAX:
+        return value
+    unit = _SYMBOL.get(dimension, "")
+    unit = f" {unit}" if unit else ""
+    shown = raw if isinstance(raw, str) else f"{value:g}{unit}"
+    low, high = (f"{bound:g}".replace("e+", "e") for bound in (MAGNITUDE_MIN, MAGNITUDE_MAX))
+    raise UnitError(f"{shown!r} is outside the range tauproof accepts: 0, or a magnitude from "
+                    f"{low}{unit} to {high}{unit}")
 
 
 def _parse_text(text: str, dimension: str, allow_percent: bool) -> float:

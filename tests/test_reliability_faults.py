@@ -127,12 +127,14 @@ def test_unwritable_report_folder_exits_two_and_prints_results(tmp_path, capsys)
     out, err = capsys.readouterr()
     assert code == 2
     assert str(folder) in err and "could not write the reports" in err
-    assert "PASS" in out and "1 pass" in out
+    assert "1 pass" in out and "exit 2: could not write the reports" in out
+    assert "exit 0" not in out
     assert "Traceback" not in err
 
 
 def test_unwritable_report_folder_with_json_keeps_stdout(tmp_path, capsys):
-    """With --json the result is still printed in full when the reports cannot be written."""
+    """With --json the result is still printed in full when the reports cannot be written, the
+    run's verdict error and the reason in its ``errors``."""
     files = rc_files(tmp_path, ["a"])
     blocker = tmp_path / "file"
     blocker.write_text("x")
@@ -140,7 +142,8 @@ def test_unwritable_report_folder_with_json_keeps_stdout(tmp_path, capsys):
     out, err = capsys.readouterr()
     assert code == 2
     data = json.loads(out)
-    assert data["verdict"] == PASS and len(data["files"]) == 1
+    assert data["verdict"] == ERROR and data["files"][0]["verdict"] == PASS
+    assert "could not write the reports" in data["errors"][0]
     assert str(blocker) in err
 
 

@@ -137,26 +137,27 @@ def _whole(reports: Path, old: dict[str, str]) -> int:
     return new
 
 
-def test_write_interrupted_in_process_leaves_whole_files(tmp_path, monkeypatch, capsys):
-    """Ctrl-C at the rename of summary.csv: every report is old or complete, no temporary left."""
-    from harness.report import atomic
+def test_write_interrupted_in_process_leaves_the_old_set(tmp_path, monkeypatch, capsys):
+    """Ctrl-C at the rename of summary.csv into place: the swap is undone, so every report is
+    the previous one (the set is all old), the one documented line, nothing temporary left."""
+    from harness.report import reportset
     reports = tmp_path / "reports"
     old = _previous(reports)
     path = hostile(tmp_path, "plain")
-    real = os.replace
+    real, raised = os.replace, []
 
     def replace(src, dst):
-        if Path(dst).name == "summary.csv":
+        if Path(dst).name == "summary.csv" and Path(dst).parent == reports and not raised:
+            raised.append(dst)
             raise KeyboardInterrupt
         real(src, dst)
 
-    monkeypatch.setattr(atomic.os, "replace", replace)
-    with pytest.raises(KeyboardInterrupt):
-        main(["check", str(path), "--report-dir", str(reports), "--closed-form-only"])
-    capsys.readouterr()
-    assert 0 < _whole(reports, old) < len(REPORT_FILES)
-    leftovers = [p for p in reports.rglob("*.tmp")]
-    assert leftovers == []
+    monkeypatch.setattr(reportset.os, "replace", replace)
+    code = main(["check", str(path), "--report-dir", str(reports), "--closed-form-only"])
+    out, err = capsys.readouterr()
+    assert code == 130 and "stopped by SIGINT" in err and "reports not written" in err
+    assert _whole(reports, old) == 0
+    assert sorted(p.name for p in reports.iterdir()) == sorted(old)
 
 
 _KILL_SCRIPT = textwrap.dedent("""

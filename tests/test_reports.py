@@ -8,8 +8,10 @@ first-order exponentials x_inf + (x0 - x_inf)·exp(-(t - t_k)/τ), the textbook 
 from __future__ import annotations
 
 import json
+import os
 import xml.etree.ElementTree as ET
 from html.parser import HTMLParser
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -260,22 +262,26 @@ def test_plot_names_stay_inside_the_report_folder(written):
     assert evil[0].resolve().parent == (folder / "plots").resolve()
     assert ".." not in evil[0].name and "/" not in atomic.safe_name("../../etc")
     assert atomic.safe_name("../../etc") == "etc" and atomic.safe_name("..") == "circuit"
-    with pytest.raises(ValueError):
-        atomic.inside(folder, "../x.png")
 
 
-def test_atomic_write_keeps_the_old_file_when_replace_fails(tmp_path, monkeypatch):
-    """If os.replace fails the old file is intact, ReportError is raised, no temp file remains."""
-    target = tmp_path / "report.md"
-    target.write_text("old", encoding="utf-8")
+def test_report_set_keeps_the_old_files_when_a_move_fails(tmp_path, monkeypatch):
+    """If a move into place fails, every move is undone: the old files are intact, ReportError
+    is raised, no hidden staging folder remains."""
+    from harness.report import reportset
+    run = make_run()
+    report.write_all(run, tmp_path, with_plots=False)
+    before = {p.name: p.read_bytes() for p in tmp_path.iterdir()}
+    real, failed = os.replace, []
 
     def broken(src, dst):
-        raise PermissionError(13, "denied")
-    monkeypatch.setattr(atomic.os, "replace", broken)
-    with pytest.raises(report.ReportError, match="cannot write"):
-        atomic.write_atomic(target, lambda: "new")
-    assert target.read_text(encoding="utf-8") == "old"
-    assert [p.name for p in tmp_path.iterdir()] == ["report.md"]
+        if Path(dst).name == "junit.xml" and Path(dst).parent == tmp_path and not failed:
+            failed.append(dst)
+            raise PermissionError(13, "denied")
+        real(src, dst)
+    monkeypatch.setattr(reportset.os, "replace", broken)
+    with pytest.raises(report.ReportError, match="cannot put the reports in place"):
+        report.write_all(make_run(), tmp_path, with_plots=False)
+    assert {p.name: p.read_bytes() for p in tmp_path.iterdir()} == before
 
 
 def test_atomic_write_keeps_the_old_files_when_a_serializer_raises(tmp_path, monkeypatch):

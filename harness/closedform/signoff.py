@@ -13,7 +13,8 @@ engine's reference time; the zero cluster's growth terms enter with r = 0).  On 
   refined by Brent's method (scipy.optimize.brentq).  A jump x(t_k-) -> x(t_k+) across the
   level is a crossing at u = 0.
 * peak: the largest |y| among y(0+), the roots of y'(u) (bracketed and refined the same way)
-  and the final value as the limit t -> infinity.
+  and the final value as the limit t -> infinity.  At most ``PEAK_REFINE_MAX`` roots of y' are
+  refined: past that, those in the grid cells where |y| is largest.
 * energy: with i(u) = c + delta(u) the part's current, the integrals over [0, inf) are closed
   form, int s^n e^(r s) ds = n! / (-r)^(n+1) for Re r < 0:
       int delta du = T sum a_jm / (-r_j)^(m+1),
@@ -47,6 +48,10 @@ PER_PERIOD = 16
 GRID_MAX = 60000
 #: Gauss-Legendre nodes per grid cell for finite-interval energies
 GAUSS = 4
+#: at most this many extrema are refined per peak search: past it (an oscillation that barely
+#: decays, whose extrema are alike) only the cells whose grid |y| is largest are refined, which
+#: bounds the search to well under a second where refining every cell took a minute
+PEAK_REFINE_MAX = 64
 
 
 @dataclass(frozen=True)
@@ -229,15 +234,12 @@ def crossing(ex: ExpSum, level: float, direction: str, end: float, final: float 
 
 # ------------------------------------------------------------------------------- peaks
 def _extrema(ex: ExpSum, grid: np.ndarray) -> list[tuple[float, float]]:
-    """(value, local time) of every extremum of y on ``grid`` (a root of y' refined by Brent's
-    method between grid points where y' changes sign)."""
-    slopes = ex.slope(grid)
+    """(value, local time) of the extrema of y on ``grid`` (a root of y' refined by Brent's
+    method between grid points where y' changes sign; at most ``PEAK_REFINE_MAX``, the
+    largest, ``_extremum_cells``)."""
     fun = (lambda u: float(ex.slope(np.array([u]))[0]))
-    with np.errstate(invalid="ignore", over="ignore"):
-        turns = np.isfinite(slopes[:-1]) & np.isfinite(slopes[1:]) & \
-            (slopes[:-1] * slopes[1:] < 0)
     out = []
-    for i in np.flatnonzero(turns):
+    for i in _extremum_cells(ex, grid):
         u = _refine(fun, grid[i], grid[i + 1])
         out.append((float(ex.value(np.array([u]))[0]), u))
     return out
@@ -273,6 +275,22 @@ def peak(ex: ExpSum, end: float, final: float | None, next_gap: float | None) ->
     value, time = max(candidates, key=lambda c: (abs(c[0]), c[1] is not None))
     late = time is not None and next_gap is not None and time > next_gap
     return PeakValue(magnitude=abs(value), value=value, time=time, after_next_event=late)
+
+
+def _extremum_cells(ex: ExpSum, grid: np.ndarray) -> list[int]:
+    """Indices i of the grid cells [grid[i], grid[i+1]] where y' changes sign, in grid order;
+    past ``PEAK_REFINE_MAX`` cells, the ``PEAK_REFINE_MAX`` whose larger end |y| is largest."""
+    slopes = ex.slope(grid)
+    with np.errstate(invalid="ignore", over="ignore"):
+        turns = np.isfinite(slopes[:-1]) & np.isfinite(slopes[1:]) & \
+            (slopes[:-1] * slopes[1:] < 0)
+    cells = np.flatnonzero(turns)
+    if cells.size <= PEAK_REFINE_MAX:
+        return cells.tolist()
+    values = np.abs(ex.value(grid))
+    height = np.nan_to_num(np.maximum(values[cells], values[cells + 1]), nan=-1.0)
+    keep = np.argsort(-height, kind="stable")[:PEAK_REFINE_MAX]
+    return sorted(cells[keep].tolist())
 
 
 # ------------------------------------------------------------------------------- energy

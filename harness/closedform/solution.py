@@ -128,7 +128,11 @@ class ClosedFormSolution:
         """(span length after t_k, gap to the next event or None), in s."""
         start, end = self.span(k)
         nxt = self.intervals[k].next
-        return end - start, (None if nxt is None else nxt - start)
+        length = end - start
+        if not length > 0:  # 10 tau below the resolution of t_k itself (a 1e-30 F capacitor)
+            taus = self.time_constants(k)
+            length = 10.0 * (taus[0] if taus else self.scale.t)
+        return length, (None if nxt is None else nxt - start)
 
     def crossing(self, probe: Probe, k: int, level: float, direction: str):
         """First crossing of ``level`` after event k (``harness.results.CrossingValue``)."""

@@ -1,15 +1,18 @@
 """The report writers: console text, summary.csv, results.json, report.md, report.html, junit.xml.
 
-``write_all(run, report_dir)`` writes every report file for one run, each atomically (temporary
-file in the same folder, then ``os.replace``), plus one PNG per check with a trace and one
-whole-schedule PNG per file under ``report_dir/plots/`` (named ``<file number>-<sanitised
-title>-c<check>.png`` and ``…-schedule.png``; untrusted titles cannot leave the folder).  The HTML embeds the same plots as data URIs; the Markdown links the
-PNG files.  Failures to write raise ``ReportError`` (an ``OSError``).
+``write_all(run, report_dir)`` writes every report file for one run plus one PNG per check with
+a trace and one whole-schedule PNG per file under ``report_dir/plots/`` (named ``<file
+number>-<sanitised title>-c<check>.png`` and ``…-schedule.png``; untrusted titles cannot leave
+the folder), as one set (``publish``: staged in a hidden folder, then swapped in; a failure
+leaves the previous set whole, and links are never followed).  The HTML embeds the same plots
+as data URIs; the Markdown links the PNG files.  Failures to write raise ``ReportError`` (an
+``OSError``).
 """
 
 from __future__ import annotations
 
 import re
+import signal
 import warnings
 from pathlib import Path
 
@@ -19,7 +22,8 @@ from ..outcome import RunResult
 from ..progress import Progress
 from . import csvout, html, jsonout, junit, markdown, plots
 from .plot_schedule import SCHEDULE, plot_schedule
-from .atomic import ReportError, ensure_dir, inside, safe_name, write_atomic
+from .atomic import ReportError, ensure_dir, safe_name
+from .reportset import publish
 
 __all__ = ["REPORT_FILES", "ReportError", "render_plots", "write_all"]
 
@@ -61,9 +65,7 @@ def render_plots(run: RunResult, jobs: int = 1,
     progress = progress or Progress(False)
     progress.add(len(items), "plots")
     if jobs > 1 and len(items) >= PARALLEL_PLOTS:
-        from concurrent.futures import ProcessPoolExecutor
-        with ProcessPoolExecutor(max_workers=jobs) as pool:
-            drawn = [_stepped(d, progress) for d in pool.map(_plot_one, items, chunksize=8)]
+        drawn = [_stepped(d, progress) for d in _draw_in_workers(items, jobs)]
     else:
         drawn = [_stepped(_plot_one(item), progress) for item in items]
     out = {}
@@ -78,6 +80,30 @@ def render_plots(run: RunResult, jobs: int = 1,
 def _stepped(drawn, progress: Progress):
     progress.step()
     return drawn
+
+
+def _draw_in_workers(items: list, jobs: int) -> list:
+    """``_plot_one`` of every item in ``jobs`` worker processes (``harness.pool``: killed with
+    the run on SIGINT or SIGTERM, and dying with it); a lost worker costs its plot only.
+
+    Raises:
+        KeyboardInterrupt, pool.Interrupted: the run was stopped (every worker is gone).
+    """
+    from ..pool import RunInterrupted, run_tasks
+
+    def lost(i: int, how: str = "timed out"):
+        key, what, file = items[i]
+        return key, None, f"{file}: no plot: the worker drawing it {how}"
+
+    try:
+        done = run_tasks([(item,) for item in items], _plot_one, jobs=jobs, timeout=None,
+                         on_timeout=lost, on_death=lost)
+    except RunInterrupted as stop:
+        if stop.signum == signal.SIGINT:
+            raise KeyboardInterrupt from None
+        from ..pool import Interrupted
+        raise Interrupted(stop.signum) from None
+    return [done[i] for i in range(len(items))]
 
 
 def plot_name(run: RunResult, key: tuple[int, int | str]) -> str:
@@ -95,16 +121,15 @@ def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
     """Write the five report files (``REPORT_FILES``) and the plot PNGs into ``report_dir``.
 
     Returns the paths written: the five report files in ``REPORT_FILES`` order, then the plots.
-    The folder is created if missing; plot PNGs an earlier run left in ``plots/`` under this
-    package's naming pattern are removed once the new report files are in place.  All contents
-    are rendered before anything is written, so an exception from a serializer leaves the old
-    report untouched; each file is then replaced atomically, so an I/O failure part-way leaves
-    every file either as the previous run wrote it or complete from this run.
+    The folder is created if missing.  Everything is rendered first, then ``publish`` puts the
+    whole set in place at once: a serializer's exception, a full disk, a report name that is a
+    folder or a link, or a signal leave the previous set as it was; plot PNGs an earlier run
+    left in ``plots/`` under this package's naming pattern go with it.
     ``with_plots=False`` skips the (slowish, ~0.1 s each) plots.  ``progress`` is stepped per
     plot; ``provenance`` (``report.provenance.collect``) heads the HTML and Markdown reports.
 
     Raises:
-        ReportError: the folder cannot be created or written, or a file cannot be replaced.
+        ReportError: the folder cannot be created or written, or the set cannot be put in place.
     """
     folder = ensure_dir(Path(report_dir))
     pngs = render_plots(run, jobs, progress) if with_plots else {}
@@ -115,23 +140,6 @@ def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
              "report.md": markdown.render(run, links, provenance),
              "summary.csv": csvout.render(run), "results.json": jsonout.render(run),
              "junit.xml": junit.render(run)}
-    written: list[Path] = []
-    if pngs:
-        plot_dir = ensure_dir(folder / PLOT_DIR)
-        for key, png in pngs.items():
-            written.append(write_atomic(inside(plot_dir, names[key]), lambda png=png: png))
-    main = [write_atomic(folder / name, lambda name=name: texts[name]) for name in REPORT_FILES]
-    _remove_stale_plots(folder / PLOT_DIR, {p.name for p in written})
-    return main + written
-
-
-def _remove_stale_plots(plot_dir: Path, keep: set[str]) -> None:
-    """Delete plot PNGs an earlier run wrote (names matching ours) that this run did not."""
-    if not plot_dir.is_dir():
-        return
-    for path in plot_dir.iterdir():
-        if path.name not in keep and _PLOT_NAME.match(path.name) and path.is_file():
-            try:
-                path.unlink()
-            except OSError:
-                pass  # a stale plot that cannot be removed does no harm
+    files = {name: texts[name].encode("utf-8") for name in REPORT_FILES}
+    return publish(folder, files, {names[key]: png for key, png in pngs.items()}, PLOT_DIR,
+                   _PLOT_NAME)

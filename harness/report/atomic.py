@@ -1,17 +1,13 @@
-"""Atomic file writes and safe file names inside a report folder.
+"""The report folder's error type, its creation and check, and safe file names inside it.
 
-A report file is written to a temporary file in the same folder and moved over the old one with
-``os.replace`` (atomic on POSIX and Windows within one file system), so a reader never sees a
-half-written report and a failed run leaves the previous report intact.
+The report set itself is put in place by ``reportset.publish`` (staged, then swapped).
 """
 
 from __future__ import annotations
 
 import os
 import re
-import tempfile
 from pathlib import Path
-from typing import Callable
 
 
 class ReportError(OSError):
@@ -49,48 +45,6 @@ def ensure_dir(folder: Path) -> Path:
     return folder
 
 
-def write_atomic(path: Path, produce: Callable[[], bytes | str]) -> Path:
-    """Write what ``produce()`` returns to ``path`` atomically and return ``path``.
-
-    ``produce`` runs before anything touches the folder's old file, so an exception from the
-    serializer leaves the old file as it was.  ``str`` is written as UTF-8.  The temporary file
-    (``.<name>.*.tmp`` in the same folder) is removed on every failure.
-
-    Raises:
-        ReportError: the file could not be written or moved into place (the cause is chained).
-        Exceptions from ``produce`` itself pass through unchanged.
-    """
-    path = Path(path)
-    data = produce()
-    if isinstance(data, str):
-        data = data.encode("utf-8")
-    try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    except OSError as exc:
-        raise ReportError(f"cannot write {path}: {exc.strerror or exc}", path) from exc
-    try:
-        with os.fdopen(fd, "wb") as handle:
-            handle.write(data)
-            handle.flush()
-            os.fsync(handle.fileno())
-        os.chmod(tmp, 0o644)
-        os.replace(tmp, path)
-    except OSError as exc:
-        _discard(tmp)
-        raise ReportError(f"cannot write {path}: {exc.strerror or exc}", path) from exc
-    except BaseException:
-        _discard(tmp)
-        raise
-    return path
-
-
-def _discard(tmp: str) -> None:
-    try:
-        os.unlink(tmp)
-    except FileNotFoundError:
-        pass
-
-
 _UNSAFE = re.compile(r"[^A-Za-z0-9_-]+")
 
 
@@ -104,12 +58,3 @@ def safe_name(text: str, *, limit: int = 48, fallback: str = "circuit") -> str:
     """
     stem = _UNSAFE.sub("-", text).strip("-")[:limit].strip("-")
     return stem or fallback
-
-
-def inside(folder: Path, name: str) -> Path:
-    """``folder / name``, checked to resolve inside ``folder`` (ValueError otherwise)."""
-    base = Path(folder).resolve()
-    target = (base / name).resolve()
-    if target.parent != base:
-        raise ValueError(f"file name {name!r} would leave the report folder")
-    return target

@@ -6,12 +6,12 @@ Everything here returns plain (unescaped) text; each writer escapes for its own 
 from __future__ import annotations
 
 import math
-import re
 from typing import Any, Iterable, Mapping
 
 from .. import tolerances as tol
 from ..outcome import ENGINES_DISAGREE, ERROR, FINDING, MISMATCH, PASS, UNCHECKED, VERDICT_ORDER, \
     CheckResult, FieldResult, FileResult, RunResult
+from ..safetext import printable  # noqa: F401  (the writers' one filter of untrusted text)
 from ..units import format_apart, format_exact, format_si
 
 #: what each exit code means, for the summary line
@@ -21,12 +21,6 @@ EXIT_MEANING = {0: "every check passed",
                 2: "a file could not be analysed"}
 
 
-_CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f-\x9f]")
-
-
-def printable(text: str) -> str:
-    """``text`` without control characters other than tab and newline (terminal escapes, NUL)."""
-    return _CONTROL.sub("", text)
 
 
 def plural(count: int, noun: str) -> str:
@@ -173,7 +167,8 @@ def summary_line(run: RunResult) -> str:
     """One line: files, checks, counts per verdict and what the exit code means.
 
     A file that could not be analysed counts as one error (it has no checks to count), and a
-    file with nothing to check is named."""
+    file with nothing to check is named; an error of the run itself (reports not written) is
+    what its exit code means when no file failed."""
     files, checks = file_counts(run), check_counts(run)
     n_checks = sum(checks.values())
     errors = checks[ERROR] + sum(1 for f in run.files if f.verdict == ERROR and not f.checks)
@@ -187,8 +182,9 @@ def summary_line(run: RunResult) -> str:
     if files[FINDING]:
         file_part += f" ({files[FINDING]} with findings to review)"
     code = run.exit_code
+    meaning = EXIT_MEANING[code] if files[ERROR] or not run.errors else "; ".join(run.errors)
     return (f"{run.verdict.upper()}: {file_part}, {plural(n_checks, 'check')} — {per}; "
-            f"exit {code}: {EXIT_MEANING[code]}")
+            f"exit {code}: {meaning}")
 
 
 def attention_order(run: RunResult) -> list[int]:

@@ -7,7 +7,9 @@ verdict is ``mismatch`` or ``engines-disagree`` carries a ``failure`` (type = th
 message = its first message, text = every message and the field table); a check with verdict
 ``error`` carries an ``error``.  A file that could not be analysed gets a single testcase
 ``analyse`` with an ``error`` holding the file's errors; a file with nothing to check a single
-testcase ``expectations`` with a ``failure`` saying so (CI must not read 0 tests as a pass).  Characters XML 1.0 forbids are dropped.
+testcase ``expectations`` with a ``failure`` saying so (CI must not read 0 tests as a pass).
+Control and bidi-control characters are shown as escapes (``common.printable``); any other
+character XML 1.0 forbids is dropped.
 """
 
 from __future__ import annotations
@@ -22,7 +24,7 @@ _ILLEGAL = re.compile("[^\x09\x0a\x0d\x20-\ud7ff\ue000-\ufffd\U00010000-\U0010ff
 
 
 def _x(text: str) -> str:
-    return _ILLEGAL.sub("", str(text))
+    return _ILLEGAL.sub("", common.printable(str(text)))
 
 
 def render(run: RunResult) -> str:

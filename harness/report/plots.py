@@ -92,8 +92,9 @@ def _trace_end(check: CheckResult) -> float | None:
 
 
 def plain(text: str) -> str:
-    """Text safe from matplotlib's mathtext (``$`` starts math; escape it)."""
-    return text.replace("\\", "\\\\").replace("$", r"\$")
+    """Text safe from matplotlib's mathtext (``$`` starts math; escape it), control and
+    bidi-control characters shown as escapes."""
+    return common.printable(text).replace("\\", "\\\\").replace("$", r"\$")
 
 
 def plot_check(check: CheckResult, title: str = "") -> bytes | None:

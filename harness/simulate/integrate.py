@@ -301,6 +301,9 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
     y_next, settled = None, False
     # 1. the pulse and the post-pulse fit window, resolved with small first and bounded steps
     bound = window if length is None else min(window, length)
+    # a pulse wider than the whole window (a part value at the edge of the accepted range)
+    # starts with the window itself rather than a step Radau refuses
+    first_step = min(first_step, bound) if first_step else first_step
     status = acc.add(*_run(system, r, z0, 0.0, bound, rtol, atol, settle, first_step=first_step,
                            max_step=bound / WINDOW_STEPS, budget=acc.left(budget)))
     # 2. on to the next event
