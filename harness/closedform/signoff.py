@@ -32,7 +32,6 @@ import math
 from dataclasses import dataclass, replace
 
 import numpy as np
-from scipy.optimize import brentq
 
 from ..model import CAPACITOR, FALLING, INDUCTOR, RISING
 from ..results import CrossingValue, DominantTau, EnergyValue, PeakValue
@@ -192,6 +191,7 @@ def _refine(fun, lo: float, hi: float) -> float:
         return float(lo if abs(f_lo) <= abs(f_hi) else hi)
     if f_lo == 0 or f_hi == 0:
         return float(lo if f_lo == 0 else hi)
+    from scipy.optimize import brentq      # deferred: only crossings and peaks need it
     return float(brentq(fun, lo, hi, xtol=1e-15 * max(hi, 1e-300),
                         rtol=4 * np.finfo(float).eps, maxiter=200))
 
