@@ -117,14 +117,14 @@ def _failure_rows(check: CheckResult) -> list[list[str]]:
 
 
 def render_passes(run: RunResult) -> str:
-    """One line summarising the passes not listed: ``120 checks passed (36 files in full);
-    --all lists them``; ``""`` when nothing passed."""
+    """One line summarising the passes not listed: ``120 checks passed (36 files with every
+    check passing); --all lists them``; ``""`` when nothing passed."""
     files = [f for f in run.files if f.verdict == PASS]
     checks = sum(1 for f in run.files for c in f.checks if c.verdict == PASS)
     if not checks:
         return ""
-    return (f"{common.plural(checks, 'check')} passed ({common.plural(len(files), 'file')} in "
-            f"full); --all lists them")
+    return (f"{common.plural(checks, 'check')} passed ({common.plural(len(files), 'file')} "
+            f"with every check passing); --all lists them")
 
 
 def render_findings(run: RunResult) -> str:
