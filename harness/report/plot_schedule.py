@@ -51,7 +51,7 @@ def plot_schedule(file: FileResult) -> bytes | None:
                         f"the numeric waveform)", fontsize=9)
     title = common.printable(f"whole schedule: {file.title or file.file}")
     axes[0].set_title(plots.plain(plots.shorten(title, 90)), fontsize=10, loc="left")
-    fig.legend(loc="outside lower center", ncols=4, fontsize=8.5, frameon=False)
+    plots.legend_below(fig, axes, 4)
     start = float(np.nanmin([p.t.min() for p in sched.probes]))
     end = float(np.nanmax([p.t.max() for p in sched.probes]))
     axes[0].set_xlim(start, end)

@@ -43,6 +43,9 @@ MIN_SPAN = 0.02
 HELD_VIEW = 0.25
 #: room left of the event on the x-axis, as a fraction of the axis
 X_MARGIN = 0.03
+#: figure margins in inches (tick labels and axis label left; the x label below; the title)
+#: and the height of one legend row
+MARGIN_LEFT, MARGIN_RIGHT, MARGIN_TOP, MARGIN_BOTTOM, LEGEND_ROW = 0.95, 0.2, 0.32, 0.5, 0.2
 
 _COLOURS = {"numeric": "#1f5fbf", "closed": "#e07b00", "hand": "#2a9d3a", "event": "#777777",
             "jump": "#c0262d", "estimate": "#8e44ad", "level": "#555555", "mark": "#000000",
@@ -117,7 +120,7 @@ def plot_check(check: CheckResult, title: str = "") -> bytes | None:
     ax.set_ylabel(plain(shorten(check.probe, 40)), fontsize=9)
     heading = title or common.check_label(check)
     ax.set_title(plain(shorten(heading, 80)), fontsize=10, loc="left")
-    fig.legend(loc="outside lower center", ncols=3, fontsize=8.5, frameon=False)
+    legend_below(fig, [ax], 3)
     return png(fig, [ax], curves_end=max(ends, default=None))
 
 
@@ -125,10 +128,28 @@ def new_figure(rows: int = 1, size: tuple[float, float] = SIZE):
     """A Figure on the Agg canvas (no pyplot, no global state) and its axes (one per row)."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg  # imported when drawing: a
     from matplotlib.figure import Figure                           # run without reports does
-    fig = Figure(figsize=size, dpi=DPI, layout="constrained")     # not pay ~0.3 s for it
+    fig = Figure(figsize=size, dpi=DPI)                           # not pay ~0.3 s for it
     FigureCanvasAgg(fig)
     axes = fig.subplots(rows, 1, sharex=True, squeeze=False)[:, 0]
     return fig, (axes[0] if rows == 1 else list(axes))
+
+
+def legend_below(fig, axes, ncols: int) -> None:
+    """The figure's legend centred under the axes, and the margins set by hand for it, the
+    tick labels and the titles: a fixed layout draws the figure once, where a constrained
+    layout drew it twice (40 % of the plot time)."""
+    labels = []
+    for ax in axes:
+        labels += [lab for lab in ax.get_legend_handles_labels()[1] if lab not in labels]
+    width, height = fig.get_size_inches()
+    rows = math.ceil(len(labels) / ncols) if labels else 0
+    legend = LEGEND_ROW * rows
+    fig.subplots_adjust(left=MARGIN_LEFT / width, right=1 - MARGIN_RIGHT / width,
+                        top=1 - MARGIN_TOP / height, bottom=(MARGIN_BOTTOM + legend) / height,
+                        hspace=0.15)
+    if labels:
+        fig.legend(loc="lower center", bbox_to_anchor=(0.5, 0.0), ncols=ncols, fontsize=8.5,
+                   frameon=False)
 
 
 def axis_format(ax, unit: str) -> None:
