@@ -13,6 +13,8 @@ from __future__ import annotations
 import sympy as sp
 from sympy.printing.str import StrPrinter
 
+#: beyond this many operations an expression is left as the solve gave it (no factoring)
+LARGE = 80
 #: the parallel combination, 1/(1/a + 1/b + …), as an unevaluated function
 par = sp.Function("par")
 
@@ -20,6 +22,8 @@ par = sp.Function("par")
 def parallel(expr: sp.Expr, depth: int = 0) -> sp.Expr:
     """``expr`` (a resistance-like formula) with its series and parallel combinations as
     sums and ``par`` calls; unchanged where none is found."""
+    if sp.count_ops(expr) > LARGE:
+        return expr
     expr = sp.factor(sp.cancel(expr))
     if depth > 4 or expr.is_Atom or expr.free_symbols == set():
         return expr
@@ -53,8 +57,9 @@ def _split(expr: sp.Expr):
 
 def tidy(expr: sp.Expr) -> sp.Expr:
     """A compact factored form (sources and ratios kept together)."""
-    expr = sp.factor(sp.cancel(expr))
-    return expr
+    if sp.count_ops(expr) > LARGE:
+        return expr
+    return sp.factor(sp.cancel(expr))
 
 
 class _Formula(StrPrinter):

@@ -10,10 +10,10 @@ driven into the part's p terminal (out of n) gives R_th = v(p) − v(n) in Ω.
 from __future__ import annotations
 
 import sympy as sp
-from sympy.polys.matrices import DomainMatrix
 
 from .. import model as m
 from . import network
+from .laplace import fraction_free
 
 
 def resistance(circuit: m.Circuit, time: float, part: m.Part,
@@ -32,10 +32,7 @@ def resistance(circuit: m.Circuit, time: float, part: m.Part,
     if not net.index or (p is None and n is None):
         return None
     try:
-        mat = DomainMatrix.from_Matrix(net.g).to_field()
-        vec = DomainMatrix.from_Matrix(rhs)
-        field = mat.domain.unify(vec.domain)
-        x = list(mat.convert_to(field).lu_solve(vec.convert_to(field)).to_Matrix())
+        x = fraction_free(net.g, rhs)
     except (ZeroDivisionError, ValueError, sp.polys.polyerrors.PolynomialError) as _:
         return None
     except Exception:                          # sympy's NonInvertibleMatrixError and kin

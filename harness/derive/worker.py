@@ -9,6 +9,7 @@ from __future__ import annotations
 import sympy as sp
 
 from .. import model as m
+from ..formula import MAX_LENGTH
 from . import forms, laplace, network
 from .derivation import Derivation, Formula, OverBudget, StoragePart, agrees
 
@@ -49,7 +50,8 @@ class Worker:
         if exact is not None and not agrees(value, exact, scale):
             return Formula(exact, exact)
         quantities = self.syms.text_of()
-        return Formula(value, exact, forms.formula_text(expr, quantities),
+        text = forms.formula_text(expr, quantities)
+        return Formula(value, exact, text if len(text) + 2 <= MAX_LENGTH else None,
                        forms.display_text(expr, quantities))
 
     # ------------------------------------------------------------------ networks
@@ -117,7 +119,7 @@ class Worker:
 
     def _tau_shape(self, expr):
         """τ as R_th·C or L/R_th with the resistance in series/parallel form."""
-        expr = sp.factor(sp.cancel(expr))
+        expr = forms.tidy(expr)
         caps = [s for s in expr.free_symbols
                 if s.name in self.syms.table and self.circuit.part(s.name).kind == m.CAPACITOR]
         inds = [s for s in expr.free_symbols
