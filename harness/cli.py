@@ -67,6 +67,15 @@ def _parser(json_errors: bool = False) -> argparse.ArgumentParser:
                            json_errors=json_errors)
     solve.add_argument("paths", nargs="*", metavar="FILE",
                        help="circuit files or folders (default: [tool.tauproof] paths)")
+    solve.add_argument("--formulas", action="store_true",
+                       help="also print each computed field as a formula of part names, to "
+                            "paste as a hand value (= ...)")
+    derive = sub.add_parser("derive", help="print the hand method done right for every check: "
+                                           "formulas in part names, then numbers",
+                            json_errors=json_errors)
+    derive.add_argument("paths", nargs="+", metavar="FILE", help="circuit files or folders")
+    derive.add_argument("--budget", type=_seconds, default=None, metavar="SECONDS",
+                        help="symbolic work per file before the rest is numbers only")
     for sp in (check, solve):
         sp.add_argument("--json", action="store_true", help="machine-readable result on stdout")
         sp.add_argument("--jobs", type=_positive, default=None, metavar="N",
@@ -82,6 +91,12 @@ def _parser(json_errors: bool = False) -> argparse.ArgumentParser:
     new = sub.add_parser("new", help="write a commented starting circuit file")
     new.add_argument("file", metavar="FILE", help="the file to create (never overwritten)")
     return parser
+
+
+def common_printable(text: str) -> str:
+    """Untrusted text (part names) made safe for the console."""
+    from .safetext import printable
+    return printable(text)
 
 
 def _version() -> str:
@@ -185,6 +200,11 @@ def _main(argv: list[str] | None) -> int:
     if args.command in ("help", "new"):
         from . import starter
         return starter.main(args)
+    if args.command == "derive":
+        from .derivecmd import derive_text
+        text, code = derive_text(args.paths, args.budget)
+        print(common_printable(text), end="")
+        return code
     from .config import ConfigError, load
     try:
         settings = _settings(args, load())
@@ -255,6 +275,9 @@ def _report(args, result, written: list) -> int:
         for file in result.files:
             if file.verdict != ERROR or file.checks:
                 print(render_solve(file))
+                if getattr(args, "formulas", False):
+                    from .derivecmd import formula_lines
+                    print(common_printable("\n".join(formula_lines(file.file))))
     return result.exit_code
 
 
