@@ -137,6 +137,9 @@ class CheckResult:
     #: for a probe that is not first order: the zero-value estimate (JSON-ready, see
     #: harness.results.DominantTau): tau, terms, modes_sum, deviation, t50, t50_estimate …
     dominant: Mapping[str, Any] | None = None
+    #: for a mismatching check: the hand method carried out correctly, formulas in part names
+    #: then numbers (harness.derive, written by harness.report.derivation), one line each
+    derivation: tuple[str, ...] = ()
 
     def to_json(self) -> dict[str, Any]:
         out = {"probe": self.probe, "at": self.at, "verdict": self.verdict, "order": self.order,
@@ -147,6 +150,8 @@ class CheckResult:
                "fields": {f.name: f.to_json() for f in self.fields}}
         if self.dominant is not None:
             out["dominant_tau"] = dict(self.dominant)
+        if self.derivation:
+            out["derivation"] = list(self.derivation)
         return out
 
 

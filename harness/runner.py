@@ -123,8 +123,32 @@ def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
         sim = guard(simulate.solve(circuit), trust)
     cautions = cautions_for(circuit, voltages=_node_voltages(circuit, exact),
                             jumps=[exact.jump(k) for k in range(len(circuit.events))])
-    return compare_file(circuit, exact, sim, cautions=cautions,
-                        seconds=time.perf_counter() - started)
+    result = compare_file(circuit, exact, sim, cautions=cautions,
+                          seconds=time.perf_counter() - started)
+    return _with_derivations(circuit, exact, result)
+
+
+#: seconds of symbolic work spent on the derivations of one file's mismatching checks
+DERIVE_BUDGET = 5.0
+
+
+def _with_derivations(circuit, exact, result: FileResult) -> FileResult:
+    """``result`` with the worked derivation (``harness.derive``) beside each mismatching
+    check, within ``DERIVE_BUDGET``; unchanged when nothing mismatches or the symbolic work
+    cannot run (it never costs a passing file anything)."""
+    from dataclasses import replace
+    wanted = {c.index for c in result.checks if c.verdict == "mismatch"}
+    if not wanted:
+        return result
+    try:
+        from .derive import derive
+        from .report.derivation import lines
+        done = {d.index: tuple(lines(d)[1:])
+                for d in derive(circuit, exact, wanted, budget=DERIVE_BUDGET)}
+    except Exception:  # the derivation is a courtesy: the check's verdict stands without it
+        return result
+    checks = tuple(replace(c, derivation=done.get(c.index, ())) for c in result.checks)
+    return replace(result, checks=checks)
 
 
 @contextlib.contextmanager

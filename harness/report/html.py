@@ -215,6 +215,10 @@ def _check_block(check: CheckResult, png: bytes | None) -> str:
                          + "</ul>")
     if check.note:
         facts.append(f'<p class="meta">note: {esc(check.note)}</p>')
+    if check.derivation:
+        facts.append("<details open><summary>The hand method, done right (formulas in part "
+                     "names, then numbers)</summary><pre>"
+                     + esc("\n".join(check.derivation)) + "</pre></details>")
     plot = _image(png, f"waveform of {common.check_label(check)}") if png else ""
     return (f'<div class="check c-{esc(check.verdict)}"><div class="facts">' + "".join(facts)
             + "</div>" + plot + "</div>")

@@ -141,6 +141,9 @@ def _check_section(check: CheckResult, plot: str | None) -> list[str]:
     out += [f"- note: {escape(m)}" for m in notes]
     if failing or notes:
         out.append("")
+    if check.derivation:
+        out += ["The hand method, done right (formulas in part names, then numbers):", ""]
+        out += [f"- {escape(line.strip())}" for line in check.derivation] + [""]
     if plot:
         out += [f"![waveform of {escape(common.check_label(check))}]({plot})", ""]
     return out
