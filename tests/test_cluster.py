@@ -126,3 +126,50 @@ def test_the_command_line_does_not_import_dask():
                             "if m.split('.')[0] in ('dask', 'distributed')))"],
                            capture_output=True, text=True)
     assert probe.stdout.strip() == "[]", probe.stdout + probe.stderr
+
+
+_INTERRUPTED = """
+import sys, time
+from pathlib import Path
+import harness.cluster as cluster
+mark, original = sys.argv[1], cluster.run
+
+def slow(path, numeric, tolerance):  # shipped by value: the workers run this
+    import time as clock
+    from pathlib import Path as P
+    from harness.runner import check_file
+    if "slow" in path:
+        P(mark).write_text("started")
+        clock.sleep(120)
+    return check_file(path, numeric)
+
+cluster.run = lambda paths, options, address: original(paths, options, address, work=slow)
+from harness.cli import main
+sys.exit(main(sys.argv[2:]))
+"""
+
+
+def test_ctrl_c_cancels_the_run_and_keeps_the_previous_reports(tmp_path):
+    """SIGINT while a file runs on the cluster: exit 130, one line, previous reports intact."""
+    import signal
+    folder = tmp_path / "files"
+    folder.mkdir()
+    _few_files(folder, "slow")
+    reports = tmp_path / "reports"
+    reports.mkdir()
+    (reports / "results.json").write_text("previous")
+    mark = tmp_path / "started"
+    proc = subprocess.Popen([sys.executable, "-c", _INTERRUPTED, str(mark), "check", str(folder),
+                             "--cluster", "local:2", "--closed-form-only",
+                             "--report-dir", str(reports)],
+                            cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    deadline = time.monotonic() + 60
+    while not mark.exists() and time.monotonic() < deadline and proc.poll() is None:
+        time.sleep(0.05)
+    assert mark.exists(), proc.communicate()
+    proc.send_signal(signal.SIGINT)
+    out, err = proc.communicate(timeout=60)
+    assert proc.returncode == 130, err
+    assert "Traceback" not in err and "stopped by SIGINT" in err, err
+    assert sorted(p.name for p in reports.iterdir()) == ["results.json"]
+    assert (reports / "results.json").read_text() == "previous"
