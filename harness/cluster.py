@@ -38,6 +38,10 @@ from .runner import (RunInterrupted, RunOptions, _bar, _check_task, _done, _erro
 CONNECT_TIMEOUT = 5.0
 #: times a file may kill its worker on a ``local:N`` cluster before it becomes an error
 LOCAL_ALLOWED_FAILURES = 2
+#: scheduler settings of a ``local:N`` cluster: the death bound, and no file queued on a worker
+#: beside the one it runs (a dying worker counts against every file it holds)
+_LOCAL_SCHEDULER = {"distributed.scheduler.allowed-failures": LOCAL_ALLOWED_FAILURES,
+                    "distributed.scheduler.worker-saturation": 1.0}
 #: how often (s) the client looks for finished futures and expired deadlines
 _POLL = 0.02
 #: prefix of the address that asks for a cluster started for the run
@@ -106,8 +110,7 @@ def _connect(address: str, numeric: bool):
     cluster = None
     try:
         if address.startswith(LOCAL):
-            with dask.config.set({"distributed.scheduler.allowed-failures":
-                                  LOCAL_ALLOWED_FAILURES}):
+            with dask.config.set(_LOCAL_SCHEDULER):
                 cluster = LocalCluster(n_workers=int(address[len(LOCAL):]),
                                        threads_per_worker=1, processes=True,
                                        dashboard_address=None, silence_logs=logging.CRITICAL)
@@ -119,12 +122,34 @@ def _connect(address: str, numeric: bool):
             cluster.close()
         raise ClusterUnreachable(address, str(err) or type(err).__name__) from None
     try:
+        if cluster is not None:
+            _workers_ignore_interrupts(client)
         client.run(_preload, numeric)  # every worker imports the engines once, before the files
         yield client
     finally:
         client.close()
         if cluster is not None:
             cluster.close()
+
+
+def _ignore_interrupts(worker=None) -> None:
+    """SIGINT is ignored in this worker process: Ctrl-C at a terminal reaches the whole process
+    group, local workers included; the client decides (cancels and stops the cluster)."""
+    import signal
+    with contextlib.suppress(ValueError):  # not the main thread: nothing to do
+        signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+def _workers_ignore_interrupts(client) -> None:
+    """Every worker of a ``local:N`` cluster ignores SIGINT, also one restarted later (a worker
+    plugin is run on each worker as it joins)."""
+    from distributed import WorkerPlugin
+
+    class IgnoreInterrupts(WorkerPlugin):
+        def setup(self, worker) -> None:
+            _ignore_interrupts(worker)
+
+    client.register_plugin(IgnoreInterrupts(), name="tauproof-ignore-sigint")
 
 
 def _gather(client, files: list[str], options: RunOptions, missing: list[FileResult],
