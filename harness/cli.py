@@ -3,7 +3,8 @@
 Exit codes: 0 every check passed; 1 at least one mismatch or engines-disagree, or (``check``) a
 file with no ``[[expect]]`` block, where nothing was checked; 2 at least one
 file could not be analysed (message on stderr naming file, part and field; never a traceback),
-timed out, lost its worker, or the reports could not be written; 130 stopped by SIGINT (Ctrl-C),
+timed out, lost its worker, the reports could not be written, or the ``--cluster`` scheduler
+could not be reached; 130 stopped by SIGINT (Ctrl-C),
 143 stopped by SIGTERM (the previous reports are then left as they were).
 """
 
@@ -85,6 +86,10 @@ def _parser(json_errors: bool = False) -> argparse.ArgumentParser:
         sp.add_argument("--timeout", type=_seconds, default=None, metavar="SECONDS",
                         help="stop a file's analysis after this many seconds (it becomes an "
                              "error; the other files go on)")
+        sp.add_argument("--cluster", default=None, metavar="ADDRESS",
+                        help="analyse the files on a Dask cluster: a scheduler's address "
+                             "(tcp://host:8786) or local:N (N worker processes started for the "
+                             "run); needs the 'cluster' extra")
     helper = sub.add_parser("help", help="print a help topic: format (the circuit file "
                                          "reference) or config ([tool.tauproof] keys)")
     helper.add_argument("topic", nargs="?", default="format", choices=("format", "config"))
@@ -225,7 +230,10 @@ def _main(argv: list[str] | None) -> int:
     try:
         with _sigterm_raises(), warnings.catch_warnings():
             _quiet_numerics()
-            result = run(args.paths, options)
+            result = _run(args, options) if args.cluster else run(args.paths, options)
+            if result is None:
+                bar.close()
+                return EXIT_USAGE
             if args.command == "check":
                 from .outcome import require_checks
                 result, written = _write_reports(args, argv, require_checks(result), bar)
@@ -241,12 +249,35 @@ def _main(argv: list[str] | None) -> int:
     return _report(args, result, written)
 
 
+def _run(args, options):
+    """The run on the cluster ``args.cluster`` (``harness.cluster``), or None when it cannot be
+    had: the address is not usable, the extra is not installed or no scheduler answered (said
+    on stderr)."""
+    try:
+        from . import cluster
+    except ImportError as err:
+        say(f"--cluster needs Dask's distributed scheduler: pip install 'tauproof[cluster]' "
+            f"({err})")
+        return None
+    try:
+        address = cluster.check_address(args.cluster)
+    except ValueError as err:
+        say(f"--cluster: {err}")
+        return None
+    try:
+        return cluster.run(args.paths, options, address)
+    except cluster.ClusterUnreachable as err:
+        say(str(err))
+        return None
+
+
 def _settings(args, settings):
     """Fill every option the command line left unset from the project settings (in place);
     returns the settings."""
     args.paths = args.paths or list(settings.paths)
     args.jobs = args.jobs or settings.jobs or 1
     args.timeout = args.timeout if args.timeout is not None else settings.timeout
+    args.cluster = args.cluster or settings.cluster
     if args.closed_form_only is None:
         args.closed_form_only = bool(settings.closed_form_only)
     if getattr(args, "report_dir", "") is None:

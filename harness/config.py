@@ -37,8 +37,9 @@ KEYS: dict[str, tuple[str, str]] = {
                                             "`[settings]` give none (default \"1 %\")"),
     "show": ("text", "console rows: \"attention\" (failures in full, passes summarised; "
                      "default) or \"all\""),
-    "cluster": ("text", "address of an analysis cluster; reserved for later, accepted and "
-                        "not used yet"),
+    "cluster": ("text", "Dask scheduler the files are analysed on, as `--cluster`: "
+                        "`tcp://host:8786`, or `local:N` for N local worker processes "
+                        "(default: none, this machine)"),
 }
 
 

@@ -37,7 +37,7 @@ def settings(project: Path, body: str) -> None:
 
 def test_settings_are_found_upward_and_options_override_them(project, capsys):
     settings(project, 'paths = ["circuits"]\nreport-dir = "out"\ntolerance = "5 %"\n'
-                      'closed-form-only = true\njobs = 1\nshow = "all"\ncluster = "later"\n')
+                      'closed-form-only = true\njobs = 1\nshow = "all"\n')
     assert main(["check"]) == 0, capsys.readouterr()
     assert (project / "out" / "report.html").is_file()
     assert "#1 node out at 0 s" in capsys.readouterr().out          # show = "all"

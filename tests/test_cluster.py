@@ -1,0 +1,175 @@
+"""Files analysed on a Dask cluster (``--cluster``): a local cluster of worker processes gives the
+same results as a local run, a dying worker loses only its file, a file over ``--timeout`` is
+stopped, an unreachable scheduler is exit 2 within a bounded wait, and the single-machine
+command never imports Dask."""
+
+from __future__ import annotations
+
+import json
+import shutil
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+pytest.importorskip("distributed")
+
+from harness import cluster  # noqa: E402
+from harness.cli import main  # noqa: E402
+from harness.runner import RunOptions  # noqa: E402
+
+ROOT = Path(__file__).resolve().parents[1]
+LIBRARY = ROOT / "circuits" / "library"
+
+
+def _json(capsys, argv: list[str]) -> tuple[int, dict]:
+    code = main(argv)
+    return code, json.loads(capsys.readouterr().out)
+
+
+def _without_timings(value):
+    """The document with every ``seconds`` entry removed (timings differ between runs)."""
+    if isinstance(value, dict):
+        return {k: _without_timings(v) for k, v in value.items() if k != "seconds"}
+    if isinstance(value, list):
+        return [_without_timings(v) for v in value]
+    return value
+
+
+def test_the_library_on_a_local_cluster_gives_the_results_of_one_job(capsys):
+    """``--json`` is the bytes of results.json; the closed form alone keeps the test short (the
+    transport, not the engines, is under test)."""
+    common = ["check", str(LIBRARY), "--closed-form-only", "--no-report", "--json"]
+    code_one, one = _json(capsys, common + ["--jobs", "1"])
+    code_two, two = _json(capsys, common + ["--cluster", "local:2"])
+    assert code_one == code_two == 0
+    assert len(two["files"]) == len(list(LIBRARY.rglob("*.toml")))
+    assert _without_timings(two) == _without_timings(one)
+
+
+def _few_files(tmp_path: Path, odd: str) -> list[str]:
+    """Three library files and a copy of the first named ``odd``, in collection order."""
+    chosen = sorted(LIBRARY.rglob("*.toml"))[:3]
+    for i, path in enumerate(chosen):
+        shutil.copy(path, tmp_path / f"f{i}.toml")
+    shutil.copy(chosen[0], tmp_path / f"{odd}.toml")
+    return sorted(str(p) for p in tmp_path.glob("*.toml"))
+
+
+def test_a_worker_that_dies_loses_only_its_file(tmp_path):
+    files = _few_files(tmp_path, "boom")
+
+    def dying(path, numeric, tolerance):  # shipped by value: the workers run this
+        import os
+        from harness.runner import check_file
+        if "boom" in path:
+            os._exit(3)
+        return check_file(path, numeric)
+
+    result = cluster.run([str(tmp_path)], RunOptions(numeric=False), "local:2", work=dying)
+    by_file = {f.file: f for f in result.files}
+    assert list(by_file) == files
+    boom = by_file[str(tmp_path / "boom.toml")]
+    assert boom.verdict == "error" and "worker process analysing this file died" in boom.errors[0]
+    assert all(f.verdict == "pass" for name, f in by_file.items() if "boom" not in name)
+
+
+def test_a_file_over_the_timeout_is_stopped_and_the_others_finish(tmp_path):
+    _few_files(tmp_path, "slow")
+
+    def sleepy(path, numeric, tolerance):
+        import time as clock
+        from harness.runner import check_file
+        if "slow" in path:
+            clock.sleep(600)
+        return check_file(path, numeric)
+
+    started = time.monotonic()
+    result = cluster.run([str(tmp_path)], RunOptions(numeric=False, timeout=3), "local:2",
+                         work=sleepy)
+    assert time.monotonic() - started < 60
+    verdicts = {Path(f.file).name: f.verdict for f in result.files}
+    assert verdicts == {"f0.toml": "pass", "f1.toml": "pass", "f2.toml": "pass",
+                        "slow.toml": "error"}
+    slow = [f for f in result.files if "slow" in f.file][0]
+    assert "timed out after 3 s" in slow.errors[0]
+
+
+def test_an_unreachable_scheduler_is_exit_two_naming_it(capsys):
+    started = time.monotonic()
+    code = main(["check", str(LIBRARY), "--no-report", "--cluster", "tcp://127.0.0.1:1"])
+    took = time.monotonic() - started
+    err = capsys.readouterr().err
+    assert code == 2 and "tcp://127.0.0.1:1" in err, err
+    assert took < cluster.CONNECT_TIMEOUT + 10
+
+
+@pytest.mark.parametrize("address", ["local:0", "local:x", "nowhere"])
+def test_an_unusable_address_is_a_usage_error(address, capsys):
+    assert main(["check", str(LIBRARY), "--no-report", "--cluster", address]) == 2
+    assert repr(address) in capsys.readouterr().err
+
+
+def test_the_project_setting_is_used(tmp_path, monkeypatch, capsys):
+    (tmp_path / "pyproject.toml").write_text('[tool.tauproof]\ncluster = "tcp://127.0.0.1:1"\n',
+                                             encoding="utf-8")
+    monkeypatch.chdir(tmp_path)
+    assert main(["check", str(LIBRARY), "--no-report"]) == 2
+    assert "tcp://127.0.0.1:1" in capsys.readouterr().err
+
+
+def test_the_command_line_does_not_import_dask():
+    probe = subprocess.run([sys.executable, "-c", "import sys, harness.cli, harness.runner; "
+                            "print(sorted(m for m in sys.modules "
+                            "if m.split('.')[0] in ('dask', 'distributed')))"],
+                           capture_output=True, text=True)
+    assert probe.stdout.strip() == "[]", probe.stdout + probe.stderr
+
+
+_INTERRUPTED = """
+import sys, time
+from pathlib import Path
+import harness.cluster as cluster
+mark, original = sys.argv[1], cluster.run
+
+def slow(path, numeric, tolerance):  # shipped by value: the workers run this
+    import time as clock
+    from pathlib import Path as P
+    from harness.runner import check_file
+    if "slow" in path:
+        P(mark).write_text("started")
+        clock.sleep(120)
+    return check_file(path, numeric)
+
+cluster.run = lambda paths, options, address: original(paths, options, address, work=slow)
+from harness.cli import main
+sys.exit(main(sys.argv[2:]))
+"""
+
+
+def test_ctrl_c_cancels_the_run_and_keeps_the_previous_reports(tmp_path):
+    """SIGINT while a file runs on the cluster: exit 130, one line, previous reports intact."""
+    import signal
+    folder = tmp_path / "files"
+    folder.mkdir()
+    _few_files(folder, "slow")
+    reports = tmp_path / "reports"
+    reports.mkdir()
+    (reports / "results.json").write_text("previous")
+    mark = tmp_path / "started"
+    proc = subprocess.Popen([sys.executable, "-c", _INTERRUPTED, str(mark), "check", str(folder),
+                             "--cluster", "local:2", "--closed-form-only",
+                             "--report-dir", str(reports)],
+                            cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    deadline = time.monotonic() + 60
+    while not mark.exists() and time.monotonic() < deadline and proc.poll() is None:
+        time.sleep(0.05)
+    assert mark.exists(), proc.communicate()
+    proc.send_signal(signal.SIGINT)
+    out, err = proc.communicate(timeout=60)
+    assert proc.returncode == 130, err
+    assert "Traceback" not in err and "stopped by SIGINT" in err, err
+    assert sorted(p.name for p in reports.iterdir()) == ["results.json"]
+    assert (reports / "results.json").read_text() == "previous"
