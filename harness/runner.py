@@ -14,13 +14,13 @@ import ctypes
 import os
 import sys
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Iterable
 
 from .closedform.interval import SingularPencil
 from .errors import InputError, location
-from .outcome import ERROR, FileResult, RunResult
+from .outcome import ERROR, FileResult, RunResult, worst
 from .pool import Interrupted, run_tasks
 from .pool import RunInterrupted as PoolInterrupted
 from .progress import Progress
@@ -123,8 +123,15 @@ def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
         sim = guard(simulate.solve(circuit), trust)
     cautions = cautions_for(circuit, voltages=_node_voltages(circuit, exact),
                             jumps=[exact.jump(k) for k in range(len(circuit.events))])
-    return compare_file(circuit, exact, sim, cautions=cautions,
-                        seconds=time.perf_counter() - started)
+    result = compare_file(circuit, exact, sim, cautions=cautions,
+                          seconds=time.perf_counter() - started)
+    if any(exp.spec for exp in circuit.expectations):
+        from .variation.analyse import analyse_circuit
+        spreads = analyse_circuit(circuit, numeric)
+        result = replace(result, spreads=spreads,
+                         verdict=worst([result.verdict] + [s.verdict for s in spreads]),
+                         seconds=time.perf_counter() - started)
+    return result
 
 
 @contextlib.contextmanager
