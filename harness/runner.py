@@ -128,7 +128,10 @@ def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
     if any(exp.spec for exp in circuit.expectations):
         from .variation.analyse import analyse_circuit
         spreads = analyse_circuit(circuit, numeric)
-        result = replace(result, spreads=spreads,
+        checks = tuple(replace(c, verdict=worst([c.verdict] + [
+            s.verdict for s in spreads if s.check.startswith(f"expect #{c.index + 1}:")]))
+            for c in result.checks)
+        result = replace(result, spreads=spreads, checks=checks,
                          verdict=worst([result.verdict] + [s.verdict for s in spreads]),
                          seconds=time.perf_counter() - started)
     return result

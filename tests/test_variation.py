@@ -126,7 +126,7 @@ def test_bad_spread_is_located():
     text = RC.format(a="5%", b="-5%/x", n=100, dist="uniform", cmax="1 s")
     with pytest.raises(InputError) as err:
         parse_circuit(text, source="f.toml")
-    assert err.value.part == "C1" and err.value.field == "spread" and err.value.line == 8
+    assert err.value.part == "C1" and err.value.field == "spread" and err.value.line == 9
 
 
 @settings(max_examples=15, deadline=None)
