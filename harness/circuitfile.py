@@ -22,6 +22,7 @@ from .errors import InputError, UnitError
 from .fields import VALUE_DIMENSION, parse_parts
 from .filelines import Locator, Where, expect_label, name_problem, quoted_list, suggest
 from .units import check_magnitude, format_si, has_suffix
+from .variation.declare import read_spec, read_spread, read_variation
 
 #: upper limits a user can rely on (past them: an input error, not a hang)
 MAX_FILE_BYTES = 1_000_000
@@ -30,15 +31,16 @@ MAX_TEXT = 2000
 #: distinct event times over all schedules (the numerical engine takes ~0.13 s per event)
 MAX_EVENTS = 2500
 
-TOP_LEVEL = ("title", "ground", "settings", "parts", "expect")
+TOP_LEVEL = ("title", "ground", "settings", "variation", "parts", "expect")
 SETTINGS = ("tolerance", "acknowledge")
 PROBE_KEYS = (m.NODE, m.BETWEEN, m.ACROSS, m.THROUGH)
 #: sign-off keys of an [[expect]] block: file key -> field name
 SIGNOFF_KEYS = {"crossing": "crossing", "peak": "peak", "energy": "energy",
                 "dominant-tau": "dominant_tau", "ring-frequency": "ring_frequency",
                 "damping": "damping", "q": "q", "overshoot": "overshoot"}
-EXPECT_KEYS = PROBE_KEYS + ("at",) + m.FIELDS + tuple(SIGNOFF_KEYS) + ("tolerance", "note")
-CROSSING_KEYS = ("level", "time", "direction")
+EXPECT_KEYS = PROBE_KEYS + ("at",) + m.FIELDS + tuple(SIGNOFF_KEYS) + ("spec", "tolerance",
+                                                                      "note")
+CROSSING_KEYS = ("level", "time", "direction", "level-spread")
 ENERGY_KEYS = ("part", "value", "until")
 #: a tolerance given as a bare fraction above this gets a warning (0.5 is 50 %, seldom meant)
 BARE_TOLERANCE_WARNING = 0.2
@@ -50,6 +52,7 @@ TOP_LEVEL_HELP = {
     "title": "text naming the circuit in the reports (default: the file name)",
     "ground": "the reference node's name (default \"gnd\"); it must be a terminal of a part",
     "settings": "a table of file-wide settings (below)",
+    "variation": "how spec limits are judged over the parts' spreads (below)",
     "parts": "a table of name = { kind = …, nodes = [p, n], … } (below)",
     "expect": "[[expect]] blocks: the hand values to check (below)",
 }
@@ -84,6 +87,10 @@ EXPECT_HELP = {
     "q": ("", "its quality factor Q = 1/(2ζ)"),
     "overshoot": ("", "how far the response passes its final value, as a fraction of the step "
                       "(\"16.3 %\"); e^(−πζ/√(1 − ζ²)) for a pure second-order step"),
+    "spec": ("", "{ field = { min = …, max = …, hand-min = …, hand-max = … } }: spec limits "
+                 "judged over every part's `spread` (see [variation]) for before, after, final, "
+                 "tau, crossing (its time), peak, energy, dominant-tau; hand-min/hand-max are "
+                 "the engineer's worst case, compared with the computed extremes"),
     "tolerance": ("", "this block's own relative tolerance (as in [settings])"),
     "note": ("", "free text shown in the reports"),
 }
@@ -252,9 +259,11 @@ def _build(data: dict, where: Where, default_tolerance: float | None = None) -> 
                           f"{suggest(ground, terminals)}; set ground = \"...\" to the reference "
                           f"node or connect a part to {ground!r}", path=("ground",),
                           field="ground")
+    variation = read_variation(data["variation"], where) if "variation" in data \
+        else m.Variation()
     circuit = m.Circuit(title=title, parts=parts, ground=ground,
                         settings=_settings(data.get("settings", {}), where, default_tolerance),
-                        source=where.source)
+                        source=where.source, variation=variation)
     return replace(circuit, expectations=_expectations(data.get("expect", []), circuit, where))
 
 
@@ -383,9 +392,24 @@ def _expectation(index: int, raw: object, circuit: m.Circuit, scope: _Scope,
     problem = _text_problem(note, "note")
     if problem:
         raise where.error(problem, path=base + ("note",), part=label, field="note")
+    spec = {}
+    if "spec" in raw:
+        units = _spec_units(probe, crossing, energy)
+        spec = read_spec(raw["spec"], units, where, index, label)
     return m.Expectation(index=index, probe=probe, at=at, hand=hand, formulas=formulas,
                          tolerance=tolerance, note=note, line=where.locator.line_of(base),
-                         crossing=crossing, energy=energy)
+                         crossing=crossing, energy=energy, spec=spec)
+
+
+def _spec_units(probe: m.Probe, crossing, energy) -> dict:
+    """The dimension word of each field a ``spec`` table may limit in this block."""
+    units = {name: probe.dimension for name in ("before", "after", "final", "peak")}
+    units.update(tau="s", dominant_tau="s")
+    if crossing is not None:
+        units["crossing"] = "s"
+    if energy is not None:
+        units["energy"] = "J"
+    return units
 
 
 def _subtable(raw: object, keys: tuple[str, ...], required: str, example: str, where: Where,
@@ -430,7 +454,12 @@ def _crossing(raw: object, probe: m.Probe, scope: _Scope, where: Where,
         raise where.error(f"crossing direction must be {quoted_list(m.DIRECTIONS)}, got "
                           f"{direction!r}{suggest(str(direction), m.DIRECTIONS)}", path=path,
                           part=label, field="crossing")
-    return m.Crossing(level=level, time=time, direction=direction, formulas=formulas)
+    spread = None
+    if "level-spread" in table:
+        spread = read_spread(table["level-spread"], where, path + ("level-spread",), label,
+                             "crossing.level-spread")
+    return m.Crossing(level=level, time=time, direction=direction, formulas=formulas,
+                      level_spread=spread)
 
 
 def _energy(raw: object, circuit: m.Circuit, scope: _Scope, where: Where,

@@ -406,6 +406,9 @@ def _print_check(args, result, written: list) -> None:
     for text in texts:
         if text:
             print(text)
+    from .report.spreads import console as spread_lines
+    for text in spread_lines(result).splitlines():
+        print(wrap(text, style))
     print(render_summary(result, style))
     main_files = [p for p in written if p.parent == Path(args.report_dir)]
     if main_files:

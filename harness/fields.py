@@ -16,6 +16,7 @@ from . import model as m
 from .errors import InputError
 from .filelines import Where, name_problem, quoted_list, suggest
 from .plausible import implausible
+from .variation.declare import read_spread
 
 #: upper limits a user can rely on (past them: an input error, not a hang); measured in
 #: tests/benchmarks/RESULTS.md "Reliability": a 200-part RC ladder checked with both engines
@@ -26,11 +27,11 @@ MAX_STEPS = 2500
 
 _COMMON = ("kind", "nodes")
 FIELDS_BY_KIND: dict[str, tuple[str, ...]] = {
-    m.RESISTOR: ("value",),
-    m.CAPACITOR: ("value", "initial"),
-    m.INDUCTOR: ("value", "initial"),
-    m.VOLTAGE_SOURCE: ("value", "steps"),
-    m.CURRENT_SOURCE: ("value", "steps"),
+    m.RESISTOR: ("value", "spread"),
+    m.CAPACITOR: ("value", "initial", "spread"),
+    m.INDUCTOR: ("value", "initial", "spread"),
+    m.VOLTAGE_SOURCE: ("value", "steps", "spread"),
+    m.CURRENT_SOURCE: ("value", "steps", "spread"),
     m.SWITCH: ("state", "steps", "on-resistance", "off-resistance"),
     m.VCVS: ("gain", "value", "control"),
     m.VCCS: ("gain", "value", "control"),
@@ -57,6 +58,9 @@ FIELD_HELP = {
     "on-resistance": "resistance when closed (default: an ideal short)",
     "off-resistance": "resistance when open, greater than on-resistance (default: ideal open)",
     "gain": "the gain (unit below)",
+    "spread": "manufacturing tolerance of `value` for the sign-off over tolerances: \"1%\", "
+              "\"-20%/+80%\" or an IEC 60062 letter (B 0.1 %, C 0.25 %, D 0.5 %, F 1 %, G 2 %, "
+              "J 5 %, K 10 %, M 20 %); a source's steps spread with its value",
     "control": "vcvs, vccs: [\"cp\", \"cn\"], the nodes whose voltage v(cp) − v(cn) it senses; "
                "ccvs, cccs: the name of the part whose current it senses (a "
                + ", ".join(m.CURRENT_SENSORS) + ")",
@@ -128,6 +132,8 @@ def _kind_of(name: str, spec: object, where: Where) -> dict:
         out["steps"] = _steps(name, spec["steps"], where, VALUE_DIMENSION[kind])
     if kind in m.VOLTAGE_CONTROLLED + m.CURRENT_CONTROLLED:
         out["control"] = spec.get("control")
+    if "spread" in spec:
+        out["spread"] = read_spread(spec["spread"], where, path + ("spread",), name, "spread")
     return out
 
 

@@ -104,6 +104,9 @@ class Part:
     off_resistance: float | None = None
     control: tuple[str, str] | str | None = None
     line: int | None = None
+    #: manufacturing spread of ``value`` as relative (low, high), e.g. (-0.2, 0.8) for
+    #: "-20%/+80%"; None when the part is held at its nominal value (``harness.variation``)
+    spread: tuple[float, float] | None = None
 
     @property
     def p(self) -> str:
@@ -185,6 +188,8 @@ class Crossing:
     time: float | None = None
     direction: str = "either"  # "rising", "falling" or "either"
     formulas: Mapping[str, str] = field(default_factory=dict)
+    #: relative (low, high) spread of ``level`` (a supervisor's threshold ±2 %), or None
+    level_spread: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -240,6 +245,8 @@ class Expectation:
     line: int | None = None
     crossing: Crossing | None = None
     energy: EnergyCheck | None = None
+    #: field name (``SPEC_FIELDS``) -> its spec limits and hand worst case
+    spec: Mapping[str, "Limits"] = field(default_factory=dict)
 
     @property
     def label(self) -> str:
@@ -252,6 +259,45 @@ class Expectation:
         if name == "energy":
             return self.energy is not None
         return name in self.hand
+
+
+#: fields that may carry spec limits (``Expectation.spec``); ``crossing`` is the crossing time
+SPEC_FIELDS = ("before", "after", "final", "tau", "crossing", "peak", "energy", "dominant_tau")
+#: sign-off over tolerances: the methods a file may ask for, and the distributions
+EXTREMES, RSS, MONTE_CARLO = "extremes", "rss", "monte-carlo"
+METHODS = (EXTREMES, RSS, MONTE_CARLO)
+UNIFORM, NORMAL = "uniform", "normal"
+DISTRIBUTIONS = (UNIFORM, NORMAL)
+
+
+@dataclass(frozen=True)
+class Limits:
+    """Spec limits of one field, and the engineer's own worst case of it (all in the field's
+    unit: V, A, s or J; None where not given)."""
+
+    min: float | None = None
+    max: float | None = None
+    hand_min: float | None = None
+    hand_max: float | None = None
+
+
+@dataclass(frozen=True)
+class Variation:
+    """The ``[variation]`` table: how the spec limits are judged over the parts' spreads.
+
+    Attributes:
+        methods: a subset of ``METHODS``.
+        samples: Monte Carlo sample count.
+        seed: the random generator's seed (runs are reproducible).
+        distribution: ``uniform`` over each spread, or ``normal`` with the spread as k·σ.
+        sigmas: k of the normal distribution (the spread edge is k standard deviations).
+    """
+
+    methods: tuple[str, ...] = METHODS
+    samples: int = 2000
+    seed: int = 1
+    distribution: str = UNIFORM
+    sigmas: float = 3.0
 
 
 @dataclass(frozen=True)
@@ -290,6 +336,8 @@ class Circuit:
     settings: Settings = Settings()
     source: str = "<memory>"
     warnings: tuple[str, ...] = ()
+    #: the ``[variation]`` table (defaults when absent)
+    variation: Variation = Variation()
 
     def part(self, name: str) -> Part:
         """The part called ``name`` (KeyError if there is none)."""

@@ -21,7 +21,9 @@ UNCHECKED = "unchecked"
 #: interrupted coil current, unbounded growth
 FINDING = "finding"
 #: worst last: the overall verdict of several is the worst of them
-VERDICT_ORDER = (PASS, UNCHECKED, MISMATCH, ENGINES_DISAGREE, FINDING, ERROR)
+#: a spec limit broken at an extreme of the parts' spreads but by no Monte Carlo sample
+HOLDS_STATISTICALLY = "holds-statistically"
+VERDICT_ORDER = (PASS, HOLDS_STATISTICALLY, UNCHECKED, MISMATCH, ENGINES_DISAGREE, FINDING, ERROR)
 #: the message of an unchecked file
 NOTHING_CHECKED = "no [[expect]] blocks: nothing was checked"
 
@@ -176,6 +178,8 @@ class FileResult:
     #: every probe of the file across the whole schedule, for the reports' schedule plot
     schedule: Schedule | None = None
     input_warnings: tuple[str, ...] = ()
+    #: the sign-off over tolerances of each spec'd field (harness.variation.SpreadResult)
+    spreads: tuple = ()
 
     def to_json(self) -> dict[str, Any]:
         out = {"file": self.file, "title": self.title, "verdict": self.verdict,
@@ -185,6 +189,8 @@ class FileResult:
                "checks": [c.to_json() for c in self.checks]}
         if self.messages:
             out["messages"] = list(self.messages)
+        if self.spreads:
+            out["spec"] = [s.to_json() for s in self.spreads]
         return out
 
 

@@ -20,6 +20,7 @@ from . import config
 from . import fields as fd
 from . import model as m
 from . import units
+from .variation import declare as vd
 
 #: the committed reference, beside this module
 REFERENCE = Path(__file__).with_name("reference.md")
@@ -36,7 +37,7 @@ def format_reference() -> str:
            "A circuit file is TOML (UTF-8). `tauproof new FILE` writes a commented one to start "
            "from; `tauproof help format` prints this page.", "", "## Top level", ""]
     out += _table(("key", "meaning"), [(f"`{k}`", cf.TOP_LEVEL_HELP[k]) for k in cf.TOP_LEVEL])
-    out += _quantities() + _parts() + _settings() + _expect()
+    out += _quantities() + _parts() + _settings() + _variation() + _expect()
     return "\n".join(out) + "\n"
 
 
@@ -85,6 +86,24 @@ def _parts() -> list[str]:
 def _settings() -> list[str]:
     return ["## [settings]", ""] + _table(("key", "meaning"),
                                          [(f"`{k}`", cf.SETTINGS_HELP[k]) for k in cf.SETTINGS])
+
+
+def _variation() -> list[str]:
+    out = ["## [variation]", "",
+           "Sign-off over tolerances. Each part may carry a `spread` (and a crossing its "
+           "`level-spread`); each `[[expect]]` field may carry spec limits in `spec`. For every "
+           "limited field tauproof computes the nominal value, the normalised sensitivities "
+           "∂x/∂p·p/x, the extremes over the box of spreads with their corner (every vertex for "
+           "at most 16 varied quantities, else sensitivity-signed corners refined by a bounded "
+           "local search; an interior turn on each axis is searched as well), root-sum-square "
+           "bounds and a Monte Carlo spread with its yield (Wilson 95 % interval). The "
+           "numerical engine is run at each extreme corner. Verdicts: `pass` when the limits "
+           "hold at the extremes, `holds-statistically` when an extreme breaks them but no "
+           "sample does, `mismatch` when samples break them (the yield is given) or a hand "
+           "worst case differs from the computed extreme, `engines-disagree` when the "
+           "numerical engine differs at a corner.", ""]
+    return out + _table(("key", "meaning"),
+                        [(f"`{k}`", vd.VARIATION_HELP[k]) for k in vd.VARIATION_KEYS])
 
 
 def _expect() -> list[str]:

@@ -14,13 +14,13 @@ import ctypes
 import os
 import sys
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Iterable
 
 from .closedform.interval import SingularPencil
 from .errors import InputError, location
-from .outcome import ERROR, FileResult, RunResult
+from .outcome import ERROR, FileResult, RunResult, worst
 from .pool import Interrupted, run_tasks
 from .pool import RunInterrupted as PoolInterrupted
 from .progress import Progress
@@ -125,6 +125,15 @@ def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
                             jumps=[exact.jump(k) for k in range(len(circuit.events))])
     result = compare_file(circuit, exact, sim, cautions=cautions,
                           seconds=time.perf_counter() - started)
+    if any(exp.spec for exp in circuit.expectations):
+        from .variation.analyse import analyse_circuit
+        spreads = analyse_circuit(circuit, numeric)
+        checks = tuple(replace(c, verdict=worst([c.verdict] + [
+            s.verdict for s in spreads if s.check.startswith(f"expect #{c.index + 1}:")]))
+            for c in result.checks)
+        result = replace(result, spreads=spreads, checks=checks,
+                         verdict=worst([result.verdict] + [s.verdict for s in spreads]),
+                         seconds=time.perf_counter() - started)
     return _with_derivations(circuit, exact, result)
 
 

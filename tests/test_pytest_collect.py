@@ -19,8 +19,9 @@ from pathlib import Path
 import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
-#: the review packet's failing blocks (circuits/README.md, "Review packet")
-REVIEW_FAILING = 8
+#: the review packet's failing blocks (circuits/README.md, "Review packet"), the worst-corner
+#: reset delay included
+REVIEW_FAILING = 9
 
 
 def _blocks(folder: Path) -> int:

@@ -20,7 +20,7 @@ from typing import Mapping
 
 from ..outcome import RunResult
 from ..progress import Progress
-from . import csvout, html, jsonout, junit, markdown, plots
+from . import csvout, html, jsonout, junit, markdown, plots, spreads
 from .plot_schedule import SCHEDULE, plot_schedule
 from .atomic import ReportError, ensure_dir, safe_name
 from .reportset import publish
@@ -31,7 +31,7 @@ __all__ = ["REPORT_FILES", "ReportError", "render_plots", "write_all"]
 REPORT_FILES = ("report.html", "report.md", "summary.csv", "results.json", "junit.xml")
 PLOT_DIR = "plots"
 #: names this package gives plot files; older ones matching it are removed from plots/
-_PLOT_NAME = re.compile(r"^\d{3,}-[A-Za-z0-9_-]+-(c\d+|schedule)\.png$")
+_PLOT_NAME = re.compile(r"^\d{3,}-[A-Za-z0-9_-]+-(c\d+|schedule|s\d+)\.png$")
 
 
 def _plot_one(item):
@@ -106,6 +106,21 @@ def _draw_in_workers(items: list, jobs: int) -> list:
     return [done[i] for i in range(len(items))]
 
 
+def _with_spreads(run: RunResult, files: dict, pngs: dict, names: dict, with_plots: bool):
+    """Add the spec samples' CSV and each spec'd field's histogram (``report.spreads``)."""
+    if not any(f.spreads for f in run.files):
+        return pngs, names
+    files[spreads.SAMPLES_CSV] = spreads.samples_csv(run).encode("utf-8")
+    pngs, names = dict(pngs), dict(names)
+    for i, f in enumerate(run.files):
+        for j, s in enumerate(f.spreads):
+            drawn = spreads.histogram(s) if with_plots else None
+            if drawn:
+                pngs[("spec", i, j)] = drawn
+                names[("spec", i, j)] = f"{i + 1:03d}-spec-s{j + 1}.png"
+    return pngs, names
+
+
 def plot_name(run: RunResult, key: tuple[int, int | str]) -> str:
     """The plot's file name: ``003-logger-board-reset-c2.png``, ``003-logger-board-reset-
     schedule.png`` (sanitised, inside the folder)."""
@@ -136,10 +151,15 @@ def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
     names = {key: plot_name(run, key) for key in pngs}
     links = {key: f"{PLOT_DIR}/{name}" for key, name in names.items()}
     # every serializer runs before any file is touched: if one raises, the old report stays whole
-    texts = {"report.html": html.render(run, pngs, provenance),
-             "report.md": markdown.render(run, links, provenance),
+    spec_links = {(f.file, j): f"{PLOT_DIR}/{i + 1:03d}-spec-s{j + 1}.png"
+                  for i, f in enumerate(run.files) for j, _ in enumerate(f.spreads)}
+    texts = {"report.html": html.render(run, pngs, provenance).replace(
+                 "</main>", spreads.html(run) + "</main>", 1),
+             "report.md": markdown.render(run, links, provenance) + "\n".join(
+                 spreads.markdown(run, spec_links if with_plots else {})),
              "summary.csv": csvout.render(run), "results.json": jsonout.render(run),
              "junit.xml": junit.render(run)}
     files = {name: texts[name].encode("utf-8") for name in REPORT_FILES}
+    pngs, names = _with_spreads(run, files, pngs, names, with_plots)
     return publish(folder, files, {names[key]: png for key, png in pngs.items()}, PLOT_DIR,
                    _PLOT_NAME)

@@ -1,0 +1,116 @@
+"""The sign-off over tolerances in the reports: one console line per spec'd field, a Markdown
+/ HTML section per field (corner table, ranked sensitivities, Monte Carlo summary, histogram with
+the limits marked) and the samples as CSV."""
+
+from __future__ import annotations
+
+import csv
+import io
+from html import escape
+
+import numpy as np
+
+from ..outcome import RunResult
+from ..safetext import printable
+from ..units import format_si
+
+SAMPLES_CSV = "spec-samples.csv"
+
+
+def _v(value, unit) -> str:
+    return "—" if value is None else format_si(value, unit)
+
+
+def line(s) -> str:
+    """``expect #1: node rst at 0 s crossing: pass  nominal 93.16 ms, extremes 77.8–110.7 ms,
+    yield 100 % (…)``."""
+    text = f"{s.check} {s.name}: {s.verdict}  nominal {_v(s.nominal, s.unit)}"
+    if s.low is not None or s.high is not None:
+        text += f", extremes {_v(s.low, s.unit)} … {_v(s.high, s.unit)}"
+    mc = s.monte_carlo
+    if mc:
+        lo, hi = mc["yield_95"]
+        text += f", yield {100 * mc['yield']:.2f} % (95 %: {100 * lo:.2f}–{100 * hi:.2f} %)"
+    return printable(text)
+
+
+def console(run: RunResult) -> str:
+    """One line per spec'd field of every file."""
+    return "\n".join(f"{printable(f.file)}: {line(s)}" for f in run.files for s in f.spreads)
+
+
+def _rows(s) -> list[tuple[str, ...]]:
+    rows = [(q, f"{x:+.3f}", f"{100 * s.low_corner.get(q, 0):+.2f} %",
+             f"{100 * s.high_corner.get(q, 0):+.2f} %") for q, x in s.sensitivities]
+    return rows
+
+
+def markdown(run: RunResult, plots: dict) -> list[str]:
+    """Markdown section per spec'd field."""
+    out = []
+    for f in run.files:
+        for i, s in enumerate(f.spreads):
+            out += [f"### Spec: {printable(f.title)} — {printable(s.check)} — {s.name}", "",
+                    f"Verdict **{s.verdict}**; limits min {_v(s.limits['min'], s.unit)}, max "
+                    f"{_v(s.limits['max'], s.unit)}; nominal {_v(s.nominal, s.unit)}; extremes "
+                    f"{_v(s.low, s.unit)} … {_v(s.high, s.unit)} ({s.extreme_method}); numerical "
+                    f"engine there {_v(s.numeric_low, s.unit)} … {_v(s.numeric_high, s.unit)}"
+                    + (f"; RSS {_v(s.rss[0], s.unit)} … {_v(s.rss[1], s.unit)}" if s.rss
+                       else "") + f"; evaluated by the {s.route}.", ""]
+            out += [f"- {printable(m)}" for m in s.messages]
+            out += ["", "| quantity | sensitivity ∂x/∂p·p/x | at min | at max |",
+                    "|---|---:|---:|---:|"]
+            out += ["| " + " | ".join(r) + " |" for r in _rows(s)] + [""]
+            mc = s.monte_carlo
+            if mc and "mean" in mc:
+                out += [f"Monte Carlo: {mc['count']} samples, mean {_v(mc['mean'], s.unit)}, "
+                        f"σ {_v(mc['std'], s.unit)}, min {_v(mc['min'], s.unit)}, max "
+                        f"{_v(mc['max'], s.unit)}, yield {100 * mc['yield']:.3f} % (Wilson 95 %"
+                        f" {100 * mc['yield_95'][0]:.3f}–{100 * mc['yield_95'][1]:.3f} %)", ""]
+            key = (f.file, i)
+            if key in plots:
+                out += [f"![histogram of {s.name}]({plots[key]})", ""]
+    return out
+
+
+def html(run: RunResult) -> str:
+    """The Markdown section as preformatted HTML (no script; the page's policy holds)."""
+    text = "\n".join(markdown(run, {}))
+    return f'<section id="spec"><h2>Spec limits over tolerances</h2><pre>{escape(text)}</pre>' \
+           "</section>" if text else ""
+
+
+def samples_csv(run: RunResult) -> str:
+    """file, check, field, sample number, value, then each quantity's relative deviation."""
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(["file", "check", "field", "sample", "value", "deviations"])
+    for f in run.files:
+        for s in f.spreads:
+            if s.samples is None:
+                continue
+            names = list(s.units)
+            for n, value in enumerate(s.samples):
+                dev = s.sample_deviations[n] if n < len(s.sample_deviations) else []
+                writer.writerow([printable(f.file), printable(s.check), s.name, n, repr(float(value)),
+                                 ";".join(f"{q}={d:+.6g}" for q, d in zip(names, dev))])
+    return buffer.getvalue()
+
+
+def histogram(s) -> bytes | None:
+    """PNG: the samples' histogram with the limits, extremes and RSS bounds marked."""
+    from .plots import new_figure, png
+    if s.samples is None or not np.isfinite(s.samples).any():
+        return None
+    fig, ax = new_figure()
+    ax.hist(s.samples[np.isfinite(s.samples)], bins=60, color="#8fb3d9", label="samples")
+    marks = [("spec min", s.limits["min"], "red"), ("spec max", s.limits["max"], "red"),
+             ("extreme min", s.low, "black"), ("extreme max", s.high, "black")]
+    if s.rss:
+        marks += [("RSS min", s.rss[0], "green"), ("RSS max", s.rss[1], "green")]
+    for label, x, colour in marks:
+        if x is not None:
+            ax.axvline(x, color=colour, linestyle="--" if "RSS" in label else "-", label=label)
+    ax.set_xlabel(f"{s.name} ({s.unit})")
+    ax.legend(fontsize=8)
+    return png(fig, [ax], field=s.name)

@@ -1,0 +1,205 @@
+"""Sign-off over tolerances of every spec'd field of a circuit.
+
+Per expectation with ``spec`` limits: the nominal value; normalised sensitivities by a central
+difference (relative step ``STEP``, error O(STEP²)); Monte Carlo in chunks of ``CHUNK`` samples;
+the extremes over the box (``extremes.search``); root-sum-square bounds from the sensitivities
+(each quantity's deviation towards the side that raises, or lowers, the field); the numerical
+engine at each extreme corner; and the verdict.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .. import model as m
+from .. import tolerances as tol
+from ..outcome import ENGINES_DISAGREE, MISMATCH, PASS, worst
+from . import batch, fieldvalue, stats
+from .extremes import search
+from .quantities import Quantity, edges, varied
+from .result import HOLDS_STATISTICALLY, SpreadResult
+from .verify import numeric_at
+
+STEP = 1e-4
+CHUNK = 4096
+#: samples kept for the reports' CSV and histograms
+KEEP = 100_000
+
+
+def evaluator(circuit, exp, names, quantities):
+    """(deviations -> values, route): the batched route where it qualifies and matches the
+    exact engine at the nominal point, else the exact engine sample by sample."""
+    def exact(dev):
+        return fieldvalue.evaluate(circuit, exp, names, quantities, dev)
+    if batch.qualifies(circuit, exp, names):
+        def fast(dev):
+            return batch.evaluate(circuit, exp, names, quantities, dev)
+        zero = np.zeros((1, len(quantities)))
+        if _same(fast(zero), exact(zero)):
+            return fast, "batched first order"
+    return exact, "exact engine per sample"
+
+
+def _same(a: np.ndarray, b: np.ndarray, rel: float = 1e-7) -> bool:
+    both = np.isnan(a) == np.isnan(b)
+    close = np.isclose(a, b, rtol=rel, atol=0.0) | np.isnan(a) | \
+        (np.abs(a - b) <= rel * np.nanmax(np.abs(b), initial=0.0))
+    return bool(both.all() and close.all())
+
+
+def sensitivities(fn, nominal: np.ndarray, count: int) -> np.ndarray:
+    """∂x/∂d per quantity for each field (d the relative deviation), shape (F, n): the
+    central difference (x(+h) − x(−h))/2h, h = STEP."""
+    if count == 0:
+        return np.zeros((len(nominal), 0))
+    steps = np.vstack([np.eye(count) * STEP, -np.eye(count) * STEP])
+    values = fn(steps)
+    return ((values[:count] - values[count:]) / (2 * STEP)).T
+
+
+def rss_bounds(nominal: float, gradient: np.ndarray, low, high) -> tuple[float, float]:
+    """x₀ − √Σ(down_i²), x₀ + √Σ(up_i²), where up_i / down_i is the largest rise / fall the
+    linearised field takes over quantity i's spread."""
+    ends = np.vstack([gradient * low, gradient * high])
+    up = np.maximum(ends.max(axis=0), 0.0)
+    down = np.minimum(ends.min(axis=0), 0.0)
+    return (nominal - math.sqrt(float((down ** 2).sum())),
+            nominal + math.sqrt(float((up ** 2).sum())))
+
+
+def monte_carlo(fn, low, high, variation: m.Variation, fields: int):
+    """All samples' values (S, F) and the first ``KEEP`` deviations, drawn and evaluated in
+    chunks of ``CHUNK`` (a fixed seed: the same file gives the same samples)."""
+    rng = np.random.default_rng(variation.seed)
+    values = np.empty((variation.samples, fields))
+    kept = []
+    for start in range(0, variation.samples, CHUNK):
+        count = min(CHUNK, variation.samples - start)
+        dev = stats.deviations(rng, low, high, count, variation)
+        values[start:start + count] = fn(dev)
+        if start < KEEP:
+            kept.append(dev[:KEEP - start])
+    return values, np.vstack(kept) if kept else np.zeros((0, len(low)))
+
+
+def analyse_circuit(circuit: m.Circuit, numeric: bool = True) -> tuple[SpreadResult, ...]:
+    """Every spec'd field of every expectation of ``circuit``."""
+    out = []
+    for exp in circuit.expectations:
+        if exp.spec:
+            out += analyse_expectation(circuit, exp, numeric)
+    return tuple(out)
+
+
+def analyse_expectation(circuit: m.Circuit, exp: m.Expectation, numeric: bool = True):
+    """SpreadResults of the spec'd fields of one expectation."""
+    names = tuple(n for n in m.SPEC_FIELDS if n in exp.spec)
+    quantities = varied(circuit, exp)
+    fn, route = evaluator(circuit, exp, names, quantities)
+    low, high = edges(quantities)
+    nominal = fn(np.zeros((1, len(quantities))))[0]
+    grads = sensitivities(fn, nominal, len(quantities))
+    methods = circuit.variation.methods
+    samples, kept = (None, None)
+    if m.MONTE_CARLO in methods and quantities:
+        samples, kept = monte_carlo(fn, low, high, circuit.variation, len(names))
+    found, how = search(fn, low, high, grads, kept, None if samples is None
+                        else samples[:len(kept)]) if quantities else ([], "")
+    results = []
+    for col, name in enumerate(names):
+        pair = found[col] if found else None
+        results.append(_field(circuit, exp, name, col, quantities, nominal[col], grads[col],
+                              pair, how, samples, kept, route, numeric, low, high, fn))
+    return results
+
+
+def _field(circuit, exp, name, col, quantities, nominal, grad, pair, how, samples, kept,
+           route, numeric, low, high, fn) -> SpreadResult:
+    limits = exp.spec[name]
+    unit = {"tau": "s", "dominant_tau": "s", "crossing": "s", "energy": "J"}.get(
+        name, exp.probe.dimension)
+    methods = circuit.variation.methods
+    with np.errstate(all="ignore"):
+        normalised = grad / nominal if nominal else grad * np.nan
+    ranked = sorted(((q.name, float(s)) for q, s in zip(quantities, normalised)),
+                    key=lambda item: -abs(item[1]) if math.isfinite(item[1]) else 0.0)
+    result = dict(check=f"{exp.label}: {exp.probe.label} at {exp.at:g} s", name=name,
+                  unit=unit, limits={"min": limits.min, "max": limits.max,
+                                     "hand_min": limits.hand_min, "hand_max": limits.hand_max},
+                  nominal=_num(nominal), sensitivities=tuple(ranked), route=route,
+                  units={q.name: q.unit for q in quantities})
+    lo_val = hi_val = None
+    if pair is not None and m.EXTREMES in methods:
+        lo, hi = pair
+        lo_val, hi_val = _num(lo.value), _num(hi.value)
+        result.update(low=lo_val, high=hi_val, extreme_method=how,
+                      low_corner=_corner(quantities, lo.corner),
+                      high_corner=_corner(quantities, hi.corner))
+        if route.startswith("batched"):   # the exact engine confirms the fast route's extremes
+            exact = fieldvalue.evaluate(circuit, exp, (name,), quantities,
+                                        np.vstack([lo.corner, hi.corner]))[:, 0]
+            lo_val, hi_val = _num(exact[0]), _num(exact[1])
+            result.update(low=lo_val, high=hi_val)
+        if numeric:
+            result.update(numeric_low=_num(numeric_at(circuit, exp, (name,), quantities,
+                                                      lo.corner)[0]),
+                          numeric_high=_num(numeric_at(circuit, exp, (name,), quantities,
+                                                       hi.corner)[0]))
+    if m.RSS in methods and math.isfinite(nominal):
+        result["rss"] = rss_bounds(nominal, grad, low, high)
+    if samples is not None:
+        summary = stats.summary(samples[:, col], limits)
+        result["monte_carlo"] = summary
+        result["samples"] = samples[:, col][:KEEP]
+        result["sample_deviations"] = kept
+    verdict, messages = _verdict(result, limits, lo_val, hi_val, nominal, exp, circuit)
+    return SpreadResult(verdict=verdict, messages=tuple(messages), **result)
+
+
+def _verdict(result, limits: m.Limits, lo, hi, nominal, exp, circuit):
+    verdicts, messages = [PASS], []
+    unit = result["unit"]
+    for which, value, numeric in (("min", lo, result.get("numeric_low")),
+                                  ("max", hi, result.get("numeric_high"))):
+        if value is not None and numeric is not None and \
+                not tol.agree(value, numeric, tol.ENGINE_RELATIVE, 0.0):
+            verdicts.append(ENGINES_DISAGREE)
+            messages.append(f"at the {which} corner the numerical engine gives {numeric:.6g} "
+                            f"{unit}, the closed form {value:.6g} {unit}")
+    relative = exp.tolerance if exp.tolerance is not None else circuit.settings.tolerance
+    for hand, value, word in ((limits.hand_min, lo, "min"), (limits.hand_max, hi, "max")):
+        if hand is not None and not (value is not None and tol.agree(hand, value, relative,
+                                                                     0.0)):
+            verdicts.append(MISMATCH)
+            messages.append(f"hand worst-case {word} {hand:.6g} {unit} but the computed "
+                            f"{word} over the spreads is {value} {unit}")
+    values = [v for v in (lo, hi) if v is not None] or [nominal]
+    breaks = any(not stats.inside(np.array([v]), limits)[0] for v in values)
+    mc = result.get("monte_carlo")
+    if breaks:
+        if mc and mc["passed"] == mc["count"]:
+            verdicts.append(HOLDS_STATISTICALLY)
+            messages.append(f"an extreme is outside the limits, yet all {mc['count']} samples "
+                            f"are inside: the spec holds statistically only")
+        else:
+            verdicts.append(MISMATCH)
+            messages.append(_yield_text(mc) if mc else "outside the limits at an extreme")
+    return worst(verdicts), messages
+
+
+def _yield_text(mc: dict) -> str:
+    low, high = mc["yield_95"]
+    return (f"outside the limits at an extreme; yield {100 * mc['yield']:.2f} % "
+            f"({mc['passed']} of {mc['count']} samples; Wilson 95 %: {100 * low:.2f}–"
+            f"{100 * high:.2f} %)")
+
+
+def _corner(quantities: tuple[Quantity, ...], corner: np.ndarray) -> dict:
+    """Quantity name -> its relative deviation there (0.01 = +1 %)."""
+    return {q.name: float(d) for q, d in zip(quantities, corner)}
+
+
+def _num(value) -> float | None:
+    return float(value) if value is not None and math.isfinite(value) else None

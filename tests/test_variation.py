@@ -1,0 +1,139 @@
+"""Sign-off over tolerances: each numerical check names its outside source."""
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings, strategies as st
+from scipy import integrate
+
+from harness import model as m
+from harness.circuitfile import parse_circuit
+from harness.errors import InputError
+from harness.variation import analyse, stats
+from harness.variation.declare import parse_spread
+
+RC = """
+[variation]
+samples = {n}
+seed = 5
+distribution = "{dist}"
+[parts]
+V1 = {{ kind = "voltage-source", nodes = ["a", "gnd"], value = "0 V", steps = [["0 s", "1 V"]] }}
+R1 = {{ kind = "resistor", nodes = ["a", "b"], value = "1k", spread = "{a}" }}
+C1 = {{ kind = "capacitor", nodes = ["b", "gnd"], value = "1u", spread = "{b}" }}
+[[expect]]
+node = "b"
+crossing = {{ level = "0.5 V", direction = "rising" }}
+spec = {{ tau = {{ max = "2 ms" }}, crossing = {{ max = "{cmax}" }} }}
+"""
+
+
+def _run(a="5%", b="10%", n=2000, dist="uniform", cmax="1 s"):
+    c = parse_circuit(RC.format(a=a, b=b, n=n, dist=dist, cmax=cmax))
+    return {s.name: s for s in analyse.analyse_circuit(c, numeric=False)}
+
+
+def test_iec_60062_letters():
+    # IEC 60062:2016 Table 5: F 1 %, G 2 %, J 5 %, K 10 %, M 20 %
+    for letter, edge in zip("FGJKM", (0.01, 0.02, 0.05, 0.10, 0.20)):
+        assert parse_spread(letter) == pytest.approx((-edge, edge))
+    assert parse_spread("-20%/+80%") == pytest.approx((-0.2, 0.8))
+    assert parse_spread("1 %") == pytest.approx((-0.01, 0.01))
+
+
+def test_worst_case_of_rc():
+    # textbook worst case of a product: RC(1 ± a)(1 ± b)
+    s = _run()["tau"]
+    assert s.low == pytest.approx(1e-3 * 0.95 * 0.90, rel=1e-9)
+    assert s.high == pytest.approx(1e-3 * 1.05 * 1.10, rel=1e-9)
+    assert s.sensitivities[0][1] == pytest.approx(1.0, rel=1e-6)
+
+
+def test_rss_of_a_product():
+    # RSS of a product of independent parts: τ₀(1 ± √(a² + b²)) to first order
+    s = _run()["tau"]
+    half = 1e-3 * math.hypot(0.05, 0.10)
+    assert s.rss[0] == pytest.approx(1e-3 - half, rel=1e-6)
+    assert s.rss[1] == pytest.approx(1e-3 + half, rel=1e-6)
+
+
+@pytest.mark.parametrize("dist", ["uniform", "normal"])
+def test_monte_carlo_mean_and_sigma_of_tau(dist):
+    # exact moments of a product of independent factors: E[XY] = E[X]E[Y],
+    # Var = E[X²]E[Y²] − E[X]²E[Y]²; uniform on ±a: Var = a²/3; normal: σ = a/3
+    a, b, n = 0.05, 0.10, 20000
+    s = _run(n=n, dist=dist)["tau"]
+    var = (lambda e: e * e / 3) if dist == "uniform" else (lambda e: (e / 3) ** 2)
+    mean = 1e-3
+    sd = 1e-3 * math.sqrt((1 + var(a)) * (1 + var(b)) - 1)
+    mc = s.monte_carlo
+    assert abs(mc["mean"] - mean) < 4 * sd / math.sqrt(n)    # 4σ of the sample mean
+    assert abs(mc["std"] - sd) < 4 * sd / math.sqrt(2 * (n - 1)) * 1.5
+
+
+def test_yield_of_a_crossing_time_against_scipy():
+    # t = RC ln 2 with R, C uniform on ±5 %, ±10 %; P(t ≤ T) by numerical integration of the
+    # exact distribution (scipy.integrate.quad over R of the conditional probability in C)
+    limit = 0.7e-3
+    s = _run(n=20000, cmax="0.7 ms")["crossing"]
+
+    def conditional(r):
+        c_max = limit / (r * math.log(2))
+        return min(max((c_max - 0.9e-6) / 0.2e-6, 0.0), 1.0) / (0.1e3)
+    p, _ = integrate.quad(conditional, 0.95e3, 1.05e3, points=[1e3])
+    low, high = s.monte_carlo["yield_95"]
+    assert low <= p <= high
+    assert s.verdict == m.MISMATCH if hasattr(m, "MISMATCH") else s.verdict == "mismatch"
+
+
+NONMONO = """
+[variation]
+samples = 500
+[parts]
+V1 = { kind = "voltage-source", nodes = ["a", "gnd"], value = "0 V", steps = [["0 s", "1 V"]] }
+R1 = { kind = "resistor", nodes = ["a", "b"], value = "1k" }
+R2 = { kind = "resistor", nodes = ["b", "gnd"], value = "1k", spread = "-40%/+300%" }
+C1 = { kind = "capacitor", nodes = ["b", "gnd"], value = "1u" }
+[[expect]]
+node = "b"
+crossing = { level = "0.4 V", direction = "rising" }
+spec = { crossing = { max = "1 s" } }
+"""
+
+
+@pytest.mark.xfail(reason="the scenario's crossing time is singular where v∞ meets the level, "
+                          "not a clean interior turn: the case still needs a proper design",
+                   strict=False)
+def test_non_monotonic_crossing_time():
+    # t(R2) = R1‖R2·C·ln(v∞/(v∞ − L)), v∞ = R2/(R1+R2): it rises then falls in R2; its maximum
+    # lies inside the spread, found here by a dense scan of the closed formula
+    s = {x.name: x for x in analyse.analyse_circuit(parse_circuit(NONMONO), numeric=False)}
+    r2 = np.linspace(600, 4000, 200001)
+    vinf = r2 / (1e3 + r2)
+    t = (1e3 * r2 / (1e3 + r2)) * 1e-6 * np.log(vinf / (vinf - 0.4))
+    assert s["crossing"].high == pytest.approx(np.nanmax(t), rel=1e-6)
+    assert 0.61 < 1 + s["crossing"].high_corner["R2"] < 3.9   # interior, not a vertex
+    assert s["crossing"].low == pytest.approx(np.nanmin(t), rel=1e-9)
+
+
+def test_wilson_interval():
+    # Wilson (1927): 0 of 10 -> (0, 0.2775)
+    assert stats.wilson(0, 10)[1] == pytest.approx(0.27753, abs=1e-4)
+
+
+def test_bad_spread_is_located():
+    text = RC.format(a="5%", b="-5%/x", n=100, dist="uniform", cmax="1 s")
+    with pytest.raises(InputError) as err:
+        parse_circuit(text, source="f.toml")
+    assert err.value.part == "C1" and err.value.field == "spread" and err.value.line == 9
+
+
+@settings(max_examples=15, deadline=None)
+@given(st.floats(0.001, 0.5), st.floats(0.001, 0.5), st.integers(0, 1000))
+def test_extremes_bracket_every_sample(a, b, seed):
+    text = RC.format(a=a, b=b, n=200, dist="uniform", cmax="1 s").replace("seed = 5",
+                                                                         f"seed = {seed}")
+    for s in analyse.analyse_circuit(parse_circuit(text), numeric=False):
+        finite = s.samples[np.isfinite(s.samples)]
+        assert s.low <= finite.min() * (1 + 1e-12) and finite.max() <= s.high * (1 + 1e-12)
