@@ -81,8 +81,9 @@ def render(run: RunResult, plots: Mapping[tuple[int, int], bytes] | None = None,
     heads the page and gives each file's parts as written.  Files that need attention come
     first; passing files and checks are folded (``<details>``); a CSS-only filter by verdict
     (radio buttons, no script) sits above the files."""
-    plots, provenance = plots or {}, provenance or {}
+    provenance = provenance or {}
     order = common.attention_order(run)
+    plots = _within_budget(run, plots or {}, order)
     body = ['<h1 id="top">tauproof discrepancy report</h1>', _provenance_table(provenance),
             f'<p class="summary">{badge(run.verdict)} {esc(common.summary_line(run))}</p>',
             _counts_table(run), FILTER, "<main>", _file_list(run, order)]
@@ -146,7 +147,7 @@ def _file_section(i: int, file: FileResult, plots, facts: Mapping[str, Any]) -> 
     out.append(_parts_table(facts.get("parts", [])))
     out.append(_stored_table(file))
     schedule = plots.get((i, SCHEDULE))
-    if schedule:
+    if schedule is not None:
         out.append(_image(schedule, f"whole schedule of {file.title or file.file}"))
     failing = [c for c in file.checks if c.verdict != PASS]
     passing = [c for c in file.checks if c.verdict == PASS]
@@ -219,7 +220,7 @@ def _check_block(check: CheckResult, png: bytes | None) -> str:
         facts.append("<details open><summary>The hand method, done right (formulas in part "
                      "names, then numbers)</summary><pre>"
                      + esc("\n".join(check.derivation)) + "</pre></details>")
-    plot = _image(png, f"waveform of {common.check_label(check)}") if png else ""
+    plot = _image(png, f"waveform of {common.check_label(check)}") if png is not None else ""
     return (f'<div class="check c-{esc(check.verdict)}"><div class="facts">' + "".join(facts)
             + "</div>" + plot + "</div>")
 
@@ -247,9 +248,42 @@ def embedded(png: bytes) -> bytes:
 
 
 def _image(png: bytes, alt: str) -> str:
-    """A plot as an inline data-URI image (``embedded``: a palette PNG)."""
-    data = base64.b64encode(embedded(png)).decode("ascii")
+    """A plot as an inline data-URI image; ``png`` is already ``embedded`` (a palette PNG), or
+    ``NOT_EMBEDDED`` for a passing check's plot left out to keep the page small."""
+    if png is NOT_EMBEDDED:
+        return ('<p class="meta">(the plot of this passing check is in plots/ of the report '
+                "folder and in report.md: the page keeps its size down)</p>")
+    data = base64.b64encode(png).decode("ascii")
     return f'<div class="plot"><img src="data:image/png;base64,{data}" alt="{esc(alt)}"></div>'
+
+
+#: bytes of embedded plots a page holds before passing checks' plots are left out (the
+#: schedule plots and every check that needs attention are always embedded): ~2 MB of page
+EMBED_BUDGET = 1_200_000
+#: the stand-in for a plot left out of the page
+NOT_EMBEDDED = b""
+
+
+def _within_budget(run: RunResult, plots: Mapping, order: list[int]) -> dict:
+    """The plots as embedded PNGs, in the page's order: every file's schedule plot and every
+    check that needs attention first, then passing checks' plots while their sum stays within
+    ``EMBED_BUDGET``; the rest ``NOT_EMBEDDED``."""
+    out, used, later = {}, 0, []
+    for i in order:
+        for key in [(i, SCHEDULE)] + [(i, c.index) for c in run.files[i].checks]:
+            if key not in plots:
+                continue
+            check = next((c for c in run.files[i].checks if (i, c.index) == key), None)
+            if check is not None and check.verdict == PASS:
+                later.append(key)
+                continue
+            out[key] = embedded(plots[key])
+            used += len(out[key])
+    for key in later:
+        small = embedded(plots[key])
+        out[key] = small if used + len(small) <= EMBED_BUDGET else NOT_EMBEDDED
+        used += len(small) if out[key] else 0
+    return out
 
 
 def _stored_table(file: FileResult) -> str:
