@@ -485,6 +485,23 @@ def _ring_values(ctx: "CheckContext", fe: Features, name: str) -> tuple:
     return _ring_value(fe, name), _ring_value(numeric, name)
 
 
+def _engine_ring_floor(name: str, fe: Features, ctx: "CheckContext",
+                       values: tuple) -> float:
+    """The floor of a ring field between the engines: 0 for f_d, ζ and Q; for the overshoot
+    o = e/s (excursion e beyond x_inf over the step s = x_inf - x(t_k+)), ``tol.ENGINE_FLOOR``
+    or the error both carry, δo = δ(1 + o)/s with δ = ``tol.ENGINE_FLOOR`` of the probe's
+    scale (the engines' absolute error on e and on s), whichever is larger; no verdict where
+    the step is below the probe's noise floor (a pulse that starts and ends at 0: 1e-15 V over
+    a 5.5 V excursion made an overshoot of 3e11 against 1e13)."""
+    if name != "overshoot":
+        return 0.0
+    step = abs(fe.final - fe.after) if fe.final is not None and fe.after is not None else 0.0
+    if not step >= ctx.noise:
+        return math.inf
+    largest = max([abs(v) for v in values if isinstance(v, float)], default=0.0)
+    return max(tol.ENGINE_FLOOR, tol.ENGINE_FLOOR * ctx.scale * (1.0 + largest) / step)
+
+
 #: an engine that did not compute a value (never a disagreement)
 _NOT_COMPUTED = object()
 
@@ -502,7 +519,8 @@ def compare_ring(exp: Expectation, fe: Features, ctx: "CheckContext", name: str)
     verdict, message = PASS, ""
     if computed and (closed is None) != (numeric is None) or (
             closed is not None and numeric is not None
-            and not tol.agree(closed, numeric, tol.RING_ENGINE_RELATIVE, floor)):
+            and not tol.agree(closed, numeric, tol.RING_ENGINE_RELATIVE,
+                              _engine_ring_floor(name, fe, ctx, (closed, numeric)))):
         verdict, message = ENGINES_DISAGREE, engine_message(closed, numeric, unit)
     elif closed is None:
         verdict = MISMATCH

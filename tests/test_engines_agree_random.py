@@ -96,3 +96,44 @@ def test_engines_agree_on_random_circuits(seed):
     row = agree.run_one(seed, seconds=30.0)
     assert not row["errors"], row["errors"]
     assert not row["disagree"], row["disagree"]
+
+
+class _Ring(_Stub):
+    """An engine reporting a step (after → final), a ring and an overshoot."""
+
+    def __init__(self, after, final, over):
+        super().__init__(after)
+        self.after, self.final, self.over = after, final, over
+
+    def features(self, probe, k):
+        return Features(before=0.0, after=self.after, final=self.final, order=2,
+                        rings=((1e5, 0.95),))
+
+    def peak(self, probe, k):
+        return _Peak(5.49)
+
+    def overshoot(self, probe, k):
+        return self.over
+
+
+def _ring_context(closed: _Ring, numeric: _Ring):
+    ctx, _ = _context(0.0, 0.0)
+    ctx = CheckContext(ctx.circuit, closed, numeric, ctx.probe, 0)
+    return ctx, Expectation(0, ctx.probe, hand={"overshoot": 0.1})
+
+
+def test_overshoot_of_a_noise_step_gives_no_verdict():
+    # a pulse that starts and ends at 0 V (a 5.5 V hump): its step x_inf - x(0+) is rounding
+    # (1e-15 V, 5e-13 V), so the overshoot, excursion over step, is noise over noise
+    from harness.compare_signoff import compare_ring
+    ctx, exp = _ring_context(_Ring(1.06e-15, 2.8e-32, 2.94e11), _Ring(-1.8e-18, 5.5e-13, 1.0e13))
+    assert compare_ring(exp, ctx.exact.features(None, 0), ctx, "overshoot").verdict \
+        != ENGINES_DISAGREE
+
+
+def test_overshoot_of_a_real_step_is_still_judged():
+    # a 1 V step overshooting by 10 % in one engine and 12 % in the other: a real disagreement
+    from harness.compare_signoff import compare_ring
+    ctx, exp = _ring_context(_Ring(0.0, 1.0, 0.10), _Ring(0.0, 1.0, 0.12))
+    assert compare_ring(exp, ctx.exact.features(None, 0), ctx, "overshoot").verdict \
+        == ENGINES_DISAGREE
