@@ -137,3 +137,34 @@ def test_overshoot_of_a_real_step_is_still_judged():
     ctx, exp = _ring_context(_Ring(0.0, 1.0, 0.10), _Ring(0.0, 1.0, 0.12))
     assert compare_ring(exp, ctx.exact.features(None, 0), ctx, "overshoot").verdict \
         == ENGINES_DISAGREE
+
+
+CCCS_STAGE = """
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "2.63 V", steps = [["14 us", "-2.6 V"]] }
+R2 = { kind = "resistor", nodes = ["n1", "gnd"], value = "9860" }
+S3 = { kind = "switch", state = "open", steps = [["6.1 ms", "closed"]], nodes = ["in", "n1"], on-resistance = "1.94m", off-resistance = "10.84" }
+C4 = { kind = "capacitor", nodes = ["in", "n1"], value = "59.9n" }
+C5 = { kind = "capacitor", nodes = ["gnd", "n1"], value = "2.46p" }
+C7 = { kind = "capacitor", nodes = ["in", "gnd"], value = "95.9n" }
+CC9 = { kind = "cccs", nodes = ["o8", "gnd"], gain = -35.1, control = "R2" }
+R10 = { kind = "resistor", nodes = ["o8", "gnd"], value = "80.2k" }
+R12 = { kind = "resistor", nodes = ["o8", "o11"], value = "17.8" }
+R13 = { kind = "resistor", nodes = ["o11", "gnd"], value = "9060" }
+C14 = { kind = "capacitor", nodes = ["o11", "gnd"], value = "30.8p" }
+"""
+
+
+def test_a_fitted_tau_beside_a_small_fast_mode_is_the_modes_own():
+    # node o8 at 6.1 ms follows C14's mode alone (the 0.1 ns mode of C5 through the closed
+    # switch is below visibility); reference, textbook Thevenin: tau = C14 (R13 || (R10 + R12))
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    r_th = 9060 * (80.2e3 + 17.8) / (9060 + 80.2e3 + 17.8)
+    reference = 30.8e-12 * r_th
+    circuit = parse_circuit(CCCS_STAGE)
+    probe = Probe("node", ("o8",))
+    assert closedform.solve(circuit).features(probe, 2).tau == pytest.approx(reference, rel=1e-9)
+    assert solve(circuit).features(probe, 2).tau == pytest.approx(reference,
+                                                                  rel=tol.ENGINE_RELATIVE)

@@ -82,6 +82,9 @@ def _task(args):
 
 
 def run(start: int, count: int, jobs: int, seconds: float) -> list[dict]:
+    """Every seed's row, in seed order; workers fork from this process after the engines are
+    imported, so a run uses one version of the code throughout."""
+    import harness.runner, harness.closedform, harness.simulate  # noqa: F401,E401
     tasks = [(s, seconds) for s in range(start, start + count)]
     if jobs <= 1:
         return [_task(t) for t in tasks]
