@@ -116,7 +116,7 @@ def compare_crossing(exp: Expectation, fe: Features, ctx: "CheckContext") -> Fie
     scale_t = tau_scale(fe, ctx)
     unit = exp.probe.dimension
     verdict, message = PASS, ""
-    if cn is not None and not ctx.quiet and \
+    if cn is not None and not ctx.unjudged and \
             not _crossing_engines_agree(ce.time, cn.time, ctx, t_k, scale_t):
         verdict, message = ENGINES_DISAGREE, engine_message(ce.time, cn.time, "s")
     elif ce.time is None:
@@ -211,7 +211,8 @@ def compare_peak(exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldRe
     verdict, message = PASS, ""
     numeric = None if pn is None else _quiet(pn.magnitude, ctx.noise)
     closed = _quiet(pe.magnitude, ctx.noise)
-    if pn is not None and not tol.agree(closed, numeric, tol.ENGINE_RELATIVE,
+    if pn is not None and not ctx.unresolved and not tol.agree(closed, numeric,
+                                                               tol.ENGINE_RELATIVE,
                                         tol.ENGINE_FLOOR * ctx.scale):
         verdict, message = ENGINES_DISAGREE, engine_message(pe.magnitude, numeric, unit)
     elif not tol.agree(hand, closed, hand_relative(exp, ctx), tol.HAND_FLOOR * ctx.scale):
@@ -396,7 +397,7 @@ def compare_dominant(exp: Expectation, fe: Features, ctx: "CheckContext") -> Fie
     hand = exp.hand["dominant_tau"]
     verdict, message = PASS, ""
     numeric = None if dn is None else dn.tau
-    problems = [] if dn is None or ctx.quiet else dominant_engine_problems(dv, dn, fe, ctx)
+    problems = [] if dn is None or ctx.unjudged else dominant_engine_problems(dv, dn, fe, ctx)
     if problems:
         verdict = ENGINES_DISAGREE
         message = "; ".join(problems) + ": an engine problem, not a hand-calculation error"
@@ -512,7 +513,7 @@ def compare_ring(exp: Expectation, fe: Features, ctx: "CheckContext", name: str)
     from its own modes (the closed form's exact pencil, the numerical engine's own QZ and
     integrated response) and its own waveform (the overshoot)."""
     closed, numeric = _ring_values(ctx, fe, name)
-    computed = ctx.numeric is not None and numeric is not _NOT_COMPUTED and not ctx.quiet
+    computed = ctx.numeric is not None and numeric is not _NOT_COMPUTED and not ctx.unjudged
     numeric = None if numeric is _NOT_COMPUTED else numeric
     hand, unit = exp.hand[name], RING_FIELDS[name]
     floor = tol.ENGINE_FLOOR if name == "overshoot" else 0.0
