@@ -116,7 +116,8 @@ def compare_crossing(exp: Expectation, fe: Features, ctx: "CheckContext") -> Fie
     scale_t = tau_scale(fe, ctx)
     unit = exp.probe.dimension
     verdict, message = PASS, ""
-    if cn is not None and not _crossing_engines_agree(ce.time, cn.time, ctx, t_k, scale_t):
+    if cn is not None and not ctx.unjudged and \
+            not _crossing_engines_agree(ce.time, cn.time, ctx, t_k, scale_t):
         verdict, message = ENGINES_DISAGREE, engine_message(ce.time, cn.time, "s")
     elif ce.time is None:
         verdict = MISMATCH
@@ -195,6 +196,11 @@ def crossing_hint(want, computed: float, fe: Features, t_k: float) -> str:
 
 
 # ------------------------------------------------------------------------------- peak
+def _quiet(value: float | None, noise: float) -> float | None:
+    """0.0 for a magnitude below the probe's noise floor (``tol.PROBE_NOISE``)."""
+    return 0.0 if value is not None and abs(value) < noise else value
+
+
 def compare_peak(exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldResult:
     """Largest magnitude in the interval (and when): hand vs closed form vs numeric."""
     pe = ctx.exact.peak(ctx.probe, ctx.k)
@@ -203,11 +209,13 @@ def compare_peak(exp: Expectation, fe: Features, ctx: "CheckContext") -> FieldRe
     unit = exp.probe.dimension
     t_k = ctx.circuit.events[ctx.k]
     verdict, message = PASS, ""
-    numeric = None if pn is None else pn.magnitude
-    if pn is not None and not tol.agree(pe.magnitude, numeric, tol.ENGINE_RELATIVE,
+    numeric = None if pn is None else _quiet(pn.magnitude, ctx.noise)
+    closed = _quiet(pe.magnitude, ctx.noise)
+    if pn is not None and not ctx.unresolved and not tol.agree(closed, numeric,
+                                                               tol.ENGINE_RELATIVE,
                                         tol.ENGINE_FLOOR * ctx.scale):
         verdict, message = ENGINES_DISAGREE, engine_message(pe.magnitude, numeric, unit)
-    elif not tol.agree(hand, pe.magnitude, hand_relative(exp, ctx), tol.HAND_FLOOR * ctx.scale):
+    elif not tol.agree(hand, closed, hand_relative(exp, ctx), tol.HAND_FLOOR * ctx.scale):
         verdict = MISMATCH
         message = peak_hint(hand, pe, fe, unit, hand_relative(exp, ctx), ctx.scale)
     elif pe.after_next_event:
@@ -389,7 +397,7 @@ def compare_dominant(exp: Expectation, fe: Features, ctx: "CheckContext") -> Fie
     hand = exp.hand["dominant_tau"]
     verdict, message = PASS, ""
     numeric = None if dn is None else dn.tau
-    problems = [] if dn is None else dominant_engine_problems(dv, dn, fe, ctx)
+    problems = [] if dn is None or ctx.unjudged else dominant_engine_problems(dv, dn, fe, ctx)
     if problems:
         verdict = ENGINES_DISAGREE
         message = "; ".join(problems) + ": an engine problem, not a hand-calculation error"
@@ -478,6 +486,23 @@ def _ring_values(ctx: "CheckContext", fe: Features, name: str) -> tuple:
     return _ring_value(fe, name), _ring_value(numeric, name)
 
 
+def _engine_ring_floor(name: str, fe: Features, ctx: "CheckContext",
+                       values: tuple) -> float:
+    """The floor of a ring field between the engines: 0 for f_d, ζ and Q; for the overshoot
+    o = e/s (excursion e beyond x_inf over the step s = x_inf - x(t_k+)), ``tol.ENGINE_FLOOR``
+    or the error both carry, δo = δ(1 + o)/s with δ = ``tol.ENGINE_FLOOR`` of the probe's
+    scale (the engines' absolute error on e and on s), whichever is larger; no verdict where
+    the step is below the probe's noise floor (a pulse that starts and ends at 0: 1e-15 V over
+    a 5.5 V excursion made an overshoot of 3e11 against 1e13)."""
+    if name != "overshoot":
+        return 0.0
+    step = abs(fe.final - fe.after) if fe.final is not None and fe.after is not None else 0.0
+    if not step >= ctx.noise:
+        return math.inf
+    largest = max([abs(v) for v in values if isinstance(v, float)], default=0.0)
+    return max(tol.ENGINE_FLOOR, tol.ENGINE_FLOOR * ctx.scale * (1.0 + largest) / step)
+
+
 #: an engine that did not compute a value (never a disagreement)
 _NOT_COMPUTED = object()
 
@@ -488,14 +513,15 @@ def compare_ring(exp: Expectation, fe: Features, ctx: "CheckContext", name: str)
     from its own modes (the closed form's exact pencil, the numerical engine's own QZ and
     integrated response) and its own waveform (the overshoot)."""
     closed, numeric = _ring_values(ctx, fe, name)
-    computed = ctx.numeric is not None and numeric is not _NOT_COMPUTED
+    computed = ctx.numeric is not None and numeric is not _NOT_COMPUTED and not ctx.unjudged
     numeric = None if numeric is _NOT_COMPUTED else numeric
     hand, unit = exp.hand[name], RING_FIELDS[name]
     floor = tol.ENGINE_FLOOR if name == "overshoot" else 0.0
     verdict, message = PASS, ""
     if computed and (closed is None) != (numeric is None) or (
             closed is not None and numeric is not None
-            and not tol.agree(closed, numeric, tol.RING_ENGINE_RELATIVE, floor)):
+            and not tol.agree(closed, numeric, tol.RING_ENGINE_RELATIVE,
+                              _engine_ring_floor(name, fe, ctx, (closed, numeric)))):
         verdict, message = ENGINES_DISAGREE, engine_message(closed, numeric, unit)
     elif closed is None:
         verdict = MISMATCH

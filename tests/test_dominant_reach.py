@@ -152,3 +152,40 @@ def test_the_sum_equals_the_visible_modes():
         dom = exact.dominant(Probe("node", (node,)), 0)
         assert dom.tau == pytest.approx(want, rel=1e-9)
         assert dom.modes_sum == pytest.approx(want, rel=1e-9)
+
+
+MILLER_BESIDE_HIGH_OHMS = """
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "0 V", steps = [["1 ms", "3 V"]] }
+R2 = { kind = "resistor", nodes = ["n1", "in"], value = "44.8" }
+C6 = { kind = "capacitor", nodes = ["in", "n1"], value = "12.8u" }
+R4 = { kind = "resistor", nodes = ["n3", "gnd"], value = "169k" }
+S7 = { kind = "switch", state = "open", steps = [["2 ms", "closed"]], nodes = ["n3", "n1"], on-resistance = "14.8m" }
+R10 = { kind = "resistor", nodes = ["n1", "x8"], value = "15.6k" }
+E11 = { kind = "vcvs", nodes = ["y9", "gnd"], gain = -418, control = ["x8", "gnd"] }
+C12 = { kind = "capacitor", nodes = ["x8", "y9"], value = "57.2n" }
+R13 = { kind = "resistor", nodes = ["y9", "gnd"], value = "14.8k" }
+"""
+
+
+def test_a_weak_but_real_path_reaches_the_probe():
+    # the source path of C6 (44.8 ohm) reaches the Miller input x8 through R10, while the
+    # probe's sensitivity to the open switch's 169 kohm node is ~1e10 times larger; the
+    # reference: v(x8) from the step of V1 at 1 ms, by sympy (nodal equations written here)
+    n1, x8, y9 = sp.symbols("n1 x8 y9")
+    vin = 1 / s
+    eqs = [(n1 - vin) / sp.Rational(448, 10) + s * sp.Rational(128, 10**7) * (n1 - vin)
+           + (n1 - x8) / 15600,
+           (x8 - n1) / 15600 + s * sp.Rational(572, 10**10) * (x8 - y9),
+           y9 + 418 * x8]
+    den = sp.denom(sp.cancel(sp.together(_solve(eqs, [n1, x8, y9], x8))))
+    poles = [complex(p) for p in sp.Poly(den, s).nroots(n=30) if p != 0]   # 1/s: the step
+    assert all(abs(p.imag) < 1e-9 * abs(p) for p in poles) and len(poles) == 2
+    reference = sum(-1 / p.real for p in poles)
+    circuit = parse_circuit(MILLER_BESIDE_HIGH_OHMS)
+    probe = Probe("between", ("n3", "x8"))
+    exact = closedform.solve(circuit).dominant(probe, 1)
+    assert set(exact.terms) == {"C6", "C12"}
+    assert exact.tau == pytest.approx(reference, rel=1e-9)
+    assert numeric(circuit).dominant(probe, 1).tau == pytest.approx(reference,
+                                                                    rel=T.DOMINANT_ENGINE)

@@ -126,3 +126,16 @@ def test_the_numerical_engine_reports_its_own_order_and_modes_on_the_library():
         result = check_file(str(path))
         assert not any("order: the closed form sees" in m for c in result.checks
                        for m in c.messages), path
+
+
+@pytest.mark.parametrize("r", [19.2, 19.6])
+def test_overshoot_of_a_nearly_critical_ring_lies_beyond_ten_envelope_tau(r):
+    # ζ = 0.96 and 0.98: the overshoot's extremum at half a damped period is πζ/√(1 − ζ²)
+    # = 10.9 and 15.5 envelope time constants after the step, beyond a 10 τ span; reference:
+    # sympy's inverse Laplace transform at t = π/ω_d (and e^(−πζ/√(1 − ζ²)), textbook)
+    _, zeta, over = _sympy_reference(r)
+    assert over == pytest.approx(math.exp(-math.pi * zeta / math.sqrt(1 - zeta ** 2)), rel=1e-9)
+    circuit = parse_circuit(RLC.replace("RVALUE", repr(r)))
+    probe = Probe("node", ("b",))
+    assert closedform.solve(circuit).overshoot(probe, 0) == pytest.approx(over, rel=1e-6)
+    assert numeric(circuit).overshoot(probe, 0) == pytest.approx(over, rel=1e-3)

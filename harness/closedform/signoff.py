@@ -245,6 +245,17 @@ def _extrema(ex: ExpSum, grid: np.ndarray) -> list[tuple[float, float]]:
     return out
 
 
+def _ring_end(ex: ExpSum, end: float) -> float:
+    """The span an overshoot search must cover (s): ``end``, extended by one damped period
+    2π/ω_d of the slowest-oscillating pair.  A pair's tail A e^(−σu) cos(ω_d u + φ) passes its
+    final value once every half period, and the first such lobe of a nearly critical pair
+    (ζ = 0.96: at π/ω_d = πζ/√(1 − ζ²) = 10.9 envelope τ) lies beyond a 10 τ span."""
+    omegas = [abs(r.imag) / ex.t_ref for r in ex.rates if abs(r.imag) > 0]
+    if not omegas:
+        return end
+    return end + 2.0 * math.pi / min(omegas)
+
+
 def overshoot(ex: ExpSum, end: float, final: float | None) -> float | None:
     """How far y passes its final value, as a fraction of the step x_inf - x(0+): the largest
     sign (y - x_inf) / |x_inf - x(0+)| over the extrema (0 when it never passes), None without
@@ -254,7 +265,7 @@ def overshoot(ex: ExpSum, end: float, final: float | None) -> float | None:
     step = final - ex.after
     if not abs(step) > 1e-9 * max(abs(final), abs(ex.after)):
         return None
-    grid = np.concatenate([[0.0], ex.grid(end)])
+    grid = np.concatenate([[0.0], ex.grid(_ring_end(ex, end))])
     beyond = [math.copysign(1.0, step) * (v - final) for v, _ in _extrema(ex, grid)]
     return max([0.0] + beyond) / abs(step)
 
