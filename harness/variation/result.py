@@ -15,7 +15,7 @@ class SpreadResult:
     """One spec'd field of one expectation, over the parts' spreads.
 
     Values are in the field's unit (V, A, s or J); corners map each varied quantity's name to
-    its value there (its unit in ``units``).
+    its relative deviation from nominal there (-0.3 is 30 % below its value).
     """
 
     check: str                      # "expect #1: node rst at 0 s"
