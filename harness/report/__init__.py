@@ -106,18 +106,24 @@ def _draw_in_workers(items: list, jobs: int) -> list:
     return [done[i] for i in range(len(items))]
 
 
-def _with_spreads(run: RunResult, files: dict, pngs: dict, names: dict, with_plots: bool):
-    """Add the spec samples' CSV and each spec'd field's histogram (``report.spreads``)."""
+def _spec_histograms(run: RunResult, with_plots: bool) -> dict:
+    """(file index, field index) -> each spec'd field's histogram PNG (``report.spreads``)."""
+    if not with_plots:
+        return {}
+    drawn = {(i, j): spreads.histogram(s) for i, f in enumerate(run.files)
+             for j, s in enumerate(f.spreads)}
+    return {key: png for key, png in drawn.items() if png}
+
+
+def _with_spreads(run: RunResult, files: dict, pngs: dict, names: dict, histograms: dict):
+    """Add the spec samples' CSV and each spec'd field's histogram to the set."""
     if not any(f.spreads for f in run.files):
         return pngs, names
     files[spreads.SAMPLES_CSV] = spreads.samples_csv(run).encode("utf-8")
     pngs, names = dict(pngs), dict(names)
-    for i, f in enumerate(run.files):
-        for j, s in enumerate(f.spreads):
-            drawn = spreads.histogram(s) if with_plots else None
-            if drawn:
-                pngs[("spec", i, j)] = drawn
-                names[("spec", i, j)] = f"{i + 1:03d}-spec-s{j + 1}.png"
+    for (i, j), png in histograms.items():
+        pngs[("spec", i, j)] = png
+        names[("spec", i, j)] = f"{i + 1:03d}-spec-s{j + 1}.png"
     return pngs, names
 
 
@@ -153,13 +159,14 @@ def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
     # every serializer runs before any file is touched: if one raises, the old report stays whole
     spec_links = {(f.file, j): f"{PLOT_DIR}/{i + 1:03d}-spec-s{j + 1}.png"
                   for i, f in enumerate(run.files) for j, _ in enumerate(f.spreads)}
+    histograms = _spec_histograms(run, with_plots)
     texts = {"report.html": html.render(run, pngs, provenance).replace(
-                 "</main>", spreads.html(run) + "</main>", 1),
+                 "</main>", spreads.html(run, histograms) + "</main>", 1),
              "report.md": markdown.render(run, links, provenance) + "\n".join(
                  spreads.markdown(run, spec_links if with_plots else {})),
              "summary.csv": csvout.render(run), "results.json": jsonout.render(run),
              "junit.xml": junit.render(run)}
     files = {name: texts[name].encode("utf-8") for name in REPORT_FILES}
-    pngs, names = _with_spreads(run, files, pngs, names, with_plots)
+    pngs, names = _with_spreads(run, files, pngs, names, histograms)
     return publish(folder, files, {names[key]: png for key, png in pngs.items()}, PLOT_DIR,
                    _PLOT_NAME)

@@ -4,9 +4,9 @@ the limits marked) and the samples as CSV."""
 
 from __future__ import annotations
 
+import base64
 import csv
 import io
-from html import escape
 
 import numpy as np
 
@@ -73,11 +73,39 @@ def markdown(run: RunResult, plots: dict) -> list[str]:
     return out
 
 
-def html(run: RunResult) -> str:
-    """The Markdown section as preformatted HTML (no script; the page's policy holds)."""
-    text = "\n".join(markdown(run, {}))
-    return f'<section id="spec"><h2>Spec limits over tolerances</h2><pre>{escape(text)}</pre>' \
-           "</section>" if text else ""
+def html(run: RunResult, histograms: dict | None = None) -> str:
+    """A section per spec'd field: its summary, the ranked sensitivities with the corners, the
+    Monte Carlo line and its histogram (``histograms``: (file index, field index) -> PNG,
+    embedded as a data-URI image: the page's policy allows no other source)."""
+    from .html import embedded, esc
+    histograms = histograms or {}
+    parts = []
+    for i, f in enumerate(run.files):
+        for j, s in enumerate(f.spreads):
+            text = markdown(_one(run, f, s), {})
+            lines = [ln for ln in text if ln and not ln.startswith("|")]
+            rows = "".join("<tr>" + "".join(f"<td>{esc(c)}</td>" for c in r) + "</tr>"
+                           for r in _rows(s))
+            body = [f"<h3>{esc(lines[0].lstrip('# '))}</h3>"]
+            body += [f"<p>{esc(ln.lstrip('- ').replace('**', ''))}</p>" for ln in lines[1:]]
+            body.append("<table><tr><th>quantity</th><th>sensitivity ∂x/∂p·p/x</th>"
+                        f"<th>at min</th><th>at max</th></tr>{rows}</table>")
+            png = histograms.get((i, j))
+            if png:
+                data = base64.b64encode(embedded(png)).decode("ascii")
+                body.append(f'<div class="plot"><img src="data:image/png;base64,{data}" '
+                            f'alt="{esc("histogram of " + s.name)}"></div>')
+            parts.append("".join(body))
+    if not parts:
+        return ""
+    return ('<section id="spec"><h2>Spec limits over tolerances</h2>' + "".join(parts)
+            + "</section>")
+
+
+def _one(run: RunResult, file, spread) -> RunResult:
+    """A run holding only ``file`` with only ``spread``, for one field's Markdown lines."""
+    from dataclasses import replace
+    return RunResult(files=(replace(file, spreads=(spread,)),))
 
 
 def samples_csv(run: RunResult) -> str:
