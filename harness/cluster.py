@@ -182,6 +182,7 @@ def _gather(client, files: list[str], options: RunOptions, missing: list[FileRes
             if not batch:
                 _expire(client, running, done, files, limit, bar)
                 time.sleep(_POLL)
+        _second_chance(client, files, done, options, work)
     except (KeyboardInterrupt, Interrupted) as stop:
         client.cancel(list(running), force=True)
         signum = getattr(stop, "signum", 2)
@@ -192,17 +193,39 @@ def _gather(client, files: list[str], options: RunOptions, missing: list[FileRes
     return [done[i] for i in range(len(files))]
 
 
+def _second_chance(client, files: list[str], done: dict, options: RunOptions,
+                   work: Callable) -> None:
+    """Run again, one at a time, every file whose worker died or whose task the cluster lost:
+    a dying worker also takes the files it held beside the one that killed it, and a file run
+    alone can only die of itself.  Its new result replaces the error; a file that fails again
+    keeps it."""
+    from distributed import wait
+    for i in [i for i, r in sorted(done.items())
+              if r.errors and (_DIED in r.errors[0] or _LOST in r.errors[0])]:
+        future = client.submit(work, files[i], options.numeric, options.tolerance, pure=False)
+        wait([future], timeout=options.timeout)
+        if future.status == "finished":
+            done[i] = future.result()
+        else:
+            client.cancel([future], force=True)
+
+
+#: the words of a file result whose worker died, or whose task the cluster lost (``_outcome``):
+#: ``check_file`` never raises, so a task without a result always means cluster trouble
+_DIED = "the worker process analysing this file died"
+_LOST = "the cluster could not analyse this file"
+
+
 def _outcome(future, file: str) -> FileResult:
     """The result of a finished future, or an ``error`` result naming why it has none."""
     if future.status == "finished":
         return future.result()
     err = future.exception()
     if type(err).__name__ == "KilledWorker":
-        return _error_result(file, f"{file}: the worker process analysing this file died "
+        return _error_result(file, f"{file}: {_DIED} "
                                    f"each time the cluster tried it ({err}); the file's result "
                                    f"is lost (the other files are not affected)")
-    return _error_result(file, f"{file}: the cluster could not analyse this file: "
-                               f"{type(err).__name__}: {err}")
+    return _error_result(file, f"{file}: {_LOST}: {type(err).__name__}: {err}")
 
 
 def _expire(client, running: dict, done: dict, files: list[str], limit: float | None,
