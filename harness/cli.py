@@ -131,8 +131,6 @@ def _positive(text: str) -> int:
 
 #: exit code for a run stopped by a signal: 128 + the signal number (common practice)
 EXIT_SIGNAL_BASE = 128
-#: exit code when the reports could not be written
-EXIT_REPORTS = 2
 #: exit code for unusable project settings or no circuit files to check
 EXIT_USAGE = 2
 

@@ -19,7 +19,7 @@ from .compare_signoff import (dominant_json, engine_message, hand_relative, sign
                               withheld)
 from .diagnose import explain
 from .findings import findings
-from .model import FIELDS, Circuit, Expectation, Probe, NODE, BETWEEN, ACROSS
+from .model import ACROSS, BETWEEN, FIELDS, NODE, RESISTOR, THROUGH, Circuit, Expectation, Probe
 from .outcome import (ENGINES_DISAGREE, FINDING, MISMATCH, PASS, CheckResult, FieldResult,
                       FileResult, Trace, worst)
 from .results import Features, Solution
@@ -229,8 +229,8 @@ def _kind_scale(circuit: Circuit, probe: Probe) -> float:
     current times the largest resistance) for a voltage, V_s / R_min + I_s for a current."""
     from .compare_signoff import _source_magnitudes
     v_s, i_s = _source_magnitudes(circuit)
-    res = [abs(p.value) for p in circuit.parts if p.kind == "resistor" and p.value]
-    if probe.kind == "through":
+    res = [abs(p.value) for p in circuit.parts if p.kind == RESISTOR and p.value]
+    if probe.kind == THROUGH:
         return v_s / min(res, default=1.0) + i_s
     return max(v_s, i_s * max(res, default=1.0))
 

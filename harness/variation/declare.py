@@ -35,15 +35,6 @@ MAX_SAMPLES = 1_000_000
 _PAIR = re.compile(r"^\s*([+-−]?[^/]+?)\s*/\s*([+-]?[^/]+?)\s*$")
 
 
-def spread_error(raw: object) -> str | None:
-    """None when ``raw`` reads as a spread, else the reason."""
-    try:
-        parse_spread(raw)
-    except (ValueError, UnitError) as exc:
-        return str(exc)
-    return None
-
-
 def parse_spread(raw: object) -> tuple[float, float]:
     """``"1%"``, ``"±1 %"``, ``0.01``, ``"-20%/+80%"`` or an IEC 60062 letter -> relative
     (low, high), low ≤ 0 ≤ high, low > -1.
