@@ -203,7 +203,8 @@ def _second_chance(client, files: list[str], done: dict, options: RunOptions,
     for i in [i for i, r in sorted(done.items())
               if r.errors and (_DIED in r.errors[0] or _LOST in r.errors[0])]:
         future = client.submit(work, files[i], options.numeric, options.tolerance, pure=False)
-        wait([future], timeout=options.timeout)
+        with contextlib.suppress(TimeoutError):     # past the per-file limit: it keeps its error
+            wait([future], timeout=options.timeout)
         if future.status == "finished":
             done[i] = future.result()
         else:

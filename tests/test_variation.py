@@ -10,6 +10,7 @@ from scipy import integrate
 from harness import model as m
 from harness.circuitfile import parse_circuit
 from harness.errors import InputError
+from harness.outcome import MISMATCH
 from harness.variation import analyse, stats
 from harness.variation.declare import parse_spread
 
@@ -84,7 +85,7 @@ def test_yield_of_a_crossing_time_against_scipy():
     p, _ = integrate.quad(conditional, 0.95e3, 1.05e3, points=[1e3])
     low, high = s.monte_carlo["yield_95"]
     assert low <= p <= high
-    assert s.verdict == m.MISMATCH if hasattr(m, "MISMATCH") else s.verdict == "mismatch"
+    assert s.verdict == MISMATCH
 
 
 NONMONO = """
@@ -127,7 +128,8 @@ def test_a_field_that_turns_inside_the_box_is_found_at_its_interior_extreme():
 
 
 def test_wilson_interval():
-    # Wilson (1927): 0 of 10 -> (0, 0.2775)
+    # Wilson (1927) score interval, computed by hand from its formula with z = 1.96:
+    # 0 of 10 -> upper bound z²/(n + z²) = 3.8416/13.8416 = 0.27753
     assert stats.wilson(0, 10)[1] == pytest.approx(0.27753, abs=1e-4)
 
 
@@ -146,3 +148,6 @@ def test_extremes_bracket_every_sample(a, b, seed):
     for s in analyse.analyse_circuit(parse_circuit(text), numeric=False):
         finite = s.samples[np.isfinite(s.samples)]
         assert s.low <= finite.min() * (1 + 1e-12) and finite.max() <= s.high * (1 + 1e-12)
+        if s.name == "tau":    # and the extremes are the textbook worst case RC(1 ± a)(1 ± b)
+            assert s.low == pytest.approx(1e-3 * (1 - a) * (1 - b), rel=1e-9)
+            assert s.high == pytest.approx(1e-3 * (1 + a) * (1 + b), rel=1e-9)

@@ -33,7 +33,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.linalg as la
 
-from ..model import ACROSS, BETWEEN, CAPACITOR, CCCS, CURRENT_SOURCE, NODE, Probe
+from ..model import ACROSS, BETWEEN, CAPACITOR, CCCS, CURRENT_SOURCE, NODE, THROUGH, Probe
 from ..tolerances import MODE_MERGE, MODE_VISIBILITY
 from .probes import voltage_row
 from .regularise import PILOT_SPLIT
@@ -175,6 +175,9 @@ def visible(sol, probe: Probe, k: int, scale: float) -> Visible | None:
     with np.errstate(over="ignore", invalid="ignore"):
         alpha = (modes.um @ dev) / modes.norm * np.exp(-modes.lam * t0)
     gain = np.abs(ideal_row(sol, sol.systems[k], probe) @ modes.v)
+    part = None if probe.kind != THROUGH else sol.circuit.part(probe.targets[0])
+    if part is not None and part.kind == CAPACITOR:    # i = C dv/dt: each mode's C|lambda| v
+        gain = gain * abs(part.value) * np.abs(modes.lam)
     amp = gain * np.abs(alpha)
     decaying = np.isfinite(amp) & (modes.lam.real < -UNDAMPED * np.abs(modes.lam))
     thr = MODE_VISIBILITY * scale

@@ -155,6 +155,8 @@ def _field(circuit, exp, name, col, quantities, nominal, grad, pair, how, sample
         result["samples"] = samples[:, col][:KEEP]
         result["sample_deviations"] = kept
     verdict, messages = _verdict(result, limits, lo_val, hi_val, nominal, exp, circuit)
+    verdict, messages = _unestablished(result, pair is not None and m.EXTREMES in methods,
+                                       numeric, verdict, messages)
     return SpreadResult(verdict=verdict, messages=tuple(messages), **result)
 
 
@@ -175,25 +177,51 @@ def _verdict(result, limits: m.Limits, lo, hi, nominal, exp, circuit):
             verdicts.append(MISMATCH)
             messages.append(f"hand worst-case {word} {hand:.6g} {unit} but the computed "
                             f"{word} over the spreads is {value} {unit}")
-    values = [v for v in (lo, hi) if v is not None] or [nominal]
+    values = [v for v in (lo, hi) if v is not None]
+    if not values:             # no extremes asked for: the RSS bounds, else the nominal stand in
+        values = list(result.get("rss") or ()) or [nominal]
     breaks = any(not stats.inside(np.array([v]), limits)[0] for v in values)
     mc = result.get("monte_carlo")
-    if breaks:
-        if mc and mc["passed"] == mc["count"]:
-            verdicts.append(HOLDS_STATISTICALLY)
-            messages.append(f"an extreme is outside the limits, yet all {mc['count']} samples "
-                            f"are inside: the spec holds statistically only")
-        else:
-            verdicts.append(MISMATCH)
-            messages.append(_yield_text(mc) if mc else "outside the limits at an extreme")
+    samples_fail = bool(mc) and mc["passed"] < mc["count"]
+    if samples_fail:
+        verdicts.append(MISMATCH)
+        messages.append(_yield_text(mc, breaks))
+    elif breaks and mc:
+        verdicts.append(HOLDS_STATISTICALLY)
+        messages.append(f"an extreme is outside the limits, yet all {mc['count']} samples "
+                        f"are inside: the spec holds statistically only")
+    elif breaks:
+        verdicts.append(MISMATCH)
+        messages.append("outside the limits at an extreme")
     return worst(verdicts), messages
 
 
-def _yield_text(mc: dict) -> str:
+def _unestablished(result: dict, extremes: bool, numeric: bool, verdict: str,
+                   messages: list) -> tuple[str, list]:
+    """A value the analysis could not establish never leaves a pass: an extreme corner where
+    the field has no value (a crossing that never happens there) is a mismatch; an extreme the
+    numerical engine could not confirm is engines-disagree."""
+    verdicts, messages = [verdict], list(messages)
+    for which in ("low", "high"):
+        if extremes and result.get(which) is None:
+            verdicts.append(MISMATCH)
+            messages.append(f"the field has no value at the {which} corner of the spreads")
+        elif numeric and result.get(which) is not None and \
+                result.get(f"numeric_{which}") is None:
+            verdicts.append(ENGINES_DISAGREE)
+            messages.append(f"the numerical engine gives no value at the {which} corner: the "
+                            f"extreme is not cross-checked")
+    return worst(verdicts), messages
+
+
+def _yield_text(mc: dict, breaks: bool) -> str:
     low, high = mc["yield_95"]
-    return (f"outside the limits at an extreme; yield {100 * mc['yield']:.2f} % "
-            f"({mc['passed']} of {mc['count']} samples; Wilson 95 %: {100 * low:.2f}–"
-            f"{100 * high:.2f} %)")
+    missing = (f", {mc['without_value']} of them with no value" if mc["without_value"]
+               else "")
+    return (("outside the limits at an extreme; " if breaks else "")
+            + f"{mc['count'] - mc['passed']} samples outside the limits{missing}; yield "
+            f"{100 * mc['yield']:.2f} % ({mc['passed']} of {mc['count']} samples; Wilson 95 %: "
+            f"{100 * low:.2f}–{100 * high:.2f} %)")
 
 
 def _corner(quantities: tuple[Quantity, ...], corner: np.ndarray) -> dict:

@@ -165,6 +165,6 @@ def _limits(table: object, dimension: str, where: Where, path: tuple, label: str
         if low in values and high in values and not values[low] <= values[high]:
             raise where.error(f"{field}: {low.replace('_', '-')} is above "
                               f"{high.replace('_', '-')}", path=path, part=label, field=field)
-    if "min" not in values and "max" not in values and not values:
+    if "min" not in values and "max" not in values:
         raise where.error(f"{field} needs min or max", path=path, part=label, field=field)
     return m.Limits(**values)
