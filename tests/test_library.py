@@ -8,6 +8,7 @@ in its title; the check asserts the verdict and the diagnostic the report must g
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 import pytest
@@ -51,3 +52,29 @@ def test_review_packet_slip_is_diagnosed(name):
     messages = [f.message for c in result.checks for f in c.fields
                 if f.name == field and f.verdict == MISMATCH]
     assert messages and any(words in m for m in messages), messages
+
+
+def test_library_has_six_tolerance_sign_offs():
+    """At least six bundled circuits carry spreads and spec limits, and every one passes its
+    spec at the extremes (their verdicts are covered by test_library_file_passes)."""
+    spec = [p for p in LIBRARY if "spec = {" in p.read_text()]
+    assert len(spec) >= 6, spec
+    for path in spec:
+        spreads = check_file(str(path)).spreads
+        assert spreads and all(s.low is not None and s.high is not None for s in spreads)
+
+
+def test_review_packet_worst_corner_is_a_mismatch_that_passes_at_nominal():
+    """The reset delay inside its 80-110 ms window at nominal (93.16 ms: τ·ln(3.3/1.3), the
+    first-order formula) but outside it at the long corner: the report says so, with the
+    yield."""
+    limits = (80e-3, 110e-3)
+    result = check_file(str(ROOT / "review-packet" / "reset-delay-worst-corner.toml"))
+    assert result.verdict == MISMATCH
+    (s,) = result.spreads
+    assert limits[0] <= s.nominal <= limits[1]
+    assert s.nominal == pytest.approx(100e-3 * math.log(3.3 / 1.3), rel=1e-6)
+    # hand worst case of the long corner: 105 k · 1.2 µF · ln(3.3 / (3.3 − 2.06)), first order
+    assert s.high == pytest.approx(105e3 * 1.2e-6 * math.log(3.3 / (3.3 - 2.06)), rel=1e-6)
+    assert s.high > limits[1] and s.verdict == MISMATCH
+    assert any("outside the limits at an extreme" in m and "yield" in m for m in s.messages)

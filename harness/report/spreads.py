@@ -10,7 +10,7 @@ import io
 
 import numpy as np
 
-from ..outcome import RunResult
+from ..outcome import PASS, RunResult
 from ..safetext import printable
 from ..units import format_si
 
@@ -31,6 +31,8 @@ def line(s) -> str:
     if mc:
         lo, hi = mc["yield_95"]
         text += f", yield {100 * mc['yield']:.2f} % (95 %: {100 * lo:.2f}–{100 * hi:.2f} %)"
+    if s.verdict != PASS and s.messages:    # why it is not a pass, in the same line
+        text += " — " + "; ".join(s.messages)
     return printable(text)
 
 
