@@ -22,7 +22,7 @@ from .errors import InputError, UnitError
 from .fields import VALUE_DIMENSION, parse_parts
 from .filelines import Locator, Where, expect_label, name_problem, quoted_list, suggest
 from .units import check_magnitude, format_si, has_suffix
-from .variation.declare import read_spec, read_spread, read_variation
+from .variation.declare import check_drifts, read_spec, read_spread, read_variation
 
 #: upper limits a user can rely on (past them: an input error, not a hang)
 MAX_FILE_BYTES = 1_000_000
@@ -261,6 +261,7 @@ def _build(data: dict, where: Where, default_tolerance: float | None = None) -> 
                           field="ground")
     variation = read_variation(data["variation"], where) if "variation" in data \
         else m.Variation()
+    check_drifts(parts, variation, where)
     circuit = m.Circuit(title=title, parts=parts, ground=ground,
                         settings=_settings(data.get("settings", {}), where, default_tolerance),
                         source=where.source, variation=variation)

@@ -16,7 +16,7 @@ from . import model as m
 from .errors import InputError
 from .filelines import Where, name_problem, quoted_list, suggest
 from .plausible import implausible
-from .variation.declare import read_spread
+from .variation.declare import read_spread, read_tempco
 
 #: upper limits a user can rely on (past them: an input error, not a hang); measured in
 #: tests/benchmarks/RESULTS.md "Reliability": a 200-part RC ladder checked with both engines
@@ -27,11 +27,11 @@ MAX_STEPS = 2500
 
 _COMMON = ("kind", "nodes")
 FIELDS_BY_KIND: dict[str, tuple[str, ...]] = {
-    m.RESISTOR: ("value", "spread"),
-    m.CAPACITOR: ("value", "initial", "spread"),
-    m.INDUCTOR: ("value", "initial", "spread"),
-    m.VOLTAGE_SOURCE: ("value", "steps", "spread"),
-    m.CURRENT_SOURCE: ("value", "steps", "spread"),
+    m.RESISTOR: ("value", "spread", "tempco", "ageing"),
+    m.CAPACITOR: ("value", "initial", "spread", "tempco", "ageing"),
+    m.INDUCTOR: ("value", "initial", "spread", "tempco", "ageing"),
+    m.VOLTAGE_SOURCE: ("value", "steps", "spread", "tempco", "ageing"),
+    m.CURRENT_SOURCE: ("value", "steps", "spread", "tempco", "ageing"),
     m.SWITCH: ("state", "steps", "on-resistance", "off-resistance"),
     m.VCVS: ("gain", "value", "control"),
     m.VCCS: ("gain", "value", "control"),
@@ -61,6 +61,10 @@ FIELD_HELP = {
     "spread": "manufacturing tolerance of `value` for the sign-off over tolerances: \"1%\", "
               "\"-20%/+80%\" or an IEC 60062 letter (B 0.1 %, C 0.25 %, D 0.5 %, F 1 %, G 2 %, "
               "J 5 %, K 10 %, M 20 %); a source's steps spread with its value",
+    "tempco": "temperature coefficient of `value`: \"100 ppm/K\", \"-3930 ppm/K\" or a band "
+              "\"±30 ppm/K\"; over [variation] `temperature` it widens the spread (below)",
+    "ageing": "drift of `value` over life, written like `spread` (\"0.5%\", \"-10%/+0%\"); it "
+              "adds linearly to the spread",
     "control": "vcvs, vccs: [\"cp\", \"cn\"], the nodes whose voltage v(cp) − v(cn) it senses; "
                "ccvs, cccs: the name of the part whose current it senses (a "
                + ", ".join(m.CURRENT_SENSORS) + ")",
@@ -134,6 +138,10 @@ def _kind_of(name: str, spec: object, where: Where) -> dict:
         out["control"] = spec.get("control")
     if "spread" in spec:
         out["spread"] = read_spread(spec["spread"], where, path + ("spread",), name, "spread")
+    if "ageing" in spec:
+        out["ageing"] = read_spread(spec["ageing"], where, path + ("ageing",), name, "ageing")
+    if "tempco" in spec:
+        out["tempco"] = read_tempco(spec["tempco"], where, path + ("tempco",), name)
     return out
 
 

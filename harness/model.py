@@ -107,6 +107,11 @@ class Part:
     #: manufacturing spread of ``value`` as relative (low, high), e.g. (-0.2, 0.8) for
     #: "-20%/+80%"; None when the part is held at its nominal value (``harness.variation``)
     spread: tuple[float, float] | None = None
+    #: temperature coefficient band of ``value`` in 1/K as (low, high) (100 ppm/K is
+    #: (1e-4, 1e-4), ±30 ppm/K is (-3e-5, 3e-5)); None when not given
+    tempco: tuple[float, float] | None = None
+    #: relative ageing drift of ``value`` over life as (low, high), like ``spread``
+    ageing: tuple[float, float] | None = None
 
     @property
     def p(self) -> str:
@@ -291,6 +296,8 @@ class Variation:
         seed: the random generator's seed (runs are reproducible).
         distribution: ``uniform`` over each spread, or ``normal`` with the spread as k·σ.
         sigmas: k of the normal distribution (the spread edge is k standard deviations).
+        temperature: the operating range (min, max) in °C the parts' ``tempco`` spans, or
+            None; tempcos are referred to ``REFERENCE_TEMPERATURE``.
     """
 
     methods: tuple[str, ...] = METHODS
@@ -298,6 +305,12 @@ class Variation:
     seed: int = 1
     distribution: str = UNIFORM
     sigmas: float = 3.0
+    temperature: tuple[float, float] | None = None
+
+
+#: °C; the temperature at which a part's value and tolerance hold (data-sheet convention,
+#: common practice)
+REFERENCE_TEMPERATURE = 25.0
 
 
 @dataclass(frozen=True)

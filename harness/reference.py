@@ -101,7 +101,10 @@ def _variation() -> list[str]:
            "hold at the extremes, `holds-statistically` when an extreme breaks them but no "
            "sample does, `mismatch` when samples break them (the yield is given) or a hand "
            "worst case differs from the computed extreme, `engines-disagree` when the "
-           "numerical engine differs at a corner.", ""]
+           "numerical engine differs at a corner. A part's `tempco` over `temperature` "
+           "(referred to 25 °C) and its `ageing` add linearly to its spread: the box edge is "
+           "spread + tempco·(T − 25 °C) at the worse end of the range + ageing, each part "
+           "taken at its own worse temperature (conservative: the board shares one).", ""]
     return out + _table(("key", "meaning"),
                         [(f"`{k}`", vd.VARIATION_HELP[k]) for k in vd.VARIATION_KEYS])
 

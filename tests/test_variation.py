@@ -151,3 +151,51 @@ def test_extremes_bracket_every_sample(a, b, seed):
         if s.name == "tau":    # and the extremes are the textbook worst case RC(1 ± a)(1 ± b)
             assert s.low == pytest.approx(1e-3 * (1 - a) * (1 - b), rel=1e-9)
             assert s.high == pytest.approx(1e-3 * (1 + a) * (1 + b), rel=1e-9)
+
+
+DRIFT = """
+[variation]
+samples = 400
+temperature = ["-40 °C", "85 °C"]
+[parts]
+V1 = { kind = "voltage-source", nodes = ["a", "gnd"], value = "0 V", steps = [["0 s", "1 V"]] }
+R1 = { kind = "resistor", nodes = ["a", "b"], value = "1k", spread = "F", tempco = "100 ppm/K", ageing = "0.5%" }
+C1 = { kind = "capacitor", nodes = ["b", "gnd"], value = "1u", spread = "K", tempco = "±30 ppm/K" }
+[[expect]]
+node = "b"
+spec = { tau = { max = "2 ms" } }
+"""
+
+
+def test_tempco_and_ageing_widen_the_box_linearly():
+    """Hand-derived end-of-life box (tolerance + tempco·(T − 25 °C) + ageing, summed edge by
+    edge; the linear stacking of worst-case circuit analysis, common practice): R1 ±1 %
+    (IEC 60062 F), 100 ppm/K over −40…85 °C is −0.65 %…+0.60 %, ageing ±0.5 % -> −2.15 %…+2.10 %;
+    C1 ±10 % (K), ±30 ppm/K -> ±0.195 %.  τ's worst case is then RC(1 ± a)(1 ± b) (exact for a
+    product) with those edges."""
+    (s,) = analyse.analyse_circuit(parse_circuit(DRIFT), numeric=False)
+    assert s.low_corner == pytest.approx({"R1": -0.0215, "C1": -0.10195}, rel=1e-12)
+    assert s.high_corner == pytest.approx({"R1": 0.0210, "C1": 0.10195}, rel=1e-12)
+    assert s.low == pytest.approx(1e-3 * (1 - 0.0215) * (1 - 0.10195), rel=1e-9)
+    assert s.high == pytest.approx(1e-3 * (1 + 0.0210) * (1 + 0.10195), rel=1e-9)
+    finite = s.samples[np.isfinite(s.samples)]
+    assert s.low <= finite.min() and finite.max() <= s.high
+
+
+def test_tempco_forms():
+    # 1 ppm = 1e-6 (SI brochure); a ± band is symmetric, a signed value is one-sided
+    from harness.variation.declare import parse_tempco
+    assert parse_tempco("3930 ppm/K") == pytest.approx((3.93e-3, 3.93e-3))
+    assert parse_tempco("±30 ppm/°C") == pytest.approx((-3e-5, 3e-5))
+    assert parse_tempco(-150) == pytest.approx((-1.5e-4, -1.5e-4))
+    with pytest.raises(ValueError):
+        parse_tempco("15%")
+
+
+def test_temperature_range_off_the_reference_shifts_the_box():
+    """A range that does not hold 25 °C (a hot enclosure, 40…70 °C) moves the box off nominal:
+    100 ppm/K gives +0.15 %…+0.45 % on top of the tolerance (hand arithmetic)."""
+    text = DRIFT.replace('["-40 °C", "85 °C"]', "[40, 70]")
+    (s,) = analyse.analyse_circuit(parse_circuit(text), numeric=False)
+    assert s.low_corner["R1"] == pytest.approx(-0.01 + 0.0015 - 0.005, rel=1e-12)
+    assert s.high_corner["R1"] == pytest.approx(0.01 + 0.0045 + 0.005, rel=1e-12)

@@ -4,6 +4,14 @@ A part's (or a crossing level's) ``spread``, the ``[variation]`` table and an ex
 ``spec`` limits.  Only the reader calls this module; it knows the model, the units and the file
 locations, nothing of the engines.
 
+A part's ``tempco`` over the file's ``temperature`` range and its ``ageing`` drift fold into its
+spread (``box``): the relative deviations add linearly, the end-of-life tolerance of worst-case
+circuit analysis (initial tolerance + temperature drift + ageing; common practice).  The
+temperature drift spans tc·(T − 25 °C) over the range for every tc of the tempco band.  Each
+part's drift is taken on its own edge, as if each part could sit at its own temperature: the
+board shares one temperature, so this box is conservative (it contains every common-temperature
+point).  Monte Carlo draws over the same box.
+
 Spread letters follow IEC 60062:2016 ("Marking codes for resistors and capacitors", Table 5,
 tolerance letter codes): B 0.1 %, C 0.25 %, D 0.5 %, F 1 %, G 2 %, J 5 %, K 10 %, M 20 %.
 """
@@ -21,7 +29,7 @@ IEC_LETTERS = {"B": 0.001, "C": 0.0025, "D": 0.005, "F": 0.01, "G": 0.02, "J": 0
                "K": 0.10, "M": 0.20}
 #: the part kinds whose value may spread
 SPREAD_KINDS = (m.RESISTOR, m.CAPACITOR, m.INDUCTOR, m.VOLTAGE_SOURCE, m.CURRENT_SOURCE)
-VARIATION_KEYS = ("methods", "samples", "seed", "distribution", "sigmas")
+VARIATION_KEYS = ("methods", "samples", "seed", "distribution", "sigmas", "temperature")
 VARIATION_HELP = {
     "methods": f"list of {quoted_list(m.METHODS)} (default all three)",
     "samples": "Monte Carlo sample count, 10 to 1,000,000 (default 2000)",
@@ -29,7 +37,14 @@ VARIATION_HELP = {
     "distribution": "\"uniform\" over each spread (default) or \"normal\" with the spread edge at "
                     "`sigmas` standard deviations",
     "sigmas": "k of the normal distribution: the spread is k·σ (default 3)",
+    "temperature": "[min, max] operating range in °C (\"-40 °C\" or -40) over which each part's "
+                   "`tempco` widens its spread, referred to 25 °C",
 }
+#: |tempco| above this (1/K; 10 %/K) is surely a slip of units
+MAX_TEMPCO = 0.1
+_TEMPCO = re.compile(r"^\s*(±|\+/-)?\s*([+-]?[0-9.]+(?:e[+-]?[0-9]+)?)\s*"
+                     r"(ppm\s*/\s*(?:K|°C|C))?\s*$", re.IGNORECASE)
+_CELSIUS = re.compile(r"^\s*([+-−]?[0-9.]+)\s*(?:°\s*C|C)?\s*$")
 LIMIT_KEYS = ("min", "max", "hand-min", "hand-max")
 MAX_SAMPLES = 1_000_000
 _PAIR = re.compile(r"^\s*([+-−]?[^/]+?)\s*/\s*([+-]?[^/]+?)\s*$")
@@ -87,6 +102,66 @@ def read_spread(raw: object, where: Where, path: tuple, part: str, field: str):
         raise where.error(str(exc), path=path, part=part, field=field) from None
 
 
+def parse_tempco(raw: object) -> tuple[float, float]:
+    """``"100 ppm/K"``, ``"-3930 ppm/K"``, ``"±30 ppm/K"`` or a number of ppm/K -> the band
+    (low, high) in 1/K.
+
+    Raises:
+        ValueError: saying what is accepted.
+    """
+    text = str(raw) if isinstance(raw, (int, float)) and not isinstance(raw, bool) else raw
+    match = _TEMPCO.match(text) if isinstance(text, str) else None
+    try:
+        value = float(match.group(2)) * 1e-6 if match else None
+    except ValueError:
+        value = None
+    if value is None or not value == value or abs(value) > MAX_TEMPCO:
+        raise ValueError(f"a tempco is \"100 ppm/K\", \"-3930 ppm/K\" or \"±30 ppm/K\" "
+                         f"(at most {MAX_TEMPCO * 1e6:,.0f} ppm/K), got {raw!r}")
+    if match.group(1):
+        return (-abs(value), abs(value))
+    return (value, value)
+
+
+def read_tempco(raw: object, where: Where, path: tuple, part: str) -> tuple[float, float]:
+    """``parse_tempco`` with the error located in the file."""
+    try:
+        return parse_tempco(raw)
+    except ValueError as exc:
+        raise where.error(str(exc), path=path, part=part, field="tempco") from None
+
+
+def box(part: m.Part, variation: m.Variation) -> tuple[float, float] | None:
+    """The part's relative (low, high) deviations from its value: spread + tempco·(T − 25 °C)
+    over the temperature range + ageing, added edge by edge; None when nothing varies it."""
+    pieces = [part.spread, part.ageing]
+    if part.tempco is not None and variation.temperature is not None:
+        heat = [tc * (t - m.REFERENCE_TEMPERATURE) for tc in part.tempco
+                for t in variation.temperature]
+        pieces.append((min(heat), max(heat)))
+    pieces = [p for p in pieces if p is not None]
+    if not pieces:
+        return None
+    return (sum(p[0] for p in pieces), sum(p[1] for p in pieces))
+
+
+def check_drifts(parts: tuple[m.Part, ...], variation: m.Variation, where: Where) -> None:
+    """A tempco needs the file's temperature range; the folded box must keep the value above
+    zero."""
+    for part in parts:
+        path = ("parts", part.name)
+        if part.tempco is not None and variation.temperature is None:
+            raise where.error("a tempco needs the operating range: [variation] temperature = "
+                              "[\"-40 °C\", \"85 °C\"]", path=path + ("tempco",),
+                              part=part.name, field="tempco")
+        edges = box(part, variation)
+        if edges is not None and edges[0] <= -1:
+            field = "tempco" if part.tempco is not None else "ageing"
+            raise where.error(f"spread, temperature drift and ageing together reach "
+                              f"{100 * edges[0]:.1f} %: the value would reach zero",
+                              path=path + (field,), part=part.name, field=field)
+
+
 def read_variation(raw: object, where: Where) -> m.Variation:
     """The ``[variation]`` table (defaults for what it leaves out)."""
     path = ("variation",)
@@ -124,7 +199,26 @@ def read_variation(raw: object, where: Where) -> m.Variation:
             not 0.5 <= sigmas <= 10:
         raise fail("sigmas", f"sigmas must be a number from 0.5 to 10, got {sigmas!r}")
     return m.Variation(methods=tuple(dict.fromkeys(methods)), samples=samples, seed=seed,
-                       distribution=dist, sigmas=float(sigmas))
+                       distribution=dist, sigmas=float(sigmas),
+                       temperature=_temperature(raw, fail))
+
+
+def _temperature(raw: dict, fail) -> tuple[float, float] | None:
+    """``temperature = ["-40 °C", "85 °C"]`` (or numbers in °C) -> (min, max)."""
+    if "temperature" not in raw:
+        return None
+    value = raw["temperature"]
+    out = []
+    for item in value if isinstance(value, list) and len(value) == 2 else ():
+        text = str(item) if isinstance(item, (int, float)) and not isinstance(item, bool) \
+            else item
+        match = _CELSIUS.match(text) if isinstance(text, str) else None
+        if match:
+            out.append(float(match.group(1).replace("−", "-")))
+    if len(out) != 2 or not -273.15 < out[0] <= out[1] < 1000:
+        raise fail("temperature", f"temperature must be [min, max] in °C, min ≤ max, such as "
+                                  f"[\"-40 °C\", \"85 °C\"], got {value!r}")
+    return (out[0], out[1])
 
 
 def read_spec(raw: object, units: dict, where: Where, index: int, label: str) -> dict:

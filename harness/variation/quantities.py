@@ -1,7 +1,7 @@
 """What varies, and the circuit at given values of it.
 
 A varied quantity is a part's ``value`` (a source's steps scale with it) or a crossing's level.
-Its relative spread (low, high) spans the box the extremes are searched over; a sample is a
+Its relative box (low, high: the spread with the tempco and ageing folded in, ``declare.box``) spans the box the extremes are searched over; a sample is a
 vector of relative deviations d, the value being nominal·(1 + d).
 """
 
@@ -12,6 +12,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from .. import model as m
+from .declare import box
 
 
 @dataclass(frozen=True)
@@ -43,8 +44,9 @@ _UNITS = {m.RESISTOR: "Ω", m.CAPACITOR: "F", m.INDUCTOR: "H", m.VOLTAGE_SOURCE:
 
 def varied(circuit: m.Circuit, exp: m.Expectation) -> tuple[Quantity, ...]:
     """The parts with a spread, in file order, then the crossing level if it spreads."""
-    out = [Quantity(p.name, float(p.value), p.spread[0], p.spread[1], _UNITS.get(p.kind, ""))
-           for p in circuit.parts if p.spread is not None and p.value is not None]
+    boxes = {p.name: box(p, circuit.variation) for p in circuit.parts}
+    out = [Quantity(p.name, float(p.value), *boxes[p.name], _UNITS.get(p.kind, ""))
+           for p in circuit.parts if boxes[p.name] is not None and p.value is not None]
     cross = exp.crossing
     if cross is not None and cross.level_spread is not None:
         out.append(Quantity(LEVEL, cross.level, cross.level_spread[0], cross.level_spread[1],
@@ -70,7 +72,7 @@ def apply(circuit: m.Circuit, exp: m.Expectation, quantities: tuple[Quantity, ..
     parts = []
     for part in circuit.parts:
         f = factors.get(part.name)
-        if f is None or part.spread is None:
+        if f is None:
             parts.append(part)
             continue
         steps = tuple((t, v * f) for t, v in part.steps) if part.kind in m.SOURCES \
