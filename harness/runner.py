@@ -121,8 +121,9 @@ def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
     if numeric:
         from . import simulate
         sim = guard(simulate.solve(circuit), trust)
-    cautions = cautions_for(circuit, voltages=_node_voltages(circuit, exact),
-                            jumps=[exact.jump(k) for k in range(len(circuit.events))])
+    volts, jumps = _node_voltages(circuit, exact), [exact.jump(k) for k in
+                                                    range(len(circuit.events))]
+    cautions = cautions_for(circuit, voltages=volts, jumps=jumps)
     result = compare_file(circuit, exact, sim, cautions=cautions,
                           seconds=time.perf_counter() - started)
     if any(exp.spec for exp in circuit.expectations):
@@ -131,7 +132,11 @@ def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
         checks = tuple(replace(c, verdict=worst([c.verdict] + [
             s.verdict for s in spreads if s.check.startswith(f"expect #{c.index + 1}:")]))
             for c in result.checks)
-        result = replace(result, spreads=spreads, checks=checks,
+        corner = [v for s in spreads if s.unit == "V" for v in (s.low, s.high)]
+        if corner:   # the cautions again, with the worst-corner voltages the analysis found
+            cautions = cautions_for(circuit, voltages=volts, jumps=jumps,
+                                    corner_voltages=corner)
+        result = replace(result, spreads=spreads, checks=checks, cautions=cautions,
                          verdict=worst([result.verdict] + [s.verdict for s in spreads]),
                          seconds=time.perf_counter() - started)
     return _with_derivations(circuit, exact, result)

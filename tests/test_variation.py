@@ -199,3 +199,35 @@ def test_temperature_range_off_the_reference_shifts_the_box():
     (s,) = analyse.analyse_circuit(parse_circuit(text), numeric=False)
     assert s.low_corner["R1"] == pytest.approx(-0.01 + 0.0015 - 0.005, rel=1e-12)
     assert s.high_corner["R1"] == pytest.approx(0.01 + 0.0045 + 0.005, rel=1e-12)
+
+
+LINK = """
+[parts]
+V1 = {{ kind = "voltage-source", nodes = ["bus", "gnd"], value = "0 V", steps = [["0 s", "{volts}"]]{spread} }}
+R1 = {{ kind = "resistor", nodes = ["bus", "link"], value = "47" }}
+C1 = {{ kind = "capacitor", nodes = ["link", "gnd"], value = "{farads}"{cspread} }}
+"""
+
+
+def _cautions(volts, spread="", farads="1u", cspread=""):
+    from harness.report.cautions import cautions_for
+    return cautions_for(parse_circuit(LINK.format(volts=volts, spread=spread, farads=farads,
+                                                  cspread=cspread)))
+
+
+def test_cautions_are_judged_at_the_worst_corner():
+    """A 400 V link at +10 % is 440 V (hand arithmetic); 58 V is below the 60 V DC extra-low-
+    voltage limit (common practice) at nominal but 60.9 V at +5 %, so the note appears only
+    with the spread."""
+    assert "440 V" in _cautions("400 V", ', spread = "10%"')[0]
+    assert _cautions("58 V") == ()
+    hot = _cautions("58 V", ', spread = "5%"')
+    assert hot and "60.9 V" in hot[0] and "edge of its spread" in hot[0]
+
+
+def test_stored_energy_caution_at_the_worst_corner():
+    """½CV² (textbook) at the corner: 50 mF -20 %/+80 % at 12 V ±10 % holds at most
+    ½ · 90 mF · (13.2 V)² = 7.841 J, against 3.6 J at nominal."""
+    text = " ".join(_cautions("12 V", ', spread = "10%"', "50m", ', spread = "-20%/+80%"'))
+    assert "7.841 J" in text
+    assert "3.6 J" in " ".join(_cautions("12 V", farads="50m"))

@@ -11,14 +11,23 @@ Thresholds (both are common practice, not a ruling of any one standard):
 
 The note is generic: it lists the usual cautions and defers to local codes and licensed practice.
 It never says a circuit is safe.
+
+Where parts spread (``spread``, ``tempco``, ``ageing``: ``harness.variation.declare.box``) the
+note is judged at the worst corner, not at nominal: a 400 V source at +10 % is 440 V.  Source
+values and steps take their magnitude's high edge; a capacitor's or inductor's value its high
+edge for the ½CV² / ½LI² estimates.  Voltages and stored energies an engine computed at nominal
+are scaled by the largest source factor s (energies by s² and the part's own factor): exact when
+only sources spread, an estimate otherwise; the extremes of spec'd voltage fields
+(``corner_voltages``) are worst-corner values computed as such.
 """
 
 from __future__ import annotations
 
 from typing import Iterable, Mapping
 
-from ..model import CAPACITOR, CURRENT_SOURCE, INDUCTOR, VOLTAGE_SOURCE, Circuit
+from ..model import CAPACITOR, CURRENT_SOURCE, INDUCTOR, SOURCES, VOLTAGE_SOURCE, Circuit, Part
 from ..units import format_si
+from ..variation.declare import box
 
 #: volts; a circuit reaching more than this gets the note (common practice: 60 V DC)
 HAZARD_VOLTAGE = 60.0
@@ -31,25 +40,34 @@ DEFERRAL = ("These notes are general reminders, not a safety assessment: follow 
 
 
 def cautions_for(circuit: Circuit, *, voltages: Iterable[float] = (), jumps: Iterable = (),
-                 ) -> tuple[str, ...]:
+                 corner_voltages: Iterable[float] = ()) -> tuple[str, ...]:
     """The safety note for ``circuit``: an empty tuple, or the cautions as sentences.
 
     Args:
         circuit: the parsed circuit.  Its source values and steps and its capacitor initial
             voltages are the voltages it certainly reaches.
         voltages: computed voltages in V the caller knows (probe values from an engine, any
-            sign); they raise the highest voltage considered.
+            sign, at nominal values); they raise the highest voltage considered, scaled to the
+            worst corner where sources spread.
         jumps: ``harness.results.Jump`` objects (or objects with ``stored_before``,
             ``stored_after`` and ``energy``); their stored energies replace the estimate below
             for the parts they name, and their dissipated energies are quoted for pulse ratings.
+        corner_voltages: voltages in V already computed at worst corners (the extremes of
+            spec'd voltage fields), taken as they are.
 
     Without computed energies a capacitor's energy is estimated as ½·C·V² at the higher of its
     initial voltage and the circuit's highest voltage (an upper estimate), and an inductor's as
     ½·L·I² at the higher of its initial current and the largest current-source magnitude.
     """
     jumps = tuple(jumps)
-    peak, where = _highest_voltage(circuit, voltages)
-    stored = _stored_energies(circuit, peak, jumps)
+    scale = max([factor(circuit, p) for p in circuit.parts if p.kind in SOURCES] + [1.0])
+    peak, where = _highest_voltage(circuit, [v * scale for v in voltages if v is not None],
+                                   "a computed probe value" if scale == 1.0 else
+                                   "a computed probe value scaled to the sources' worst corner")
+    for value in corner_voltages:
+        if value is not None and abs(value) > peak and abs(value) != float("inf"):
+            peak, where = abs(value), "a spec'd value at an extreme corner of the spreads"
+    stored = _stored_energies(circuit, peak, jumps, scale)
     hot = {name: (joules, how) for name, (joules, how) in stored.items() if joules > HAZARD_ENERGY}
     cut = [j for j in jumps if getattr(j, "forced", None) and getattr(j, "opened", ())]
     if peak <= HAZARD_VOLTAGE and not hot and not cut:
@@ -83,47 +101,67 @@ def cautions_for(circuit: Circuit, *, voltages: Iterable[float] = (), jumps: Ite
     return tuple(notes)
 
 
-def _highest_voltage(circuit: Circuit, voltages: Iterable[float]) -> tuple[float, str]:
-    """The highest voltage magnitude in V the circuit is known to reach, and where."""
+def factor(circuit: Circuit, part: Part) -> float:
+    """The factor on the magnitude of ``part``'s value at the high edge of its box (1 when it
+    does not spread)."""
+    edges = box(part, circuit.variation)
+    return 1.0 if edges is None else 1.0 + edges[1]
+
+
+def _highest_voltage(circuit: Circuit, voltages: Iterable[float],
+                     computed: str = "a computed probe value") -> tuple[float, str]:
+    """The highest voltage magnitude in V the circuit is known to reach, and where (a source
+    at the high edge of its spread)."""
     peak, where = 0.0, "nowhere"
     for part in circuit.parts:
         candidates: list[float] = []
+        scale = 1.0
         if part.kind == VOLTAGE_SOURCE:
-            candidates = [part.value or 0.0] + [v for _, v in part.steps]
+            scale = factor(circuit, part)
+            candidates = [scale * v for v in [part.value or 0.0] + [v for _, v in part.steps]]
         elif part.kind == CAPACITOR and part.initial is not None:
             candidates = [part.initial]
         for value in candidates:
             if abs(value) > peak:
-                peak, where = abs(value), f"{part.name}"
+                peak, where = abs(value), part.name if scale == 1.0 else \
+                    f"{part.name} at {100 * (scale - 1):+.3g} % of its value, the edge of its spread"
     for value in voltages:
         if value is not None and abs(value) > peak and abs(value) != float("inf"):
-            peak, where = abs(value), "a computed probe value"
+            peak, where = abs(value), computed
     return peak, where
 
 
-def _stored_energies(circuit: Circuit, peak: float, jumps: tuple) -> dict[str, tuple[float, str]]:
-    """Part name -> (energy in J, wording) for every capacitor and inductor."""
+def _stored_energies(circuit: Circuit, peak: float, jumps: tuple,
+                     scale: float = 1.0) -> dict[str, tuple[float, str]]:
+    """Part name -> (energy in J, wording) for every capacitor and inductor; ``scale`` is the
+    largest source factor at the worst corner (computed energies grow with its square)."""
     computed: dict[str, float] = {}
     for jump in jumps:
         for table in (getattr(jump, "stored_before", {}), getattr(jump, "stored_after", {})):
             for name, joules in _items(table):
                 computed[name] = max(computed.get(name, 0.0), abs(joules))
-    largest_current = max([abs(p.value or 0.0) for p in circuit.parts if p.kind == CURRENT_SOURCE]
-                          + [abs(v) for p in circuit.parts if p.kind == CURRENT_SOURCE
-                             for _, v in p.steps] + [0.0])
+    largest_current = max([factor(circuit, p) * abs(v) for p in circuit.parts
+                           if p.kind == CURRENT_SOURCE
+                           for v in [p.value or 0.0] + [v for _, v in p.steps]] + [0.0])
     out: dict[str, tuple[float, str]] = {}
     for part in circuit.parts:
-        if part.name in computed:
+        grow = factor(circuit, part) * scale ** 2
+        if part.name in computed and grow != 1.0:
+            joules = computed[part.name] * grow
+            out[part.name] = (joules, f"holds about {format_si(joules, 'J')} at an event at the "
+                                      f"worst corner of the spreads (computed at nominal: "
+                                      f"{format_si(computed[part.name], 'J')})")
+        elif part.name in computed:
             joules = computed[part.name]
             out[part.name] = (joules, f"holds {format_si(joules, 'J')} at an event (computed)")
         elif part.kind == CAPACITOR and part.value:
             volts = max(abs(part.initial or 0.0), peak)
-            joules = 0.5 * part.value * volts ** 2
+            joules = 0.5 * factor(circuit, part) * part.value * volts ** 2
             out[part.name] = (joules, f"can hold up to {format_si(joules, 'J')} "
                                       f"(½CV² at {format_si(volts, 'V')})")
         elif part.kind == INDUCTOR and part.value:
             amps = max(abs(part.initial or 0.0), largest_current)
-            joules = 0.5 * part.value * amps ** 2
+            joules = 0.5 * factor(circuit, part) * part.value * amps ** 2
             out[part.name] = (joules, f"can hold up to {format_si(joules, 'J')} "
                                       f"(½LI² at {format_si(amps, 'A')})")
     return out
