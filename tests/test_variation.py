@@ -231,3 +231,33 @@ def test_stored_energy_caution_at_the_worst_corner():
     text = " ".join(_cautions("12 V", ', spread = "10%"', "50m", ', spread = "-20%/+80%"'))
     assert "7.841 J" in text
     assert "3.6 J" in " ".join(_cautions("12 V", farads="50m"))
+
+
+def test_sample_ranges_are_independent_of_who_evaluates_them():
+    """Samples [i, j) evaluated apart are the rows of the whole run, and merging the streamed
+    summaries of two ranges gives the one-pass summary; mean and σ against numpy's two-pass
+    mean and std (ddof = 1) of the same values."""
+    from harness.variation import sampling
+    c = parse_circuit(RC.format(a="5%", b="10%", n=3 * sampling.CHUNK, dist="normal", cmax="1 s"))
+    (exp,) = c.expectations
+    dev, values, names, route = sampling.evaluate_range(c, exp, 0, 3 * sampling.CHUNK)
+    assert names == ("tau", "crossing") and route == "batched first order"
+    cut = sampling.CHUNK + 123                      # across a chunk boundary
+    dev_b, values_b, _, _ = sampling.evaluate_range(c, exp, cut, 3 * sampling.CHUNK)
+    np.testing.assert_array_equal(dev_b, dev[cut:])
+    np.testing.assert_array_equal(values_b, values[cut:])
+    limits = tuple(exp.spec[n] for n in names)
+    whole, first, second = (sampling.Accumulator(limits, 2, keep=10) for _ in range(3))
+    whole.add(dev, values)
+    first.add(dev[:cut], values[:cut])
+    second.add(dev_b, values_b)
+    first.merge(second)
+    for acc in (whole, first):
+        for col in range(2):
+            s = acc.summary(col)
+            assert s["mean"] == pytest.approx(values[:, col].mean(), rel=1e-12)
+            assert s["std"] == pytest.approx(values[:, col].std(ddof=1), rel=1e-9)
+            assert s["max"] == values[:, col].max() and s["count"] == len(values)
+            assert s["passed"] == int(stats.inside(values[:, col], limits[col]).sum())
+            assert s["percentiles_of"] == 10
+    assert first.samples()[0].shape == (10, 2)

@@ -1,7 +1,8 @@
 """Sign-off over tolerances of every spec'd field of a circuit.
 
 Per expectation with ``spec`` limits: the nominal value; normalised sensitivities by a central
-difference (relative step ``STEP``, error O(STEP²)); Monte Carlo in chunks of ``CHUNK`` samples;
+difference (relative step ``STEP``, error O(STEP²)); Monte Carlo streamed in chunks
+(``sampling``);
 the extremes over the box (``extremes.search``); root-sum-square bounds from the sensitivities
 (each quantity's deviation towards the side that raises, or lowers, the field); the numerical
 engine at each extreme corner; and the verdict.
@@ -20,12 +21,15 @@ from . import batch, fieldvalue, stats
 from .extremes import search
 from .quantities import Quantity, edges, varied
 from .result import HOLDS_STATISTICALLY, SpreadResult
+from .sampling import CHUNK, Accumulator, chunk_deviations
 from .verify import numeric_at
 
 STEP = 1e-4
-CHUNK = 4096
-#: samples kept for the reports' CSV and histograms
-KEEP = 100_000
+
+
+def spec_names(exp: m.Expectation) -> tuple[str, ...]:
+    """The spec'd fields of ``exp`` in ``model.SPEC_FIELDS`` order (the value columns)."""
+    return tuple(n for n in m.SPEC_FIELDS if n in exp.spec)
 
 
 def evaluator(circuit, exp, names, quantities):
@@ -69,19 +73,17 @@ def rss_bounds(nominal: float, gradient: np.ndarray, low, high) -> tuple[float, 
             nominal + math.sqrt(float((up ** 2).sum())))
 
 
-def monte_carlo(fn, low, high, variation: m.Variation, fields: int):
-    """All samples' values (S, F) and the first ``KEEP`` deviations, drawn and evaluated in
-    chunks of ``CHUNK`` (a fixed seed: the same file gives the same samples)."""
-    rng = np.random.default_rng(variation.seed)
-    values = np.empty((variation.samples, fields))
-    kept = []
+def monte_carlo(fn, low, high, variation: m.Variation, limits: tuple[m.Limits, ...],
+                keep: int | None = None) -> Accumulator:
+    """The samples drawn and evaluated chunk by chunk (``sampling``: a fixed seed gives the
+    same samples), summarised as they pass; ``keep`` overrides ``sampling.KEEP``."""
+    acc = Accumulator(limits, len(low)) if keep is None else \
+        Accumulator(limits, len(low), keep)
     for start in range(0, variation.samples, CHUNK):
-        count = min(CHUNK, variation.samples - start)
-        dev = stats.deviations(rng, low, high, count, variation)
-        values[start:start + count] = fn(dev)
-        if start < KEEP:
-            kept.append(dev[:KEEP - start])
-    return values, np.vstack(kept) if kept else np.zeros((0, len(low)))
+        dev = chunk_deviations(low, high, variation, start // CHUNK)
+        dev = dev[:variation.samples - start]
+        acc.add(dev, fn(dev))
+    return acc
 
 
 def analyse_circuit(circuit: m.Circuit, numeric: bool = True) -> tuple[SpreadResult, ...]:
@@ -95,28 +97,31 @@ def analyse_circuit(circuit: m.Circuit, numeric: bool = True) -> tuple[SpreadRes
 
 def analyse_expectation(circuit: m.Circuit, exp: m.Expectation, numeric: bool = True):
     """SpreadResults of the spec'd fields of one expectation."""
-    names = tuple(n for n in m.SPEC_FIELDS if n in exp.spec)
+    names = spec_names(exp)
     quantities = varied(circuit, exp)
     fn, route = evaluator(circuit, exp, names, quantities)
     low, high = edges(quantities)
     nominal = fn(np.zeros((1, len(quantities))))[0]
     grads = sensitivities(fn, nominal, len(quantities))
     methods = circuit.variation.methods
-    samples, kept = (None, None)
+    acc = None
+    extra = extra_values = None
     if m.MONTE_CARLO in methods and quantities:
-        samples, kept = monte_carlo(fn, low, high, circuit.variation, len(names))
-    found, how = search(fn, low, high, grads, kept, None if samples is None
-                        else samples[:len(kept)]) if quantities else ([], "")
+        acc = monte_carlo(fn, low, high, circuit.variation, tuple(exp.spec[n] for n in names))
+        kept_values, kept = acc.samples()
+        points, values = acc.extremes()
+        extra, extra_values = np.vstack([kept, points]), np.vstack([kept_values, values])
+    found, how = search(fn, low, high, grads, extra, extra_values) if quantities else ([], "")
     results = []
     for col, name in enumerate(names):
         pair = found[col] if found else None
         results.append(_field(circuit, exp, name, col, quantities, nominal[col], grads[col],
-                              pair, how, samples, kept, route, numeric, low, high, fn))
+                              pair, how, acc, route, numeric, low, high))
     return results
 
 
-def _field(circuit, exp, name, col, quantities, nominal, grad, pair, how, samples, kept,
-           route, numeric, low, high, fn) -> SpreadResult:
+def _field(circuit, exp, name, col, quantities, nominal, grad, pair, how, acc, route,
+           numeric, low, high) -> SpreadResult:
     limits = exp.spec[name]
     unit = {"tau": "s", "dominant_tau": "s", "crossing": "s", "energy": "J"}.get(
         name, exp.probe.dimension)
@@ -149,10 +154,10 @@ def _field(circuit, exp, name, col, quantities, nominal, grad, pair, how, sample
                                                        hi.corner)[0]))
     if m.RSS in methods and math.isfinite(nominal):
         result["rss"] = rss_bounds(nominal, grad, low, high)
-    if samples is not None:
-        summary = stats.summary(samples[:, col], limits)
-        result["monte_carlo"] = summary
-        result["samples"] = samples[:, col][:KEEP]
+    if acc is not None:
+        kept_values, kept = acc.samples()
+        result["monte_carlo"] = acc.summary(col)
+        result["samples"] = kept_values[:, col]
         result["sample_deviations"] = kept
     verdict, messages = _verdict(result, limits, lo_val, hi_val, nominal, exp, circuit)
     verdict, messages = _unestablished(result, pair is not None and m.EXTREMES in methods,

@@ -46,15 +46,14 @@ def inside(values: np.ndarray, limits: m.Limits) -> np.ndarray:
     return ok
 
 
-def summary(values: np.ndarray, limits: m.Limits) -> dict:
-    """Mean, σ, min, max, percentiles and yield (with its Wilson 95 % interval)."""
-    finite = values[np.isfinite(values)]
-    passed = int(inside(values, limits).sum())
-    out = {"count": int(values.size), "without_value": int(values.size - finite.size),
-           "passed": passed, "yield": passed / values.size if values.size else None,
-           "yield_95": list(wilson(passed, int(values.size)))}
-    if finite.size:
-        out.update(mean=float(finite.mean()), std=float(finite.std(ddof=1)) if finite.size > 1
-                   else 0.0, min=float(finite.min()), max=float(finite.max()),
-                   percentiles={f"{p:g}": float(np.percentile(finite, p)) for p in PERCENTILES})
-    return out
+def counts(count: int, finite: int, passed: int) -> dict:
+    """The sample count, how many have no value, how many pass, and the yield with its Wilson
+    95 % interval."""
+    return {"count": count, "without_value": count - finite, "passed": passed,
+            "yield": passed / count if count else None, "yield_95": list(wilson(passed, count))}
+
+
+def percentiles(finite: np.ndarray) -> dict:
+    """``PERCENTILES`` of finite values (linear interpolation, numpy's default)."""
+    return {f"{p:g}": float(np.percentile(finite, p)) for p in PERCENTILES} if finite.size \
+        else {}
