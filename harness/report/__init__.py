@@ -107,24 +107,33 @@ def _draw_in_workers(items: list, jobs: int) -> list:
 
 
 def _spec_histograms(run: RunResult, with_plots: bool) -> dict:
-    """(file index, field index) -> each spec'd field's histogram PNG (``report.spreads``)."""
+    """(file index, field index) -> each spec'd field's histogram PNG, and with
+    ``spreads.SENSITIVITY`` appended its sensitivity chart (``report.spreads``)."""
     if not with_plots:
         return {}
     drawn = {(i, j): spreads.histogram(s) for i, f in enumerate(run.files)
              for j, s in enumerate(f.spreads)}
+    drawn.update({(i, j, spreads.SENSITIVITY): spreads.sensitivity_chart(s)
+                  for i, f in enumerate(run.files) for j, s in enumerate(f.spreads)})
     return {key: png for key, png in drawn.items() if png}
 
 
 def _with_spreads(run: RunResult, files: dict, pngs: dict, names: dict, histograms: dict):
-    """Add the spec samples' CSV and each spec'd field's histogram to the set."""
+    """Add the spec samples' CSV and each spec'd field's histogram and sensitivity chart to
+    the set."""
     if not any(f.spreads for f in run.files):
         return pngs, names
     files[spreads.SAMPLES_CSV] = spreads.samples_csv(run).encode("utf-8")
     pngs, names = dict(pngs), dict(names)
-    for (i, j), png in histograms.items():
-        pngs[("spec", i, j)] = png
-        names[("spec", i, j)] = f"{i + 1:03d}-spec-s{j + 1}.png"
+    for key, png in histograms.items():
+        pngs[("spec",) + key] = png
+        names[("spec",) + key] = _spec_plot_name(*key)
     return pngs, names
+
+
+def _spec_plot_name(i: int, j: int, kind: str = "") -> str:
+    """``003-spec-s2.png`` (histogram), ``003-spec-sensitivity-s2.png`` (chart)."""
+    return f"{i + 1:03d}-spec{'-' + kind if kind else ''}-s{j + 1}.png"
 
 
 def plot_name(run: RunResult, key: tuple[int, int | str]) -> str:
@@ -157,9 +166,9 @@ def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
     names = {key: plot_name(run, key) for key in pngs}
     links = {key: f"{PLOT_DIR}/{name}" for key, name in names.items()}
     # every serializer runs before any file is touched: if one raises, the old report stays whole
-    spec_links = {(f.file, j): f"{PLOT_DIR}/{i + 1:03d}-spec-s{j + 1}.png"
-                  for i, f in enumerate(run.files) for j, _ in enumerate(f.spreads)}
     histograms = _spec_histograms(run, with_plots)
+    spec_links = {(run.files[key[0]].file,) + key[1:]: f"{PLOT_DIR}/{_spec_plot_name(*key)}"
+                  for key in histograms}
     texts = {"report.html": html.render(run, pngs, provenance).replace(
                  "</main>", spreads.html(run, histograms) + "</main>", 1),
              "report.md": markdown.render(run, links, provenance) + "\n".join(

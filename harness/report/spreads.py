@@ -1,6 +1,6 @@
 """The sign-off over tolerances in the reports: one console line per spec'd field, a Markdown
 / HTML section per field (corner table, ranked sensitivities, Monte Carlo summary, histogram with
-the limits marked) and the samples as CSV."""
+the limits marked, ranked sensitivity bar chart) and the samples as CSV."""
 
 from __future__ import annotations
 
@@ -15,6 +15,9 @@ from ..safetext import printable
 from ..units import format_si
 
 SAMPLES_CSV = "spec-samples.csv"
+#: the last element of a plot key that names a field's sensitivity chart (the histogram's key
+#: has none)
+SENSITIVITY = "sensitivity"
 
 
 def _v(value, unit) -> str:
@@ -69,16 +72,18 @@ def markdown(run: RunResult, plots: dict) -> list[str]:
                         f"σ {_v(mc['std'], s.unit)}, min {_v(mc['min'], s.unit)}, max "
                         f"{_v(mc['max'], s.unit)}, yield {100 * mc['yield']:.3f} % (Wilson 95 %"
                         f" {100 * mc['yield_95'][0]:.3f}–{100 * mc['yield_95'][1]:.3f} %)", ""]
-            key = (f.file, i)
-            if key in plots:
-                out += [f"![histogram of {s.name}]({plots[key]})", ""]
+            for key, what in (((f.file, i), "histogram"), ((f.file, i, SENSITIVITY),
+                                                            "sensitivities")):
+                if key in plots:
+                    out += [f"![{what} of {s.name}]({plots[key]})", ""]
     return out
 
 
 def html(run: RunResult, histograms: dict | None = None) -> str:
     """A section per spec'd field: its summary, the ranked sensitivities with the corners, the
-    Monte Carlo line and its histogram (``histograms``: (file index, field index) -> PNG,
-    embedded as a data-URI image: the page's policy allows no other source)."""
+    Monte Carlo line, its histogram and its sensitivity chart (``histograms``: (file index,
+    field index) -> histogram PNG, (file index, field index, SENSITIVITY) -> chart PNG,
+    embedded as data-URI images: the page's policy allows no other source)."""
     from .html import embedded, esc
     histograms = histograms or {}
     parts = []
@@ -92,11 +97,12 @@ def html(run: RunResult, histograms: dict | None = None) -> str:
             body += [f"<p>{esc(ln.lstrip('- ').replace('**', ''))}</p>" for ln in lines[1:]]
             body.append("<table><tr><th>quantity</th><th>sensitivity ∂x/∂p·p/x</th>"
                         f"<th>at min</th><th>at max</th></tr>{rows}</table>")
-            png = histograms.get((i, j))
-            if png:
-                data = base64.b64encode(embedded(png)).decode("ascii")
-                body.append(f'<div class="plot"><img src="data:image/png;base64,{data}" '
-                            f'alt="{esc("histogram of " + s.name)}"></div>')
+            for key, what in (((i, j), "histogram"), ((i, j, SENSITIVITY), "sensitivities")):
+                png = histograms.get(key)
+                if png:
+                    data = base64.b64encode(embedded(png)).decode("ascii")
+                    body.append(f'<div class="plot"><img src="data:image/png;base64,{data}" '
+                                f'alt="{esc(what + " of " + s.name)}"></div>')
             parts.append("".join(body))
     if not parts:
         return ""
@@ -144,3 +150,24 @@ def histogram(s) -> bytes | None:
     ax.set_xlabel(f"{s.name} ({s.unit})")
     ax.legend(fontsize=8)
     return png(fig, [ax], field=s.name)
+
+
+def sensitivity_chart(s) -> bytes | None:
+    """PNG: the normalised sensitivities ∂x/∂p·p/x as horizontal bars, largest on top (rise
+    blue, fall orange); the PNG text chunk carries the quantities and values in that order."""
+    from .plots import new_figure, png
+    ranked = [(q, x) for q, x in s.sensitivities if np.isfinite(x)]
+    if not ranked:
+        return None
+    fig, ax = new_figure()
+    names = [printable(q) for q, _ in ranked][::-1]
+    values = [x for _, x in ranked][::-1]
+    ax.barh(range(len(values)), values, color=["#3b75af" if x >= 0 else "#ef8636"
+                                               for x in values], label="∂x/∂p·p/x")
+    ax.set_yticks(range(len(values)), names)
+    ax.axvline(0.0, color="black", linewidth=0.8)
+    ax.set_xlabel(f"normalised sensitivity of {s.name}")
+    ax.set_title(printable(f"{s.check} — {s.name}"), fontsize=9)
+    fig.subplots_adjust(left=0.2)
+    return png(fig, [ax], field=s.name, quantities=[q for q, _ in ranked],
+               sensitivities=[x for _, x in ranked])

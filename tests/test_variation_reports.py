@@ -1,0 +1,67 @@
+"""The sign-off over tolerances in the report set: the histogram and the ranked sensitivity
+chart per spec'd field (in the HTML page and linked from Markdown), the samples as CSV, the
+console line.  Values checked against the first-order formula."""
+
+import csv
+import io
+import json
+import math
+from pathlib import Path
+
+import pytest
+from PIL import Image
+
+from harness.outcome import RunResult
+from harness.report import write_all
+from harness.report.spreads import console
+from harness.runner import check_file
+
+FILE = Path(__file__).resolve().parent.parent / "circuits" / "library" / "tolerance" / \
+    "reset-delay-spread.toml"
+
+
+@pytest.fixture(scope="module")
+def written(tmp_path_factory):
+    run = RunResult(files=(check_file(str(FILE), numeric=False),))
+    folder = tmp_path_factory.mktemp("reports")
+    write_all(run, folder)
+    return run, folder
+
+
+def _facts(path: Path) -> dict:
+    with Image.open(path) as image:
+        return json.loads(image.text["tauproof"])
+
+
+def test_sensitivity_chart_ranks_the_first_order_sensitivities(written):
+    """t = RC·ln(V/(V − L)) (first-order step response): ∂ln t/∂ln R = ∂ln t/∂ln C = 1 and
+    ∂ln t/∂ln L = −∂ln t/∂ln V = (L/(V − L))/ln(V/(V − L)) = 1.652 at V = 3.3 V, L = 2 V
+    (differentiated by hand); the chart lists them largest first."""
+    _, folder = written
+    facts = _facts(folder / "plots" / "001-spec-sensitivity-s2.png")      # the crossing
+    assert facts["field"] == "crossing"
+    x = (2.0 / 1.3) / math.log(3.3 / 1.3)
+    values = dict(zip(facts["quantities"], facts["sensitivities"]))
+    assert values == pytest.approx({"level": x, "V1": -x, "R1": 1.0, "C1": 1.0}, rel=1e-6)
+    assert [abs(v) for v in facts["sensitivities"]] == sorted(
+        (abs(v) for v in facts["sensitivities"]), reverse=True)
+    tau = _facts(folder / "plots" / "001-spec-sensitivity-s1.png")    # τ = R·C
+    assert dict(zip(tau["quantities"], tau["sensitivities"])) == pytest.approx(
+        {"R1": 1.0, "C1": 1.0, "V1": 0.0, "level": 0.0}, abs=1e-6)
+
+
+def test_html_and_markdown_carry_both_plots(written):
+    _, folder = written
+    page = (folder / "report.html").read_text()
+    assert page.count('alt="sensitivities of ') == 2 and page.count('alt="histogram of ') == 2
+    md = (folder / "report.md").read_text()
+    assert "(plots/001-spec-sensitivity-s2.png)" in md and "(plots/001-spec-s2.png)" in md
+
+
+def test_samples_csv_and_console_line(written):
+    run, folder = written
+    rows = list(csv.DictReader(io.StringIO((folder / "spec-samples.csv").read_text())))
+    assert len(rows) == 2 * 10000                       # [variation] samples, per spec'd field
+    assert {r["field"] for r in rows} == {"tau", "crossing"}
+    lines = console(run).splitlines()
+    assert len(lines) == 2 and all("nominal" in ln and "yield" in ln for ln in lines)
