@@ -25,7 +25,6 @@ import os
 for _name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ[_name] = "1"      # one core, before NumPy loads its BLAS
 
-import statistics  # noqa: E402
 import sys  # noqa: E402
 import time  # noqa: E402
 import tracemalloc  # noqa: E402
@@ -36,6 +35,8 @@ import numpy as np  # noqa: E402
 from harness.circuitfile import parse_circuit  # noqa: E402
 from harness.variation import analyse, batch, extremes, fieldvalue, sampling  # noqa: E402
 from harness.variation.quantities import edges, varied  # noqa: E402
+
+from .timing import median_time  # noqa: E402
 
 RESULTS = os.path.join(os.path.dirname(__file__), "RESULTS.md")
 
@@ -82,13 +83,8 @@ spec = { crossing = { max = "200 ms" } }
 
 
 def _best(fn, repeats: int = REPEATS) -> float:
-    """Median wall time (s) of ``fn()`` over ``repeats`` calls."""
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - start)
-    return statistics.median(times)
+    """Median wall time (s) of ``fn()`` over ``repeats`` calls (no warm-up run)."""
+    return median_time(fn, repeats, warmup=0)
 
 
 def _setup(text: str):
