@@ -28,6 +28,7 @@ from contextlib import contextmanager
 from dataclasses import dataclass, field
 
 from .. import model as m
+from .. import tolerances as tol
 
 #: relative agreement a formula must reach with the closed form to be shown as exact
 AGREE = 1e-9
@@ -156,6 +157,4 @@ def derive(circuit: m.Circuit, solution, indices=None,
 def agrees(a: float, b: float | None, scale: float) -> bool:
     """Whether a formula's value ``a`` equals the closed form's ``b`` (AGREE of the larger, or
     of the probe's scale for values near zero)."""
-    if b is None or not math.isfinite(a):
-        return False
-    return abs(a - b) <= AGREE * max(abs(a), abs(b), scale)
+    return b is not None and math.isfinite(a) and tol.agree(a, b, AGREE, AGREE * scale)
