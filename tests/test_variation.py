@@ -261,3 +261,57 @@ def test_sample_ranges_are_independent_of_who_evaluates_them():
             assert s["passed"] == int(stats.inside(values[:, col], limits[col]).sum())
             assert s["percentiles_of"] == 10
     assert first.samples()[0].shape == (10, 2)
+
+
+def test_monte_carlo_evaluated_in_pieces_gives_the_same_sign_off():
+    """Summaries of consecutive ranges, merged in order and handed to the analysis, give the
+    result of the one-piece run (count, yield, mean within rounding, the kept samples)."""
+    from harness.variation import sampling
+    c = parse_circuit(RC.format(a="5%", b="10%", n=9000, dist="uniform", cmax="0.7 ms"))
+    (exp,) = c.expectations
+    whole = analyse.analyse_expectation(c, exp, numeric=False)
+    acc = sampling.accumulate_range(c, exp, 0, 5000)
+    acc.merge(sampling.accumulate_range(c, exp, 5000, 9000))
+    pieces = analyse.analyse_expectation(c, exp, numeric=False, samples=acc)
+    for a, b in zip(whole, pieces):
+        assert a.verdict == b.verdict and (a.low, a.high) == (b.low, b.high)
+        assert a.monte_carlo["passed"] == b.monte_carlo["passed"]
+        assert a.monte_carlo["mean"] == pytest.approx(b.monte_carlo["mean"], rel=1e-12)
+        np.testing.assert_array_equal(a.samples, b.samples)
+
+
+LADDER = """
+[variation]
+samples = 70
+[parts]
+V1 = { kind = "voltage-source", nodes = ["a", "gnd"], value = "0 V", steps = [["0 s", "1 V"]] }
+R1 = { kind = "resistor", nodes = ["a", "b"], value = "1k", spread = "J" }
+C1 = { kind = "capacitor", nodes = ["b", "gnd"], value = "1u" }
+R2 = { kind = "resistor", nodes = ["b", "c"], value = "1k" }
+C2 = { kind = "capacitor", nodes = ["c", "gnd"], value = "1u" }
+R3 = { kind = "resistor", nodes = ["c", "gnd"], value = "2k", spread = "J" }
+[[expect]]
+node = "c"
+spec = { final = { min = "0.4 V", max = "0.6 V" } }
+"""
+
+
+def test_exact_engine_route_runs_a_bounded_reproducible_sample(monkeypatch):
+    """A second-order ladder is not for the batched route: the exact engine solves the first
+    EXACT_MAX_SAMPLES samples only, the report says so, and the same file gives the same
+    figures.  final = R3/(R1 + R2 + R3) (resistive divider, hand arithmetic) at the corners:
+    1.9k/(1.05k + 1k + 1.9k) … 2.1k/(0.95k + 1k + 2.1k)."""
+    monkeypatch.setattr(analyse, "EXACT_MAX_SAMPLES", 30)     # the mechanism, at a test's cost
+    c = parse_circuit(LADDER)
+    (s,) = analyse.analyse_circuit(c, numeric=False)
+    assert s.route == "exact engine per sample"
+    assert s.monte_carlo["count"] == 30
+    assert any("first 30 of the 70 samples" in m for m in s.messages)
+    assert s.low == pytest.approx(1.9 / 3.95, rel=1e-9)
+    assert s.high == pytest.approx(2.1 / 4.05, rel=1e-9)
+    (exp,) = c.expectations             # the same first samples again: reproducible
+    quantities = analyse.varied(c, exp)
+    fn, _ = analyse.evaluator(c, exp, ("final",), quantities)
+    low, high = analyse.edges(quantities)
+    again = analyse.monte_carlo(fn, low, high, c.variation, (exp.spec["final"],), most=30)
+    assert again.summary(0) == s.monte_carlo

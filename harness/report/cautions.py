@@ -124,7 +124,8 @@ def _highest_voltage(circuit: Circuit, voltages: Iterable[float],
         for value in candidates:
             if abs(value) > peak:
                 peak, where = abs(value), part.name if scale == 1.0 else \
-                    f"{part.name} at {100 * (scale - 1):+.3g} % of its value, the edge of its spread"
+                    f"{part.name} at {100 * (scale - 1):+.3g} % of its value, the edge of " \
+                    f"its spread"
     for value in voltages:
         if value is not None and abs(value) > peak and abs(value) != float("inf"):
             peak, where = abs(value), computed

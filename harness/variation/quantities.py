@@ -1,8 +1,9 @@
 """What varies, and the circuit at given values of it.
 
 A varied quantity is a part's ``value`` (a source's steps scale with it) or a crossing's level.
-Its relative box (low, high: the spread with the tempco and ageing folded in, ``declare.box``) spans the box the extremes are searched over; a sample is a
-vector of relative deviations d, the value being nominal·(1 + d).
+Its relative box (low, high: the spread with the tempco and ageing folded in, ``declare.box``)
+is what the extremes are searched over; a sample is a vector of relative deviations d, the value
+being nominal·(1 + d).
 """
 
 from __future__ import annotations

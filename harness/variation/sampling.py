@@ -58,6 +58,34 @@ def evaluate_range(circuit: m.Circuit, exp: m.Expectation, start: int, stop: int
     return dev, fn(dev), names, route
 
 
+def accumulate_range(circuit: m.Circuit, exp: m.Expectation, start: int, stop: int,
+                     keep: int = KEEP) -> "Accumulator":
+    """The streamed summary of samples [start, stop) of ``exp``'s spec'd fields, evaluated
+    chunk by chunk; merge the summaries of consecutive ranges in order (``merge``) and hand
+    the result to ``analyse.analyse_expectation(..., samples=)``."""
+    from .analyse import evaluator, spec_names
+    from .quantities import edges, varied
+    names = spec_names(exp)
+    quantities = varied(circuit, exp)
+    fn, _ = evaluator(circuit, exp, names, quantities)
+    low, high = edges(quantities)
+    acc = Accumulator(tuple(exp.spec[n] for n in names), len(quantities), keep)
+    for piece in _pieces(start, stop):
+        dev = deviations(low, high, circuit.variation, *piece)
+        acc.add(dev, fn(dev))
+    return acc
+
+
+def _pieces(start: int, stop: int) -> list[tuple[int, int]]:
+    """[start, stop) cut at the chunk boundaries."""
+    out, at = [], start
+    while at < stop:
+        end = min(stop, (at // CHUNK + 1) * CHUNK)
+        out.append((at, end))
+        at = end
+    return out
+
+
 class Accumulator:
     """Streaming summary of the samples of F fields (values in each field's unit)."""
 
