@@ -157,10 +157,13 @@ class Accumulator:
                 self.kept += take
 
     def samples(self) -> tuple[np.ndarray, np.ndarray]:
-        """The kept values (K, F) and deviations (K, n)."""
+        """The kept values (K, F) and deviations (K, n) (joined once, then shared)."""
         if not self.kept_values:
             return np.zeros((0, len(self.mean))), np.zeros((0, self.at_low.shape[1]))
-        return np.vstack(self.kept_values), np.vstack(self.kept_deviations)
+        if len(self.kept_values) > 1:
+            self.kept_values = [np.vstack(self.kept_values)]
+            self.kept_deviations = [np.vstack(self.kept_deviations)]
+        return self.kept_values[0], self.kept_deviations[0]
 
     def extremes(self) -> tuple[np.ndarray, np.ndarray]:
         """Every sample's min and max per field as points: deviations (2F, n), values (2F, F)
