@@ -19,6 +19,7 @@ from __future__ import annotations
 import math
 from typing import TYPE_CHECKING
 
+from ..messages import worded
 from ..outcome import ERROR, RunResult
 from . import common
 
@@ -34,6 +35,7 @@ TEXT_COLUMNS = _TEXT = ("file", "title", "probe", "direction", "modes", "field",
 
 def frame(run: RunResult) -> pd.DataFrame:
     """The summary as a DataFrame with ``COLUMNS``, one row per field."""
+    run = worded(run)
     rows = []
     for file in run.files:
         head = {"file": file.file, "title": file.title, "file_verdict": file.verdict}

@@ -17,6 +17,7 @@ import base64
 from html import escape as _escape
 from typing import Any, Mapping
 
+from ..messages import worded
 from ..outcome import PASS, CheckResult, FileResult, RunResult
 from . import common
 from .plot_schedule import SCHEDULE
@@ -81,6 +82,7 @@ def render(run: RunResult, plots: Mapping[tuple[int, int], bytes] | None = None,
     heads the page and gives each file's parts as written.  Files that need attention come
     first; passing files and checks are folded (``<details>``); a CSS-only filter by verdict
     (radio buttons, no script) sits above the files."""
+    run = worded(run)
     provenance = provenance or {}
     order = common.attention_order(run)
     plots = _within_budget(run, plots or {}, order)

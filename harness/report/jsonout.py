@@ -1,5 +1,6 @@
 """The one JSON writer: results.json and ``--json`` on stdout are the same bytes of
-``RunResult.to_json()`` (DESIGN.md contract).
+``RunResult.to_json()`` (DESIGN.md contract), every engine diagnostic written as its sentence
+(``harness.messages``).
 
 Strict JSON: non-finite floats (NaN, ±inf) become ``null`` and numpy scalars plain numbers, so
 every JSON parser reads it (``allow_nan=False`` makes a value that slipped through an error, not
@@ -15,7 +16,9 @@ from typing import Any
 
 import numpy as np
 
+from ..messages import text
 from ..outcome import RunResult
+from ..results import Diagnostic
 
 
 def document(run: RunResult) -> dict[str, Any]:
@@ -29,6 +32,8 @@ def render(run: RunResult) -> str:
 
 
 def _clean(obj: Any) -> Any:
+    if isinstance(obj, Diagnostic):            # a diagnostic is written as its sentence
+        return text(obj)
     if isinstance(obj, dict):
         return {str(k): _clean(v) for k, v in obj.items()}
     if isinstance(obj, (list, tuple)):

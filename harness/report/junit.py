@@ -17,6 +17,7 @@ from __future__ import annotations
 import re
 import xml.etree.ElementTree as ET
 
+from ..messages import worded
 from ..outcome import ERROR, PASS, CheckResult, FileResult, RunResult
 from . import common
 
@@ -29,6 +30,7 @@ def _x(text: str) -> str:
 
 def render(run: RunResult) -> str:
     """The XML text with declaration, UTF-8."""
+    run = worded(run)
     root = ET.Element("testsuites", name="tauproof")
     totals = {"tests": 0, "failures": 0, "errors": 0}
     for file in run.files:

@@ -15,6 +15,7 @@ from __future__ import annotations
 import re
 from typing import Any, Mapping
 
+from ..messages import worded
 from ..outcome import PASS, CheckResult, FileResult, RunResult
 from . import common
 from .plot_schedule import SCHEDULE
@@ -37,6 +38,7 @@ def render(run: RunResult, plots: Mapping[tuple[int, int], str] | None = None,
     whole-schedule plot; checks without one get no image.  ``provenance``
     (``provenance.collect``) heads the text and gives each file's SHA-256 and parts as written.
     Files that need attention come first."""
+    run = worded(run)
     plots, provenance = plots or {}, provenance or {}
     out = ["# tauproof discrepancy report", ""] + _provenance(provenance)
     out += [f"**{escape(common.summary_line(run))}**", ""]
