@@ -19,7 +19,8 @@ from typing import Any, Mapping
 
 from ..messages import worded
 from ..outcome import PASS, CheckResult, FileResult, RunResult
-from . import common
+from . import common, spreads
+from .context import ReportContext
 from .plot_schedule import SCHEDULE
 
 CSS = """
@@ -73,6 +74,16 @@ def esc(text: object) -> str:
 
 def badge(verdict: str) -> str:
     return f'<span class="v v-{esc(verdict)}">{esc(verdict)}</span>'
+
+
+#: the file this writer writes in the report folder (``harness.report.WRITERS``)
+FILE = "report.html"
+
+
+def write(run: RunResult, context: ReportContext) -> str:
+    """The page with its plots embedded and a section per spec'd field (``report.spreads``)."""
+    return render(run, context.plots, context.provenance).replace(
+        "</main>", spreads.html(run, context.histograms) + "</main>", 1)
 
 
 def render(run: RunResult, plots: Mapping[tuple[int, int], bytes] | None = None,

@@ -19,11 +19,21 @@ import numpy as np
 from ..messages import text
 from ..outcome import RunResult
 from ..results import Diagnostic
+from .context import ReportContext
 
 
 def document(run: RunResult) -> dict[str, Any]:
     """``run.to_json()`` with every value made strict-JSON safe."""
     return _clean(run.to_json())
+
+
+#: the file this writer writes in the report folder (``harness.report.WRITERS``)
+FILE = "results.json"
+
+
+def write(run: RunResult, context: ReportContext) -> str:
+    """The report file's text: the same bytes ``--json`` prints."""
+    return render(run)
 
 
 def render(run: RunResult) -> str:

@@ -17,7 +17,8 @@ from typing import Any, Mapping
 
 from ..messages import worded
 from ..outcome import PASS, CheckResult, FileResult, RunResult
-from . import common
+from . import common, spreads
+from .context import ReportContext
 from .plot_schedule import SCHEDULE
 
 #: punctuation that can start Markdown markup mid-line (GFM); text never starts a line here
@@ -29,6 +30,16 @@ def escape(text: str) -> str:
     text = common.printable(str(text)).replace("\r", " ").replace("\n", " ")
     text = text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
     return _SPECIAL.sub(r"\\\1", text)
+
+
+#: the file this writer writes in the report folder (``harness.report.WRITERS``)
+FILE = "report.md"
+
+
+def write(run: RunResult, context: ReportContext) -> str:
+    """The text with its plots linked and the spec'd fields' sections (``report.spreads``)."""
+    return render(run, context.links, context.provenance) + "\n".join(
+        spreads.markdown(run, context.spec_links))
 
 
 def render(run: RunResult, plots: Mapping[tuple[int, int], str] | None = None,
