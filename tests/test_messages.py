@@ -15,7 +15,9 @@ import pytest
 from harness import messages, results
 from harness.closedform import solve
 from harness.outcome import CheckResult, FileResult, RunResult
+from harness import report
 from harness.report import console, csvout, html, jsonout, junit, markdown
+from harness.report.context import ReportContext
 from harness.results import Diagnostic
 
 from closedform_circuits import C, L, R, S, V, circuit
@@ -100,6 +102,14 @@ def test_every_writer_shows_the_one_sentence():
     assert said in html.render(run) and noted in html.render(run)
     assert said in junit.render(run)
     assert "Diagnostic(" not in csvout.render(run)
+
+
+@pytest.mark.parametrize("writer", report.WRITERS, ids=lambda w: w.FILE)
+def test_no_registered_writer_prints_a_diagnostic_raw(writer):
+    """Every report-file writer (a new one too) renders diagnostics as sentences."""
+    run = _run(Diagnostic(results.STOPPED, 2e-3, 1, engine="numeric"),
+               Diagnostic(results.NO_DC_PATH))
+    assert "Diagnostic(" not in writer.write(run, ReportContext())
 
 
 def test_worded_leaves_plain_text_alone():
