@@ -321,8 +321,7 @@ def compare_file(circuit: Circuit, exact: Solution, numeric: Solution | None,
     checks = tuple(compare_check(circuit, exp, exact, numeric) for exp in circuit.expectations)
     warnings = list(circuit.warnings) + list(exact.warnings)
     if numeric is not None:
-        warnings += [f"numerical engine: {w}" for w in numeric.warnings
-                     if w not in exact.warnings]
+        warnings += [w for w in numeric.warnings if w not in exact.warnings]
     found = findings(circuit, exact, numeric)
     open_findings = [FINDING for f in found if not f.acknowledged]
     probes = list(dict.fromkeys(exp.probe for exp in circuit.expectations))

@@ -11,6 +11,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 from . import tolerances as tol
+from .messages import text
 from .model import CAPACITOR, INDUCTOR, Expectation
 from .results import Features
 from .units import format_apart, format_si
@@ -53,9 +54,10 @@ def _undefined(name: str, hand: float, fe: Features, ctx: "CheckContext") -> str
                     f"probe a quantity set by one storage part")
         return "no decaying mode is visible in this probe in this interval, so it has no τ"
     if name == "final":
-        notes = "; ".join(fe.notes + tuple(ctx.exact.warnings)) or "the response does not settle"
+        notes = "; ".join(map(text, fe.notes + tuple(ctx.exact.warnings))) \
+            or "the response does not settle"
         return f"there is no final value: {notes}"
-    return "the closed form has no value here: " + ("; ".join(fe.notes) or "undefined")
+    return "the closed form has no value here: " + ("; ".join(map(text, fe.notes)) or "undefined")
 
 
 def _sign_rule(name, hand, computed, fe, ctx, relative, floor) -> str:
@@ -76,7 +78,7 @@ def _jump_rule(name, hand, computed, fe, ctx, relative, floor) -> str:
     if not tol.agree(hand, fe.before, relative, floor):
         return ""
     jump = ctx.exact.jump(ctx.k)
-    why = "; ".join(jump.loops) or "impulsive current at the event"
+    why = "; ".join(map(text, jump.loops)) or "impulsive current at the event"
     moved = ", ".join(f"{p} {format_si(q, 'C')}" for p, q in jump.charges.items())
     return (f"you kept the value from before the event, but it jumps at "
             f"{format_si(ctx.circuit.events[ctx.k], 's')}: {why}"

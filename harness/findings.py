@@ -15,8 +15,8 @@ finding is still reported.  Kinds (``Finding.code``):
   (``ClosedFormSolution.hazards``).
 
 The jump findings come from the closed form's jump; where the numerical engine, by its own
-integration, sees a different set of forced inductors, the message says so.  This module is
-where the English for these is written.
+integration, sees a different set of forced inductors, the message says so.  Their sentences
+are written in ``harness.messages``.
 """
 
 from __future__ import annotations
@@ -24,18 +24,18 @@ from __future__ import annotations
 import difflib
 from dataclasses import dataclass
 
+from .messages import hazard_text, open_node_text
 from .model import Circuit
 from .results import FORCED, GROWTH, INTERRUPTED, Hazard, Jump
 from .topology import dangling_nodes
-from .units import format_si
 
 OPEN_NODE = "open-node"
 
 
 @dataclass(frozen=True)
 class Finding:
-    """One finding: its kind, the node and part names it concerns, the sentence, and whether the
-    file acknowledges it."""
+    """One finding: its kind, the node and part names it concerns, the sentence
+    (``harness.messages``), and whether the file acknowledges it."""
 
     code: str
     subjects: tuple[str, ...]
@@ -66,52 +66,12 @@ def _open_node(circuit: Circuit, node: str, part: str) -> Finding:
     side = "p" if owner.p == node else "n"
     others = [n for n in circuit.nodes if n != node]
     near = difflib.get_close_matches(node, others, n=1, cutoff=0.6)
-    hint = f" — did you mean {near[0]!r}?" if near else ""
     return Finding(OPEN_NODE, (node, part),
-                   f"node {node!r} is touched only by {part} (its {side} terminal){hint} An open "
-                   f"end carries no current, so {part} does nothing; if the node is meant to be "
-                   f"open (a test point), list it in [settings] acknowledge")
-
-
-def _currents(h: Hazard) -> str:
-    names = [p for p in h.parts if f"{p}:before" in h.values]
-    return ", ".join(f"{n} ({format_si(h.values[f'{n}:before'], 'A')} → "
-                     f"{format_si(h.values[f'{n}:after'], 'A')})" for n in names)
-
-
-def _jump_text(h: Hazard) -> str:
-    when = format_si(h.time, "s")
-    switches = [p for p in h.parts if f"{p}:before" not in h.values]
-    across = ", ".join(switches) or "the part that opened"
-    loss = h.values.get("energy")
-    lost = f" and dissipates {format_si(loss, 'J')} in it" if loss else ""
-    if h.code == INTERRUPTED:
-        return (f"at {when} opening {across} interrupts the current of {_currents(h)} with no "
-                f"other path: the voltage across {across} is unbounded in the ideal circuit{lost} "
-                f"(an arc or avalanche in a real switch); give the coil a flyback path (diode, "
-                f"snubber, clamp) or list {across} in [settings] acknowledge")
-    return (f"at {when} opening {across} forces the current of {_currents(h)} to jump: an "
-            f"impulse of voltage appears across {across}{lost}; a real switch must absorb it "
-            f"(or list {across} in [settings] acknowledge)")
-
-
-def _growth_text(h: Hazard) -> str:
-    when = format_si(h.time, "s")
-    if "e-folding" in h.values:
-        active = f" (active parts: {', '.join(h.parts)})" if h.parts else ""
-        return (f"from {when} a growing mode (e-folding time "
-                f"{format_si(h.values['e-folding'], 's')}) makes the response grow without "
-                f"bound{active}")
-    source = f"from {', '.join(h.parts)} " if h.parts else ""
-    return (f"from {when} the current {source}into node(s) {', '.join(h.nodes)} has no DC path: "
-            f"the voltage grows without bound")
+                   open_node_text(node, part, side, near[0] if near else None))
 
 
 def _hazard_finding(h: Hazard, numeric_sees: bool | None) -> Finding:
-    text = _growth_text(h) if h.code == GROWTH else _jump_text(h)
-    if numeric_sees is False:
-        text += " (the numerical engine's integration does not show this jump: review it)"
-    return Finding(h.code, tuple(h.parts) + tuple(h.nodes), text)
+    return Finding(h.code, tuple(h.parts) + tuple(h.nodes), hazard_text(h, numeric_sees))
 
 
 def _numeric_sees(h: Hazard, numeric, k: int) -> bool | None:

@@ -1,7 +1,9 @@
 """Verdicts: the results of comparing hand values with both engines, and their JSON form.
 
 The comparator builds these; the console table, the report writers and ``--json`` read them.
-All values are SI base-unit floats or None.
+All values are SI base-unit floats or None.  Warnings, check messages and the jumps' loops and
+warnings may hold an engine's ``results.Diagnostic`` (data) beside text: the writers render it
+through ``harness.messages``, so ``to_json()`` is JSON-ready only through ``report.jsonout``.
 """
 
 from __future__ import annotations

@@ -15,6 +15,76 @@ import numpy as np
 from .model import Circuit, Probe
 
 
+# ----------------------------------------------------------------------------- diagnostics
+@dataclass(frozen=True)
+class Diagnostic:
+    """A condition an engine reports, as data; engines write no English.  The sentence for each
+    ``code`` is written in one place, ``harness.messages`` (one function per code, every number
+    through ``units.format_si``).  Two diagnostics are the same when their code, time, interval,
+    parts, nodes, values and detail are: that is how they are de-duplicated (``engine`` is not
+    part of that identity).
+
+    Attributes:
+        code: what happened, one of ``DIAGNOSTIC_CODES`` (below, each with what it carries).
+        time: the event or moment it concerns, in s (None where none applies).
+        interval: the interval index k it concerns (None where none applies).
+        parts: the parts involved, in the order the sentence names them.
+        nodes: the nodes involved.
+        values: (name, value) pairs in SI units (a tuple, so the diagnostic is hashable); read
+            one with ``value(name)``.
+        detail: a machine token refining the code (an integrator status such as ``horizon``),
+            never a sentence; empty where none.
+        engine: ``numeric`` when the numerical engine reports it (the reports name that
+            engine), else empty.
+    """
+
+    code: str
+    time: float | None = None
+    interval: int | None = None
+    parts: tuple[str, ...] = ()
+    nodes: tuple[str, ...] = ()
+    values: tuple[tuple[str, float], ...] = ()
+    detail: str = ""
+    engine: str = field(default="", compare=False)
+
+    def value(self, name: str, default: float | None = None) -> float | None:
+        """The value named ``name`` (SI units), or ``default``."""
+        return dict(self.values).get(name, default)
+
+
+# The diagnostic codes, each with what it carries.  Closed form, circuit-wide
+# (``Solution.warnings``, ``Jump.warnings``):
+FLOATING_NODES = "floating-nodes"          # time, nodes: only open switches reach them (0 V)
+UNDAMPED_OSCILLATION = "undamped-oscillation"  # time, value frequency (Hz): never settles
+STATE_OVERFLOW = "state-overflow"          # time: the state left floating-point range
+IMPULSE_DERIVATIVE = "impulse-derivative"  # time: the jump carries a derivative of an impulse
+# Why a jump happens (``Jump.loops``):
+IMPULSIVE_CURRENT = "impulsive-current"    # time, parts: capacitors in a loop
+IMPULSIVE_VOLTAGE = "impulsive-voltage"    # time, parts: inductors in a cutset
+# One probe at one event (``Features.notes``):
+RESPONSE_OVERFLOW = "response-overflow"    # the response left floating-point range
+NO_DECAY = "no-decay"                      # value frequency (Hz): oscillates without decay
+GROWING_MODE = "growing-mode"              # value rate (1/s): grows without bound
+NO_DC_PATH = "no-dc-path"                  # charge with no DC path: grows without bound
+# The numerical engine (``engine="numeric"``):
+PULSE_GROWTH = "pulse-growth"              # interval, time, value growth (1/s; inf: singular)
+# interval, time, value end (s), the node (nodes) or inductor/carrier (parts) most visible;
+# detail no-operating-point, blow-up, horizon or failed:
+UNSETTLED = "unsettled"
+# interval, time, values steps, step-budget, eval-budget; detail solve or interval:
+WORK_BUDGET = "work-budget"
+BREAKDOWN = "integrator-breakdown"         # interval, time: an overflowing or singular system
+STOPPED = "integration-stopped"            # interval, time: later intervals not reported
+NOT_REACHED = "not-reached"                # time (interval for a probe): stopped before it
+NO_FINAL = "no-final-value"                # interval, time; detail: the integrator's status
+SIGN_CHANGE = "sign-change"                # the post-pulse response changes sign
+#: every diagnostic code an engine may report (each has its sentence in ``harness.messages``)
+DIAGNOSTIC_CODES = (FLOATING_NODES, UNDAMPED_OSCILLATION, STATE_OVERFLOW, IMPULSE_DERIVATIVE,
+                    IMPULSIVE_CURRENT, IMPULSIVE_VOLTAGE, RESPONSE_OVERFLOW, NO_DECAY,
+                    GROWING_MODE, NO_DC_PATH, PULSE_GROWTH, UNSETTLED, WORK_BUDGET, BREAKDOWN,
+                    STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE)
+
+
 @dataclass(frozen=True)
 class Features:
     """One engine's values for one probe at one event.
@@ -31,7 +101,8 @@ class Features:
         modes: visible time constants in s, slowest first, identical ones merged (for a complex
             pair, the envelope time constant -1/Re(lambda) once).
         oscillation: frequencies in Hz of visible complex pairs (empty for real modes).
-        notes: diagnostics about this probe at this event (unbounded growth, no decay …).
+        notes: diagnostics about this probe at this event (unbounded growth, no decay …), as
+            ``Diagnostic`` data (the trust guard adds its own note as text).
         dominant_tau: for a probe that is not first order, the first-order estimate an
             engineer would make: the sum of the zero-value time constants of interval k (see
             ``DominantTau``), in s; None for first-order probes or where the engine has none.
@@ -50,7 +121,7 @@ class Features:
     order: int | None = None
     modes: tuple[float, ...] = ()
     oscillation: tuple[float, ...] = ()
-    notes: tuple[str, ...] = ()
+    notes: tuple[Diagnostic | str, ...] = ()
     dominant_tau: float | None = None
     rings: tuple[tuple[float, float], ...] = ()
     order_bounds: tuple[int, int] | None = None
@@ -72,9 +143,9 @@ class Jump:
             through controlled sources).
         stored_before, stored_after: part name -> energy in J held by each capacitor and
             inductor just before and just after the instant.
-        loops: human-readable descriptions of why the jump happens (``C1, C2 and S1 form a
-            loop``); may be empty.
-        warnings: diagnostics (a state beyond floating-point range …).
+        loops: why the jump happens, as ``Diagnostic`` data (impulsive current through
+            capacitors in a loop, impulsive voltage across inductors in a cutset); may be empty.
+        warnings: ``Diagnostic`` data (a state beyond floating-point range …).
         forced: inductor name -> (i(t_k-), i(t_k+)) in A for every inductor whose current the
             event forces to jump (an impulse of voltage across it); values below the circuit's
             current noise floor are 0.  An inductor forced to 0 from a non-zero current is an
@@ -89,8 +160,8 @@ class Jump:
     energy: float | None = 0.0
     stored_before: Mapping[str, float] = field(default_factory=dict)
     stored_after: Mapping[str, float] = field(default_factory=dict)
-    loops: tuple[str, ...] = ()
-    warnings: tuple[str, ...] = ()
+    loops: tuple[Diagnostic, ...] = ()
+    warnings: tuple[Diagnostic, ...] = ()
     forced: Mapping[str, tuple[float, float]] = field(default_factory=dict)
     opened: tuple[str, ...] = ()
 
@@ -253,7 +324,8 @@ class Solution(Protocol):
 
     engine: str                  #: "closed_form" or "numeric"
     circuit: Circuit
-    warnings: tuple[str, ...]    #: circuit-wide diagnostics, each naming the parts and event time
+    #: circuit-wide diagnostics (``Diagnostic``; the trust guard adds its own as text)
+    warnings: tuple[Diagnostic | str, ...]
 
     def features(self, probe: Probe, k: int) -> Features:
         """Values of ``probe`` at event k (before, after, final, modes …)."""

@@ -139,8 +139,9 @@ class _Collector(HTMLParser):
 def test_write_all_returns_the_five_files_and_one_plot_per_check(written):
     """write_all writes the five report files first, then one PNG per check with a trace."""
     run, folder, paths = written
-    assert [p.name for p in paths[:5]] == list(report.REPORT_FILES)
-    pngs = paths[5:]
+    files = len(report.REPORT_FILES)
+    assert [p.name for p in paths[:files]] == list(report.REPORT_FILES)
+    pngs = paths[files:]
     assert len(pngs) == len(_all_checks(run))
     for p in paths:
         assert p.is_file()
@@ -307,8 +308,8 @@ def test_stale_plots_are_removed_and_other_files_kept(tmp_path):
     (tmp_path / "plots" / "notes.txt").write_text("mine")
     paths = report.write_all(RunResult(files=run.files[:1]), tmp_path)
     assert sorted(p.name for p in (tmp_path / "plots").iterdir()) == sorted(
-        [p.name for p in paths[5:]] + ["notes.txt"])
-    assert len(paths) == 6
+        [p.name for p in paths[len(report.REPORT_FILES):]] + ["notes.txt"])
+    assert len(paths) == len(report.REPORT_FILES) + 1
 
 
 def test_checks_without_trace_or_single_tau_still_report(tmp_path):
@@ -322,7 +323,7 @@ def test_checks_without_trace_or_single_tau_still_report(tmp_path):
     run = RunResult(files=(FileResult("two.toml", "two poles", PASS, checks=(higher, bare)),))
     assert report.plots.hand_curve(higher) is None
     paths = report.write_all(run, tmp_path)
-    assert len(paths) == 6
+    assert len(paths) == len(report.REPORT_FILES) + 1
     page = (tmp_path / "report.html").read_text(encoding="utf-8")
     assert page.count("data:image/png;base64,") == 1
     assert "order 2, τ = 1 ms, 100 µs" in page and "node mid" in page

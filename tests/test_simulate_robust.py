@@ -20,6 +20,8 @@ from harness.errors import InitialStateError
 from harness.model import Circuit, Part, Probe
 from harness.simulate import engine, integrate, solve
 from harness.simulate.regularise import choose, loop_capacitance
+from harness.messages import text as said
+from harness.results import PULSE_GROWTH, WORK_BUDGET
 
 
 def _parse(text: str):
@@ -121,7 +123,8 @@ UNSTABLE_PULSE = """
 def test_growing_pulse_model_is_reported_not_crashed():
     """Gain 3.3 makes r_s look negative: a warning and no values, never an exception."""
     sim = solve(_parse(UNSTABLE_PULSE.replace("GAIN", "3.3")))
-    assert any("narrow-pulse model grows" in w for w in sim.warnings)
+    assert any(w.code == PULSE_GROWTH and "narrow-pulse model grows" in said(w)
+               for w in sim.warnings)
     feats = sim.features(_node("n1"), 0)
     assert feats.before == pytest.approx(0.0, abs=1e-12)
     assert feats.after is None and feats.final is None
@@ -158,7 +161,8 @@ def test_step_budget_stops_with_a_warning(monkeypatch):
         C1 = { kind = "capacitor", nodes = ["a", "gnd"], value = "1 uF" }
         """
     sim = solve(_parse(text))
-    assert any("stopped after" in w and "values not reported" in w for w in sim.warnings)
+    assert any(w.code == WORK_BUDGET and "stopped after" in said(w)
+               and "values not reported" in said(w) for w in sim.warnings)
     feats = sim.features(_node("a"), 0)
     assert feats.after is None and feats.final is None
 

@@ -20,6 +20,7 @@ from harness.circuitfile import parse_circuit
 from harness.model import Probe
 from harness.simulate import engine, solve
 from harness.simulate.regularise import _bridges
+from harness.messages import text as said
 
 R, C, V = 1e3, 1e-6, 1.0
 TAU = R * C
@@ -106,7 +107,8 @@ def test_solve_budget_bounds_the_whole_schedule(monkeypatch):
     intervals before keep their (textbook) values."""
     monkeypatch.setattr(engine, "SOLVE_STEP_BUDGET", 900)
     sim = solve(_toggling())
-    assert any("for the whole solve" in w and "values not reported" in w for w in sim.warnings)
+    assert any(w.detail == "solve" and "for the whole solve: 900 steps" in said(w)
+               and "values not reported" in said(w) for w in sim.warnings)
     assert 1 <= len(sim.runs) < 5
     feats = sim.features(Probe("node", ("a",)), 0)
     assert feats.final == pytest.approx(V, abs=1e-6 * V)

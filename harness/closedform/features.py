@@ -25,7 +25,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..results import Features
+from ..results import (GROWING_MODE, NO_DC_PATH, NO_DECAY, RESPONSE_OVERFLOW, Diagnostic,
+                       Features)
 from ..tolerances import MODE_MERGE, MODE_VISIBILITY
 from .modes import UNDAMPED, poly_coefficients
 from .response import IntervalResponse
@@ -124,7 +125,7 @@ def classify(ev: RawEvent, scale: float, t_ref: float) -> Features:
         amps = _amplitudes(rate, coeffs)
         if not np.all(np.isfinite(amps)):
             bounded = False
-            notes.append("the response has grown beyond floating-point range")
+            notes.append(Diagnostic(RESPONSE_OVERFLOW))
             continue
         visible = np.flatnonzero(amps > thr)
         if visible.size == 0:
@@ -134,10 +135,11 @@ def classify(ev: RawEvent, scale: float, t_ref: float) -> Features:
             bounded = False
             if lam.imag > 0:
                 freqs.append(lam.imag / (2 * math.pi))
-                notes.append(f"oscillates without decay at {lam.imag / (2 * math.pi):.6g} Hz")
+                notes.append(Diagnostic(NO_DECAY, values=(
+                    ("frequency", float(lam.imag / (2 * math.pi))),)))
         elif lam.real > 0:
             bounded = False
-            notes.append(f"grows without bound (a growing mode, rate {lam.real:.6g} 1/s)")
+            notes.append(Diagnostic(GROWING_MODE, values=(("rate", float(lam.real)),)))
         else:
             order += 1 + int(visible.max())
             taus.append(-1.0 / lam.real)
@@ -152,9 +154,9 @@ def classify(ev: RawEvent, scale: float, t_ref: float) -> Features:
             [abs(a) * ev.span ** (m + 1) / math.factorial(m + 1) > thr
              for m, a in enumerate(ev.growth)]):
         bounded = False
-        notes.append("grows without bound (charge with no DC path)")
+        notes.append(Diagnostic(NO_DC_PATH))
     if ev.before is None or ev.after is None:
-        notes.append("the response has grown beyond floating-point range")
+        notes.append(Diagnostic(RESPONSE_OVERFLOW))
     notes = list(dict.fromkeys(notes))
     modes = _merge(taus)
     tau = modes[0] if (order == 1 and real_visible == 1 and complex_visible == 0) else None

@@ -26,8 +26,8 @@ import numpy as np
 
 from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, SWITCH, VCCS,
                      VCVS, VOLTAGE_SOURCE, Circuit)
-from ..results import Jump
-from ..units import format_si
+from ..results import (IMPULSE_DERIVATIVE, IMPULSIVE_CURRENT, IMPULSIVE_VOLTAGE, STATE_OVERFLOW,
+                       Diagnostic, Jump)
 from .linalg import least_squares
 from .mna import BRANCH_KINDS, Layout, Scale, current_row, index_of, part_voltages
 
@@ -242,16 +242,13 @@ def _forced(circuit: Circuit, layout: Layout, time: float, x_minus: np.ndarray,
     return forced, opened
 
 
-def _loops(charges: dict, fluxes: dict) -> tuple[str, ...]:
+def _loops(time: float, charges: dict, fluxes: dict) -> tuple[Diagnostic, ...]:
+    """Why the jump happens: the parts carrying an impulse of current, of voltage."""
     out = []
-    moved = list(charges)
-    if moved:
-        out.append(f"impulsive current through {', '.join(moved)} (capacitors in a loop with "
-                   f"voltage-type parts or with each other)")
-    kicked = list(fluxes)
-    if kicked:
-        out.append(f"impulsive voltage across {', '.join(kicked)} (inductors in a cutset with "
-                   f"current sources or opening switches)")
+    if charges:
+        out.append(Diagnostic(IMPULSIVE_CURRENT, time, parts=tuple(charges)))
+    if fluxes:
+        out.append(Diagnostic(IMPULSIVE_VOLTAGE, time, parts=tuple(fluxes)))
     return tuple(out)
 
 
@@ -269,13 +266,11 @@ def jump_at(circuit: Circuit, layout: Layout, scale: Scale, g: np.ndarray, c: np
         before, after = stored_energy(circuit, layout, xm), stored_energy(circuit, layout, xp)
     if not (np.all(np.isfinite(xm)) and np.all(np.isfinite(xp))):
         return Jump(time, energy=None, stored_before=before, stored_after=after,
-                    warnings=(f"at {format_si(time, 's')} the state has grown beyond floating "
-                              f"point range; nothing is reported",))
+                    warnings=(Diagnostic(STATE_OVERFLOW, time),))
     q_scaled = impulse_weights(g, c, x_minus, x_plus)
     if q_scaled is None:
         return Jump(time, energy=None, stored_before=before, stored_after=after,
-                    warnings=(f"at {format_si(time, 's')} the jump carries a derivative of an "
-                              f"impulse; charges are not reported",))
+                    warnings=(Diagnostic(IMPULSE_DERIVATIVE, time),))
     q = scale.t * d * q_scaled
     charges = _charges(circuit, layout, q, xp - xm)
     fluxes = _fluxes(circuit, layout, q)
@@ -285,5 +280,5 @@ def jump_at(circuit: Circuit, layout: Layout, scale: Scale, g: np.ndarray, c: np
     energy = _energy(circuit, before, after, charges, fluxes, values) if charges or fluxes \
         else 0.0                                  # nothing impulsive: storage is continuous
     forced, opened = _forced(circuit, layout, time, xm, xp, fluxes, scales)
-    loops = _loops(charges, fluxes)
+    loops = _loops(time, charges, fluxes)
     return Jump(time, charges, fluxes, energy, before, after, loops, (), forced, opened)

@@ -9,7 +9,8 @@ import numpy as np
 from ..errors import TopologyError
 from ..model import (ACROSS, CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, SOURCES, SWITCH, THROUGH,
                      VCCS, VCVS, Circuit, Probe)
-from ..results import GROWTH, Features, Hazard, Jump
+from ..results import (FLOATING_NODES, GROWTH, UNDAMPED_OSCILLATION, Diagnostic, Features,
+                       Hazard, Jump)
 from ..tolerances import MODE_VISIBILITY
 from ..units import format_si
 from .features import SCALE_FLOOR, RawEvent, classify, probe_scale, raw_event
@@ -49,7 +50,7 @@ class ClosedFormSolution:
     scale: Scale
     intervals: tuple[IntervalResponse, ...]
     prestep: IntervalResponse
-    warnings: tuple[str, ...]
+    warnings: tuple[Diagnostic, ...]
     hazards: tuple[Hazard, ...] = ()
     engine: str = ENGINE
     _probe_cache: dict = field(default_factory=dict, repr=False)
@@ -339,7 +340,7 @@ def solve(circuit: Circuit) -> ClosedFormSolution:
     null = capacitor_null_basis(circuit, layout)
     events = circuit.events
     cache: dict = {}
-    warnings: list[str] = []
+    warnings: list[Diagnostic] = []
 
     def run(time, index, next_time, x_minus, pre=False):
         closed, values, groups = _interval_setup(circuit, layout, scale, time, pre)
@@ -376,10 +377,8 @@ def solve(circuit: Circuit) -> ClosedFormSolution:
     return replace(sol, warnings=tuple(dict.fromkeys(warnings)), hazards=tuple(hazards))
 
 
-def _floating_warning(time: float, groups: list[list[str]]) -> str:
-    nodes = ", ".join(n for g in groups for n in g)
-    return (f"from {format_si(time, 's')} node(s) {nodes} connect to the rest only through open "
-            f"switches or current sources: their common voltage is undefined and taken as 0 V")
+def _floating_warning(time: float, groups: list[list[str]]) -> Diagnostic:
+    return Diagnostic(FLOATING_NODES, time, nodes=tuple(n for g in groups for n in g))
 
 
 def _interval_hazards(circuit: Circuit, resp: IntervalResponse, scale: Scale) -> list[Hazard]:
@@ -403,16 +402,16 @@ def _interval_hazards(circuit: Circuit, resp: IntervalResponse, scale: Scale) ->
     return out
 
 
-def _interval_warnings(circuit: Circuit, resp: IntervalResponse, scale: Scale) -> list[str]:
+def _interval_warnings(circuit: Circuit, resp: IntervalResponse,
+                       scale: Scale) -> list[Diagnostic]:
     """Undamped modes of one interval (growth is a ``Hazard``)."""
     out = []
-    when = format_si(resp.start, "s")
     for cl in resp.dec.clusters:
         rate = complex(cl.rate)
         if cl.zero or rate.real < -UNDAMPED * abs(rate):
             continue                                  # constant or decaying: nothing to say
         mode = mode_of(cl, scale.t)
         if mode.kind == "undamped" and mode.rate.imag > 0:
-            out.append(f"from {when} an undamped oscillation at {format_si(mode.frequency, 'Hz')}"
-                       f" never settles")
+            out.append(Diagnostic(UNDAMPED_OSCILLATION, resp.start,
+                                  values=(("frequency", float(mode.frequency)),)))
     return out

@@ -29,6 +29,7 @@ from dataclasses import dataclass, field
 
 from .. import model as m
 from .. import tolerances as tol
+from ..results import Diagnostic
 
 #: relative agreement a formula must reach with the closed form to be shown as exact
 AGREE = 1e-9
@@ -67,7 +68,8 @@ class Derivation:
         storage: every storage part of the interval with its R_th and zero-value τ.
         jump_parts: capacitor/inductor -> (state at t_k−, state at t_k+) where the event
             moves charge or flux (the loop or cutset found), else empty.
-        loops: the closed form's description of each loop or cutset.
+        loops: why the closed form's jump happens (``results.Diagnostic``, one per kind of
+            impulse: capacitors in a loop, inductors in a cutset).
         order: the probe's order; coefficients: a₁, a₂ … of its characteristic polynomial
             (s, s², …); modes: the closed form's time constants (s).
         crossing: (level, time formula) where a crossing is asked.
@@ -85,7 +87,7 @@ class Derivation:
     tau: Formula | None = None
     storage: tuple[StoragePart, ...] = ()
     jump_parts: dict = field(default_factory=dict)
-    loops: tuple[str, ...] = ()
+    loops: tuple[Diagnostic, ...] = ()
     order: int | None = None
     coefficients: tuple[Formula, ...] = ()
     dominant: Formula | None = None

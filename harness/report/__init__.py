@@ -1,5 +1,11 @@
 """The report writers: console text, summary.csv, results.json, report.md, report.html, junit.xml.
 
+Each report file is written by one module of this package, listed in ``WRITERS``: the module
+has ``FILE`` (its file name) and ``write(run, context) -> str`` (``context.ReportContext``: the
+plots, their links, the provenance).  Adding a report format is that module and its line in
+``WRITERS`` (DEVELOPERS.md, "How to add a report format").  The console text (``console``) is
+printed by the command line, not written as a file.
+
 ``write_all(run, report_dir)`` writes every report file for one run plus one PNG per check with
 a trace and one whole-schedule PNG per file under ``report_dir/plots/`` (named ``<file
 number>-<sanitised title>-c<check>.png`` and ``…-schedule.png``; untrusted titles cannot leave
@@ -23,12 +29,15 @@ from ..progress import Progress
 from . import csvout, html, jsonout, junit, markdown, plots, spreads
 from .plot_schedule import SCHEDULE, plot_schedule
 from .atomic import ReportError, ensure_dir, safe_name
+from .context import ReportContext
 from .reportset import publish
 
-__all__ = ["REPORT_FILES", "ReportError", "render_plots", "write_all"]
+__all__ = ["REPORT_FILES", "WRITERS", "ReportError", "render_plots", "write_all"]
 
-#: the five report files, in the order ``write_all`` returns them
-REPORT_FILES = ("report.html", "report.md", "summary.csv", "results.json", "junit.xml")
+#: the report-file writers, in the order ``write_all`` returns their files
+WRITERS = (html, markdown, csvout, jsonout, junit)
+#: the report files, one per writer
+REPORT_FILES = tuple(writer.FILE for writer in WRITERS)
 PLOT_DIR = "plots"
 #: names this package gives plot files; older ones matching it are removed from plots/
 _PLOT_NAME = re.compile(r"^\d{3,}-[A-Za-z0-9_-]+-(c\d+|schedule|s\d+)\.png$")
@@ -148,9 +157,10 @@ def plot_name(run: RunResult, key: tuple[int, int | str]) -> str:
 def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
               jobs: int = 1, progress: Progress | None = None,
               provenance: Mapping | None = None) -> list[Path]:
-    """Write the five report files (``REPORT_FILES``) and the plot PNGs into ``report_dir``.
+    """Write the report files (``REPORT_FILES``, one per writer of ``WRITERS``) and the plot
+    PNGs into ``report_dir``.
 
-    Returns the paths written: the five report files in ``REPORT_FILES`` order, then the plots.
+    Returns the paths written: the report files in ``REPORT_FILES`` order, then the plots.
     The folder is created if missing.  Everything is rendered first, then ``publish`` puts the
     whole set in place at once: a serializer's exception, a full disk, a report name that is a
     folder or a link, or a signal leave the previous set as it was; plot PNGs an earlier run
@@ -169,13 +179,9 @@ def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
     histograms = _spec_histograms(run, with_plots)
     spec_links = {(run.files[key[0]].file,) + key[1:]: f"{PLOT_DIR}/{_spec_plot_name(*key)}"
                   for key in histograms}
-    texts = {"report.html": html.render(run, pngs, provenance).replace(
-                 "</main>", spreads.html(run, histograms) + "</main>", 1),
-             "report.md": markdown.render(run, links, provenance) + "\n".join(
-                 spreads.markdown(run, spec_links if with_plots else {})),
-             "summary.csv": csvout.render(run), "results.json": jsonout.render(run),
-             "junit.xml": junit.render(run)}
-    files = {name: texts[name].encode("utf-8") for name in REPORT_FILES}
+    context = ReportContext(pngs, links, provenance or {}, histograms,
+                            spec_links if with_plots else {})
+    files = {writer.FILE: writer.write(run, context).encode("utf-8") for writer in WRITERS}
     pngs, names = _with_spreads(run, files, pngs, names, histograms)
     return publish(folder, files, {names[key]: png for key, png in pngs.items()}, PLOT_DIR,
                    _PLOT_NAME)

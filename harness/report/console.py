@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from tabulate import tabulate
 
+from ..messages import worded, worded_file
 from ..outcome import PASS, CheckResult, FileResult, RunResult
 from . import common
 from .style import Style
@@ -31,6 +32,7 @@ def render_failures(run: RunResult, style: Style | None = None, show_all: bool =
     that could not be analysed has no rows: its message is on stderr and the summary counts it.
     ``show_all`` lists passing files and checks too, row by row.
     """
+    run = worded(run)
     style = style or Style()
     blocks = []
     for file in run.files:
@@ -138,6 +140,7 @@ def render_findings(run: RunResult) -> str:
 def render_warnings(run: RunResult) -> str:
     """``warning: <file>: <text>`` for every file's warnings, each once per file; ``""`` when
     there are none."""
+    run = worded(run)
     lines = []
     for file in run.files:
         lines += [f"warning: {text}" if text.startswith(f"{file.file}:")
@@ -172,6 +175,7 @@ def render_solve(file_result: FileResult) -> str:
     probe's reference direction, order and visible modes, and a table of
     field / hand / closed form / numeric / verdict (the hand column only when a hand value exists).
     """
+    file_result = worded_file(file_result)
     out = [f"{file_result.title or file_result.file}", f"file: {file_result.file}",
            f"verdict: {file_result.verdict}"]
     out += common.finding_lines(file_result)

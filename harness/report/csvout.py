@@ -19,8 +19,10 @@ from __future__ import annotations
 import math
 from typing import TYPE_CHECKING
 
+from ..messages import worded
 from ..outcome import ERROR, RunResult
 from . import common
+from .context import ReportContext
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -34,6 +36,7 @@ TEXT_COLUMNS = _TEXT = ("file", "title", "probe", "direction", "modes", "field",
 
 def frame(run: RunResult) -> pd.DataFrame:
     """The summary as a DataFrame with ``COLUMNS``, one row per field."""
+    run = worded(run)
     rows = []
     for file in run.files:
         head = {"file": file.file, "title": file.title, "file_verdict": file.verdict}
@@ -60,6 +63,15 @@ def frame(run: RunResult) -> pd.DataFrame:
     table["check"] = table["check"].astype("Int64")
     table["order"] = table["order"].astype("Int64")
     return table
+
+
+#: the file this writer writes in the report folder (``harness.report.WRITERS``)
+FILE = "summary.csv"
+
+
+def write(run: RunResult, context: ReportContext) -> str:
+    """The report file's text (``harness.report.context``)."""
+    return render(run)
 
 
 def render(run: RunResult) -> str:

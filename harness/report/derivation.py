@@ -8,6 +8,7 @@ Markdown and HTML embed the same lines (``lines``).
 
 from __future__ import annotations
 
+from ..messages import text as said
 from ..units import format_si
 
 
@@ -53,7 +54,7 @@ def _jump_lines(d) -> list[str]:
                 "with a current source moves at the event, so capacitor voltages and inductor "
                 "currents are continuous:",
                 f"  x(t_k+) = {_value(d.after, unit)}"]
-    out = [f"Just after: {loop}" for loop in d.loops] or ["Just after: the event moves charge"]
+    out = [f"Just after: {said(loop)}" for loop in d.loops] or ["Just after: the event moves charge"]
     out.append("  charge (flux) balance over the loop, solved for the states after the event:")
     for name, (before, after) in d.jump_parts.items():
         out.append(f"    {name}: {_value(before, '')} before → {_value(after, '')} after")

@@ -17,8 +17,10 @@ import base64
 from html import escape as _escape
 from typing import Any, Mapping
 
+from ..messages import worded
 from ..outcome import PASS, CheckResult, FileResult, RunResult
-from . import common
+from . import common, spreads
+from .context import ReportContext
 from .plot_schedule import SCHEDULE
 
 CSS = """
@@ -74,6 +76,16 @@ def badge(verdict: str) -> str:
     return f'<span class="v v-{esc(verdict)}">{esc(verdict)}</span>'
 
 
+#: the file this writer writes in the report folder (``harness.report.WRITERS``)
+FILE = "report.html"
+
+
+def write(run: RunResult, context: ReportContext) -> str:
+    """The page with its plots embedded and a section per spec'd field (``report.spreads``)."""
+    return render(run, context.plots, context.provenance).replace(
+        "</main>", spreads.html(run, context.histograms) + "</main>", 1)
+
+
 def render(run: RunResult, plots: Mapping[tuple[int, int], bytes] | None = None,
            provenance: Mapping[str, Any] | None = None) -> str:
     """The HTML page.  ``plots`` maps (file index, check index) to PNG bytes, and (file index,
@@ -81,6 +93,7 @@ def render(run: RunResult, plots: Mapping[tuple[int, int], bytes] | None = None,
     heads the page and gives each file's parts as written.  Files that need attention come
     first; passing files and checks are folded (``<details>``); a CSS-only filter by verdict
     (radio buttons, no script) sits above the files."""
+    run = worded(run)
     provenance = provenance or {}
     order = common.attention_order(run)
     plots = _within_budget(run, plots or {}, order)

@@ -17,8 +17,10 @@ from __future__ import annotations
 import re
 import xml.etree.ElementTree as ET
 
+from ..messages import worded
 from ..outcome import ERROR, PASS, CheckResult, FileResult, RunResult
 from . import common
+from .context import ReportContext
 
 _ILLEGAL = re.compile("[^\x09\x0a\x0d\x20-\ud7ff\ue000-\ufffd\U00010000-\U0010ffff]")
 
@@ -27,8 +29,18 @@ def _x(text: str) -> str:
     return _ILLEGAL.sub("", common.printable(str(text)))
 
 
+#: the file this writer writes in the report folder (``harness.report.WRITERS``)
+FILE = "junit.xml"
+
+
+def write(run: RunResult, context: ReportContext) -> str:
+    """The report file's text (``harness.report.context``)."""
+    return render(run)
+
+
 def render(run: RunResult) -> str:
     """The XML text with declaration, UTF-8."""
+    run = worded(run)
     root = ET.Element("testsuites", name="tauproof")
     totals = {"tests": 0, "failures": 0, "errors": 0}
     for file in run.files:

@@ -15,8 +15,10 @@ from __future__ import annotations
 import re
 from typing import Any, Mapping
 
+from ..messages import worded
 from ..outcome import PASS, CheckResult, FileResult, RunResult
-from . import common
+from . import common, spreads
+from .context import ReportContext
 from .plot_schedule import SCHEDULE
 
 #: punctuation that can start Markdown markup mid-line (GFM); text never starts a line here
@@ -30,6 +32,16 @@ def escape(text: str) -> str:
     return _SPECIAL.sub(r"\\\1", text)
 
 
+#: the file this writer writes in the report folder (``harness.report.WRITERS``)
+FILE = "report.md"
+
+
+def write(run: RunResult, context: ReportContext) -> str:
+    """The text with its plots linked and the spec'd fields' sections (``report.spreads``)."""
+    return render(run, context.links, context.provenance) + "\n".join(
+        spreads.markdown(run, context.spec_links))
+
+
 def render(run: RunResult, plots: Mapping[tuple[int, int], str] | None = None,
            provenance: Mapping[str, Any] | None = None) -> str:
     """The Markdown text.  ``plots`` maps (file index, check index) to a path relative to the
@@ -37,6 +49,7 @@ def render(run: RunResult, plots: Mapping[tuple[int, int], str] | None = None,
     whole-schedule plot; checks without one get no image.  ``provenance``
     (``provenance.collect``) heads the text and gives each file's SHA-256 and parts as written.
     Files that need attention come first."""
+    run = worded(run)
     plots, provenance = plots or {}, provenance or {}
     out = ["# tauproof discrepancy report", ""] + _provenance(provenance)
     out += [f"**{escape(common.summary_line(run))}**", ""]

@@ -10,6 +10,7 @@ import numpy as np
 
 from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, VCCS, VCVS,
                      VOLTAGE_SOURCE, Circuit)
+from ..results import BREAKDOWN, PULSE_GROWTH, STOPPED, UNSETTLED, WORK_BUDGET, Diagnostic
 from .coordinates import Unreduced
 from .equations import build, layout
 from .features import fit_window
@@ -17,7 +18,7 @@ from .initial import initial_state
 from .integrate import integrate_interval
 from .nodesets import find_root
 from .regularise import PILOT_SPLIT, choose, gain_factor
-from .solution import NumericSolution
+from .solution import ENGINE, NumericSolution
 
 #: the absolute tolerance of a state is rtol times this fraction of its kind's scale
 ATOL_FRACTION = 1e-4
@@ -86,7 +87,7 @@ def _carrier_floor(circuit: Circuit, lay, systems, atol: np.ndarray, v_scale: fl
     return atol
 
 
-def _warning(circuit: Circuit, lay, run, k: int, run_dyn: np.ndarray) -> str | None:
+def _warning(circuit: Circuit, lay, run, k: int, run_dyn: np.ndarray) -> Diagnostic | None:
     """The circuit-wide diagnostic for an interval that did not settle, or None."""
     if run.status == "settled":
         return None
@@ -96,19 +97,15 @@ def _warning(circuit: Circuit, lay, run, k: int, run_dyn: np.ndarray) -> str | N
     dyn = run_dyn
     index = int(dyn[int(np.argmax(change))]) if dyn.size else 0
     name = names[index] if len(names) else "?"
-    what = "node" if index < len(lay.nodes) else "the current of"
+    where = {"nodes": (name,)} if index < len(lay.nodes) else {"parts": (name,)}
     if not run.consistent:
-        reason = ("grows without bound (no DC operating point: a source drives a node or an "
-                  "inductor loop that has no DC path)")
-    elif run.status == "blow-up":
-        reason = "grows without bound (a growing mode)"
-    elif run.status == "horizon":
-        reason = "does not settle (an undamped or very slow oscillation)"
+        reason = "no-operating-point"
+    elif run.status in ("blow-up", "horizon"):
+        reason = run.status
     else:
-        reason = "could not be integrated"
-    return (f"interval {k} (from t = {t:.6g} s): the response {reason} by t = "
-            f"{t + run.end:.6g} s, most visibly at {what} {name!r}; final values are not "
-            "reported")
+        reason = "failed"
+    return Diagnostic(UNSETTLED, t, k, values=(("end", t + run.end),), detail=reason,
+                      engine=ENGINE, **where)
 
 
 def _fastest_real_mode(circuit: Circuit) -> float | None:
@@ -198,21 +195,18 @@ def _earliest_settle(system, reg) -> float:
     return min(max(reg.t_fast, SETTLE_SPAN * slowest), reg.horizon)
 
 
-def _stopped(circuit: Circuit, k: int, run, steps: int, evals: int) -> str | None:
+def _stopped(circuit: Circuit, k: int, run, steps: int, evals: int) -> Diagnostic | None:
     """The warning for an interval whose values are not reported (integrator breakdown or
     a work budget: ``steps``, ``evals`` are the solve's totals so far), or None."""
     t = circuit.events[k] + (run.end if run.status == "budget" else 0.0)
     if run.status == "budget":
-        which = (f"for the whole solve: {SOLVE_STEP_BUDGET} steps or {SOLVE_EVAL_BUDGET} "
-                 "evaluations" if steps >= SOLVE_STEP_BUDGET or evals >= SOLVE_EVAL_BUDGET
-                 else f"per interval: {STEP_BUDGET} steps or {EVAL_BUDGET} evaluations, "
-                 f"reached in interval {k}")
-        return (f"the numerical engine stopped after {steps} steps at t = {t:.6g} s (its work "
-                f"budget {which}): values not reported from that interval on")
+        whole = steps >= SOLVE_STEP_BUDGET or evals >= SOLVE_EVAL_BUDGET
+        budget = (SOLVE_STEP_BUDGET, SOLVE_EVAL_BUDGET) if whole else (STEP_BUDGET, EVAL_BUDGET)
+        return Diagnostic(WORK_BUDGET, t, k, values=(("steps", steps), ("step-budget", budget[0]),
+                                                     ("eval-budget", budget[1])),
+                          detail="solve" if whole else "interval", engine=ENGINE)
     if run.status == "failed":
-        return (f"the numerical engine's integrator broke down in interval {k} (from t = "
-                f"{t:.6g} s; an overflowing or singular regularised system): values not "
-                "reported from that interval on")
+        return Diagnostic(BREAKDOWN, t, k, engine=ENGINE)
     return None
 
 
@@ -242,18 +236,15 @@ def _dynamic(circuit: Circuit, lay) -> np.ndarray:
     return dynamic
 
 
-def _growth_warning(k: int, t_k: float, growth: float) -> str:
-    """The warning for an interval whose regularised model grows at the pulse scale."""
-    what = (f"grows at {growth:.3g}/s, far faster than any mode of the circuit"
-            if math.isfinite(growth) else "is singular (its Jacobian is not finite)")
-    return (f"interval {k} (from t = {t_k:.6g} s): the numerical engine's narrow-pulse "
-            f"model {what} (a controlled source feeds back the current or voltage of a "
-            "voltage source, vcvs, ccvs or switch with a gain that defeats its "
-            "regularising resistance): values not reported from that interval on")
+def _growth_warning(k: int, t_k: float, growth: float) -> Diagnostic:
+    """The warning for an interval whose regularised model grows at the pulse scale (an
+    infinite ``growth``: its Jacobian is not finite)."""
+    rate = float(growth) if math.isfinite(growth) else math.inf
+    return Diagnostic(PULSE_GROWTH, t_k, k, values=(("growth", rate),), engine=ENGINE)
 
 
 def _march(circuit: Circuit, lay, systems, y0: np.ndarray, reg, rtol: float,
-           atol: np.ndarray) -> tuple[list, list[str]]:
+           atol: np.ndarray) -> tuple[list, list[Diagnostic]]:
     """Integrate interval after interval from y(0-) = ``y0`` (shape (n,)); stop at the first
     interval with pulse-scale growth, a spent work budget or a failed integration.
 
@@ -296,8 +287,7 @@ def _march(circuit: Circuit, lay, systems, y0: np.ndarray, reg, rtol: float,
         if message:
             warnings.append(message)
         if length is not None and run.y_next is None:
-            warnings.append(f"the integration stopped at t = {t_k:.6g} s; later intervals are "
-                            "not reported")
+            warnings.append(Diagnostic(STOPPED, t_k, k, engine=ENGINE))
             break
         y = run.y_next
     return runs, warnings

@@ -24,6 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..results import SIGN_CHANGE, Diagnostic
 from .integrate import IntervalRun
 
 #: post-pulse fit window, in units of the post-pulse start s_a
@@ -109,7 +110,7 @@ def _loglinear(s: np.ndarray, d: np.ndarray) -> tuple[float, float]:
 
 
 def decay(run: IntervalRun, w: np.ndarray, offset: float, s_a: float, x_inf: float, scale: float,
-          floor: float) -> tuple[float | None, tuple[float, ...], tuple[str, ...]]:
+          floor: float) -> tuple[float | None, tuple[float, ...], tuple[Diagnostic, ...]]:
     """(tau or None, modes slowest first, notes) of the held response after the pulse.
 
     Args:
@@ -129,7 +130,7 @@ def decay(run: IntervalRun, w: np.ndarray, offset: float, s_a: float, x_inf: flo
     lin = np.linspace(s_a, s_b, 200)
     dl = values(run, w, offset, lin) - x_inf
     signs = np.sign(dl[np.abs(dl) > floor])
-    notes: tuple[str, ...] = ()
+    notes: tuple[Diagnostic, ...] = ()
     if signs.size and np.all(signs == signs[0]):
         amp, tau = _loglinear(lin - s_a, dl)
         if tau > 0:
@@ -137,7 +138,7 @@ def decay(run: IntervalRun, w: np.ndarray, offset: float, s_a: float, x_inf: flo
             if np.max(np.abs(d - model)) <= FIT_RESIDUAL * scale:
                 return tau, (tau,), ()
     else:
-        notes = ("the post-pulse response changes sign: more than one mode or an oscillation",)
+        notes = (Diagnostic(SIGN_CHANGE, engine="numeric"),)
     slow = _tail_tau(grid, d, dmax, TAIL_NOISE * scale)
     return None, ((slow,) if slow else ()), notes
 

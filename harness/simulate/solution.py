@@ -7,7 +7,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..model import CAPACITOR, CCCS, CCVS, SWITCH, VCCS, VCVS, Circuit, Probe
-from ..results import Features, Jump
+from ..results import NO_FINAL, NOT_REACHED, Diagnostic, Features, Jump
 from ..tolerances import MODE_VISIBILITY
 from .equations import Layout, System
 from .features import decay, fit_window, post_pulse, pulse_points, values
@@ -18,6 +18,8 @@ from .regularise import Regularisation, gain_factor
 from . import signoff
 from .dominant import dominant as dominant_tau
 from .modal import visible as visible_modes
+
+ENGINE = "numeric"
 
 #: an impulsive charge below this fraction of (total capacitance x voltage scale) is noise
 CHARGE_FLOOR = 1e-9
@@ -65,7 +67,7 @@ class NumericSolution:
     v_scale: float
     i_scale: float
     setup_seconds: float = 0.0
-    engine: str = "numeric"
+    engine: str = ENGINE
     _cache: dict = field(default_factory=dict, compare=False, repr=False)
 
     # ----- counters ------------------------------------------------------------------------
@@ -175,13 +177,13 @@ class NumericSolution:
         """Values of ``probe`` at event k (see harness.simulate for the methods)."""
         before, after, final = self._base(probe, k)
         if k >= len(self.runs):
-            return Features(before, None, None, notes=("the integration stopped before this "
-                                                       "interval",))
+            return Features(before, None, None, notes=(
+                Diagnostic(NOT_REACHED, self._t(k), k, engine=ENGINE),))
         run = self.runs[k]
-        notes: tuple[str, ...] = ()
+        notes: tuple[Diagnostic, ...] = ()
         tau, modes = None, ()
         if final is None:
-            notes = (f"the response did not settle ({run.status}): no final value",)
+            notes = (Diagnostic(NO_FINAL, self._t(k), k, detail=run.status, engine=ENGINE),)
         else:
             scale = self.scale(probe)
             w, _ = self._rows(probe, k)
@@ -277,7 +279,7 @@ class NumericSolution:
         t = self._t(k)
         y_before = self._state_before(k)
         if k >= len(self.runs) or y_before is None:
-            return Jump(t, energy=None, warnings=("the integration stopped before this event",))
+            return Jump(t, energy=None, warnings=(Diagnostic(NOT_REACHED, t, engine=ENGINE),))
         run, system, lay, reg = self.runs[k], self.systems[k], self.layout, self.regularisation
         n = lay.n
         names = list(system.branches)

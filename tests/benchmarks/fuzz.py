@@ -344,6 +344,8 @@ def run_case(path: str, numeric: bool = True) -> tuple[str, str]:
     from harness import closedform
     from harness.circuitfile import read_circuit
     from harness.compare import compare_file
+    from harness.outcome import RunResult
+    from harness.report import jsonout
     try:
         circuit = read_circuit(path)
     except InputError as err:
@@ -355,7 +357,7 @@ def run_case(path: str, numeric: bool = True) -> tuple[str, str]:
             from harness import simulate
             sim = simulate.solve(circuit)
         result = compare_file(circuit, exact, sim)
-        json.dumps(result.to_json(), allow_nan=True)
+        jsonout.render(RunResult((result,)))     # the one JSON writer, as --json runs it
     except InputError as err:
         return _located(err, path)
     except _Slow:

@@ -1,0 +1,256 @@
+"""The words: every sentence for a diagnostic (``results.Diagnostic``) and a finding, written once.
+
+Engines return diagnostics as data (a code, the parts and nodes, the values, the time or
+interval); this module turns each code into its sentence, one function per code, every number
+through ``units.format_si`` (one number style).  The report writers (console, CSV, JSON,
+Markdown, HTML, JUnit) render a run through ``worded`` (or one item through ``text``); the
+comparator uses ``text`` where its own sentence quotes an engine's diagnostic, and
+``harness.findings`` uses ``hazard_text`` and ``open_node_text``.
+
+Layering: this module imports the result contract, the verdict types and ``units`` only (no
+engine, comparator, report or application module; ``tests/test_layering.py``).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+from typing import Any, Callable, Iterable
+
+from . import results as r
+from .outcome import CheckResult, FileResult, RunResult
+from .units import format_si
+
+#: the prefix of a diagnostic the numerical engine reports, in a file's warnings
+NUMERIC = "numerical engine: "
+
+
+def _at(d: r.Diagnostic) -> str:
+    return format_si(d.time, "s")
+
+
+def _names(names: Iterable[str]) -> str:
+    return ", ".join(names)
+
+
+def _floating(d: r.Diagnostic) -> str:
+    return (f"from {_at(d)} node(s) {_names(d.nodes)} connect to the rest only through open "
+            f"switches or current sources: their common voltage is undefined and taken as 0 V")
+
+
+def _undamped(d: r.Diagnostic) -> str:
+    return f"from {_at(d)} an undamped oscillation at {format_si(d.value('frequency'), 'Hz')} " \
+           f"never settles"
+
+
+def _state_overflow(d: r.Diagnostic) -> str:
+    return f"at {_at(d)} the state has grown beyond floating point range; nothing is reported"
+
+
+def _impulse_derivative(d: r.Diagnostic) -> str:
+    return f"at {_at(d)} the jump carries a derivative of an impulse; charges are not reported"
+
+
+def _impulsive_current(d: r.Diagnostic) -> str:
+    return (f"impulsive current through {_names(d.parts)} (capacitors in a loop with "
+            f"voltage-type parts or with each other)")
+
+
+def _impulsive_voltage(d: r.Diagnostic) -> str:
+    return (f"impulsive voltage across {_names(d.parts)} (inductors in a cutset with current "
+            f"sources or opening switches)")
+
+
+def _response_overflow(d: r.Diagnostic) -> str:
+    return "the response has grown beyond floating-point range"
+
+
+def _no_decay(d: r.Diagnostic) -> str:
+    return f"oscillates without decay at {format_si(d.value('frequency'), 'Hz')}"
+
+
+def _growing_mode(d: r.Diagnostic) -> str:
+    return f"grows without bound (a growing mode, rate {format_si(d.value('rate'), '/s')})"
+
+
+def _no_dc_path(d: r.Diagnostic) -> str:
+    return "grows without bound (charge with no DC path)"
+
+
+def _interval(d: r.Diagnostic) -> str:
+    return f"interval {d.interval} (from t = {_at(d)})"
+
+
+def _pulse_growth(d: r.Diagnostic) -> str:
+    growth = d.value("growth")
+    what = (f"grows at {format_si(growth, '/s')}, far faster than any mode of the circuit"
+            if growth is not None and math.isfinite(growth)
+            else "is singular (its Jacobian is not finite)")
+    return (f"{_interval(d)}: the numerical engine's narrow-pulse model {what} (a controlled "
+            f"source feeds back the current or voltage of a voltage source, vcvs, ccvs or switch "
+            f"with a gain that defeats its regularising resistance): values not reported from "
+            f"that interval on")
+
+
+#: the ``unsettled`` diagnostic's detail -> what the response did
+_UNSETTLED = {
+    "no-operating-point": "grows without bound (no DC operating point: a source drives a node "
+                          "or an inductor loop that has no DC path)",
+    "blow-up": "grows without bound (a growing mode)",
+    "horizon": "does not settle (an undamped or very slow oscillation)",
+}
+
+
+def _unsettled(d: r.Diagnostic) -> str:
+    reason = _UNSETTLED.get(d.detail, "could not be integrated")
+    where = f"node {d.nodes[0]!r}" if d.nodes else f"the current of {d.parts[0]!r}"
+    return (f"{_interval(d)}: the response {reason} by t = {format_si(d.value('end'), 's')}, "
+            f"most visibly at {where}; final values are not reported")
+
+
+def _work_budget(d: r.Diagnostic) -> str:
+    steps, evals = int(d.value("step-budget")), int(d.value("eval-budget"))
+    which = (f"for the whole solve: {steps} steps or {evals} evaluations" if d.detail == "solve"
+             else f"per interval: {steps} steps or {evals} evaluations, reached in interval "
+                  f"{d.interval}")
+    return (f"the numerical engine stopped after {int(d.value('steps'))} steps at t = {_at(d)} "
+            f"(its work budget {which}): values not reported from that interval on")
+
+
+def _breakdown(d: r.Diagnostic) -> str:
+    return (f"the numerical engine's integrator broke down in interval {d.interval} (from t = "
+            f"{_at(d)}; an overflowing or singular regularised system): values not reported "
+            f"from that interval on")
+
+
+def _stopped(d: r.Diagnostic) -> str:
+    return f"the integration stopped at t = {_at(d)}; later intervals are not reported"
+
+
+def _not_reached(d: r.Diagnostic) -> str:
+    return ("the integration stopped before this interval" if d.interval is not None
+            else "the integration stopped before this event")
+
+
+def _no_final(d: r.Diagnostic) -> str:
+    return f"the response did not settle ({d.detail}): no final value"
+
+
+def _sign_change(d: r.Diagnostic) -> str:
+    return "the post-pulse response changes sign: more than one mode or an oscillation"
+
+
+#: diagnostic code -> its sentence (every code ``harness.results`` declares has one)
+CODES: dict[str, Callable[[r.Diagnostic], str]] = {
+    r.FLOATING_NODES: _floating, r.UNDAMPED_OSCILLATION: _undamped,
+    r.STATE_OVERFLOW: _state_overflow, r.IMPULSE_DERIVATIVE: _impulse_derivative,
+    r.IMPULSIVE_CURRENT: _impulsive_current, r.IMPULSIVE_VOLTAGE: _impulsive_voltage,
+    r.RESPONSE_OVERFLOW: _response_overflow, r.NO_DECAY: _no_decay,
+    r.GROWING_MODE: _growing_mode, r.NO_DC_PATH: _no_dc_path, r.PULSE_GROWTH: _pulse_growth,
+    r.UNSETTLED: _unsettled, r.WORK_BUDGET: _work_budget, r.BREAKDOWN: _breakdown,
+    r.STOPPED: _stopped, r.NOT_REACHED: _not_reached, r.NO_FINAL: _no_final,
+    r.SIGN_CHANGE: _sign_change,
+}
+
+
+# ----------------------------------------------------------------------------- findings
+def open_node_text(node: str, part: str, side: str, near: str | None) -> str:
+    """The finding for a node only ``part``'s ``side`` terminal touches (``near``: the node
+    name it was probably meant to be)."""
+    hint = f" — did you mean {near!r}?" if near else ""
+    return (f"node {node!r} is touched only by {part} (its {side} terminal){hint} An open end "
+            f"carries no current, so {part} does nothing; if the node is meant to be open (a "
+            f"test point), list it in [settings] acknowledge")
+
+
+def _currents(h: r.Hazard) -> str:
+    names = [p for p in h.parts if f"{p}:before" in h.values]
+    return ", ".join(f"{n} ({format_si(h.values[f'{n}:before'], 'A')} → "
+                     f"{format_si(h.values[f'{n}:after'], 'A')})" for n in names)
+
+
+def _jump_hazard(h: r.Hazard) -> str:
+    when = format_si(h.time, "s")
+    switches = [p for p in h.parts if f"{p}:before" not in h.values]
+    across = ", ".join(switches) or "the part that opened"
+    loss = h.values.get("energy")
+    lost = f" and dissipates {format_si(loss, 'J')} in it" if loss else ""
+    if h.code == r.INTERRUPTED:
+        return (f"at {when} opening {across} interrupts the current of {_currents(h)} with no "
+                f"other path: the voltage across {across} is unbounded in the ideal circuit{lost} "
+                f"(an arc or avalanche in a real switch); give the coil a flyback path (diode, "
+                f"snubber, clamp) or list {across} in [settings] acknowledge")
+    return (f"at {when} opening {across} forces the current of {_currents(h)} to jump: an "
+            f"impulse of voltage appears across {across}{lost}; a real switch must absorb it "
+            f"(or list {across} in [settings] acknowledge)")
+
+
+def _growth_hazard(h: r.Hazard) -> str:
+    when = format_si(h.time, "s")
+    if "e-folding" in h.values:
+        active = f" (active parts: {', '.join(h.parts)})" if h.parts else ""
+        return (f"from {when} a growing mode (e-folding time "
+                f"{format_si(h.values['e-folding'], 's')}) makes the response grow without "
+                f"bound{active}")
+    source = f"from {', '.join(h.parts)} " if h.parts else ""
+    return (f"from {when} the current {source}into node(s) {', '.join(h.nodes)} has no DC path: "
+            f"the voltage grows without bound")
+
+
+def hazard_text(h: r.Hazard, numeric_sees: bool | None = None) -> str:
+    """The finding for a hazard (``numeric_sees`` False: the numerical engine's own jump does
+    not show it, which the sentence says)."""
+    said = _growth_hazard(h) if h.code == r.GROWTH else _jump_hazard(h)
+    if numeric_sees is False:
+        said += " (the numerical engine's integration does not show this jump: review it)"
+    return said
+
+
+# ----------------------------------------------------------------------------- rendering
+def text(item: r.Diagnostic | str) -> str:
+    """The sentence of a diagnostic (a numerical engine's one prefixed ``NUMERIC``); text
+    (the trust guard's notes, the comparator's sentences) as it is."""
+    if not isinstance(item, r.Diagnostic):
+        return item
+    said = CODES[item.code](item)
+    return NUMERIC + said if item.engine == "numeric" else said
+
+
+def _texts(items: Iterable[Any]) -> tuple:
+    return tuple(text(i) if isinstance(i, r.Diagnostic) else i for i in items)
+
+
+def _jump(jump: Any) -> Any:
+    if not isinstance(jump, dict) or not any(_has(jump.get(k, ())) for k in ("loops", "warnings")):
+        return jump
+    return {key: list(_texts(v)) if key in ("loops", "warnings") else v
+            for key, v in jump.items()}
+
+
+def worded_check(check: CheckResult) -> CheckResult:
+    """``check`` with its messages' diagnostics replaced by their sentences."""
+    return replace(check, messages=_texts(check.messages)) if _has(check.messages) else check
+
+
+def worded_file(file: FileResult) -> FileResult:
+    """``file`` with every diagnostic (warnings, jumps' loops and warnings, checks' messages)
+    replaced by its sentence; the same object when it holds none."""
+    checks = tuple(worded_check(c) for c in file.checks)
+    jumps = tuple(_jump(j) for j in file.jumps)
+    if not _has(file.warnings) and _same(checks, file.checks) and _same(jumps, file.jumps):
+        return file
+    return replace(file, warnings=_texts(file.warnings), checks=checks, jumps=jumps)
+
+
+def worded(run: RunResult) -> RunResult:
+    """``run`` with every diagnostic replaced by its sentence (``worded_file``)."""
+    files = tuple(worded_file(f) for f in run.files)
+    return run if _same(files, run.files) else replace(run, files=files)
+
+
+def _same(new: tuple, old: tuple) -> bool:
+    return all(a is b for a, b in zip(new, old))
+
+
+def _has(items: Iterable[Any]) -> bool:
+    return any(isinstance(i, r.Diagnostic) for i in items)
