@@ -77,9 +77,9 @@ class Symbols:
 
     def scope(self) -> tuple[dict, dict]:
         """(values, units) for ``harness.formula.evaluate`` of a produced formula."""
-        from ..fields import VALUE_DIMENSION
         parts = [p for p in self.circuit.parts if p.value is not None]
-        return ({p.name: p.value for p in parts}, {p.name: VALUE_DIMENSION[p.kind] for p in parts})
+        return ({p.name: p.value for p in parts},
+                {p.name: m.KIND_SPECS[p.kind].units["value"] for p in parts})
 
 
 @dataclass
