@@ -26,6 +26,9 @@ MAX_PARTS = 200
 MAX_STEPS = 2500
 
 _COMMON = ("kind", "nodes")
+#: quantity fields read into ``Part`` attributes of their own; any other quantity field a kind
+#: declares (``KindSpec.units``) is read into ``Part.params``
+_OWN_ATTRIBUTE = ("value", "gain", "initial", "on-resistance", "off-resistance")
 #: what each field of a part means (the file-format reference is written from it)
 FIELD_HELP = {
     "kind": "the part kind (below)",
@@ -90,13 +93,13 @@ def _kind_of(name: str, spec: object, where: Where) -> dict:
         raise where.error(f"part {name} must be an inline table such as "
                           f"{{ kind = \"resistor\", nodes = [\"a\", \"b\"], value = \"1k\" }}, "
                           f"got {type(spec).__name__}", path=path, part=name)
-    kind = spec.get("kind")
+    kind, kinds = spec.get("kind"), tuple(m.KIND_SPECS)
     if kind is None:
-        raise where.error(f"part {name} has no kind; give one of {quoted_list(m.KINDS)}",
+        raise where.error(f"part {name} has no kind; give one of {quoted_list(kinds)}",
                           path=path, part=name, field="kind")
-    if kind not in m.KINDS:
-        raise where.error(f"unknown kind {kind!r}{suggest(str(kind), m.KINDS)}; the kinds are "
-                          f"{quoted_list(m.KINDS)}", path=path + ("kind",), part=name,
+    if not isinstance(kind, str) or kind not in kinds:
+        raise where.error(f"unknown kind {kind!r}{suggest(str(kind), kinds)}; the kinds are "
+                          f"{quoted_list(kinds)}", path=path + ("kind",), part=name,
                           field="kind")
     declared = m.KIND_SPECS[kind]
     allowed = _COMMON + declared.fields
@@ -107,7 +110,7 @@ def _kind_of(name: str, spec: object, where: Where) -> dict:
     out = {"name": name, "kind": kind, "nodes": _nodes(name, spec, where)}
     if declared.branch == m.SWITCHED:
         out.update(_switch(name, spec, where))
-    if "value" in declared.required:
+    if "value" in declared.required or "value" in spec or "gain" in spec:
         out["value"] = _value(name, kind, spec, where)
     if "initial" in declared.fields and "initial" in spec:
         out["initial"] = where.quantity(spec["initial"], declared.units["initial"],
@@ -118,6 +121,12 @@ def _kind_of(name: str, spec: object, where: Where) -> dict:
         out["control"] = spec.get("control")
     if "spread" in spec:
         out["spread"] = read_spread(spec["spread"], where, path + ("spread",), name, "spread")
+    params = tuple((key, where.quantity(spec[key], unit, path=path + (key,), part=name,
+                                        field=key))
+                   for key, unit in declared.units.items()
+                   if key not in _OWN_ATTRIBUTE and key in spec)
+    if params:
+        out["params"] = params
     return out
 
 

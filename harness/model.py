@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from functools import cached_property
+from types import MappingProxyType
 from typing import Mapping
 
 RESISTOR = "resistor"
@@ -42,7 +43,10 @@ class KindSpec:
     """Everything the program asks of a part kind, declared once (``KIND_SPECS``).
 
     The reader, the reference, the graph checks and both engines ask these questions instead of
-    listing kinds; each engine keeps its own stamp per kind, keyed by ``name``.
+    listing kinds; each engine keeps its own stamp per kind, keyed by ``name``.  Every kind has
+    the terminals p and n (``nodes``); a ``VOLTAGE_PAIR`` control adds the sensing nodes cp and
+    cn (``control``), so a four-terminal part (an amplifier: output p, n; inputs cp, cn) is a
+    voltage-type kind with a voltage-pair control.
 
     Attributes:
         name: the kind as written in a file (``kind = "resistor"``).
@@ -51,14 +55,16 @@ class KindSpec:
         fields: the fields it takes beside ``kind`` and ``nodes``, in reference order.
         units: quantity field -> its dimension in ``units.UNITS`` terms (``value`` of a
             controlled source is a synonym of ``gain`` and has the gain's unit).
-        required: the fields a file must give (``value`` also through ``gain``).
-        terminals: the names of its ``nodes`` entries, in order (p, n).
+        required: the fields a file must give (``value`` also through ``gain``); an optional
+            ``value``/``gain`` is read when given (``Part.value`` None otherwise).
         branch: one of the branch types above; for a switched kind the state decides.
         control: ``VOLTAGE_PAIR``, ``SENSED_CURRENT`` or None (not controlled).
         stepped: its ``steps`` change its ``value`` (an independent source's drive).
         positive: its value must be greater than zero.
         sensed: a current-controlled part may sense its current.
         dissipative: an expectation may ask for the energy it absorbs.
+        field_help: what each of its fields that no other kind has means (the reference is
+            written from it; shared fields are described in ``fields.FIELD_HELP``).
     """
 
     name: str
@@ -68,12 +74,12 @@ class KindSpec:
     units: Mapping[str, str]
     branch: str
     required: tuple[str, ...] = ("value",)
-    terminals: tuple[str, ...] = ("p", "n")
     control: str | None = None
     stepped: bool = False
     positive: bool = False
     sensed: bool = False
     dissipative: bool = False
+    field_help: Mapping[str, str] = field(default_factory=dict)
 
     @property
     def storage(self) -> bool:
@@ -105,7 +111,7 @@ def _controlled(name: str, noun: str, gain: str, help: str, branch: str,
 
 
 #: every part kind, in reference order
-KIND_SPECS: Mapping[str, KindSpec] = {spec.name: spec for spec in (
+KIND_SPECS: Mapping[str, KindSpec] = MappingProxyType({spec.name: spec for spec in (
     KindSpec(RESISTOR, "a linear resistor", "resistor", ("value", "spread"),
              {"value": "ohm"}, RESISTIVE, positive=True, sensed=True, dissipative=True),
     KindSpec(CAPACITOR, "a linear capacitor; its voltage v(p) − v(n) is a state", "capacitor",
@@ -137,7 +143,7 @@ KIND_SPECS: Mapping[str, KindSpec] = {spec.name: spec for spec in (
     _controlled(CCCS, "current-controlled current source", "1",
                 "current-controlled current source: current gain · i(control part) from p "
                 "through itself to n", CURRENT_TYPE, SENSED_CURRENT),
-)}
+)})
 
 
 def kinds_where(question) -> tuple[str, ...]:
@@ -212,6 +218,9 @@ class Part:
     #: manufacturing spread of ``value`` as relative (low, high), e.g. (-0.2, 0.8) for
     #: "-20%/+80%"; None when the part is held at its nominal value (``harness.variation``)
     spread: tuple[float, float] | None = None
+    #: (field, SI value) of the further quantity fields its kind declares (``KindSpec.units``
+    #: beyond value, gain, initial and the switch resistances), in declaration order
+    params: tuple[tuple[str, float], ...] = ()
 
     @property
     def p(self) -> str:
@@ -220,6 +229,11 @@ class Part:
     @property
     def n(self) -> str:
         return self.nodes[1]
+
+    def param(self, name: str) -> float | None:
+        """The further quantity field ``name`` (``params``), or None where the file left it
+        out."""
+        return dict(self.params).get(name)
 
     def source_value(self, time: float) -> float:
         """Source value in force just after ``time`` (steps at ``time`` included), in V or A."""

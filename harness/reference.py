@@ -78,7 +78,10 @@ def _parts() -> list[str]:
     out += ["### Part fields", ""]
     names = dict.fromkeys(("kind", "nodes") + tuple(f for declared in m.KIND_SPECS.values()
                                                     for f in declared.fields))
-    out += _table(("field", "meaning"), [(f"`{n}`", fd.FIELD_HELP[n]) for n in names])
+    own = {n: text for declared in m.KIND_SPECS.values()
+           for n, text in declared.field_help.items()}
+    out += _table(("field", "meaning"),
+                  [(f"`{n}`", fd.FIELD_HELP[n] if n in fd.FIELD_HELP else own[n]) for n in names])
     return out
 
 
