@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InitialStateError
-from ..model import CAPACITOR, CURRENT_BRANCHES, INDUCTOR, SWITCH, Circuit, Part
+from ..model import CAPACITOR, CURRENT_BRANCHES, INDUCTOR, STORAGE, SWITCH, Circuit, Part
 from .linalg import LeastSquares, regular_factor
 from .mna import Layout, Scale, floating_groups, pin, voltage_row
 from .stamps import stamp
@@ -171,7 +171,7 @@ def _check_unique(circuit: Circuit, layout: Layout, scale: Scale, gd: np.ndarray
     null /= np.linalg.norm(null, axis=1, keepdims=True)
     d = scale.var(layout)
     for part in circuit.parts:
-        if part.initial is not None or part.kind not in (CAPACITOR, INDUCTOR):
+        if part.initial is not None or part.kind not in STORAGE:
             continue
         if part.kind == CAPACITOR:
             row = voltage_row(layout, part.p, part.n) * d
@@ -205,7 +205,7 @@ def dc_state(circuit: Circuit, layout: Layout, scale: Scale,
     groups = floating_groups(circuit, _dc_connects)
     _check_defined(circuit, groups)
     storage = any(p.initial is not None for p in circuit.parts
-                  if p.kind in (CAPACITOR, INDUCTOR))
+                  if p.kind in STORAGE)
     if reuse is not None and not groups and not storage:
         solver, bd = reuse
         gd, held, pinned = solver.a, [], solver.a

@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..model import CAPACITOR, INDUCTOR, KIND_SPECS, RESISTOR, SWITCH, SWITCHED, Circuit
+from ..model import CAPACITOR, INDUCTOR, KIND_SPECS, RESISTOR, STORAGE, SWITCH, SWITCHED, Circuit
 from ..results import Jump
 from ..units import format_si
 from .linalg import least_squares
@@ -150,7 +150,7 @@ def _arrays(circuit: Circuit, layout: Layout) -> _PartArrays:
     key = ("jump-arrays", layout.nodes, layout.branches)
     if key not in memo:
         parts = circuit.parts
-        st = [i for i, p in enumerate(parts) if p.kind in (CAPACITOR, INDUCTOR)]
+        st = [i for i, p in enumerate(parts) if p.kind in STORAGE]
         ca = [i for i, p in enumerate(parts) if _carrier_kind(p.kind) is not None]
         kinds = [_carrier_kind(parts[i].kind) for i in ca]
         memo[key] = _PartArrays(

@@ -43,6 +43,8 @@ from .branches import (Affine, Branches, Layout, Regulariser, branch_currents, d
                        flows)
 from .coordinates import SPARSE_ABOVE, Reducer, assemble, constants, forest
 from .regularise import Regularisation
+
+
 @dataclass(frozen=True)
 class System:
     """One interval's ODE and branch expressions.
