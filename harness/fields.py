@@ -97,7 +97,7 @@ def _kind_of(name: str, spec: object, where: Where) -> dict:
     if kind is None:
         raise where.error(f"part {name} has no kind; give one of {quoted_list(kinds)}",
                           path=path, part=name, field="kind")
-    if not isinstance(kind, str) or kind not in kinds:
+    if kind not in kinds:
         raise where.error(f"unknown kind {kind!r}{suggest(str(kind), kinds)}; the kinds are "
                           f"{quoted_list(kinds)}", path=path + ("kind",), part=name,
                           field="kind")

@@ -1,13 +1,13 @@
 """The circuit-file reference and the settings reference, written from the declarations.
 
-Everything here is read from the tables the reader itself checks files against — the kinds and
+Everything here is read from the tables the reader itself checks files against — the kinds with
 their help, fields and units (``model.KIND_SPECS``), what each part field means
-(``fields.FIELD_HELP``), the top
-level, ``[settings]`` and ``[[expect]]`` keys (``circuitfile.TOP_LEVEL`` … ``EXPECT_HELP``), the
-prefixes and units (``units``) and the ``[tool.tauproof]`` keys (``config.KEYS``) — so the
-reference cannot drift from what the reader accepts: a key without a description raises
-``KeyError`` here.  ``harness/reference.md`` is the committed output of ``format_reference``
-(``python -m harness.reference`` rewrites it; a test fails when it differs).
+(``fields.FIELD_HELP``), the top level, ``[settings]`` and ``[[expect]]`` keys
+(``circuitfile.TOP_LEVEL`` … ``EXPECT_HELP``), the prefixes and units (``units``) and the
+``[tool.tauproof]`` keys (``config.KEYS``) — so the reference cannot drift from what the reader
+accepts: a key without a description raises ``KeyError`` here.  ``harness/reference.md`` is the
+committed output of ``format_reference`` (``python -m harness.reference`` rewrites it; a test
+fails when it differs).
 """
 
 from __future__ import annotations
