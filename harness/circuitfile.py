@@ -19,7 +19,7 @@ from pathlib import Path
 from . import model as m
 from . import topology
 from .errors import InputError, UnitError
-from .fields import VALUE_DIMENSION, parse_parts
+from .fields import parse_parts
 from .filelines import Locator, Where, expect_label, name_problem, quoted_list, suggest
 from .units import check_magnitude, format_si, has_suffix
 from .variation.declare import check_drifts, read_spec, read_spread, read_variation
@@ -339,7 +339,7 @@ def _expectations(raw: object, circuit: m.Circuit, where: Where) -> tuple[m.Expe
         raise where.error(f"{len(raw)} [[expect]] blocks; the limit is {MAX_EXPECTATIONS}",
                           path=("expect",), field="expect")
     scope = _Scope({p.name: p.value for p in circuit.parts if p.value is not None},
-                    {p.name: VALUE_DIMENSION[p.kind] for p in circuit.parts
+                    {p.name: m.KIND_SPECS[p.kind].units["value"] for p in circuit.parts
                      if p.value is not None})
     return tuple(_expectation(i, block, circuit, scope, where) for i, block in enumerate(raw))
 

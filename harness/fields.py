@@ -26,23 +26,9 @@ MAX_PARTS = 200
 MAX_STEPS = 2500
 
 _COMMON = ("kind", "nodes")
-FIELDS_BY_KIND: dict[str, tuple[str, ...]] = {
-    m.RESISTOR: ("value", "spread", "tempco", "ageing"),
-    m.CAPACITOR: ("value", "initial", "spread", "tempco", "ageing"),
-    m.INDUCTOR: ("value", "initial", "spread", "tempco", "ageing"),
-    m.VOLTAGE_SOURCE: ("value", "steps", "spread", "tempco", "ageing"),
-    m.CURRENT_SOURCE: ("value", "steps", "spread", "tempco", "ageing"),
-    m.SWITCH: ("state", "steps", "on-resistance", "off-resistance"),
-    m.VCVS: ("gain", "value", "control"),
-    m.VCCS: ("gain", "value", "control"),
-    m.CCVS: ("gain", "value", "control"),
-    m.CCCS: ("gain", "value", "control"),
-}
-#: dimension of ``value`` (``gain`` for controlled sources), in units.UNITS terms
-VALUE_DIMENSION = {m.RESISTOR: "ohm", m.CAPACITOR: "F", m.INDUCTOR: "H",
-                   m.VOLTAGE_SOURCE: "V", m.CURRENT_SOURCE: "A",
-                   m.VCVS: "1", m.VCCS: "S", m.CCVS: "ohm", m.CCCS: "1"}
-INITIAL_DIMENSION = {m.CAPACITOR: "V", m.INDUCTOR: "A"}
+#: quantity fields read into ``Part`` attributes of their own; any other quantity field a kind
+#: declares (``KindSpec.units``) is read into ``Part.params``
+_OWN_ATTRIBUTE = ("value", "gain", "initial", "on-resistance", "off-resistance")
 #: what each field of a part means (the file-format reference is written from it)
 FIELD_HELP = {
     "kind": "the part kind (below)",
@@ -65,16 +51,16 @@ FIELD_HELP = {
               "\"±30 ppm/K\"; over [variation] `temperature` it widens the spread (below)",
     "ageing": "drift of `value` over life, written like `spread` (\"0.5%\", \"-10%/+0%\"); it "
               "adds linearly to the spread",
-    "control": "vcvs, vccs: [\"cp\", \"cn\"], the nodes whose voltage v(cp) − v(cn) it senses; "
-               "ccvs, cccs: the name of the part whose current it senses (a "
+    "control": ", ".join(m.VOLTAGE_CONTROLLED) + ": [\"cp\", \"cn\"], the nodes whose voltage "
+               "v(cp) − v(cn) it senses; " + ", ".join(m.CURRENT_CONTROLLED) + ": the name of "
+               "the part whose current it senses (a "
                + ", ".join(m.CURRENT_SENSORS) + ")",
 }
-_ARTICLE = {m.INDUCTOR: "an"}
 _STATES = {"open": 0.0, "closed": 1.0}
 
 
 def _a(kind: str) -> str:
-    return f"{_ARTICLE.get(kind, 'a')} {kind}"
+    return f"{m.KIND_SPECS[kind].article} {kind}"
 
 
 def parse_parts(table: object, where: Where) -> tuple[m.Part, ...]:
@@ -111,30 +97,31 @@ def _kind_of(name: str, spec: object, where: Where) -> dict:
         raise where.error(f"part {name} must be an inline table such as "
                           f"{{ kind = \"resistor\", nodes = [\"a\", \"b\"], value = \"1k\" }}, "
                           f"got {type(spec).__name__}", path=path, part=name)
-    kind = spec.get("kind")
+    kind, kinds = spec.get("kind"), tuple(m.KIND_SPECS)
     if kind is None:
-        raise where.error(f"part {name} has no kind; give one of {quoted_list(m.KINDS)}",
+        raise where.error(f"part {name} has no kind; give one of {quoted_list(kinds)}",
                           path=path, part=name, field="kind")
-    if kind not in m.KINDS:
-        raise where.error(f"unknown kind {kind!r}{suggest(str(kind), m.KINDS)}; the kinds are "
-                          f"{quoted_list(m.KINDS)}", path=path + ("kind",), part=name,
+    if kind not in kinds:
+        raise where.error(f"unknown kind {kind!r}{suggest(str(kind), kinds)}; the kinds are "
+                          f"{quoted_list(kinds)}", path=path + ("kind",), part=name,
                           field="kind")
-    allowed = _COMMON + FIELDS_BY_KIND[kind]
+    declared = m.KIND_SPECS[kind]
+    allowed = _COMMON + declared.fields
     for key in spec:
         if key not in allowed:
             raise where.error(_unknown_field(key, kind, allowed), path=path + (key,), part=name,
                               field=key)
     out = {"name": name, "kind": kind, "nodes": _nodes(name, spec, where)}
-    if kind == m.SWITCH:
+    if declared.branch == m.SWITCHED:
         out.update(_switch(name, spec, where))
-    else:
+    if "value" in declared.required or "value" in spec or "gain" in spec:
         out["value"] = _value(name, kind, spec, where)
-    if kind in INITIAL_DIMENSION and "initial" in spec:
-        out["initial"] = where.quantity(spec["initial"], INITIAL_DIMENSION[kind],
+    if "initial" in declared.fields and "initial" in spec:
+        out["initial"] = where.quantity(spec["initial"], declared.units["initial"],
                                         path=path + ("initial",), part=name, field="initial")
-    if kind in m.SOURCES and "steps" in spec:
-        out["steps"] = _steps(name, spec["steps"], where, VALUE_DIMENSION[kind])
-    if kind in m.VOLTAGE_CONTROLLED + m.CURRENT_CONTROLLED:
+    if declared.stepped and "steps" in spec:
+        out["steps"] = _steps(name, spec["steps"], where, declared.units["value"])
+    if declared.control is not None:
         out["control"] = spec.get("control")
     if "spread" in spec:
         out["spread"] = read_spread(spec["spread"], where, path + ("spread",), name, "spread")
@@ -142,11 +129,17 @@ def _kind_of(name: str, spec: object, where: Where) -> dict:
         out["ageing"] = read_spread(spec["ageing"], where, path + ("ageing",), name, "ageing")
     if "tempco" in spec:
         out["tempco"] = read_tempco(spec["tempco"], where, path + ("tempco",), name)
+    params = tuple((key, where.quantity(spec[key], unit, path=path + (key,), part=name,
+                                        field=key))
+                   for key, unit in declared.units.items()
+                   if key not in _OWN_ATTRIBUTE and key in spec)
+    if params:
+        out["params"] = params
     return out
 
 
 def _unknown_field(key: str, kind: str, allowed: tuple[str, ...]) -> str:
-    owners = [k for k, fields in FIELDS_BY_KIND.items() if key in fields]
+    owners = [k for k, declared in m.KIND_SPECS.items() if key in declared.fields]
     text = f"{_a(kind)} has no field {key!r}"
     if owners:
         text += f" (it belongs to {', '.join(owners)})"
@@ -176,8 +169,9 @@ def _nodes(name: str, spec: dict, where: Where) -> tuple[str, str]:
 
 
 def _value(name: str, kind: str, spec: dict, where: Where) -> float:
+    declared = m.KIND_SPECS[kind]
     field_name = "value"
-    if kind in m.VOLTAGE_CONTROLLED + m.CURRENT_CONTROLLED:
+    if "gain" in declared.fields:
         if "gain" in spec and "value" in spec:
             raise where.error("give the gain once: 'gain' and 'value' mean the same here",
                               path=("parts", name, "value"), part=name, field="value")
@@ -186,9 +180,9 @@ def _value(name: str, kind: str, spec: dict, where: Where) -> float:
     if field_name not in spec:
         raise where.error(f"{_a(kind)} needs a {field_name}", path=path, part=name,
                           field=field_name)
-    value = where.quantity(spec[field_name], VALUE_DIMENSION[kind], path=path, part=name,
+    value = where.quantity(spec[field_name], declared.units[field_name], path=path, part=name,
                            field=field_name)
-    if kind in (m.RESISTOR, m.CAPACITOR, m.INDUCTOR) and not value > 0:
+    if declared.positive and not value > 0:
         hint = (" (for a short use a switch with state = \"closed\")"
                 if kind == m.RESISTOR and value == 0 else "")
         raise where.error(f"{_a(kind)}'s value must be greater than zero, got "
@@ -282,7 +276,8 @@ def _check_control(name: str, spec: dict, specs: dict, nodes: set, where: Where)
     def fail(message: str):
         return where.error(message, path=path, part=name, field="control")
 
-    if kind in m.VOLTAGE_CONTROLLED:
+    control = m.KIND_SPECS[kind].control
+    if control == m.VOLTAGE_PAIR:
         if not (isinstance(raw, list) and len(raw) == 2 and all(isinstance(x, str) for x in raw)):
             raise fail(f"{_a(kind)} needs control = [\"cp\", \"cn\"]: the two nodes whose "
                        f"voltage v(cp) - v(cn) it senses, got {raw!r}")
@@ -293,7 +288,7 @@ def _check_control(name: str, spec: dict, specs: dict, nodes: set, where: Where)
         if raw[0] == raw[1]:
             raise fail(f"both control nodes are {raw[0]!r}: the sensed voltage would always be 0")
         spec["control"] = (raw[0], raw[1])
-    elif kind in m.CURRENT_CONTROLLED:
+    elif control == m.SENSED_CURRENT:
         if not isinstance(raw, str):
             raise fail(f"{_a(kind)} needs control = \"Vx\": the name of the part whose current "
                        f"it senses, got {raw!r}")

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from functools import cached_property
+from types import MappingProxyType
 from typing import Mapping
 
 RESISTOR = "resistor"
@@ -26,33 +27,145 @@ VCCS = "vccs"
 CCVS = "ccvs"
 CCCS = "cccs"
 
-KINDS = (RESISTOR, CAPACITOR, INDUCTOR, VOLTAGE_SOURCE, CURRENT_SOURCE, SWITCH, VCVS, VCCS, CCVS,
-         CCCS)
-#: what each kind is, in a sentence (the file-format reference is written from it)
-KIND_HELP = {
-    RESISTOR: "a linear resistor",
-    CAPACITOR: "a linear capacitor; its voltage v(p) − v(n) is a state",
-    INDUCTOR: "a linear inductor; its current from p to n is a state",
-    VOLTAGE_SOURCE: "an ideal voltage source: v(p) − v(n) = value, stepped by `steps`",
-    CURRENT_SOURCE: "an ideal current source driving `value` from p through itself to n, "
-                    "stepped by `steps`",
-    SWITCH: "an ideal switch (a short when closed, open when open) or, with `on-resistance` / "
-            "`off-resistance`, a resistance that changes with its state",
-    VCVS: "voltage-controlled voltage source: v(p) − v(n) = gain · (v(cp) − v(cn))",
-    VCCS: "voltage-controlled current source: current gain · (v(cp) − v(cn)) from p through "
-          "itself to n",
-    CCVS: "current-controlled voltage source: v(p) − v(n) = gain · i(control part)",
-    CCCS: "current-controlled current source: current gain · i(control part) from p through "
-          "itself to n",
-}
-SOURCES = (VOLTAGE_SOURCE, CURRENT_SOURCE)
-STORAGE = (CAPACITOR, INDUCTOR)
-VOLTAGE_CONTROLLED = (VCVS, VCCS)
-CURRENT_CONTROLLED = (CCVS, CCCS)
+#: branch types of a part kind (``KindSpec.branch``): it fixes its voltage and carries any
+#: current; it fixes its current; it relates the two by a resistance; it stores charge (its
+#: voltage is a state); it stores flux (its current is a state); it is voltage-type, open or
+#: resistive according to its switch state
+VOLTAGE_TYPE, CURRENT_TYPE, RESISTIVE = "voltage-type", "current-type", "resistive"
+CAPACITIVE, INDUCTIVE, SWITCHED = "capacitive", "inductive", "switched"
+#: what a controlled part senses (``KindSpec.control``): the voltage v(cp) − v(cn) of a node
+#: pair given in ``control = ["cp", "cn"]``, or the current of the part named in ``control``
+VOLTAGE_PAIR, SENSED_CURRENT = "voltage-pair", "sensed-current"
+
+
+@dataclass(frozen=True)
+class KindSpec:
+    """Everything the program asks of a part kind, declared once (``KIND_SPECS``).
+
+    The reader, the reference, the graph checks and both engines ask these questions instead of
+    listing kinds; each engine keeps its own stamp per kind, keyed by ``name``.  Every kind has
+    the terminals p and n (``nodes``); a ``VOLTAGE_PAIR`` control adds the sensing nodes cp and
+    cn (``control``), so a four-terminal part (an amplifier: output p, n; inputs cp, cn) is a
+    voltage-type kind with a voltage-pair control.
+
+    Attributes:
+        name: the kind as written in a file (``kind = "resistor"``).
+        help: what it is, in a sentence (the file-format reference is written from it).
+        noun: the kind in prose (``voltage-controlled voltage source``).
+        fields: the fields it takes beside ``kind`` and ``nodes``, in reference order.
+        units: quantity field -> its dimension in ``units.UNITS`` terms (``value`` of a
+            controlled source is a synonym of ``gain`` and has the gain's unit).
+        required: the fields a file must give (``value`` also through ``gain``); an optional
+            ``value``/``gain`` is read when given (``Part.value`` None otherwise).
+        branch: one of the branch types above; for a switched kind the state decides.
+        control: ``VOLTAGE_PAIR``, ``SENSED_CURRENT`` or None (not controlled).
+        stepped: its ``steps`` change its ``value`` (an independent source's drive).
+        positive: its value must be greater than zero.
+        sensed: a current-controlled part may sense its current.
+        dissipative: an expectation may ask for the energy it absorbs.
+        field_help: what each of its fields that no other kind has means (the reference is
+            written from it; shared fields are described in ``fields.FIELD_HELP``).
+    """
+
+    name: str
+    help: str
+    noun: str
+    fields: tuple[str, ...]
+    units: Mapping[str, str]
+    branch: str
+    required: tuple[str, ...] = ("value",)
+    control: str | None = None
+    stepped: bool = False
+    positive: bool = False
+    sensed: bool = False
+    dissipative: bool = False
+    field_help: Mapping[str, str] = field(default_factory=dict)
+
+    @property
+    def storage(self) -> bool:
+        """It holds a state (a capacitor's voltage or an inductor's current)."""
+        return self.branch in (CAPACITIVE, INDUCTIVE)
+
+    @property
+    def voltage_branch(self) -> bool:
+        """It fixes its voltage and carries whatever current the circuit demands."""
+        return self.branch == VOLTAGE_TYPE
+
+    @property
+    def current_branch(self) -> bool:
+        """It fixes its current whatever the voltage across it."""
+        return self.branch == CURRENT_TYPE
+
+    @property
+    def article(self) -> str:
+        """``a`` or ``an`` before the kind's name."""
+        return "an" if self.name[0] in "aeiou" else "a"
+
+
+def _controlled(name: str, noun: str, gain: str, help: str, branch: str,
+                control: str) -> KindSpec:
+    """A controlled source: ``gain`` (``value`` a synonym) in ``gain`` units, and a control."""
+    return KindSpec(name, help, noun, ("gain", "value", "control"),
+                    {"gain": gain, "value": gain}, branch, required=("value", "control"),
+                    control=control, dissipative=True)
+
+
+#: the fields that vary a part's value for the sign-off over tolerances (``harness.variation``)
+_SPREADS = ("spread", "tempco", "ageing")
+#: every part kind, in reference order
+KIND_SPECS: Mapping[str, KindSpec] = MappingProxyType({spec.name: spec for spec in (
+    KindSpec(RESISTOR, "a linear resistor", "resistor", ("value",) + _SPREADS,
+             {"value": "ohm"}, RESISTIVE, positive=True, sensed=True, dissipative=True),
+    KindSpec(CAPACITOR, "a linear capacitor; its voltage v(p) − v(n) is a state", "capacitor",
+             ("value", "initial") + _SPREADS, {"value": "F", "initial": "V"}, CAPACITIVE,
+             positive=True),
+    KindSpec(INDUCTOR, "a linear inductor; its current from p to n is a state", "inductor",
+             ("value", "initial") + _SPREADS, {"value": "H", "initial": "A"}, INDUCTIVE,
+             positive=True, sensed=True),
+    KindSpec(VOLTAGE_SOURCE, "an ideal voltage source: v(p) − v(n) = value, stepped by `steps`",
+             "voltage source", ("value", "steps") + _SPREADS, {"value": "V"}, VOLTAGE_TYPE,
+             stepped=True, sensed=True),
+    KindSpec(CURRENT_SOURCE, "an ideal current source driving `value` from p through itself "
+             "to n, stepped by `steps`", "current source", ("value", "steps") + _SPREADS,
+             {"value": "A"}, CURRENT_TYPE, stepped=True),
+    KindSpec(SWITCH, "an ideal switch (a short when closed, open when open) or, with "
+             "`on-resistance` / `off-resistance`, a resistance that changes with its state",
+             "switch", ("state", "steps", "on-resistance", "off-resistance"),
+             {"on-resistance": "ohm", "off-resistance": "ohm"}, SWITCHED, required=("state",),
+             sensed=True, dissipative=True),
+    _controlled(VCVS, "voltage-controlled voltage source", "1",
+                "voltage-controlled voltage source: v(p) − v(n) = gain · (v(cp) − v(cn))",
+                VOLTAGE_TYPE, VOLTAGE_PAIR),
+    _controlled(VCCS, "voltage-controlled current source", "S",
+                "voltage-controlled current source: current gain · (v(cp) − v(cn)) from p "
+                "through itself to n", CURRENT_TYPE, VOLTAGE_PAIR),
+    _controlled(CCVS, "current-controlled voltage source", "ohm",
+                "current-controlled voltage source: v(p) − v(n) = gain · i(control part)",
+                VOLTAGE_TYPE, SENSED_CURRENT),
+    _controlled(CCCS, "current-controlled current source", "1",
+                "current-controlled current source: current gain · i(control part) from p "
+                "through itself to n", CURRENT_TYPE, SENSED_CURRENT),
+)})
+
+
+def kinds_where(question) -> tuple[str, ...]:
+    """The kinds whose declaration answers ``question(spec)`` truthfully, in reference order."""
+    return tuple(name for name, spec in KIND_SPECS.items() if question(spec))
+
+
+KINDS = tuple(KIND_SPECS)
+#: independent sources (their steps change their value)
+SOURCES = kinds_where(lambda s: s.stepped)
+STORAGE = kinds_where(lambda s: s.storage)
+VOLTAGE_CONTROLLED = kinds_where(lambda s: s.control == VOLTAGE_PAIR)
+CURRENT_CONTROLLED = kinds_where(lambda s: s.control == SENSED_CURRENT)
 #: every controlled source
-CONTROLLED = VOLTAGE_CONTROLLED + CURRENT_CONTROLLED
+CONTROLLED = kinds_where(lambda s: s.control is not None)
 #: parts whose current a ccvs/cccs may sense
-CURRENT_SENSORS = (VOLTAGE_SOURCE, SWITCH, INDUCTOR, RESISTOR)
+CURRENT_SENSORS = kinds_where(lambda s: s.sensed)
+#: kinds that fix their voltage (voltage sources, vcvs, ccvs) / their current
+VOLTAGE_BRANCHES = kinds_where(lambda s: s.voltage_branch)
+CURRENT_BRANCHES = kinds_where(lambda s: s.current_branch)
 
 #: probe kinds
 NODE, BETWEEN, ACROSS, THROUGH = "node", "between", "across", "through"
@@ -71,7 +184,7 @@ RING_FIELDS = {"ring_frequency": "Hz", "damping": "1", "q": "1", "overshoot": "1
 RISING, FALLING, EITHER = "rising", "falling", "either"
 DIRECTIONS = (RISING, FALLING, EITHER)
 #: the part kinds whose dissipated energy an expectation may ask for
-DISSIPATIVE = (RESISTOR, SWITCH, VCVS, VCCS, CCVS, CCCS)
+DISSIPATIVE = kinds_where(lambda s: s.dissipative)
 
 
 @dataclass(frozen=True)
@@ -112,6 +225,9 @@ class Part:
     tempco: tuple[float, float] | None = None
     #: relative ageing drift of ``value`` over life as (low, high), like ``spread``
     ageing: tuple[float, float] | None = None
+    #: (field, SI value) of the further quantity fields its kind declares (``KindSpec.units``
+    #: beyond value, gain, initial and the switch resistances), in declaration order
+    params: tuple[tuple[str, float], ...] = ()
 
     @property
     def p(self) -> str:
@@ -120,6 +236,11 @@ class Part:
     @property
     def n(self) -> str:
         return self.nodes[1]
+
+    def param(self, name: str) -> float | None:
+        """The further quantity field ``name`` (``params``), or None where the file left it
+        out."""
+        return dict(self.params).get(name)
 
     def source_value(self, time: float) -> float:
         """Source value in force just after ``time`` (steps at ``time`` included), in V or A."""

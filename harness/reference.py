@@ -1,13 +1,13 @@
 """The circuit-file reference and the settings reference, written from the declarations.
 
-Everything here is read from the tables the reader itself checks files against — the kinds and
-their help (``model.KINDS``, ``model.KIND_HELP``), each kind's fields and units
-(``fields.FIELDS_BY_KIND``, ``VALUE_DIMENSION``, ``INITIAL_DIMENSION``, ``FIELD_HELP``), the top
-level, ``[settings]`` and ``[[expect]]`` keys (``circuitfile.TOP_LEVEL`` … ``EXPECT_HELP``), the
-prefixes and units (``units``) and the ``[tool.tauproof]`` keys (``config.KEYS``) — so the
-reference cannot drift from what the reader accepts: a key without a description raises
-``KeyError`` here.  ``harness/reference.md`` is the committed output of ``format_reference``
-(``python -m harness.reference`` rewrites it; a test fails when it differs).
+Everything here is read from the tables the reader itself checks files against — the kinds with
+their help, fields and units (``model.KIND_SPECS``), what each part field means
+(``fields.FIELD_HELP``), the top level, ``[settings]`` and ``[[expect]]`` keys
+(``circuitfile.TOP_LEVEL`` … ``EXPECT_HELP``), the prefixes and units (``units``) and the
+``[tool.tauproof]`` keys (``config.KEYS``) — so the reference cannot drift from what the reader
+accepts: a key without a description raises ``KeyError`` here.  ``harness/reference.md`` is the
+committed output of ``format_reference`` (``python -m harness.reference`` rewrites it; a test
+fails when it differs).
 """
 
 from __future__ import annotations
@@ -68,18 +68,20 @@ def _parts() -> list[str]:
            "`[parts]` holds one inline table per part: `R1 = { kind = \"resistor\", nodes = "
            "[\"in\", \"out\"], value = \"10k\" }`. Every part takes `kind` and `nodes`.", ""]
     rows = []
-    for kind in m.KINDS:
-        value = fd.VALUE_DIMENSION.get(kind)
+    for kind, declared in m.KIND_SPECS.items():
+        value = declared.units.get("value")
         unit = "—" if value is None else _UNIT_WORDS[value]
-        initial = fd.INITIAL_DIMENSION.get(kind)
-        rows.append((f"`{kind}`", m.KIND_HELP[kind],
-                     ", ".join(f"`{f}`" for f in fd.FIELDS_BY_KIND[kind]),
+        initial = declared.units.get("initial")
+        rows.append((f"`{kind}`", declared.help, ", ".join(f"`{f}`" for f in declared.fields),
                      unit + (f"; initial in {initial}" if initial else "")))
     out += _table(("kind", "what it is", "fields beside kind and nodes", "value unit"), rows)
     out += ["### Part fields", ""]
-    names = dict.fromkeys(("kind", "nodes") + tuple(f for k in m.KINDS
-                                                    for f in fd.FIELDS_BY_KIND[k]))
-    out += _table(("field", "meaning"), [(f"`{n}`", fd.FIELD_HELP[n]) for n in names])
+    names = dict.fromkeys(("kind", "nodes") + tuple(f for declared in m.KIND_SPECS.values()
+                                                    for f in declared.fields))
+    own = {n: text for declared in m.KIND_SPECS.values()
+           for n, text in declared.field_help.items()}
+    out += _table(("field", "meaning"),
+                  [(f"`{n}`", fd.FIELD_HELP[n] if n in fd.FIELD_HELP else own[n]) for n in names])
     return out
 
 

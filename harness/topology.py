@@ -26,30 +26,25 @@ from collections import deque
 from . import model as m
 from .errors import InitialStateError, TopologyError
 from .filelines import closest
+from .model import CURRENT_TYPE, RESISTIVE, VOLTAGE_TYPE
 from .units import format_si
 
-VOLTAGE_TYPE, CURRENT_TYPE, OPEN, RESISTIVE = "voltage-type", "current-type", "open", "resistive"
+#: the class of an open ideal switch (it neither fixes nor carries anything)
+OPEN = "open"
 #: relative tolerance for the sums of known voltages around a loop / currents across a cutset
 SUM_TOLERANCE = 1e-9
 
-_NOUN = {m.RESISTOR: "resistor", m.CAPACITOR: "capacitor", m.INDUCTOR: "inductor",
-         m.VOLTAGE_SOURCE: "voltage source", m.CURRENT_SOURCE: "current source",
-         m.SWITCH: "switch", m.VCVS: "voltage-controlled voltage source",
-         m.VCCS: "voltage-controlled current source", m.CCVS: "current-controlled voltage source",
-         m.CCCS: "current-controlled current source"}
-
 
 def branch_class(part: m.Part, closed: bool | None = None) -> str:
-    """The class of ``part`` given its switch state: one of the module constants or the kind."""
-    if part.kind in (m.VOLTAGE_SOURCE, m.VCVS, m.CCVS):
-        return VOLTAGE_TYPE
-    if part.kind in (m.CURRENT_SOURCE, m.VCCS, m.CCCS):
-        return CURRENT_TYPE
-    if part.kind == m.SWITCH:
-        if closed:
-            return VOLTAGE_TYPE if part.on_resistance is None else RESISTIVE
-        return OPEN if part.off_resistance is None else RESISTIVE
-    return RESISTIVE if part.kind == m.RESISTOR else part.kind
+    """The class of ``part`` given its switch state: its kind's declared branch type
+    (``model.KindSpec.branch``), or for a switched kind ``VOLTAGE_TYPE``, ``RESISTIVE`` or
+    ``OPEN`` by its state and resistances."""
+    declared = m.KIND_SPECS[part.kind].branch
+    if declared != m.SWITCHED:
+        return declared
+    if closed:
+        return VOLTAGE_TYPE if part.on_resistance is None else RESISTIVE
+    return OPEN if part.off_resistance is None else RESISTIVE
 
 
 class _Forest:
@@ -150,7 +145,7 @@ def _nodes_text(nodes) -> str:
 def _describe(part: m.Part, closed: bool | None) -> str:
     if part.kind == m.SWITCH:
         return f"{'closed' if closed else 'open'} switch {part.name}"
-    return f"{_NOUN[part.kind]} {part.name}"
+    return f"{m.KIND_SPECS[part.kind].noun} {part.name}"
 
 
 def _t(when: float) -> str:
@@ -500,7 +495,7 @@ def trapped_nodes(circuit: m.Circuit, k: int) -> list[tuple[str, ...]]:
     forest = _Forest(circuit.nodes)
     for p in circuit.parts:
         closed = p.is_closed(when) if p.kind == m.SWITCH else None
-        if branch_class(p, closed) in (VOLTAGE_TYPE, RESISTIVE, m.INDUCTOR):
+        if branch_class(p, closed) in (VOLTAGE_TYPE, RESISTIVE, m.INDUCTIVE):
             forest.add(p.p, p.n, p.name)
     ground = forest.root(circuit.ground)
     cuts = forest.boundaries(circuit.parts)
@@ -520,7 +515,7 @@ def storage_cutsets(circuit: m.Circuit, k: int) -> list[tuple[str, ...]]:
     _, closed, changed = _at_event(circuit, k)
     forest = _Forest(circuit.nodes)
     for p in circuit.parts:
-        if branch_class(p, closed.get(p.name)) in (VOLTAGE_TYPE, RESISTIVE, m.CAPACITOR):
+        if branch_class(p, closed.get(p.name)) in (VOLTAGE_TYPE, RESISTIVE, m.CAPACITIVE):
             forest.add(p.p, p.n, p.name)
     ground = forest.root(circuit.ground)
     out: list[tuple[str, ...]] = []

@@ -424,10 +424,10 @@ def _driven_ladder(sections: int, before: float = 2.0, initial=None, switch: boo
 
 def _prestep_pencil(circ):
     """(layout, scale, G~ solve, b~, pinned) of the pre-step configuration, as solve builds it."""
-    from harness.closedform import mna, solution
-    layout, scale = mna.layout_of(circ), mna.scale_of(circ)
+    from harness.closedform import mna, solution, stamps
+    layout, scale = stamps.layout_of(circ), mna.scale_of(circ)
     closed, values, groups = solution._interval_setup(circ, layout, scale, 0.0, True)
-    g, c, _ = mna.stamp(circ, layout, closed, lambda p: 0.0)
+    g, c, _ = stamps.stamp(circ, layout, closed, lambda p: 0.0)
     mna.pin(g, layout, groups, 1.0 / scale.r0)
     gs, _, _ = mna.scaled(g, c, np.zeros(layout.size), layout, scale)
     b = solution._b_scaled(circ, layout, scale, closed, values)
@@ -664,13 +664,13 @@ def test_jump_sums_equal_the_per_part_textbook_values():
     """jumps.stored_energy and _charges (array expressions) against the per-part textbook
     values written here: C v^2 / 2 and L i^2 / 2; C dv for a capacitor, the branch variable
     for a source, inductor or switch, phi / R for a resistor, g (phi_cp - phi_cn) for a vccs."""
-    from harness.closedform import jumps, mna
+    from harness.closedform import jumps, stamps
     from tests.closedform_circuits import G, S
     circ = circuit(V("V1", "in", "gnd", 1.0), R("R1", "in", "a", 10.0),
                    C("C1", "a", "gnd", 1e-6), L("L1", "a", "b", 1e-3),
                    S("S1", "b", "gnd", True), G("G1", "a", "gnd", 0.1, "in", "b"),
                    C("C2", "in", "b", 2e-6))
-    layout = mna.layout_of(circ)
+    layout = stamps.layout_of(circ)
     rng = np.random.default_rng(1)
     x, q, dx = (rng.standard_normal(layout.size) for _ in range(3))
 

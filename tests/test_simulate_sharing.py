@@ -158,7 +158,7 @@ def test_state_bound_is_the_capacitance_rank():
     import random
 
     from harness.simulate.coordinates import Unreduced
-    from harness.simulate.equations import layout
+    from harness.simulate.branches import layout
     from harness.simulate.regularise import choose
     from tests.simulate_random import random_circuit
 

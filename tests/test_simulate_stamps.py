@@ -10,7 +10,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from harness.simulate.equations import build, layout
+from harness.simulate.branches import layout
+from harness.simulate.equations import build
 from harness.simulate.regularise import choose
 from simulate_builder import circuit, ladder, part, step_source
 

@@ -9,6 +9,7 @@ Method (no time stepping; plain dense linear algebra).
    on-resistance: v = R_on i), so the layout never changes.  ccvs/cccs sense a branch variable or
    a resistor's (vp - vn)/R.  Node groups that reach ground only through open switches or
    current sources (undefined common voltage) are tied to ground by R0 and reported.
+   Each part kind's entries come from its stamp in ``stamps.STAMPS``.
 2. Scaling.  Currents in units of V/R0 and time in units of T, R0 the geometric mean of the
    resistances, T the geometric mean of R0*C over capacitors and L/R0 over inductors, so the
    scaled matrices and modes are O(1) for typical values.

@@ -18,9 +18,10 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InitialStateError
-from ..model import (CAPACITOR, CCCS, CURRENT_SOURCE, INDUCTOR, SWITCH, VCCS, Circuit, Part)
+from ..model import CAPACITOR, CURRENT_BRANCHES, INDUCTOR, STORAGE, SWITCH, Circuit, Part
 from .linalg import LeastSquares, regular_factor
-from .mna import Layout, Scale, floating_groups, pin, stamp, voltage_row
+from .mna import Layout, Scale, floating_groups, pin, voltage_row
+from .stamps import stamp
 
 _RESIDUAL = 1e-9
 _NULL = 1e-12
@@ -32,7 +33,7 @@ def _pre_closed(circuit: Circuit) -> dict[str, bool]:
 
 def _dc_connects(part: Part) -> bool:
     """Whether a part joins its nodes in the DC network used at 0-."""
-    if part.kind in (CURRENT_SOURCE, VCCS, CCCS):
+    if part.kind in CURRENT_BRANCHES:
         return False
     if part.kind == CAPACITOR:
         return part.initial is not None
@@ -121,7 +122,7 @@ def _inconsistent(circuit: Circuit, layout: Layout, held: list[Part], resid: np.
             f"the initial currents of {', '.join(p.name for p in held)} contradict Kirchhoff's "
             f"current law at node(s) {', '.join(sorted(nodes))} at 0-", file=circuit.source,
             part=held[0].name, field="initial", line=held[0].line)
-    feeders = [p for p in circuit.parts if p.kind in (CURRENT_SOURCE, VCCS, CCCS)
+    feeders = [p for p in circuit.parts if p.kind in CURRENT_BRANCHES
                and (p.p in nodes or p.n in nodes)]
     part = feeders[0] if feeders else None
     raise InitialStateError(
@@ -170,7 +171,7 @@ def _check_unique(circuit: Circuit, layout: Layout, scale: Scale, gd: np.ndarray
     null /= np.linalg.norm(null, axis=1, keepdims=True)
     d = scale.var(layout)
     for part in circuit.parts:
-        if part.initial is not None or part.kind not in (CAPACITOR, INDUCTOR):
+        if part.initial is not None or part.kind not in STORAGE:
             continue
         if part.kind == CAPACITOR:
             row = voltage_row(layout, part.p, part.n) * d
@@ -204,7 +205,7 @@ def dc_state(circuit: Circuit, layout: Layout, scale: Scale,
     groups = floating_groups(circuit, _dc_connects)
     _check_defined(circuit, groups)
     storage = any(p.initial is not None for p in circuit.parts
-                  if p.kind in (CAPACITOR, INDUCTOR))
+                  if p.kind in STORAGE)
     if reuse is not None and not groups and not storage:
         solver, bd = reuse
         gd, held, pinned = solver.a, [], solver.a

@@ -24,12 +24,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, SWITCH, VCCS,
-                     VCVS, VOLTAGE_SOURCE, Circuit)
+from ..model import CAPACITOR, INDUCTOR, KIND_SPECS, RESISTOR, STORAGE, SWITCH, SWITCHED, Circuit
 from ..results import (IMPULSE_DERIVATIVE, IMPULSIVE_CURRENT, IMPULSIVE_VOLTAGE, STATE_OVERFLOW,
                        Diagnostic, Jump)
 from .linalg import least_squares
-from .mna import BRANCH_KINDS, Layout, Scale, current_row, index_of, part_voltages
+from .mna import Layout, Scale, index_of, part_voltages
+from .stamps import STAMPS, current_row
 
 #: impulse weights below this fraction of the circuit's charge (flux) scale count as zero
 SIGNIFICANT = 1e-9
@@ -132,7 +132,16 @@ class _PartArrays:
     carrier_branch: np.ndarray
 
 
-_CARRIER_KIND = {CAPACITOR: 0, RESISTOR: 2, VCCS: 3, CCCS: 3}
+def _carrier_kind(kind: str) -> int | None:
+    """How ``_charges`` reads the impulsive charge of a part of ``kind``: 0 C dv (a
+    capacitor), 1 its branch variable, 2 its flux / R (a resistor), 3 its kind's current row
+    applied to the impulse; None when it carries none (a current source)."""
+    entry = STAMPS[kind]
+    if entry.branch:
+        return 1
+    if kind in (CAPACITOR, RESISTOR):
+        return 0 if kind == CAPACITOR else 2
+    return 3 if entry.current is not None else None
 
 
 def _arrays(circuit: Circuit, layout: Layout) -> _PartArrays:
@@ -141,10 +150,9 @@ def _arrays(circuit: Circuit, layout: Layout) -> _PartArrays:
     key = ("jump-arrays", layout.nodes, layout.branches)
     if key not in memo:
         parts = circuit.parts
-        st = [i for i, p in enumerate(parts) if p.kind in (CAPACITOR, INDUCTOR)]
-        ca = [i for i, p in enumerate(parts) if p.kind in _CARRIER_KIND or p.kind in BRANCH_KINDS]
-        kinds = [1 if parts[i].kind in BRANCH_KINDS else _CARRIER_KIND[parts[i].kind]
-                 for i in ca]
+        st = [i for i, p in enumerate(parts) if p.kind in STORAGE]
+        ca = [i for i, p in enumerate(parts) if _carrier_kind(p.kind) is not None]
+        kinds = [_carrier_kind(parts[i].kind) for i in ca]
         memo[key] = _PartArrays(
             tuple(p.name for p in parts), np.array(st, dtype=int),
             tuple(parts[i].name for i in st),
@@ -206,13 +214,11 @@ def _energy(circuit: Circuit, before: dict, after: dict, charges: dict, fluxes: 
     work = 0.0
     for part in circuit.parts:
         q, phi = charges.get(part.name, 0.0), fluxes.get(part.name, 0.0)
-        if part.kind in (VCVS, CCVS, VCCS, CCCS, RESISTOR):
-            if q or phi:
-                return None
-        elif part.kind == VOLTAGE_SOURCE:
-            work -= values[part.name] * q
-        elif part.kind == CURRENT_SOURCE:
-            work -= values[part.name] * phi
+        declared = KIND_SPECS[part.kind]
+        if declared.stepped:      # an independent source's work: E q or I phi
+            work -= values[part.name] * (q if declared.voltage_branch else phi)
+        elif not (declared.storage or declared.branch == SWITCHED) and (q or phi):
+            return None           # an impulse through a resistance or a controlled source
     return float(sum(before.values()) - sum(after.values()) + work)
 
 

@@ -1,4 +1,5 @@
-"""Modified nodal analysis: the variable layout, the scaling and the stamps C x' + G x = b.
+"""Modified nodal analysis: the variable layout, the scaling and the graph of C x' + G x = b
+(the stamps of each part kind are ``stamps.py``).
 
 The state x holds the node voltages (ground removed, in ``Circuit.nodes`` order) followed by one
 branch current for every voltage-type part (voltage source, vcvs, ccvs, inductor) and for every
@@ -33,14 +34,12 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse import csgraph
 
-from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, SWITCH, VCCS,
-                     VCVS, VOLTAGE_SOURCE, Circuit, Part)
+from ..model import (CAPACITOR, CURRENT_TYPE, INDUCTOR, KIND_SPECS, RESISTOR, SWITCH, SWITCHED,
+                     Circuit, Part)
 
 #: from this many parts on, node groups come from scipy.sparse.csgraph and resistors and
 #: capacitors are stamped in one vectorised call (below, the plain Python loops are faster)
 GRAPH_MIN_PARTS = 48
-#: part kinds that own a branch-current variable
-BRANCH_KINDS = (VOLTAGE_SOURCE, VCVS, CCVS, INDUCTOR, SWITCH)
 
 
 @dataclass(frozen=True)
@@ -78,16 +77,6 @@ class Layout:
     def __post_init__(self) -> None:
         object.__setattr__(self, "_node_index", {n: i for i, n in enumerate(self.nodes)})
         object.__setattr__(self, "_branch_index", {b: j for j, b in enumerate(self.branches)})
-
-
-def layout_of(circuit: Circuit) -> Layout:
-    """The variable layout of ``circuit`` (fixed for all intervals; built once per circuit)."""
-    memo = index_of(circuit).components
-    if "layout" not in memo:
-        nodes = tuple(n for n in index_of(circuit).nodes if n != circuit.ground)
-        branches = tuple(p.name for p in circuit.parts if p.kind in BRANCH_KINDS)
-        memo["layout"] = Layout(circuit.ground, nodes, branches)
-    return memo["layout"]
 
 
 @dataclass(frozen=True)
@@ -129,15 +118,6 @@ def scale_of(circuit: Circuit) -> Scale:
         r0 = 1.0
     times = [r0 * c for c in caps] + [ell / r0 for ell in inds]
     return Scale(r0=r0, t=_geomean(times) if times else 1.0)
-
-
-def _stamp_pair(m: np.ndarray, layout: Layout, row_p: str, row_n: str, col: np.ndarray) -> None:
-    """Add ``col`` (a coefficient row vector) to the KCL row of row_p and subtract it at row_n."""
-    ip, in_ = layout.node(row_p), layout.node(row_n)
-    if ip is not None:
-        m[ip] += col
-    if in_ is not None:
-        m[in_] -= col
 
 
 def voltage_row(layout: Layout, p: str, n: str) -> np.ndarray:
@@ -211,170 +191,17 @@ def part_voltages(circuit: Circuit, layout: Layout, x: np.ndarray) -> np.ndarray
     """v(p) - v(n) of every part (file order) for the state ``x`` (shape (n,) or (n, k)),
     shape (parts,) or (parts, k): the rows ``voltage_row`` gives, applied all at once."""
     idx = index_of(circuit)
-    pos = _layout_positions(idx, layout)
+    pos = layout_positions(idx, layout)
     xe = np.concatenate([np.asarray(x)[:layout.n_nodes], np.zeros((1,) + np.shape(x)[1:])])
     return xe[pos[idx.terminals[:, 0]]] - xe[pos[idx.terminals[:, 1]]]
 
 
-def _layout_positions(idx: Index, layout: Layout) -> np.ndarray:
+def layout_positions(idx: Index, layout: Layout) -> np.ndarray:
     """Position in x of every node of ``idx.nodes`` (ground: n_nodes, a padded zero)."""
     if layout.ground == idx.nodes[0] and layout.nodes == idx.nodes[1:]:
         return idx.positions                      # the layout of ``layout_of``
     return np.array([layout.n_nodes if n == layout.ground else layout.node(n)
                      for n in idx.nodes], dtype=int)
-
-
-def current_row(circuit: Circuit, layout: Layout, name: str) -> np.ndarray:
-    """Coefficients over x of the current p -> n through a current-sensing part, shape (n,).
-
-    Voltage sources, switches and inductors give their branch variable; resistors (vp - vn)/R;
-    vcvs and ccvs their branch variable; vccs and cccs their controlled output current.
-    """
-    part = part_named(circuit, name)
-    if part.kind in BRANCH_KINDS:
-        row = np.zeros(layout.size)
-        row[layout.branch(name)] = 1.0
-        return row
-    if part.kind == RESISTOR:
-        return voltage_row(layout, part.p, part.n) / part.value
-    if part.kind == VCCS:
-        return part.value * voltage_row(layout, *part.control)
-    if part.kind == CCCS:
-        return part.value * current_row(circuit, layout, part.control)
-    raise KeyError(name)
-
-
-def _switch_row(part: Part, closed: bool, size: int, j: int, vrow: np.ndarray) -> np.ndarray:
-    """Branch row of a switch in the given state (see the module docstring)."""
-    row = np.zeros(size)
-    if closed:
-        row += vrow
-        if part.on_resistance:
-            row[j] -= part.on_resistance
-    elif part.off_resistance:
-        row += vrow
-        row[j] -= part.off_resistance
-    else:
-        row[j] = 1.0
-    return row
-
-
-def stamp(circuit: Circuit, layout: Layout, closed: Mapping[str, bool],
-          value: Callable[[Part], float]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Unscaled MNA matrices (G, C, b), shapes (n, n), (n, n), (n,).
-
-    From GRAPH_MIN_PARTS parts on, resistors and capacitors are stamped all at once
-    (``_stamp_admittances``); every other part (and, below that size, every part) one by one in
-    file order.
-
-    Args:
-        closed: switch name -> closed in this interval.
-        value: independent source -> its value (V or A) in this interval.
-    """
-    size = layout.size
-    g, c, b = np.zeros((size, size)), np.zeros((size, size)), np.zeros(size)
-    together = len(circuit.parts) >= GRAPH_MIN_PARTS
-    if together:
-        _stamp_admittances(g, circuit, layout, RESISTOR, lambda v: 1.0 / v)
-        _stamp_admittances(c, circuit, layout, CAPACITOR, lambda v: v)
-    for part in circuit.parts:
-        if part.kind == RESISTOR and not together:
-            _stamp_two(g, layout, part.p, part.n, 1.0 / part.value)
-        if part.kind == CAPACITOR and not together:
-            _stamp_two(c, layout, part.p, part.n, part.value)
-        if part.kind in (RESISTOR, CAPACITOR):
-            continue
-        if part.kind == CURRENT_SOURCE:
-            _inject(b, layout, part.p, part.n, value(part))
-            continue
-        vrow = voltage_row(layout, part.p, part.n)
-        if part.kind in (VCCS, CCCS):
-            _stamp_pair(g, layout, part.p, part.n, current_row(circuit, layout, part.name))
-        else:
-            _stamp_branch(circuit, layout, part, vrow, closed, value, g, c, b)
-    return g, c, b
-
-
-def stamp_sources(circuit: Circuit, layout: Layout, value: Callable[[Part], float]) -> np.ndarray:
-    """The right side b alone, shape (n,): what ``stamp`` gives for b (independent current
-    sources into their KCL rows, voltage sources on their branch rows), in O(parts)."""
-    b = np.zeros(layout.size)
-    for part in circuit.parts:
-        if part.kind == CURRENT_SOURCE:
-            _inject(b, layout, part.p, part.n, value(part))
-        elif part.kind == VOLTAGE_SOURCE:
-            b[layout.branch(part.name)] = value(part)
-    return b
-
-
-def _stamp_admittances(m: np.ndarray, circuit: Circuit, layout: Layout, kind: str,
-                       admittance: Callable[[float], float]) -> None:
-    """Add every two-terminal admittance of the parts of ``kind`` (in file order, each as
-    ``_stamp_two`` would, in the same order of accumulation) with one ``np.add.at``; the
-    entries are built once per circuit (memoised in its ``Index`` for the standard layout)."""
-    idx = index_of(circuit)
-    pos = _layout_positions(idx, layout)
-    key = ("admittances", kind)
-    entries = idx.components.get(key) if pos is idx.positions else None
-    if entries is None:
-        rows = [i for i, p in enumerate(circuit.parts) if p.kind == kind]
-        ip, in_ = pos[idx.terminals[rows, 0]], pos[idx.terminals[rows, 1]]
-        y = np.array([admittance(circuit.parts[i].value) for i in rows], dtype=float)
-        nn = layout.n_nodes                       # the ground's padded position
-        r = np.stack([ip, ip, in_, in_], axis=1).ravel()
-        col = np.stack([ip, in_, in_, ip], axis=1).ravel()
-        val = np.stack([y, -y, y, -y], axis=1).ravel()
-        keep = (r != nn) & (col != nn)
-        entries = (r[keep], col[keep], val[keep])
-        if pos is idx.positions:
-            idx.components[key] = entries
-    if entries[0].size:
-        np.add.at(m, (entries[0], entries[1]), entries[2])
-
-
-def _stamp_two(m: np.ndarray, layout: Layout, p: str, n: str, y: float) -> None:
-    """Add the two-terminal admittance ``y`` between p and n (the entries ``_stamp_pair`` adds
-    for ``y * voltage_row(p, n)``, written one by one: O(1) instead of O(n))."""
-    ip, in_ = layout.node(p), layout.node(n)
-    if ip is not None:
-        m[ip, ip] += y
-        if in_ is not None:
-            m[ip, in_] -= y
-    if in_ is not None:
-        m[in_, in_] += y
-        if ip is not None:
-            m[in_, ip] -= y
-
-
-def _inject(b: np.ndarray, layout: Layout, p: str, n: str, amps: float) -> None:
-    """A current ``amps`` flowing from p through a source to n: it leaves node p, enters node n."""
-    ip, in_ = layout.node(p), layout.node(n)
-    if ip is not None:
-        b[ip] -= amps
-    if in_ is not None:
-        b[in_] += amps
-
-
-def _stamp_branch(circuit: Circuit, layout: Layout, part: Part, vrow: np.ndarray,
-                  closed: Mapping[str, bool], value: Callable[[Part], float], g: np.ndarray,
-                  c: np.ndarray, b: np.ndarray) -> None:
-    """KCL column and branch row of a part with a branch current variable."""
-    j = layout.branch(part.name)
-    unit = np.zeros(layout.size)
-    unit[j] = 1.0
-    _stamp_pair(g, layout, part.p, part.n, unit)
-    if part.kind == VOLTAGE_SOURCE:
-        g[j] = vrow
-        b[j] = value(part)
-    elif part.kind == INDUCTOR:
-        g[j] = vrow
-        c[j, j] = -part.value
-    elif part.kind == VCVS:
-        g[j] = vrow - part.value * voltage_row(layout, *part.control)
-    elif part.kind == CCVS:
-        g[j] = vrow - part.value * current_row(circuit, layout, part.control)
-    elif part.kind == SWITCH:
-        g[j] = _switch_row(part, closed[part.name], layout.size, j, vrow)
 
 
 def scaled(g: np.ndarray, c: np.ndarray, b: np.ndarray, layout: Layout,
@@ -499,8 +326,8 @@ def interval_groups(circuit: Circuit, closed: Mapping[str, bool]) -> list[list[s
     idx = index_of(circuit)
     if "interval-mask" not in idx.components:
         parts = circuit.parts
-        base = np.array([p.kind not in (CURRENT_SOURCE, VCCS, CCCS, SWITCH) for p in parts],
-                        dtype=bool)
+        base = np.array([KIND_SPECS[p.kind].branch not in (CURRENT_TYPE, SWITCHED)
+                         for p in parts], dtype=bool)
         switches = [i for i, p in enumerate(parts) if p.kind == SWITCH]
         idx.components["interval-mask"] = (
             base, np.array(switches, dtype=int), tuple(parts[i].name for i in switches),
@@ -516,7 +343,7 @@ def connects_in_interval(closed: Mapping[str, bool]) -> Callable[[Part], bool]:
     """Which parts join their two nodes in an interval: all but current-type outputs and open
     ideal switches."""
     def connects(part: Part) -> bool:
-        if part.kind in (CURRENT_SOURCE, VCCS, CCCS):
+        if KIND_SPECS[part.kind].current_branch:
             return False
         if part.kind == SWITCH:
             return bool(closed[part.name]) or bool(part.off_resistance)

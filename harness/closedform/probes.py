@@ -24,7 +24,8 @@ import numpy as np
 
 from ..errors import InputError
 from ..model import (ACROSS, BETWEEN, CAPACITOR, CURRENT_SOURCE, NODE, THROUGH, Circuit, Probe)
-from .mna import Layout, Scale, current_row, voltage_row
+from .mna import Layout, Scale, voltage_row
+from .stamps import current_row
 
 
 @dataclass(frozen=True)

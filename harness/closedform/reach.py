@@ -30,7 +30,7 @@ from __future__ import annotations
 import numpy as np
 import scipy.linalg as la
 
-from ..model import ACROSS, CAPACITOR, INDUCTOR, THROUGH, Circuit, Probe
+from ..model import ACROSS, CAPACITOR, INDUCTOR, STORAGE, THROUGH, Circuit, Probe
 from .mna import Layout
 
 #: generic points in scaled time at which the transfer functions are tested
@@ -70,7 +70,7 @@ def reaching_storage(circuit: Circuit, layout: Layout, g: np.ndarray, c: np.ndar
     docstring) in the scaled pencil (g, c) of one interval; ``row``, ``drow``: the probe's
     coefficients over x~ and dx~/dtau (shape (n,)).  None when the pencil is singular at both
     points (then the caller counts every storage part)."""
-    storage = [p for p in circuit.parts if p.kind in (CAPACITOR, INDUCTOR)]
+    storage = [p for p in circuit.parts if p.kind in STORAGE]
     inject = np.array([_injection(layout, p, g.shape[0]) for p in storage]).reshape(
         len(storage), g.shape[0])
     reached = np.zeros(len(storage), dtype=bool)

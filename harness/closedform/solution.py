@@ -7,8 +7,8 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ..errors import TopologyError
-from ..model import (ACROSS, CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, SOURCES, SWITCH, THROUGH,
-                     VCCS, VCVS, Circuit, Probe)
+from ..model import (ACROSS, CAPACITOR, CONTROLLED, CURRENT_BRANCHES, CURRENT_SOURCE, SOURCES,
+                     SWITCH, THROUGH, VOLTAGE_CONTROLLED, Circuit, Probe)
 from ..results import (FLOATING_NODES, GROWTH, UNDAMPED_OSCILLATION, Diagnostic, Features,
                        Hazard, Jump)
 from ..tolerances import MODE_VISIBILITY
@@ -17,8 +17,8 @@ from .features import SCALE_FLOOR, RawEvent, classify, probe_scale, raw_event
 from .initial import dc_state
 from .interval import SingularPencil
 from .jumps import Scales, jump_at
-from .mna import (Layout, Scale, capacitor_null_basis, interval_groups, layout_of, pin,
-                  scale_of, scaled, stamp, stamp_sources)
+from .mna import Layout, Scale, capacitor_null_basis, interval_groups, pin, scale_of, scaled
+from .stamps import layout_of, stamp, stamp_sources
 from .modes import UNDAMPED, Mode, mode_of
 from .probes import functional
 from .reach import reaching_storage, voltage_of_capacitor
@@ -316,8 +316,8 @@ def _blamed_part(circuit: Circuit, nodes: list[str]) -> tuple[str | None, str | 
     """(part, field) to name for undetermined ``nodes``: a controlled source touching them
     (its gain), else the first part touching them (its nodes)."""
     touching = [p for p in circuit.parts if set(p.nodes) & set(nodes)
-                or (p.kind in (VCVS, VCCS) and set(p.control or ()) & set(nodes))]
-    active = [p for p in touching if p.kind in (VCVS, VCCS, CCVS, CCCS)]
+                or (p.kind in VOLTAGE_CONTROLLED and set(p.control or ()) & set(nodes))]
+    active = [p for p in touching if p.kind in CONTROLLED]
     if active:
         return active[0].name, "gain"
     return (touching[0].name, "nodes") if touching else (None, None)
@@ -387,10 +387,10 @@ def _interval_hazards(circuit: Circuit, resp: IntervalResponse, scale: Scale) ->
     out = []
     if resp.augmented:
         nodes = set(resp.growth_nodes)
-        feeders = tuple(p.name for p in circuit.parts if p.kind in (CURRENT_SOURCE, VCCS, CCCS)
+        feeders = tuple(p.name for p in circuit.parts if p.kind in CURRENT_BRANCHES
                         and (p.p in nodes or p.n in nodes))
         out.append(Hazard(GROWTH, resp.start, feeders, tuple(sorted(nodes))))
-    active = tuple(p.name for p in circuit.parts if p.kind in (VCVS, VCCS, CCVS, CCCS))
+    active = tuple(p.name for p in circuit.parts if p.kind in CONTROLLED)
     for cl in resp.dec.clusters:
         rate = complex(cl.rate)
         if cl.zero or rate.real < -UNDAMPED * abs(rate):

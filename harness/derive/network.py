@@ -19,6 +19,7 @@ This module builds the matrices only; ``laplace`` solves them.  Nothing here imp
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Callable
 
 import sympy as sp
 
@@ -43,7 +44,7 @@ class Symbols:
     def part(self, name: str) -> sp.Symbol:
         if name not in self.table:
             kind = self.circuit.part(name).kind
-            positive = kind in (m.RESISTOR, m.CAPACITOR, m.INDUCTOR)
+            positive = m.KIND_SPECS[kind].positive
             self.table[name] = sp.Symbol(name, positive=True) if positive \
                 else sp.Symbol(name, real=True)
         return self.table[name]
@@ -77,9 +78,9 @@ class Symbols:
 
     def scope(self) -> tuple[dict, dict]:
         """(values, units) for ``harness.formula.evaluate`` of a produced formula."""
-        from ..fields import VALUE_DIMENSION
         parts = [p for p in self.circuit.parts if p.value is not None]
-        return ({p.name: p.value for p in parts}, {p.name: VALUE_DIMENSION[p.kind] for p in parts})
+        return ({p.name: p.value for p in parts},
+                {p.name: m.KIND_SPECS[p.kind].units["value"] for p in parts})
 
 
 @dataclass
@@ -131,11 +132,8 @@ def _layout(circuit: m.Circuit, time: float, pre: bool, opened: frozenset,
     for part in circuit.parts:
         if part.name in opened:
             continue
-        branch = part.kind in (m.INDUCTOR, m.VCVS, m.CCVS) or part.name in short \
-            or part.kind == m.VOLTAGE_SOURCE \
-            or (part.kind == m.SWITCH and _closed(part, time, pre)
-                and _switch_resistance(part, True) is None)
-        if branch:
+        has_branch = STAMPS[part.kind].branch
+        if part.name in short or (has_branch is not None and has_branch(part, time, pre)):
             index[f"i:{part.name}"] = len(index)
     if len(index) > MAX_UNKNOWNS:
         raise TooLarge(f"{len(index)} unknowns in the nodal equations (the symbolic budget is "
@@ -162,7 +160,7 @@ def build(circuit: m.Circuit, time: float, syms: Symbols, pre: bool = False,
         if part.name in short:
             stamps.voltage(part, sp.Integer(0))
             continue
-        _stamp(part, circuit, time, pre, zeroed, syms, stamps)
+        STAMPS[part.kind].stamp(part, _Interval(circuit, time, pre, zeroed, syms), stamps)
     storage = tuple(p.name for p in circuit.parts if p.kind in m.STORAGE
                     and p.name not in open_parts and p.name not in short)
     return Network(index, g, c, b, storage, stamps.capacitors, stamps.conductances,
@@ -223,58 +221,111 @@ class _Stamps:
         return []                                  # an open switch senses no current
 
 
-def _stamp(part, circuit, time, pre, zeroed, syms, st: _Stamps) -> None:
-    kind = part.kind
-    if kind == m.RESISTOR:
-        st.pair(st.g, part.p, part.n, 1 / syms.part(part.name))
-    elif kind == m.CAPACITOR:
-        st.pair(st.c, part.p, part.n, syms.part(part.name))
-        st.capacitors[part.name] = (st.row[part.p], st.row[part.n], syms.part(part.name))
-    elif kind == m.INDUCTOR:
-        k = st.branch_kcl(part)
-        st.c[k, k] = syms.part(part.name)          # L di/dt − (v_p − v_n) = 0
-        for node, sign in ((part.p, -1), (part.n, 1)):
-            if st.row[node] is not None:
-                st.g[k, st.row[node]] += sign
-    elif kind == m.VOLTAGE_SOURCE:
-        st.voltage(part, 0 if zeroed else _source(part, time, pre, syms))
-    elif kind == m.CURRENT_SOURCE:
-        value = sp.Integer(0) if zeroed else _source(part, time, pre, syms)
-        st.current(part, value)
-        st.currents[part.name] = lambda v, y, value=value: value
-    elif kind == m.SWITCH:
-        r = _switch_resistance(part, _closed(part, time, pre), syms)
-        if r is None:
-            st.voltage(part, 0)
-        elif r != 0:
-            st.pair(st.g, part.p, part.n, 1 / r)
-            st.conductances[part.name] = 1 / r
-    else:
-        _controlled(part, circuit, syms, st)
+@dataclass(frozen=True)
+class _Interval:
+    """What a kind's symbolic stamp reads: the circuit, the interval (its start ``time``;
+    ``pre`` before t = 0), whether independent sources are zeroed, and the symbols."""
+
+    circuit: m.Circuit
+    time: float
+    pre: bool
+    zeroed: bool
+    syms: Symbols
 
 
-def _controlled(part: m.Part, circuit: m.Circuit, syms: Symbols, st: _Stamps) -> None:
-    """vcvs, vccs, ccvs, cccs with their gain as a symbol."""
-    gain = syms.part(part.name)
-    if part.kind in m.VOLTAGE_CONTROLLED:
-        cp, cn = part.control
-        if part.kind == m.VCCS:
-            st.pair(st.g, part.p, part.n, gain, cp, cn)
-            st.currents[part.name] = lambda v, y: gain * (v(cp) - v(cn))
-            return
-        k = st.voltage(part, 0)                    # v_p − v_n − gain·(v_cp − v_cn) = 0
-        for node, sign in ((cp, -1), (cn, 1)):
-            if st.row[node] is not None:
-                st.g[k, st.row[node]] += sign * gain
-        return
-    terms = st.sensed(part.control, circuit, syms)
-    if part.kind == m.CCVS:
-        k = st.voltage(part, 0)
-        for col, coef in terms:
-            st.g[k, col] -= gain * coef
-        return
+def _resistor(part: m.Part, iv: _Interval, st: _Stamps) -> None:
+    st.pair(st.g, part.p, part.n, 1 / iv.syms.part(part.name))
+
+
+def _capacitor(part: m.Part, iv: _Interval, st: _Stamps) -> None:
+    st.pair(st.c, part.p, part.n, iv.syms.part(part.name))
+    st.capacitors[part.name] = (st.row[part.p], st.row[part.n], iv.syms.part(part.name))
+
+
+def _inductor(part: m.Part, iv: _Interval, st: _Stamps) -> None:
+    k = st.branch_kcl(part)
+    st.c[k, k] = iv.syms.part(part.name)          # L di/dt − (v_p − v_n) = 0
+    for node, sign in ((part.p, -1), (part.n, 1)):
+        if st.row[node] is not None:
+            st.g[k, st.row[node]] += sign
+
+
+def _voltage_source(part: m.Part, iv: _Interval, st: _Stamps) -> None:
+    st.voltage(part, 0 if iv.zeroed else _source(part, iv.time, iv.pre, iv.syms))
+
+
+def _current_source(part: m.Part, iv: _Interval, st: _Stamps) -> None:
+    value = sp.Integer(0) if iv.zeroed else _source(part, iv.time, iv.pre, iv.syms)
+    st.current(part, value)
+    st.currents[part.name] = lambda v, y, value=value: value
+
+
+def _switch(part: m.Part, iv: _Interval, st: _Stamps) -> None:
+    r = _switch_resistance(part, _closed(part, iv.time, iv.pre), iv.syms)
+    if r is None:
+        st.voltage(part, 0)
+    elif r != 0:
+        st.pair(st.g, part.p, part.n, 1 / r)
+        st.conductances[part.name] = 1 / r
+
+
+def _vcvs(part: m.Part, iv: _Interval, st: _Stamps) -> None:
+    gain, (cp, cn) = iv.syms.part(part.name), part.control
+    k = st.voltage(part, 0)                    # v_p − v_n − gain·(v_cp − v_cn) = 0
+    for node, sign in ((cp, -1), (cn, 1)):
+        if st.row[node] is not None:
+            st.g[k, st.row[node]] += sign * gain
+
+
+def _vccs(part: m.Part, iv: _Interval, st: _Stamps) -> None:
+    gain, (cp, cn) = iv.syms.part(part.name), part.control
+    st.pair(st.g, part.p, part.n, gain, cp, cn)
+    st.currents[part.name] = lambda v, y: gain * (v(cp) - v(cn))
+
+
+def _ccvs(part: m.Part, iv: _Interval, st: _Stamps) -> None:
+    gain, terms = iv.syms.part(part.name), st.sensed(part.control, iv.circuit, iv.syms)
+    k = st.voltage(part, 0)
+    for col, coef in terms:
+        st.g[k, col] -= gain * coef
+
+
+def _cccs(part: m.Part, iv: _Interval, st: _Stamps) -> None:
+    gain, terms = iv.syms.part(part.name), st.sensed(part.control, iv.circuit, iv.syms)
     st.currents[part.name] = lambda v, y: gain * sum(coef * y[col] for col, coef in terms)
     for node, sign in ((part.p, 1), (part.n, -1)):     # cccs: gain·i leaves p, enters n
         if st.row[node] is not None:
             for col, coef in terms:
                 st.g[st.row[node], col] += sign * gain * coef
+
+
+def _always(part: m.Part, time: float, pre: bool) -> bool:
+    return True
+
+
+def _ideal_closed(part: m.Part, time: float, pre: bool) -> bool:
+    return _closed(part, time, pre) and _switch_resistance(part, True) is None
+
+
+@dataclass(frozen=True)
+class _KindStamp:
+    """The symbolic stamp of one part kind, and when it has a branch-current unknown
+    ((part, time, pre) -> bool; None: never)."""
+
+    stamp: Callable[[m.Part, _Interval, _Stamps], None]
+    branch: Callable[[m.Part, float, bool], bool] | None = None
+
+
+#: kind -> its symbolic stamp (the textbook MNA stamps, in part names)
+STAMPS: dict[str, _KindStamp] = {
+    m.RESISTOR: _KindStamp(_resistor),
+    m.CAPACITOR: _KindStamp(_capacitor),
+    m.INDUCTOR: _KindStamp(_inductor, _always),
+    m.VOLTAGE_SOURCE: _KindStamp(_voltage_source, _always),
+    m.CURRENT_SOURCE: _KindStamp(_current_source),
+    m.SWITCH: _KindStamp(_switch, _ideal_closed),
+    m.VCVS: _KindStamp(_vcvs, _always),
+    m.VCCS: _KindStamp(_vccs),
+    m.CCVS: _KindStamp(_ccvs, _always),
+    m.CCCS: _KindStamp(_cccs),
+}

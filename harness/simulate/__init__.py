@@ -5,7 +5,7 @@ engine (harness.closedform); tests/test_independence.py enforces that neither im
 ``solve(circuit, pulse_ratio=None, rtol=None)`` returns a NumericSolution (harness.results
 Solution protocol, engine "numeric").
 
-Model (equations.py)
+Model (equations.py; each kind's branch current in branches.py)
     Nodal equations M y' = -K y + b over the non-ground node voltages, the inductor currents and
     one current per *carrier* (voltage source, vcvs, ccvs, ideal switch).  Regularisation:
 

@@ -31,10 +31,12 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from ..model import CAPACITOR, Circuit
-from .equations import SPARSE_ABOVE, Affine, Branches, Layout, flows
+from .branches import Affine, Branches, Layout, flows
 from .nodesets import find_root
 
 Path = dict[int, int]  # coordinate index -> integer multiplier
+#: use scipy.sparse matrices for systems with more states than this
+SPARSE_ABOVE = 50
 
 
 class Unreduced(Exception):

@@ -8,11 +8,12 @@ from dataclasses import replace
 
 import numpy as np
 
-from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, VCCS, VCVS,
-                     VOLTAGE_SOURCE, Circuit)
+from ..model import (CAPACITOR, CONTROLLED, CURRENT_SOURCE, INDUCTOR, RESISTOR, VOLTAGE_SOURCE,
+                     Circuit)
 from ..results import BREAKDOWN, PULSE_GROWTH, STOPPED, UNSETTLED, WORK_BUDGET, Diagnostic
 from .coordinates import Unreduced
-from .equations import build, layout
+from .branches import layout
+from .equations import build
 from .features import fit_window
 from .initial import initial_state
 from .integrate import integrate_interval
@@ -164,7 +165,7 @@ def _pulse_growth(circuit: Circuit, system, reg) -> float | None:
     r_s has no growing mode) and up to PILOT_MAX_STATES states (dense eigenvalues).
     """
     if system.n == 0 or system.n > PILOT_MAX_STATES or not any(
-            p.kind in (VCVS, VCCS, CCVS, CCCS) for p in circuit.parts):
+            p.kind in CONTROLLED for p in circuit.parts):
         return None
     jac = system.jac.toarray() if hasattr(system.jac, "toarray") else system.jac
     if not np.all(np.isfinite(jac)):

@@ -11,7 +11,8 @@ t_pulse r_s, a pulse-scale inductance), so the operating point is exactly that o
 circuit and a loop of inductors and carriers keeps its flux instead of decaying through r_s.  An
 open ideal switch carries nothing; its i_p decays on its own with time constant t_pulse.
 
-Each non-capacitor part contributes a branch current from p to n that is affine in y:
+Each non-capacitor part contributes a branch current from p to n that is affine in y (its kind's
+stamp in ``branches.EQUATIONS``):
 
 * resistor R: (v_p - v_n)/R;  current source I: I;  vccs g: g (v_cp - v_cn);  cccs: beta i_x;
 * carrier: u / r_s + i_p (above);  a switch with a given on/off resistance r: (v_p - v_n)/r;
@@ -37,90 +38,11 @@ import scipy.linalg
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from ..errors import InputError
-from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, SWITCH, VCCS,
-                     VCVS, VOLTAGE_SOURCE, Circuit, Part)
+from ..model import CAPACITOR, Circuit
+from .branches import (Affine, Branches, Layout, Regulariser, branch_currents, difference,
+                       flows)
+from .coordinates import SPARSE_ABOVE, Reducer, assemble, constants, forest
 from .regularise import Regularisation
-
-#: use scipy.sparse matrices for systems with more states than this
-SPARSE_ABOVE = 50
-#: kinds that are always carriers (ideal switches are carriers too)
-CARRIER_KINDS = (VOLTAGE_SOURCE, VCVS, CCVS)
-
-
-def is_carrier(part: Part) -> bool:
-    """True for voltage sources, vcvs, ccvs and switches with no given on-resistance."""
-    return part.kind in CARRIER_KINDS or (part.kind == SWITCH and not part.on_resistance)
-
-
-@dataclass(frozen=True)
-class Layout:
-    """Where each quantity sits in the state vector.
-
-    Attributes:
-        nodes: non-ground node names, in ``Circuit.nodes`` order (indices 0..len-1).
-        inductors: inductor part names (the next indices).
-        carriers: carrier part names (the last indices).
-        node_index: node name -> state index (ground is absent).
-        part_index: inductor or carrier name -> index of its current state.
-    """
-
-    nodes: tuple[str, ...]
-    inductors: tuple[str, ...]
-    carriers: tuple[str, ...]
-    node_index: Mapping[str, int]
-    part_index: Mapping[str, int]
-
-    @property
-    def n(self) -> int:
-        return len(self.nodes) + len(self.inductors) + len(self.carriers)
-
-
-def layout(circuit: Circuit) -> Layout:
-    """The state layout of ``circuit``."""
-    nodes = tuple(n for n in circuit.nodes if n != circuit.ground)
-    inductors = tuple(p.name for p in circuit.parts if p.kind == INDUCTOR)
-    carriers = tuple(p.name for p in circuit.parts if is_carrier(p))
-    node_index = {name: i for i, name in enumerate(nodes)}
-    part_index = {name: len(nodes) + i for i, name in enumerate(inductors + carriers)}
-    return Layout(nodes, inductors, carriers, node_index, part_index)
-
-
-@dataclass(frozen=True)
-class Affine:
-    """A quantity coef . y + const, with coef a sparse {state index: coefficient} map."""
-
-    coef: Mapping[int, float]
-    const: float = 0.0
-
-    def scaled(self, k: float) -> "Affine":
-        return Affine({i: k * a for i, a in self.coef.items()}, k * self.const)
-
-    def plus(self, other: "Affine") -> "Affine":
-        coef = dict(self.coef)
-        for i, a in other.coef.items():
-            coef[i] = coef.get(i, 0.0) + a
-        return Affine(coef, self.const + other.const)
-
-    def dense(self, n: int) -> np.ndarray:
-        w = np.zeros(n)
-        for i, a in self.coef.items():
-            w[i] += a
-        return w
-
-
-@dataclass(frozen=True)
-class Regulariser:
-    """A regularising resistance and the current through it (for the pulse energy).
-
-    ``part`` is the part it belongs to; ``role`` is ``series`` (the r_s of a carrier) or
-    ``shunt`` (across an inductor).
-    """
-
-    part: str
-    role: str
-    resistance: float
-    current: Affine
 
 
 @dataclass(frozen=True)
@@ -162,133 +84,6 @@ class System:
     def n(self) -> int:
         """Number of integrated states n_d."""
         return self.c.shape[0]
-
-
-def difference(lay: Layout, a: str, b: str, k: float = 1.0) -> dict[int, float]:
-    """{index: coef} of k (v(a) - v(b)); ground contributes nothing."""
-    coef: dict[int, float] = {}
-    if a in lay.node_index:
-        coef[lay.node_index[a]] = coef.get(lay.node_index[a], 0.0) + k
-    if b in lay.node_index:
-        coef[lay.node_index[b]] = coef.get(lay.node_index[b], 0.0) - k
-    return coef
-
-
-def _carrier_voltage(part: Part, lay: Layout, value: float | None,
-                     sensed: Affine | None) -> Affine:
-    """u = v_p - v_n - (the ideal voltage) of a closed carrier."""
-    u = Affine(difference(lay, part.p, part.n))
-    if part.kind == VOLTAGE_SOURCE:
-        return Affine(u.coef, -value)
-    if part.kind == VCVS:
-        cp, cn = part.control
-        return u.plus(Affine(difference(lay, cp, cn, -part.value)))
-    if part.kind == CCVS:
-        return u.plus(sensed.scaled(-part.value))
-    return u  # an ideal closed switch: 0 V
-
-
-def _plain_branch(part: Part, lay: Layout, value: float | None,
-                  closed: bool | None) -> Affine:
-    """The current of a part that is neither a carrier nor current-controlled."""
-    kind = part.kind
-    if kind == RESISTOR:
-        return Affine(difference(lay, part.p, part.n, 1.0 / part.value))
-    if kind == CURRENT_SOURCE:
-        return Affine({}, value)
-    if kind == INDUCTOR:
-        return Affine({lay.part_index[part.name]: 1.0})
-    if kind == VCCS:
-        cp, cn = part.control
-        return Affine(difference(lay, cp, cn, part.value))
-    if kind == SWITCH:  # with given resistances
-        r = part.on_resistance if closed else part.off_resistance
-        return Affine(difference(lay, part.p, part.n, 1.0 / r)) if r else Affine({})
-    raise ValueError(f"not a plain branch: {kind}")
-
-
-@dataclass(frozen=True)
-class Branches:
-    """The branch expressions of one interval (see ``branch_currents``)."""
-
-    currents: dict[str, Affine]
-    voltages: dict[str, Affine | None]  #: carrier name -> u, or None when open
-    regularisers: list[Regulariser]
-    sources: dict[str, float]
-    closed: dict[str, bool]
-
-
-def _state_of(part: Part, time: float, before: bool) -> tuple[float | None, bool | None]:
-    value = closed = None
-    if part.kind in (VOLTAGE_SOURCE, CURRENT_SOURCE):
-        value = part.source_value_before(time) if before else part.source_value(time)
-    if part.kind == SWITCH:
-        closed = part.is_closed_before(time) if before else part.is_closed(time)
-    return value, closed
-
-
-def branch_currents(circuit: Circuit, lay: Layout, reg: Regularisation, time: float,
-                    before: bool, slow: bool = False, fixed: dict | None = None) -> Branches:
-    """Branch currents of every non-capacitor part with sources and switches as just before
-    (``before``) or just after ``time``.  With ``slow`` a closed carrier's current is its i_p
-    alone (its u / r_s, zero at an operating point, left out), also where a ccvs or cccs senses
-    it: the DC rows then hold no 1/r_s (K_dc, see ``System``).  ``fixed``: a dict owned by the
-    caller for one circuit and layout that keeps the currents of resistors and vccs
-    (the same Affine whatever the interval), so that repeated calls build them once."""
-    out = Branches({}, {}, [], {}, {})
-    g = 1.0 / reg.r_series
-    ordered = sorted(circuit.parts, key=lambda p: p.kind in (CCVS, CCCS))
-    fixed = {} if fixed is None else fixed
-    for part in ordered:
-        if part.kind == CAPACITOR:
-            continue
-        if part.kind in (RESISTOR, VCCS):  # neither a source, a switch nor a regulariser
-            cur = fixed.get(part.name)
-            if cur is None:
-                cur = fixed[part.name] = _plain_branch(part, lay, None, None)
-            out.currents[part.name] = cur
-            continue
-        value, closed = _state_of(part, time, before)
-        if value is not None:
-            out.sources[part.name] = value
-        if closed is not None:
-            out.closed[part.name] = closed
-        sensed = None
-        if part.kind in (CCVS, CCCS):
-            sensed = out.currents.get(part.control)
-            if sensed is None:
-                raise InputError(f"senses the current of {part.control!r}, which is not a "
-                                 "voltage source, switch, inductor or resistor",
-                                 file=circuit.source, part=part.name, field="control",
-                                 line=part.line)
-        if part.kind == CCCS:
-            out.currents[part.name] = sensed.scaled(part.value)
-        elif is_carrier(part):
-            if part.kind == SWITCH and not closed:
-                out.currents[part.name] = _plain_branch(part, lay, value, closed)
-                out.voltages[part.name] = None
-                continue
-            u = _carrier_voltage(part, lay, value, sensed)
-            fast = u.scaled(g)
-            out.voltages[part.name] = u
-            own = Affine({lay.part_index[part.name]: 1.0})
-            out.currents[part.name] = own if slow else fast.plus(own)
-            out.regularisers.append(Regulariser(part.name, "series", reg.r_series, fast))
-        else:
-            out.currents[part.name] = _plain_branch(part, lay, value, closed)
-        if part.kind == INDUCTOR:
-            shunt = Affine(difference(lay, part.p, part.n, 1.0 / reg.r_shunt))
-            out.regularisers.append(Regulariser(part.name, "shunt", reg.r_shunt, shunt))
-    return out
-
-
-def flows(by_name: dict, br: Branches) -> list:
-    """(part, current) of every branch current stamped into KCL: each non-capacitor part's
-    (a closed carrier's i_p alone in the DC branches of ``branch_currents`` with ``slow``),
-    then the inductor shunts'."""
-    out = [(by_name[name], cur) for name, cur in br.currents.items()]
-    out += [(by_name[r.part], r.current) for r in br.regularisers if r.role == "shunt"]
-    return out
 
 
 def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation,
@@ -391,8 +186,6 @@ class _Shape:
 
 def _shape(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
            br_dc: Branches) -> _Shape:
-    from .coordinates import Reducer, assemble, forest  # (coordinates builds on this module)
-
     K, M = _assemble(circuit, lay, reg, br)
     K_dc, _ = _assemble(circuit, lay, reg, br_dc)
     closed = [name for name, u in br.voltages.items() if u is not None]
@@ -416,8 +209,6 @@ def build(circuit: Circuit, lay: Layout, reg: Regularisation, time: float,
     Raises:
         coordinates.Unreduced: the algebraic block is singular in this interval.
     """
-    from .coordinates import constants
-
     cache = {} if cache is None else cache
     fixed = cache.setdefault("fixed", {})
     br = branch_currents(circuit, lay, reg, time, before, fixed=fixed)

@@ -19,10 +19,11 @@ import scipy.sparse as sp
 
 from ..errors import InitialStateError
 from .nodesets import find_root
-from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, SWITCH, VCCS,
-                     VCVS, VOLTAGE_SOURCE, Circuit, Part)
+from ..model import (CAPACITOR, CONTROLLED, CURRENT_SOURCE, INDUCTIVE, INDUCTOR, KIND_SPECS,
+                     RESISTIVE, RESISTOR, SWITCH, VOLTAGE_SOURCE, VOLTAGE_TYPE, Circuit, Part)
 from . import linsolve
-from .equations import Layout, System
+from .branches import Layout
+from .equations import System
 from .probes import voltage_row
 
 #: an inductor shunt carrying more than this fraction of the current scale at 0- means the
@@ -36,7 +37,7 @@ def _dc_paths(circuit: Circuit) -> dict[str, str]:
     for node in circuit.nodes:
         find_root(parent, node)
     for part in circuit.parts:
-        conducts = part.kind in (RESISTOR, VOLTAGE_SOURCE, VCVS, CCVS, INDUCTOR)
+        conducts = KIND_SPECS[part.kind].branch in (RESISTIVE, VOLTAGE_TYPE, INDUCTIVE)
         if part.kind == SWITCH:
             conducts = part.is_closed_before(0.0) or bool(part.off_resistance)
         if part.kind == CAPACITOR:
@@ -107,7 +108,7 @@ def _voltage_loop(circuit: Circuit) -> str | None:
     closed switches without resistance, inductors without ``initial``, capacitors with it)."""
     parent: dict[str, str] = {}
     for part in circuit.parts:
-        fixes = part.kind in (VOLTAGE_SOURCE, VCVS, CCVS)
+        fixes = KIND_SPECS[part.kind].voltage_branch
         fixes |= part.kind == INDUCTOR and part.initial is None
         fixes |= part.kind == CAPACITOR and part.initial is not None
         fixes |= (part.kind == SWITCH and part.is_closed_before(0.0)
@@ -130,7 +131,7 @@ def _held_group(circuit: Circuit) -> tuple[Part, list[str]] | None:
     for node in circuit.nodes:
         find_root(parent, node)
     for part in circuit.parts:
-        conducts = part.kind in (RESISTOR, VOLTAGE_SOURCE, VCVS, CCVS)
+        conducts = KIND_SPECS[part.kind].branch in (RESISTIVE, VOLTAGE_TYPE)
         conducts |= part.kind == INDUCTOR and part.initial is None
         conducts |= part.kind == CAPACITOR and part.initial is not None
         if part.kind == SWITCH:
@@ -173,7 +174,7 @@ def _null_owner(circuit: Circuit, lay: Layout, A: sp.csc_matrix) -> Part | None:
     names = list(lay.nodes) + list(lay.inductors) + list(lay.carriers)
     involved = {names[i] for i in np.flatnonzero(v[:len(names)] > NULL_SHARE * v.max())}
     for part in circuit.parts:
-        if part.kind in (VCVS, VCCS, CCVS, CCCS):
+        if part.kind in CONTROLLED:
             touched = set(part.nodes) | ({part.name} if part.name in lay.part_index else set())
             touched |= set(part.control) if isinstance(part.control, tuple) else {part.control}
             if touched & involved:
@@ -207,7 +208,7 @@ def _solve(A: sp.csc_matrix, rhs: np.ndarray, circuit: Circuit, lay: Layout) -> 
             "or give the nodes a DC path",
             file=circuit.source, part=part.name, field="initial", line=part.line)
     part = _null_owner(circuit, lay, A)
-    controlled = part is not None and part.kind in (VCVS, VCCS, CCVS, CCCS)
+    controlled = part is not None and part.kind in CONTROLLED
     raise InitialStateError(
         "the DC equations at 0- are singular (the pre-step state is undefined or its "
         + (f"equations contradict each other); check the gain and control of {part.name}"

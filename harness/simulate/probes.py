@@ -21,7 +21,8 @@ import scipy.sparse as sp
 
 from ..errors import InputError
 from ..model import ACROSS, BETWEEN, CAPACITOR, CCCS, NODE, THROUGH, Circuit, Part, Probe
-from .equations import Affine, Layout, System, difference
+from .branches import Affine, Layout, difference
+from .equations import System
 
 
 def voltage_row(lay: Layout, a: str, b: str) -> np.ndarray:

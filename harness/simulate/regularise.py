@@ -13,8 +13,8 @@ from dataclasses import dataclass, field
 from typing import Mapping
 
 from .nodesets import find_root
-from ..model import (CAPACITOR, CCCS, CCVS, INDUCTOR, RESISTOR, SWITCH, VCCS, VCVS,
-                     VOLTAGE_SOURCE, Circuit)
+from ..model import (CAPACITOR, INDUCTIVE, INDUCTOR, KIND_SPECS, RESISTIVE, RESISTOR, SWITCH,
+                     VOLTAGE_TYPE, Circuit)
 
 #: default ratio of the regularising time constants to the fastest real one (and of r_s to R)
 DEFAULT_PULSE_RATIO = 1e-7
@@ -82,6 +82,11 @@ class _Values:
     gaps: tuple[float, ...]
 
 
+def _gain_unit(part) -> str | None:
+    """The unit of a controlled part's gain (``1``, ``S``, ``ohm``), None for other parts."""
+    return KIND_SPECS[part.kind].units.get("gain")
+
+
 def _values(circuit: Circuit) -> _Values:
     res, caps, inds, gains = [], [], [], 0.0
     for part in circuit.parts:
@@ -93,13 +98,13 @@ def _values(circuit: Circuit) -> _Values:
             caps.append(abs(part.value))
         elif part.kind == INDUCTOR and part.value:
             inds.append(abs(part.value))
-        elif part.kind in (VCVS, CCCS):
+        elif _gain_unit(part) == "1":
             gains += abs(part.value or 0.0)
     r_sum = sum(res)
     for part in circuit.parts:  # transconductances and transresistances, made dimensionless
-        if part.kind == VCCS and r_sum:
+        if _gain_unit(part) == "S" and r_sum:
             gains += abs(part.value or 0.0) * r_sum
-        elif part.kind == CCVS and res:
+        elif _gain_unit(part) == "ohm" and res:
             gains += abs(part.value or 0.0) / min(res)
     events = circuit.events
     gaps = tuple(b - a for a, b in zip(events, events[1:]) if b > a)
@@ -120,7 +125,7 @@ def _node_rc_time(circuit: Circuit) -> float:
             g = 1.0 / abs(part.value)
         elif part.kind == SWITCH:
             g = max([1.0 / abs(r) for r in (part.on_resistance, part.off_resistance) if r] or [0.0])
-        elif part.kind == VCCS:
+        elif _gain_unit(part) == "S":       # a transconductance
             g = abs(part.value or 0.0)
         elif part.kind == CAPACITOR and part.value:
             for node in part.nodes:
@@ -144,7 +149,7 @@ def loop_capacitance(circuit: Circuit) -> float:
     parts (a self-loop or a parallel edge is a loop); bridges are found in one depth-first
     search (Tarjan's low-link rule), O(parts).
     """
-    edges = [p for p in circuit.parts if p.kind in (VOLTAGE_SOURCE, VCVS, CCVS) or (
+    edges = [p for p in circuit.parts if KIND_SPECS[p.kind].voltage_branch or (
         p.kind == SWITCH and not p.on_resistance) or (p.kind == CAPACITOR and p.value)]
     bridges = _bridges([(p.p, p.n) for p in edges])
     return sum(abs(p.value) for i, p in enumerate(edges)
@@ -212,7 +217,7 @@ def _time_scales(circuit: Circuit, v: _Values) -> tuple[float, float]:
 
 def _conducts(part, time: float, before: bool) -> bool:
     """True when the part joins its nodes by a conductance or a voltage in that interval."""
-    if part.kind in (RESISTOR, INDUCTOR, VOLTAGE_SOURCE, VCVS, CCVS):
+    if KIND_SPECS[part.kind].branch in (RESISTIVE, INDUCTIVE, VOLTAGE_TYPE):
         return True
     if part.kind == SWITCH:
         closed = part.is_closed_before(time) if before else part.is_closed(time)
@@ -302,10 +307,10 @@ def gain_factor(circuit: Circuit) -> float:
     gain = 1.0
     for part in circuit.parts:
         g = abs(part.value or 0.0)
-        if part.kind in (VCVS, CCCS):
+        if _gain_unit(part) == "1":
             gain += g
-        elif part.kind == VCCS and res:
+        elif _gain_unit(part) == "S" and res:
             gain += g * max(res)
-        elif part.kind == CCVS and res:
+        elif _gain_unit(part) == "ohm" and res:
             gain += g / min(res)
     return gain

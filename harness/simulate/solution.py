@@ -6,10 +6,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..model import CAPACITOR, CCCS, CCVS, SWITCH, VCCS, VCVS, Circuit, Probe
+from ..model import CAPACITOR, CONTROLLED, SWITCH, Circuit, Probe
 from ..results import NO_FINAL, NOT_REACHED, Diagnostic, Features, Jump
 from ..tolerances import MODE_VISIBILITY
-from .equations import Layout, System
+from .branches import Layout
+from .equations import System
 from .features import decay, fit_window, post_pulse, pulse_points, values
 from .integrate import IntervalRun, IntervalStats
 from .linsolve import operating_point
@@ -25,7 +26,6 @@ ENGINE = "numeric"
 CHARGE_FLOOR = 1e-9
 #: currents below this fraction of the current scale are reported as 0 in a jump
 CURRENT_ROUNDING = 1e-6
-CONTROLLED = (VCVS, VCCS, CCVS, CCCS)
 #: a fitted τ within this fraction of a mode of this engine's own pencil is that mode: the
 #: log-linear fit finds which mode the probe follows, the pencil's QZ gives its rate to
 #: rounding.  A fast mode of small amplitude (116 ps beside 250.7 ns, or a 1e-4 share) bends

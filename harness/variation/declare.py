@@ -27,8 +27,6 @@ from ..units import UnitError, parse_quantity
 #: IEC 60062 tolerance letters -> symmetric relative spread
 IEC_LETTERS = {"B": 0.001, "C": 0.0025, "D": 0.005, "F": 0.01, "G": 0.02, "J": 0.05,
                "K": 0.10, "M": 0.20}
-#: the part kinds whose value may spread
-SPREAD_KINDS = (m.RESISTOR, m.CAPACITOR, m.INDUCTOR, m.VOLTAGE_SOURCE, m.CURRENT_SOURCE)
 VARIATION_KEYS = ("methods", "samples", "seed", "distribution", "sigmas", "temperature")
 VARIATION_HELP = {
     "methods": f"list of {quoted_list(m.METHODS)} (default all three)",

@@ -17,7 +17,8 @@ import scipy.linalg as sla
 
 from harness.closedform import response, solve, symmetric
 from harness.closedform.mna import (capacitor_null_basis, connects_in_interval, floating_groups,
-                                    layout_of, pin, scale_of, scaled, stamp)
+                                    pin, scale_of, scaled)
+from harness.closedform.stamps import layout_of, stamp
 from harness.model import SWITCH
 
 from .circuits import random_rc, rc_ladder, switched_rc
