@@ -18,8 +18,9 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from . import tolerances as tol
-from .model import (CURRENT_SOURCE, RESISTOR, RING_FIELDS, SIGNOFF_FIELDS, SWITCH,
-                    VOLTAGE_SOURCE, Expectation)
+from .fieldspec import field_spec
+from .model import (CURRENT_SOURCE, RESISTOR, SIGNOFF_FIELDS, SWITCH, VOLTAGE_SOURCE,
+                    Expectation)
 from .outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
 from .results import DominantTau, Features
 from .units import exact_digits, format_apart, format_exact, format_si
@@ -82,13 +83,13 @@ def _withheld_field(name: str, exp: Expectation, note: str) -> FieldResult:
     value cannot be confirmed (mismatch, as for the four classical fields)."""
     extra: dict[str, Any] = {}
     if name == "crossing":
-        hand, unit = exp.crossing.time, "s"
+        hand = exp.crossing.time
         extra = {"level": exp.crossing.level, "direction": exp.crossing.direction, "at": None}
     elif name == "energy":
-        hand, unit, extra = exp.energy.value, "J", {"part": exp.energy.part}
+        hand, extra = exp.energy.value, {"part": exp.energy.part}
     else:
-        hand, unit = exp.hand[name], ("s" if name == "dominant_tau" else
-                                      RING_FIELDS.get(name, exp.probe.dimension))
+        hand = exp.hand[name]
+    unit = field_spec(name).unit_for(exp.probe.dimension)
     return FieldResult(name=name, hand=hand, closed_form=None, numeric=None,
                        verdict=MISMATCH if hand is not None else PASS, unit=unit, message=note,
                        extra=extra)
@@ -515,7 +516,7 @@ def compare_ring(exp: Expectation, fe: Features, ctx: "CheckContext", name: str)
     closed, numeric = _ring_values(ctx, fe, name)
     computed = ctx.numeric is not None and numeric is not _NOT_COMPUTED and not ctx.unjudged
     numeric = None if numeric is _NOT_COMPUTED else numeric
-    hand, unit = exp.hand[name], RING_FIELDS[name]
+    hand, unit = exp.hand[name], field_spec(name).unit_for(exp.probe.dimension)
     floor = tol.ENGINE_FLOOR if name == "overshoot" else 0.0
     verdict, message = PASS, ""
     if computed and (closed is None) != (numeric is None) or (

@@ -11,6 +11,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 from . import tolerances as tol
+from .fieldspec import field_spec
 from .model import CAPACITOR, INDUCTOR, Expectation
 from .results import Features
 from .units import format_apart, format_si
@@ -21,7 +22,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 def explain(name: str, hand: float, exp: Expectation, fe: Features, ctx: "CheckContext") -> str:
     """Why the hand value ``hand`` of field ``name`` does not match the closed form."""
-    unit = "s" if name == "tau" else exp.probe.dimension
+    unit = field_spec(name).unit_for(exp.probe.dimension)
     computed = getattr(fe, name)
     if computed is None:
         return _undefined(name, hand, fe, ctx)

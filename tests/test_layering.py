@@ -31,7 +31,8 @@ INFRASTRUCTURE = ("harness.pool", "harness.progress")
 REPORT = ("harness.report",)
 
 RULES = {
-    "model": (("harness.model", "harness.results", "harness.units", "harness.errors"),
+    "model": (("harness.model", "harness.fieldspec", "harness.results", "harness.units",
+               "harness.errors"),
               ENGINES + COMPARATOR + REPORT + APPLICATION),
     "engines": (ENGINES, REPORT + COMPARATOR + APPLICATION + INFRASTRUCTURE),
     "comparator": (COMPARATOR, REPORT + APPLICATION + INFRASTRUCTURE),
