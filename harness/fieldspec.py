@@ -39,6 +39,12 @@ FEATURES, METHOD, OWN = "features", "method", "own"
 PROBE_SCALE, NO_FLOOR, TIME_FLOOR, ENERGY_RULE, FRACTION = (
     "probe-scale", "none", "time", "energy", "fraction")
 
+#: ``FieldSpec.judged``: where the engines' values are judged against each other -- wherever
+#: both give one; not where the numerical engine does not resolve the event (a value just
+#: after it); or, for a property of the interval's dynamics (τ), only where the closed form
+#: gives one, the interval is not below the noise floor and the event is resolved
+ALWAYS, RESOLVED, DYNAMICS = "always", "resolved", "dynamics"
+
 
 @dataclass(frozen=True)
 class FieldSpec:
@@ -59,6 +65,8 @@ class FieldSpec:
         engine_relative: closed form against numeric, relative (a named tolerance).
         floor: the absolute floor rule (above).
         noise: values below the probe's noise floor (``tol.PROBE_NOISE``) compare as zero.
+        judged: where the engines are judged against each other: ``ALWAYS``, ``RESOLVED`` or
+            ``DYNAMICS`` (above).
         spec: may carry spec limits judged over the parts' spreads (``Expectation.spec``).
         label: the field's name in report tables (the crossing, peak and energy labels add
             their level, time and part from the result: ``report.common.field_label``).
@@ -76,6 +84,7 @@ class FieldSpec:
     engine_relative: float = tol.ENGINE_RELATIVE
     floor: str = PROBE_SCALE
     noise: bool = True
+    judged: str = ALWAYS
     spec: bool = False
     label: str = ""
 
@@ -103,12 +112,13 @@ FIELD_SPECS: tuple[FieldSpec, ...] = (
     FieldSpec("before", "before", PROBE_UNIT, "value just before the event, x(t−)",
               signoff=False, spec=True),
     FieldSpec("after", "after", PROBE_UNIT, "value just after the event, x(t+), jumps included",
-              signoff=False, spec=True),
+              signoff=False, judged=RESOLVED, spec=True),
     FieldSpec("final", "final", PROBE_UNIT,
               "value the interval heads to if nothing else happens, x(∞)",
               signoff=False, spec=True),
     FieldSpec("tau", "tau", "s", "the time constant of a first-order interval",
-              signoff=False, sign=POSITIVE, floor=NO_FLOOR, noise=False, spec=True),
+              signoff=False, sign=POSITIVE, floor=NO_FLOOR, noise=False, judged=DYNAMICS,
+              spec=True),
     FieldSpec("crossing", "crossing", "s",
               "{ level = x (probe's unit), time = t (s, after the event; optional), "
               "direction = \"rising\" | \"falling\" | \"either\" }: when the probe "
