@@ -27,7 +27,7 @@ def compare_check(circuit: Circuit, exp: Expectation, exact: Solution,
     fn = numeric.features(exp.probe, k) if numeric is not None else None
     fields = field_results(exp, fe, fn, ctx)
     dominant = None
-    if fe.order is not None and fe.order > 1 and hasattr(exact, "dominant"):
+    if fe.order is not None and fe.order > 1:
         dominant = exact.dominant(exp.probe, k)
     trace = with_marks(make_trace(ctx, exp, fe), fields, dominant, circuit.events[k],
                       fe.final)

@@ -43,9 +43,9 @@ def probe_scale(circuit: Circuit, exact: Solution, probe: Probe) -> float:
         f = exact.features(probe, k)
         values += [abs(v) for v in (f.before, f.after, f.final) if v is not None]
     scale = max(values, default=0.0)
-    if scale <= tol.SCALE_FROM_PEAKS * circuit.largest_source() and hasattr(exact, "peak"):
+    if scale <= tol.SCALE_FROM_PEAKS * circuit.largest_source():
         for k in range(len(circuit.events)):
-            if withheld(exact, k):
+            if exact.withheld(k):
                 continue
             try:
                 magnitude = exact.peak(probe, k).magnitude
@@ -83,18 +83,6 @@ def tau_scale(fe: Features, ctx: CheckContext) -> float:
     return max((end - start) / 10.0, 1e-300)
 
 
-def _call(solution, name: str, *args):
-    """``solution.name(*args)``, or None when the engine lacks it or is absent."""
-    method = getattr(solution, name, None) if solution is not None else None
-    return method(*args) if method is not None else None
-
-
-def withheld(solution, k: int) -> str | None:
-    """Why interval k's values are not reported (a conditioning guard), or None."""
-    ask = getattr(solution, "withheld", None)
-    return ask(k) if ask is not None else None
-
-
 class CheckContext:
     """What the comparison of one expectation needs to know beyond its own values."""
 
@@ -123,11 +111,10 @@ class CheckContext:
         closed form sees a mode in the probe faster than that engine resolves after the event
         (``resolution``: its pulse cannot be made narrow enough there), a limit of that
         engine, not a disagreement."""
-        ask = getattr(self.numeric, "resolution", None)
-        if ask is None:
+        limit = None if self.numeric is None else self.numeric.resolution(self.k)
+        if limit is None:
             return ""
         fe = self.exact.features(self.probe, self.k)
-        limit = ask(self.k)
         fast = [t for t in fe.modes if t < limit]
         if not fast:
             return ""
@@ -152,7 +139,7 @@ class CheckContext:
         values = [abs(v) for v in (fe.before, fe.after, fe.final) if v is not None]
         if max(values, default=0.0) >= self.noise:
             return False
-        if withheld(self.exact, self.k) or not hasattr(self.exact, "peak"):
+        if self.exact.withheld(self.k):
             return True
         try:
             magnitude = self.exact.peak(self.probe, self.k).magnitude

@@ -18,7 +18,7 @@ from ..model import Expectation
 from ..outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
 from ..results import Features
 from ..units import exact_digits, format_apart, format_exact, format_si
-from .context import CheckContext, _call, hand_relative, tau_scale
+from .context import CheckContext, hand_relative, tau_scale
 from .message import engine_message
 
 
@@ -38,7 +38,8 @@ def compare_crossing(exp: Expectation, fe: Features, ctx: CheckContext) -> Field
     """Crossing time after the event: hand vs closed form vs numeric, with "never crosses"."""
     want = exp.crossing
     ce = ctx.exact.crossing(ctx.probe, ctx.k, want.level, want.direction)
-    cn = _call(ctx.numeric, "crossing", ctx.probe, ctx.k, want.level, want.direction)
+    cn = None if ctx.numeric is None else ctx.numeric.crossing(ctx.probe, ctx.k, want.level,
+                                                               want.direction)
     t_k = ctx.circuit.events[ctx.k]
     scale_t = tau_scale(fe, ctx)
     unit = exp.probe.dimension

@@ -92,10 +92,7 @@ def _trapped_rule(name, hand, computed, fe, ctx, relative, floor) -> str:
 def _thevenin_rule(name, hand, computed, fe, ctx, relative, floor) -> str:
     if name != "tau":
         return ""
-    thevenin = getattr(ctx.exact, "thevenin", None)
-    if thevenin is None:
-        return ""
-    seen = thevenin(ctx.k)
+    seen = ctx.exact.thevenin(ctx.k)
     if not seen:
         return ""
     bits = []

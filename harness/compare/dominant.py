@@ -10,7 +10,7 @@ from ..model import Expectation
 from ..outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
 from ..results import DominantTau, Features
 from ..units import format_si
-from .context import CheckContext, _call, hand_relative, tau_scale
+from .context import CheckContext, hand_relative, tau_scale
 from .crossing import crossing_engines_agree
 from .message import engine_pair
 
@@ -31,7 +31,7 @@ def compare_dominant(exp: Expectation, fe: Features, ctx: CheckContext) -> Field
     probe's scale, the deviation within the whole-waveform tolerance and the 50 % time within
     the crossing tolerance (``dominant_engine_problems``)."""
     dv = ctx.exact.dominant(ctx.probe, ctx.k)
-    dn = _call(ctx.numeric, "dominant", ctx.probe, ctx.k)
+    dn = None if ctx.numeric is None else ctx.numeric.dominant(ctx.probe, ctx.k)
     hand = exp.hand["dominant_tau"]
     verdict, message = PASS, ""
     numeric = None if dn is None else dn.tau

@@ -12,7 +12,7 @@ from ..model import RESISTOR, SWITCH, Expectation
 from ..outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
 from ..results import Features
 from ..units import format_apart, format_si
-from .context import CheckContext, _call, current_scale, hand_relative
+from .context import CheckContext, current_scale, hand_relative
 from .message import engine_message
 
 
@@ -73,7 +73,7 @@ def compare_energy(exp: Expectation, fe: Features, ctx: CheckContext) -> FieldRe
     """Energy dissipated in a part over the interval continued until settled."""
     want = exp.energy
     ee = ctx.exact.energy(want.part, ctx.k, want.until)
-    en = _call(ctx.numeric, "energy", want.part, ctx.k, want.until)
+    en = None if ctx.numeric is None else ctx.numeric.energy(want.part, ctx.k, want.until)
     floor = energy_floor(ctx, ee.energy, want.part)
     verdict, message = PASS, ""
     numeric = None if en is None else en.energy

@@ -16,7 +16,7 @@ from ..fieldspec import FEATURES, FIELD_SPECS, field_spec
 from ..model import Expectation
 from ..outcome import MISMATCH, PASS, FieldResult
 from ..results import Features
-from .context import CheckContext, withheld
+from .context import CheckContext
 from .crossing import compare_crossing
 from .dominant import compare_dominant
 from .energy import compare_energy
@@ -47,7 +47,7 @@ def signoff_fields(exp: Expectation, fe: Features, fn: Features | None,
     """FieldResults of the sign-off fields the expectation asks for, in ``FIELD_SPECS``
     order."""
     wanted = [spec for spec in FIELD_SPECS if spec.signoff and exp.wants(spec.name)]
-    note = withheld(ctx.exact, ctx.k)
+    note = ctx.exact.withheld(ctx.k)
     if note:
         return [_withheld_field(spec.name, exp, note) for spec in wanted]
     return [compare_field(spec.name, exp, fe, fn, ctx) if spec.source == FEATURES

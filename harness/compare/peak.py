@@ -7,14 +7,14 @@ from ..model import Expectation
 from ..outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
 from ..results import Features
 from ..units import format_apart, format_si
-from .context import CheckContext, _call, below_noise, hand_relative
+from .context import CheckContext, below_noise, hand_relative
 from .message import engine_message
 
 
 def compare_peak(exp: Expectation, fe: Features, ctx: CheckContext) -> FieldResult:
     """Largest magnitude in the interval (and when): hand vs closed form vs numeric."""
     pe = ctx.exact.peak(ctx.probe, ctx.k)
-    pn = _call(ctx.numeric, "peak", ctx.probe, ctx.k)
+    pn = None if ctx.numeric is None else ctx.numeric.peak(ctx.probe, ctx.k)
     hand = abs(exp.hand["peak"])
     unit = exp.probe.dimension
     t_k = ctx.circuit.events[ctx.k]

@@ -11,7 +11,7 @@ from ..model import Expectation
 from ..outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
 from ..results import Features
 from ..units import format_apart, format_si
-from .context import CheckContext, _call, hand_relative
+from .context import CheckContext, hand_relative
 from .message import engine_message
 
 #: an engine that did not compute a value (never a disagreement)
@@ -31,8 +31,8 @@ def _ring_value(features: Features | None, name: str) -> float | None:
 def _ring_values(ctx: CheckContext, fe: Features, name: str) -> tuple:
     """(closed form, numeric) of a ring field or the overshoot."""
     if name == "overshoot":
-        return ctx.exact.overshoot(ctx.probe, ctx.k), _call(ctx.numeric, "overshoot",
-                                                              ctx.probe, ctx.k)
+        numeric = None if ctx.numeric is None else ctx.numeric.overshoot(ctx.probe, ctx.k)
+        return ctx.exact.overshoot(ctx.probe, ctx.k), numeric
     numeric = None if ctx.numeric is None else ctx.numeric.features(ctx.probe, ctx.k)
     if numeric is not None and numeric.order is None:
         return _ring_value(fe, name), _NOT_COMPUTED          # its modes were not computed

@@ -7,7 +7,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..model import CAPACITOR, CCCS, CCVS, SWITCH, VCCS, VCVS, Circuit, Probe
-from ..results import Features, Jump
+from ..results import Features, Jump, NotComputed
 from ..tolerances import MODE_VISIBILITY
 from .equations import Layout, System
 from .features import decay, fit_window, post_pulse, pulse_points, values
@@ -35,7 +35,7 @@ RESOLVE = 25.0
 
 
 @dataclass(frozen=True)
-class NumericSolution:
+class NumericSolution(NotComputed):
     """The narrow-pulse model of one circuit, integrated interval by interval.
 
     Attributes:
@@ -228,7 +228,7 @@ class NumericSolution:
         w, _ = self._rows(probe, k)
         return w, self._offset(probe, k)
 
-    # ----- sign-off quantities (harness.results.SignoffSolution) ---------------------
+    # ----- sign-off quantities (harness.results.Solution) -------------------------------
     def crossing(self, probe: Probe, k: int, level: float, direction: str):
         """First crossing of ``level`` after event k (``results.CrossingValue``; see
         harness.simulate.signoff), or None where interval k was not integrated."""
