@@ -25,11 +25,11 @@ PROBE_UNIT = "probe"
 #: ``FieldSpec.sign``: any hand value / not below zero / above zero
 ANY, NONNEGATIVE, POSITIVE = "any", "nonnegative", "positive"
 
-#: ``FieldSpec.source``: where each engine's value comes from -- the attribute of
-#: ``results.Features`` of the same name, or a method of the ``results.Solution`` of the same
-#: name called as ``solution.<name>(probe, k)`` -- or a routine of its own (crossing, peak,
-#: energy, dominant τ, ring: ``harness.compare.fields``)
-FEATURES, METHOD, OWN = "features", "method", "own"
+#: ``FieldSpec.source``: where each engine's value comes from and who compares it -- the
+#: attribute of ``results.Features`` of the same name, compared by ``compare.value``; or a
+#: routine of its own (crossing, peak, energy, dominant τ, ring and overshoot:
+#: ``compare.fields.ROUTINES``)
+FEATURES, OWN = "features", "own"
 
 #: ``FieldSpec.floor``: the absolute floor of the engine comparison (and of hand against the
 #: closed form): ``tol.ENGINE_FLOOR`` (``tol.HAND_FLOOR``) of the probe's scale; none; the
@@ -61,7 +61,7 @@ class FieldSpec:
             fields, reported for every check.
         sign: the rule a hand value obeys: ``ANY``, ``NONNEGATIVE`` or ``POSITIVE``.
         percent: a hand value may be written as a percentage (``"16.3 %"``).
-        source: ``FEATURES``, ``METHOD`` or ``OWN`` (above).
+        source: ``FEATURES`` or ``OWN`` (above).
         engine_relative: closed form against numeric, relative (a named tolerance).
         floor: the absolute floor rule (above).
         noise: values below the probe's noise floor (``tol.PROBE_NOISE``) compare as zero.
@@ -150,7 +150,7 @@ FIELD_SPECS: tuple[FieldSpec, ...] = (
     FieldSpec("overshoot", "overshoot", "1",
               "how far the response passes its final value, as a fraction of the step "
               "(\"16.3 %\"); e^(−πζ/√(1 − ζ²)) for a pure second-order step",
-              sign=NONNEGATIVE, percent=True, source=METHOD,
+              sign=NONNEGATIVE, percent=True, source=OWN,
               engine_relative=tol.RING_ENGINE_RELATIVE, floor=FRACTION, noise=False),
 )
 

@@ -15,7 +15,7 @@ from harness.compare import CheckContext, compare_field
 from harness.compare.peak import compare_peak
 from harness.model import Circuit, Expectation, Part, Probe
 from harness.outcome import ENGINES_DISAGREE, PASS
-from harness.results import Features
+from harness.results import Features, NotComputed
 from tests.benchmarks import agree
 from tests.benchmarks.agree_circuits import circuit_text
 
@@ -25,8 +25,9 @@ class _Peak:
         self.magnitude, self.time, self.value, self.after_next_event = magnitude, 0.0, magnitude, False
 
 
-class _Stub:
-    """An engine reporting fixed values for one probe (before, after, final, peak)."""
+class _Stub(NotComputed):
+    """An engine reporting fixed values for one probe (before, after, final, peak); its
+    optional answers are "not computed"."""
 
     def __init__(self, value: float) -> None:
         self.value = value
