@@ -69,9 +69,10 @@ EXPECT_HELP = {
     "at": ("s", "the event: t = 0 (default) or the time of a step of any source or switch"),
     **{spec.key: (spec.help_unit, spec.help) for spec in FIELD_SPECS},
     "spec": ("", "{ field = { min = …, max = …, hand-min = …, hand-max = … } }: spec limits "
-                 "judged over every part's `spread` (see [variation]) for before, after, final, "
-                 "tau, crossing (its time), peak, energy, dominant-tau; hand-min/hand-max are "
-                 "the engineer's worst case, compared with the computed extremes"),
+                 "judged over every part's `spread` (see [variation]) for "
+                 + ", ".join(spec.key + spec.limited for spec in FIELD_SPECS if spec.spec)
+                 + "; hand-min/hand-max are the engineer's worst case, compared with the "
+                   "computed extremes"),
     "tolerance": ("", "this block's own relative tolerance (as in [settings])"),
     "note": ("", "free text shown in the reports"),
 }

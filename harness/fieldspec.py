@@ -68,6 +68,8 @@ class FieldSpec:
         judged: where the engines are judged against each other: ``ALWAYS``, ``RESOLVED`` or
             ``DYNAMICS`` (above).
         spec: may carry spec limits judged over the parts' spreads (``Expectation.spec``).
+        limited: what of the field the limits bound, where that is not its value (the
+            crossing's time: ``" (its time)"``), for the file-format reference.
         label: the field's name in report tables (the crossing, peak and energy labels add
             their level, time and part from the result: ``report.common.field_label``).
     """
@@ -86,6 +88,7 @@ class FieldSpec:
     noise: bool = True
     judged: str = ALWAYS
     spec: bool = False
+    limited: str = ""
     label: str = ""
 
     def unit_for(self, probe_dimension: str) -> str:
@@ -123,7 +126,7 @@ FIELD_SPECS: tuple[FieldSpec, ...] = (
               "{ level = x (probe's unit), time = t (s, after the event; optional), "
               "direction = \"rising\" | \"falling\" | \"either\" }: when the probe "
               "first passes the level", table=True, source=OWN, floor=TIME_FLOOR, noise=False,
-              spec=True),
+              spec=True, limited=" (its time)"),
     FieldSpec("peak", "peak", PROBE_UNIT, "largest magnitude |x| in the interval", source=OWN,
               spec=True),
     FieldSpec("energy", "energy", "J",
