@@ -86,3 +86,39 @@ def test_the_comparator_probes_no_solution_with_hasattr():
                     node.func.id in ("hasattr", "getattr"):
                 target = ast.unparse(node.args[0])
                 assert target in ("fe", "fn"), f"{path.name}: {ast.unparse(node)}"
+
+
+def _package_imports(path: Path) -> tuple[set[str], list[str]]:
+    """(modules of harness.compare imported at the top of ``path``, imports inside functions)."""
+    tree = ast.parse(path.read_text())
+    top = set()
+    for node in tree.body:
+        if isinstance(node, ast.ImportFrom) and node.level == 1:
+            top.add(node.module or "")
+    nested = [ast.unparse(n) for f in ast.walk(tree)
+              if isinstance(f, (ast.FunctionDef, ast.AsyncFunctionDef))
+              for n in ast.walk(f) if isinstance(n, (ast.Import, ast.ImportFrom))]
+    return top, nested
+
+
+def test_the_comparator_package_imports_at_the_top_and_has_no_cycle():
+    """Every module of harness/compare imports at its top (none inside a function to dodge a
+    cycle), and its imports within the package form no cycle (a depth-first search)."""
+    graph = {}
+    for path in sorted(COMPARE.glob("*.py")):
+        top, nested = _package_imports(path)
+        assert not nested, f"{path.name} imports inside a function: {nested}"
+        graph[path.stem] = {m.split(".")[0] for m in top if m}
+    state: dict[str, str] = {}
+
+    def visit(name: str, trail: tuple[str, ...]) -> None:
+        assert state.get(name) != "open", f"import cycle: {' -> '.join(trail + (name,))}"
+        if state.get(name) == "done":
+            return
+        state[name] = "open"
+        for nxt in sorted(graph.get(name, ())):
+            visit(nxt, trail + (name,))
+        state[name] = "done"
+
+    for name in graph:
+        visit(name, ())
