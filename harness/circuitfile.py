@@ -20,6 +20,7 @@ from . import model as m
 from . import topology
 from .errors import InputError, UnitError
 from .fields import parse_parts
+from .fieldspec import FIELD_SPECS, NONNEGATIVE, POSITIVE
 from .filelines import Locator, Where, expect_label, name_problem, quoted_list, suggest
 from .units import check_magnitude, format_si, has_suffix
 from .variation.declare import check_drifts, read_spec, read_spread, read_variation
@@ -34,12 +35,10 @@ MAX_EVENTS = 2500
 TOP_LEVEL = ("title", "ground", "settings", "variation", "parts", "expect")
 SETTINGS = ("tolerance", "acknowledge")
 PROBE_KEYS = (m.NODE, m.BETWEEN, m.ACROSS, m.THROUGH)
-#: sign-off keys of an [[expect]] block: file key -> field name
-SIGNOFF_KEYS = {"crossing": "crossing", "peak": "peak", "energy": "energy",
-                "dominant-tau": "dominant_tau", "ring-frequency": "ring_frequency",
-                "damping": "damping", "q": "q", "overshoot": "overshoot"}
-EXPECT_KEYS = PROBE_KEYS + ("at",) + m.FIELDS + tuple(SIGNOFF_KEYS) + ("spec", "tolerance",
-                                                                      "note")
+#: sign-off keys of an [[expect]] block: file key -> field name (``fieldspec.FIELD_SPECS``)
+SIGNOFF_KEYS = {spec.key: spec.name for spec in FIELD_SPECS if spec.signoff}
+EXPECT_KEYS = PROBE_KEYS + ("at",) + tuple(spec.key for spec in FIELD_SPECS) + (
+    "spec", "tolerance", "note")
 CROSSING_KEYS = ("level", "time", "direction", "level-spread")
 ENERGY_KEYS = ("part", "value", "until")
 #: a tolerance given as a bare fraction above this gets a warning (0.5 is 50 %, seldom meant)
@@ -68,29 +67,12 @@ EXPECT_HELP = {
     m.ACROSS: ("", "probe: a part's voltage v(p) − v(n)"),
     m.THROUGH: ("", "probe: a part's current from p through it to n"),
     "at": ("s", "the event: t = 0 (default) or the time of a step of any source or switch"),
-    "before": ("probe", "value just before the event, x(t−)"),
-    "after": ("probe", "value just after the event, x(t+), jumps included"),
-    "final": ("probe", "value the interval heads to if nothing else happens, x(∞)"),
-    "tau": ("s", "the time constant of a first-order interval"),
-    "crossing": ("", "{ level = x (probe's unit), time = t (s, after the event; optional), "
-                     "direction = \"rising\" | \"falling\" | \"either\" }: when the probe "
-                     "first passes the level"),
-    "peak": ("probe", "largest magnitude |x| in the interval"),
-    "energy": ("", "{ part = \"R1\", value = e (J; optional), until = t (s; optional) }: "
-                   "energy absorbed by a resistor, switch or controlled source (v·i) above the "
-                   "steady power, jump loss included (may be negative); with until, the whole "
-                   "energy from the event to that time"),
-    "dominant-tau": ("s", "a one-τ estimate of a higher-order probe: the sum of the time "
-                          "constants of the modes that reach it (zero-value time constants)"),
-    "ring-frequency": ("Hz", "damped frequency f_d of the probe's slowest visible complex pair"),
-    "damping": ("", "damping ratio ζ of that pair (λ = −ζω_n ± jω_n√(1 − ζ²))"),
-    "q": ("", "its quality factor Q = 1/(2ζ)"),
-    "overshoot": ("", "how far the response passes its final value, as a fraction of the step "
-                      "(\"16.3 %\"); e^(−πζ/√(1 − ζ²)) for a pure second-order step"),
+    **{spec.key: (spec.help_unit, spec.help) for spec in FIELD_SPECS},
     "spec": ("", "{ field = { min = …, max = …, hand-min = …, hand-max = … } }: spec limits "
-                 "judged over every part's `spread` (see [variation]) for before, after, final, "
-                 "tau, crossing (its time), peak, energy, dominant-tau; hand-min/hand-max are "
-                 "the engineer's worst case, compared with the computed extremes"),
+                 "judged over every part's `spread` (see [variation]) for "
+                 + ", ".join(spec.key + spec.limited for spec in FIELD_SPECS if spec.spec)
+                 + "; hand-min/hand-max are the engineer's worst case, compared with the "
+                   "computed extremes"),
     "tolerance": ("", "this block's own relative tolerance (as in [settings])"),
     "note": ("", "free text shown in the reports"),
 }
@@ -366,21 +348,18 @@ def _expectation(index: int, raw: object, circuit: m.Circuit, scope: _Scope,
     probe = _probe(raw, circuit, where, index)
     at = _event(raw.get("at", 0.0), circuit, where, index)
     hand, formulas = {}, {}
-    scalar_keys = [(name, name) for name in m.FIELDS] + [
-        (key, SIGNOFF_KEYS[key]) for key in SIGNOFF_KEYS if key not in ("crossing", "energy")]
-    for key, name in scalar_keys:
-        if key not in raw:
+    for spec in FIELD_SPECS:
+        if spec.table or spec.key not in raw:
             continue
-        dimension = "s" if name in ("tau", "dominant_tau") else \
-            m.RING_FIELDS.get(name, probe.dimension)
-        hand[name], text = _hand_value(raw[key], dimension, scope, where, index, key,
-                                       allow_percent=name == "overshoot")
-        if name in m.RING_FIELDS and not hand[name] >= 0:
+        name, key = spec.name, spec.key
+        hand[name], text = _hand_value(raw[key], spec.unit_for(probe.dimension), scope, where,
+                                       index, key, allow_percent=spec.percent)
+        if spec.sign == NONNEGATIVE and not hand[name] >= 0:
             raise where.error(f"{key} must not be negative, got {raw[key]!r}",
                               path=base + (key,), part=label, field=key)
         if text is not None:
             formulas[name] = text
-        if name in ("tau", "dominant_tau") and not hand[name] > 0:
+        if spec.sign == POSITIVE and not hand[name] > 0:
             raise where.error(f"{key} must be greater than zero, got {raw[key]!r}",
                               path=base + (key,), part=label, field=key)
     crossing = _crossing(raw["crossing"], probe, scope, where, index) \
@@ -403,14 +382,11 @@ def _expectation(index: int, raw: object, circuit: m.Circuit, scope: _Scope,
 
 
 def _spec_units(probe: m.Probe, crossing, energy) -> dict:
-    """The dimension word of each field a ``spec`` table may limit in this block."""
-    units = {name: probe.dimension for name in ("before", "after", "final", "peak")}
-    units.update(tau="s", dominant_tau="s")
-    if crossing is not None:
-        units["crossing"] = "s"
-    if energy is not None:
-        units["energy"] = "J"
-    return units
+    """The dimension word of each field a ``spec`` table may limit in this block (a table
+    field only where the block has that table)."""
+    present = {"crossing": crossing is not None, "energy": energy is not None}
+    return {spec.name: spec.unit_for(probe.dimension) for spec in FIELD_SPECS
+            if spec.spec and present.get(spec.name, True)}
 
 
 def _subtable(raw: object, keys: tuple[str, ...], required: str, example: str, where: Where,

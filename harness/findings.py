@@ -91,7 +91,7 @@ def findings(circuit: Circuit, exact, numeric=None) -> tuple[Finding, ...]:
         for h in jump_hazards(exact.jump(k)):
             out.append(_hazard_finding(h, _numeric_sees(h, numeric, k)))
     seen = set()
-    for h in getattr(exact, "hazards", ()):
+    for h in exact.hazards:
         key = (h.code, h.parts, h.nodes, tuple(sorted(h.values)))
         if key not in seen:
             seen.add(key)

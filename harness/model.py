@@ -16,6 +16,8 @@ from functools import cached_property
 from types import MappingProxyType
 from typing import Mapping
 
+from .fieldspec import FIELD_SPECS
+
 RESISTOR = "resistor"
 CAPACITOR = "capacitor"
 INDUCTOR = "inductor"
@@ -171,15 +173,12 @@ CURRENT_BRANCHES = kinds_where(lambda s: s.current_branch)
 NODE, BETWEEN, ACROSS, THROUGH = "node", "between", "across", "through"
 PROBE_KINDS = (NODE, BETWEEN, ACROSS, THROUGH)
 
-#: hand-value fields of an expectation, in report order
-FIELDS = ("before", "after", "final", "tau")
+#: hand-value fields of an expectation, in report order: each declared once in
+#: ``harness.fieldspec.FIELD_SPECS`` (unit, sign rule, comparison, label)
+FIELDS = tuple(s.name for s in FIELD_SPECS if not s.signoff)
 #: sign-off fields, reported only where an expectation asks for them, in report order;
 #: ``peak`` and ``dominant_tau`` hand values live in ``Expectation.hand`` like the four above
-SIGNOFF_FIELDS = ("crossing", "peak", "energy", "dominant_tau", "ring_frequency", "damping",
-                  "q", "overshoot")
-#: hand fields that describe the probe's slowest visible complex pair (ring) and its step
-#: response's overshoot (a fraction of the step), with their units
-RING_FIELDS = {"ring_frequency": "Hz", "damping": "1", "q": "1", "overshoot": "1"}
+SIGNOFF_FIELDS = tuple(s.name for s in FIELD_SPECS if s.signoff)
 #: crossing directions
 RISING, FALLING, EITHER = "rising", "falling", "either"
 DIRECTIONS = (RISING, FALLING, EITHER)
@@ -351,8 +350,8 @@ class Expectation:
         at: the event time in seconds (an element of ``Circuit.events``).
         hand: field name -> hand value in SI units (only the fields given); fields from ``FIELDS``
             and the scalar sign-off fields ``peak`` (largest magnitude, V or A),
-            ``dominant_tau`` (the first-order estimate of a higher-order probe, s) and
-            ``RING_FIELDS``: ``ring_frequency`` (damped frequency f_d of the slowest visible
+            ``dominant_tau`` (the first-order estimate of a higher-order probe, s) and the
+            ring fields: ``ring_frequency`` (damped frequency f_d of the slowest visible
             complex pair, Hz), ``damping`` (its zeta), ``q`` (1/(2 zeta)), ``overshoot`` (how far
             the response passes its final value, a fraction of the step).
         formulas: field name -> the formula text the value was evaluated from (``"= R1*C1"``).
@@ -388,7 +387,7 @@ class Expectation:
 
 
 #: fields that may carry spec limits (``Expectation.spec``); ``crossing`` is the crossing time
-SPEC_FIELDS = ("before", "after", "final", "tau", "crossing", "peak", "energy", "dominant_tau")
+SPEC_FIELDS = tuple(s.name for s in FIELD_SPECS if s.spec)
 #: sign-off over tolerances: the methods a file may ask for, and the distributions
 EXTREMES, RSS, MONTE_CARLO = "extremes", "rss", "monte-carlo"
 METHODS = (EXTREMES, RSS, MONTE_CARLO)
@@ -502,6 +501,11 @@ class Circuit:
         for part in self.parts:
             times.update(when for when, _ in part.steps)
         return tuple(sorted(times))
+
+    def event_index(self, at: float) -> int:
+        """Index k of the event nearest ``at`` s in ``events`` (the reader makes every
+        expectation's ``at`` one of them)."""
+        return min(range(len(self.events)), key=lambda k: abs(self.events[k] - at))
 
     def storage_parts(self) -> tuple[Part, ...]:
         return tuple(p for p in self.parts if p.kind in STORAGE)

@@ -299,33 +299,44 @@ class DominantTau:
         return (self.t50_estimate - self.t50) / self.t50
 
 
-class SignoffSolution(Protocol):
-    """The sign-off quantities an engine may add to ``Solution``.
+@dataclass(frozen=True)
+class Conditioning:
+    """How far interval k's values can be trusted: ``kappa`` = max(kappa_pencil, kappa_modes),
+    dimensionless (Higham 2002, ch. 7: a solve loses about log10 kappa digits).
 
-    The comparator calls these only where an engine has them (``hasattr``); a missing method
-    reads as "not computed by this engine" and is never an engine disagreement.
+    Attributes:
+        index: the interval k.
+        start: its start t_k in s.
+        kappa_pencil: condition number of the interval's equilibrated shift-invert matrix.
+        kappa_modes: condition number of its normalised eigenvector basis.
     """
 
-    def crossing(self, probe: Probe, k: int, level: float, direction: str) -> CrossingValue:
-        """First crossing of ``level`` (direction "rising", "falling" or "either")."""
+    index: int
+    start: float
+    kappa_pencil: float
+    kappa_modes: float
 
-    def peak(self, probe: Probe, k: int) -> PeakValue:
-        """Largest magnitude of ``probe`` in interval k."""
-
-    def energy(self, part: str, k: int, until: float | None = None) -> EnergyValue:
-        """Energy absorbed by ``part`` over interval k (or from the event to ``until`` s)."""
-
-    def dominant(self, probe: Probe, k: int) -> DominantTau:
-        """The zero-value time-constant estimate and how far it is from the exact waveform."""
+    @property
+    def kappa(self) -> float:
+        return max(self.kappa_pencil, self.kappa_modes)
 
 
 class Solution(Protocol):
-    """The result of one engine on one circuit."""
+    """The result of one engine on one circuit: what every engine must answer, and the optional
+    answers an engine gives where it computes them.
+
+    Required: the attributes and methods down to ``dominant``.  Optional: ``hazards``,
+    ``resolution``, ``thevenin``, ``conditioning`` and ``withheld``; an engine declares the
+    ones it gives by overriding ``NotComputed`` (which both engines inherit), and every other
+    one answers "not computed" (None, or no hazards) -- never an engine disagreement.  The
+    comparator asks these methods directly; nothing is probed with ``hasattr``.
+    """
 
     engine: str                  #: "closed_form" or "numeric"
     circuit: Circuit
     #: circuit-wide diagnostics (``Diagnostic``; the trust guard adds its own as text)
     warnings: tuple[Diagnostic | str, ...]
+    hazards: tuple[Hazard, ...]  #: optional: conditions found while solving, in event order
 
     def features(self, probe: Probe, k: int) -> Features:
         """Values of ``probe`` at event k (before, after, final, modes …)."""
@@ -340,3 +351,54 @@ class Solution(Protocol):
     def waveform(self, probe: Probe, k: int, times: np.ndarray) -> np.ndarray:
         """Values of ``probe`` at ``times`` (shape (n,), within ``span(k)``, strictly after t_k)
         for the response of interval k continued with its sources held; shape (n,)."""
+
+    def crossing(self, probe: Probe, k: int, level: float, direction: str) -> CrossingValue:
+        """First crossing of ``level`` (direction "rising", "falling" or "either")."""
+
+    def peak(self, probe: Probe, k: int) -> PeakValue:
+        """Largest magnitude of ``probe`` in interval k."""
+
+    def overshoot(self, probe: Probe, k: int) -> float | None:
+        """How far the probe passes its final value in interval k, a fraction of the step
+        x_inf - x(t_k+); None where there is no step to settle from."""
+
+    def energy(self, part: str, k: int, until: float | None = None) -> EnergyValue:
+        """Energy absorbed by ``part`` over interval k (or from the event to ``until`` s)."""
+
+    def dominant(self, probe: Probe, k: int) -> DominantTau:
+        """The zero-value time-constant estimate and how far it is from the exact waveform."""
+
+    def resolution(self, k: int) -> float | None:
+        """Optional: the fastest time constant in s the engine resolves just after event k
+        (faster modes are not judged there), or None."""
+
+    def thevenin(self, k: int) -> Mapping[str, float | None] | None:
+        """Optional: storage part -> the Thevenin resistance in ohm it sees in interval k
+        (None where unbounded), for the diagnosis of a hand τ; or None."""
+
+    def conditioning(self) -> tuple[Conditioning, ...] | None:
+        """Optional: one ``Conditioning`` per interval of the circuit's equations, or None."""
+
+    def withheld(self, k: int) -> str | None:
+        """Optional: why interval k's values are not reported, or None when they are (answered
+        by the trust guard around an engine, ``harness.compare.trust``)."""
+
+
+class NotComputed:
+    """The optional answers of ``Solution``, each "not computed".  Both engines inherit this and
+    override the answers they give: the closed form ``hazards``, ``thevenin`` and
+    ``conditioning``; the numerical engine ``resolution``."""
+
+    hazards: tuple[Hazard, ...] = ()
+
+    def resolution(self, k: int) -> float | None:
+        return None
+
+    def thevenin(self, k: int) -> Mapping[str, float | None] | None:
+        return None
+
+    def conditioning(self) -> tuple[Conditioning, ...] | None:
+        return None
+
+    def withheld(self, k: int) -> str | None:
+        return None

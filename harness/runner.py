@@ -113,10 +113,10 @@ def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
     from . import closedform
     from .compare import compare_file
     from .report.cautions import cautions_for
-    from .closedform.conditioning import assess, guard
+    from .compare.trust import guard
 
     exact = closedform.solve(circuit)
-    trust = assess(exact)  # beyond tolerances.CONDITION_LIMIT both engines report None
+    trust = exact.conditioning()  # beyond tolerances.CONDITION_LIMIT both engines report None
     exact, sim = guard(exact, trust), None
     if numeric:
         from . import simulate

@@ -92,7 +92,7 @@ THEVENIN_SHORT = 1e-12
 #: current scale (largest source voltage over the smallest resistance plus the largest source
 #: current), so a part that carries only rounding noise is not judged on it
 CURRENT_NOISE = 1e-9
-#: absolute floor for energies, as a fraction of the energy itself (compare_signoff.
+#: absolute floor for energies, as a fraction of the energy itself (compare.energy.
 #: energy_floor, beside the rounding-noise floor R_min I_f^2 T): a hand energy of 0 J, or half
 #: or twice the computed one, is never within it
 ENERGY_FLOOR = 1e-6

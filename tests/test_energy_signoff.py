@@ -22,7 +22,7 @@ from harness import closedform
 from harness import tolerances as T
 from harness.circuitfile import parse_circuit
 from harness.compare import CheckContext, compare_file
-from harness.compare_signoff import _noise_energy, energy_floor
+from harness.compare.energy import _noise_energy, energy_floor
 from harness.model import Probe
 from harness.simulate import solve as numeric
 from simulate_random import random_circuit

@@ -12,10 +12,10 @@ import pytest
 
 from harness import tolerances as tol
 from harness.compare import CheckContext, compare_field
-from harness.compare_signoff import compare_peak
+from harness.compare.peak import compare_peak
 from harness.model import Circuit, Expectation, Part, Probe
 from harness.outcome import ENGINES_DISAGREE, PASS
-from harness.results import Features
+from harness.results import Features, NotComputed
 from tests.benchmarks import agree
 from tests.benchmarks.agree_circuits import circuit_text
 
@@ -25,8 +25,9 @@ class _Peak:
         self.magnitude, self.time, self.value, self.after_next_event = magnitude, 0.0, magnitude, False
 
 
-class _Stub:
-    """An engine reporting fixed values for one probe (before, after, final, peak)."""
+class _Stub(NotComputed):
+    """An engine reporting fixed values for one probe (before, after, final, peak); its
+    optional answers are "not computed"."""
 
     def __init__(self, value: float) -> None:
         self.value = value
@@ -125,7 +126,7 @@ def _ring_context(closed: _Ring, numeric: _Ring):
 def test_overshoot_of_a_noise_step_gives_no_verdict():
     # a pulse that starts and ends at 0 V (a 5.5 V hump): its step x_inf - x(0+) is rounding
     # (1e-15 V, 5e-13 V), so the overshoot, excursion over step, is noise over noise
-    from harness.compare_signoff import compare_ring
+    from harness.compare.ring import compare_ring
     ctx, exp = _ring_context(_Ring(1.06e-15, 2.8e-32, 2.94e11), _Ring(-1.8e-18, 5.5e-13, 1.0e13))
     assert compare_ring(exp, ctx.exact.features(None, 0), ctx, "overshoot").verdict \
         != ENGINES_DISAGREE
@@ -133,7 +134,7 @@ def test_overshoot_of_a_noise_step_gives_no_verdict():
 
 def test_overshoot_of_a_real_step_is_still_judged():
     # a 1 V step overshooting by 10 % in one engine and 12 % in the other: a real disagreement
-    from harness.compare_signoff import compare_ring
+    from harness.compare.ring import compare_ring
     ctx, exp = _ring_context(_Ring(0.0, 1.0, 0.10), _Ring(0.0, 1.0, 0.12))
     assert compare_ring(exp, ctx.exact.features(None, 0), ctx, "overshoot").verdict \
         == ENGINES_DISAGREE

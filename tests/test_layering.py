@@ -29,8 +29,7 @@ from test_independence import imported_modules
 
 HARNESS = Path(__file__).resolve().parents[1] / "harness"
 ENGINES = ("harness.closedform", "harness.simulate")
-COMPARATOR = ("harness.compare", "harness.compare_signoff", "harness.diagnose",
-              "harness.findings")
+COMPARATOR = ("harness.compare", "harness.findings")
 #: the command line and what drives a run (the worker pool and the progress bar are shared
 #: infrastructure: the report writers draw plots in the same pool)
 APPLICATION = ("harness.cli", "harness.runner", "harness.config", "harness.starter",
@@ -40,7 +39,8 @@ REPORT = ("harness.report",)
 WORDS = ("harness.messages",)
 
 RULES = {
-    "model": (("harness.model", "harness.results", "harness.units", "harness.errors"),
+    "model": (("harness.model", "harness.fieldspec", "harness.results", "harness.units",
+               "harness.errors"),
               ENGINES + COMPARATOR + REPORT + APPLICATION + WORDS),
     "engines": (ENGINES, REPORT + COMPARATOR + APPLICATION + INFRASTRUCTURE + WORDS),
     "comparator": (COMPARATOR, REPORT + APPLICATION + INFRASTRUCTURE),

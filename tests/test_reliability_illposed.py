@@ -23,6 +23,7 @@ from harness import closedform, simulate
 from harness.circuitfile import parse_circuit
 from harness.cli import main
 from harness.closedform.conditioning import assess
+from harness.compare.trust import trusted
 from harness.model import Probe
 from harness.outcome import ENGINES_DISAGREE, MISMATCH, PASS
 
@@ -131,7 +132,7 @@ def test_extreme_values_closed_form_matches_sympy(extreme):
         np.testing.assert_allclose(got, ref[:, j], rtol=1e-9, atol=1e-12)
         assert exact.features(probe, 0).final == pytest.approx(float(v_inf[j]), rel=1e-12)
     assert sorted(exact.time_constants(0)) == pytest.approx(taus, rel=1e-9)
-    assert all(c.trusted for c in assess(exact))
+    assert all(trusted(c) for c in assess(exact))
 
 
 def test_extreme_values_numeric_matches_sympy(extreme):

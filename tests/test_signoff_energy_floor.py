@@ -16,7 +16,7 @@ import pytest
 from harness import tolerances as T
 from harness.circuitfile import parse_circuit
 from harness.compare import CheckContext, compare_file
-from harness.compare_signoff import _noise_energy, energy_floor
+from harness.compare.energy import _noise_energy, energy_floor
 from harness.model import Probe
 from harness.outcome import ENGINES_DISAGREE, MISMATCH, PASS
 from harness import closedform

@@ -23,7 +23,7 @@ from harness import closedform
 from harness import tolerances as T
 from harness.circuitfile import parse_circuit
 from harness.compare import CheckContext, compare_file
-from harness.compare_signoff import engine_energy_floor
+from harness.compare.energy import engine_energy_floor
 from harness.model import RESISTOR, SWITCH, Probe
 from harness.outcome import ENGINES_DISAGREE, PASS
 from harness.simulate import solve as numeric

@@ -13,52 +13,21 @@ the condition number of its basis):
   defective A, where the engine's cluster blocks take over, so it is only counted for A with
   distinct eigenvalues.
 
-``assess(solution)`` gives one ``Conditioning`` per interval; ``guard(solution)`` wraps an engine
-solution (either engine: the conditioning belongs to the circuit's equations, so it is judged on
-the exact engine's pencil and applied to both) so that
-
-* above ``tolerances.CONDITION_WARN`` the solution carries a warning naming the interval and the
-  estimate;
-* above ``tolerances.CONDITION_LIMIT`` every value of that interval (before/after of its event,
-  final, tau, modes) is None and ``notes`` say "conditioning 1e17 beyond 1e12: values not
-  reported".
+``assess(solution)`` gives one ``results.Conditioning`` per interval (the closed form's answer
+to ``Solution.conditioning``).  The conditioning belongs to the circuit's equations, so it is
+estimated on the exact engine's pencil; what follows from it for both engines' values is judged
+outside either engine, by the trust guard (``harness.compare.trust``).
 
 Costs one SVD and one eigendecomposition per distinct switch configuration (O(n^3)).
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
-
 import numpy as np
 
 from .. import tolerances as tol
-from ..results import Features
-from ..units import format_si
+from ..results import Conditioning
 from .linalg import equilibrate
-
-
-@dataclass(frozen=True)
-class Conditioning:
-    """Conditioning of interval k: ``kappa`` = max(kappa_pencil, kappa_modes), dimensionless."""
-
-    index: int
-    start: float
-    kappa_pencil: float
-    kappa_modes: float
-
-    @property
-    def kappa(self) -> float:
-        return max(self.kappa_pencil, self.kappa_modes)
-
-    @property
-    def trusted(self) -> bool:
-        return self.kappa <= tol.CONDITION_LIMIT
-
-    def note(self) -> str:
-        return (f"conditioning {self.kappa:.0e} beyond {tol.CONDITION_LIMIT:.0e} from "
-                f"{format_si(self.start, 's')} on: values not reported (the interval's equations "
-                f"are too close to singular for their digits to be trusted)")
 
 
 def pencil_condition(g: np.ndarray, c: np.ndarray, s0: float) -> float:
@@ -96,57 +65,3 @@ def assess(solution) -> tuple[Conditioning, ...]:
                          modes_condition(resp.dec.a))
         out.append(Conditioning(k, resp.start, *seen[key]))
     return tuple(out)
-
-
-class Guarded:
-    """An engine solution whose untrustworthy intervals report None (``Solution`` protocol).
-
-    Attributes other than ``features``, ``waveform``, ``withheld`` and ``warnings`` pass to the
-    wrapped one.
-    """
-
-    def __init__(self, inner, conditioning: tuple[Conditioning, ...]) -> None:
-        self._inner = inner
-        self.conditioning = conditioning
-        warn = [_warning(c) for c in conditioning if c.kappa > tol.CONDITION_WARN]
-        self.warnings = tuple(inner.warnings) + tuple(dict.fromkeys(warn))
-
-    def __getattr__(self, name):
-        return getattr(self._inner, name)
-
-    def features(self, probe, k: int) -> Features:
-        f = self._inner.features(probe, k)
-        bad_here = not self.conditioning[k].trusted
-        bad_before = k > 0 and not self.conditioning[k - 1].trusted
-        if not (bad_here or bad_before):
-            return f
-        note = self.conditioning[k if bad_here else k - 1].note()
-        if bad_here:
-            return replace(f, before=None if bad_before else f.before, after=None, final=None,
-                           tau=None, order=None, modes=(), oscillation=(),
-                           notes=f.notes + (note,))
-        return replace(f, before=None, notes=f.notes + (note,))
-
-    def withheld(self, k: int) -> str | None:
-        """The note saying why interval k's values are not reported, or None when they are
-        (the sign-off comparisons ask this before using ``crossing``, ``peak``, ``energy``
-        and ``dominant``, which pass through unguarded)."""
-        return None if self.conditioning[k].trusted else self.conditioning[k].note()
-
-    def waveform(self, probe, k: int, times):
-        values = np.asarray(self._inner.waveform(probe, k, times), dtype=float)
-        return np.full_like(values, np.nan) if not self.conditioning[k].trusted else values
-
-
-def _warning(c: Conditioning) -> str:
-    verdict = ("values not reported" if not c.trusted else
-               f"values may carry a relative error up to ~{c.kappa * np.finfo(float).eps:.0e}")
-    return (f"from {format_si(c.start, 's')} the equations are ill-conditioned (conditioning "
-            f"{c.kappa:.0e}, bound {tol.CONDITION_LIMIT:.0e}): {verdict}")
-
-
-def guard(solution, conditioning: tuple[Conditioning, ...]):
-    """``solution`` itself when every interval is within ``CONDITION_WARN``, else ``Guarded``."""
-    if all(c.kappa <= tol.CONDITION_WARN for c in conditioning):
-        return solution
-    return Guarded(solution, conditioning)

@@ -9,8 +9,8 @@ import numpy as np
 from ..errors import TopologyError
 from ..model import (ACROSS, CAPACITOR, CONTROLLED, CURRENT_BRANCHES, CURRENT_SOURCE, SOURCES,
                      SWITCH, THROUGH, VOLTAGE_CONTROLLED, Circuit, Probe)
-from ..results import (FLOATING_NODES, GROWTH, UNDAMPED_OSCILLATION, Diagnostic, Features,
-                       Hazard, Jump)
+from ..results import (FLOATING_NODES, GROWTH, UNDAMPED_OSCILLATION, Conditioning, Diagnostic,
+                       Features, Hazard, Jump, NotComputed)
 from ..tolerances import MODE_VISIBILITY
 from ..units import format_si
 from .features import SCALE_FLOOR, RawEvent, classify, probe_scale, raw_event
@@ -24,13 +24,14 @@ from .probes import functional
 from .reach import reaching_storage, voltage_of_capacitor
 from .response import IntervalResponse, Pencil, build, pencil_of
 from . import signoff
+from .conditioning import assess
 from .thevenin import thevenin_resistances
 
 ENGINE = "closed_form"
 
 
 @dataclass(frozen=True)
-class ClosedFormSolution:
+class ClosedFormSolution(NotComputed):
     """The exact per-interval solution of one circuit (satisfies ``harness.results.Solution``).
 
     Attributes:
@@ -103,6 +104,10 @@ class ClosedFormSolution:
         """Storage part -> Thevenin resistance in ohms it sees in interval k (sources zeroed,
         other capacitors open, other inductors shorted, controlled sources kept)."""
         return thevenin_resistances(self.circuit, self.layout, self.scale, self.intervals[k].g)
+
+    def conditioning(self) -> tuple[Conditioning, ...]:
+        """One conditioning estimate per interval (``conditioning.assess``)."""
+        return assess(self)
 
     def interval_modes(self, k: int) -> tuple[Mode, ...]:
         """Every mode cluster of interval k with its complex rate in 1/s (slowest first)."""

@@ -9,6 +9,7 @@ import math
 from typing import Any, Iterable, Mapping
 
 from .. import tolerances as tol
+from ..fieldspec import FIELD_SPEC
 from ..outcome import ENGINES_DISAGREE, ERROR, FINDING, MISMATCH, PASS, UNCHECKED, VERDICT_ORDER, \
     CheckResult, FieldResult, FileResult, RunResult
 from ..safetext import printable  # noqa: F401  (the writers' one filter of untrusted text)
@@ -29,10 +30,12 @@ def plural(count: int, noun: str) -> str:
 
 
 def field_unit(field: FieldResult) -> str:
-    """The field's unit symbol; ``tau`` is in seconds when the comparator left it blank."""
+    """The field's unit symbol; where the comparator left it blank, the declared unit when it
+    does not depend on the probe (``fieldspec.FieldSpec.fixed_unit``)."""
     if field.unit:
         return field.unit
-    return {"tau": "s", "crossing": "s", "dominant_tau": "s", "energy": "J"}.get(field.name, "")
+    spec = FIELD_SPEC.get(field.name)
+    return "" if spec is None else spec.fixed_unit
 
 
 def field_label(field: FieldResult) -> str:
@@ -54,9 +57,8 @@ def field_label(field: FieldResult) -> str:
         return f"peak |x| ({at})"
     if field.name == "energy":
         return f"energy in {extra.get('part', '?')}"
-    if field.name == "dominant_tau":
-        return "dominant τ (Σ zero-value τ)"
-    return field.name
+    spec = FIELD_SPEC.get(field.name)
+    return field.name if spec is None else spec.title
 
 
 def value(x: float | None, unit: str = "") -> str:
@@ -66,10 +68,6 @@ def value(x: float | None, unit: str = "") -> str:
     if not math.isfinite(x):
         return f"{x}"
     return format_si(x, unit, digits=4)
-
-
-#: closed form vs numeric tolerance of each field (relative); ``ENGINE_RELATIVE`` otherwise
-_ENGINE_RELATIVE = {"energy": tol.ENERGY_ENGINE_RELATIVE, "dominant_tau": tol.DOMINANT_ENGINE}
 
 
 def field_values(field: FieldResult) -> list[str]:
@@ -83,7 +81,7 @@ def field_values(field: FieldResult) -> list[str]:
     values = [field.hand] + [_noise_to_zero(v, field.floor)
                              for v in (field.closed_form, field.numeric)]
     relative = min(field.tolerance if field.tolerance is not None else tol.HAND_RELATIVE,
-                   _ENGINE_RELATIVE.get(field.name, tol.ENGINE_RELATIVE))
+                   _engine_relative(field.name))
 
     def apart(a: float, b: float) -> bool:
         return not tol.agree(a, b, relative, field.floor)
@@ -91,6 +89,12 @@ def field_values(field: FieldResult) -> list[str]:
     texts = format_apart([v if v is None or math.isfinite(v) else None for v in values], unit,
                          apart=apart)
     return [text if v is None or math.isfinite(v) else f"{v}" for text, v in zip(texts, values)]
+
+
+def _engine_relative(name: str) -> float:
+    """The field's declared closed form vs numeric tolerance (relative)."""
+    spec = FIELD_SPEC.get(name)
+    return tol.ENGINE_RELATIVE if spec is None else spec.engine_relative
 
 
 def _noise_to_zero(x: float | None, floor: float) -> float | None:

@@ -27,6 +27,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .. import tolerances as tol
+from ..compare.curve import first_order
 from ..outcome import CheckResult, FieldResult
 from ..units import format_apart
 from . import common
@@ -73,7 +74,7 @@ def hand_curve(check: CheckResult,
     if t_end is None or not t_end > t_k:
         t_end = t_k + 5 * tau
     t = np.linspace(t_k, t_end, HAND_POINTS)
-    return t, x_inf + (x0 - x_inf) * np.exp(-(t - t_k) / tau)
+    return t, first_order(t, t_k, x0, x_inf, tau)
 
 
 def _resolved(field: FieldResult | None) -> float | None:

@@ -7,7 +7,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..model import CAPACITOR, CONTROLLED, SWITCH, Circuit, Probe
-from ..results import NO_FINAL, NOT_REACHED, Diagnostic, Features, Jump
+from ..results import NO_FINAL, NOT_REACHED, Diagnostic, Features, Jump, NotComputed
 from ..tolerances import MODE_VISIBILITY
 from .branches import Layout
 from .equations import System
@@ -37,7 +37,7 @@ RESOLVE = 25.0
 
 
 @dataclass(frozen=True)
-class NumericSolution:
+class NumericSolution(NotComputed):
     """The narrow-pulse model of one circuit, integrated interval by interval.
 
     Attributes:
@@ -230,7 +230,7 @@ class NumericSolution:
         w, _ = self._rows(probe, k)
         return w, self._offset(probe, k)
 
-    # ----- sign-off quantities (harness.results.SignoffSolution) ---------------------
+    # ----- sign-off quantities (harness.results.Solution) -------------------------------
     def crossing(self, probe: Probe, k: int, level: float, direction: str):
         """First crossing of ``level`` after event k (``results.CrossingValue``; see
         harness.simulate.signoff), or None where interval k was not integrated."""

@@ -16,6 +16,7 @@ import numpy as np
 
 from .. import model as m
 from .. import tolerances as tol
+from ..fieldspec import field_spec
 from ..outcome import ENGINES_DISAGREE, MISMATCH, PASS, worst
 from . import batch, fieldvalue, stats
 from .extremes import search
@@ -134,8 +135,7 @@ def analyse_expectation(circuit: m.Circuit, exp: m.Expectation, numeric: bool = 
 def _field(circuit, exp, name, col, quantities, nominal, grad, pair, how, acc, route,
            numeric, low, high) -> SpreadResult:
     limits = exp.spec[name]
-    unit = {"tau": "s", "dominant_tau": "s", "crossing": "s", "energy": "J"}.get(
-        name, exp.probe.dimension)
+    unit = field_spec(name).unit_for(exp.probe.dimension)
     methods = circuit.variation.methods
     with np.errstate(all="ignore"):
         normalised = grad / nominal if nominal else grad * np.nan

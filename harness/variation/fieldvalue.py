@@ -13,21 +13,17 @@ import numpy as np
 
 from .. import model as m
 from ..closedform import solve as closed_solve
+from ..fieldspec import FEATURES, field_spec
 from .quantities import Quantity, apply
 
 _FAILURES = (ValueError, ArithmeticError, np.linalg.LinAlgError)
-
-
-def event_index(circuit: m.Circuit, at: float) -> int:
-    """Index of the event at time ``at`` (s)."""
-    return int(np.argmin(np.abs(np.asarray(circuit.events) - at)))
 
 
 def field_values(solution, circuit: m.Circuit, exp: m.Expectation,
                  names: tuple[str, ...]) -> np.ndarray:
     """The values of ``names`` (``model.SPEC_FIELDS``) of ``exp`` in ``solution`` (an engine's
     Solution), shape (len(names),), NaN where there is none."""
-    k = event_index(circuit, exp.at)
+    k = circuit.event_index(exp.at)
     out = np.full(len(names), np.nan)
     try:
         feats = solution.features(exp.probe, k)
@@ -42,7 +38,7 @@ def field_values(solution, circuit: m.Circuit, exp: m.Expectation,
 
 
 def _one(solution, feats, exp: m.Expectation, k: int, name: str) -> float:
-    if name in ("before", "after", "final", "tau"):
+    if field_spec(name).source == FEATURES:
         value = getattr(feats, name)
     elif name == "crossing":
         c = exp.crossing

@@ -8,25 +8,23 @@ wins; the fallback states the two values and their difference.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
-
-from . import tolerances as tol
-from .messages import text
-from .model import CAPACITOR, INDUCTOR, Expectation
-from .results import Features
-from .units import format_apart, format_si
-
-if TYPE_CHECKING:  # pragma: no cover
-    from .compare import CheckContext
+from .. import tolerances as tol
+from ..fieldspec import PROBE_UNIT, field_spec
+from ..messages import text
+from ..model import CAPACITOR, INDUCTOR, Expectation
+from ..results import Features
+from ..topology import trapped_nodes
+from ..units import format_apart, format_si
+from .context import CheckContext, direction, hand_relative
 
 
-def explain(name: str, hand: float, exp: Expectation, fe: Features, ctx: "CheckContext") -> str:
+def explain(name: str, hand: float, exp: Expectation, fe: Features, ctx: CheckContext) -> str:
     """Why the hand value ``hand`` of field ``name`` does not match the closed form."""
-    unit = "s" if name == "tau" else exp.probe.dimension
+    unit = field_spec(name).unit_for(exp.probe.dimension)
     computed = getattr(fe, name)
     if computed is None:
         return _undefined(name, hand, fe, ctx)
-    relative = exp.tolerance if exp.tolerance is not None else ctx.circuit.settings.tolerance
+    relative = hand_relative(exp, ctx)
     hand_text, computed_text = format_apart([hand, computed], unit)
     base = f"hand {hand_text}, closed form {computed_text} ({_percent(hand, computed)})"
     floor = tol.HAND_FLOOR * ctx.scale
@@ -43,7 +41,7 @@ def _percent(hand: float, computed: float) -> str:
     return f"{(hand - computed) / abs(computed):+.2%}"
 
 
-def _undefined(name: str, hand: float, fe: Features, ctx: "CheckContext") -> str:
+def _undefined(name: str, hand: float, fe: Features, ctx: CheckContext) -> str:
     if name == "tau":
         if fe.order and fe.order > 1:
             modes = ", ".join(format_si(t, "s") for t in fe.modes)
@@ -61,15 +59,12 @@ def _undefined(name: str, hand: float, fe: Features, ctx: "CheckContext") -> str
 
 
 def _sign_rule(name, hand, computed, fe, ctx, relative, floor) -> str:
-    if name != "tau" and computed != 0 and tol.agree(-hand, computed, relative, floor):
-        return (f"the sign is reversed: this probe is measured as {_direction(ctx)}; your value "
+    if field_spec(name).unit == PROBE_UNIT and computed != 0 and \
+            tol.agree(-hand, computed, relative, floor):
+        return (f"the sign is reversed: this probe is measured as "
+                f"{direction(ctx.probe, ctx.circuit)}; your value "
                 f"fits the opposite direction")
     return ""
-
-
-def _direction(ctx) -> str:
-    from .compare import direction
-    return direction(ctx.probe, ctx.circuit)
 
 
 def _jump_rule(name, hand, computed, fe, ctx, relative, floor) -> str:
@@ -88,11 +83,7 @@ def _jump_rule(name, hand, computed, fe, ctx, relative, floor) -> str:
 def _trapped_rule(name, hand, computed, fe, ctx, relative, floor) -> str:
     if name != "final":
         return ""
-    try:
-        from .topology import trapped_nodes
-        groups = trapped_nodes(ctx.circuit, ctx.k)
-    except (ImportError, AttributeError):
-        return ""
+    groups = trapped_nodes(ctx.circuit, ctx.k)
     if not groups:
         return ""
     names = "; ".join(", ".join(g) for g in groups)
@@ -103,10 +94,7 @@ def _trapped_rule(name, hand, computed, fe, ctx, relative, floor) -> str:
 def _thevenin_rule(name, hand, computed, fe, ctx, relative, floor) -> str:
     if name != "tau":
         return ""
-    thevenin = getattr(ctx.exact, "thevenin", None)
-    if thevenin is None:
-        return ""
-    seen = thevenin(ctx.k)
+    seen = ctx.exact.thevenin(ctx.k)
     if not seen:
         return ""
     bits = []

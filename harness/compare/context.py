@@ -1,0 +1,175 @@
+"""What the comparison of one expectation knows beyond its own values.
+
+``CheckContext`` carries the circuit, both engines' solutions, the probe and the event, and the
+scales every comparison is judged against: the probe's scale (``probe_scale``, the tolerance
+floors), its noise floor (``tol.PROBE_NOISE`` of the circuit's scale in its unit), whether the
+interval is quiet (below that floor) or unresolved by the numerical engine.  The circuit's
+scales in volts and amperes (``source_magnitudes``, ``current_scale``) are defined once here.
+"""
+
+from __future__ import annotations
+
+import math
+from functools import cached_property
+
+import numpy as np
+
+from .. import tolerances as tol
+from ..model import (ACROSS, BETWEEN, CURRENT_SOURCE, NODE, RESISTOR, THROUGH, VOLTAGE_SOURCE,
+                     Circuit, Expectation, Probe)
+from ..results import Features, Solution
+from ..units import format_exact
+
+
+def direction(probe: Probe, circuit: Circuit) -> str:
+    """The probe's reference direction in words (passive sign convention)."""
+    if probe.kind == NODE:
+        return f"v({probe.targets[0]}) − v({circuit.ground})"
+    if probe.kind == BETWEEN:
+        return f"v({probe.targets[0]}) − v({probe.targets[1]})"
+    part = circuit.part(probe.targets[0])
+    if probe.kind == ACROSS:
+        return f"v({part.p}) − v({part.n}), + at {part.p}"
+    return f"current from {part.p} through {part.name} to {part.n}"
+
+
+def probe_scale(circuit: Circuit, exact: Solution, probe: Probe) -> float:
+    """Largest magnitude the probe takes at any event (before, after, final), for tolerance
+    floors; a probe that is ~0 at every event (a pulse through a coupling capacitor, a current
+    sensed while a capacitor charges) takes its peaks within the intervals as well, so that its
+    rounding noise at the events is not judged against its own noise."""
+    values = []
+    for k in range(len(circuit.events)):
+        f = exact.features(probe, k)
+        values += [abs(v) for v in (f.before, f.after, f.final) if v is not None]
+    scale = max(values, default=0.0)
+    if scale <= tol.SCALE_FROM_PEAKS * circuit.largest_source():
+        for k in range(len(circuit.events)):
+            if exact.withheld(k):
+                continue
+            try:
+                magnitude = exact.peak(probe, k).magnitude
+            except (ValueError, ArithmeticError, np.linalg.LinAlgError):
+                continue
+            if magnitude is not None and math.isfinite(magnitude):
+                scale = max(scale, abs(magnitude))
+    return scale if scale > 0 else circuit.largest_source()
+
+
+def snap_zero(value: float | None, scale: float) -> float | None:
+    """0.0 for a closed-form value that is rounding noise (below ``tol.ZERO_NOISE`` of the scale)."""
+    if value is not None and abs(value) < tol.ZERO_NOISE * scale:
+        return 0.0
+    return value
+
+
+def below_noise(value: float | None, noise: float) -> float | None:
+    """0.0 for a value below the probe's noise floor (``tol.PROBE_NOISE``), else the value."""
+    if value is not None and math.isfinite(value) and abs(value) < noise:
+        return 0.0
+    return value
+
+
+def hand_relative(exp: Expectation, ctx: CheckContext) -> float:
+    """The expectation's relative hand tolerance, else the file's."""
+    return exp.tolerance if exp.tolerance is not None else ctx.circuit.settings.tolerance
+
+
+def tau_scale(fe: Features, ctx: CheckContext) -> float:
+    """The interval's τ scale: the probe's slowest visible τ, else a tenth of the span."""
+    if fe.modes:
+        return fe.modes[0]
+    start, end = ctx.exact.span(ctx.k)
+    return max((end - start) / 10.0, 1e-300)
+
+
+class CheckContext:
+    """What the comparison of one expectation needs to know beyond its own values."""
+
+    def __init__(self, circuit: Circuit, exact: Solution, numeric: Solution | None,
+                 probe: Probe, k: int) -> None:
+        self.circuit = circuit
+        self.exact = exact
+        self.numeric = numeric
+        self.probe = probe
+        self.k = k
+
+    @cached_property
+    def scale(self) -> float:
+        """The probe's scale (``probe_scale``), at least its noise floor, computed on first
+        use."""
+        return max(probe_scale(self.circuit, self.exact, self.probe), self.noise)
+
+    @cached_property
+    def noise(self) -> float:
+        """The probe's noise floor in its unit: ``tol.PROBE_NOISE`` of the circuit's scale."""
+        return tol.PROBE_NOISE * circuit_scale(self.circuit, self.probe)
+
+    @cached_property
+    def unresolved(self) -> str:
+        """Why the numerical engine's values just after event k are not judged, or "": the
+        closed form sees a mode in the probe faster than that engine resolves after the event
+        (``resolution``: its pulse cannot be made narrow enough there), a limit of that
+        engine, not a disagreement."""
+        limit = None if self.numeric is None else self.numeric.resolution(self.k)
+        if limit is None:
+            return ""
+        fe = self.exact.features(self.probe, self.k)
+        fast = [t for t in fe.modes if t < limit]
+        if not fast:
+            return ""
+        return (f"not cross-checked after the event: the closed form's {format_exact(min(fast), 's')}"
+                f" mode is faster than the numerical engine resolves here (its narrow pulse "
+                f"and fit window reach {format_exact(limit, 's')}: a large capacitor across a "
+                f"source, or the event time's own resolution, keeps the pulse wide); the "
+                f"closed form's after-value, τ, order, peak, crossing and dominant τ stand "
+                f"alone: a limit of the numerical engine")
+
+    @property
+    def unjudged(self) -> bool:
+        """Whether the interval's dynamics (crossing, peak, dominant τ, ring, order, waveform)
+        get no engine verdict: below the noise floor, or unresolved by the numerical engine."""
+        return self.quiet or bool(self.unresolved)
+
+    @cached_property
+    def quiet(self) -> bool:
+        """Whether the probe stays below its noise floor in interval k: its values at the
+        event and its closed-form peak (nothing there for the engines to time or fit)."""
+        fe = self.exact.features(self.probe, self.k)
+        values = [abs(v) for v in (fe.before, fe.after, fe.final) if v is not None]
+        if max(values, default=0.0) >= self.noise:
+            return False
+        if self.exact.withheld(self.k):
+            return True
+        try:
+            magnitude = self.exact.peak(self.probe, self.k).magnitude
+        except (ValueError, ArithmeticError, np.linalg.LinAlgError):
+            return True
+        return magnitude is None or not magnitude >= self.noise
+
+
+def source_magnitudes(circuit: Circuit) -> tuple[float, float]:
+    """(largest independent voltage source value in V, largest current source value in A)."""
+    volts, amps = [0.0], [0.0]
+    for p in circuit.parts:
+        if p.kind in (VOLTAGE_SOURCE, CURRENT_SOURCE):
+            mags = [abs(p.value or 0.0)] + [abs(v) for _, v in p.steps]
+            (volts if p.kind == VOLTAGE_SOURCE else amps).extend(mags)
+    return max(volts), max(amps)
+
+
+def current_scale(circuit: Circuit, r_min: float) -> float:
+    """V_s / r_min + I_s in A: the largest current the circuit's sources (largest source
+    voltage V_s, largest source current I_s) drive through a resistance ``r_min``."""
+    v_s, i_s = source_magnitudes(circuit)
+    return v_s / r_min + i_s
+
+
+def circuit_scale(circuit: Circuit, probe: Probe) -> float:
+    """The circuit's own scale in the probe's unit: the largest source voltage (or source
+    current times the largest resistance) for a voltage, V_s / R_min + I_s for a current."""
+    res = [abs(p.value) for p in circuit.parts if p.kind == RESISTOR and p.value]
+    if probe.kind == THROUGH:
+        return current_scale(circuit, min(res, default=1.0))
+    v_s, i_s = source_magnitudes(circuit)
+    return max(v_s, i_s * max(res, default=1.0))

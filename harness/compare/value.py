@@ -1,0 +1,66 @@
+"""The comparison of a field whose engine values are ``results.Features`` attributes: before,
+after, final and τ (``fieldspec.FEATURES``).
+
+One rule (``tolerances.agree``): hand vs closed form with the expectation's tolerance, closed
+form vs numeric with the field's declared engine tolerance and floor.  When the engines
+disagree the field is ``engines-disagree`` and the hand value is not blamed; otherwise a hand
+value outside tolerance is a ``mismatch`` whose message comes from ``diagnose``.
+"""
+
+from __future__ import annotations
+
+from .. import tolerances as tol
+from ..fieldspec import DYNAMICS, PROBE_SCALE, RESOLVED, FieldSpec, field_spec
+from ..model import Expectation
+from ..outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
+from ..results import Features
+from .context import CheckContext, below_noise, hand_relative, snap_zero
+from .diagnose import explain
+from .message import engine_message
+
+
+def _engine_ok(spec: FieldSpec, closed: float | None, numeric: float | None,
+               floor: float) -> bool:
+    if spec.judged == DYNAMICS and closed is None:
+        return True  # e.g. numeric τ is only compared where the closed form says first order
+    return tol.agree(closed, numeric, spec.engine_relative, floor)
+
+
+def _judged(spec: FieldSpec, ctx: CheckContext) -> bool:
+    """Whether the engines' values of the field are judged against each other here
+    (``FieldSpec.judged``)."""
+    if spec.judged == DYNAMICS:
+        return not (ctx.quiet or ctx.unresolved)
+    return not (spec.judged == RESOLVED and ctx.unresolved)
+
+
+def compare_field(name: str, exp: Expectation, fe: Features, fn: Features | None,
+                  ctx: CheckContext) -> FieldResult:
+    """Verdict and message for one field of one expectation, by its declaration: values below
+    the probe's noise floor compare as zero where it says so (``FieldSpec.noise``); the engines
+    are judged where ``FieldSpec.judged`` allows (τ not in a quiet interval)."""
+    spec = field_spec(name)
+    hand = exp.hand.get(name)
+    closed = getattr(fe, name)
+    if spec.noise:
+        closed = below_noise(snap_zero(closed, ctx.scale), ctx.noise)
+    numeric = getattr(fn, name) if fn is not None else None
+    if spec.noise:
+        numeric = below_noise(numeric, ctx.noise)
+    if not _judged(spec, ctx):
+        fn = None
+    unit = spec.unit_for(exp.probe.dimension)
+    relative = hand_relative(exp, ctx)
+    floor = ctx.scale if spec.floor == PROBE_SCALE else 0.0
+    verdict, message = PASS, ""
+    if fn is not None and not _engine_ok(spec, closed, numeric, tol.ENGINE_FLOOR * floor):
+        verdict = ENGINES_DISAGREE
+        message = engine_message(closed, numeric, unit)
+    elif hand is not None and not (closed is not None and
+                                   tol.agree(hand, closed, relative, tol.HAND_FLOOR * floor)):
+        verdict = MISMATCH
+        message = explain(name, hand, exp, fe, ctx)
+    return FieldResult(name=name, hand=hand, closed_form=closed, numeric=numeric,
+                       verdict=verdict, unit=unit, message=message,
+                       formula=exp.formulas.get(name, ""), tolerance=relative,
+                       floor=tol.ENGINE_FLOOR * floor)
