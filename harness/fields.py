@@ -22,7 +22,7 @@ from .variation.declare import read_spread
 #: tests/benchmarks/RESULTS.md "Reliability": a 200-part RC ladder checked with both engines
 #: and the reports in ~3 s (2026-12-02; 25 s per probe before the speed work); 2500 steps ~1 s
 #: (closed form)
-MAX_PARTS = 200
+MAX_PARTS = 5000
 MAX_STEPS = 2500
 
 _COMMON = ("kind", "nodes")

@@ -200,16 +200,10 @@ def _node_voltages(circuit, exact) -> list[float]:
     Catches what source values alone miss: an inductor's flyback, a controlled source's gain.
     Skipped past ``CAUTION_BUDGET`` evaluations.
     """
-    from .model import NODE, Probe
     nodes = [n for n in circuit.nodes if n != circuit.ground]
     if len(nodes) * len(circuit.events) > CAUTION_BUDGET:
         return []
-    values = []
-    for node in nodes:
-        for k in range(len(circuit.events)):
-            f = exact.features(Probe(NODE, (node,)), k)
-            values += [v for v in (f.before, f.after, f.final) if v is not None]
-    return values
+    return exact.node_voltages()
 
 
 def run(paths: Iterable[str], options: RunOptions = RunOptions()) -> RunResult:

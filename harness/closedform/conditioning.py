@@ -33,6 +33,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from .. import tolerances as tol
+from ..model import NODE, Probe
 from ..results import Features
 from ..units import format_si
 from .linalg import equilibrate
@@ -126,6 +127,17 @@ class Guarded:
                            tau=None, order=None, modes=(), oscillation=(),
                            notes=f.notes + (note,))
         return replace(f, before=None, notes=f.notes + (note,))
+
+    def node_voltages(self) -> list[float]:
+        """``ClosedFormSolution.node_voltages`` with this guard's values withheld."""
+        if all(c.trusted for c in self.conditioning):
+            return self._inner.node_voltages()
+        circuit, values = self._inner.circuit, []
+        for node in (n for n in circuit.nodes if n != circuit.ground):
+            for k in range(len(circuit.events)):
+                f = self.features(Probe(NODE, (node,)), k)
+                values += [v for v in (f.before, f.after, f.final) if v is not None]
+        return values
 
     def withheld(self, k: int) -> str | None:
         """The note saying why interval k's values are not reported, or None when they are
