@@ -790,3 +790,56 @@ def test_jump_sums_equal_the_per_part_textbook_values():
     for name in ("V1", "L1", "S1"):
         assert charges[name] == q[layout.branch(name)]
     assert charges["G1"] == pytest.approx(0.1 * volt(q, "in", "b"), rel=1e-14)
+
+
+# ------------------------------------------------------------------------ large circuits
+@pytest.fixture(scope="module")
+def large_solutions():
+    """A 600-section RC ladder and a 700-node random RC network (past the sparse thresholds)."""
+    from tests.benchmarks.circuits import random_rc, rc_ladder
+    return [closedform.solve(c) for c in (rc_ladder(600), random_rc(700, seed=1))]
+
+
+def test_sparse_condition_number_equals_the_dense_svd(large_solutions):
+    """Lanczos on the sparse LU gives numpy's SVD condition number of the same equilibrated
+    pencil (numpy.linalg.cond as the reference) to well within the one digit reported."""
+    from harness.closedform import conditioning
+    for sol in large_solutions:
+        resp = sol.intervals[0]
+        p = resp.g + resp.dec.s0 * resp.c
+        dr, dc = linalg.equilibrate(np.abs(resp.g) + abs(resp.dec.s0) * np.abs(resp.c))
+        ref = np.linalg.cond(dr[:, None] * p * dc[None, :])
+        got = conditioning.pencil_condition(resp.g, resp.c, resp.dec.s0)
+        assert got == pytest.approx(ref, rel=1e-9)
+
+
+def test_sparse_reach_solve_equals_the_dense_solve(large_solutions):
+    """The reach test's sparse transposed solve gives scipy's dense solve's z (reference)."""
+    from scipy.linalg import solve
+    from harness.closedform import reach
+    for sol in large_solutions:
+        resp, n = sol.intervals[0], sol.layout.size
+        p = resp.g[:n, :n] + reach.POINTS[0] * resp.c[:n, :n]
+        rhs = np.random.default_rng(n).standard_normal(n) + 0j
+        ref = solve(p.T, rhs)
+        np.testing.assert_allclose(reach._transposed_solve(p, rhs), ref, rtol=1e-9,
+                                   atol=1e-12 * np.abs(ref).max())
+
+
+def test_vectorised_exponential_sums_and_outputs_equal_the_term_loops(large_solutions,
+                                                                      monkeypatch):
+    """Many-term exponential sums (value, slope) and a probe's waveform projected onto the
+    modes equal the term-by-term sums and the full state product to rounding."""
+    from harness.closedform import response, signoff
+    for sol in large_solutions:
+        probe = sol.circuit.expectations[0].probe
+        ex = sol.exponential_sum(probe, 0)
+        end, _ = sol._held(0)
+        u = np.linspace(0.0, end, 700)
+        fast = (ex.value(u), ex.slope(u), sol.waveform(probe, 0, u))
+        monkeypatch.setattr(signoff, "VECTOR_TERMS", 10 ** 9)
+        monkeypatch.setattr(response, "PROJECT_ORDER", 10 ** 9)
+        slow = (ex.value(u), ex.slope(u), sol.waveform(probe, 0, u))
+        monkeypatch.undo()
+        for a, b in zip(fast, slow):
+            np.testing.assert_allclose(a, b, rtol=1e-9, atol=1e-12 * np.abs(b).max())

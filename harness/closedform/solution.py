@@ -114,8 +114,7 @@ class ClosedFormSolution:
         resp = self.intervals[k]
         c, d, const = self._terms(functional(self.circuit, self.layout, probe), resp)
         tau = (np.asarray(times, dtype=float).ravel() - resp.start) / self.scale.t
-        x, dx = resp.states(tau)
-        return x @ c + dx @ d + const
+        return resp.output(tau, c, d) + const
 
     # ----------------------------------------------------------------- extras
     def thevenin(self, k: int) -> dict[str, float]:
