@@ -22,7 +22,7 @@ from pathlib import Path
 
 from harness.pool import free_cores
 
-from .timing import load_average, write_section
+from .timing import load_average, publish
 
 RESULTS = Path(__file__).with_name("RESULTS.md")
 HEADING = "## Parallel runs"
@@ -64,10 +64,7 @@ def main(argv: list[str] | None = None) -> int:
             f"shared machine.  --jobs 2 starts as many workers as `pool.free_cores()` finds "
             f"(cores in the affinity mask less the other runnable threads).\n\n"
             + "\n".join(rows) + f"\n\nMedian --jobs 1 / --jobs 2: **{med[1] / med[2]:.2f}x**.")
-    print(text)
-    if not args.print_only:
-        write_section(RESULTS, HEADING, text)
-    return 0
+    return publish(RESULTS, HEADING, text, args.print_only)
 
 
 if __name__ == "__main__":

@@ -22,7 +22,7 @@ import tempfile
 import time
 from pathlib import Path
 
-from .timing import cpu_model, load_average, versions, write_section
+from .timing import cpu_model, load_average, publish, versions
 
 RESULTS = Path(__file__).with_name("RESULTS.md")
 HEADING = "## Large circuits"
@@ -113,10 +113,7 @@ def main(argv: list[str] | None = None) -> int:
     load0 = load_average()
     rows = measure(args.sizes)
     text = compose(rows, (load0, load_average()))
-    print(text)
-    if not args.print_only:
-        write_section(RESULTS, HEADING, text)
-    return 0
+    return publish(RESULTS, HEADING, text, args.print_only)
 
 
 if __name__ == "__main__":

@@ -95,3 +95,12 @@ def write_section(results, heading: str, text: str) -> None:
     tmp = results.with_suffix(".md.tmp")
     tmp.write_text(new, encoding="utf-8")
     os.replace(tmp, results)
+
+
+def publish(results, heading: str, text: str, print_only: bool) -> int:
+    """Print ``text`` and, unless ``print_only``, make it the ``heading`` section of
+    ``results`` (``write_section``); 0, the benchmark's exit status."""
+    print(text)
+    if not print_only:
+        write_section(results, heading, text)
+    return 0
