@@ -74,19 +74,19 @@ def pencil_condition(g: np.ndarray, c: np.ndarray, s0: float) -> float:
     if p.shape[0] >= SPARSE_CONDITION_MIN:
         pattern = _pattern(p)
         if pattern is not None:
-            return _sparse_condition(p, pattern)
+            return sparse_condition(p, pattern)
     return float(np.linalg.cond(p))
 
 
 #: from this many unknowns a sparse pencil's condition number is found by Lanczos iterations
-#: on its sparse LU (``_sparse_condition``) instead of a dense SVD (O(n^3): 30 s at 2,500)
+#: on its sparse LU (``sparse_condition``) instead of a dense SVD (O(n^3): 30 s at 2,500)
 SPARSE_CONDITION_MIN = 500
 #: relative tolerance of those Lanczos iterations (the number is reported to one digit and
 #: compared with limits decades apart)
 LANCZOS_TOL = 1e-8
 
 
-def _sparse_condition(p: np.ndarray, pattern) -> float:
+def sparse_condition(p: np.ndarray, pattern) -> float:
     """sigma_max / sigma_min of a large sparse square p (non-zeros in ``linalg._pattern``):
     the largest eigenvalues of p^T p and of (p^T p)^-1 = p^-1 p^-T by implicitly restarted
     Lanczos (ARPACK, scipy.sparse.linalg.eigsh; Lehoucq, Sorensen & Yang, *ARPACK Users'

@@ -30,7 +30,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..model import CAPACITOR, INDUCTOR, Circuit
-from .linalg import REGULAR_MIN_SIZE, LeastSquares, equilibrate, regular_factor
+from .conditioning import SPARSE_CONDITION_MIN, sparse_condition
+from .linalg import REGULAR_MIN_SIZE, LeastSquares, _pattern, equilibrate, regular_factor
 from .mna import Layout, Scale, voltage_row
 
 #: G~ with an estimated reciprocal condition number (1-norm) above this takes the batched route.
@@ -137,10 +138,17 @@ def _solver_and_null(g: np.ndarray) -> tuple[LeastSquares, np.ndarray]:
 
 
 def _provably_regular(solver: LeastSquares, n: int) -> bool:
-    """Whether the LU condition estimate of the equilibrated g (the solver's own factor, the
-    same Ruiz scaling ``_null_space`` uses) rules out a singular value below ``NULL_REL`` of the
-    largest, with ``NULL_ESTIMATE_MARGIN``."""
-    return solver.regular(NULL_ESTIMATE_MARGIN * max(n, 1) * NULL_REL, REGULAR_MIN_SIZE) is True
+    """Whether the equilibrated g (the solver's own, the same Ruiz scaling ``_null_space``
+    uses) has no singular value below ``NULL_REL`` of the largest: shown by its LU condition
+    estimate with ``NULL_ESTIMATE_MARGIN``, or for a large sparse g by its 2-norm condition
+    number (Lanczos, ``conditioning.sparse_condition``) below 1 / (10 NULL_REL)."""
+    if solver.regular(NULL_ESTIMATE_MARGIN * max(n, 1) * NULL_REL, REGULAR_MIN_SIZE) is True:
+        return True
+    if n < SPARSE_CONDITION_MIN or solver.factor is None:
+        return False
+    _, _, scaled = solver.scaled()
+    pattern = _pattern(scaled)
+    return pattern is not None and sparse_condition(scaled, pattern) < 0.1 / NULL_REL
 
 
 def _null_space(g: np.ndarray) -> np.ndarray:
