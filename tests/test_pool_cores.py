@@ -36,17 +36,28 @@ def test_free_cores_without_load_figures_uses_every_allowed_core(tmp_path, monke
     assert pool.free_cores() == 3
 
 
-def test_a_busy_machine_runs_the_tasks_in_one_worker(tmp_path, monkeypatch):
-    """With no free core beside the parent, jobs=2 runs every task in one worker process."""
-    fake = tmp_path / "loadavg"
-    fake.write_text("5.0 5.0 5.0 6/300 4242\n")
-    monkeypatch.setattr(pool, "_LOADAVG", str(fake))
-    monkeypatch.setattr(pool, "_LOAD_PAUSE", 0.0)
-    monkeypatch.setattr(os, "sched_getaffinity", lambda _pid: {0, 1}, raising=False)
-    done = pool.run_tasks([(i,) for i in range(4)], _pid_of_worker, jobs=2, timeout=None,
-                          on_timeout=lambda i: None, on_death=lambda i, how: None)
-    assert len(set(done.values())) == 1 and os.getpid() not in done.values()
+def test_a_busy_machine_runs_the_files_in_this_process(tmp_path, monkeypatch):
+    """With one free core, jobs=2 runs the files here as jobs=1 does (no worker pool: one
+    worker beside an idle parent only adds the transport) and gives the same results."""
+    from harness import runner
+    from harness.runner import RunOptions, run
+    from tests.test_reliability_faults import rc_files
+    files = rc_files(tmp_path, ["a", "b", "c"])
+    alone = run(files, RunOptions(numeric=False, jobs=1))
+    monkeypatch.setattr(pool, "free_cores", lambda: 1)
+    monkeypatch.setattr(runner, "run_tasks", _no_pool)
+    busy = run(files, RunOptions(numeric=False, jobs=2))
+    assert _verdicts(busy) == _verdicts(alone)
 
 
-def _pid_of_worker(_index: int) -> int:
-    return os.getpid()
+def _verdicts(result) -> list:
+    return [(f.file, f.verdict, [c.verdict for c in f.checks]) for f in result.files]
+
+
+def test_usable_jobs_caps_the_request_by_the_free_cores(monkeypatch):
+    monkeypatch.setattr(pool, "free_cores", lambda: 3)
+    assert [pool.usable_jobs(j) for j in (1, 2, 3, 8)] == [1, 2, 3, 3]
+
+
+def _no_pool(*_args, **_kwargs):
+    raise AssertionError("the worker pool was started on a machine with one free core")
