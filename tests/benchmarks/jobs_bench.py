@@ -62,7 +62,8 @@ def main(argv: list[str] | None = None) -> int:
     text = (f"`python -m tests.benchmarks.jobs_bench{' --reports' if args.reports else ''}`: "
             f"`check circuits/library` {what}, --jobs 1 and 2 alternately on this 2-core "
             f"shared machine.  --jobs 2 starts as many workers as `pool.free_cores()` finds "
-            f"(cores in the affinity mask less the other runnable threads).\n\n"
+            f"(cores in the affinity mask less the other runnable threads); with one free "
+            f"core it runs the files in its own process, as --jobs 1 does.\n\n"
             + "\n".join(rows) + f"\n\nMedian --jobs 1 / --jobs 2: **{med[1] / med[2]:.2f}x**.")
     return publish(RESULTS, HEADING, text, args.print_only)
 
