@@ -843,3 +843,16 @@ def test_vectorised_exponential_sums_and_outputs_equal_the_term_loops(large_solu
         monkeypatch.undo()
         for a, b in zip(fast, slow):
             np.testing.assert_allclose(a, b, rtol=1e-9, atol=1e-12 * np.abs(b).max())
+
+
+def test_guarded_node_voltages_withhold_what_the_guarded_features_withhold():
+    """Equations 1e-13 from singular (a vcvs at a gain of 1 + 1e-13): the guard's node voltages
+    are the per-node guarded features' values (after and final withheld), not the raw ones."""
+    from harness.circuitfile import parse_circuit
+    from harness.closedform.conditioning import Guarded, assess, guard
+    from tests.test_reliability_illposed import NEAR_SINGULAR
+    sol = closedform.solve(parse_circuit(NEAR_SINGULAR))
+    guarded = guard(sol, assess(sol))
+    assert isinstance(guarded, Guarded)
+    assert sorted(guarded.node_voltages()) == _node_voltages_one_by_one(guarded)
+    assert max(map(abs, guarded.node_voltages())) < max(map(abs, sol.node_voltages()))
