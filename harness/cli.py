@@ -52,7 +52,8 @@ def _parser(json_errors: bool = False) -> argparse.ArgumentParser:
         description="Check hand-calculated RC/RL step responses against an exact and a "
                     "numerical engine. Settings come from [tool.tauproof] in the nearest "
                     "pyproject.toml (`tauproof help config`); options here override them.")
-    parser.add_argument("--version", action="version", version=f"tauproof {_version()}")
+    parser.add_argument("--version", action=_VersionAction, nargs=0,
+                        help="show the version and exit")
     sub = parser.add_subparsers(dest="command", required=True)
     check = sub.add_parser("check", help="compare hand values with both engines and write reports",
                            json_errors=json_errors)
@@ -107,6 +108,15 @@ def common_printable(text: str) -> str:
 def _version() -> str:
     from . import __version__
     return __version__
+
+
+class _VersionAction(argparse.Action):
+    """``--version``: the version is read from the package metadata only when asked for
+    (``importlib.metadata`` is a noticeable share of a small run's start-up)."""
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        print(f"tauproof {_version()}")
+        parser.exit()
 
 
 def _seconds(text: str) -> float:

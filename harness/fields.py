@@ -19,10 +19,10 @@ from .plausible import implausible
 from .variation.declare import read_spread, read_tempco
 
 #: upper limits a user can rely on (past them: an input error, not a hang); measured in
-#: tests/benchmarks/RESULTS.md "Reliability": a 200-part RC ladder checked with both engines
-#: and the reports in ~3 s (2026-12-02; 25 s per probe before the speed work); 2500 steps ~1 s
-#: (closed form)
-MAX_PARTS = 200
+#: tests/benchmarks/RESULTS.md "Large circuits": a 2,001-part RC ladder checked with both
+#: engines, crossings, peaks and the reports in ~3 s of CPU, 4,999 parts in ~15-18 s and
+#: ~1.2 GB; "Reliability": 2500 steps ~1 s (closed form)
+MAX_PARTS = 5000
 MAX_STEPS = 2500
 
 _COMMON = ("kind", "nodes")

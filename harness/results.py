@@ -383,11 +383,15 @@ class Solution(Protocol):
         """Optional: why interval k's values are not reported, or None when they are (answered
         by the trust guard around an engine, ``harness.compare.trust``)."""
 
+    def node_voltages(self) -> list[float] | None:
+        """Optional: every node's voltage in V before, just after and at the end of each
+        interval (for the safety cautions), or None."""
+
 
 class NotComputed:
     """The optional answers of ``Solution``, each "not computed".  Both engines inherit this and
-    override the answers they give: the closed form ``hazards``, ``thevenin`` and
-    ``conditioning``; the numerical engine ``resolution``."""
+    override the answers they give: the closed form ``hazards``, ``thevenin``,
+    ``conditioning`` and ``node_voltages``; the numerical engine ``resolution``."""
 
     hazards: tuple[Hazard, ...] = ()
 
@@ -401,4 +405,9 @@ class NotComputed:
         return None
 
     def withheld(self, k: int) -> str | None:
+        return None
+
+    def node_voltages(self) -> list[float] | None:
+        """Every node's voltage in V before, just after and at the end of each interval (the
+        values ``features`` gives, in no particular order), or None when not computed."""
         return None

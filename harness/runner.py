@@ -21,7 +21,7 @@ from typing import Iterable
 from .closedform.interval import SingularPencil
 from .errors import InputError, location
 from .outcome import ERROR, FileResult, RunResult, worst
-from .pool import Interrupted, run_tasks
+from .pool import Interrupted, run_tasks, usable_jobs
 from .pool import RunInterrupted as PoolInterrupted
 from .progress import Progress
 
@@ -205,30 +205,26 @@ def _node_voltages(circuit, exact) -> list[float]:
     Catches what source values alone miss: an inductor's flyback, a controlled source's gain.
     Skipped past ``CAUTION_BUDGET`` evaluations.
     """
-    from .model import NODE, Probe
     nodes = [n for n in circuit.nodes if n != circuit.ground]
     if len(nodes) * len(circuit.events) > CAUTION_BUDGET:
         return []
-    values = []
-    for node in nodes:
-        for k in range(len(circuit.events)):
-            f = exact.features(Probe(NODE, (node,)), k)
-            values += [v for v in (f.before, f.after, f.final) if v is not None]
-    return values
+    return exact.node_voltages() or []
 
 
 def run(paths: Iterable[str], options: RunOptions = RunOptions()) -> RunResult:
     """Check every file under ``paths``; results in the order the files were collected.
 
-    Files run in this process when ``jobs`` is 1 and no ``timeout`` is set, otherwise in worker
-    processes (``harness.pool``): a file over the time limit or whose worker dies becomes an
-    ``error`` result and the others go on.
+    Files run in this process when ``jobs`` is 1 (or only one core is free: ``pool.usable_jobs``)
+    and no ``timeout`` is set, otherwise in worker processes (``harness.pool``): a file over the
+    time limit or whose worker dies becomes an ``error`` result and the others go on.
 
     Raises:
         RunInterrupted: SIGINT or SIGTERM stopped the run; ``partial`` holds the results of the
             files that had finished (in collection order), ``signum`` the signal.
     """
     files, missing = collect(paths)
+    if options.jobs > 1 and len(files) > 1:
+        options = replace(options, jobs=usable_jobs(options.jobs))
     if options.jobs <= 1 and options.timeout is None:
         results = _run_here(files, options, missing)
     else:

@@ -17,7 +17,7 @@ import pytest
 from harness import closedform
 from harness.closedform import initial, linalg, thevenin
 from harness.errors import InitialStateError
-from tests.closedform_circuits import C, E, L, R, V, circuit
+from tests.closedform_circuits import C, E, I, L, R, S, V, circuit
 
 
 # ------------------------------------------------------------------------ uniqueness gate
@@ -210,6 +210,106 @@ def test_inductor_whose_opening_isolates_a_node_reads_infinite():
     rth = closedform.solve(circ).thevenin(0)
     assert rth["L1"] == float("inf")
     assert rth["C2"] == pytest.approx(100 * 300 / 400, rel=1e-12)
+
+
+
+def _fresh_per_part(layout, g, parts, vrows, rhs) -> dict[str, float]:
+    """The per-part route as it was before it shared one solver: a fresh least-squares solve
+    (its own equilibration, pattern and factors) and an SVD null-space test for every part."""
+    out = {}
+    for k, part in enumerate(parts):
+        gk = g
+        if part.kind == "inductor":
+            gk = g.copy()
+            j = layout.branch(part.name)
+            gk[j, :] = 0.0
+            gk[j, j] = 1.0
+        null = thevenin._null_space(gk)
+        x, _, consistent = linalg.least_squares(gk, rhs[:, k])
+        if not consistent or (null.shape[0] and np.max(np.abs(null @ vrows[:, k]))
+                              > thevenin.NULL_COUPLING):
+            out[part.name] = float("inf")
+        else:
+            out[part.name] = float(vrows[:, k] @ x)
+    return out
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_per_part_thevenin_sharing_one_solver_equals_fresh_solves(seed):
+    """The per-part route shares one least-squares solver (and one null-space test) among the
+    capacitors and skips the SVD where the solver's LU condition estimate rules out a null
+    space: the same R_th, bit for bit, as a fresh solve and SVD per part, inf included."""
+    circ = _random_rlc(np.random.default_rng(300 + seed), 20 + 7 * seed, seed % 2 == 1)
+    sol = closedform.solve(circ)
+    args = (sol.layout, sol.intervals[0].g, thevenin._storage(circ))
+    args += thevenin._injections(sol.layout, sol.scale, args[2])
+    assert thevenin._per_part(*args) == _fresh_per_part(*args)
+
+
+def test_per_part_thevenin_of_a_ladder_is_the_series_resistance():
+    """On an RC ladder driven by a source, capacitor k sees the k series resistors back to the
+    source (textbook: the other capacitors open, resistors in series add); 60 sections put
+    G~ past the size at which the shared solver's LU gate decides the null-space test."""
+    sections = 60
+    circ = circuit(V("V1", "in", "gnd", 0.0, ((0.0, 1.0),)), *_ladder(sections))
+    sol = closedform.solve(circ)
+    parts = thevenin._storage(circ)
+    vrows, rhs = thevenin._injections(sol.layout, sol.scale, parts)
+    rth = thevenin._per_part(sol.layout, sol.intervals[0].g, parts, vrows, rhs)
+    for k in range(sections):
+        assert rth[f"Cl{k}"] == pytest.approx(1e3 * (k + 1), rel=1e-10)
+
+
+def test_provably_regular_gate_refuses_a_singular_matrix():
+    """An inductor that is a node's only resistive link, opened (its row i = 0), leaves that
+    node free: the gate must not skip the null-space test, and R_th reads inf (definition)."""
+    circ = circuit(V("V1", "in", "gnd", 0.0, ((0.0, 1.0),)), R("R1", "in", "a", 100.0),
+                   L("L1", "a", "b", 1e-3), C("C2", "b", "gnd", 1e-9), *_ladder(40))
+    sol = closedform.solve(circ)
+    parts = [circ.part("L1")]
+    vrows, rhs = thevenin._injections(sol.layout, sol.scale, parts)
+    g = sol.intervals[0].g.copy()
+    j = sol.layout.branch("L1")
+    g[j, :], g[j, j] = 0.0, 1.0
+    assert not thevenin._provably_regular(linalg.LeastSquares(g), g.shape[0])
+    assert thevenin._per_part(sol.layout, sol.intervals[0].g, parts, vrows, rhs) == \
+        {"L1": float("inf")}
+
+
+# ------------------------------------------------------------------------ node voltages
+def _node_voltages_one_by_one(sol) -> list[float]:
+    """Every node's before, after and final at every event from ``features`` of its probe,
+    one node at a time (the route ``node_voltages`` shortcuts)."""
+    from harness.model import NODE, Probe
+    circ, out = sol.circuit, []
+    for node in (n for n in circ.nodes if n != circ.ground):
+        for k in range(len(circ.events)):
+            f = sol.features(Probe(NODE, (node,)), k)
+            out += [v for v in (f.before, f.after, f.final) if v is not None]
+    return sorted(out)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_all_node_voltages_at_once_equal_the_per_node_features(seed):
+    """``node_voltages`` (every node per interval at once) gives the same floats as the
+    features of each node's probe, on random RLC networks with switches between events."""
+    rng = np.random.default_rng(400 + seed)
+    circ = _random_rlc(rng, int(rng.integers(3, 30)), with_vcvs=seed % 2 == 1)
+    parts = circ.parts + (S("S1", "n0", "gnd", False, ((1e-3, 1.0), (2e-3, 0.0)), on=10.0),)
+    circ = circuit(*parts)
+    sol = closedform.solve(circ)
+    assert sorted(sol.node_voltages()) == _node_voltages_one_by_one(sol)
+
+
+def test_node_voltages_of_a_growing_response_fall_back_per_node():
+    """A current source charging a capacitor with no DC path grows without bound (its final
+    value is None, textbook: v = I t / C): the shortcut does not apply and the per-node
+    values stand, with no final for the growing nodes."""
+    circ = circuit(I("I1", "gnd", "a", 0.0, ((0.0, 1e-3),)), C("C1", "a", "gnd", 1e-6, initial=0.0),
+                   V("V1", "in", "gnd", 1.0), R("R1", "in", "b", 1e3), C("C2", "b", "gnd", 1e-6))
+    sol = closedform.solve(circ)
+    assert sol.intervals[0].augmented
+    assert sorted(sol.node_voltages()) == _node_voltages_one_by_one(sol)
 
 
 # ------------------------------------------------------------------------ vectorised helpers
@@ -690,3 +790,69 @@ def test_jump_sums_equal_the_per_part_textbook_values():
     for name in ("V1", "L1", "S1"):
         assert charges[name] == q[layout.branch(name)]
     assert charges["G1"] == pytest.approx(0.1 * volt(q, "in", "b"), rel=1e-14)
+
+
+# ------------------------------------------------------------------------ large circuits
+@pytest.fixture(scope="module")
+def large_solutions():
+    """A 600-section RC ladder and a 700-node random RC network (past the sparse thresholds)."""
+    from tests.benchmarks.circuits import random_rc, rc_ladder
+    return [closedform.solve(c) for c in (rc_ladder(600), random_rc(700, seed=1))]
+
+
+def test_sparse_condition_number_equals_the_dense_svd(large_solutions):
+    """Lanczos on the sparse LU gives numpy's SVD condition number of the same equilibrated
+    pencil (numpy.linalg.cond as the reference) to well within the one digit reported."""
+    from harness.closedform import conditioning
+    for sol in large_solutions:
+        resp = sol.intervals[0]
+        p = resp.g + resp.dec.s0 * resp.c
+        dr, dc = linalg.equilibrate(np.abs(resp.g) + abs(resp.dec.s0) * np.abs(resp.c))
+        ref = np.linalg.cond(dr[:, None] * p * dc[None, :])
+        got = conditioning.pencil_condition(resp.g, resp.c, resp.dec.s0)
+        assert got == pytest.approx(ref, rel=1e-9)
+
+
+def test_sparse_reach_solve_equals_the_dense_solve(large_solutions):
+    """The reach test's sparse transposed solve gives scipy's dense solve's z (reference)."""
+    from scipy.linalg import solve
+    from harness.closedform import reach
+    for sol in large_solutions:
+        resp, n = sol.intervals[0], sol.layout.size
+        p = resp.g[:n, :n] + reach.POINTS[0] * resp.c[:n, :n]
+        rhs = np.random.default_rng(n).standard_normal(n) + 0j
+        ref = solve(p.T, rhs)
+        np.testing.assert_allclose(reach._transposed_solve(p, rhs), ref, rtol=1e-9,
+                                   atol=1e-12 * np.abs(ref).max())
+
+
+def test_vectorised_exponential_sums_and_outputs_equal_the_term_loops(large_solutions,
+                                                                      monkeypatch):
+    """Many-term exponential sums (value, slope) and a probe's waveform projected onto the
+    modes equal the term-by-term sums and the full state product to rounding."""
+    from harness.closedform import response, signoff
+    for sol in large_solutions:
+        probe = sol.circuit.expectations[0].probe
+        ex = sol.exponential_sum(probe, 0)
+        end, _ = sol._held(0)
+        u = np.linspace(0.0, end, 700)
+        fast = (ex.value(u), ex.slope(u), sol.waveform(probe, 0, u))
+        monkeypatch.setattr(signoff, "VECTOR_TERMS", 10 ** 9)
+        monkeypatch.setattr(response, "PROJECT_ORDER", 10 ** 9)
+        slow = (ex.value(u), ex.slope(u), sol.waveform(probe, 0, u))
+        monkeypatch.undo()
+        for a, b in zip(fast, slow):
+            np.testing.assert_allclose(a, b, rtol=1e-9, atol=1e-12 * np.abs(b).max())
+
+
+def test_guarded_node_voltages_withhold_what_the_guarded_features_withhold():
+    """Equations 1e-13 from singular (a vcvs at a gain of 1 + 1e-13): the guard's node voltages
+    are the per-node guarded features' values (after and final withheld), not the raw ones."""
+    from harness.circuitfile import parse_circuit
+    from harness.closedform.conditioning import Guarded, assess, guard
+    from tests.test_reliability_illposed import NEAR_SINGULAR
+    sol = closedform.solve(parse_circuit(NEAR_SINGULAR))
+    guarded = guard(sol, assess(sol))
+    assert isinstance(guarded, Guarded)
+    assert sorted(guarded.node_voltages()) == _node_voltages_one_by_one(guarded)
+    assert max(map(abs, guarded.node_voltages())) < max(map(abs, sol.node_voltages()))

@@ -53,10 +53,7 @@ RULES = {
 MODULE_LINES = 600
 FUNCTION_LINES = 60
 #: "module:function" -> why it may be longer
-LONG_FUNCTIONS = {
-    "harness.simulate.integrate:integrate_interval": "the integrator's stepping loop, kept in "
-    "one piece while its speed work is under way (68 lines)",
-}
+LONG_FUNCTIONS: dict[str, str] = {}
 
 
 def _module_name(path: Path) -> str:

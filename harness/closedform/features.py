@@ -164,3 +164,38 @@ def classify(ev: RawEvent, scale: float, t_ref: float) -> Features:
     return Features(before=ev.before, after=ev.after, final=final, tau=tau, order=order,
                     modes=modes, oscillation=tuple(sorted(set(freqs))), notes=tuple(notes),
                     rings=tuple((f, z) for _, f, z in sorted(rings, reverse=True)))
+
+
+def node_values(resp: IntervalResponse, x_m: np.ndarray, dx_m: np.ndarray,
+                nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+    """(before, after, final) in V of the voltage of every node in ``nodes`` (indices into x~,
+    shape (m,)) at the start of ``resp``, each shape (m,): what ``classify(raw_event(...))`` of
+    each node's probe gives, O(n) per cluster for all nodes at once instead of per node.
+
+    A node row is a unit row, so each value is one entry of x~ (exact); the final value adds the
+    zero cluster's coefficient.  None where that shortcut does not hold exactly (a value or a
+    cluster row that is not finite, a mode that is not decaying, a cluster of several modes,
+    polynomial growth): the caller classifies node by node then.
+    """
+    vectors = (x_m, dx_m, resp.x_plus, resp.dx_plus, resp.xp)
+    if resp.augmented or not all(np.isfinite(v).all() for v in vectors):
+        return None
+    zero = None
+    with np.errstate(over="ignore", invalid="ignore"):
+        for data in resp.clusters:
+            lam = complex(data.cluster.rate)
+            if data.cluster.size != 1 or not (np.isfinite(data.qv).all()
+                                              and np.isfinite(data.qvt).all()
+                                              and np.isfinite(data.g).all()):
+                return None
+            if data.cluster.zero:
+                zero = data
+            elif not (lam.real < 0 and abs(lam.real) > UNDAMPED * abs(lam)) \
+                    or not np.isfinite(data.qv[nodes, 0] * data.g[0]).all():
+                return None
+    final = resp.xp[nodes].astype(complex)
+    if zero is not None:       # the same dot product per node as ``raw_event``'s h @ g
+        final += np.array([complex(zero.qv[i] @ zero.g) for i in nodes])
+    if not np.isfinite(final).all():
+        return None
+    return x_m[nodes] + 0.0, resp.x_plus[nodes] + 0.0, final.real

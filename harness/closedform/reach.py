@@ -31,6 +31,7 @@ import numpy as np
 import scipy.linalg as la
 
 from ..model import ACROSS, CAPACITOR, INDUCTOR, STORAGE, THROUGH, Circuit, Probe
+from .linalg import SPARSE_LU_MIN, _pattern
 from .mna import Layout
 
 #: generic points in scaled time at which the transfer functions are tested
@@ -77,8 +78,8 @@ def reaching_storage(circuit: Circuit, layout: Layout, g: np.ndarray, c: np.ndar
     solved = False
     for s0 in POINTS:
         try:
-            z = la.solve((g + s0 * c).T, row + s0 * drow, check_finite=True)
-        except (la.LinAlgError, ValueError):
+            z = _transposed_solve(g + s0 * c, row + s0 * drow)
+        except (la.LinAlgError, ValueError, RuntimeError):
             continue
         solved = True
         top = float(np.max(np.abs(z), initial=0.0))
@@ -86,3 +87,22 @@ def reaching_storage(circuit: Circuit, layout: Layout, g: np.ndarray, c: np.ndar
     if not solved:
         return None
     return {p.name for p, hit in zip(storage, reached) if hit}
+
+
+def _transposed_solve(p: np.ndarray, rhs: np.ndarray) -> np.ndarray:
+    """z with p^T z = rhs (complex): LAPACK's dense solve, or from ``SPARSE_LU_MIN`` unknowns
+    on for a sparse-enough p a sparse LU (SuperLU, partial pivoting), O(nnz) fill on MNA
+    matrices instead of O(n^3).  Raises ``RuntimeError`` when p is exactly singular."""
+    pattern = _pattern(p) if p.shape[0] >= SPARSE_LU_MIN else None
+    if pattern is None:
+        return la.solve(p.T, rhs, check_finite=True)
+    if not (np.isfinite(p).all() and np.isfinite(rhs).all()):
+        raise ValueError("non-finite pencil")
+    from scipy.sparse import csc_matrix
+    from scipy.sparse.linalg import splu
+    rows, cols = pattern[0], pattern[1]
+    lu = splu(csc_matrix((p[rows, cols], (rows, cols)), shape=p.shape), diag_pivot_thresh=1.0)
+    z = lu.solve(np.asarray(rhs, dtype=complex), trans="T")
+    if not np.isfinite(z).all():
+        raise la.LinAlgError("singular pencil")
+    return z

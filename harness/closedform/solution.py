@@ -7,13 +7,13 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ..errors import TopologyError
-from ..model import (ACROSS, CAPACITOR, CONTROLLED, CURRENT_BRANCHES, CURRENT_SOURCE, SOURCES,
-                     SWITCH, THROUGH, VOLTAGE_CONTROLLED, Circuit, Probe)
+from ..model import (ACROSS, CAPACITOR, CONTROLLED, CURRENT_BRANCHES, CURRENT_SOURCE, NODE,
+                     SOURCES, SWITCH, THROUGH, VOLTAGE_CONTROLLED, Circuit, Probe)
 from ..results import (FLOATING_NODES, GROWTH, UNDAMPED_OSCILLATION, Conditioning, Diagnostic,
                        Features, Hazard, Jump, NotComputed)
 from ..tolerances import MODE_VISIBILITY
 from ..units import format_si
-from .features import SCALE_FLOOR, RawEvent, classify, probe_scale, raw_event
+from .features import SCALE_FLOOR, RawEvent, classify, node_values, probe_scale, raw_event
 from .initial import dc_state
 from .interval import SingularPencil
 from .jumps import Scales, jump_at
@@ -69,6 +69,26 @@ class ClosedFormSolution(NotComputed):
                 pass                       # an estimate only: never costs the features
         return out
 
+    def node_voltages(self) -> list[float]:
+        """Every node's voltage in V before, just after and at the end (final) of each
+        interval, those that ``features`` gives (not None); all nodes at once per interval
+        (``features.node_values``), node by node where that shortcut does not apply."""
+        layout, values = self.layout, []
+        nodes = [n for n in self.circuit.nodes if n != self.circuit.ground]
+        index = np.array([layout.node(n) for n in nodes], dtype=int)
+        for k, resp in enumerate(self.intervals):
+            prev = self.prestep if k == 0 else self.intervals[k - 1]
+            x, dx = (prev.x_plus, prev.dx_plus) if k == 0 else (prev.x_end, prev.dx_end)
+            fast = node_values(resp, x, dx, index) if index.size else None
+            if fast is not None:
+                values += [float(v) for trio in zip(*fast) for v in trio]
+                continue
+            for node in nodes:
+                raws, scale = self._raw(Probe(NODE, (node,)))
+                f = classify(raws[k], scale, self.scale.t)
+                values += [v for v in (f.before, f.after, f.final) if v is not None]
+        return values
+
     def jump(self, k: int) -> Jump:
         """Impulsive charges/fluxes and the energy dissipated at event k."""
         if k not in self._jump_cache:
@@ -96,8 +116,7 @@ class ClosedFormSolution(NotComputed):
         resp = self.intervals[k]
         c, d, const = self._terms(functional(self.circuit, self.layout, probe), resp)
         tau = (np.asarray(times, dtype=float).ravel() - resp.start) / self.scale.t
-        x, dx = resp.states(tau)
-        return x @ c + dx @ d + const
+        return resp.output(tau, c, d) + const
 
     # ----------------------------------------------------------------- extras
     def thevenin(self, k: int) -> dict[str, float]:
@@ -195,7 +214,13 @@ class ClosedFormSolution(NotComputed):
     def _coupled_terms(self, probe: Probe, k: int) -> dict[str, float]:
         """Zero-value time constants (s) of the storage parts that reach ``probe`` in interval k
         (``reach.reaching_storage``: a non-zero transfer function to the probe; a controlled
-        source couples one way, from control to output)."""
+        source couples one way, from control to output), memoised per probe and interval."""
+        key = ("coupled", probe.label, k)
+        if key not in self._probe_cache:
+            self._probe_cache[key] = self._coupled(probe, k)
+        return dict(self._probe_cache[key])
+
+    def _coupled(self, probe: Probe, k: int) -> dict[str, float]:
         terms = self._zero_value(k)
         resp, n = self.intervals[k], self.layout.size
         fn = functional(self.circuit, self.layout, voltage_of_capacitor(self.circuit, probe))
@@ -209,8 +234,7 @@ class ClosedFormSolution(NotComputed):
     def _dominant_sum(self, probe: Probe, k: int) -> float | None:
         """The dominant-τ estimate alone (s): the sum of the coupled zero-value time constants,
         None unless finite and positive.  ``features`` needs only this; the deviation and 50 %
-        time of ``dominant`` cost a scan of the waveform (and every node's features are read
-        for the cautions)."""
+        time of ``dominant`` cost a scan of the waveform."""
         return signoff.estimate(self._coupled_terms(probe, k))
 
     def _zero_value(self, k: int) -> dict[str, float]:

@@ -18,8 +18,11 @@ bordered solve (Sherman-Morrison; Golub & Van Loan, *Matrix Computations*, 4th e
 so the whole interval costs O(n^3 + s n^2) instead of one least-squares solve and one SVD per
 part (O(s n^3)).  Where G~ is not provably regular (an LU condition estimate) or an inductor's
 w_j is too small to trust (opening it leaves no resistive path), the per-part route is used: a
-least-squares solve and a null-space test, with the SVD of G~ taken once per interval for all
-capacitors and one per such inductor.
+least-squares solve and a null-space test.  All capacitors see the same G~, so they share one
+least-squares solver (its equilibration, pattern and factors made once: ``LeastSquares``) and
+one null-space test; each such inductor gets its own.  The null-space test is an SVD, O(n^3),
+skipped where the solver's own LU condition estimate already shows that no singular value can
+fall below ``NULL_REL`` of the largest (``_provably_regular``).
 """
 
 from __future__ import annotations
@@ -27,7 +30,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..model import CAPACITOR, INDUCTOR, Circuit
-from .linalg import equilibrate, least_squares, regular_factor
+from .conditioning import SPARSE_CONDITION_MIN, sparse_condition
+from .linalg import REGULAR_MIN_SIZE, LeastSquares, _pattern, equilibrate, regular_factor
 from .mna import Layout, Scale, voltage_row
 
 #: G~ with an estimated reciprocal condition number (1-norm) above this takes the batched route.
@@ -41,6 +45,11 @@ BORDER_PIVOT = 1e-6
 NULL_REL = 1e-12
 #: a test voltage row with a null-space component above this reads +inf (no unique voltage)
 NULL_COUPLING = 1e-9
+#: margin on the LU condition estimate before it stands in for the SVD's null-space test: the
+#: 1-norm estimate is within a factor of 3 of the truth in practice (Higham, *Accuracy and
+#: Stability of Numerical Algorithms*, 2nd ed., sec. 15.3), and sigma_min / sigma_max >=
+#: rcond_1 / n; a further factor of 10 on top
+NULL_ESTIMATE_MARGIN = 30.0
 
 
 def _storage(circuit: Circuit) -> list:
@@ -100,23 +109,46 @@ def _refined_solve(g: np.ndarray, factor, rhs: np.ndarray) -> np.ndarray:
 
 def _per_part(layout: Layout, g_scaled: np.ndarray, parts: list, vrows: np.ndarray,
               rhs: np.ndarray) -> dict[str, float]:
-    """R_th by one least-squares solve per part and a null-space test: the SVD of G~ is taken
-    once for all capacitors, and once per inductor (whose own row is replaced by i = 0)."""
+    """R_th by one least-squares solve per part and a null-space test: every capacitor shares
+    one solver and one test of G~; each inductor (whose own row is replaced by i = 0) gets its
+    own."""
     out = {}
     shared = None
     for k, part in enumerate(parts):
-        g = g_scaled
         if part.kind == INDUCTOR:
             g = g_scaled.copy()
             j = layout.branch(part.name)
             g[j, :] = 0.0
             g[j, j] = 1.0                            # the part itself open: i = 0
-            null = _null_space(g)
+            solver, null = _solver_and_null(g)
         else:
-            shared = _null_space(g) if shared is None else shared
-            null = shared
-        out[part.name] = _solve_ratio(g, rhs[:, k], vrows[:, k], null)
+            shared = _solver_and_null(g_scaled) if shared is None else shared
+            solver, null = shared
+        out[part.name] = _solve_ratio(solver, rhs[:, k], vrows[:, k], null)
     return out
+
+
+def _solver_and_null(g: np.ndarray) -> tuple[LeastSquares, np.ndarray]:
+    """The least-squares solver of g and the unit rows spanning its null space (``_null_space``,
+    none where ``_provably_regular``)."""
+    solver = LeastSquares(g)
+    if _provably_regular(solver, g.shape[0]):
+        return solver, np.zeros((0, g.shape[1]))
+    return solver, _null_space(g)
+
+
+def _provably_regular(solver: LeastSquares, n: int) -> bool:
+    """Whether the equilibrated g (the solver's own, the same Ruiz scaling ``_null_space``
+    uses) has no singular value below ``NULL_REL`` of the largest: shown by its LU condition
+    estimate with ``NULL_ESTIMATE_MARGIN``, or for a large sparse g by its 2-norm condition
+    number (Lanczos, ``conditioning.sparse_condition``) below 1 / (10 NULL_REL)."""
+    if solver.regular(NULL_ESTIMATE_MARGIN * max(n, 1) * NULL_REL, REGULAR_MIN_SIZE) is True:
+        return True
+    if n < SPARSE_CONDITION_MIN or solver.factor is None:
+        return False
+    _, _, scaled = solver.scaled()
+    pattern = _pattern(scaled)
+    return pattern is not None and sparse_condition(scaled, pattern) < 0.1 / NULL_REL
 
 
 def _null_space(g: np.ndarray) -> np.ndarray:
@@ -130,9 +162,10 @@ def _null_space(g: np.ndarray) -> np.ndarray:
     return null / np.linalg.norm(null, axis=1, keepdims=True) if null.shape[0] else null
 
 
-def _solve_ratio(g: np.ndarray, rhs: np.ndarray, vrow: np.ndarray, null: np.ndarray) -> float:
+def _solve_ratio(solver: LeastSquares, rhs: np.ndarray, vrow: np.ndarray,
+                 null: np.ndarray) -> float:
     """v = vrow . x for G~ x = rhs (1 A injected, scaled); +inf if no solution or not unique."""
-    x, _, consistent = least_squares(g, rhs)
+    x, _, consistent = solver.solve(rhs)
     if not consistent:
         return float("inf")
     if null.shape[0] and np.max(np.abs(null @ vrow)) > NULL_COUPLING:

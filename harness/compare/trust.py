@@ -20,7 +20,7 @@ from typing import Mapping
 import numpy as np
 
 from .. import tolerances as tol
-from ..model import Probe
+from ..model import NODE, Probe
 from ..results import (Conditioning, CrossingValue, DominantTau, EnergyValue, Features, Hazard,
                        Jump, PeakValue, Solution)
 from ..units import format_si
@@ -94,6 +94,18 @@ class Guarded:
 
     def conditioning(self) -> tuple[Conditioning, ...]:
         return self._conditioning
+
+    def node_voltages(self) -> list[float] | None:
+        """The engine's node voltages with the withheld intervals' left out (node by node
+        through ``features`` when any interval is withheld)."""
+        if all(trusted(c) for c in self._conditioning):
+            return self._inner.node_voltages()
+        circuit, values = self.circuit, []
+        for node in (n for n in circuit.nodes if n != circuit.ground):
+            for k in range(len(circuit.events)):
+                f = self.features(Probe(NODE, (node,)), k)
+                values += [v for v in (f.before, f.after, f.final) if v is not None]
+        return values
 
     # ----- the wrapped engine's answers ------------------------------------------------------
     def jump(self, k: int) -> Jump:

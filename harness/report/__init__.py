@@ -74,6 +74,9 @@ def render_plots(run: RunResult, jobs: int = 1,
     progress = progress or Progress(False)
     progress.add(len(items), "plots")
     if jobs > 1 and len(items) >= PARALLEL_PLOTS:
+        from ..pool import usable_jobs
+        jobs = usable_jobs(jobs)
+    if jobs > 1 and len(items) >= PARALLEL_PLOTS:
         drawn = [_stepped(d, progress) for d in _draw_in_workers(items, jobs)]
     else:
         drawn = [_stepped(_plot_one(item), progress) for item in items]

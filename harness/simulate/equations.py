@@ -25,7 +25,8 @@ without capacitance are eliminated (coordinates.py), so that no artificial capac
 capacitor-less nodes stiff and no 1/r_s drowns a slow mode; a node that would float in some
 interval keeps a parasitic capacitance instead (regularise.py).  The reduced
 J = -M_dd^-1 K_r is constant in an interval and is the exact (analytic) Jacobian; it is a
-scipy.sparse matrix above ``SPARSE_ABOVE`` states.
+scipy.sparse matrix above ``SPARSE_ABOVE`` states unless its LU factors fill in
+(``_stays_sparse``).
 """
 
 from __future__ import annotations
@@ -43,6 +44,12 @@ from .branches import (Affine, Branches, Layout, Regulariser, branch_currents, d
                        flows)
 from .coordinates import SPARSE_ABOVE, Reducer, assemble, constants, forest
 from .regularise import Regularisation
+
+#: use a sparse Jacobian above coordinates.SPARSE_ABOVE states only while the LU factors of
+#: I - h J fill at most this share of the dense matrix (tests/benchmarks/RESULTS.md "Numerical
+#: engine: sparse or dense": an RC ladder's fill 1.3 %, sparse 6x faster; random RC networks'
+#: 50-64 %, dense 1.15-1.75x faster)
+SPARSE_LU_FILL = 0.2
 
 
 @dataclass(frozen=True)
@@ -153,21 +160,38 @@ def _constants(circuit: Circuit, lay: Layout, br: Branches) -> np.ndarray:
 
 
 def _jacobian(K: sp.csc_matrix, M: sp.csc_matrix):
-    """(J, solve) with J = -M^-1 K (dense for small systems, sparse above SPARSE_ABOVE) and
+    """(J, solve) with J = -M^-1 K (sparse above SPARSE_ABOVE states unless its LU fills in,
+    ``_stays_sparse``; dense otherwise) and
     solve(b) = M^-1 b, shape (n,); M is factorised once."""
     n = K.shape[0]
     off = M - sp.diags(M.diagonal())
     if off.count_nonzero() == 0:
         inv = 1.0 / M.diagonal()
         jac = -(sp.diags(inv) @ K).tocsc()
-        return (jac.toarray() if n <= SPARSE_ABOVE else jac), (lambda b: inv * b)
+        return (jac if _stays_sparse(jac) else jac.toarray()), (lambda b: inv * b)
     if n <= SPARSE_ABOVE:
         lu = scipy.linalg.lu_factor(M.toarray())
         return -scipy.linalg.lu_solve(lu, K.toarray()), (lambda b: scipy.linalg.lu_solve(lu, b))
     lu = spla.splu(M.tocsc())
     jac = -sp.csc_matrix(lu.solve(K.toarray()))
     jac.eliminate_zeros()
-    return jac, lu.solve
+    return (jac if _stays_sparse(jac) else jac.toarray()), lu.solve
+
+
+def _stays_sparse(jac: sp.csc_matrix) -> bool:
+    """Whether the integrator should factor I - h J sparse: more than SPARSE_ABOVE states and
+    a trial sparse LU of I - J / max|J_ii| (SuperLU, its own column ordering) whose factors
+    fill at most SPARSE_LU_FILL of the dense matrix."""
+    n = jac.shape[0]
+    if n <= SPARSE_ABOVE:
+        return False
+    scale = float(np.abs(jac.diagonal()).max(initial=0.0))
+    trial = sp.identity(n, format="csc") - jac / (scale if scale > 0 else 1.0)
+    try:
+        lu = spla.splu(trial.tocsc())
+    except RuntimeError:                   # singular trial matrix: keep the size rule
+        return True
+    return lu.L.nnz + lu.U.nnz <= SPARSE_LU_FILL * n * n
 
 
 @dataclass(frozen=True)

@@ -298,7 +298,6 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
     settle = _Settle(lambda z: system.jac @ z + r, dynamic, atol / rtol, pulse_end, earliest)
     settle.add(0.0, z0)
     acc = _Accumulator(z0)
-    y_next, settled = None, False
     # 1. the pulse and the post-pulse fit window, resolved with small first and bounded steps
     bound = window if length is None else min(window, length)
     # a pulse wider than the whole window (a part value at the edge of the accepted range)
@@ -307,15 +306,8 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
     status = acc.add(*_run(system, r, z0, 0.0, bound, rtol, atol, settle, first_step=first_step,
                            max_step=bound / WINDOW_STEPS, budget=acc.left(budget)))
     # 2. on to the next event
-    if status == "reached" and length is not None and acc.s[-1] < length:
-        status = acc.add(*_run(system, r, acc.z[-1], acc.s[-1], length, rtol, atol, None,
-                               budget=acc.left(budget)))
-    if status == "reached" and length is not None:
-        y_next = np.asarray(red.lift @ (origin + acc.z[-1])).ravel() + red.lift_c
-        settled = any(settle.add(s, z) == "settled" for s, z in zip(acc.s[1:], acc.z[1:])
-                      if s > bound)
-    elif status == "settled":
-        settled, status = True, "reached"
+    status, y_next, settled = _to_next_event(system, r, origin, acc, settle, status, length,
+                                             bound, rtol, atol, budget)
     # 3. the held continuation until it settles
     if status == "reached" and not settled:
         start = acc.s[-1]
@@ -324,12 +316,28 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
         settled = status == "settled"
         if status == "reached":
             status = "horizon"
-    s_arr = np.asarray(acc.s)
-    dense = OdeSolution(s_arr, acc.interps) if acc.interps else None
-    return IntervalRun(t0, length, origin, origin_full, consistent, s_arr,
-                       np.column_stack(acc.z), dense, y_next, float(s_arr[-1]),
-                       "settled" if settled else status, acc.s[-1] if settled else None,
-                       acc.stats)
+    return acc.run(t0, length, origin, origin_full, consistent, y_next,
+                   "settled" if settled else status, settled)
+
+
+def _to_next_event(system: System, r: np.ndarray, origin: np.ndarray, acc: "_Accumulator",
+                   settle: _Settle, status: str, length: float | None, bound: float,
+                   rtol: float, atol: np.ndarray, budget: tuple[float, float]):
+    """Step 2 of ``integrate_interval``: from the end of the fit window to the next event (if
+    the window ended before it); returns (status, full state at the next event or None,
+    whether the steps after the window settled)."""
+    y_next, settled = None, False
+    if status == "reached" and length is not None and acc.s[-1] < length:
+        status = acc.add(*_run(system, r, acc.z[-1], acc.s[-1], length, rtol, atol, None,
+                               budget=acc.left(budget)))
+    if status == "reached" and length is not None:
+        red = system.reduction
+        y_next = np.asarray(red.lift @ (origin + acc.z[-1])).ravel() + red.lift_c
+        settled = any(settle.add(s, z) == "settled" for s, z in zip(acc.s[1:], acc.z[1:])
+                      if s > bound)
+    elif status == "settled":
+        settled, status = True, "reached"
+    return status, y_next, settled
 
 
 def _origin(system: System, y0: np.ndarray, scale: np.ndarray, factors: dict | None = None):
@@ -360,3 +368,13 @@ class _Accumulator:
         self.interps += interps
         self.stats = self.stats.plus(stats)
         return status
+
+    def run(self, t0: float, length: float | None, origin: np.ndarray, origin_full: np.ndarray,
+            consistent: bool, y_next: np.ndarray | None, status: str,
+            settled: bool) -> IntervalRun:
+        """The ``IntervalRun`` of the steps joined so far."""
+        s_arr = np.asarray(self.s)
+        dense = OdeSolution(s_arr, self.interps) if self.interps else None
+        return IntervalRun(t0, length, origin, origin_full, consistent, s_arr,
+                           np.column_stack(self.z), dense, y_next, float(s_arr[-1]), status,
+                           self.s[-1] if settled else None, self.stats)

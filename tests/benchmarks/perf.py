@@ -9,14 +9,13 @@ from __future__ import annotations
 
 import argparse
 import os
-import re
 import time
 from pathlib import Path
 
 from harness.circuitfile import read_circuit
 
 from . import alternatives, closedform_bench as cfb, library_bench
-from .timing import cpu_model, growth_exponent, load_average, ms, versions
+from .timing import cpu_model, growth_exponent, load_average, ms, versions, write_section
 
 RESULTS = Path(__file__).with_name("RESULTS.md")
 HEADING = "## Performance"
@@ -155,14 +154,7 @@ def section_alternatives(quick: bool) -> tuple[str, dict]:
 
 def _write_section(text: str) -> None:
     """Replace (or append) the Performance section of RESULTS.md, keeping every other one."""
-    old = RESULTS.read_text(encoding="utf-8") if RESULTS.exists() else "# Benchmark results\n"
-    pattern = re.compile(rf"^{re.escape(HEADING)}\n.*?(?=^## |\Z)", re.S | re.M)
-    block = f"{HEADING}\n\n{text.strip()}\n\n"
-    new = pattern.sub(lambda _m: block, old) if pattern.search(old) else \
-        old.rstrip("\n") + "\n\n" + block
-    tmp = RESULTS.with_suffix(".md.tmp")
-    tmp.write_text(new, encoding="utf-8")
-    os.replace(tmp, RESULTS)
+    write_section(RESULTS, HEADING, text)
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -3,7 +3,9 @@
 from __future__ import annotations
 
 import math
+import os
 import platform
+import re
 import statistics
 import time
 from typing import Callable
@@ -80,3 +82,25 @@ def load_average() -> str:
 def ms(seconds: float) -> str:
     """A time in ms with 3 significant digits."""
     return f"{1e3 * seconds:.3g}"
+
+
+def write_section(results, heading: str, text: str) -> None:
+    """Replace (or append) the section of the Markdown file ``results`` (a Path) headed by
+    ``heading`` (up to the next "## " heading), keeping every other one; written atomically."""
+    old = results.read_text(encoding="utf-8") if results.exists() else "# Benchmark results\n"
+    pattern = re.compile(rf"^{re.escape(heading)}\n.*?(?=^## |\Z)", re.S | re.M)
+    block = f"{heading}\n\n{text.strip()}\n\n"
+    new = pattern.sub(lambda _m: block, old) if pattern.search(old) else \
+        old.rstrip("\n") + "\n\n" + block
+    tmp = results.with_suffix(".md.tmp")
+    tmp.write_text(new, encoding="utf-8")
+    os.replace(tmp, results)
+
+
+def publish(results, heading: str, text: str, print_only: bool) -> int:
+    """Print ``text`` and, unless ``print_only``, make it the ``heading`` section of
+    ``results`` (``write_section``); 0, the benchmark's exit status."""
+    print(text)
+    if not print_only:
+        write_section(results, heading, text)
+    return 0
