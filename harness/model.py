@@ -107,6 +107,8 @@ class Part:
     #: manufacturing spread of ``value`` as relative (low, high), e.g. (-0.2, 0.8) for
     #: "-20%/+80%"; None when the part is held at its nominal value (``harness.variation``)
     spread: tuple[float, float] | None = None
+    #: the repeating schedule the file gave (already expanded into ``steps``), or None
+    repeat: "Repeat | None" = None
 
     @property
     def p(self) -> str:
@@ -147,6 +149,58 @@ class Part:
             if when < time:
                 state = bool(new)
         return state
+
+
+@dataclass(frozen=True)
+class Repeat:
+    """A schedule that repeats, as the file gave it (the reader expands it into ``Part.steps``).
+
+    Attributes:
+        start: s, the start of the first period.
+        period: s, the length of one period (> 0).
+        count: the number of periods (>= 1).
+        pattern: (offset s within the period, value) pairs, offsets strictly increasing in
+            [0, period); values as in ``Part.steps`` (V, A, or 1.0 closed / 0.0 open).
+    """
+
+    start: float
+    period: float
+    count: int
+    pattern: tuple[tuple[float, float], ...]
+
+    @property
+    def end(self) -> float:
+        """s: the end of the last period, start + count * period."""
+        return self.start + self.count * self.period
+
+
+@dataclass(frozen=True)
+class Periodic:
+    """The circuit's repeating window, shared by every part with a ``repeat``.
+
+    Every repeating part has the same start, period and count, and no other step falls inside
+    the window, so every period sees the same sequence of intervals.
+
+    Attributes:
+        start, period, count: as in ``Repeat`` (s, s, periods).
+        offsets: the distinct event offsets (s) within a period over all repeating parts,
+            sorted; the period map runs from ``first`` (start + offsets[0]) to first + period.
+    """
+
+    start: float
+    period: float
+    count: int
+    offsets: tuple[float, ...]
+
+    @property
+    def first(self) -> float:
+        """s: the first event of the window, where the one-period map starts."""
+        return self.start + self.offsets[0]
+
+    @property
+    def end(self) -> float:
+        """s: the end of the window, start + count * period."""
+        return self.start + self.count * self.period
 
 
 @dataclass(frozen=True)
@@ -338,6 +392,8 @@ class Circuit:
     warnings: tuple[str, ...] = ()
     #: the ``[variation]`` table (defaults when absent)
     variation: Variation = Variation()
+    #: the repeating window of the parts' ``repeat`` schedules, or None (``Periodic``)
+    periodic: Periodic | None = None
 
     def part(self, name: str) -> Part:
         """The part called ``name`` (KeyError if there is none)."""
