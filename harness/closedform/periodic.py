@@ -40,7 +40,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.linalg as sla
-from scipy.optimize import minimize_scalar
 
 from ..model import THROUGH, Probe
 from ..results import GROWS, NO_WINDOW, NOT_ESTABLISHED, PeriodicValue
@@ -243,6 +242,7 @@ def _extremes(cyc: Cycle, terms) -> tuple[float, float]:
             if sign * y[i] < sign * best[which][0]:
                 bracket = (tau[max(i - 1, 0)], tau[min(i + 1, tau.size - 1)])
                 best[which] = (float(y[i]), (resp, term, bracket, sign))
+    from scipy.optimize import minimize_scalar     # deferred: only periodic checks need it
     out = []
     for which in ("min", "max"):
         value, where = best[which]
