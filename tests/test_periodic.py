@@ -214,6 +214,40 @@ def test_steady_state_equals_the_numerical_engine_after_many_periods():
     assert numeric.features(OUT, k_off).before == pytest.approx(pss.maximum, rel=1e-4)
 
 
+def test_ramp_with_reset_switch_has_its_steady_state_in_both_engines():
+    """A 1 mA source ramps 1 µF for 0.98 ms (no DC path: an unbounded interval), a 10 Ω reset
+    switch pulls it towards I·R for 20 µs (2 τ).  Steady state by hand: v0 = I R + (v0 + I t/C
+    − I R)·e^(−2), so v0 = (I R (1 − e^(−2)) + e^(−2)·0.98 V)/(1 − e^(−2)), maximum v0 + 0.98 V."""
+    circuit = parse_circuit("""
+[parts]
+I1 = { kind = "current-source", nodes = ["gnd", "out"], value = "1 mA" }
+C1 = { kind = "capacitor", nodes = ["out", "gnd"], value = "1u", initial = "0 V" }
+S1 = { kind = "switch", nodes = ["out", "gnd"], state = "open", on-resistance = "10", repeat = { period = "1 ms", steps = [["0 s", "open"], ["0.98 ms", "closed"]], count = 3 } }
+""")
+    a = math.exp(-2)
+    v0 = (10e-3 * (1 - a) + a * 0.98) / (1 - a)
+    for engine, rel in ((exact_solve(circuit), 1e-9), (numeric_solve(circuit), 1e-5)):
+        got = engine.periodic(OUT)
+        assert got.minimum == pytest.approx(v0, rel=rel)
+        assert got.maximum == pytest.approx(v0 + 0.98, rel=rel)
+
+
+def test_trapped_charge_is_kept_from_the_start():
+    """Series capacitors under PWM: the middle node's charge C2·v_m − C1·(v_a − v_m) = −100 nC
+    (C1 starts at 1 V) never changes, so the steady-state average of v_m is
+    (C1·⟨v_a⟩ − 100 nC)/(C1 + C2) with ⟨v_a⟩ = 2.5 V: 150/147 V (charge conservation)."""
+    circuit = parse_circuit("""
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "0 V", repeat = { period = "100 us", duty = "50 %", levels = ["5 V", "0 V"], count = 3 } }
+R1 = { kind = "resistor", nodes = ["in", "a"], value = "1k" }
+C1 = { kind = "capacitor", nodes = ["a", "m"], value = "100n", initial = "1 V" }
+C2 = { kind = "capacitor", nodes = ["m", "gnd"], value = "47n", initial = "0 V" }
+""")
+    middle = Probe("node", ("m",))
+    for engine, rel in ((exact_solve(circuit), 1e-12), (numeric_solve(circuit), 1e-6)):
+        assert engine.periodic(middle).average == pytest.approx(150 / 147, rel=rel)
+
+
 # ----------------------------------------------------------------------------- no steady state
 def test_no_repeat_means_no_window():
     circuit = parse_circuit("""
@@ -236,3 +270,4 @@ C1 = { kind = "capacitor", nodes = ["out", "gnd"], value = "1u", initial = "0 V"
 acknowledge = ["out"]
 """)
     assert exact_solve(circuit).periodic(OUT).reason == GROWS
+    assert numeric_solve(circuit).periodic(OUT).reason == GROWS

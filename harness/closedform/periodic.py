@@ -13,7 +13,9 @@ the period's first interval, z = L_0 (x_minus − x_p0), the map is
 
     z ↦ Φ_z z + γ_z,  Φ_z = L_0 R Q1_0 expm(A_0 h_0),  γ_z = L_0 (R x_p0 + r − x_p0),
 
-with x ↦ R x + r the map of intervals 1 … m−1.  The steady state solves (I − Φ_z) z* = γ_z:
+with x ↦ R x + r the map of intervals 1 … m−1.  An interval without a bounded particular solution (a current charging a node with no DC
+path: ``response.augment``) maps [x; 1] linearly, so x ↦ M x + v is still affine; the map's
+first interval is the period's first bounded one.  The steady state solves (I − Φ_z) z* = γ_z:
 in the eigenvector basis of Φ_z, w*_j = g_j / (1 − λ_j), and a coordinate with λ_j = 1 (a
 charge or flux that no interval changes, trapped charge) keeps its value from the state at the
 window's start; a λ_j = 1 driven by g_j ≠ 0, or |λ_j| > 1, grows: no steady state.  Where the
@@ -27,7 +29,8 @@ rebuilt interval by interval (``response.build``):
 * average: exact: ∫ expm(A τ) dτ over [0, h] is the top-right block of expm([[A, I], [0, 0]] h)
   (Van Loan 1978), ∫ dx/dτ = x(h) − x(0), plus, for a ``through`` probe, the impulsive charge
   of the part at each event (``jumps.jump_at``);
-* settling: the deviation from the steady state in period n is Φ_z^n δz_0; the probe's largest
+* settling: the deviation from the steady state in period n is Φ_z^n δz_0 (periods counted
+  from the map's first interval); the probe's largest
   deviation over period n is max_i |Σ_j B_ij λ_j^n| on a grid of rows (B = Ψ V diag(V⁻¹ δz_0),
   Ψ the grid's deviation rows); the count is found from the monotone bound Σ_j |B_ij| |λ_j|^n
   and an exact scan below it (or, with an ill-conditioned basis, by iterating the map until
@@ -120,7 +123,8 @@ def _left(dec) -> np.ndarray:
 
 
 def _intervals(sol) -> tuple[_Interval, ...]:
-    """The intervals of the window's first period with their exact affine maps."""
+    """The intervals of the window's first period with their exact affine maps, starting at
+    the first one with a bounded particular solution (its dynamic coordinates are the map's)."""
     window = sol.circuit.periodic
     events = np.asarray(sol.circuit.events)
     t_ref = sol.scale.t
@@ -132,16 +136,20 @@ def _intervals(sol) -> tuple[_Interval, ...]:
             window.offsets[0] + window.period
         h = (nxt - offset) / t_ref
         resp = sol.intervals[k]
-        if resp.augmented:
-            raise NoSteadyState(GROWS)
-        dec = resp.dec
-        n = resp.xp.size
+        dec, n = resp.dec, resp.g.shape[0]
         if dec.order == 0:
-            m = np.zeros((n, n))
+            m, v = np.zeros((n, n)), resp.xp[:n].copy()
+        elif resp.augmented:                 # x_end = (Q1 e^(A h) L [x; 1])[:n]: still affine
+            full = dec.q1 @ sla.expm(dec.a * h) @ _left(dec)
+            m, v = full[:n, :n], full[:n, n]
         else:
             m = dec.q1 @ sla.expm(dec.a * h) @ _left(dec)
-        out.append(_Interval(k, h, resp, m, resp.xp - m @ resp.xp))
-    return tuple(out)
+            v = resp.xp - m @ resp.xp
+        out.append(_Interval(k, h, resp, m, v))
+    bounded = [j for j, step in enumerate(out) if not step.resp.augmented]
+    if not bounded:
+        raise NoSteadyState(GROWS)
+    return tuple(out[bounded[0]:] + out[:bounded[0]])
 
 
 def cycle(sol) -> Cycle:
@@ -268,14 +276,15 @@ def _integral(resp: IntervalResponse, h: float) -> np.ndarray:
         big[:f, f:] = np.eye(f)
         block = sla.expm(big * h)[:f, f:]
         out = out + dec.q1 @ (block @ resp.z0)
-    return out[:resp.g.shape[0]] if out.size > resp.g.shape[0] else out
+    return out[:resp.g.shape[0]]
 
 
 def _average(sol, cyc: Cycle, terms, probe: Probe) -> float:
     """(1/period) ∫ over the period, exact, impulses at the events included."""
     total = 0.0
     for step, resp, (c, d, const) in zip(cyc.intervals, cyc.responses, terms):
-        total += float(c @ _integral(resp, step.h) + d @ (resp.x_end - resp.x_plus)) \
+        n = resp.g.shape[0]
+        total += float(c[:n] @ _integral(resp, step.h) + d[:n] @ (resp.x_end - resp.x_plus)) \
             + const * step.h
     average = total * sol.scale.t / sol.circuit.periodic.period
     if probe.kind == THROUGH:
@@ -295,9 +304,9 @@ def _deviation_rows(cyc: Cycle, terms) -> np.ndarray:
         dec = resp.dec
         if dec.order == 0:
             continue
-        into = np.eye(dec.order) if j == 0 else _left(dec) @ cyc.carry[j]
-        n = dec.q1.shape[0]
-        base = c[:n] @ dec.q1 + d[:n] @ (dec.q1 @ dec.a)
+        n = resp.g.shape[0]
+        into = np.eye(dec.order) if j == 0 else _left(dec)[:, :n] @ cyc.carry[j]
+        base = c[:n] @ dec.q1[:n] + d[:n] @ (dec.q1 @ dec.a)[:n]
         for tau in np.linspace(0.0, step.h, DEVIATION_ROWS):
             rows.append(base @ sla.expm(dec.a * tau) @ into)
     return np.array(rows) if rows else np.zeros((0, cyc.phi_z.shape[0]))

@@ -14,10 +14,10 @@ Newton step is exact).
 * Jacobian: Φ by finite differences of integrated periods, column j from u_b + δ_j e_j with
   δ_j the engine's state scale (V or A), exact up to the integration error for an affine map.
 * Steady state: u* = u_b + (I − Φ)⁻¹ (P(u_b) − u_b), u_b the engine's own state at the
-  window's start.  Where I − Φ is singular (charge conserved over every period) the periods
-  are integrated from u_b instead until the period-to-period change is below the tolerance.
-  Either way a period integrated from u* must return within ``CHANGE`` of the state scale,
-  else nothing is reported.
+  window's start.  Where I − Φ is singular (charge conserved over every period: its left null
+  vectors ℓ) the step keeps ℓ·u of u_b, and ℓ·(P(u_b) − u_b) ≠ 0 (charge added every period)
+  is growth.  A period integrated from u* must return within ``CHANGE`` of the state scale
+  (the period-to-period change), else nothing is reported.
 * Values: one period integrated from u* with dense output: the extremes on a grid after each
   interval's pulse (the pulse is the regularised impulse, not a value), refined by a bounded
   search on the dense output; the average by 5-point Gauss–Legendre over each accepted step
@@ -47,8 +47,6 @@ CHANGE = 1e3
 CHANGE_FLOOR = 1e-6
 #: I − Φ with a condition number above this is singular (conserved charge)
 SINGULAR = 1e10
-#: periods integrated at most when shooting cannot be used
-MAX_PERIODS = 400
 #: grid points per interval for the extremes; deviation rows per interval
 GRID_POINTS = 400
 DEVIATION_ROWS = 9
@@ -186,13 +184,9 @@ def cycle(sol) -> NumericCycle:
         if columns else np.zeros((0, 0))
     if phi.size and np.max(np.abs(np.linalg.eigvals(phi))) > GROWTH:
         raise NoSteadyState(GROWS)
-    lhs = np.eye(u_b.size) - phi
-    if u_b.size == 0 or np.linalg.cond(lhs) < SINGULAR:
-        u_star = u_b + np.linalg.solve(lhs, base.end - u_b) if u_b.size else u_b
-    else:
-        u_star = _iterate(sol, legs, base.end, deltas)
-    final = _period(sol, legs, u_star, dense=True)
     tol = max(CHANGE * sol.rtol, CHANGE_FLOOR)
+    u_star = u_b + _correction(np.eye(u_b.size) - phi, base.end - u_b, deltas, tol)
+    final = _period(sol, legs, u_star, dense=True)
     if np.any(np.abs(final.end - u_star) > tol * deltas):
         raise NoSteadyState(NOT_ESTABLISHED)
     sens = tuple(np.stack([(c.samples[j] - base.samples[j]) / d
@@ -201,15 +195,22 @@ def cycle(sol) -> NumericCycle:
     return NumericCycle(legs, final, phi, sens, u_b - u_star)
 
 
-def _iterate(sol, legs, u: np.ndarray, deltas: np.ndarray) -> np.ndarray:
-    """Integrate periods from ``u`` until the period-to-period change is within tolerance."""
-    tol = max(CHANGE * sol.rtol, CHANGE_FLOOR) / 10
-    for _ in range(MAX_PERIODS):
-        nxt = _period(sol, legs, u).end
-        if np.all(np.abs(nxt - u) <= tol * deltas):
-            return nxt
-        u = nxt
-    raise NoSteadyState(NOT_ESTABLISHED)
+def _correction(lhs: np.ndarray, rhs: np.ndarray, deltas: np.ndarray,
+                tol: float) -> np.ndarray:
+    """Δ with (I − Φ) Δ = P(u_b) − u_b: one Newton step of the shooting.  Where I − Φ is
+    singular (ℓ (I − Φ) = 0: ℓ·u is conserved by every period) the step keeps ℓ·u, ℓ·Δ = 0;
+    ℓ·rhs beyond ``tol`` of the state scale (charge added every period) is growth."""
+    if lhs.size == 0:
+        return np.zeros(0)
+    if np.linalg.cond(lhs) < SINGULAR:
+        return np.linalg.solve(lhs, rhs)
+    u, sv, _ = np.linalg.svd(lhs / deltas[None, :])
+    conserved = u[:, sv <= sv[0] / SINGULAR].T          # rows ℓ, left null of I − Φ
+    if np.any(np.abs(conserved @ rhs) > tol * (np.abs(conserved) @ deltas)):
+        raise NoSteadyState(GROWS)
+    stacked = np.vstack([lhs, conserved])
+    target = np.concatenate([rhs, np.zeros(conserved.shape[0])])
+    return np.linalg.lstsq(stacked, target, rcond=None)[0]
 
 
 def periodic_value(sol, cyc: NumericCycle, probe: Probe, fraction: float) -> PeriodicValue:
