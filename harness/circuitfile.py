@@ -22,6 +22,7 @@ from .errors import InputError, UnitError
 from .fields import parse_parts
 from .fieldspec import FIELD_SPECS, NONNEGATIVE, POSITIVE
 from .filelines import Locator, Where, expect_label, name_problem, quoted_list, suggest
+from .repeat import periodic_window
 from .units import check_magnitude, format_si, has_suffix
 from .variation.declare import check_drifts, read_spec, read_spread, read_variation
 
@@ -246,7 +247,8 @@ def _build(data: dict, where: Where, default_tolerance: float | None = None) -> 
     check_drifts(parts, variation, where)
     circuit = m.Circuit(title=title, parts=parts, ground=ground,
                         settings=_settings(data.get("settings", {}), where, default_tolerance),
-                        source=where.source, variation=variation)
+                        source=where.source, variation=variation,
+                        periodic=periodic_window(parts, where))
     return replace(circuit, expectations=_expectations(data.get("expect", []), circuit, where))
 
 

@@ -16,6 +16,7 @@ from . import model as m
 from .errors import InputError
 from .filelines import Where, name_problem, quoted_list, suggest
 from .plausible import implausible
+from .repeat import merge, read_repeat
 from .variation.declare import read_spread, read_tempco
 
 #: upper limits a user can rely on (past them: an input error, not a hang); measured in
@@ -40,6 +41,10 @@ FIELD_HELP = {
                "the DC solution before t = 0)",
     "steps": "[[time, new value], …] in increasing time order, each time ≥ 0 s; a switch steps "
              "to \"open\" or \"closed\"",
+    "repeat": "a schedule that repeats: { period = t, duty = \"30 %\", levels = [during, rest] "
+              "or steps = [[offset, value], …] within the period, count = N or until = t, "
+              "start = t (default 0 s) }; expanded into steps, and the periodic steady state "
+              "is computed from one period",
     "state": "\"open\" or \"closed\": the switch's state before its first step",
     "on-resistance": "resistance when closed (default: an ideal short)",
     "off-resistance": "resistance when open, greater than on-resistance (default: ideal open)",
@@ -121,6 +126,10 @@ def _kind_of(name: str, spec: object, where: Where) -> dict:
                                         path=path + ("initial",), part=name, field="initial")
     if declared.stepped and "steps" in spec:
         out["steps"] = _steps(name, spec["steps"], where, declared.units["value"])
+    if "repeat" in spec:
+        dimension = None if declared.branch == m.SWITCHED else declared.units["value"]
+        out["repeat"] = read_repeat(name, spec["repeat"], where, dimension, MAX_STEPS)
+        out["steps"] = merge(name, out.get("steps", ()), out["repeat"], where)
     if declared.control is not None:
         out["control"] = spec.get("control")
     if "spread" in spec:

@@ -125,14 +125,15 @@ KIND_SPECS: Mapping[str, KindSpec] = MappingProxyType({spec.name: spec for spec 
              ("value", "initial") + _SPREADS, {"value": "H", "initial": "A"}, INDUCTIVE,
              positive=True, sensed=True),
     KindSpec(VOLTAGE_SOURCE, "an ideal voltage source: v(p) − v(n) = value, stepped by `steps`",
-             "voltage source", ("value", "steps") + _SPREADS, {"value": "V"}, VOLTAGE_TYPE,
-             stepped=True, sensed=True),
+             "voltage source", ("value", "steps", "repeat") + _SPREADS, {"value": "V"},
+             VOLTAGE_TYPE, stepped=True, sensed=True),
     KindSpec(CURRENT_SOURCE, "an ideal current source driving `value` from p through itself "
-             "to n, stepped by `steps`", "current source", ("value", "steps") + _SPREADS,
-             {"value": "A"}, CURRENT_TYPE, stepped=True),
+             "to n, stepped by `steps`", "current source",
+             ("value", "steps", "repeat") + _SPREADS, {"value": "A"}, CURRENT_TYPE,
+             stepped=True),
     KindSpec(SWITCH, "an ideal switch (a short when closed, open when open) or, with "
              "`on-resistance` / `off-resistance`, a resistance that changes with its state",
-             "switch", ("state", "steps", "on-resistance", "off-resistance"),
+             "switch", ("state", "steps", "repeat", "on-resistance", "off-resistance"),
              {"on-resistance": "ohm", "off-resistance": "ohm"}, SWITCHED, required=("state",),
              sensed=True, dissipative=True),
     _controlled(VCVS, "voltage-controlled voltage source", "1",
@@ -227,6 +228,8 @@ class Part:
     #: (field, SI value) of the further quantity fields its kind declares (``KindSpec.units``
     #: beyond value, gain, initial and the switch resistances), in declaration order
     params: tuple[tuple[str, float], ...] = ()
+    #: the repeating schedule the file gave (already expanded into ``steps``), or None
+    repeat: "Repeat | None" = None
 
     @property
     def p(self) -> str:
@@ -272,6 +275,58 @@ class Part:
             if when < time:
                 state = bool(new)
         return state
+
+
+@dataclass(frozen=True)
+class Repeat:
+    """A schedule that repeats, as the file gave it (the reader expands it into ``Part.steps``).
+
+    Attributes:
+        start: s, the start of the first period.
+        period: s, the length of one period (> 0).
+        count: the number of periods (>= 1).
+        pattern: (offset s within the period, value) pairs, offsets strictly increasing in
+            [0, period); values as in ``Part.steps`` (V, A, or 1.0 closed / 0.0 open).
+    """
+
+    start: float
+    period: float
+    count: int
+    pattern: tuple[tuple[float, float], ...]
+
+    @property
+    def end(self) -> float:
+        """s: the end of the last period, start + count * period."""
+        return self.start + self.count * self.period
+
+
+@dataclass(frozen=True)
+class Periodic:
+    """The circuit's repeating window, shared by every part with a ``repeat``.
+
+    Every repeating part has the same start, period and count, and no other step falls inside
+    the window, so every period sees the same sequence of intervals.
+
+    Attributes:
+        start, period, count: as in ``Repeat`` (s, s, periods).
+        offsets: the distinct event offsets (s) within a period over all repeating parts,
+            sorted; the period map runs from ``first`` (start + offsets[0]) to first + period.
+    """
+
+    start: float
+    period: float
+    count: int
+    offsets: tuple[float, ...]
+
+    @property
+    def first(self) -> float:
+        """s: the first event of the window, where the one-period map starts."""
+        return self.start + self.offsets[0]
+
+    @property
+    def end(self) -> float:
+        """s: the end of the window, start + count * period."""
+        return self.start + self.count * self.period
 
 
 @dataclass(frozen=True)
@@ -471,6 +526,8 @@ class Circuit:
     warnings: tuple[str, ...] = ()
     #: the ``[variation]`` table (defaults when absent)
     variation: Variation = Variation()
+    #: the repeating window of the parts' ``repeat`` schedules, or None (``Periodic``)
+    periodic: Periodic | None = None
 
     def part(self, name: str) -> Part:
         """The part called ``name`` (KeyError if there is none)."""

@@ -325,7 +325,7 @@ class Solution(Protocol):
     """The result of one engine on one circuit: what every engine must answer, and the optional
     answers an engine gives where it computes them.
 
-    Required: the attributes and methods down to ``dominant``.  Optional: ``hazards``,
+    Required: the attributes and methods down to ``periodic``.  Optional: ``hazards``,
     ``resolution``, ``thevenin``, ``conditioning`` and ``withheld``; an engine declares the
     ones it gives by overriding ``NotComputed`` (which both engines inherit), and every other
     one answers "not computed" (None, or no hazards) -- never an engine disagreement.  The
@@ -367,6 +367,10 @@ class Solution(Protocol):
 
     def dominant(self, probe: Probe, k: int) -> DominantTau:
         """The zero-value time-constant estimate and how far it is from the exact waveform."""
+
+    def periodic(self, probe: Probe, fraction: float) -> "PeriodicValue":
+        """The probe's periodic steady state over one period of the circuit's repeating window
+        (``model.Periodic``), ``fraction`` the band of its settle count."""
 
     def resolution(self, k: int) -> float | None:
         """Optional: the fastest time constant in s the engine resolves just after event k
@@ -411,3 +415,61 @@ class NotComputed:
         """Every node's voltage in V before, just after and at the end of each interval (the
         values ``features`` gives, in no particular order), or None when not computed."""
         return None
+
+
+#: why an engine gives no periodic steady state (``PeriodicValue.reason``)
+NO_WINDOW = "no-window"            # the circuit has no repeating window (no ``repeat``)
+GROWS = "grows"                    # a period map that grows: no steady state exists
+NOT_ESTABLISHED = "not-established"  # the engine could not establish it (ill-conditioned map,
+                                     # an integration that failed, a state beyond range)
+
+
+@dataclass(frozen=True)
+class PeriodicValue:
+    """A probe's exact periodic steady state over one period of the repeating window.
+
+    The period runs from ``start`` (the window's first event, ``model.Periodic.first``) for
+    ``period`` seconds; values are in the probe's unit (V or A) unless said otherwise.
+
+    Attributes:
+        minimum, maximum: the extremes over the period between events (an impulse at an event,
+            the charge a part carries in zero time, is not a value).
+        average: (1/period) · ∫ over the period, impulses at events included (a capacitor's
+            average current is 0 in the steady state).
+        ripple: maximum − minimum.
+        settle_periods: the number of periods from ``start`` after which the probe stays
+            within ``fraction`` of its first period's deviation from the steady state (its
+            largest |x − x_pss| over a period); 0 when it starts there; None where not
+            established.
+        settle_time: settle_periods · period, in s after ``start``, or None.
+        fraction: the band of ``settle_periods`` as a fraction of the first period's deviation.
+        reason: None, or why nothing is given (``NO_WINDOW``, ``GROWS``, ``NOT_ESTABLISHED``).
+    """
+
+    start: float
+    period: float
+    minimum: float | None = None
+    maximum: float | None = None
+    average: float | None = None
+    settle_periods: int | None = None
+    fraction: float = 0.0
+    reason: str | None = None
+
+    @property
+    def ripple(self) -> float | None:
+        """maximum − minimum in the probe's unit, or None."""
+        if self.minimum is None or self.maximum is None:
+            return None
+        return self.maximum - self.minimum
+
+    @property
+    def settle_time(self) -> float | None:
+        """s after ``start``: settle_periods · period, or None."""
+        return None if self.settle_periods is None else self.settle_periods * self.period
+
+    @classmethod
+    def without(cls, window, fraction: float, reason: str) -> "PeriodicValue":
+        """No values, for ``reason``, over ``window`` (a ``model.Periodic`` or None)."""
+        if window is None:
+            return cls(start=0.0, period=0.0, fraction=fraction, reason=reason)
+        return cls(start=window.first, period=window.period, fraction=fraction, reason=reason)

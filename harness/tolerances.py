@@ -42,6 +42,9 @@ WAVEFORM_SWING_FLOOR = 1e-2
 MODE_VISIBILITY = 1e-6
 #: two modes are the same mode when their rates agree to this relative amount
 MODE_MERGE = 1e-6
+#: periodic steady state: a probe has settled when its deviation from the steady state stays
+#: within this fraction of its deviation over the first period (``results.PeriodicValue``)
+SETTLE_FRACTION = 0.01
 
 
 def agree(a: float | None, b: float | None, relative: float, floor: float = 0.0) -> bool:

@@ -76,7 +76,8 @@ group of nodes joined by a large capacitance meets the rest only through a small
 charge of that group is a small difference of large terms): ~1e-8 at a ratio of 1e8.
 
 Public API: ``solve(circuit) -> ClosedFormSolution`` (harness.results.Solution plus
-``thevenin(k)``, ``time_constants(k)``, ``interval_modes(k)``).
+``thevenin(k)``, ``time_constants(k)``, ``interval_modes(k)``, and ``periodic(probe,
+fraction)``: the exact periodic steady state of a repeating window, module ``periodic``).
 """
 
 from .modes import Mode

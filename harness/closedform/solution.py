@@ -11,7 +11,7 @@ from ..model import (ACROSS, CAPACITOR, CONTROLLED, CURRENT_BRANCHES, CURRENT_SO
                      SOURCES, SWITCH, THROUGH, VOLTAGE_CONTROLLED, Circuit, Probe)
 from ..results import (FLOATING_NODES, GROWTH, UNDAMPED_OSCILLATION, Conditioning, Diagnostic,
                        Features, Hazard, Jump, NotComputed)
-from ..tolerances import MODE_VISIBILITY
+from ..tolerances import MODE_VISIBILITY, SETTLE_FRACTION
 from ..units import format_si
 from .features import SCALE_FLOOR, RawEvent, classify, node_values, probe_scale, raw_event
 from .initial import dc_state
@@ -23,7 +23,7 @@ from .modes import UNDAMPED, Mode, mode_of
 from .probes import functional
 from .reach import reaching_storage, voltage_of_capacitor
 from .response import IntervalResponse, Pencil, build, pencil_of
-from . import signoff
+from . import periodic, signoff
 from .conditioning import assess
 from .thevenin import thevenin_resistances
 
@@ -244,6 +244,27 @@ class ClosedFormSolution(NotComputed):
             self._jump_cache[key] = signoff.zero_value_terms(self.circuit, self.thevenin(k),
                                                                  self.scale.r0)
         return self._jump_cache[key]
+
+    # ----------------------------------------------------------------- periodic drive
+    def periodic(self, probe: Probe, fraction: float = SETTLE_FRACTION):
+        """The probe's exact periodic steady state over one period of the circuit's repeating
+        window (``harness.results.PeriodicValue``; ``closedform.periodic``)."""
+        key = ("periodic", probe.label, fraction)
+        if key not in self._probe_cache:
+            self._probe_cache[key] = periodic.steady_state(self, probe, fraction)
+        return self._probe_cache[key]
+
+    def _periodic_cycle(self) -> "periodic.Cycle":
+        """The steady-state period, built once (raises ``periodic.NoSteadyState``)."""
+        if "periodic" not in self._jump_cache:
+            try:
+                self._jump_cache["periodic"] = periodic.cycle(self)
+            except periodic.NoSteadyState as exc:
+                self._jump_cache["periodic"] = exc
+        found = self._jump_cache["periodic"]
+        if isinstance(found, periodic.NoSteadyState):
+            raise found
+        return found
 
     # ----------------------------------------------------------------- internals
     def _x_minus(self, k: int) -> np.ndarray:

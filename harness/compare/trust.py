@@ -21,8 +21,8 @@ import numpy as np
 
 from .. import tolerances as tol
 from ..model import NODE, Probe
-from ..results import (Conditioning, CrossingValue, DominantTau, EnergyValue, Features, Hazard,
-                       Jump, PeakValue, Solution)
+from ..results import (NOT_ESTABLISHED, Conditioning, CrossingValue, DominantTau, EnergyValue,
+                       Features, Hazard, Jump, PeakValue, PeriodicValue, Solution)
 from ..units import format_si
 
 
@@ -128,6 +128,16 @@ class Guarded:
 
     def dominant(self, probe: Probe, k: int) -> DominantTau:
         return self._inner.dominant(probe, k)
+
+    def periodic(self, probe: Probe, fraction: float) -> PeriodicValue:
+        """The wrapped engine's steady state, or "not established" when an interval of the
+        repeating window is withheld (its digits cannot carry the steady state either)."""
+        window = self.circuit.periodic
+        if window is not None and any(
+                not trusted(c) for c in self._conditioning
+                if window.start - 1e-12 * window.period <= c.start < window.end):
+            return PeriodicValue.without(window, fraction, NOT_ESTABLISHED)
+        return self._inner.periodic(probe, fraction)
 
     def resolution(self, k: int) -> float | None:
         return self._inner.resolution(k)

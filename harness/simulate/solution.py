@@ -8,7 +8,7 @@ import numpy as np
 
 from ..model import CAPACITOR, CONTROLLED, SWITCH, Circuit, Probe
 from ..results import NO_FINAL, NOT_REACHED, Diagnostic, Features, Jump, NotComputed
-from ..tolerances import MODE_VISIBILITY
+from ..tolerances import MODE_VISIBILITY, SETTLE_FRACTION
 from .branches import Layout
 from .equations import System
 from .features import decay, fit_window, post_pulse, pulse_points, values
@@ -16,7 +16,7 @@ from .integrate import IntervalRun, IntervalStats
 from .linsolve import operating_point
 from .probes import probe_offset, probe_row, voltage_row
 from .regularise import Regularisation, gain_factor
-from . import signoff
+from . import periodic, signoff
 from .dominant import dominant as dominant_tau
 from .modal import visible as visible_modes
 
@@ -224,6 +224,26 @@ class NumericSolution(NotComputed):
         if np.any(early):
             out[early] = self._post(probe, k).value(local[early])[0]
         return out
+
+    def periodic(self, probe: Probe, fraction: float = SETTLE_FRACTION):
+        """The probe's periodic steady state by this engine's own route (shooting on its
+        integrated model, ``simulate.periodic``; ``harness.results.PeriodicValue``)."""
+        key = ("periodic", probe, fraction)
+        if key not in self._cache:
+            self._cache[key] = periodic.steady_state(self, probe, fraction)
+        return self._cache[key]
+
+    def _periodic_cycle(self) -> "periodic.NumericCycle":
+        """The steady-state period, built once (raises ``periodic.NoSteadyState``)."""
+        if "periodic" not in self._cache:
+            try:
+                self._cache["periodic"] = periodic.cycle(self)
+            except periodic.NoSteadyState as exc:
+                self._cache["periodic"] = exc
+        found = self._cache["periodic"]
+        if isinstance(found, periodic.NoSteadyState):
+            raise found
+        return found
 
     def probe_terms(self, probe: Probe, k: int) -> tuple[np.ndarray, float]:
         """(w, offset) with the probe's value w . z + offset over interval k's deviations z."""

@@ -1,0 +1,273 @@
+"""Periodic drive: the ``repeat`` schedule and the exact periodic steady state of both engines.
+
+References outside the project: the RC low-pass under a two-level drive solved by sympy from
+its two exponential segments and the periodicity condition; the small-ripple formula
+V·D(1−D)·T/(R·C) (common practice, valid for T ≪ RC); the no-load charge-pump doubler as a
+geometric series of ideal charge sharing (charge conservation: V_out ← (C_O·V_out + C_F·2V) /
+(C_F + C_O)); the first-order settle count ln(f) / ln(e^(−T/τ)).
+"""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+import sympy as sp
+
+from harness.circuitfile import parse_circuit
+from harness.closedform import solve as exact_solve
+from harness.model import Probe
+from harness.results import GROWS, NO_WINDOW
+from harness.simulate import solve as numeric_solve
+
+OUT = Probe("node", ("out",))
+
+
+def _pwm(period: str, duty: str = "30 %", count: int = 20) -> str:
+    """An RC low-pass (10 kΩ, 10 nF: τ = 100 µs) driven 0/5 V by a repeating source."""
+    return f"""
+title = "pwm filter"
+[parts]
+R1 = {{ kind = "resistor", nodes = ["in", "out"], value = "10k" }}
+C1 = {{ kind = "capacitor", nodes = ["out", "gnd"], value = "10n", initial = "0 V" }}
+[parts.V1]
+kind = "voltage-source"
+nodes = ["in", "gnd"]
+value = "0 V"
+repeat = {{ period = "{period}", duty = "{duty}", levels = ["5 V", "0 V"], count = {count} }}
+"""
+
+
+def _doubler(count: int, load: str = "") -> str:
+    """A charge-pump doubler with ideal switches: C_F = 1 µF charged to 5 V, then stacked on
+    the input and shared with C_O = 4 µF (no resistance: pure charge sharing)."""
+    phase = ('steps = [["0 s", "{a}"], ["5 us", "{b}"]], period = "10 us", '
+             f'count = {count}')
+    one = phase.format(a="closed", b="open")
+    two = phase.format(a="open", b="closed")
+    return f"""
+title = "doubler"
+[parts]
+V1 = {{ kind = "voltage-source", nodes = ["vin", "gnd"], value = "5 V" }}
+S1 = {{ kind = "switch", nodes = ["vin", "a"], state = "closed", repeat = {{ {one} }} }}
+S2 = {{ kind = "switch", nodes = ["b", "gnd"], state = "closed", repeat = {{ {one} }} }}
+S3 = {{ kind = "switch", nodes = ["vin", "b"], state = "open", repeat = {{ {two} }} }}
+S4 = {{ kind = "switch", nodes = ["a", "out"], state = "open", repeat = {{ {two} }} }}
+CF = {{ kind = "capacitor", nodes = ["a", "b"], value = "1u" }}
+CO = {{ kind = "capacitor", nodes = ["out", "gnd"], value = "4u", initial = "0 V" }}
+{load}
+"""
+
+
+# ----------------------------------------------------------------------------- the reader
+def test_repeat_expands_into_ordinary_steps_and_records_the_window():
+    """duty + levels give two steps per period at n·T and n·T + D·T; the window is recorded."""
+    circuit = parse_circuit(_pwm("100 us", count=3))
+    v1 = circuit.part("V1")
+    want = [(0.0, 5.0), (30e-6, 0.0), (100e-6, 5.0), (130e-6, 0.0), (200e-6, 5.0),
+            (230e-6, 0.0)]
+    assert [(pytest.approx(t, abs=1e-18), v) for t, v in v1.steps] == want
+    window = circuit.periodic
+    assert (window.start, window.period, window.count) == (0.0, 100e-6, 3)
+    assert window.offsets == pytest.approx((0.0, 30e-6))
+
+
+def test_repeat_until_and_ordinary_steps_before_the_window():
+    """``until`` counts the periods that start before it; a step before ``start`` stays."""
+    circuit = parse_circuit("""
+[parts]
+S1 = { kind = "switch", nodes = ["in", "out"], state = "open", steps = [["0.5 ms", "closed"]], repeat = { start = "1 ms", period = "1 ms", until = "3.5 ms", steps = [["0.2 ms", "open"], ["0.7 ms", "closed"]] } }
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "1 V" }
+R1 = { kind = "resistor", nodes = ["out", "gnd"], value = "1k" }
+""")
+    steps = circuit.part("S1").steps
+    assert steps[0] == (0.5e-3, 1.0)
+    assert [t for t, _ in steps[1:]] == pytest.approx([1.2e-3, 1.7e-3, 2.2e-3, 2.7e-3, 3.2e-3,
+                                                       3.7e-3])
+    assert circuit.periodic.count == 3
+    assert circuit.periodic.first == pytest.approx(1.2e-3)
+
+
+# ----------------------------------------------------------------------------- RC under PWM
+def _rc_pwm_reference(ratio: float, duty: float, volts: float = 5.0):
+    """(v_min, v_max, average) of the RC low-pass's periodic steady state, solved by sympy:
+    on for D·T: v = V + (v0 − V)·e^(−t/τ); off for (1−D)·T: v = v1·e^(−t/τ); periodic."""
+    t, tau, big_t, d, v = sp.symbols("t tau T D V", positive=True)
+    v0, v1 = sp.symbols("v0 v1")
+    on = v + (v0 - v) * sp.exp(-t / tau)
+    off = v1 * sp.exp(-t / tau)
+    sol = sp.solve([sp.Eq(on.subs(t, d * big_t), v1),
+                    sp.Eq(off.subs(t, (1 - d) * big_t), v0)], [v0, v1], dict=True)[0]
+    mean = (sp.integrate(on, (t, 0, d * big_t)) + sp.integrate(off, (t, 0, (1 - d) * big_t))) \
+        / big_t
+    values = {tau: 1, big_t: sp.nsimplify(ratio), d: sp.nsimplify(duty), v: sp.nsimplify(volts)}
+    vmin, vmax = (float(sol[x].subs(values).evalf(40)) for x in (v0, v1))
+    avg = float(mean.subs(sol).subs(values).evalf(40))
+    return vmin, vmax, avg
+
+
+@pytest.mark.parametrize("ratio", [0.01, 0.37, 1.0, 5.0])
+def test_rc_pwm_steady_state_matches_the_sympy_solution(ratio):
+    """T/RC from 0.01 to 5: minimum, maximum, ripple and average (sympy, above)."""
+    period = f"{ratio * 100:g} us"
+    vmin, vmax, avg = _rc_pwm_reference(ratio, 0.3)
+    got = exact_solve(parse_circuit(_pwm(period))).periodic(OUT)
+    assert got.reason is None
+    assert got.minimum == pytest.approx(vmin, rel=1e-9)
+    assert got.maximum == pytest.approx(vmax, rel=1e-9)
+    assert got.ripple == pytest.approx(vmax - vmin, rel=1e-8)
+    assert got.average == pytest.approx(avg, rel=1e-9)
+    assert avg == pytest.approx(5.0 * 0.3, rel=1e-12)       # the filter passes the mean V·D
+
+
+@pytest.mark.parametrize("ratio, holds", [(0.01, True), (5.0, False)])
+def test_small_ripple_approximation_holds_only_for_short_periods(ratio, holds):
+    """V·D(1−D)·T/(RC) (common practice) is within 0.1 % of the exact ripple at T = RC/100;
+    at T = 5·RC it overstates it by more than 30 % (it even exceeds V)."""
+    got = exact_solve(parse_circuit(_pwm(f"{ratio * 100:g} us"))).periodic(OUT)
+    approx = 5.0 * 0.3 * 0.7 * ratio
+    error = abs(approx / got.ripple - 1)
+    assert (error < 1e-3) if holds else (error > 0.3)
+
+
+def test_rc_settle_count_is_the_first_order_count():
+    """From 0 V the deviation shrinks by e^(−T/τ) per period: it is within 1 % of the first
+    period's after ceil(ln 0.01 / (−T/τ)) periods."""
+    got = exact_solve(parse_circuit(_pwm("37 us"))).periodic(OUT, fraction=0.01)
+    want = math.ceil(math.log(0.01) / (-0.37))
+    assert got.settle_periods == want
+    assert got.settle_time == pytest.approx(want * 37e-6)
+
+
+def test_capacitor_current_averages_zero_and_resistor_current_too():
+    """In the steady state a capacitor's average current is 0 (charge balance), and here the
+    resistor carries the capacitor's current."""
+    solution = exact_solve(parse_circuit(_pwm("50 us")))
+    cap = solution.periodic(Probe("through", ("C1",)))
+    res = solution.periodic(Probe("through", ("R1",)))
+    assert abs(cap.average) < 1e-12 * cap.maximum
+    assert abs(res.average) < 1e-12 * res.maximum
+    assert cap.maximum == pytest.approx(res.maximum, rel=1e-9)
+
+
+# ----------------------------------------------------------------------------- charge pump
+def test_doubler_after_n_cycles_follows_the_geometric_series():
+    """No load, ideal switches: after cycle N, V_out = 2V·(1 − a^N), a = C_O/(C_F + C_O) = 0.8;
+    the steady state is 2V with no ripple and settles to 1 % of 2V after
+    ceil(ln 0.01 / ln 0.8) = 21 periods.  Both engines."""
+    circuit = parse_circuit(_doubler(count=6))
+    exact = exact_solve(circuit)
+    numeric = numeric_solve(circuit)
+    for n in range(1, 7):
+        k = 2 * n - 1                                  # the sharing event of cycle n
+        want = 10.0 * (1 - 0.8 ** n)
+        assert exact.features(OUT, k).after == pytest.approx(want, rel=1e-12)
+        assert numeric.features(OUT, k).after == pytest.approx(want, rel=1e-4)
+    for engine, rel in ((exact, 1e-12), (numeric, 1e-5)):
+        got = engine.periodic(OUT)
+        assert got.average == pytest.approx(10.0, rel=rel)
+        assert got.ripple == pytest.approx(0.0, abs=rel * 10)
+        assert got.settle_periods == math.ceil(math.log(0.01) / math.log(0.8))
+
+
+# ----------------------------------------------------------------------------- engines agree
+LOADED = _doubler(count=4, load='RL = { kind = "resistor", nodes = ["out", "gnd"], '
+                                 'value = "1k" }')
+RL_PWM = """
+title = "coil under pwm"
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "0 V", repeat = { period = "20 us", duty = "60 %", levels = ["12 V", "0 V"], count = 3 } }
+R1 = { kind = "resistor", nodes = ["in", "x"], value = "47" }
+L1 = { kind = "inductor", nodes = ["x", "gnd"], value = "1m" }
+R2 = { kind = "resistor", nodes = ["x", "gnd"], value = "220" }
+"""
+
+
+@pytest.mark.parametrize("text, probe", [
+    (_pwm("100 us", count=3), OUT),
+    (_pwm("100 us", count=3), Probe("through", ("C1",))),
+    (LOADED, OUT),
+    (LOADED, Probe("through", ("CF",))),
+    (RL_PWM, Probe("through", ("L1",))),
+], ids=["rc-out", "rc-cap-current", "pump-out", "pump-flying-current", "rl-coil-current"])
+def test_engines_agree_on_the_periodic_steady_state(text, probe):
+    """The closed form's exact steady state and the numerical engine's shooting agree within
+    the engine tolerance (1e-4 of the probe's size), settle counts exactly."""
+    circuit = parse_circuit(text)
+    exact, numeric = exact_solve(circuit).periodic(probe), numeric_solve(circuit).periodic(probe)
+    assert exact.reason is None and numeric.reason is None
+    size = max(abs(exact.minimum), abs(exact.maximum))
+    for name in ("minimum", "maximum", "average"):
+        assert getattr(numeric, name) == pytest.approx(getattr(exact, name), abs=1e-4 * size)
+    assert numeric.settle_periods == exact.settle_periods
+
+
+def test_steady_state_equals_the_numerical_engine_after_many_periods():
+    """The numerical engine's ordinary integration through 30 periods (T = RC: the deviation is
+    e^(−30) ~ 1e-13 of the start) reaches the closed form's steady state: before each on-edge
+    the minimum, before each off-edge the maximum."""
+    circuit = parse_circuit(_pwm("100 us", count=30))
+    pss = exact_solve(circuit).periodic(OUT)
+    numeric = numeric_solve(circuit)
+    k_on, k_off = 2 * 29, 2 * 29 + 1                    # the last period's two events
+    assert numeric.features(OUT, k_on).before == pytest.approx(pss.minimum, rel=1e-4)
+    assert numeric.features(OUT, k_off).before == pytest.approx(pss.maximum, rel=1e-4)
+
+
+def test_ramp_with_reset_switch_has_its_steady_state_in_both_engines():
+    """A 1 mA source ramps 1 µF for 0.98 ms (no DC path: an unbounded interval), a 10 Ω reset
+    switch pulls it towards I·R for 20 µs (2 τ).  Steady state by hand: v0 = I R + (v0 + I t/C
+    − I R)·e^(−2), so v0 = (I R (1 − e^(−2)) + e^(−2)·0.98 V)/(1 − e^(−2)), maximum v0 + 0.98 V."""
+    circuit = parse_circuit("""
+[parts]
+I1 = { kind = "current-source", nodes = ["gnd", "out"], value = "1 mA" }
+C1 = { kind = "capacitor", nodes = ["out", "gnd"], value = "1u", initial = "0 V" }
+S1 = { kind = "switch", nodes = ["out", "gnd"], state = "open", on-resistance = "10", repeat = { period = "1 ms", steps = [["0 s", "open"], ["0.98 ms", "closed"]], count = 3 } }
+""")
+    a = math.exp(-2)
+    v0 = (10e-3 * (1 - a) + a * 0.98) / (1 - a)
+    for engine, rel in ((exact_solve(circuit), 1e-9), (numeric_solve(circuit), 1e-5)):
+        got = engine.periodic(OUT)
+        assert got.minimum == pytest.approx(v0, rel=rel)
+        assert got.maximum == pytest.approx(v0 + 0.98, rel=rel)
+
+
+def test_trapped_charge_is_kept_from_the_start():
+    """Series capacitors under PWM: the middle node's charge C2·v_m − C1·(v_a − v_m) = −100 nC
+    (C1 starts at 1 V) never changes, so the steady-state average of v_m is
+    (C1·⟨v_a⟩ − 100 nC)/(C1 + C2) with ⟨v_a⟩ = 2.5 V: 150/147 V (charge conservation)."""
+    circuit = parse_circuit("""
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "0 V", repeat = { period = "100 us", duty = "50 %", levels = ["5 V", "0 V"], count = 3 } }
+R1 = { kind = "resistor", nodes = ["in", "a"], value = "1k" }
+C1 = { kind = "capacitor", nodes = ["a", "m"], value = "100n", initial = "1 V" }
+C2 = { kind = "capacitor", nodes = ["m", "gnd"], value = "47n", initial = "0 V" }
+""")
+    middle = Probe("node", ("m",))
+    for engine, rel in ((exact_solve(circuit), 1e-12), (numeric_solve(circuit), 1e-6)):
+        assert engine.periodic(middle).average == pytest.approx(150 / 147, rel=rel)
+
+
+# ----------------------------------------------------------------------------- no steady state
+def test_no_repeat_means_no_window():
+    circuit = parse_circuit("""
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "1 V" }
+R1 = { kind = "resistor", nodes = ["in", "out"], value = "1k" }
+C1 = { kind = "capacitor", nodes = ["out", "gnd"], value = "1u" }
+""")
+    assert circuit.periodic is None
+    assert exact_solve(circuit).periodic(OUT).reason == NO_WINDOW
+
+
+def test_charge_pumped_into_a_node_without_dc_path_grows():
+    """A current source charging a capacitor that nothing discharges has no steady state."""
+    circuit = parse_circuit("""
+[parts]
+I1 = { kind = "current-source", nodes = ["gnd", "out"], value = "0 A", repeat = { period = "1 ms", duty = "50 %", levels = ["1 mA", "0 A"], count = 3 } }
+C1 = { kind = "capacitor", nodes = ["out", "gnd"], value = "1u", initial = "0 V" }
+[settings]
+acknowledge = ["out"]
+""")
+    assert exact_solve(circuit).periodic(OUT).reason == GROWS
+    assert numeric_solve(circuit).periodic(OUT).reason == GROWS
