@@ -1,7 +1,9 @@
 """Sign-off over tolerances of every spec'd field of a circuit.
 
 Per expectation with ``spec`` limits: the nominal value; normalised sensitivities by a central
-difference (relative step ``STEP``, error O(STEP²)); Monte Carlo in chunks of ``CHUNK`` samples;
+difference (relative step ``STEP``, error O(STEP²)); Monte Carlo in chunks of ``stats.CHUNK``
+samples, each chunk from its own generator (``stats.stream``), so a run split over processes
+(``shard``) draws the same samples;
 the extremes over the box (``extremes.search``); root-sum-square bounds from the sensitivities
 (each quantity's deviation towards the side that raises, or lowers, the field); the numerical
 engine at each extreme corner; and the verdict.
@@ -23,7 +25,6 @@ from .result import HOLDS_STATISTICALLY, SpreadResult
 from .verify import numeric_at
 
 STEP = 1e-4
-CHUNK = 4096
 #: samples kept for the reports' CSV and histograms
 KEEP = 100_000
 
@@ -69,33 +70,49 @@ def rss_bounds(nominal: float, gradient: np.ndarray, low, high) -> tuple[float, 
             nominal + math.sqrt(float((up ** 2).sum())))
 
 
-def monte_carlo(fn, low, high, variation: m.Variation, fields: int):
-    """All samples' values (S, F) and the first ``KEEP`` deviations, drawn and evaluated in
-    chunks of ``CHUNK`` (a fixed seed: the same file gives the same samples)."""
-    rng = np.random.default_rng(variation.seed)
-    values = np.empty((variation.samples, fields))
-    kept = []
-    for start in range(0, variation.samples, CHUNK):
-        count = min(CHUNK, variation.samples - start)
-        dev = stats.deviations(rng, low, high, count, variation)
-        values[start:start + count] = fn(dev)
-        if start < KEEP:
-            kept.append(dev[:KEEP - start])
-    return values, np.vstack(kept) if kept else np.zeros((0, len(low)))
+def monte_carlo(fn, low, high, variation: m.Variation, fields: int,
+                given: np.ndarray | None = None):
+    """All samples' values (S, F) and the first ``KEEP`` deviations.  ``given``: the values
+    already evaluated elsewhere (``shard.values`` on a cluster), used when its shape is (S, F)."""
+    kept = stats.stream(low, high, variation, 0, min(KEEP, variation.samples))
+    if given is not None and given.shape == (variation.samples, fields):
+        return given, kept
+    return evaluate_range(fn, low, high, variation, 0, variation.samples, fields), kept
 
 
-def analyse_circuit(circuit: m.Circuit, numeric: bool = True) -> tuple[SpreadResult, ...]:
-    """Every spec'd field of every expectation of ``circuit``."""
+def evaluate_range(fn, low, high, variation: m.Variation, start: int, stop: int,
+                   fields: int) -> np.ndarray:
+    """The values (stop − start, F) of samples [start, stop) of the stream, evaluated one
+    chunk of ``stats.CHUNK`` at a time: the same arrays however a run is split."""
+    values = np.empty((stop - start, fields))
+    at = start
+    while at < stop:
+        end = min((at // stats.CHUNK + 1) * stats.CHUNK, stop)
+        values[at - start:end - start] = fn(stats.stream(low, high, variation, at, end))
+        at = end
+    return values
+
+
+def field_names(exp: m.Expectation) -> tuple[str, ...]:
+    """The spec'd fields of ``exp``, in ``model.SPEC_FIELDS`` order."""
+    return tuple(n for n in m.SPEC_FIELDS if n in exp.spec)
+
+
+def analyse_circuit(circuit: m.Circuit, numeric: bool = True,
+                    given: dict | None = None) -> tuple[SpreadResult, ...]:
+    """Every spec'd field of every expectation of ``circuit``.  ``given`` maps an
+    expectation's index to its Monte Carlo values evaluated elsewhere (``monte_carlo``)."""
     out = []
-    for exp in circuit.expectations:
+    for index, exp in enumerate(circuit.expectations):
         if exp.spec:
-            out += analyse_expectation(circuit, exp, numeric)
+            out += analyse_expectation(circuit, exp, numeric, (given or {}).get(index))
     return tuple(out)
 
 
-def analyse_expectation(circuit: m.Circuit, exp: m.Expectation, numeric: bool = True):
+def analyse_expectation(circuit: m.Circuit, exp: m.Expectation, numeric: bool = True,
+                        given: np.ndarray | None = None):
     """SpreadResults of the spec'd fields of one expectation."""
-    names = tuple(n for n in m.SPEC_FIELDS if n in exp.spec)
+    names = field_names(exp)
     quantities = varied(circuit, exp)
     fn, route = evaluator(circuit, exp, names, quantities)
     low, high = edges(quantities)
@@ -104,7 +121,7 @@ def analyse_expectation(circuit: m.Circuit, exp: m.Expectation, numeric: bool = 
     methods = circuit.variation.methods
     samples, kept = (None, None)
     if m.MONTE_CARLO in methods and quantities:
-        samples, kept = monte_carlo(fn, low, high, circuit.variation, len(names))
+        samples, kept = monte_carlo(fn, low, high, circuit.variation, len(names), given)
     found, how = search(fn, low, high, grads, kept, None if samples is None
                         else samples[:len(kept)]) if quantities else ([], "")
     results = []

@@ -1,4 +1,11 @@
-"""Statistics of the samples: yield with its Wilson interval, percentiles, random deviations."""
+"""Statistics of the samples: yield with its Wilson interval, percentiles, random deviations.
+
+The Monte Carlo samples of a run form one stream cut into chunks of ``CHUNK`` samples; chunk k
+is drawn from its own generator, seeded by the k-th child of ``SeedSequence(seed)`` (numpy's
+``SeedSequence.spawn``, "Parallel random number generation" in the numpy documentation).  A
+sample's deviations therefore depend only on the seed and its index, never on how a run is
+split over processes or machines (``stream``).
+"""
 
 from __future__ import annotations
 
@@ -11,6 +18,8 @@ from .. import model as m
 #: two-sided 95 % normal quantile
 Z95 = 1.959963984540054
 PERCENTILES = (0.135, 2.5, 50.0, 97.5, 99.865)
+#: samples per chunk of the Monte Carlo stream (fixed: it decides which generator draws a sample)
+CHUNK = 1024
 
 
 def wilson(passed: int, count: int, z: float = Z95) -> tuple[float, float]:
@@ -34,6 +43,27 @@ def deviations(rng: np.random.Generator, low: np.ndarray, high: np.ndarray, coun
         centre, sigma = (low + high) / 2, (high - low) / (2 * variation.sigmas)
         return rng.normal(centre, sigma, (count, len(low)))
     return rng.uniform(low, high, (count, len(low)))
+
+
+def chunk_generator(seed: int, k: int) -> np.random.Generator:
+    """The generator of chunk ``k`` of the stream of ``seed``: the one seeded by
+    ``SeedSequence(seed).spawn(k + 1)[k]``, made without spawning the k children before it."""
+    return np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(k,)))
+
+
+def stream(low: np.ndarray, high: np.ndarray, variation: m.Variation, start: int,
+           stop: int) -> np.ndarray:
+    """The deviations of samples [start, stop) of the run's stream, shape (stop − start, n):
+    sample s is row s mod ``CHUNK`` of chunk s // ``CHUNK``, each chunk (the last one holds
+    what remains of ``variation.samples``) drawn whole by ``deviations`` from its own
+    generator."""
+    parts = [np.zeros((0, len(low)))]
+    for k in range(start // CHUNK, -(-stop // CHUNK)):
+        first = k * CHUNK
+        count = min(CHUNK, variation.samples - first)
+        drawn = deviations(chunk_generator(variation.seed, k), low, high, count, variation)
+        parts.append(drawn[max(start - first, 0):stop - first])
+    return np.vstack(parts)
 
 
 def inside(values: np.ndarray, limits: m.Limits) -> np.ndarray:
