@@ -68,9 +68,11 @@ def _error_result(file: str, message: str, title: str = "",
                       warnings=warnings, input_warnings=warnings)
 
 
-def check_file(path: str, numeric: bool = True, tolerance: float | None = None) -> FileResult:
+def check_file(path: str, numeric: bool = True, tolerance: float | None = None,
+               samples: dict | None = None) -> FileResult:
     """Analyse one circuit file; never raises (faults become an ``error`` result).
-    ``tolerance`` is the default for a file whose ``[settings]`` give none."""
+    ``tolerance`` is the default for a file whose ``[settings]`` give none; ``samples`` maps an
+    expectation's index to its Monte Carlo summary computed elsewhere (``variation.shard``)."""
     from .circuitfile import read_circuit
 
     started = time.perf_counter()
@@ -80,7 +82,7 @@ def check_file(path: str, numeric: bool = True, tolerance: float | None = None) 
         return _error_result(path, str(err.located(file=path)))
     try:
         with native_output_silenced():
-            return _analyse(path, circuit, numeric, started)
+            return _analyse(path, circuit, numeric, started, samples)
     except InputError as err:
         return _error_result(path, str(err.located(file=path)), circuit.title, circuit.warnings)
     except SingularPencil:
@@ -108,7 +110,8 @@ def _singular_message(path: str, circuit) -> str:
         (f" (also {', '.join(odd[1:])})" if odd[1:] else "")
 
 
-def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
+def _analyse(path: str, circuit, numeric: bool, started: float,
+             samples: dict | None = None) -> FileResult:
     """Both engines, the trust guard, the cautions and the comparison of one read circuit."""
     from . import closedform
     from .compare import compare_file
@@ -128,7 +131,7 @@ def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
                           seconds=time.perf_counter() - started)
     if any(exp.spec for exp in circuit.expectations):
         from .variation.analyse import analyse_circuit
-        spreads = analyse_circuit(circuit, numeric)
+        spreads = analyse_circuit(circuit, numeric, samples)
         checks = tuple(replace(c, verdict=worst([c.verdict] + [
             s.verdict for s in spreads if s.check.startswith(f"expect #{c.index + 1}:")]))
             for c in result.checks)
@@ -273,9 +276,12 @@ def _done(bar: Progress, options: RunOptions) -> None:
         bar.close()
 
 
-def _check_task(path: str, numeric: bool, tolerance: float | None = None) -> FileResult:
+def _check_task(path: str, numeric: bool, tolerance: float | None = None,
+                samples: dict | None = None) -> FileResult:
     """What a worker runs: ``check_file`` looked up at call time (tests may replace it); the
-    tolerance is passed only when the project sets one."""
+    tolerance and precomputed samples are passed only when there are some."""
+    if samples:
+        return check_file(path, numeric, tolerance, samples)
     if tolerance is None:
         return check_file(path, numeric)
     return check_file(path, numeric, tolerance)
