@@ -289,3 +289,38 @@ def test_a_dominant_tau_no_faint_mode_explains_still_disagrees():
     assert "faintly observed" in weak_note(DominantTau(674.87 + 9.478e-4), numeric)
     assert _with_weak_modes(700.0, numeric) is None
     assert _with_weak_modes(674.87 + 9.478e-4, DominantTau(9.478e-4)) is None
+
+
+RC_LADDER = """
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "0 V", steps = [["1 ms", "1 V"]] }
+R1 = { kind = "resistor", nodes = ["in", "a"], value = "1k" }
+C1 = { kind = "capacitor", nodes = ["a", "gnd"], value = "100n" }
+R2 = { kind = "resistor", nodes = ["a", "b"], value = "10k" }
+C2 = { kind = "capacitor", nodes = ["b", "gnd"], value = "47n" }
+"""
+
+
+def test_the_order_band_is_tight_where_the_modes_are_clear():
+    # two RC sections: the output's transfer function 1/(R1C1R2C2 s^2 + (R1C1 + R2C2 + R1C2) s
+    # + 1) has two real poles (reference: scipy.signal.tf2zpk), both well above visibility
+    # after the step, so the numerical engine's order band is exactly 2 and a closed form
+    # reporting one mode is flagged (the band's lower end was 0 for almost every probe)
+    from dataclasses import replace
+    import numpy as np
+    from scipy import signal
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.compare import order_problem
+    from harness.simulate import solve
+    r1, c1, r2, c2 = 1e3, 100e-9, 10e3, 47e-9
+    _, poles, _ = signal.tf2zpk([1.0], [r1 * c1 * r2 * c2, r1 * c1 + r2 * c2 + r1 * c2, 1.0])
+    circuit = parse_circuit(RC_LADDER)
+    exact, numeric = closedform.solve(circuit), solve(circuit)
+    probe = Probe("node", ("b",))
+    fe, fn = exact.features(probe, 1), numeric.features(probe, 1)
+    assert sorted(fn.modes) == pytest.approx(sorted(-1.0 / np.real(poles)), rel=1e-9)
+    assert fn.order == 2 and fn.order_bounds == (2, 2)
+    ctx = CheckContext(circuit, exact, numeric, probe, 1)
+    assert order_problem(fe, fn, ctx) == ""
+    assert order_problem(replace(fe, order=1, modes=fe.modes[:1]), fn, ctx).startswith("order:")
