@@ -87,8 +87,9 @@ def test_the_generator_is_seeded_and_well_posed():
     assert {"switch", "vcvs", "inductor", "capacitor", "node", "between", "through"} <= kinds
 
 
-#: seeds that agreed after the fixes, run on every test run (a few seconds)
-FAST_SEEDS = (0, 1, 2, 4, 5, 6, 7, 8, 9, 10, 11, 12)
+#: a contiguous run of seeds, not a choice of the ones that pass: every seed must (the long
+#: run, ``python -m tests.benchmarks.agree``, covers 1,000); about 20 s on a quiet machine
+FAST_SEEDS = range(0, 30)
 
 
 @pytest.mark.parametrize("seed", FAST_SEEDS)
