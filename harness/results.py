@@ -282,6 +282,10 @@ class DominantTau:
         t50: the exact 50 % time (first crossing of the midpoint of x(t_k+) and x_inf), s after
             the event, or None.
         t50_estimate: tau * ln 2.
+        weak: time constants (s) of modes an engine sees in the probe too weakly to tell
+            whether they reach it (the numerical engine's modes between rounding and its
+            observation threshold); tau leaves them out, and tau plus any of them is as much
+            that engine's value.
     """
 
     tau: float | None
@@ -290,6 +294,7 @@ class DominantTau:
     deviation: float | None = None
     t50: float | None = None
     t50_estimate: float | None = None
+    weak: tuple[float, ...] = ()
 
     @property
     def t50_error(self) -> float | None:
