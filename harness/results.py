@@ -392,9 +392,9 @@ class Solution(Protocol):
         """Optional: why interval k's values are not reported, or None when they are (answered
         by the trust guard around an engine, ``harness.compare.trust``)."""
 
-    def node_voltages(self) -> list[float] | None:
-        """Optional: every node's voltage in V before, just after and at the end of each
-        interval (for the safety cautions), or None."""
+    def node_voltages(self) -> list[tuple[float, ...]] | None:
+        """Optional: per instant (before, just after and at the end of each interval), every
+        node's voltage in V there (for the safety cautions), or None."""
 
 
 class NotComputed:
@@ -416,9 +416,8 @@ class NotComputed:
     def withheld(self, k: int) -> str | None:
         return None
 
-    def node_voltages(self) -> list[float] | None:
-        """Every node's voltage in V before, just after and at the end of each interval (the
-        values ``features`` gives, in no particular order), or None when not computed."""
+    def node_voltages(self) -> list[tuple[float, ...]] | None:
+        """Per instant, every node's voltage in V there, or None when not computed."""
         return None
 
 

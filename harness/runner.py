@@ -203,7 +203,9 @@ CAUTION_BUDGET = 2000
 
 
 def _node_voltages(circuit, exact) -> list[float]:
-    """Every node's voltage before, just after and at the end of each interval (closed form).
+    """The largest voltage between any two nodes (ground included) before, just after and at
+    the end of each interval (closed form): max − min over the nodes at each instant, since
+    a person or a probe can touch any two (±40 V rails are 80 V apart).
 
     Catches what source values alone miss: an inductor's flyback, a controlled source's gain.
     Skipped past ``CAUTION_BUDGET`` evaluations.
@@ -211,7 +213,7 @@ def _node_voltages(circuit, exact) -> list[float]:
     nodes = [n for n in circuit.nodes if n != circuit.ground]
     if len(nodes) * len(circuit.events) > CAUTION_BUDGET:
         return []
-    return exact.node_voltages() or []
+    return [max(v + (0.0,)) - min(v + (0.0,)) for v in exact.node_voltages() or []]
 
 
 def run(paths: Iterable[str], options: RunOptions = RunOptions()) -> RunResult:
