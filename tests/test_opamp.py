@@ -173,3 +173,53 @@ def test_differentiator_without_series_resistance_is_not_a_pass(tmp_path):
                                      'value = "1u" }\n', '')
                     + '[[expect]]\nnode = "out"\nat = "0 s"\nafter = "0 V"\nfinal = "0 V"\n')
     assert main(["check", str(path), "--no-report"]) == 1
+
+
+@pytest.mark.parametrize("solve,rel", ENGINES)
+@pytest.mark.parametrize("gain", [100.0, 1e4])
+def test_finite_gain_integrator(solve, rel, gain):
+    """With v(out) = −A·v(x): KCL at x, (V − x)/R = C·(1 + A)·x' (sympy dsolve).  The output
+    leaks to −A·V with τ = R·C·(1 + A), and starts at the slope −V/(R·C·(1 + 1/A)): the
+    integrating time constant with the finite-gain correction R·C·(1 + 1/A) (common practice,
+    exact for this initial slope)."""
+    r, c, a = 1000, sp.Rational(1, 10**6), sp.nsimplify(gain)        # V = 1 V, exact
+    x = sp.Function("x")
+    vx = sp.dsolve(sp.Eq((1 - x(t)) / r, c * (1 + a) * x(t).diff(t)), x(t), ics={x(0): 0}).rhs
+    ref = -a * vx
+    assert sp.simplify(ref.diff(t).subs(t, 0) + 1 / (r * c * (1 + 1 / a))) == 0
+    parts = (LOWPASS.replace('R2 = { kind = "resistor", nodes = ["x", "out"], value = "2k" }\n',
+                             '')
+             .replace('control = ["gnd", "x"] }', f'control = ["gnd", "x"], gain = "{gain:g}" }}'))
+    circuit = _circuit(parts)
+    tau = float(r * c * (1 + a))
+    _check(solve, rel, circuit, _node("out"), ref, [1e-4, 0.1 * tau, tau, 3 * tau], gain)
+    assert solve(circuit).features(_node("out"), 0).tau == pytest.approx(tau, rel=1e-4)
+
+
+@pytest.mark.parametrize("solve,rel", ENGINES)
+def test_finite_gain_lowpass_time_constant(solve, rel):
+    """Active RC low-pass with v(out) = −A·v(x): τ exact from sympy's dsolve of KCL at x; its
+    first-order expansion in 1/A, R2·C·(1 − (R2/R1)/A), is within the second-order term."""
+    r1, r2, c, a = 1000, 2000, sp.Rational(1, 10**6), sp.Integer(200)
+    vo = sp.Function("vo")
+    x = -vo(t) / a
+    ode = sp.Eq((1 - x) / r1, (x - vo(t)) / r2 + c * (x - vo(t)).diff(t))
+    ref = sp.dsolve(ode, vo(t), ics={vo(0): 0}).rhs
+    rate = sp.simplify(-ref.diff(t, 2) / ref.diff(t))           # 1/τ of a single exponential
+    tau_exact = float(1 / rate)
+    tau_first = float(r2 * c * (1 - sp.Rational(r2, r1) / a))
+    noise = float((1 + sp.Rational(r2, r1)) / a)                 # the loop's noise gain / A
+    assert abs(tau_first - tau_exact) <= 2 * noise ** 2 * tau_exact
+    assert abs(tau_first - tau_exact) > 0.1 * noise ** 2 * tau_exact  # not exact: a real check
+    circuit = _circuit(LOWPASS.replace('control = ["gnd", "x"] }',
+                                       'control = ["gnd", "x"], gain = "200" }'))
+    _check(solve, rel, circuit, _node("out"), ref, [1e-4, 1e-3, 4e-3], 2.0)
+    assert solve(circuit).features(_node("out"), 0).tau == pytest.approx(tau_exact, rel=1e-4)
+
+
+def test_a_gain_of_zero_is_refused(tmp_path):
+    """A finite gain must be greater than zero (v(cp) − v(cn) = (v(p) − v(n))/A)."""
+    from harness.errors import InputError
+    with pytest.raises(InputError, match="gain"):
+        _circuit(LOWPASS.replace('control = ["gnd", "x"] }',
+                                 'control = ["gnd", "x"], gain = "0" }'))
