@@ -223,3 +223,21 @@ def test_a_gain_of_zero_is_refused(tmp_path):
     with pytest.raises(InputError, match="gain"):
         _circuit(LOWPASS.replace('control = ["gnd", "x"] }',
                                  'control = ["gnd", "x"], gain = "0" }'))
+
+
+@pytest.mark.parametrize("gain,want", [(None, "τ = R_th·C = C1·R2 = 2 ms"),
+                                       ("1000", "C1·(R2‖R1·(1 + U1)) = 1.996 ms")])
+def test_derive_writes_the_stage_time_constant(tmp_path, capsys, gain, want):
+    """``tauproof derive``: the nullor's low-pass τ = C1·R2; with a gain A the capacitor sees
+    R2 ‖ R1·(1 + A) (R1 across C1 multiplied by 1 + A: the Miller effect, common practice):
+    2k ‖ 1.001 MΩ · 1 µF = 1.996 ms, the exact τ of ``test_finite_gain_lowpass_time_constant``'s
+    sympy solution, R2·C·(1 + 1/A)/(1 + 1/A + R2/(A·R1))."""
+    from harness.cli import main
+    amp = LOWPASS if gain is None else LOWPASS.replace(
+        'control = ["gnd", "x"] }', f'control = ["gnd", "x"], gain = "{gain}" }}')
+    path = tmp_path / "lp.toml"
+    path.write_text('title = "lp"\n[parts]\nV1 = { kind = "voltage-source", nodes = ["in", '
+                    '"gnd"], value = "0 V", steps = [["0 s", "1 V"]] }\n' + amp
+                    + '[[expect]]\nnode = "out"\nfinal = "-2 V"\n')
+    main(["derive", str(path)])
+    assert want in capsys.readouterr().out
