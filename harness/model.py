@@ -28,6 +28,7 @@ VCVS = "vcvs"
 VCCS = "vccs"
 CCVS = "ccvs"
 CCCS = "cccs"
+OPAMP = "opamp"
 
 #: branch types of a part kind (``KindSpec.branch``): it fixes its voltage and carries any
 #: current; it fixes its current; it relates the two by a resistance; it stores charge (its
@@ -148,6 +149,11 @@ KIND_SPECS: Mapping[str, KindSpec] = MappingProxyType({spec.name: spec for spec 
     _controlled(CCCS, "current-controlled current source", "1",
                 "current-controlled current source: current gain · i(control part) from p "
                 "through itself to n", CURRENT_TYPE, SENSED_CURRENT),
+    KindSpec(OPAMP, "an ideal operational amplifier: output p, n; inputs cp (non-inverting) "
+             "and cn (inverting) held at v(cp) = v(cn), drawing no current; with `gain`, "
+             "v(p) − v(n) = gain · (v(cp) − v(cn))", "operational amplifier",
+             ("control", "gain", "value"), {"gain": "1", "value": "1"}, VOLTAGE_TYPE,
+             required=("control",), control=VOLTAGE_PAIR, positive=True),
 )})
 
 

@@ -31,14 +31,14 @@ def test_every_declared_kind_has_one_stamp(registry):
 
 def test_declarations_follow_the_usual_element_classes():
     """Voltage-type, current-type and controlled kinds, and the gain units (common practice)."""
-    assert m.VOLTAGE_BRANCHES == (m.VOLTAGE_SOURCE, m.VCVS, m.CCVS)
+    assert m.VOLTAGE_BRANCHES == (m.VOLTAGE_SOURCE, m.VCVS, m.CCVS, m.OPAMP)
     assert m.CURRENT_BRANCHES == (m.CURRENT_SOURCE, m.VCCS, m.CCCS)
     assert m.SOURCES == (m.VOLTAGE_SOURCE, m.CURRENT_SOURCE)
     assert m.STORAGE == (m.CAPACITOR, m.INDUCTOR)
-    assert m.VOLTAGE_CONTROLLED == (m.VCVS, m.VCCS)
+    assert m.VOLTAGE_CONTROLLED == (m.VCVS, m.VCCS, m.OPAMP)
     assert m.CURRENT_CONTROLLED == (m.CCVS, m.CCCS)
     gains = {kind: m.KIND_SPECS[kind].units["gain"] for kind in m.CONTROLLED}
-    assert gains == {m.VCVS: "1", m.VCCS: "S", m.CCVS: "ohm", m.CCCS: "1"}
+    assert gains == {m.VCVS: "1", m.VCCS: "S", m.CCVS: "ohm", m.CCCS: "1", m.OPAMP: "1"}
     for spec in m.KIND_SPECS.values():
         assert set(spec.required) <= set(spec.fields), spec.name
         assert set(spec.units) <= set(spec.fields), spec.name
@@ -94,11 +94,11 @@ def test_the_cycle_check_sees_a_cycle(tmp_path, monkeypatch):
                                       ["harness.loop.b", "harness.loop.a", "harness.loop.b"])
 
 
-#: an ideal operational amplifier as a declaration only (a nullor: the output fixes its voltage
+#: an operational amplifier with a gain-bandwidth field as a declaration only (a nullor: the output fixes its voltage
 #: and carries whatever current the circuit demands, the inputs sense a voltage pair; the
 #: open-loop gain and the gain-bandwidth product optional) — the shape the declarations must
 #: be able to express; no engine stamps it
-OPAMP = m.KindSpec("opamp", "an ideal operational amplifier", "operational amplifier",
+OPAMP = m.KindSpec("gbw-opamp", "an ideal operational amplifier", "operational amplifier",
                    ("control", "gain", "value", "gbw"), {"gain": "1", "value": "1", "gbw": "Hz"},
                    m.VOLTAGE_TYPE, required=("control",), control=m.VOLTAGE_PAIR,
                    field_help={"gbw": "gain-bandwidth product (default: no pole)"})
@@ -117,7 +117,7 @@ def test_reader_reads_a_newly_declared_kind(monkeypatch):
 title = "follower"
 [parts]
 V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "1 V" }
-U1 = { kind = "opamp", nodes = ["out", "gnd"], control = ["in", "out"], gbw = "1 MHz" }
+U1 = { kind = "gbw-opamp", nodes = ["out", "gnd"], control = ["in", "out"], gbw = "1 MHz" }
 RL = { kind = "resistor", nodes = ["out", "gnd"], value = "1k" }
 '''
     part = parse_circuit(text, "f.toml").part("U1")
@@ -137,12 +137,12 @@ def test_topology_and_reference_read_a_newly_declared_kind(monkeypatch):
 title = "output against a source"
 [parts]
 V1 = { kind = "voltage-source", nodes = ["out", "gnd"], value = "1 V" }
-U1 = { kind = "opamp", nodes = ["out", "gnd"], control = ["a", "gnd"] }
+U1 = { kind = "gbw-opamp", nodes = ["out", "gnd"], control = ["a", "gnd"] }
 R1 = { kind = "resistor", nodes = ["a", "gnd"], value = "1k" }
 '''
     with pytest.raises(TopologyError, match="V1 and U1 form a loop"):
         parse_circuit(text, "loop.toml")
     reference = format_reference()
-    assert "| `opamp` | an ideal operational amplifier | `control`, `gain`, `value`, `gbw` |" \
+    assert "| `gbw-opamp` | an ideal operational amplifier | `control`, `gain`, `value`, `gbw` |" \
         in reference
     assert "| `gbw` | gain-bandwidth product (default: no pole) |" in reference

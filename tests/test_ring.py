@@ -124,8 +124,8 @@ def test_the_numerical_engine_reports_its_own_order_and_modes_on_the_library():
     root = Path(__file__).resolve().parent.parent / "circuits" / "library"
     for path in sorted(root.rglob("*.toml")):
         result = check_file(str(path))
-        assert not any("order: the closed form sees" in m for c in result.checks
-                       for m in c.messages), path
+        assert not any(isinstance(m, str) and "order: the closed form sees" in m
+                       for c in result.checks for m in c.messages), path
 
 
 @pytest.mark.parametrize("r", [19.2, 19.6])

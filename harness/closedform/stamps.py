@@ -17,8 +17,8 @@ from typing import Callable, Mapping
 
 import numpy as np
 
-from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, RESISTOR, SWITCH, VCCS,
-                     VCVS, VOLTAGE_SOURCE, Circuit, Part)
+from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, OPAMP, RESISTOR, SWITCH,
+                     VCCS, VCVS, VOLTAGE_SOURCE, Circuit, Part)
 from .mna import GRAPH_MIN_PARTS, Layout, layout_positions, index_of, part_named, voltage_row
 
 
@@ -137,6 +137,15 @@ def _ccvs(st: Stamping, part: Part) -> None:
         - part.value * current_row(st.circuit, st.layout, part.control))
 
 
+def _opamp(st: Stamping, part: Part) -> None:
+    """The nullor: v(cp) − v(cn) = 0 on its branch row (its output current is the branch
+    variable, its output voltage free); with a gain A: v(cp) − v(cn) − (v(p) − v(n))/A = 0."""
+    row = voltage_row(st.layout, *part.control)
+    if part.value is not None:
+        row = row - voltage_row(st.layout, part.p, part.n) / part.value
+    st.g[st.layout.branch(part.name)] = row
+
+
 def _switch(st: Stamping, part: Part) -> None:
     """Open ideal: i = 0; open with off-resistance: v − R_off i = 0; closed ideal: v = 0;
     closed with on-resistance: v − R_on i = 0."""
@@ -180,6 +189,7 @@ STAMPS: Mapping[str, KindStamp] = {
     VCCS: KindStamp(_controlled_current, current=_vccs_current),
     CCVS: KindStamp(_ccvs, branch=True),
     CCCS: KindStamp(_controlled_current, current=_cccs_current),
+    OPAMP: KindStamp(_opamp, branch=True),
 }
 
 

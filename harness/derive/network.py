@@ -299,6 +299,19 @@ def _cccs(part: m.Part, iv: _Interval, st: _Stamps) -> None:
                 st.g[st.row[node], col] += sign * gain * coef
 
 
+def _opamp(part: m.Part, iv: _Interval, st: _Stamps) -> None:
+    """v_cp − v_cn = 0 (the nullor), or v_cp − v_cn − (v_p − v_n)/gain = 0, on the row of
+    its output current."""
+    k = st.branch_kcl(part)
+    terms = [(part.control[0], 1), (part.control[1], -1)]
+    if part.value is not None:
+        gain = iv.syms.part(part.name)
+        terms += [(part.p, -1 / gain), (part.n, 1 / gain)]
+    for node, coef in terms:
+        if st.row[node] is not None:
+            st.g[k, st.row[node]] += coef
+
+
 def _always(part: m.Part, time: float, pre: bool) -> bool:
     return True
 
@@ -328,4 +341,5 @@ STAMPS: dict[str, _KindStamp] = {
     m.VCCS: _KindStamp(_vccs),
     m.CCVS: _KindStamp(_ccvs, _always),
     m.CCCS: _KindStamp(_cccs),
+    m.OPAMP: _KindStamp(_opamp, _always),
 }

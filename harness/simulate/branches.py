@@ -18,8 +18,9 @@ from typing import Callable, Mapping
 import numpy as np
 
 from ..errors import InputError
-from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, KIND_SPECS, RESISTOR,
-                     SENSED_CURRENT, SWITCH, SWITCHED, VCCS, VCVS, VOLTAGE_SOURCE, Circuit, Part)
+from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, KIND_SPECS, OPAMP,
+                     RESISTOR, SENSED_CURRENT, SWITCH, SWITCHED, VCCS, VCVS, VOLTAGE_SOURCE,
+                     Circuit, Part)
 from .regularise import Regularisation
 
 
@@ -121,6 +122,16 @@ def _switch_current(part: Part, lay: Layout, drive: Drive) -> Affine:
     return Affine(difference(lay, part.p, part.n, 1.0 / r)) if r else Affine({})
 
 
+def _amplifier_error(part: Part, lay: Layout, drive: Drive) -> Affine:
+    """An operational amplifier's u = v(cn) − v(cp) (+ (v_p − v_n)/gain with a finite gain):
+    its output sinks u / r_s + i_p, so an input driven above the other sources current into
+    the output node, as a real amplifier with cp its non-inverting input does; u = 0 is the
+    ideal (nullor) constraint v(cp) = v(cn)."""
+    cp, cn = part.control
+    u = Affine(difference(lay, cn, cp))
+    return u if part.value is None else u.plus(_voltage(part, lay).scaled(1.0 / part.value))
+
+
 #: kind -> this engine's equations of it
 EQUATIONS: Mapping[str, KindEquations] = {
     RESISTOR: KindEquations(
@@ -143,6 +154,7 @@ EQUATIONS: Mapping[str, KindEquations] = {
     CCVS: KindEquations(ideal=lambda part, lay, drive: _voltage(part, lay).plus(
         drive.sensed.scaled(-part.value))),
     CCCS: KindEquations(current=lambda part, lay, drive: drive.sensed.scaled(part.value)),
+    OPAMP: KindEquations(ideal=_amplifier_error),
 }
 
 
