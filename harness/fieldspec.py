@@ -164,24 +164,25 @@ FIELD_SPECS: tuple[FieldSpec, ...] = (
               engine_relative=tol.RING_ENGINE_RELATIVE, floor=FRACTION, noise=False),
     FieldSpec("minimum", "minimum", PROBE_UNIT,
               "periodic steady state: the smallest value over a period of the repeating "
-              "window (between events)", source=OWN, noise=False, periodic=True,
+              "window (between events)", source=OWN, noise=False, periodic=True, spec=True,
               label="minimum over a period (periodic steady state)"),
     FieldSpec("maximum", "maximum", PROBE_UNIT,
               "periodic steady state: the largest value over a period", source=OWN,
-              noise=False, periodic=True, label="maximum over a period (periodic steady state)"),
+              noise=False, periodic=True, spec=True,
+              label="maximum over a period (periodic steady state)"),
     FieldSpec("average", "average", PROBE_UNIT,
               "periodic steady state: the average over a period, impulses at events included",
-              source=OWN, noise=False, periodic=True,
+              source=OWN, noise=False, periodic=True, spec=True,
               label="average over a period (periodic steady state)"),
     FieldSpec("ripple", "ripple", PROBE_UNIT,
               "periodic steady state: maximum − minimum over a period (peak-to-peak)",
-              sign=NONNEGATIVE, source=OWN, noise=False, periodic=True,
+              sign=NONNEGATIVE, source=OWN, noise=False, periodic=True, spec=True,
               label="ripple over a period (periodic steady state)"),
     FieldSpec("settle_periods", "settle-periods", "1",
               "periods from the window's first event until the probe stays within "
               "settle-within of its first period's deviation from the steady state",
               sign=NONNEGATIVE, source=OWN, floor=PERIODS, noise=False, periodic=True,
-              whole=True, label="periods to settle"),
+              whole=True, spec=True, label="periods to settle"),
 )
 
 #: field name -> its declaration
