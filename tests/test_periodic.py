@@ -380,3 +380,42 @@ def test_periodic_fields_are_labelled_in_the_reports():
                     'settle-periods = 10\n')
     assert field_label(fields["ripple"]) == "ripple over a period (periodic steady state)"
     assert field_label(fields["settle_periods"]) == "periods to settle (within 1 % of the start)"
+
+
+def test_spec_limits_of_the_ripple_over_a_resistor_spread():
+    """R1 = 10 kΩ ± 10 %: the ripple falls as τ grows, so its extremes are the sympy steady
+    state (above) at T/τ = 50/110 and 50/90; the settle count's at its corners too."""
+    from harness.variation import analyse
+    text = _pwm("50 us", count=4).replace('value = "10k"', 'value = "10k", spread = "10%"')
+    circuit = parse_circuit(text + """
+[variation]
+samples = 50
+seed = 3
+[[expect]]
+node = "out"
+ripple = "0.5 V"
+spec = { ripple = { max = "1.5 V" }, settle-periods = { max = 12 } }
+""")
+    spreads = {s.name: s for s in analyse.analyse_circuit(circuit, numeric=False)}
+    low, high = (_rc_pwm_reference(ratio, 0.3) for ratio in (50 / 110, 50 / 90))
+    assert spreads["ripple"].low == pytest.approx(low[1] - low[0], rel=1e-7)
+    assert spreads["ripple"].high == pytest.approx(high[1] - high[0], rel=1e-7)
+    counts = [math.ceil(math.log(0.01) / -ratio) for ratio in (50 / 110, 50 / 90)]
+    assert (spreads["settle_periods"].low, spreads["settle_periods"].high) == \
+        (min(counts), max(counts))
+
+
+@pytest.mark.parametrize("name", ["pwm-current-setpoint.toml", "gate-bias-doubler.toml"])
+def test_periodic_library_circuits_pass_their_steady_state_fields(name):
+    """The bundled periodic-drive circuits (hand values from the two-exponential steady state,
+    the small-ripple estimate and the charge-sharing recursion in each file's comments) pass
+    every periodic field, both engines computing it."""
+    from pathlib import Path
+    from harness.runner import check_file
+    path = Path(__file__).resolve().parents[1] / "circuits" / "library" / "periodic" / name
+    result = check_file(str(path))
+    periodic = [f for c in result.checks for f in c.fields
+                if f.name in ("minimum", "maximum", "average", "ripple", "settle_periods")]
+    assert result.verdict == "pass"
+    assert len(periodic) >= 6
+    assert all(f.verdict == "pass" and f.numeric is not None for f in periodic), periodic
