@@ -849,10 +849,10 @@ def test_guarded_node_voltages_withhold_what_the_guarded_features_withhold():
     """Equations 1e-13 from singular (a vcvs at a gain of 1 + 1e-13): the guard's node voltages
     are the per-node guarded features' values (after and final withheld), not the raw ones."""
     from harness.circuitfile import parse_circuit
-    from harness.closedform.conditioning import Guarded, assess, guard
+    from harness.compare.trust import Guarded, guard
     from tests.test_reliability_illposed import NEAR_SINGULAR
     sol = closedform.solve(parse_circuit(NEAR_SINGULAR))
-    guarded = guard(sol, assess(sol))
+    guarded = guard(sol, sol.conditioning())
     assert isinstance(guarded, Guarded)
     assert sorted(guarded.node_voltages()) == _node_voltages_one_by_one(guarded)
     assert max(map(abs, guarded.node_voltages())) < max(map(abs, sol.node_voltages()))
