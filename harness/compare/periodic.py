@@ -30,6 +30,11 @@ from .message import engine_message
 _WORDS = {"minimum": "the steady-state minimum", "maximum": "the steady-state maximum",
           "average": "the steady-state average", "ripple": "the steady-state ripple",
           "settle_periods": "the periods to settle"}
+#: the field's value in a ``PeriodicValue`` (named, not looked up by attribute name: the
+#: comparator asks the contract directly)
+_FIELDS = {"minimum": lambda v: v.minimum, "maximum": lambda v: v.maximum,
+           "average": lambda v: v.average, "ripple": lambda v: v.ripple,
+           "settle_periods": lambda v: v.settle_periods}
 
 
 def _periodic(solution, exp: Expectation) -> PeriodicValue | None:
@@ -45,7 +50,7 @@ def _value(result: PeriodicValue | None, name: str) -> float | None:
     """The field ``name`` of a ``PeriodicValue`` (None where it gives none)."""
     if result is None or result.reason is not None:
         return None
-    value = getattr(result, name)
+    value = _FIELDS[name](result)
     return None if value is None else float(value)
 
 
