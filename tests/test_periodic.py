@@ -419,3 +419,32 @@ def test_periodic_library_circuits_pass_their_steady_state_fields(name):
     assert result.verdict == "pass"
     assert len(periodic) >= 6
     assert all(f.verdict == "pass" and f.numeric is not None for f in periodic), periodic
+
+
+def test_plot_shows_the_last_periods_beside_the_hand_ripple():
+    """A check with periodic fields gets a second panel: the last three periods of the window
+    in both engines, the steady state's extremes and the hand ripple about the hand average
+    (the legend and the panel's y-range are in the PNG's text chunk)."""
+    import io
+    import json
+    from PIL import Image
+    from harness.report.plots import plot_check
+    from harness.compare import compare_file
+    vmin, vmax, avg = _rc_pwm_reference(0.5, 0.3)
+    circuit = parse_circuit(_pwm("50 us", count=30) + f"""
+[[expect]]
+node = "out"
+average = "{avg:.6f} V"
+ripple = "{vmax - vmin:.6f} V"
+""")
+    check = compare_file(circuit, exact_solve(circuit), numeric_solve(circuit)).checks[0]
+    trace = check.trace
+    assert trace.periods_t[0] >= 30 * 50e-6 - 3 * 50e-6 and trace.periods_t[-1] <= 30 * 50e-6
+    assert abs(trace.periods_closed.min() - vmin) < 1e-3 * vmax      # settled after 27 periods
+    assert abs(trace.periods_closed.max() - vmax) < 1e-3 * vmax
+    with Image.open(io.BytesIO(plot_check(check))) as image:
+        facts = json.loads(image.text["tauproof"])
+    assert {"steady-state minimum", "steady-state maximum"} <= set(facts["legend"])
+    assert any(label.startswith("hand ripple") for label in facts["legend"])
+    low, high = facts["ylims"][1]
+    assert low <= vmin and high >= vmax
