@@ -7,14 +7,22 @@ each) for the run and stops it afterwards.  Each task is ``runner.check_file`` o
 the workers read the file themselves, so the file must be reachable at the same path on every
 worker (a relative path is read from the worker's working folder).
 
+A file whose Monte Carlo spans more than one piece (``variation.shard.plan``, read on the
+client) also gets a task per piece (``_piece``: samples [start, stop) of one expectation); its
+own task waits for them and is handed their streamed summaries (``_joined``), so one heavy file
+spreads over the workers.  The samples do not depend on the split and a local run merges the
+same pieces in the same order (``variation.sampling``): the result is the bytes of a local run.
+
 Faults, as in a local run:
 
-* a worker that dies while analysing a file: the scheduler gives the file to another worker, up
-  to its ``allowed-failures`` bound (``LOCAL_ALLOWED_FAILURES`` for ``local:N``); past it the
-  file is an ``error`` naming the cause and the other files go on;
-* ``timeout``: files are handed out no faster than the cluster has threads, so a file's clock
-  starts when it is handed out; a file over the limit is cancelled (its worker restarted when it
-  has one thread) and becomes "timed out after N s";
+* a worker that dies while analysing a file (or a piece of it): the scheduler gives the task to
+  another worker, up to its ``allowed-failures`` bound (``LOCAL_ALLOWED_FAILURES`` for
+  ``local:N``); past it the file is run once more alone, whole (``_second_chance``), and if it
+  fails again it is an ``error`` naming the cause; the other files go on;
+* ``timeout``: tasks are handed out no faster than the cluster has threads (a file with pieces
+  counts each), so a file's clock starts when it is handed out; a file over the limit is
+  cancelled with its pieces (a worker running one restarted when it has one thread) and becomes
+  "timed out after N s";
 * SIGINT (``KeyboardInterrupt``) or SIGTERM (``pool.Interrupted``): every future is cancelled and
   ``runner.RunInterrupted`` carries the results that finished;
 * a scheduler that does not answer within ``CONNECT_TIMEOUT`` s: ``ClusterUnreachable``.
@@ -27,12 +35,13 @@ from __future__ import annotations
 import contextlib
 import logging
 import time
+from dataclasses import dataclass, field
 from typing import Callable, Iterable
 
 from .outcome import FileResult, RunResult
 from .pool import Interrupted
 from .runner import (RunInterrupted, RunOptions, _bar, _check_task, _done, _error_result,
-                     _preload, collect)
+                     _preload, collect, native_output_silenced)
 
 #: seconds to wait for a scheduler before giving up on it
 CONNECT_TIMEOUT = 5.0
@@ -132,65 +141,182 @@ def _connect(address: str, numeric: bool):
             cluster.close()
 
 
-def _ignore_interrupts(worker=None) -> None:
-    """SIGINT is ignored in this worker process: Ctrl-C at a terminal reaches the whole process
-    group, local workers included; the client decides (cancels and stops the cluster)."""
+def _local_worker_setup(worker=None) -> None:
+    """In a worker process of a ``local:N`` cluster: SIGINT is ignored (Ctrl-C at a terminal
+    reaches the whole process group, local workers included; the client decides: it cancels and
+    stops the cluster), and the process dies with its parent, the client (``pool.die_with_parent``):
+    a worker busy in a task could outlive an interrupted client, holding its output pipes."""
+    import os
     import signal
+    from .pool import die_with_parent
     with contextlib.suppress(ValueError):  # not the main thread: nothing to do
         signal.signal(signal.SIGINT, signal.SIG_IGN)
+    die_with_parent(os.getppid())
 
 
 def _workers_ignore_interrupts(client) -> None:
-    """Every worker of a ``local:N`` cluster ignores SIGINT, also one restarted later (a worker
-    plugin is run on each worker as it joins)."""
+    """Every worker of a ``local:N`` cluster is set up by ``_local_worker_setup``, also one
+    restarted later (a worker plugin is run on each worker as it joins)."""
     from distributed import WorkerPlugin
 
-    class IgnoreInterrupts(WorkerPlugin):
+    class LocalWorker(WorkerPlugin):
         def setup(self, worker) -> None:
-            _ignore_interrupts(worker)
+            _local_worker_setup(worker)
 
-    client.register_plugin(IgnoreInterrupts(), name="tauproof-ignore-sigint")
+    client.register_plugin(LocalWorker(), name="tauproof-local-worker")
 
 
 def _gather(client, files: list[str], options: RunOptions, missing: list[FileResult],
             work: Callable) -> list[FileResult]:
     """Submit the files, collect their results as they finish (progress, deadlines)."""
-    from distributed import as_completed
-
-    bar = _bar(files, options)
-    limit = options.timeout
-    window = max(1, sum(client.nthreads().values())) if limit else len(files)
-    done: dict[int, FileResult] = {}
-    running: dict = {}  # future -> (index, deadline)
-    pending = list(range(len(files)))
-    finished = as_completed()
+    run = _Run(client, files, options, work)
     try:
-        while len(done) < len(files):
-            while pending and len(running) < window:
-                i = pending.pop(0)
-                future = client.submit(work, files[i], options.numeric, options.tolerance,
-                                       pure=False)
-                running[future] = (i, time.monotonic() + limit if limit else float("inf"))
-                finished.add(future)
-            batch = finished.next_batch(block=False)
-            for future in batch:
-                if future not in running:  # cancelled on its deadline, already recorded
-                    continue
-                i, _ = running.pop(future)
-                done[i] = _outcome(future, files[i])
-                bar.step()
-            if not batch:
-                _expire(client, running, done, files, limit, bar)
+        while len(run.done) < len(files):
+            run.hand_out()
+            if not run.collect():
+                run.expire()
                 time.sleep(_POLL)
-        _second_chance(client, files, done, options, work)
+        _second_chance(client, files, run.done, options, work)
     except (KeyboardInterrupt, Interrupted) as stop:
-        client.cancel(list(running), force=True)
+        client.cancel(run.futures(list(run.running)), force=True)
         signum = getattr(stop, "signum", 2)
         raise RunInterrupted(signum, RunResult(tuple(missing) + tuple(
-            done[i] for i in sorted(done))), len(files)) from None
+            run.done[i] for i in sorted(run.done))), len(files)) from None
     finally:
-        _done(bar, options)
-    return [done[i] for i in range(len(files))]
+        _done(run.bar, options)
+    return [run.done[i] for i in range(len(files))]
+
+
+@dataclass
+class _Task:
+    """A file handed to the cluster: its index, its deadline (``time.monotonic``), and the
+    futures of its Monte Carlo pieces that its own task waits for."""
+
+    index: int
+    deadline: float
+    pieces: list = field(default_factory=list)
+
+
+class _Run:
+    """The state of one run on the cluster: files waiting, files running, results."""
+
+    def __init__(self, client, files: list[str], options: RunOptions, work: Callable) -> None:
+        from distributed import as_completed
+        self.client, self.files, self.options, self.work = client, files, options, work
+        self.bar = _bar(files, options)
+        self.limit = options.timeout
+        # with a limit, tasks are handed out no faster than the cluster has threads
+        self.window = max(1, sum(client.nthreads().values())) if self.limit else None
+        self.done: dict[int, FileResult] = {}
+        self.running: dict = {}              # the file's future -> _Task
+        self.pending = list(range(len(files)))
+        self.plans: dict[int, dict] = {}
+        self.finished = as_completed()
+
+    def hand_out(self) -> None:
+        """Submit waiting files while the window allows (a file counts its pieces too; one
+        file is always let through when nothing runs)."""
+        load = sum(1 + len(t.pieces) for t in self.running.values())
+        while self.pending:
+            i = self.pending[0]
+            plan = self.plans.setdefault(i, _plan(self.files[i], self.options.tolerance))
+            cost = 1 + sum(len(ranges) for ranges in plan.values())
+            if self.window is not None and self.running and load + cost > self.window:
+                return
+            self.pending.pop(0)
+            future, pieces = self._submit(self.files[i], plan)
+            deadline = time.monotonic() + self.limit if self.limit else float("inf")
+            self.running[future] = _Task(i, deadline, pieces)
+            self.finished.add(future)
+            load += cost
+
+    def _submit(self, path: str, plan: dict):
+        """The file's task, after the tasks of its Monte Carlo pieces when it has some (both
+        ahead of plain files, so a heavy file starts early)."""
+        opts = self.options
+        if not plan:
+            return self.client.submit(self.work, path, opts.numeric, opts.tolerance,
+                                      pure=False), []
+        given = {index: [self.client.submit(_piece, path, opts.tolerance, index, a, b,
+                                            pure=False, priority=1) for a, b in ranges]
+                 for index, ranges in plan.items()}
+        future = self.client.submit(_joined, self.work, path, opts.numeric, opts.tolerance,
+                                    given, pure=False, priority=1)
+        return future, [f for futures in given.values() for f in futures]
+
+    def collect(self) -> bool:
+        """Record the files that finished; False when none had."""
+        batch = self.finished.next_batch(block=False)
+        for future in batch:
+            task = self.running.pop(future, None)
+            if task is None:          # cancelled on its deadline, already recorded
+                continue
+            self.done[task.index] = _outcome(future, self.files[task.index])
+            self.bar.step()
+        return bool(batch)
+
+    def futures(self, files: list) -> list:
+        """These files' futures with those of their pieces."""
+        return files + [p for f in files for p in self.running[f].pieces]
+
+    def expire(self) -> None:
+        """Cancel the files past their deadline (pieces too); each becomes "timed out after
+        N s".  A worker with one thread that was running one is restarted (a thread cannot be
+        stopped)."""
+        if not self.limit:
+            return
+        now = time.monotonic()
+        late = [f for f, task in self.running.items() if now >= task.deadline]
+        if not late:
+            return
+        held = self.futures(late)
+        keys = {f.key for f in held}
+        threads = self.client.nthreads()
+        stuck = [w for w, busy in self.client.processing().items()
+                 if keys & set(busy) and threads.get(w, 0) == 1]
+        self.client.cancel(held, force=True)
+        for future in late:
+            i = self.running.pop(future).index
+            self.done[i] = _error_result(self.files[i], f"{self.files[i]}: timed out after "
+                                                        f"{self.limit:g} s (the --timeout "
+                                                        f"limit); the analysis was stopped")
+            self.bar.step()
+        if stuck:
+            with contextlib.suppress(Exception):  # best effort: the result is already recorded
+                self.client.restart_workers(stuck, raise_for_error=False)
+
+
+def _plan(path: str, tolerance: float | None) -> dict:
+    """The file's Monte Carlo pieces (``variation.shard.plan``), read here on the client; none
+    for a file without spec limits, or one that cannot be read here (its task says why)."""
+    try:
+        with open(path, "rb") as handle:
+            if b"spec" not in handle.read():
+                return {}
+        from .circuitfile import read_circuit
+        from .variation import shard
+        return shard.plan(read_circuit(path, tolerance))
+    except Exception:  # planning only spreads the work; the file's own task reports faults
+        return {}
+
+
+def _piece(path: str, tolerance: float | None, index: int, start: int, stop: int):
+    """A worker's task: the streamed summary of samples [start, stop) of expectation ``index``
+    of the file (``variation.shard.summary``, a ``sampling.Accumulator``)."""
+    from .circuitfile import read_circuit
+    from .variation import shard
+    circuit = read_circuit(path, tolerance)
+    with native_output_silenced():
+        return shard.summary(circuit, index, start, stop)
+
+
+def _joined(work: Callable, path: str, numeric: bool, tolerance: float | None, given: dict):
+    """A worker's task: the file's analysis with its Monte Carlo taken from its pieces
+    (``given``: expectation index -> the pieces' summaries in order, Dask having put each
+    piece's result in place of its future)."""
+    from .variation import shard
+    samples = {index: shard.merged(list(parts)) for index, parts in given.items()}
+    return work(path, numeric, tolerance, samples=samples)
 
 
 def _second_chance(client, files: list[str], done: dict, options: RunOptions,
@@ -227,29 +353,3 @@ def _outcome(future, file: str) -> FileResult:
                                    f"each time the cluster tried it ({err}); the file's result "
                                    f"is lost (the other files are not affected)")
     return _error_result(file, f"{file}: {_LOST}: {type(err).__name__}: {err}")
-
-
-def _expire(client, running: dict, done: dict, files: list[str], limit: float | None,
-            bar) -> None:
-    """Cancel the futures past their deadline; each becomes "timed out after N s".  A worker
-    with one thread that was running one is restarted (a thread cannot be stopped)."""
-    if not limit:
-        return
-    now = time.monotonic()
-    late = [f for f, (_, deadline) in running.items() if now >= deadline]
-    if not late:
-        return
-    processing = client.processing()
-    keys = {f.key for f in late}
-    threads = client.nthreads()
-    stuck = [w for w, held in processing.items()
-             if keys & set(held) and threads.get(w, 0) == 1]
-    client.cancel(late, force=True)
-    for future in late:
-        i, _ = running.pop(future)
-        done[i] = _error_result(files[i], f"{files[i]}: timed out after {limit:g} s (the "
-                                          f"--timeout limit); the analysis was stopped")
-        bar.step()
-    if stuck:
-        with contextlib.suppress(Exception):  # best effort: the result is already recorded
-            client.restart_workers(stuck, raise_for_error=False)

@@ -282,6 +282,10 @@ class DominantTau:
         t50: the exact 50 % time (first crossing of the midpoint of x(t_k+) and x_inf), s after
             the event, or None.
         t50_estimate: tau * ln 2.
+        weak: time constants (s) of modes an engine sees in the probe too weakly to tell
+            whether they reach it (the numerical engine's modes between rounding and its
+            observation threshold); tau leaves them out, and tau plus any of them is as much
+            that engine's value.
     """
 
     tau: float | None
@@ -290,6 +294,7 @@ class DominantTau:
     deviation: float | None = None
     t50: float | None = None
     t50_estimate: float | None = None
+    weak: tuple[float, ...] = ()
 
     @property
     def t50_error(self) -> float | None:
@@ -387,9 +392,9 @@ class Solution(Protocol):
         """Optional: why interval k's values are not reported, or None when they are (answered
         by the trust guard around an engine, ``harness.compare.trust``)."""
 
-    def node_voltages(self) -> list[float] | None:
-        """Optional: every node's voltage in V before, just after and at the end of each
-        interval (for the safety cautions), or None."""
+    def node_voltages(self) -> list[tuple[float, ...]] | None:
+        """Optional: per instant (before, just after and at the end of each interval), every
+        node's voltage in V there (for the safety cautions), or None."""
 
 
 class NotComputed:
@@ -411,9 +416,8 @@ class NotComputed:
     def withheld(self, k: int) -> str | None:
         return None
 
-    def node_voltages(self) -> list[float] | None:
-        """Every node's voltage in V before, just after and at the end of each interval (the
-        values ``features`` gives, in no particular order), or None when not computed."""
+    def node_voltages(self) -> list[tuple[float, ...]] | None:
+        """Per instant, every node's voltage in V there, or None when not computed."""
         return None
 
 

@@ -68,9 +68,11 @@ def _error_result(file: str, message: str, title: str = "",
                       warnings=warnings, input_warnings=warnings)
 
 
-def check_file(path: str, numeric: bool = True, tolerance: float | None = None) -> FileResult:
+def check_file(path: str, numeric: bool = True, tolerance: float | None = None,
+               samples: dict | None = None) -> FileResult:
     """Analyse one circuit file; never raises (faults become an ``error`` result).
-    ``tolerance`` is the default for a file whose ``[settings]`` give none."""
+    ``tolerance`` is the default for a file whose ``[settings]`` give none; ``samples`` maps an
+    expectation's index to its Monte Carlo summary computed elsewhere (``variation.shard``)."""
     from .circuitfile import read_circuit
 
     started = time.perf_counter()
@@ -80,7 +82,7 @@ def check_file(path: str, numeric: bool = True, tolerance: float | None = None) 
         return _error_result(path, str(err.located(file=path)))
     try:
         with native_output_silenced():
-            return _analyse(path, circuit, numeric, started)
+            return _analyse(path, circuit, numeric, started, samples)
     except InputError as err:
         return _error_result(path, str(err.located(file=path)), circuit.title, circuit.warnings)
     except SingularPencil:
@@ -108,7 +110,8 @@ def _singular_message(path: str, circuit) -> str:
         (f" (also {', '.join(odd[1:])})" if odd[1:] else "")
 
 
-def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
+def _analyse(path: str, circuit, numeric: bool, started: float,
+             samples: dict | None = None) -> FileResult:
     """Both engines, the trust guard, the cautions and the comparison of one read circuit."""
     from . import closedform
     from .compare import compare_file
@@ -128,7 +131,7 @@ def _analyse(path: str, circuit, numeric: bool, started: float) -> FileResult:
                           seconds=time.perf_counter() - started)
     if any(exp.spec for exp in circuit.expectations):
         from .variation.analyse import analyse_circuit
-        spreads = analyse_circuit(circuit, numeric)
+        spreads = analyse_circuit(circuit, numeric, samples)
         checks = tuple(replace(c, verdict=worst([c.verdict] + [
             s.verdict for s in spreads if s.check.startswith(f"expect #{c.index + 1}:")]))
             for c in result.checks)
@@ -200,7 +203,9 @@ CAUTION_BUDGET = 2000
 
 
 def _node_voltages(circuit, exact) -> list[float]:
-    """Every node's voltage before, just after and at the end of each interval (closed form).
+    """The largest voltage between any two nodes (ground included) before, just after and at
+    the end of each interval (closed form): max − min over the nodes at each instant, since
+    a person or a probe can touch any two (±40 V rails are 80 V apart).
 
     Catches what source values alone miss: an inductor's flyback, a controlled source's gain.
     Skipped past ``CAUTION_BUDGET`` evaluations.
@@ -208,7 +213,7 @@ def _node_voltages(circuit, exact) -> list[float]:
     nodes = [n for n in circuit.nodes if n != circuit.ground]
     if len(nodes) * len(circuit.events) > CAUTION_BUDGET:
         return []
-    return exact.node_voltages() or []
+    return [max(v + (0.0,)) - min(v + (0.0,)) for v in exact.node_voltages() or []]
 
 
 def run(paths: Iterable[str], options: RunOptions = RunOptions()) -> RunResult:
@@ -273,9 +278,12 @@ def _done(bar: Progress, options: RunOptions) -> None:
         bar.close()
 
 
-def _check_task(path: str, numeric: bool, tolerance: float | None = None) -> FileResult:
+def _check_task(path: str, numeric: bool, tolerance: float | None = None,
+                samples: dict | None = None) -> FileResult:
     """What a worker runs: ``check_file`` looked up at call time (tests may replace it); the
-    tolerance is passed only when the project sets one."""
+    tolerance and precomputed samples are passed only when there are some."""
+    if samples:
+        return check_file(path, numeric, tolerance, samples)
     if tolerance is None:
         return check_file(path, numeric)
     return check_file(path, numeric, tolerance)

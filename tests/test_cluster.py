@@ -1,7 +1,7 @@
 """Files analysed on a Dask cluster (``--cluster``): a local cluster of worker processes gives the
-same results as a local run, a dying worker loses only its file, a file over ``--timeout`` is
-stopped, an unreachable scheduler is exit 2 within a bounded wait, and the single-machine
-command never imports Dask."""
+same results as a local run (a heavy Monte Carlo spread over the workers in pieces too), a dying
+worker loses only its file, a file over ``--timeout`` is stopped, an unreachable scheduler is
+exit 2 within a bounded wait, and the single-machine command never imports Dask."""
 
 from __future__ import annotations
 
@@ -17,8 +17,11 @@ import pytest
 pytest.importorskip("distributed")
 
 from harness import cluster  # noqa: E402
+from harness.circuitfile import read_circuit  # noqa: E402
 from harness.cli import main  # noqa: E402
+from harness.report.jsonout import document  # noqa: E402
 from harness.runner import RunOptions  # noqa: E402
+from harness.variation import shard  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 LIBRARY = ROOT / "circuits" / "library"
@@ -47,6 +50,58 @@ def test_the_library_on_a_local_cluster_gives_the_results_of_one_job(capsys):
     assert code_one == code_two == 0
     assert len(two["files"]) == len(list(LIBRARY.rglob("*.toml")))
     assert _without_timings(two) == _without_timings(one)
+
+
+#: the library's reset-delay tolerance file with 600,000 samples: its Monte Carlo is three
+#: pieces (samples [0, 262144), [262144, 524288), [524288, 600000))
+HEAVY_SAMPLES = 600_000
+
+
+def _heavy(folder: Path) -> Path:
+    text = (LIBRARY / "tolerance" / "reset-delay-spread.toml").read_text(encoding="utf-8")
+    path = folder / "reset-heavy.toml"
+    path.write_text(text.replace("samples = 10000", f"samples = {HEAVY_SAMPLES}"),
+                    encoding="utf-8")
+    assert [len(r) for r in shard.plan(read_circuit(str(path))).values()] == [3]
+    shutil.copy(LIBRARY / "tolerance" / "precharge-spread.toml", folder)  # one not split
+    return path
+
+
+def test_a_heavy_monte_carlo_in_pieces_gives_the_results_of_one_job(tmp_path, capsys):
+    """The pieces' samples come from the chunked stream, so results.json is the same bytes."""
+    _heavy(tmp_path)
+    common = ["check", str(tmp_path), "--no-report", "--json"]
+    code_one, one = _json(capsys, common + ["--jobs", "1"])
+    code_two, two = _json(capsys, common + ["--cluster", "local:2"])
+    assert code_one == code_two == 0
+    assert one["files"][1]["spec"][0]["monte_carlo"]["count"] == HEAVY_SAMPLES
+    assert _without_timings(two) == _without_timings(one)
+
+
+def test_a_worker_dying_on_a_piece_costs_the_file_nothing(tmp_path, monkeypatch, capsys):
+    """A piece that kills its worker every time: past the scheduler's bound the file is run
+    again whole, alone, and its result is that of a local run."""
+    _heavy(tmp_path)
+    code, one = _json(capsys, ["check", str(tmp_path), "--no-report", "--json", "--jobs", "1"])
+    marks = tmp_path / "marks"
+    marks.mkdir()
+
+    def dying_piece(path, tolerance, index, start, stop):  # shipped by value
+        import os
+        from pathlib import Path as P
+        from harness.circuitfile import read_circuit as read
+        from harness.variation import shard as pieces
+        (P(marks) / f"{start}-{os.getpid()}").touch()
+        if start == 262144:
+            os._exit(3)
+        return pieces.summary(read(path, tolerance), index, start, stop)
+
+    monkeypatch.setattr(cluster, "_piece", dying_piece)
+    result = cluster.run([str(tmp_path)], RunOptions(), "local:2")
+    tried = sorted(p.name.split("-")[0] for p in marks.iterdir())
+    assert tried.count("262144") == cluster.LOCAL_ALLOWED_FAILURES + 1, tried
+    assert "0" in tried and "524288" in tried
+    assert _without_timings(document(result)) == _without_timings(one)
 
 
 def _few_files(tmp_path: Path, odd: str) -> list[str]:

@@ -88,8 +88,9 @@ def test_the_generator_is_seeded_and_well_posed():
     assert {"switch", "vcvs", "inductor", "capacitor", "node", "between", "through"} <= kinds
 
 
-#: seeds that agreed after the fixes, run on every test run (a few seconds)
-FAST_SEEDS = (0, 1, 2, 4, 5, 6, 7, 8, 9, 10, 11, 12)
+#: a contiguous run of seeds, not a choice of the ones that pass: every seed must (the long
+#: run, ``python -m tests.benchmarks.agree``, covers 1,000); about 20 s on a quiet machine
+FAST_SEEDS = range(0, 30)
 
 
 @pytest.mark.parametrize("seed", FAST_SEEDS)
@@ -225,3 +226,130 @@ def test_a_mode_the_numerical_engine_cannot_resolve_is_a_limit(tmp_path):
     assert check.verdict == PASS, check.messages
     assert any("limit of the numerical engine" in m for m in check.messages)
     assert check.fields[1].closed_form == pytest.approx(after, rel=1e-9)
+
+
+PARALLEL_CAPACITORS_BESIDE_A_FAST_PULSE = """
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "-0.82 V", steps = [["47 us", "-0.42 V"]] }
+R2 = { kind = "resistor", nodes = ["n1", "gnd"], value = "109k" }
+R4 = { kind = "resistor", nodes = ["n3", "gnd"], value = "82.8" }
+C5 = { kind = "capacitor", nodes = ["n1", "in"], value = "48.2n" }
+C12 = { kind = "capacitor", nodes = ["n3", "in"], value = "5.1p" }
+C13 = { kind = "capacitor", nodes = ["in", "n1"], value = "554p" }
+"""
+
+
+def test_a_capacitor_current_in_a_loop_of_capacitors_beside_a_fast_pulse():
+    # C5 and C13 in parallel share the current of R2 after V1 steps by 0.4 V, while C12
+    # charges through 82.8 ohm in 0.42 ns (a 4.8 mA pulse).  Reference: sympy's exact
+    # solution of (C5 + C13) v' = -v/R2 from v(0+) = 0.4 V (the capacitors hold their
+    # voltage across the step), i(C13) = -C13 v'.  The closed form read the loop share from
+    # the derivative of its exponential form, where the 0.42 ns mode leaked in: 1.4e-3 off.
+    import sympy as sp
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    from tests.simulate_builder import first_order
+    c13 = 554e-12
+    v = first_order((48.2e-9 + c13) * 109e3, 0.4, 0.0)
+    t = sorted(v.free_symbols, key=str)[0]
+    reference = float((-c13 * v.diff(t)).subs(t, 0))
+    circuit = parse_circuit(PARALLEL_CAPACITORS_BESIDE_A_FAST_PULSE)
+    probe = Probe("through", ("C13",))
+    assert closedform.solve(circuit).features(probe, 1).after == pytest.approx(reference,
+                                                                                rel=1e-8)
+    assert solve(circuit).features(probe, 1).after == pytest.approx(reference,
+                                                                    rel=tol.ENGINE_RELATIVE)
+
+
+def test_a_faintly_observed_slow_mode_completes_the_numerical_dominant_tau():
+    # random circuit 102 at 0.51 ms: the probe reads an inductor's voltage (S14 closed joins
+    # s13 to n5) and a Miller stage (C22, gain -140) loads n5: its 675 s mode reaches the
+    # probe at 3.3e-12 of the probe's scale, below the numerical engine's observation
+    # threshold but not rounding.  Reference: the sum of zero-value time constants of the
+    # reaching storage equals the sum of the probe's pole time constants (Cochrun & Grabel,
+    # IEEE Trans. Circuit Theory 20 (1973) 8-14): the closed form's sum is the numerical
+    # engine's observed modes plus that faint one
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    circuit = parse_circuit(circuit_text(102))
+    probe = Probe("between", ("s13", "m10"))
+    dv, dn = closedform.solve(circuit).dominant(probe, 2), solve(circuit).dominant(probe, 2)
+    assert dv.tau > 600 and dn.tau < 1e-2
+    assert any(abs(dn.tau + w - dv.tau) <= tol.DOMINANT_ENGINE * dv.tau for w in dn.weak)
+    assert not agree.run_one(102, seconds=60.0)["disagree"]
+
+
+def test_a_dominant_tau_no_faint_mode_explains_still_disagrees():
+    # the same kind of pair, but the closed form's value is no sum of the numerical engine's
+    # modes: a real disagreement stays one
+    from harness.compare.dominant import _with_weak_modes, weak_note
+    from harness.results import DominantTau
+    numeric = DominantTau(9.478e-4, weak=(674.87, 3.1e-9))
+    assert _with_weak_modes(674.87 + 9.478e-4, numeric) == (674.87,)
+    assert "faintly observed" in weak_note(DominantTau(674.87 + 9.478e-4), numeric)
+    assert _with_weak_modes(700.0, numeric) is None
+    assert _with_weak_modes(674.87 + 9.478e-4, DominantTau(9.478e-4)) is None
+
+
+RC_LADDER = """
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "0 V", steps = [["1 ms", "1 V"]] }
+R1 = { kind = "resistor", nodes = ["in", "a"], value = "1k" }
+C1 = { kind = "capacitor", nodes = ["a", "gnd"], value = "100n" }
+R2 = { kind = "resistor", nodes = ["a", "b"], value = "10k" }
+C2 = { kind = "capacitor", nodes = ["b", "gnd"], value = "47n" }
+"""
+
+
+def test_the_order_band_is_tight_where_the_modes_are_clear():
+    # two RC sections: the output's transfer function 1/(R1C1R2C2 s^2 + (R1C1 + R2C2 + R1C2) s
+    # + 1) has two real poles (reference: scipy.signal.tf2zpk), both well above visibility
+    # after the step, so the numerical engine's order band is exactly 2 and a closed form
+    # reporting one mode is flagged (the band's lower end was 0 for almost every probe)
+    from dataclasses import replace
+    import numpy as np
+    from scipy import signal
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.compare import order_problem
+    from harness.simulate import solve
+    r1, c1, r2, c2 = 1e3, 100e-9, 10e3, 47e-9
+    _, poles, _ = signal.tf2zpk([1.0], [r1 * c1 * r2 * c2, r1 * c1 + r2 * c2 + r1 * c2, 1.0])
+    circuit = parse_circuit(RC_LADDER)
+    exact, numeric = closedform.solve(circuit), solve(circuit)
+    probe = Probe("node", ("b",))
+    fe, fn = exact.features(probe, 1), numeric.features(probe, 1)
+    assert sorted(fn.modes) == pytest.approx(sorted(-1.0 / np.real(poles)), rel=1e-9)
+    assert fn.order == 2 and fn.order_bounds == (2, 2)
+    ctx = CheckContext(circuit, exact, numeric, probe, 1)
+    assert order_problem(fe, fn, ctx) == ""
+    assert order_problem(replace(fe, order=1, modes=fe.modes[:1]), fn, ctx).startswith("order:")
+
+
+LIGHTLY_DAMPED_FALL = """
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "10 V", steps = [["1 ms", "9 V"]] }
+R1 = { kind = "resistor", nodes = ["in", "a"], value = "1" }
+L1 = { kind = "inductor", nodes = ["a", "b"], value = "1m" }
+C1 = { kind = "capacitor", nodes = ["b", "gnd"], value = "1u" }
+"""
+
+
+def test_the_overshoot_of_a_long_ring_on_an_offset_is_found():
+    # a series RLC (zeta = R/2 sqrt(C/L) = 0.0158) falling from 10 V to 9 V rings ~300 times
+    # in the search span; its troughs below 9 V have smaller |v| than its crests, and the
+    # closed form refined only the 64 extrema of largest |v|: overshoot 0.  Reference,
+    # textbook (a second-order step response with no zeros): e^(-pi zeta / sqrt(1 - zeta^2))
+    import math
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    zeta = 0.5 * 1.0 * math.sqrt(1e-6 / 1e-3)
+    reference = math.exp(-math.pi * zeta / math.sqrt(1 - zeta * zeta))
+    circuit = parse_circuit(LIGHTLY_DAMPED_FALL)
+    probe = Probe("node", ("b",))
+    assert closedform.solve(circuit).overshoot(probe, 1) == pytest.approx(reference, rel=1e-6)
+    assert solve(circuit).overshoot(probe, 1) == pytest.approx(reference,
+                                                               rel=tol.RING_ENGINE_RELATIVE)

@@ -446,3 +446,30 @@ def test_plot_renders_text_that_looks_like_mathtext():
                       trace=check.trace)
     png = report.plots.plot_check(odd)
     assert png[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+SPLIT_RAILS = """
+title = "split ±40 V rails across a load"
+[parts]
+VP = { kind = "voltage-source", nodes = ["pos", "gnd"], value = "40 V" }
+VN = { kind = "voltage-source", nodes = ["gnd", "neg"], value = "40 V" }
+RL = { kind = "resistor", nodes = ["pos", "neg"], value = "10k" }
+R1 = { kind = "resistor", nodes = ["pos", "out"], value = "1k" }
+C1 = { kind = "capacitor", nodes = ["out", "gnd"], value = "1u", initial = "0 V" }
+[[expect]]
+node = "out"
+at = "0 s"
+final = "40 V"
+"""
+
+
+def test_cautions_judge_the_voltage_between_two_nodes_not_only_to_ground(tmp_path):
+    """±40 V rails: no node is above 60 V from ground, but pos and neg are 80 V apart, above
+    the 60 V DC extra-low-voltage limit (common practice: the limit applies between any two
+    accessible conductors)."""
+    from harness.runner import check_file
+    path = tmp_path / "rails.toml"
+    path.write_text(SPLIT_RAILS, encoding="utf-8")
+    result = check_file(str(path), numeric=False)
+    assert any(c.startswith("Hazardous voltage") and "80 V" in c for c in result.cautions), \
+        result.cautions

@@ -267,13 +267,13 @@ def crossing(ex: ExpSum, level: float, direction: str, end: float, final: float 
 
 
 # ------------------------------------------------------------------------------- peaks
-def _extrema(ex: ExpSum, grid: np.ndarray) -> list[tuple[float, float]]:
+def _extrema(ex: ExpSum, grid: np.ndarray, rank=np.abs) -> list[tuple[float, float]]:
     """(value, local time) of the extrema of y on ``grid`` (a root of y' refined by Brent's
     method between grid points where y' changes sign; at most ``PEAK_REFINE_MAX``, the
-    largest, ``_extremum_cells``)."""
+    largest by ``rank`` of y, ``_extremum_cells``)."""
     fun = (lambda u: float(ex.slope(np.array([u]))[0]))
     out = []
-    for i in _extremum_cells(ex, grid):
+    for i in _extremum_cells(ex, grid, rank):
         u = _refine(fun, grid[i], grid[i + 1])
         out.append((float(ex.value(np.array([u]))[0]), u))
     return out
@@ -300,7 +300,11 @@ def overshoot(ex: ExpSum, end: float, final: float | None) -> float | None:
     if not abs(step) > 1e-9 * max(abs(final), abs(ex.after)):
         return None
     grid = np.concatenate([[0.0], ex.grid(_ring_end(ex, end))])
-    beyond = [math.copysign(1.0, step) * (v - final) for v, _ in _extrema(ex, grid)]
+    sign = math.copysign(1.0, step)
+    # ranked by how far each passes x_inf, not by |y|: a small ring on a large offset has its
+    # largest |y| on the far side of x_inf, and the 64 largest |y| of 66 extrema left out
+    # every trough that passes it (overshoot 0 for 247)
+    beyond = [sign * (v - final) for v, _ in _extrema(ex, grid, lambda y: sign * (y - final))]
     return max([0.0] + beyond) / abs(step)
 
 
@@ -322,9 +326,10 @@ def peak(ex: ExpSum, end: float, final: float | None, next_gap: float | None) ->
     return PeakValue(magnitude=abs(value), value=value, time=time, after_next_event=late)
 
 
-def _extremum_cells(ex: ExpSum, grid: np.ndarray) -> list[int]:
+def _extremum_cells(ex: ExpSum, grid: np.ndarray, rank=np.abs) -> list[int]:
     """Indices i of the grid cells [grid[i], grid[i+1]] where y' changes sign, in grid order;
-    past ``PEAK_REFINE_MAX`` cells, the ``PEAK_REFINE_MAX`` whose larger end |y| is largest."""
+    past ``PEAK_REFINE_MAX`` cells, the ``PEAK_REFINE_MAX`` whose larger end ``rank(y)`` (|y|
+    unless said) is largest."""
     slopes = ex.slope(grid)
     with np.errstate(invalid="ignore", over="ignore"):
         turns = np.isfinite(slopes[:-1]) & np.isfinite(slopes[1:]) & \
@@ -332,7 +337,7 @@ def _extremum_cells(ex: ExpSum, grid: np.ndarray) -> list[int]:
     cells = np.flatnonzero(turns)
     if cells.size <= PEAK_REFINE_MAX:
         return cells.tolist()
-    values = np.abs(ex.value(grid))
+    values = rank(ex.value(grid))
     height = np.nan_to_num(np.maximum(values[cells], values[cells + 1]), nan=-1.0)
     keep = np.argsort(-height, kind="stable")[:PEAK_REFINE_MAX]
     return sorted(cells[keep].tolist())

@@ -69,11 +69,12 @@ class ClosedFormSolution(NotComputed):
                 pass                       # an estimate only: never costs the features
         return out
 
-    def node_voltages(self) -> list[float]:
-        """Every node's voltage in V before, just after and at the end (final) of each
-        interval, those that ``features`` gives (not None); all nodes at once per interval
+    def node_voltages(self) -> list[tuple[float, ...]]:
+        """Per instant (before, just after and at the end (final) of each interval), the
+        voltages in V of every node there that ``features`` gives (not None), shape: a list of
+        3·K tuples of at most N values; all nodes at once per interval
         (``features.node_values``), node by node where that shortcut does not apply."""
-        layout, values = self.layout, []
+        layout, instants = self.layout, []
         nodes = [n for n in self.circuit.nodes if n != self.circuit.ground]
         index = np.array([layout.node(n) for n in nodes], dtype=int)
         for k, resp in enumerate(self.intervals):
@@ -81,13 +82,17 @@ class ClosedFormSolution(NotComputed):
             x, dx = (prev.x_plus, prev.dx_plus) if k == 0 else (prev.x_end, prev.dx_end)
             fast = node_values(resp, x, dx, index) if index.size else None
             if fast is not None:
-                values += [float(v) for trio in zip(*fast) for v in trio]
+                instants += [tuple(float(v) for v in values) for values in fast]
                 continue
+            trio: tuple[list, list, list] = ([], [], [])
             for node in nodes:
                 raws, scale = self._raw(Probe(NODE, (node,)))
                 f = classify(raws[k], scale, self.scale.t)
-                values += [v for v in (f.before, f.after, f.final) if v is not None]
-        return values
+                for column, v in zip(trio, (f.before, f.after, f.final)):
+                    if v is not None:
+                        column.append(v)
+            instants += [tuple(column) for column in trio]
+        return instants
 
     def jump(self, k: int) -> Jump:
         """Impulsive charges/fluxes and the energy dissipated at event k."""

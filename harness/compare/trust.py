@@ -95,17 +95,22 @@ class Guarded:
     def conditioning(self) -> tuple[Conditioning, ...]:
         return self._conditioning
 
-    def node_voltages(self) -> list[float] | None:
-        """The engine's node voltages with the withheld intervals' left out (node by node
-        through ``features`` when any interval is withheld)."""
+    def node_voltages(self) -> list[tuple[float, ...]] | None:
+        """The engine's node voltages per instant with the withheld intervals' values left out
+        (node by node through ``features`` when any interval is withheld)."""
         if all(trusted(c) for c in self._conditioning):
             return self._inner.node_voltages()
-        circuit, values = self.circuit, []
-        for node in (n for n in circuit.nodes if n != circuit.ground):
-            for k in range(len(circuit.events)):
+        circuit, instants = self.circuit, []
+        nodes = [n for n in circuit.nodes if n != circuit.ground]
+        for k in range(len(circuit.events)):
+            trio: tuple[list, list, list] = ([], [], [])
+            for node in nodes:
                 f = self.features(Probe(NODE, (node,)), k)
-                values += [v for v in (f.before, f.after, f.final) if v is not None]
-        return values
+                for column, v in zip(trio, (f.before, f.after, f.final)):
+                    if v is not None:
+                        column.append(v)
+            instants += [tuple(column) for column in trio]
+        return instants
 
     # ----- the wrapped engine's answers ------------------------------------------------------
     def jump(self, k: int) -> Jump:

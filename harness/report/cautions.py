@@ -34,6 +34,10 @@ HAZARD_VOLTAGE = 60.0
 #: joules; a capacitor or inductor that can hold more than this gets the note
 HAZARD_ENERGY = 1.0
 
+#: where a computed voltage came from, in the hazardous-voltage caution (node voltages of the
+#: closed form, and the extremes of spec'd voltage fields)
+COMPUTED = "a voltage the engines computed in the circuit"
+
 DEFERRAL = ("These notes are general reminders, not a safety assessment: follow the local "
             "electrical codes, the product safety standards that apply, and licensed practice for "
             "work on this circuit.")
@@ -62,8 +66,8 @@ def cautions_for(circuit: Circuit, *, voltages: Iterable[float] = (), jumps: Ite
     jumps = tuple(jumps)
     scale = max([factor(circuit, p) for p in circuit.parts if p.kind in SOURCES] + [1.0])
     peak, where = _highest_voltage(circuit, [v * scale for v in voltages if v is not None],
-                                   "a computed probe value" if scale == 1.0 else
-                                   "a computed probe value scaled to the sources' worst corner")
+                                   COMPUTED if scale == 1.0 else
+                                   COMPUTED + " scaled to the sources' worst corner")
     for value in corner_voltages:
         if value is not None and abs(value) > peak and abs(value) != float("inf"):
             peak, where = abs(value), "a spec'd value at an extreme corner of the spreads"
@@ -109,7 +113,7 @@ def factor(circuit: Circuit, part: Part) -> float:
 
 
 def _highest_voltage(circuit: Circuit, voltages: Iterable[float],
-                     computed: str = "a computed probe value") -> tuple[float, str]:
+                     computed: str = COMPUTED) -> tuple[float, str]:
     """The highest voltage magnitude in V the circuit is known to reach, and where (a source
     at the high edge of its spread)."""
     peak, where = 0.0, "nowhere"

@@ -43,6 +43,7 @@ tr.bad td{background:#fff8f7}
 .check.c-pass{border-left-color:#2e8b45}.check.c-mismatch{border-left-color:#c62828}
 .check.c-engines-disagree{border-left-color:#e08a00}.check.c-error{border-left-color:#5c1a1a}
 .facts{flex:1 1 460px;min-width:0;overflow-x:auto}.plot{flex:0 1 632px;min-width:0}
+.facts pre{white-space:pre-wrap;overflow-wrap:anywhere}
 .plot img{display:block;max-width:100%;height:auto;border:1px solid #eee}
 .caution{border:2px solid #c77700;background:#fff6e0;padding:8px 12px;margin:8px 0;
  border-radius:4px}.caution strong{color:#8a4b00}

@@ -19,6 +19,13 @@ Theory 20 (1973) 8-14).  An observed mode that does not decay within the settle 
 growth) makes tau None, as an infinite zero-value term does.  ``terms`` maps "mode i"
 (slowest first) to each observed mode's -1/lambda_i.
 
+A mode whose strength lies between ``WEAK`` and ``OBSERVED`` of the probe's scale is *weakly*
+observed: storage reached through a path that time-scale separation makes faint (a slow Miller
+mode in an inductor's voltage) and modes that cannot reach the probe at all (their c v_i is
+QZ rounding) both land there, so this engine cannot say which; tau leaves them out and
+``DominantTau.weak`` lists them, and the comparator takes tau plus any of them as this
+engine's value (``compare.dominant._with_weak_modes``).
+
 Above ``modal.EIGEN_UP_TO`` states the estimate is not computed (None).
 
 deviation and t50 come from interval k's integrated held waveform on the sign-off scan grid
@@ -40,12 +47,22 @@ from .signoff import scan_grid
 
 #: a mode is observed in a probe above this fraction of the probe's own scale
 OBSERVED = 1e-9
+#: below OBSERVED and above this fraction a mode is *weakly* observed: a storage part reached
+#: through a path that time-scale separation makes faint (a 675 s Miller mode in an
+#: inductor's voltage at 3.3e-12 of the probe's scale, seed-generated random circuits) sits
+#: among the QZ rounding of modes that cannot reach the probe (up to 9.3e-14 measured), so
+#: this engine cannot tell which; it reports them apart (``DominantTau.weak``)
+WEAK = 1e-15
+#: at most this many weakly observed modes are reported (the strongest)
+WEAK_MOST = 12
 
 
 # ------------------------------------------------------------------------------- modes
-def observed_modes(sol, probe: Probe, k: int) -> np.ndarray | None:
-    """The rates lambda_i (1/s) of interval k's circuit modes observed in ``probe`` (module
-    docstring), shape (m,); None where they cannot be computed."""
+def observed_modes(sol, probe: Probe, k: int,
+                   threshold: float = OBSERVED) -> np.ndarray | None:
+    """The rates lambda_i (1/s) of interval k's circuit modes observed in ``probe`` above
+    ``threshold`` of its own scale (module docstring), strongest first, shape (m,); None
+    where they cannot be computed."""
     system = sol.systems[k]
     modes = decompose(sol, system)
     if modes is None:
@@ -53,7 +70,19 @@ def observed_modes(sol, probe: Probe, k: int) -> np.ndarray | None:
     row = ideal_row(sol, system, probe)
     own = float(np.abs(row) @ state_scales(sol))
     strength = np.abs(row @ modes.v) * modes.reach
-    return modes.lam[strength > OBSERVED * own]
+    order = np.argsort(-strength)
+    return modes.lam[order][strength[order] > threshold * own]
+
+
+def weak_taus(sol, probe: Probe, k: int) -> tuple[float, ...]:
+    """-1/Re lambda (s) of the decaying modes observed between ``WEAK`` and ``OBSERVED`` of
+    the probe's own scale, the ``WEAK_MOST`` strongest: those this engine cannot place."""
+    faint = observed_modes(sol, probe, k, WEAK)
+    if faint is None:
+        return ()
+    strong = observed_modes(sol, probe, k)
+    out = [float((-1.0 / r).real) for r in faint if r.real < 0 and not np.any(strong == r)]
+    return tuple(out[:WEAK_MOST])
 
 
 def modal_tau(sol, probe: Probe, k: int) -> tuple[float | None, dict[str, float]]:
@@ -97,9 +126,10 @@ def dominant(sol, probe: Probe, k: int) -> DominantTau | None:
         return None
     tau, terms = modal_tau(sol, probe, k)
     msum = tau
+    weak = weak_taus(sol, probe, k)
     fe = sol.features(probe, k)
     if tau is None or fe.final is None or fe.after is None:
-        return DominantTau(tau, terms, msum)
+        return DominantTau(tau, terms, msum, weak=weak)
     swing = fe.after - fe.final
     grid = scan_grid(sol, k)
     values = sol.held(probe, k, grid)
@@ -107,8 +137,8 @@ def dominant(sol, probe: Probe, k: int) -> DominantTau | None:
     excursion = float(np.max(np.abs(values - fe.final), initial=0.0))
     if not abs(swing) > WAVEFORM_SWING_FLOOR * excursion:
         # a pulse that starts and ends near its final value: no one-τ curve describes it
-        return DominantTau(tau, terms, msum, None, None, tau * math.log(2))
+        return DominantTau(tau, terms, msum, None, None, tau * math.log(2), weak)
     one = fe.final + swing * np.exp(-grid / tau)
     deviation = float(np.max(np.abs(one - values)) / abs(swing))
     t50 = _first_crossing(sol, probe, k, grid, values, fe.final + swing / 2)
-    return DominantTau(tau, terms, msum, deviation, t50, tau * math.log(2))
+    return DominantTau(tau, terms, msum, deviation, t50, tau * math.log(2), weak)

@@ -182,14 +182,22 @@ def visible(sol, probe: Probe, k: int, scale: float) -> Visible | None:
     decaying = np.isfinite(amp) & (modes.lam.real < -UNDAMPED * np.abs(modes.lam))
     thr = MODE_VISIBILITY * scale
     seen = modes.lam[decaying & (amp > thr)]
-    # what the integration's own error (about its tolerance on every state) can put into a
-    # mode's amplitude, and a mode that decayed by more than e over the pulse window (its
-    # error magnified by the extrapolation back to t_k+): such modes may or may not be visible
-    # as far as this engine can tell
-    noise = gain * modes.reach * NOISE * max(sol.rtol, sol.regularisation.pulse_ratio)
-    unsure = decaying & ((np.abs(modes.lam.real) * t0 > 1.0) | (noise > thr / BAND))
-    bounds = (int(np.sum(decaying & ~unsure & (amp > BAND * thr))),
-              int(np.sum(decaying & (unsure | (amp > thr / BAND)))))
+    # the order band: the noise is what the integration's own error (NOISE times its
+    # tolerance atol_j + rtol |y_j - y_inf| on every state j) can put into a mode's amplitude;
+    # a mode counts surely when its amplitude less that noise exceeds BAND times the
+    # threshold, possibly when its amplitude plus the noise exceeds the threshold over BAND or
+    # it decayed by more than e over the pulse window (its error magnified by the
+    # extrapolation back to t_k+).  (The states' full scales in place of their tolerances, and
+    # "unsure" whenever the noise alone passed threshold/BAND, made the lower end 0 almost
+    # always, so an order the closed form undercounts was never flagged.)
+    tolerance = NOISE * (np.broadcast_to(sol.atol, dev.shape)
+                         + max(sol.rtol, sol.regularisation.pulse_ratio) * np.abs(dev))
+    with np.errstate(over="ignore", invalid="ignore"):
+        noise = gain * (np.abs(modes.um) @ tolerance) / np.abs(modes.norm) \
+            * np.abs(np.exp(-modes.lam * t0))
+    extrapolated = np.abs(modes.lam.real) * t0 > 1.0
+    bounds = (int(np.sum(decaying & ~extrapolated & (amp - noise > BAND * thr))),
+              int(np.sum(decaying & (extrapolated | (amp + noise > thr / BAND)))))
     return _summarise(seen, ring_split(sol.regularisation.pulse_ratio), bounds)
 
 

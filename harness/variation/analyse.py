@@ -22,7 +22,7 @@ from . import batch, fieldvalue, stats
 from .extremes import search
 from .quantities import Quantity, edges, varied
 from .result import HOLDS_STATISTICALLY, SpreadResult
-from .sampling import CHUNK, Accumulator, chunk_deviations
+from .sampling import CHUNK, KEEP, PIECE, Accumulator, chunk_deviations
 from .verify import numeric_at
 
 STEP = 1e-4
@@ -82,23 +82,34 @@ def rss_bounds(nominal: float, gradient: np.ndarray, low, high) -> tuple[float, 
 def monte_carlo(fn, low, high, variation: m.Variation, limits: tuple[m.Limits, ...],
                 keep: int | None = None, most: int | None = None) -> Accumulator:
     """The samples drawn and evaluated chunk by chunk (``sampling``: a fixed seed gives the
-    same samples), summarised as they pass; ``keep`` overrides ``sampling.KEEP``; ``most``
-    caps the count (the first samples of the same sequence)."""
-    acc = Accumulator(limits, len(low)) if keep is None else \
-        Accumulator(limits, len(low), keep)
+    same samples), summarised as they pass, piece by piece of ``sampling.PIECE`` samples whose
+    summaries are merged in order (as a run split over machines merges them, ``shard``, so
+    both give the same bits); ``keep`` overrides ``sampling.KEEP``; ``most`` caps the count
+    (the first samples of the same sequence)."""
     total = variation.samples if most is None else min(most, variation.samples)
-    for start in range(0, total, CHUNK):
-        dev = chunk_deviations(low, high, variation, start // CHUNK)[:total - start]
-        acc.add(dev, fn(dev))
-    return acc
+    whole = None
+    for first in range(0, total, PIECE):
+        part = Accumulator(limits, len(low), KEEP if keep is None else keep)
+        for start in range(first, min(first + PIECE, total), CHUNK):
+            dev = chunk_deviations(low, high, variation, start // CHUNK)[:total - start]
+            part.add(dev, fn(dev))
+        if whole is None:
+            whole = part
+        else:
+            whole.merge(part)
+    return whole if whole is not None else Accumulator(limits, len(low),
+                                                       KEEP if keep is None else keep)
 
 
-def analyse_circuit(circuit: m.Circuit, numeric: bool = True) -> tuple[SpreadResult, ...]:
-    """Every spec'd field of every expectation of ``circuit``."""
+def analyse_circuit(circuit: m.Circuit, numeric: bool = True,
+                    given: dict | None = None) -> tuple[SpreadResult, ...]:
+    """Every spec'd field of every expectation of ``circuit``.  ``given`` maps an
+    expectation's index to its Monte Carlo summary evaluated elsewhere (``shard.summary`` of
+    its pieces, merged in order)."""
     out = []
-    for exp in circuit.expectations:
+    for index, exp in enumerate(circuit.expectations):
         if exp.spec:
-            out += analyse_expectation(circuit, exp, numeric)
+            out += analyse_expectation(circuit, exp, numeric, (given or {}).get(index))
     return tuple(out)
 
 

@@ -1,21 +1,44 @@
-"""The library on a local Dask cluster beside the worker pool, side by side in one run:
-``tauproof check circuits/library --no-report`` with ``--jobs 1``, ``--jobs 2`` and
-``--cluster local:2`` (interleaved, medians), the start-up cost of each mechanism and the
-overhead per task of each (no-op tasks).
+"""A local Dask cluster beside the worker pool, side by side in one run, with the machine's load
+(1-minute load average from /proc/loadavg) read beside every figure:
+
+* the library: ``tauproof check circuits/library --no-report`` with ``--jobs 1``, ``--jobs 2``
+  and ``--cluster local:2`` (interleaved, medians);
+* start-up cost of each mechanism and overhead per task (no-op tasks); what a worker's death
+  and a task over its time limit cost each (time until a no-op task behind it has run);
+* a 10⁶-sample Monte Carlo (the library's reset-delay tolerance file with 1,000,000 samples:
+  four pieces on the batched route) in this process, then on a running local cluster of 1 and
+  of 2 workers (start-up excluded), and what its parts cost (one piece; the file's own task);
+* the exact engine's cost per sample (the same file with a second storage part), for the
+  estimate on paper in RESULTS.md.
 
     python -m tests.benchmarks.cluster_bench [repeats]
 """
 
 from __future__ import annotations
 
+import contextlib
 import statistics
 import subprocess
 import sys
+import tempfile
 import time
+from pathlib import Path
 
 LIBRARY = "circuits/library"
+RESET = Path(LIBRARY) / "tolerance" / "reset-delay-spread.toml"
 #: no-op tasks timed for the overhead per task
 TASKS = 200
+MC_SAMPLES = 1_000_000
+#: a second storage part on the reset pin: every sample is an exact solve
+SECOND_STAGE = ('R2 = { kind = "resistor", nodes = ["rst", "pin"], value = "1k", spread = "F" }\n'
+                'C2 = { kind = "capacitor", nodes = ["pin", "gnd"], value = "100n", '
+                'spread = "K" }\n[[expect]]')
+
+
+def load() -> float:
+    """The 1-minute load average."""
+    with open("/proc/loadavg", encoding="utf-8") as handle:
+        return float(handle.read().split()[0])
 
 
 def _wall(args: list[str]) -> tuple[float, int]:
@@ -25,17 +48,20 @@ def _wall(args: list[str]) -> tuple[float, int]:
     return time.perf_counter() - start, code
 
 
-def library(repeats: int) -> dict:
-    """Median wall time (s) of each way of running the library, runs interleaved."""
+def library(repeats: int) -> tuple[dict, list[float]]:
+    """Median wall time (s) of each way of running the library, runs interleaved; the load
+    average before each run."""
     ways = {"jobs 1": ["--jobs", "1"], "jobs 2": ["--jobs", "2"],
             "local:2": ["--cluster", "local:2"]}
     times: dict[str, list[float]] = {name: [] for name in ways}
+    loads = []
     for _ in range(repeats):
         for name, args in ways.items():
+            loads.append(load())
             seconds, code = _wall(args)
             assert code == 0, (name, code)
             times[name].append(seconds)
-    return {name: statistics.median(t) for name, t in times.items()}
+    return {name: statistics.median(t) for name, t in times.items()}, loads
 
 
 def _noop(x):
@@ -55,43 +81,174 @@ def pool_costs() -> dict:
 
 
 def dask_costs() -> dict:
-    """A local cluster of 2 processes: start-up (cluster, client, engines imported on the
-    workers) and overhead per no-op task (submit, run, gather through as_completed)."""
-    import logging
-    from distributed import Client, LocalCluster, as_completed
-    from harness.runner import _preload
+    """A local cluster of 2 processes as ``--cluster local:2`` starts it: start-up (cluster,
+    client, engines imported on the workers), overhead per no-op task (submit, run, gather
+    through as_completed) and the time to stop it."""
+    from distributed import as_completed
+    from harness import cluster
     start = time.perf_counter()
-    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                           dashboard_address=None, silence_logs=logging.CRITICAL)
-    client = Client(cluster)
-    client.run(_preload, True)
-    startup = time.perf_counter() - start
-    try:
+    with cluster._connect("local:2", True) as client:
+        startup = time.perf_counter() - start
         start = time.perf_counter()
         for future in as_completed([client.submit(_noop, i, pure=False) for i in range(TASKS)]):
             future.result()
         per_task = (time.perf_counter() - start) / TASKS
-    finally:
         start = time.perf_counter()
-        client.close()
-        cluster.close()
-        shutdown = time.perf_counter() - start
-    return {"startup": startup, "per_task": per_task, "shutdown": shutdown}
+    return {"startup": startup, "per_task": per_task, "shutdown": time.perf_counter() - start}
+
+
+def _fault(kind):
+    """A task that kills its worker process (``die``), sleeps past any limit (``sleep``) or
+    returns at once."""
+    import os
+    if kind == "die":
+        os._exit(3)
+    if kind == "sleep":
+        time.sleep(60)
+    return kind
+
+
+#: the time limit (s) of the task that sleeps
+LIMIT = 0.5
+
+
+def pool_faults() -> dict:
+    """One worker: a task that dies, then a no-op (the pool forks a new worker); a task over
+    ``LIMIT``, then a no-op (the pool kills the late worker and forks another).  Seconds beyond
+    the limit."""
+    from harness.pool import run_tasks
+    out = {}
+    for kind, limit in (("die", None), ("sleep", LIMIT)):
+        start = time.perf_counter()
+        run_tasks([(kind,), ("ok",)], _fault, jobs=1, timeout=limit, on_timeout=lambda i: None,
+                  on_death=lambda i, how: None)
+        out[kind] = time.perf_counter() - start - (limit or 0.0)
+    return out
+
+
+def dask_faults() -> dict:
+    """The same on a ``local:1`` cluster as ``--cluster`` runs it: the dying task is retried
+    up to the death bound (each death a worker restart) before it is given up; the late task is
+    cancelled and its worker restarted (``cluster._Run.expire``).  Seconds per death, and
+    beyond the limit."""
+    from harness import cluster
+    from harness.runner import RunOptions
+    out = {}
+    with cluster._connect("local:1", True) as client:
+        start = time.perf_counter()
+        dying = client.submit(_fault, "die", pure=False)
+        with contextlib.suppress(Exception):     # KilledWorker past the death bound
+            dying.result()
+        client.submit(_fault, "ok", pure=False).result()
+        out["die"] = (time.perf_counter() - start) / (cluster.LOCAL_ALLOWED_FAILURES + 1)
+        start = time.perf_counter()
+        cluster._gather(client, ["sleep", "ok"], RunOptions(timeout=LIMIT), [], _late)
+        client.submit(_fault, "ok", pure=False).result()   # the restarted worker is back
+        out["sleep"] = time.perf_counter() - start - LIMIT
+    return out
+
+
+def _late(path, numeric, tolerance):
+    """``cluster``'s task for the fault measurement: ``path`` names the behaviour."""
+    from harness.runner import _error_result
+    _fault(path)
+    return _error_result(path, "done")
+
+
+def _variant(folder: Path, samples: int, second_stage: bool = False) -> Path:
+    text = RESET.read_text(encoding="utf-8").replace("samples = 10000", f"samples = {samples}")
+    if second_stage:   # the probe moves to the second stage; τ is not first order there
+        text = text.replace("[[expect]]", SECOND_STAGE).replace('node = "rst"', 'node = "pin"')
+        text = text.replace('tau = "= R1*C1"\n', "").replace(
+            ', tau = { min = "80 ms", max = "120 ms" }', "")
+    path = folder / ("exact.toml" if second_stage else "mc.toml")
+    path.write_text(text, encoding="utf-8")
+    return path
+
+
+def monte_carlo(repeats: int) -> dict:
+    """The 10⁶-sample file: in this process (the ``--jobs 1`` path), then through the cluster
+    code on a running local cluster of 1 and of 2 workers (median of ``repeats`` each, start-up
+    excluded); the cost of one piece and of the file's own task with the values given."""
+    from harness import cluster
+    from harness.circuitfile import read_circuit
+    from harness.runner import RunOptions, _check_task, check_file
+    from harness.variation import shard
+    out: dict = {}
+    with tempfile.TemporaryDirectory() as tmp:
+        path = str(_variant(Path(tmp), MC_SAMPLES))
+        circuit = read_circuit(path)
+        plan = shard.plan(circuit)
+        out["pieces"] = sum(len(r) for r in plan.values())
+        out["load_before"] = load()
+        start = time.perf_counter()
+        whole = check_file(path)
+        out["here"] = time.perf_counter() - start
+        start = time.perf_counter()
+        given = {i: shard.merged([shard.summary(circuit, i, a, b) for a, b in r])
+                 for i, r in plan.items()}
+        out["pieces_here"] = time.perf_counter() - start
+        start = time.perf_counter()
+        check_file(path, True, None, given)
+        out["final_here"] = time.perf_counter() - start
+        for workers in (1, 2):
+            with cluster._connect(f"local:{workers}", True) as client:
+                times = []
+                for _ in range(repeats):
+                    start = time.perf_counter()
+                    got = cluster._gather(client, [path], RunOptions(), [], _check_task)
+                    times.append(time.perf_counter() - start)
+                    assert got[0].spreads[0].monte_carlo == whole.spreads[0].monte_carlo
+            out[f"workers {workers}"] = statistics.median(times)
+        out["load_after"] = load()
+    return out
+
+
+def exact_per_sample(count: int = 32) -> float:
+    """Seconds per sample on the exact engine's route (one solve per sample)."""
+    from harness.circuitfile import read_circuit
+    from harness.variation import shard
+    with tempfile.TemporaryDirectory() as tmp:
+        circuit = read_circuit(str(_variant(Path(tmp), 2048, second_stage=True)))
+        start = time.perf_counter()
+        shard.summary(circuit, 0, 0, count)
+        return (time.perf_counter() - start) / count
 
 
 def main() -> None:
+    from harness.cluster import LOCAL_ALLOWED_FAILURES
     repeats = int(sys.argv[1]) if len(sys.argv) > 1 else 1
-    walls = library(repeats)
-    print(f"library ({repeats} run(s) each, median wall s): " +
-          ", ".join(f"{k} {v:.1f}" for k, v in walls.items()))
+    walls, loads = library(repeats)
+    files = len(list(Path(LIBRARY).rglob("*.toml")))
+    print(f"library, {files} files ({repeats} run(s) each, median wall s): " +
+          ", ".join(f"{k} {v:.1f}" for k, v in walls.items()) +
+          f"; load average {min(loads):.1f}-{max(loads):.1f}")
     print(f"  jobs 1 / local:2 = {walls['jobs 1'] / walls['local:2']:.2f}x, "
           f"jobs 1 / jobs 2 = {walls['jobs 1'] / walls['jobs 2']:.2f}x, "
           f"jobs 2 / local:2 = {walls['jobs 2'] / walls['local:2']:.2f}x")
+    before = load()
     pool, dask = pool_costs(), dask_costs()
     print(f"start-up: pool {pool['startup']:.2f} s, local cluster {dask['startup']:.2f} s "
-          f"(+ {dask['shutdown']:.2f} s to stop)")
+          f"(+ {dask['shutdown']:.2f} s to stop); load average {before:.1f}")
     print(f"overhead per task: pool {pool['per_task'] * 1e3:.2f} ms, "
           f"local cluster {dask['per_task'] * 1e3:.2f} ms")
+    before = load()
+    pf, df = pool_faults(), dask_faults()
+    print(f"a worker's death: pool {pf['die']:.2f} s, local cluster {df['die']:.2f} s per death "
+          f"(tried {1 + LOCAL_ALLOWED_FAILURES} times); "
+          f"a task over its limit: pool {pf['sleep']:.2f} s, local cluster {df['sleep']:.2f} s "
+          f"beyond the limit; load average {before:.1f}")
+    mc = monte_carlo(repeats)
+    print(f"Monte Carlo, {MC_SAMPLES:,} samples in {mc['pieces']} pieces (median wall s): "
+          f"this process {mc['here']:.2f}, cluster of 1 worker {mc['workers 1']:.2f}, "
+          f"of 2 workers {mc['workers 2']:.2f}; 1 / 2 workers = "
+          f"{mc['workers 1'] / mc['workers 2']:.2f}x; load average {mc['load_before']:.1f} -> "
+          f"{mc['load_after']:.1f}")
+    print(f"  in this process: all pieces {mc['pieces_here']:.2f} s, the file's own task with "
+          f"the values given {mc['final_here']:.2f} s")
+    before = load()
+    per = exact_per_sample()
+    print(f"exact engine per sample: {per * 1e3:.1f} ms; load average {before:.1f}")
 
 
 if __name__ == "__main__":
