@@ -39,7 +39,7 @@ PROBE_KEYS = (m.NODE, m.BETWEEN, m.ACROSS, m.THROUGH)
 #: sign-off keys of an [[expect]] block: file key -> field name (``fieldspec.FIELD_SPECS``)
 SIGNOFF_KEYS = {spec.key: spec.name for spec in FIELD_SPECS if spec.signoff}
 EXPECT_KEYS = PROBE_KEYS + ("at",) + tuple(spec.key for spec in FIELD_SPECS) + (
-    "spec", "tolerance", "note")
+    "settle-within", "spec", "tolerance", "note")
 CROSSING_KEYS = ("level", "time", "direction", "level-spread")
 ENERGY_KEYS = ("part", "value", "until")
 #: a tolerance given as a bare fraction above this gets a warning (0.5 is 50 %, seldom meant)
@@ -69,6 +69,8 @@ EXPECT_HELP = {
     m.THROUGH: ("", "probe: a part's current from p through it to n"),
     "at": ("s", "the event: t = 0 (default) or the time of a step of any source or switch"),
     **{spec.key: (spec.help_unit, spec.help) for spec in FIELD_SPECS},
+    "settle-within": ("", "the band of settle-periods, a fraction of the first period's "
+                          "deviation (default 1 %)"),
     "spec": ("", "{ field = { min = …, max = …, hand-min = …, hand-max = … } }: spec limits "
                  "judged over every part's `spread` (see [variation]) for "
                  + ", ".join(spec.key + spec.limited for spec in FIELD_SPECS if spec.spec)
@@ -354,6 +356,7 @@ def _expectation(index: int, raw: object, circuit: m.Circuit, scope: _Scope,
         if spec.table or spec.key not in raw:
             continue
         name, key = spec.name, spec.key
+        _whole_periodic(spec, raw[key], circuit, where, index)
         hand[name], text = _hand_value(raw[key], spec.unit_for(probe.dimension), scope, where,
                                        index, key, allow_percent=spec.percent)
         if spec.sign == NONNEGATIVE and not hand[name] >= 0:
@@ -378,9 +381,39 @@ def _expectation(index: int, raw: object, circuit: m.Circuit, scope: _Scope,
     if "spec" in raw:
         units = _spec_units(probe, crossing, energy)
         spec = read_spec(raw["spec"], units, where, index, label)
+    within = _settle_within(raw, hand, where, index) if "settle-within" in raw else None
     return m.Expectation(index=index, probe=probe, at=at, hand=hand, formulas=formulas,
                          tolerance=tolerance, note=note, line=where.locator.line_of(base),
-                         crossing=crossing, energy=energy, spec=spec)
+                         crossing=crossing, energy=energy, spec=spec, settle_within=within)
+
+
+def _whole_periodic(spec, raw: object, circuit: m.Circuit, where: Where, index: int) -> None:
+    """A periodic steady-state field (``FieldSpec.periodic``) needs a repeating window; a count
+    (``FieldSpec.whole``) is a whole number."""
+    label, key = expect_label(index), spec.key
+    path = ("expect", index, key)
+    if spec.periodic and circuit.periodic is None:
+        raise where.error(f"{key} is a value of the periodic steady state, and no source or "
+                          f"switch of this circuit has a repeat", path=path, part=label,
+                          field=key)
+    if spec.whole and (isinstance(raw, bool) or not isinstance(raw, int)):
+        raise where.error(f"{key} is a whole number of periods, 0 or more, got {raw!r}",
+                          path=path, part=label, field=key)
+
+
+def _settle_within(raw: dict, hand: dict, where: Where, index: int) -> float:
+    """``settle-within``: a fraction strictly between 0 and 1, beside ``settle-periods``."""
+    label, path = expect_label(index), ("expect", index, "settle-within")
+    if "settle_periods" not in hand:
+        raise where.error("settle-within is the band of settle-periods: give settle-periods too",
+                          path=path, part=label, field="settle-within")
+    value = where.quantity(raw["settle-within"], "1", path=path, part=label,
+                           field="settle-within", allow_percent=True)
+    if not 0 < value < 1:
+        raise where.error(f"settle-within must be between 0 and 1 (0 % and 100 %), got "
+                          f"{raw['settle-within']!r}", path=path, part=label,
+                          field="settle-within")
+    return value
 
 
 def _spec_units(probe: m.Probe, crossing, energy) -> dict:

@@ -35,9 +35,10 @@ FEATURES, OWN = "features", "own"
 #: closed form): ``tol.ENGINE_FLOOR`` (``tol.HAND_FLOOR``) of the probe's scale; none; the
 #: crossing-time rule (a fraction of the interval's τ scale and the value floor at the slope);
 #: the energy rule (``compare.energy.energy_floor``); ``tol.ENGINE_FLOOR`` (``tol.HAND_FLOOR``)
-#: as an absolute fraction (a ratio such as the overshoot)
-PROBE_SCALE, NO_FLOOR, TIME_FLOOR, ENERGY_RULE, FRACTION = (
-    "probe-scale", "none", "time", "energy", "fraction")
+#: as an absolute fraction (a ratio such as the overshoot); ``tol.SETTLE_PERIOD_SLACK`` periods
+#: (a count of periods)
+PROBE_SCALE, NO_FLOOR, TIME_FLOOR, ENERGY_RULE, FRACTION, PERIODS = (
+    "probe-scale", "none", "time", "energy", "fraction", "periods")
 
 #: ``FieldSpec.judged``: where the engines' values are judged against each other -- wherever
 #: both give one; not where the numerical engine does not resolve the event (a value just
@@ -72,6 +73,10 @@ class FieldSpec:
             crossing's time: ``" (its time)"``), for the file-format reference.
         label: the field's name in report tables (the crossing, peak and energy labels add
             their level, time and part from the result: ``report.common.field_label``).
+        periodic: a value of the periodic steady state over one period of the circuit's
+            repeating window (``results.PeriodicValue``, attribute of the same name): the
+            circuit must have a ``repeat``, and ``at`` plays no part.
+        whole: a count: the hand value is a whole number.
     """
 
     name: str
@@ -90,6 +95,8 @@ class FieldSpec:
     spec: bool = False
     limited: str = ""
     label: str = ""
+    periodic: bool = False
+    whole: bool = False
 
     def unit_for(self, probe_dimension: str) -> str:
         """The field's unit for a probe whose unit is ``probe_dimension`` (``V`` or ``A``)."""
@@ -155,6 +162,27 @@ FIELD_SPECS: tuple[FieldSpec, ...] = (
               "(\"16.3 %\"); e^(−πζ/√(1 − ζ²)) for a pure second-order step",
               sign=NONNEGATIVE, percent=True, source=OWN,
               engine_relative=tol.RING_ENGINE_RELATIVE, floor=FRACTION, noise=False),
+    FieldSpec("minimum", "minimum", PROBE_UNIT,
+              "periodic steady state: the smallest value over a period of the repeating "
+              "window (between events)", source=OWN, noise=False, periodic=True, spec=True,
+              label="minimum over a period (periodic steady state)"),
+    FieldSpec("maximum", "maximum", PROBE_UNIT,
+              "periodic steady state: the largest value over a period", source=OWN,
+              noise=False, periodic=True, spec=True,
+              label="maximum over a period (periodic steady state)"),
+    FieldSpec("average", "average", PROBE_UNIT,
+              "periodic steady state: the average over a period, impulses at events included",
+              source=OWN, noise=False, periodic=True, spec=True,
+              label="average over a period (periodic steady state)"),
+    FieldSpec("ripple", "ripple", PROBE_UNIT,
+              "periodic steady state: maximum − minimum over a period (peak-to-peak)",
+              sign=NONNEGATIVE, source=OWN, noise=False, periodic=True, spec=True,
+              label="ripple over a period (periodic steady state)"),
+    FieldSpec("settle_periods", "settle-periods", "1",
+              "periods from the window's first event until the probe stays within "
+              "settle-within of its first period's deviation from the steady state",
+              sign=NONNEGATIVE, source=OWN, floor=PERIODS, noise=False, periodic=True,
+              whole=True, spec=True, label="periods to settle"),
 )
 
 #: field name -> its declaration

@@ -206,6 +206,22 @@ def hazard_text(h: r.Hazard, numeric_sees: bool | None = None) -> str:
     return said
 
 
+#: why an engine gives no periodic steady state (``results.PeriodicValue.reason``)
+_PERIODIC_REASONS = {
+    r.NO_WINDOW: "the circuit has no repeating window",
+    r.GROWS: "the one-period map grows (charge pumped where nothing removes it, or a growing "
+             "mode): there is no periodic steady state",
+    r.NOT_ESTABLISHED: "it could not be established (an ill-conditioned period map, an "
+                       "integration that failed, or an interval of the window whose values "
+                       "are withheld)",
+}
+
+
+def periodic_reason(reason: str | None) -> str:
+    """Why an engine gives no periodic steady state, from ``PeriodicValue.reason``."""
+    return _PERIODIC_REASONS.get(reason, "it could not be established")
+
+
 # ----------------------------------------------------------------------------- rendering
 def text(item: r.Diagnostic | str) -> str:
     """The sentence of a diagnostic (a numerical engine's one prefixed ``NUMERIC``); text

@@ -414,7 +414,9 @@ class Expectation:
             ``dominant_tau`` (the first-order estimate of a higher-order probe, s) and the
             ring fields: ``ring_frequency`` (damped frequency f_d of the slowest visible
             complex pair, Hz), ``damping`` (its zeta), ``q`` (1/(2 zeta)), ``overshoot`` (how far
-            the response passes its final value, a fraction of the step).
+            the response passes its final value, a fraction of the step); the periodic
+            steady-state fields ``minimum``, ``maximum``, ``average``, ``ripple`` (probe's unit)
+            and ``settle_periods`` (a count), where ``at`` plays no part.
         formulas: field name -> the formula text the value was evaluated from (``"= R1*C1"``).
         tolerance: relative tolerance for hand vs computed, or None for the file's setting.
         note: free text from the file, shown in reports.
@@ -433,6 +435,9 @@ class Expectation:
     energy: EnergyCheck | None = None
     #: field name (``SPEC_FIELDS``) -> its spec limits and hand worst case
     spec: Mapping[str, "Limits"] = field(default_factory=dict)
+    #: the band of ``settle_periods`` as a fraction of the first period's deviation, or None
+    #: for ``tolerances.SETTLE_FRACTION``
+    settle_within: float | None = None
 
     @property
     def label(self) -> str:

@@ -45,6 +45,10 @@ MODE_MERGE = 1e-6
 #: periodic steady state: a probe has settled when its deviation from the steady state stays
 #: within this fraction of its deviation over the first period (``results.PeriodicValue``)
 SETTLE_FRACTION = 0.01
+#: periods: the slack of a count of periods to settle beside the relative tolerance, between
+#: hand and closed form and between the engines (a hand ln(100)·τ/T rounds either way; the
+#: numerical engine's own period map moves the count across a whole number)
+SETTLE_PERIOD_SLACK = 1.0
 
 
 def agree(a: float | None, b: float | None, relative: float, floor: float = 0.0) -> bool:

@@ -271,3 +271,180 @@ acknowledge = ["out"]
 """)
     assert exact_solve(circuit).periodic(OUT).reason == GROWS
     assert numeric_solve(circuit).periodic(OUT).reason == GROWS
+
+
+# ----------------------------------------------------------------------------- hand fields
+def _check(text: str):
+    """The one check of ``text`` through the comparator (both engines)."""
+    from harness.compare import compare_file
+    circuit = parse_circuit(text)
+    result = compare_file(circuit, exact_solve(circuit), numeric_solve(circuit))
+    return {f.name: f for f in result.checks[0].fields}
+
+
+def test_hand_fields_pass_and_a_half_ripple_is_named():
+    """Hand steady-state values from the sympy solution pass; a ripple given as the peak
+    amplitude (half of peak-to-peak) is a mismatch that says so."""
+    vmin, vmax, avg = _rc_pwm_reference(0.5, 0.3)
+    text = _pwm("50 us", count=3) + f"""
+[[expect]]
+node = "out"
+minimum = "{vmin:.6f} V"
+maximum = "{vmax:.6f} V"
+average = "{avg:.6f} V"
+ripple = "{(vmax - vmin) / 2:.6f} V"
+settle-periods = {math.ceil(math.log(0.01) / -0.5)}
+"""
+    fields = _check(text)
+    for name in ("minimum", "maximum", "average", "settle_periods"):
+        assert fields[name].verdict == "pass", fields[name]
+    assert fields["ripple"].verdict == "mismatch"
+    assert "peak-to-peak" in fields["ripple"].message
+
+
+def test_no_steady_state_never_passes():
+    """A hand average where the period map grows is a mismatch saying why, not a pass."""
+    text = """
+[parts]
+I1 = { kind = "current-source", nodes = ["gnd", "out"], value = "0 A", repeat = { period = "1 ms", duty = "50 %", levels = ["1 mA", "0 A"], count = 3 } }
+C1 = { kind = "capacitor", nodes = ["out", "gnd"], value = "1u", initial = "0 V" }
+[settings]
+acknowledge = ["out"]
+[[expect]]
+node = "out"
+average = "1 V"
+"""
+    field = _check(text)["average"]
+    assert field.verdict == "mismatch"
+    assert "no periodic steady state" in field.message
+
+
+def test_settle_within_sets_the_band_and_at_plays_no_part():
+    """settle-within "5 %": the first-order count ceil(ln 0.05 / (−T/τ)) (the module's
+    reference), T/τ = 0.37; the same block at a later event of the window gives the same
+    verdicts (the steady state belongs to the window, not to an event)."""
+    want = math.ceil(math.log(0.05) / -0.37)
+    vmin, vmax, avg = _rc_pwm_reference(0.37, 0.3)
+    block = f"""
+[[expect]]
+node = "out"
+at = "{{at}}"
+average = "{avg:.6f} V"
+ripple = "{vmax - vmin:.6f} V"
+settle-periods = {want}
+settle-within = "5 %"
+"""
+    for at in ("0 s", "111 us"):
+        fields = _check(_pwm("37 us") + block.format(at=at))
+        assert {f.verdict for f in fields.values() if f.name in
+                ("average", "ripple", "settle_periods")} == {"pass"}, fields
+        assert fields["settle_periods"].extra["settle_within"] == pytest.approx(0.05)
+        assert fields["settle_periods"].closed_form == want
+
+
+class _Unestablished:
+    """A numerical engine's solution whose periodic steady state is not established (or
+    grows): every other answer is the engine's own."""
+
+    def __init__(self, inner, reason):
+        self._inner, self._reason = inner, reason
+
+    def __getattr__(self, name):
+        return getattr(self._inner, name)
+
+    def periodic(self, probe, fraction=0.01):
+        from harness.results import PeriodicValue
+        return PeriodicValue.without(self._inner.circuit.periodic, fraction, self._reason)
+
+
+@pytest.mark.parametrize("reason, verdict", [("not-established", "pass"),
+                                             (GROWS, "engines-disagree")])
+def test_a_numerical_engine_without_a_steady_state_is_never_a_silent_pass(reason, verdict):
+    """The numerical engine that cannot establish the steady state leaves the closed form's
+    value standing alone with a note saying why; one that says the period map grows where the
+    closed form finds a steady state is an engine disagreement."""
+    from harness.compare import compare_file
+    _, _, avg = _rc_pwm_reference(0.5, 0.3)
+    circuit = parse_circuit(_pwm("50 us") + f'[[expect]]\nnode = "out"\naverage = "{avg:.6f} V"\n')
+    numeric = _Unestablished(numeric_solve(circuit), reason)
+    field = compare_file(circuit, exact_solve(circuit), numeric).checks[0].fields[-1]
+    assert field.name == "average" and field.verdict == verdict
+    assert field.numeric is None
+    assert ("not cross-checked" if verdict == "pass" else "grows") in field.message
+
+
+def test_periodic_fields_are_labelled_in_the_reports():
+    """Every report names the fields by their declaration; the settle count says its band."""
+    from harness.report.common import field_label
+    fields = _check(_pwm("50 us") + '[[expect]]\nnode = "out"\nripple = "1 V"\n'
+                    'settle-periods = 10\n')
+    assert field_label(fields["ripple"]) == "ripple over a period (periodic steady state)"
+    assert field_label(fields["settle_periods"]) == "periods to settle (within 1 % of the start)"
+
+
+def test_spec_limits_of_the_ripple_over_a_resistor_spread():
+    """R1 = 10 kΩ ± 10 %: the ripple falls as τ grows, so its extremes are the sympy steady
+    state (above) at T/τ = 50/110 and 50/90; the settle count's at its corners too."""
+    from harness.variation import analyse
+    text = _pwm("50 us", count=4).replace('value = "10k"', 'value = "10k", spread = "10%"')
+    circuit = parse_circuit(text + """
+[variation]
+samples = 50
+seed = 3
+[[expect]]
+node = "out"
+ripple = "0.5 V"
+spec = { ripple = { max = "1.5 V" }, settle-periods = { max = 12 } }
+""")
+    spreads = {s.name: s for s in analyse.analyse_circuit(circuit, numeric=False)}
+    low, high = (_rc_pwm_reference(ratio, 0.3) for ratio in (50 / 110, 50 / 90))
+    assert spreads["ripple"].low == pytest.approx(low[1] - low[0], rel=1e-7)
+    assert spreads["ripple"].high == pytest.approx(high[1] - high[0], rel=1e-7)
+    counts = [math.ceil(math.log(0.01) / -ratio) for ratio in (50 / 110, 50 / 90)]
+    assert (spreads["settle_periods"].low, spreads["settle_periods"].high) == \
+        (min(counts), max(counts))
+
+
+@pytest.mark.parametrize("name", ["pwm-current-setpoint.toml", "gate-bias-doubler.toml"])
+def test_periodic_library_circuits_pass_their_steady_state_fields(name):
+    """The bundled periodic-drive circuits (hand values from the two-exponential steady state,
+    the small-ripple estimate and the charge-sharing recursion in each file's comments) pass
+    every periodic field, both engines computing it."""
+    from pathlib import Path
+    from harness.runner import check_file
+    path = Path(__file__).resolve().parents[1] / "circuits" / "library" / "periodic" / name
+    result = check_file(str(path))
+    periodic = [f for c in result.checks for f in c.fields
+                if f.name in ("minimum", "maximum", "average", "ripple", "settle_periods")]
+    assert result.verdict == "pass"
+    assert len(periodic) >= 6
+    assert all(f.verdict == "pass" and f.numeric is not None for f in periodic), periodic
+
+
+def test_plot_shows_the_last_periods_beside_the_hand_ripple():
+    """A check with periodic fields gets a second panel: the last three periods of the window
+    in both engines, the steady state's extremes and the hand ripple about the hand average
+    (the legend and the panel's y-range are in the PNG's text chunk)."""
+    import io
+    import json
+    from PIL import Image
+    from harness.report.plots import plot_check
+    from harness.compare import compare_file
+    vmin, vmax, avg = _rc_pwm_reference(0.5, 0.3)
+    circuit = parse_circuit(_pwm("50 us", count=30) + f"""
+[[expect]]
+node = "out"
+average = "{avg:.6f} V"
+ripple = "{vmax - vmin:.6f} V"
+""")
+    check = compare_file(circuit, exact_solve(circuit), numeric_solve(circuit)).checks[0]
+    trace = check.trace
+    assert trace.periods_t[0] >= 30 * 50e-6 - 3 * 50e-6 and trace.periods_t[-1] <= 30 * 50e-6
+    assert abs(trace.periods_closed.min() - vmin) < 1e-3 * vmax      # settled after 27 periods
+    assert abs(trace.periods_closed.max() - vmax) < 1e-3 * vmax
+    with Image.open(io.BytesIO(plot_check(check))) as image:
+        facts = json.loads(image.text["tauproof"])
+    assert {"steady-state minimum", "steady-state maximum"} <= set(facts["legend"])
+    assert any(label.startswith("hand ripple") for label in facts["legend"])
+    low, high = facts["ylims"][1]
+    assert low <= vmin and high >= vmax

@@ -4,7 +4,9 @@ The classical fields (``FieldSpec.signoff`` false) are compared for every check;
 field only where the expectation asks for it.  A field whose engine values are ``Features``
 attributes (``fieldspec.FEATURES``) is compared by ``value.compare_field``; the others by the
 routine ``ROUTINES`` names for them.  Where the trust guard withholds the interval's values a
-sign-off field gets none (``_withheld_field``).
+sign-off field gets none (``_withheld_field``); a periodic steady-state field belongs to the
+repeating window, not to the event, and the trust guard's own ``periodic`` withholds it where an
+interval of the window is withheld.
 """
 
 from __future__ import annotations
@@ -21,6 +23,7 @@ from .crossing import compare_crossing
 from .dominant import compare_dominant
 from .energy import compare_energy
 from .peak import compare_peak
+from .periodic import compare_periodic
 from .ring import compare_ring
 from .value import compare_field
 
@@ -30,7 +33,9 @@ ROUTINES: dict[str, Callable[..., FieldResult]] = {
     "crossing": compare_crossing, "peak": compare_peak, "energy": compare_energy,
     "dominant_tau": compare_dominant,
     **{name: partial(compare_ring, name=name)
-       for name in ("ring_frequency", "damping", "q", "overshoot")}}
+       for name in ("ring_frequency", "damping", "q", "overshoot")},
+    **{spec.name: partial(compare_periodic, name=spec.name)
+       for spec in FIELD_SPECS if spec.periodic}}
 
 
 def field_results(exp: Expectation, fe: Features, fn: Features | None,
@@ -48,9 +53,8 @@ def signoff_fields(exp: Expectation, fe: Features, fn: Features | None,
     order."""
     wanted = [spec for spec in FIELD_SPECS if spec.signoff and exp.wants(spec.name)]
     note = ctx.exact.withheld(ctx.k)
-    if note:
-        return [_withheld_field(spec.name, exp, note) for spec in wanted]
-    return [compare_field(spec.name, exp, fe, fn, ctx) if spec.source == FEATURES
+    return [_withheld_field(spec.name, exp, note) if note and not spec.periodic
+            else compare_field(spec.name, exp, fe, fn, ctx) if spec.source == FEATURES
             else ROUTINES[spec.name](exp, fe, ctx) for spec in wanted]
 
 

@@ -8,6 +8,7 @@ from dataclasses import replace
 import numpy as np
 
 from .. import tolerances as tol
+from ..fieldspec import field_spec
 from ..model import Expectation
 from ..outcome import Trace
 from ..results import Features, Solution
@@ -17,6 +18,9 @@ from .curve import first_order
 
 #: plot and waveform-comparison grid size per check
 GRID_POINTS = 400
+#: the last periods of a repeating window drawn for a check with periodic fields, and the
+#: points per interval of them
+PLOT_PERIODS, PERIOD_POINTS = 3, 120
 
 
 def with_marks(trace: Trace, fields, dominant, t_k: float, final: float | None) -> Trace:
@@ -57,12 +61,56 @@ def make_trace(ctx: CheckContext, exp: Expectation, fe: Features) -> Trace:
         deviation = float(np.nanmax(np.abs(numeric_x - closed)) / swing)
     hand_t, hand_x = _hand_curve(exp, fe, t)
     events = ctx.circuit.events
-    return Trace(unit=exp.probe.dimension, numeric_t=numeric_t, numeric_x=numeric_x,
-                 closed_t=t, closed_x=closed, hand_t=hand_t, hand_x=hand_x,
-                 event=events[ctx.k], before=snap_zero(fe.before, ctx.scale),
-                 after=snap_zero(fe.after, ctx.scale),
-                 deviation=deviation, scale=ctx.scale,
-                 next_event=events[ctx.k + 1] if ctx.k + 1 < len(events) else None)
+    trace = Trace(unit=exp.probe.dimension, numeric_t=numeric_t, numeric_x=numeric_x,
+                  closed_t=t, closed_x=closed, hand_t=hand_t, hand_x=hand_x,
+                  event=events[ctx.k], before=snap_zero(fe.before, ctx.scale),
+                  after=snap_zero(fe.after, ctx.scale),
+                  deviation=deviation, scale=ctx.scale,
+                  next_event=events[ctx.k + 1] if ctx.k + 1 < len(events) else None)
+    if ctx.circuit.periodic is None or not any(field_spec(name).periodic for name in exp.hand):
+        return trace
+    return with_periods(trace, ctx, exp)
+
+
+def with_periods(trace: Trace, ctx: CheckContext, exp: Expectation) -> Trace:
+    """The trace with the last ``PLOT_PERIODS`` periods of the repeating window (each
+    interval's waveform in both engines, ``PERIOD_POINTS`` points per interval) and the lines
+    of the steady state's and the hand minimum and maximum."""
+    window, events = ctx.circuit.periodic, ctx.circuit.events
+    start = window.end - min(PLOT_PERIODS, window.count) * window.period
+    times, closed, numeric = [], [], []
+    for k, t_k in enumerate(events):
+        if not start - 1e-12 * window.period <= t_k < window.end:
+            continue
+        t_next = min(events[k + 1], window.end) if k + 1 < len(events) else window.end
+        t = t_k + (t_next - t_k) * np.linspace(1e-6, 1.0, PERIOD_POINTS)
+        times.append(t)
+        closed.append(np.asarray(ctx.exact.waveform(exp.probe, k, t), dtype=float))
+        numeric.append(np.full_like(t, np.nan) if ctx.numeric is None else
+                       np.asarray(ctx.numeric.waveform(exp.probe, k, t), dtype=float))
+    if not times:
+        return trace
+    return replace(trace, periods_t=np.concatenate(times), periods_closed=np.concatenate(closed),
+                   periods_numeric=np.concatenate(numeric), ripple_lines=_ripple_lines(ctx, exp))
+
+
+def _ripple_lines(ctx: CheckContext, exp: Expectation) -> tuple[tuple[str, float], ...]:
+    """(label, value): the exact steady state's minimum and maximum; the hand minimum and
+    maximum, or the hand ripple about the steady state's middle (or about the hand average)."""
+    within = exp.settle_within if exp.settle_within is not None else tol.SETTLE_FRACTION
+    exact = ctx.exact.periodic(exp.probe, within)
+    lines = []
+    if exact.reason is None:
+        lines += [("steady-state minimum", exact.minimum), ("steady-state maximum", exact.maximum)]
+    hand, unit = exp.hand, exp.probe.dimension
+    if "ripple" in hand and not ("minimum" in hand and "maximum" in hand):
+        middle = hand.get("average", None if exact.reason else
+                          0.5 * (exact.minimum + exact.maximum))
+        if middle is not None:
+            text = f"hand ripple {format_exact(hand['ripple'], unit)}"
+            lines += [(text, middle - hand["ripple"] / 2), (text, middle + hand["ripple"] / 2)]
+    lines += [(f"hand {name}", hand[name]) for name in ("minimum", "maximum") if name in hand]
+    return tuple(lines)
 
 
 def _hand_curve(exp: Expectation, fe: Features, t: np.ndarray):

@@ -43,7 +43,8 @@ def field_label(field: FieldResult) -> str:
 
     ``crossing`` and ``peak`` times are measured from the event (the check's ``at``):
     ``crossing 2 V rising (time after the event)``, ``peak |x| (at 12 ms after the event)``,
-    ``energy in R1 (J)``, ``dominant τ (Σ zero-value τ)``; the classical fields keep their name.
+    ``energy in R1 (J)``, ``dominant τ (Σ zero-value τ)``, ``periods to settle (within 1 % of
+    the start)``; the classical fields keep their name.
     """
     extra = field.extra or {}
     if field.name == "crossing":
@@ -57,6 +58,8 @@ def field_label(field: FieldResult) -> str:
         return f"peak |x| ({at})"
     if field.name == "energy":
         return f"energy in {extra.get('part', '?')}"
+    if field.name == "settle_periods" and extra.get("settle_within") is not None:
+        return f"periods to settle (within {extra['settle_within'] * 100:.3g} % of the start)"
     spec = FIELD_SPEC.get(field.name)
     return field.name if spec is None else spec.title
 

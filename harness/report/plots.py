@@ -15,6 +15,10 @@ The hand curve is the classical first-order response
 with each of x(t_k+), x_inf and tau taken from the hand values and, where the hand left a field
 out, from the closed form (then the numeric value).  ``Trace.hand_t``/``hand_x``, when the
 comparator supplies them, are drawn instead.
+
+A check with periodic steady-state fields gets a second panel: the last periods of the
+repeating window in both engines (``Trace.periods_t``) beside the steady state's minimum and
+maximum and the hand ones, or the hand ripple about the middle (``Trace.ripple_lines``).
 """
 
 from __future__ import annotations
@@ -34,6 +38,11 @@ from . import common
 
 #: figure size in inches and resolution: 7 x 4 in at 90 dpi is 630 x 360 px
 SIZE = (7.0, 4.0)
+#: the size with a second panel (the last periods of a repeating window)
+PERIODS_SIZE = (7.0, 6.8)
+#: the gap between the two panels, a fraction of the mean axis height (room for the upper
+#: panel's time label)
+PERIODS_GAP = 0.32
 DPI = 90
 #: points on the hand-predicted curve
 HAND_POINTS = 400
@@ -107,7 +116,9 @@ def plot_check(check: CheckResult, title: str = "") -> bytes | None:
     if trace is None:
         return None
     unit = trace.unit or (check.fields[0].unit if check.fields else "")
-    fig, ax = new_figure()
+    periods = trace.periods_t is not None
+    fig, axes = new_figure(2, PERIODS_SIZE, share=False) if periods else new_figure()
+    ax, axes = (axes[0], axes) if periods else (axes, [axes])
     t_k = trace.event if trace.event is not None else check.at
     view = _view(check, t_k)
     ends = _draw_curves(ax, check, t_k, view)
@@ -121,17 +132,42 @@ def plot_check(check: CheckResult, title: str = "") -> bytes | None:
     ax.set_ylabel(plain(shorten(check.probe, 40)), fontsize=9)
     heading = title or common.check_label(check)
     ax.set_title(plain(shorten(heading, 80)), fontsize=10, loc="left")
-    legend_below(fig, [ax], 3)
-    return png(fig, [ax], curves_end=max(ends, default=None))
+    if periods:
+        _draw_periods(axes[1], trace, unit)
+    legend_below(fig, axes, 3)
+    if periods:
+        fig.subplots_adjust(hspace=PERIODS_GAP)
+    return png(fig, axes, curves_end=max(ends, default=None))
 
 
-def new_figure(rows: int = 1, size: tuple[float, float] = SIZE):
-    """A Figure on the Agg canvas (no pyplot, no global state) and its axes (one per row)."""
+def _draw_periods(ax, trace, unit: str) -> None:
+    """The last periods of the repeating window in both engines (absolute time), with the
+    steady state's minimum and maximum (dotted) and the hand ones or the hand ripple (dashed)
+    as horizontal lines."""
+    ax.plot(trace.periods_t, trace.periods_numeric, color=_COLOURS["numeric"], linewidth=2.4,
+            alpha=0.55, label="_nolegend_")
+    ax.plot(trace.periods_t, trace.periods_closed, color=_COLOURS["closed"], linewidth=1.3,
+            linestyle="--", label="_nolegend_")
+    shown = set()
+    for label, level in trace.ripple_lines:
+        hand = label.startswith("hand")
+        ax.axhline(level, color=_COLOURS["hand" if hand else "closed"], linewidth=1.0,
+                   linestyle="--" if hand else ":",
+                   label="_nolegend_" if label in shown else plain(label))
+        shown.add(label)
+    axis_format(ax, unit)
+    keep_span(ax, trace.scale)
+    ax.set_xlabel("time (the last periods of the repeating window)", fontsize=9)
+
+
+def new_figure(rows: int = 1, size: tuple[float, float] = SIZE, share: bool = True):
+    """A Figure on the Agg canvas (no pyplot, no global state) and its axes (one per row,
+    sharing the time axis unless ``share`` is false)."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg  # imported when drawing: a
     from matplotlib.figure import Figure                           # run without reports does
     fig = Figure(figsize=size, dpi=DPI)                           # not pay ~0.3 s for it
     FigureCanvasAgg(fig)
-    axes = fig.subplots(rows, 1, sharex=True, squeeze=False)[:, 0]
+    axes = fig.subplots(rows, 1, sharex=share, squeeze=False)[:, 0]
     return fig, (axes[0] if rows == 1 else list(axes))
 
 

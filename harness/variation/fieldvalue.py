@@ -2,7 +2,8 @@
 
 Every field is the closed form's own value (``harness.closedform``): before, after, final and
 τ from its features, the crossing time, peak magnitude, energy and dominant τ from its sign-off
-methods.  A value the engine does not give (no crossing, not first order) is NaN.
+methods, the periodic steady-state fields from its ``periodic``.  A value the engine does not
+give (no crossing, not first order, no steady state) is NaN.
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ import numpy as np
 from .. import model as m
 from ..closedform import solve as closed_solve
 from ..fieldspec import FEATURES, field_spec
+from ..tolerances import SETTLE_FRACTION
 from .quantities import Quantity, apply
 
 _FAILURES = (ValueError, ArithmeticError, np.linalg.LinAlgError)
@@ -38,8 +40,12 @@ def field_values(solution, circuit: m.Circuit, exp: m.Expectation,
 
 
 def _one(solution, feats, exp: m.Expectation, k: int, name: str) -> float:
-    if field_spec(name).source == FEATURES:
+    spec = field_spec(name)
+    if spec.source == FEATURES:
         value = getattr(feats, name)
+    elif spec.periodic:
+        within = exp.settle_within if exp.settle_within is not None else SETTLE_FRACTION
+        value = getattr(solution.periodic(exp.probe, within), name)
     elif name == "crossing":
         c = exp.crossing
         value = solution.crossing(exp.probe, k, c.level, c.direction).time
