@@ -18,6 +18,7 @@ from .. import model as m
 from .. import tolerances as tol
 from ..fieldspec import field_spec
 from ..outcome import ENGINES_DISAGREE, MISMATCH, PASS, worst
+from ..units import format_apart
 from . import batch, fieldvalue, stats
 from .extremes import search
 from .quantities import Quantity, edges, varied
@@ -200,15 +201,17 @@ def _verdict(result, limits: m.Limits, lo, hi, nominal, exp, circuit):
         if value is not None and numeric is not None and \
                 not tol.agree(value, numeric, tol.ENGINE_RELATIVE, 0.0):
             verdicts.append(ENGINES_DISAGREE)
-            messages.append(f"at the {which} corner the numerical engine gives {numeric:.6g} "
-                            f"{unit}, the closed form {value:.6g} {unit}")
+            shown = format_apart((numeric, value), unit)
+            messages.append(f"at the {which} corner the numerical engine gives {shown[0]}, "
+                            f"the closed form {shown[1]}")
     relative = exp.tolerance if exp.tolerance is not None else circuit.settings.tolerance
     for hand, value, word in ((limits.hand_min, lo, "min"), (limits.hand_max, hi, "max")):
         if hand is not None and not (value is not None and tol.agree(hand, value, relative,
                                                                      0.0)):
             verdicts.append(MISMATCH)
-            messages.append(f"hand worst-case {word} {hand:.6g} {unit} but the computed "
-                            f"{word} over the spreads is {value} {unit}")
+            shown = format_apart((hand, value), unit)
+            messages.append(f"hand worst-case {word} {shown[0]} but the computed "
+                            f"{word} over the spreads is {shown[1]}")
     values = [v for v in (lo, hi) if v is not None]
     if not values:             # no extremes asked for: the RSS bounds, else the nominal stand in
         values = list(result.get("rss") or ()) or [nominal]
