@@ -323,10 +323,6 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
         settled = status == "settled"
         if status == "reached":
             status = "horizon"
-    if settled and not consistent:
-        # it settled, so an operating point exists that the DC solve did not establish: the
-        # values read against its origin are not reported as settled ones
-        settled, status = False, "no-origin"
     return acc.run(t0, length, origin, origin_full, consistent, y_next,
                    "settled" if settled else status, settled)
 
@@ -399,7 +395,12 @@ class _Accumulator:
     def run(self, t0: float, length: float | None, origin: np.ndarray, origin_full: np.ndarray,
             consistent: bool, y_next: np.ndarray | None, status: str,
             settled: bool) -> IntervalRun:
-        """The ``IntervalRun`` of the steps joined so far."""
+        """The ``IntervalRun`` of the steps joined so far.  One that settled without an
+        established operating point (``consistent`` False) has status ``no-origin``: an
+        operating point exists that the DC solve did not find, and values read against it are
+        not reported as settled ones."""
+        if settled and not consistent:
+            settled, status = False, "no-origin"
         s_arr = np.asarray(self.s)
         dense = OdeSolution(s_arr, self.interps) if self.interps else None
         return IntervalRun(t0, length, origin, origin_full, consistent, s_arr,
