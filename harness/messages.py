@@ -102,6 +102,11 @@ _UNSETTLED = {
 
 
 def _unsettled(d: r.Diagnostic) -> str:
+    if d.detail == "no-origin":
+        return (f"{_interval(d)}: the response settled by t = {format_si(d.value('end'), 's')}, "
+                "but the numerical engine could not establish the DC operating point it "
+                "settles to (its DC solve gave no equilibrium within the magnitudes the "
+                "circuit's sources can drive); values at and after settling are not reported")
     reason = _UNSETTLED.get(d.detail, "could not be integrated")
     where = f"node {d.nodes[0]!r}" if d.nodes else f"the current of {d.parts[0]!r}"
     return (f"{_interval(d)}: the response {reason} by t = {format_si(d.value('end'), 's')}, "

@@ -69,7 +69,8 @@ NO_DC_PATH = "no-dc-path"                  # charge with no DC path: grows witho
 # The numerical engine (``engine="numeric"``):
 PULSE_GROWTH = "pulse-growth"              # interval, time, value growth (1/s; inf: singular)
 # interval, time, value end (s), the node (nodes) or inductor/carrier (parts) most visible;
-# detail no-operating-point, blow-up, horizon or failed:
+# detail no-operating-point, blow-up, horizon, failed or no-origin (settled, to an operating
+# point its DC solve did not establish):
 UNSETTLED = "unsettled"
 # interval, time, values steps, step-budget, eval-budget; detail solve or interval:
 WORK_BUDGET = "work-budget"

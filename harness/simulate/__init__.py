@@ -63,7 +63,12 @@ Initial state (initial.py)
 Integration (integrate.py)
     Radau (order 5, L-stable) with the analytic Jacobian, in local time from each event, on the
     deviation z from the interval's own operating point (where none exists: a constant driving
-    term, growth); three runs: through the pulse and the post-pulse fit window (first step
+    term, growth).  An operating point is accepted up to engine.PLAUSIBLE times what the
+    circuit's sources can drive (voltages times the gain factor; that voltage through the
+    smallest resistance), its residual judged with each state counted at least at its
+    tolerance; an interval that settles although no operating point was established gives no
+    final value and the ``unsettled`` diagnostic (detail no-origin), and its values are read
+    against the integrated state, never against the solve's discarded one.  Three runs: through the pulse and the post-pulse fit window (first step
     1e-3 t_pulse, at least 16 steps), to the next event (whose state starts the next interval),
     then the held continuation until every capacitor voltage and inductor current has
     |rate| * elapsed time <= 1e-11 of its scale, or the horizon, 50000 steps or a 1e9-fold

@@ -8,8 +8,8 @@ from dataclasses import replace
 
 import numpy as np
 
-from ..model import (CAPACITOR, CONTROLLED, CURRENT_SOURCE, INDUCTOR, RESISTOR, VOLTAGE_SOURCE,
-                     Circuit)
+from ..model import (CAPACITOR, CONTROLLED, CURRENT_SOURCE, INDUCTOR, RESISTOR, SWITCH,
+                     VOLTAGE_SOURCE, Circuit)
 from ..results import BREAKDOWN, PULSE_GROWTH, STOPPED, UNSETTLED, WORK_BUDGET, Diagnostic
 from .coordinates import Unreduced
 from .branches import layout
@@ -26,6 +26,10 @@ ATOL_FRACTION = 1e-4
 #: a carrier current is never asked to be more precise than this many times the rounding of
 #: its voltage u = v_p - v_n - E, i.e. CARRIER_NOISE * V / r_s (below it Radau's steps stall)
 CARRIER_NOISE = 1e-14
+#: an interval's DC operating point is plausible up to this many times the largest magnitude
+#: the circuit's sources can drive in each kind of state (``_plausible``); beyond it the solve
+#: is taken to have found no equilibrium (a nearly singular system's rounding)
+PLAUSIBLE = 1e5
 #: pulse ratio of the pilot model that locates the fastest real mode
 PILOT_RATIO = 1e-3
 #: the pilot is skipped above this many integrated states (dense eigenvalues)
@@ -73,6 +77,33 @@ def _scales(circuit: Circuit, lay, y0: np.ndarray) -> tuple[float, float]:
     return v, i
 
 
+def _plausible(circuit: Circuit, lay, atol: np.ndarray, rtol: float, v_scale: float,
+               i_scale: float) -> np.ndarray:
+    """The largest plausible magnitude of each state of an operating point, shape (n,), for
+    integrate.interval_origin.
+
+    From the circuit's own scales: a node voltage reaches at most the voltage scale, or the
+    largest source current through the largest resistance (a switch's off-resistance
+    included), times the controlled sources' gain factor; a current reaches at most that
+    voltage through the smallest resistance (a switch's on-resistance included) plus the
+    largest source current.  Each is taken ``PLAUSIBLE`` times, and never below 1e9 times the
+    state's absolute-tolerance base atol / rtol (the carriers' floor included).  A current
+    scale read from the largest resistance alone (``_scales``, which sets the tolerances) is
+    far below what a small resistance carries: 0.503 A settles through 6.64 ohm beside
+    686 kohm, 1e5 times a 4.9 uA scale.
+    """
+    nn = len(lay.nodes)
+    res = [abs(p.value) for p in circuit.parts if p.kind == RESISTOR and p.value]
+    res += [abs(r) for p in circuit.parts if p.kind == SWITCH
+            for r in (p.on_resistance, p.off_resistance) if r]
+    i_src = _source_max(circuit, CURRENT_SOURCE)
+    volts = max(v_scale, i_src * max(res, default=0.0)) * gain_factor(circuit)
+    amps = max(i_scale, volts / min(res) + i_src if res else 0.0)
+    physical = np.full(lay.n, PLAUSIBLE * volts)
+    physical[nn:] = PLAUSIBLE * amps
+    return np.maximum(1e9 * atol / rtol, physical)
+
+
 def _carrier_floor(circuit: Circuit, lay, systems, atol: np.ndarray, v_scale: float,
                    r_series: float) -> np.ndarray:
     """atol with each carrier current raised to CARRIER_NOISE * |u| / r_s, |u| bounded by the
@@ -99,7 +130,9 @@ def _warning(circuit: Circuit, lay, run, k: int, run_dyn: np.ndarray) -> Diagnos
     index = int(dyn[int(np.argmax(change))]) if dyn.size else 0
     name = names[index] if len(names) else "?"
     where = {"nodes": (name,)} if index < len(lay.nodes) else {"parts": (name,)}
-    if not run.consistent:
+    if run.status == "no-origin":
+        reason = "no-origin"
+    elif not run.consistent:
         reason = "no-operating-point"
     elif run.status in ("blow-up", "horizon"):
         reason = run.status
@@ -245,9 +278,10 @@ def _growth_warning(k: int, t_k: float, growth: float) -> Diagnostic:
 
 
 def _march(circuit: Circuit, lay, systems, y0: np.ndarray, reg, rtol: float,
-           atol: np.ndarray) -> tuple[list, list[Diagnostic]]:
+           atol: np.ndarray, plausible: np.ndarray) -> tuple[list, list[Diagnostic]]:
     """Integrate interval after interval from y(0-) = ``y0`` (shape (n,)); stop at the first
     interval with pulse-scale growth, a spent work budget or a failed integration.
+    ``plausible``: the operating points' magnitude bound, shape (n,) (``_plausible``).
 
     Returns:
         (runs, warnings): one ``IntervalRun`` per interval reached, and the warnings.
@@ -274,7 +308,7 @@ def _march(circuit: Circuit, lay, systems, y0: np.ndarray, reg, rtol: float,
             earliest[id(system.jac)] = _earliest_settle(system, reg)
         run = integrate_interval(system, y, t_k, length, reg.horizon, rtol, atol,
                                  reg.post_pulse, earliest[id(system.jac)], dynamic, window,
-                                 reg.t_pulse * FIRST_STEP,
+                                 reg.t_pulse * FIRST_STEP, plausible,
                                  budget=(min(STEP_BUDGET, SOLVE_STEP_BUDGET - steps),
                                          min(EVAL_BUDGET, SOLVE_EVAL_BUDGET - evals)),
                                  factors=factors)
@@ -322,10 +356,11 @@ def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
     atol = np.full(lay.n, rtol * ATOL_FRACTION * v_scale)
     atol[nn:] = rtol * ATOL_FRACTION * i_scale
     atol = _carrier_floor(circuit, lay, [pre] + list(systems), atol, v_scale, reg.r_series)
-    runs, warnings = _march(circuit, lay, systems, y0, reg, rtol, atol)
+    plausible = _plausible(circuit, lay, atol, rtol, v_scale, i_scale)
+    runs, warnings = _march(circuit, lay, systems, y0, reg, rtol, atol, plausible)
     total = _time.perf_counter() - started
     stepping = sum(run.stats.seconds for run in runs)
     return NumericSolution(circuit=circuit, warnings=tuple(warnings), regularisation=reg,
                            layout=lay, pre=pre, systems=tuple(systems), y0=y0, runs=tuple(runs),
                            rtol=rtol, atol=atol, v_scale=v_scale, i_scale=i_scale,
-                           setup_seconds=total - stepping)
+                           plausible=plausible, setup_seconds=total - stepping)

@@ -62,6 +62,9 @@ BLOW_UP = 1e9
 WINDOW_STEPS = 16
 #: steps allowed in one run (up to the next event, or the settling continuation)
 MAX_STEPS = 50000
+#: an operating point may hold this many times the magnitude of each state at the event
+#: (charge trapped on capacitors and flux in inductor loops is kept, not driven)
+TRAPPED = 1e3
 
 
 @dataclass(frozen=True)
@@ -101,7 +104,8 @@ class IntervalRun:
         y_next: full state at the next event, shape (n,), or None (last interval or failure).
         end: local time where the held continuation stopped (s).
         status: ``settled``, ``horizon`` (not settled in time), ``blow-up``, ``failed`` (the
-            integrator broke down) or ``budget`` (the work budget ran out).
+            integrator broke down), ``budget`` (the work budget ran out) or ``no-origin``
+            (settled, but to an operating point the DC solve did not establish).
         settle_time: local time at which settling was detected, or None.
         stats: integrator counters.
     """
@@ -265,7 +269,7 @@ def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: floa
 def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float | None,
                        horizon: float, rtol: float, atol: np.ndarray, pulse_end: float,
                        earliest: float, dynamic: np.ndarray, window: float,
-                       first_step: float,
+                       first_step: float, plausible: np.ndarray,
                        budget: tuple[float, float] = (np.inf, np.inf),
                        factors: dict | None = None) -> IntervalRun:
     """Integrate interval k from y(t_k-) = y0; see the module docstring.
@@ -286,13 +290,16 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
             there, with steps of at most window / WINDOW_STEPS.
         first_step: the first step (s), a fraction of the pulse width (Radau's own choice from
             the initial slope can step over a pulse its error estimate does not see).
+        plausible: the largest magnitude of each state of an operating point, shape (n,)
+            (``interval_origin``).
         budget: (accepted steps, right-hand-side evaluations) the interval may use in all its
             runs; past either the run stops with status ``budget``.
         factors: a dict owned by the caller for one solve, keeping the DC factorisations of
             the intervals' systems (linsolve.solve).
     """
     red = system.reduction
-    origin_full, consistent, origin, r = _origin(system, y0, atol / rtol, factors)
+    origin_full, consistent, origin, r = interval_origin(system, y0, plausible, atol / rtol,
+                                                         factors)
     atol, dynamic = atol[red.dyn], dynamic[red.dyn]
     z0 = red.integrated(y0) - origin
     settle = _Settle(lambda z: system.jac @ z + r, dynamic, atol / rtol, pulse_end, earliest)
@@ -340,15 +347,31 @@ def _to_next_event(system: System, r: np.ndarray, origin: np.ndarray, acc: "_Acc
     return status, y_next, settled
 
 
-def _origin(system: System, y0: np.ndarray, scale: np.ndarray, factors: dict | None = None):
-    """(origin as a full state, consistent, origin over x_d, driving term r) of an interval;
-    ``factors`` keeps the factorisations of K_dc across intervals (linsolve.solve)."""
+def interval_origin(system: System, y0: np.ndarray, plausible: np.ndarray, noise: np.ndarray,
+                    factors: dict | None = None):
+    """(origin as a full state, consistent, origin over x_d, driving term r) of an interval.
+
+    The origin is the interval's DC operating point (linsolve.operating_point), accepted up to
+    ``plausible`` (shape (n,): the largest magnitude each state of an operating point can take,
+    from the circuit's own scales, engine.py) plus ``TRAPPED`` times |y0| (charge and flux the
+    interval keeps).  Where no operating point is established (``consistent`` False) the
+    origin is whatever the solve left, and the full origin is rebuilt from it through the
+    reduction's lift, so that a probe read at the origin (probes.probe_offset) is the value of
+    the same state the integration starts from; the DC solve's own full state there is not an
+    equilibrium and may differ from the lift (a zero vector has no source in it).  ``noise``
+    (shape (n,)): the magnitude below which each state is at its tolerance, atol / rtol
+    (linsolve.operating_point).
+    ``factors`` keeps the factorisations of K_dc across intervals (linsolve.solve).
+    """
     origin_full, consistent = operating_point(system.K_dc, system.b_dc,
-                                              1e9 * scale + 1e3 * np.abs(y0), system.M, y0,
-                                              factors)
-    origin = system.reduction.integrated(origin_full)
-    r = np.zeros_like(origin) if consistent else system.jac @ origin + system.c
-    return origin_full, consistent, origin, r
+                                              plausible + TRAPPED * np.abs(y0), system.M, y0,
+                                              factors, noise)
+    red = system.reduction
+    origin = red.integrated(origin_full)
+    if consistent:
+        return origin_full, True, origin, np.zeros_like(origin)
+    origin_full = np.asarray(red.lift @ origin).ravel() + red.lift_c
+    return origin_full, False, origin, np.asarray(system.jac @ origin + system.c).ravel()
 
 
 class _Accumulator:
@@ -372,7 +395,12 @@ class _Accumulator:
     def run(self, t0: float, length: float | None, origin: np.ndarray, origin_full: np.ndarray,
             consistent: bool, y_next: np.ndarray | None, status: str,
             settled: bool) -> IntervalRun:
-        """The ``IntervalRun`` of the steps joined so far."""
+        """The ``IntervalRun`` of the steps joined so far.  One that settled without an
+        established operating point (``consistent`` False) has status ``no-origin``: an
+        operating point exists that the DC solve did not find, and values read against it are
+        not reported as settled ones."""
+        if settled and not consistent:
+            settled, status = False, "no-origin"
         s_arr = np.asarray(self.s)
         dense = OdeSolution(s_arr, self.interps) if self.interps else None
         return IntervalRun(t0, length, origin, origin_full, consistent, s_arr,

@@ -145,8 +145,8 @@ def _conserving(K: sp.spmatrix, M: sp.spmatrix, y_p: np.ndarray, y0: np.ndarray)
 
 
 def operating_point(K: sp.spmatrix, b: np.ndarray, bound: np.ndarray, M: sp.spmatrix | None = None,
-                    y0: np.ndarray | None = None,
-                    factors: dict | None = None) -> tuple[np.ndarray, bool]:
+                    y0: np.ndarray | None = None, factors: dict | None = None,
+                    noise: np.ndarray | None = None) -> tuple[np.ndarray, bool]:
     """(y_o, consistent): K y_o = b solved and refined, else least squares; y_o shape (n,).
 
     Where K is singular (charge trapped on capacitors, flux in loops of inductors and carriers)
@@ -157,7 +157,10 @@ def operating_point(K: sp.spmatrix, b: np.ndarray, bound: np.ndarray, M: sp.spma
     the largest plausible magnitude of each state; a solution beyond it is replaced by the
     least-squares one, and that by zero.  ``consistent`` is False where no operating point exists
     (unbounded growth): some row's residual exceeds ``CONSISTENT`` times that row's terms.
-    ``factors`` keeps K's factorisation for intervals that share K (see ``solve``).
+    ``factors`` keeps K's factorisation for intervals that share K (see ``solve``).  ``noise``
+    (shape (n,), optional): each state's magnitude below which it is rounding; a row's terms
+    count each state at least at it, so that a row whose states are all rounding-level zeros
+    (a carrier current that carries nothing) is not judged on the rounding alone.
     """
     n = b.shape[0]
     y = np.zeros(n)
@@ -172,7 +175,7 @@ def operating_point(K: sp.spmatrix, b: np.ndarray, bound: np.ndarray, M: sp.spma
             y = trial
             break
         singular = True
-    terms = abs(K) @ np.abs(y) + np.abs(b)
+    terms = abs(K) @ (np.abs(y) if noise is None else np.abs(y) + noise) + np.abs(b)
     residual = np.abs(_residual(sp.coo_matrix(K), b, y))
     consistent = bool(np.all(residual <= CONSISTENT * terms + 1e-300))
     if singular and consistent and M is not None and y0 is not None and n <= NULLSPACE_UP_TO:

@@ -36,7 +36,7 @@ from scipy.optimize import minimize_scalar
 
 from ..model import Probe
 from ..results import GROWS, NO_WINDOW, NOT_ESTABLISHED, PeriodicValue
-from .linsolve import operating_point
+from .integrate import interval_origin
 from .probes import probe_row
 
 #: the first step of an interval, as a fraction of the pulse width (as the engine's own)
@@ -114,10 +114,7 @@ def _legs(sol) -> tuple[_Leg, ...]:
         nxt = window.offsets[j + 1] if j + 1 < len(window.offsets) else \
             window.offsets[0] + window.period
         system = sol.systems[k]
-        bound = 1e9 * sol.atol / sol.rtol + 1e3 * np.abs(y)
-        origin_full, consistent = operating_point(system.K_dc, system.b_dc, bound, system.M, y)
-        origin = system.reduction.integrated(origin_full)
-        r = np.zeros_like(origin) if consistent else system.jac @ origin + system.c
+        _, _, origin, r = interval_origin(system, y, sol.plausible, sol.atol / sol.rtol)
         legs.append(_Leg(k, system, nxt - offset, time, origin, np.asarray(r).ravel()))
     return tuple(legs)
 

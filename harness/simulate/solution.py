@@ -12,8 +12,7 @@ from ..tolerances import MODE_VISIBILITY, SETTLE_FRACTION
 from .branches import Layout
 from .equations import System
 from .features import decay, fit_window, post_pulse, pulse_points, values
-from .integrate import IntervalRun, IntervalStats
-from .linsolve import operating_point
+from .integrate import IntervalRun, IntervalStats, interval_origin
 from .probes import probe_offset, probe_row, voltage_row
 from .regularise import Regularisation, gain_factor
 from . import periodic, signoff
@@ -51,6 +50,8 @@ class NumericSolution(NotComputed):
         runs: the integrated intervals (fewer than the events if an interval failed).
         rtol: relative tolerance used; atol: absolute tolerances, shape (n,).
         v_scale, i_scale: voltage (V) and current (A) scales of the states.
+        plausible: the largest magnitude of each state of an operating point, shape (n,)
+            (integrate.interval_origin).
         setup_seconds: wall time outside the integrator (building, DC solve).
     """
 
@@ -66,6 +67,7 @@ class NumericSolution(NotComputed):
     atol: np.ndarray
     v_scale: float
     i_scale: float
+    plausible: np.ndarray
     setup_seconds: float = 0.0
     engine: str = ENGINE
     _cache: dict = field(default_factory=dict, compare=False, repr=False)
@@ -95,11 +97,9 @@ class NumericSolution(NotComputed):
             run = self.runs[k]
             return run.origin, run.consistent, run.origin_full
         if "pre-origin" not in self._cache:
-            bound = 1e9 * self.atol / self.rtol + 1e3 * np.abs(self.y0)
-            origin, consistent = operating_point(self.pre.K_dc, self.pre.b_dc, bound,
-                                                 self.pre.M, self.y0)
-            self._cache["pre-origin"] = (self.pre.reduction.integrated(origin), consistent,
-                                         origin)
+            full, consistent, origin, _ = interval_origin(self.pre, self.y0, self.plausible,
+                                                  self.atol / self.rtol)
+            self._cache["pre-origin"] = (origin, consistent, full)
         return self._cache["pre-origin"]
 
     def _offset(self, probe: Probe, k: int) -> float:

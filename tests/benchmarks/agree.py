@@ -54,6 +54,7 @@ def disagreements(result) -> list[tuple[str, str]]:
 
 def run_one(seed: int, seconds: float = 60.0) -> dict:
     """Analyse circuit ``seed``; its disagreements, errors, limits and time."""
+    from harness.messages import text as sentence
     from harness.runner import check_file
     signal.signal(signal.SIGALRM, _alarm)
     signal.setitimer(signal.ITIMER_REAL, seconds)
@@ -66,7 +67,8 @@ def run_one(seed: int, seconds: float = 60.0) -> dict:
             result = check_file(path)
         found = disagreements(result)
         errors = list(result.errors)
-        limits = [w for w in result.warnings if "budget" in w or "beyond" in w]
+        said = [w if isinstance(w, str) else sentence(w) for w in result.warnings]
+        limits = [w for w in said if "budget" in w or "beyond" in w]
     except _Timeout:
         found, errors, limits = [], [f"over {seconds:g} s"], []
     except Exception as err:  # the generator itself (reader refusal) is reported, not hidden
