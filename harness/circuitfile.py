@@ -324,7 +324,7 @@ def _expectations(raw: object, circuit: m.Circuit, where: Where) -> tuple[m.Expe
     if len(raw) > MAX_EXPECTATIONS:
         raise where.error(f"{len(raw)} [[expect]] blocks; the limit is {MAX_EXPECTATIONS}",
                           path=("expect",), field="expect")
-    scope = _Scope({p.name: p.value for p in circuit.parts if p.value is not None},
+    scope = _Scope({p.name: p.value for p in circuit.parts},
                     {p.name: m.KIND_SPECS[p.kind].units["value"] for p in circuit.parts
                      if p.value is not None})
     return tuple(_expectation(i, block, circuit, scope, where) for i, block in enumerate(raw))
@@ -332,7 +332,8 @@ def _expectations(raw: object, circuit: m.Circuit, where: Where) -> tuple[m.Expe
 
 @dataclass(frozen=True)
 class _Scope:
-    """What a hand-value formula may name: part name -> SI value, and -> its dimension word."""
+    """What a hand-value formula may name: part name -> SI value (None for a part without one),
+    and -> its dimension word."""
 
     values: dict
     units: dict

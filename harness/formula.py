@@ -106,7 +106,8 @@ def evaluate(text: str, values: Mapping[str, float], dimension: str | None = Non
 
     Args:
         text: the formula, starting with ``=`` (leading blanks allowed).
-        values: part name -> value in SI base units (ohms, farads, henries, volts, amperes, gain).
+        values: part name -> value in SI base units (ohms, farads, henries, volts, amperes, gain),
+            or None for a part that has none (naming it is an error that says so).
         dimension: the field's dimension (``"s"``, ``"V"`` ...), a units.py dimension word.
         units: part name -> the dimension word of its value (``"ohm"``, ``"F"`` ...); with it
             and ``dimension`` the formula is dimension-checked (module doc, "Units").  A part
@@ -399,6 +400,9 @@ class _Evaluator(_Walker):
             raise _fail(f"unknown part {where}", self.text, token.text, token.column,
                         f" (parts: {known})")
         value = self.values[token.text]
+        if value is None:
+            raise _fail(f"part {where} has no value to use (a switch, an ideal op-amp without a "
+                        f"gain or a part given no `value`)", self.text, token.text, token.column)
         if isinstance(value, bool) or not isinstance(value, (int, float)) \
                 or not math.isfinite(value):
             raise _fail(f"part {where} has no finite value ({value!r})", self.text,

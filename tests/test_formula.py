@@ -208,7 +208,7 @@ def test_bad_inputs_to_the_api():
     """A part without a finite value and a non-text formula are FormulaErrors."""
     with pytest.raises(FormulaError, match="'R1' at column 3 has no finite value"):
         evaluate("= R1", {"R1": math.nan})
-    with pytest.raises(FormulaError, match="no finite value"):
+    with pytest.raises(FormulaError, match="has no value to use"):
         evaluate("= R1", {"R1": None})
     with pytest.raises(FormulaError, match="text starting with '='"):
         evaluate(3.0, {})
@@ -380,3 +380,12 @@ def test_arbitrary_text_raises_only_formula_errors(text):
         assert all(isinstance(name, str) for name in names(text))
     except FormulaError:
         pass
+
+
+def test_a_part_without_a_value_is_named_as_such_not_as_unknown():
+    """A formula naming a switch (no value) says the part has no value to use, not that the
+    part is unknown (a user who typed the right name must not hunt for a typo)."""
+    with pytest.raises(FormulaError, match="part 'S1' at column 6 has no value to use"):
+        evaluate("= R1*S1", {"R1": 1e3, "S1": None})
+    with pytest.raises(FormulaError, match="unknown part 'S2'"):
+        evaluate("= R1*S2", {"R1": 1e3, "S1": None})
