@@ -20,7 +20,7 @@ from typing import Mapping
 import numpy as np
 
 from .. import tolerances as tol
-from ..model import NODE, Probe
+from ..model import Probe
 from ..results import (NOT_ESTABLISHED, Conditioning, CrossingValue, DominantTau, EnergyValue,
                        Features, Hazard, Jump, PeakValue, PeriodicValue, Solution)
 from ..units import format_si
@@ -96,21 +96,19 @@ class Guarded:
         return self._conditioning
 
     def node_voltages(self) -> list[tuple[float, ...]] | None:
-        """The engine's node voltages per instant with the withheld intervals' values left out
-        (node by node through ``features`` when any interval is withheld)."""
-        if all(trusted(c) for c in self._conditioning):
-            return self._inner.node_voltages()
-        circuit, instants = self.circuit, []
-        nodes = [n for n in circuit.nodes if n != circuit.ground]
-        for k in range(len(circuit.events)):
-            trio: tuple[list, list, list] = ([], [], [])
-            for node in nodes:
-                f = self.features(Probe(NODE, (node,)), k)
-                for column, v in zip(trio, (f.before, f.after, f.final)):
-                    if v is not None:
-                        column.append(v)
-            instants += [tuple(column) for column in trio]
-        return instants
+        """The engine's node voltages per instant (three per interval: before, just after,
+        final) with what ``features`` withholds left out: the before of an interval whose
+        previous one is untrusted, the after and final of an untrusted one."""
+        inner = self._inner.node_voltages()
+        if inner is None:
+            return None
+        out = []
+        for i, values in enumerate(inner):
+            k, which = divmod(i, 3)
+            held = not trusted(self._conditioning[k]) if which else \
+                k > 0 and not trusted(self._conditioning[k - 1])
+            out.append(() if held else values)
+        return out
 
     # ----- the wrapped engine's answers ------------------------------------------------------
     def jump(self, k: int) -> Jump:
