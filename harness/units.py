@@ -137,7 +137,29 @@ def _parse_text(text: str, dimension: str, allow_percent: bool) -> float:
                 raise UnitError(f"cannot read {text!r}: unknown unit {unit!r}")
             dim = UNITS[unit]
         return _apply(number, dim, dimension, allow_percent, text)
+    hint = _case_hint(text)
+    if hint:
+        raise UnitError(f"cannot read {text!r} as a quantity: unit letters are case-sensitive "
+                        f"(m is milli, M mega); did you mean {hint!r}?")
     raise UnitError(f"cannot read {text!r} as a quantity (examples: '4k7', '3.3 V', '100 ms', '1 uF')")
+
+
+def _case_hint(text: str) -> str | None:
+    """``text`` with its unit's letter case corrected (``'100 nf'`` -> ``'100 nF'``), when that
+    reading is the only one; None otherwise.  The prefix keeps its case: ``m`` and ``M`` differ
+    by nine decades, so a wrong prefix case is never guessed."""
+    m = _PLAIN.match(text)
+    if not m or not m.group(2):
+        return None
+    suffix = m.group(2)
+    readings = set()
+    for cut in (0, 1):
+        prefix, unit = suffix[:cut], suffix[cut:]
+        if (cut and prefix not in PREFIXES) or not unit:
+            continue
+        readings.update(prefix + known for known in UNITS
+                        if known.lower() == unit.lower() and known != unit)
+    return f"{m.group(1)} {readings.pop()}" if len(readings) == 1 else None
 
 
 def has_suffix(text: str) -> bool:

@@ -108,3 +108,23 @@ def test_round_trip_plain_number(value):
     """A dimensionless value printed with only a prefix ('4.7 k') reads back the same."""
     assert math.isclose(parse_quantity(format_si(value, "1", digits=12), "1"), value,
                         rel_tol=1e-11)
+
+
+@pytest.mark.parametrize("text, dimension, hint", [
+    ("100 nf", "F", "100 nF"), ("10 mv", "V", "10 mV"), ("4.7 uh", "H", "4.7 uH"),
+    ("5 hz", "Hz", "5 Hz"), ("3.3 v", "V", "3.3 V"),
+])
+def test_unit_case_slip_names_the_reading(text, dimension, hint):
+    """A unit typed in the wrong letter case ('100 nf') is refused, and the message offers the
+    SI spelling (SI Brochure: unit symbols are case-sensitive)."""
+    with pytest.raises(UnitError) as caught:
+        parse_quantity(text, dimension)
+    assert f"did you mean '{hint}'" in caught.value.message
+
+
+@pytest.mark.parametrize("text", ["1 sec", "3 volts", "10 xy"])
+def test_no_case_hint_without_a_single_reading(text):
+    """No guess where no unit differs from the text only by case."""
+    with pytest.raises(UnitError) as caught:
+        parse_quantity(text, "V")
+    assert "did you mean" not in caught.value.message
