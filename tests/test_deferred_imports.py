@@ -27,6 +27,7 @@ NOT_FOR_A_SMALL_SOLVE = {
     "harness.simulate": "the numerical engine",
     "harness.variation.analyse": "spec'd fields (spreads)",
     "harness.derive": "derive and --formulas",
+    "harness.closedform.periodic": "files with a repeating window",
     "pandas": "summary.csv",
     "matplotlib": "plots",
     "tabulate": "the check console table (solve's tables are laid out by report.console)",
