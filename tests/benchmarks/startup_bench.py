@@ -30,7 +30,7 @@ import tempfile
 import time
 from pathlib import Path
 
-from .timing import load_average, publish
+from .timing import load_average, median_time, publish
 
 RESULTS = Path(__file__).with_name("RESULTS.md")
 ROOT = Path(__file__).resolve().parents[2]
@@ -94,14 +94,7 @@ def _cpu_median(circ, repeats: int = 15) -> float:
         sol = solve(circ)
         for exp in circ.expectations:
             sol.features(exp.probe, circ.events.index(exp.at) if exp.at in circ.events else 0)
-    for _ in range(2):
-        run()
-    times = []
-    for _ in range(repeats):
-        start = time.process_time()
-        run()
-        times.append(time.process_time() - start)
-    return statistics.median(times)
+    return median_time(run, repeats, warmup=2, clock=time.process_time)
 
 
 def small() -> tuple[float, int, float, int, int]:
