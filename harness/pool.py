@@ -24,14 +24,12 @@ of the other workers' pipes, so no worker keeps another one's pipe open.
 from __future__ import annotations
 
 import ctypes
-import multiprocessing as mp
 import os
 import signal
 import sys
 import threading
 import time
 from collections import deque
-from multiprocessing.connection import wait
 from typing import Callable
 
 #: how often (s) the parent wakes when no deadline is nearer, to notice dead workers promptly
@@ -63,6 +61,9 @@ class RunInterrupted(Exception):
 
 
 def _context():
+    # multiprocessing loads here, not at import: a run in one process (``solve`` on a file)
+    # never starts a worker and would pay ~2 ms of start-up for it
+    import multiprocessing as mp
     methods = mp.get_all_start_methods()
     return mp.get_context("fork" if "fork" in methods else "spawn")
 
@@ -246,6 +247,7 @@ def _wait_round(ctx, work, workers, done, on_timeout, on_death, on_done) -> None
     busy = [w for w in workers if w.task is not None]
     nearest = min((w.deadline for w in busy), default=float("inf"))
     delay = max(0.0, min(_POLL, nearest - time.monotonic()))
+    from multiprocessing.connection import wait
     ready = set(wait([w.conn for w in busy] + [w.process.sentinel for w in busy], delay))
     now = time.monotonic()
     for i, worker in enumerate(workers):

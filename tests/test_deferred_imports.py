@@ -1,20 +1,69 @@
 """Imports that only some paths need are deferred: importing the command line, the runner, the
-comparator and the exact engine pulls in none of them (a fresh interpreter, so earlier tests do
-not count; the numerical engine needs scipy.integrate, which brings scipy.optimize).  Each costs start-up on every `tauproof solve` otherwise (measured: scipy.optimize
-~0.09 s, pandas ~0.25 s, matplotlib ~0.3 s on this machine)."""
+comparator and the exact engine pulls in none of them, and neither does a whole
+``solve FILE --closed-form-only`` of a small circuit (a fresh interpreter each, so earlier
+tests do not count; the numerical engine needs scipy.integrate, which brings scipy.optimize).
+Each costs start-up on every `tauproof solve` otherwise (measured on this machine: scipy.optimize
+~0.1 s with the scipy.special, scipy.fft and scipy.spatial it loads, pandas ~0.25 s,
+matplotlib ~0.3 s, scipy.sparse with csgraph ~13 ms, tabulate ~4 ms as it reads its package
+metadata, xml.etree ~2.5 ms, multiprocessing ~2 ms; tests/benchmarks/RESULTS.md, "Start-up and
+small circuits")."""
 
 from __future__ import annotations
 
 import subprocess
 import sys
+from pathlib import Path
 
+#: never loaded by importing the core
 DEFERRED = ("pandas", "matplotlib", "scipy.optimize", "sympy", "dask", "distributed", "tqdm")
+#: never loaded by a closed-form solve of a small circuit (what each is for)
+NOT_FOR_A_SMALL_SOLVE = {
+    "scipy.optimize": "the numerical engine, periodic checks, worst-case extremes",
+    "scipy.integrate": "the numerical engine",
+    "scipy.sparse": "circuits of GRAPH_MIN_PARTS parts or more, the numerical engine",
+    "scipy.sparse.csgraph": "node groups of large circuits",
+    "scipy.special": "scipy.optimize and the statistics of spreads",
+    "scipy.fft": "scipy.optimize",
+    "harness.simulate": "the numerical engine",
+    "harness.variation.analyse": "spec'd fields (spreads)",
+    "harness.derive": "derive and --formulas",
+    "harness.closedform.periodic": "files with a repeating window",
+    "pandas": "summary.csv",
+    "matplotlib": "plots",
+    "tabulate": "the check console table (solve's tables are laid out by report.console)",
+    "xml.etree.ElementTree": "junit.xml",
+    "multiprocessing": "--jobs N worker processes",
+    "sympy": "derive",
+    "tqdm": "the progress bar on a terminal",
+}
+SMALL = str(Path(__file__).resolve().parents[1] / "circuits/library/logger/button-debounce.toml")
+
+
+def _loaded(code: str, names) -> list[str]:
+    listing = f"\nimport sys; print(' '.join(m for m in {tuple(names)!r} if m in sys.modules))"
+    done = subprocess.run([sys.executable, "-c", code + listing], capture_output=True,
+                          text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    return done.stdout.split()
 
 
 def test_the_core_imports_none_of_the_optional_libraries():
-    code = ("import sys, harness.cli, harness.runner, harness.compare, harness.closedform, "
-            "harness.report; print(' '.join(m for m in %r if m in sys.modules))" % (DEFERRED,))
-    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
-                          timeout=120)
-    assert done.returncode == 0, done.stderr
-    assert done.stdout.strip() == "", f"imported at start-up: {done.stdout.strip()}"
+    code = "import harness.cli, harness.runner, harness.compare, harness.closedform, harness.report"
+    assert _loaded(code, DEFERRED) == [], "imported at start-up"
+
+
+def test_a_small_closed_form_solve_loads_none_of_the_deferred_modules():
+    """The whole command, crossings included (the exact engine's Brent root finder is its own,
+    ``harness.closedform.brent``, not scipy.optimize's)."""
+    code = ("import io, contextlib, harness.cli\n"
+            "with contextlib.redirect_stdout(io.StringIO()):\n"
+            f"    code = harness.cli.main(['solve', {SMALL!r}, '--closed-form-only'])\n"
+            "assert code == 0, code\n")
+    loaded = _loaded(code, NOT_FOR_A_SMALL_SOLVE)
+    assert loaded == [], {m: NOT_FOR_A_SMALL_SOLVE[m] for m in loaded}
+
+
+def test_the_small_solve_has_a_crossing_to_refine():
+    """The file above exercises the root finder (else the test above proves less)."""
+    text = open(SMALL, encoding="utf-8").read()
+    assert "crossing" in text

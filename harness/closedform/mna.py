@@ -31,8 +31,6 @@ from dataclasses import dataclass, field
 from typing import Callable, Mapping
 
 import numpy as np
-import scipy.sparse as sp
-from scipy.sparse import csgraph
 
 from ..model import (CAPACITOR, CURRENT_TYPE, INDUCTOR, KIND_SPECS, RESISTOR, SWITCH, SWITCHED,
                      Circuit, Part)
@@ -307,6 +305,8 @@ def _components(circuit: Circuit, idx: Index, mask: np.ndarray) -> tuple[tuple[s
                 parent[find(part.p)] = find(part.n)
         label = [find(n) for n in nodes]
     else:
+        import scipy.sparse as sp               # deferred: small circuits never need it
+        from scipy.sparse import csgraph
         ends = idx.terminals[mask]
         graph = sp.coo_matrix((np.ones(len(ends)), (ends[:, 0], ends[:, 1])),
                               shape=(len(nodes), len(nodes)))

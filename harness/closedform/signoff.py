@@ -10,8 +10,8 @@ engine's reference time; the zero cluster's growth terms enter with r = 0).  On 
 * crossing: the first root of y(u) - level after t_k, bracketed on a grid that resolves every
   mode (geometric from 1e-6 of the fastest time constant, linear with 16 points per period of
   any oscillation, out to the interval's span and beyond while the tail still has to cross) and
-  refined by Brent's method (scipy.optimize.brentq).  A jump x(t_k-) -> x(t_k+) across the
-  level is a crossing at u = 0.
+  refined by Brent's method (``brent.brentq``: the steps of scipy.optimize.brentq).  A jump
+  x(t_k-) -> x(t_k+) across the level is a crossing at u = 0.
 * peak: the largest |y| among y(0+), the roots of y'(u) (bracketed and refined the same way)
   and the final value as the limit t -> infinity.  At most ``PEAK_REFINE_MAX`` roots of y' are
   refined: past that, those in the grid cells where |y| is largest.
@@ -36,6 +36,7 @@ import numpy as np
 from ..model import CAPACITOR, FALLING, INDUCTOR, RISING
 from ..results import CrossingValue, DominantTau, EnergyValue, PeakValue
 from ..tolerances import THEVENIN_SHORT, WAVEFORM_SWING_FLOOR
+from .brent import brentq
 from .features import RawEvent
 
 #: grid: geometric part starts at this fraction of the fastest time constant
@@ -225,9 +226,8 @@ def _refine(fun, lo: float, hi: float) -> float:
         return float(lo if abs(f_lo) <= abs(f_hi) else hi)
     if f_lo == 0 or f_hi == 0:
         return float(lo if f_lo == 0 else hi)
-    from scipy.optimize import brentq      # deferred: only crossings and peaks need it
-    return float(brentq(fun, lo, hi, xtol=1e-15 * max(hi, 1e-300),
-                        rtol=4 * np.finfo(float).eps, maxiter=200))
+    return brentq(fun, lo, hi, xtol=1e-15 * max(hi, 1e-300), rtol=4 * np.finfo(float).eps,
+                  maxiter=200, fa=f_lo, fb=f_hi)
 
 
 def crossing(ex: ExpSum, level: float, direction: str, end: float, final: float | None,

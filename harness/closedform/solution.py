@@ -23,7 +23,7 @@ from .modes import UNDAMPED, Mode, mode_of
 from .probes import functional
 from .reach import reaching_storage, voltage_of_capacitor
 from .response import IntervalResponse, Pencil, build, pencil_of
-from . import periodic, signoff
+from . import signoff
 from .conditioning import assess
 from .thevenin import thevenin_resistances
 
@@ -254,6 +254,7 @@ class ClosedFormSolution(NotComputed):
     def periodic(self, probe: Probe, fraction: float = SETTLE_FRACTION):
         """The probe's exact periodic steady state over one period of the circuit's repeating
         window (``harness.results.PeriodicValue``; ``closedform.periodic``)."""
+        from . import periodic      # deferred: only files with a repeating window use it
         key = ("periodic", probe.label, fraction)
         if key not in self._probe_cache:
             self._probe_cache[key] = periodic.steady_state(self, probe, fraction)
@@ -261,6 +262,7 @@ class ClosedFormSolution(NotComputed):
 
     def _periodic_cycle(self) -> "periodic.Cycle":
         """The steady-state period, built once (raises ``periodic.NoSteadyState``)."""
+        from . import periodic
         if "periodic" not in self._jump_cache:
             try:
                 self._jump_cache["periodic"] = periodic.cycle(self)

@@ -2,12 +2,14 @@
 
 Text for a terminal (tabulate's ``simple`` format), fitted to the width and coloured as
 ``report.style.Style`` says (colour only on a terminal, never when piped unless asked); values
-carry SI prefixes.
+carry SI prefixes.  The solve tables of plain one-line text are laid out here (``simple_table``,
+the same bytes as tabulate); tabulate itself, whose import reads its package metadata (~4 ms of
+a small ``solve``), is loaded for the rest.
 """
 
 from __future__ import annotations
 
-from tabulate import tabulate
+import unicodedata
 
 from ..messages import worded, worded_file
 from ..outcome import PASS, CheckResult, FileResult, RunResult
@@ -19,6 +21,43 @@ MESSAGE_WIDTH = 60
 #: narrowest message column however narrow the terminal
 MIN_MESSAGE_WIDTH = 24
 _HEADERS = ["check", "field", "hand", "closed form", "numeric", "verdict", "message"]
+
+
+def tabulate(rows, **options) -> str:
+    """``tabulate.tabulate``, imported on first use."""
+    from tabulate import tabulate as table
+    return table(rows, **options)
+
+
+def _one_column(text: str) -> bool:
+    """Whether every character of ``text`` is printable and one column wide by any width rule
+    tabulate may use (``len``, or ``wcwidth`` where installed): no control, combining, wide
+    (East Asian W/F) or zero-width character, none past the general punctuation and symbol
+    blocks."""
+    if not text.isprintable():
+        return False
+    return text.isascii() or all(
+        c <= "~" or ((c < "\u1100" or "\u2010" <= c < "\u2e00")
+                     and unicodedata.east_asian_width(c) not in "WF"
+                     and not unicodedata.category(c).startswith("M")) for c in text)
+
+
+def simple_table(rows: list[list[str]], headers: list[str]) -> str:
+    """``tabulate(rows, headers=headers, tablefmt="simple", disable_numparse=True)``, byte for
+    byte: each column as wide as its widest stripped cell and at least its header plus 2, cells
+    left-aligned, columns 2 spaces apart, a dashed rule under the headers, trailing spaces
+    stripped.  Cells that are not one-line plain strings (``_one_column``), or no rows, go to
+    tabulate itself."""
+    cells = [[c.strip() for c in row] if all(isinstance(c, str) for c in row) else None
+             for row in rows]
+    if not rows or any(row is None or len(row) != len(headers) for row in cells) or \
+            not all(_one_column(c) for row in cells for c in row) or \
+            not all(isinstance(h, str) and _one_column(h) for h in headers):
+        return tabulate(rows, headers=headers, tablefmt="simple", disable_numparse=True)
+    widths = [max(len(h) + 2, *(len(row[i]) for row in cells)) for i, h in enumerate(headers)]
+    lines = [headers, ["-" * w for w in widths]] + cells
+    return "\n".join("  ".join(c.ljust(w) for c, w in zip(line, widths)).rstrip()
+                     for line in lines)
 
 
 def render_failures(run: RunResult, style: Style | None = None, show_all: bool = False) -> str:
@@ -186,7 +225,7 @@ def render_solve(file_result: FileResult) -> str:
     headers, rows = common.stored_rows(file_result)
     if rows:
         out += ["stored energy in each capacitor and inductor, just before and after each event:",
-                tabulate(rows, headers=headers, tablefmt="simple", disable_numparse=True)]
+                simple_table(rows, headers)]
     for check in file_result.checks:
         out.append("")
         out.append(_check_heading(check))
@@ -216,4 +255,4 @@ def _check_table(check: CheckResult) -> str:
         row += [closed, numeric, field.verdict]
         rows.append(row)
     headers = ["field"] + (["hand"] if with_hand else []) + ["closed form", "numeric", "verdict"]
-    return tabulate(rows, headers=headers, tablefmt="simple", disable_numparse=True)
+    return simple_table(rows, headers)
