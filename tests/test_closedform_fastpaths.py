@@ -827,8 +827,8 @@ def test_sparse_reach_solve_equals_the_dense_solve(large_solutions):
         p = resp.g[:n, :n] + reach.POINTS[0] * resp.c[:n, :n]
         rhs = np.random.default_rng(n).standard_normal(n) + 0j
         ref = solve(p.T, rhs)
-        np.testing.assert_allclose(reach._transposed_solve(p, rhs), ref, rtol=1e-9,
-                                   atol=1e-12 * np.abs(ref).max())
+        got = reach._transposed_solve(resp.g[:n, :n], resp.c[:n, :n], reach.POINTS[0], rhs)
+        np.testing.assert_allclose(got, ref, rtol=1e-9, atol=1e-12 * np.abs(ref).max())
 
 
 def test_vectorised_exponential_sums_and_outputs_equal_the_term_loops(large_solutions,

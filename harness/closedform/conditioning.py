@@ -34,11 +34,17 @@ def pencil_condition(g: np.ndarray, c: np.ndarray, s0: float) -> float:
     """2-norm condition number of the equilibrated G + s0 C (inf if singular or not finite)."""
     if g.size == 0:
         return 1.0
-    p = g + s0 * c
+    p = s0 * c                      # G + s0 C, formed in place (the same floats)
+    p += g
     if not np.all(np.isfinite(p)):
         return float("inf")
-    dr, dc = equilibrate(np.abs(g) + abs(s0) * np.abs(c))
-    p = dr[:, None] * p * dc[None, :]
+    weight = np.abs(c)              # |G| + |s0| |C|, likewise
+    weight *= abs(s0)
+    weight += np.abs(g)
+    dr, dc = equilibrate(weight)
+    del weight
+    p *= dr[:, None]
+    p *= dc[None, :]
     if p.shape[0] >= SPARSE_CONDITION_MIN:
         pattern = _pattern(p)
         if pattern is not None:
@@ -107,6 +113,6 @@ def assess(solution) -> tuple[Conditioning, ...]:
         key = id(resp.dec)
         if key not in seen:
             seen[key] = (pencil_condition(resp.g, resp.c, resp.dec.s0),
-                         modes_condition(resp.dec.a))
+                         1.0 if resp.dec.diagonal else modes_condition(resp.dec.a))
         out.append(Conditioning(k, resp.start, *seen[key]))
     return tuple(out)

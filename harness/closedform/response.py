@@ -125,7 +125,7 @@ class IntervalResponse:
         if f == 0:
             return np.tile(self.xp, (tau.size, 1)), np.zeros((tau.size, self.xp.size))
         if self.dec.diagonal:                      # expm(diag(lam) tau) z0 = e^(lam tau) z0
-            lam = np.diagonal(self.dec.a)
+            lam = self.dec.diagonal_rates
             with np.errstate(over="ignore", invalid="ignore"):
                 expo = np.exp(np.outer(tau, lam)) * self.z0
                 return self.xp[None, :] + expo @ self.dec.q1.T, (expo * lam) @ self.dec.q1.T
@@ -146,7 +146,7 @@ class IntervalResponse:
         if not (self.dec.diagonal and self.dec.order >= PROJECT_ORDER):
             x, dx = self.states(tau)
             return x @ c + dx @ d
-        lam = np.diagonal(self.dec.a)
+        lam = self.dec.diagonal_rates
         weights = (self.dec.q1.T @ c + lam * (self.dec.q1.T @ d)) * self.z0
         with np.errstate(over="ignore", invalid="ignore"):
             expo = np.exp(np.outer(tau.ravel(), lam))
@@ -196,7 +196,7 @@ def _cluster_data(dec: Decomposition, z0: np.ndarray) -> tuple[ClusterData, ...]
         starts = np.cumsum([0] + [cl.size for cl in general])
     pos = 0
     q1c, z0c = dec.q1.astype(complex), z0.astype(complex)
-    q1t = q1c * np.diagonal(dec.a) if dec.diagonal else None     # Q1 A for a diagonal A
+    q1t = q1c * dec.diagonal_rates if dec.diagonal else None     # Q1 A for a diagonal A
     for cl in dec.clusters:
         if cl.index is not None and len(cl.index) == 1:   # one unit column: views, O(1)
             i = cl.index[0]

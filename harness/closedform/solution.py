@@ -343,7 +343,8 @@ def _pencil(circuit, layout, scale, null, closed, groups, cache, time) -> Pencil
     if key not in cache:
         g, c, _ = stamp(circuit, layout, closed, lambda p: 0.0)
         pin(g, layout, groups, 1.0 / scale.r0)
-        gs, cs, _ = scaled(g, c, np.zeros(layout.size), layout, scale)
+        gs, cs, _ = scaled(g, c, np.zeros(layout.size), layout, scale, overwrite=True)
+        del g, c
         try:
             cache[key] = pencil_of(gs, cs, null)
         except SingularPencil:

@@ -281,8 +281,10 @@ def _schur(g11, g21, g22, c11, rtc):
     if not np.all(np.isfinite(piv)) or piv.min() <= PIVOT_REL * max(piv.max(), 1e-300):
         return None
     h = sla.lu_solve(lu, g21, check_finite=False)
-    s = g11 - g21.T @ h
-    return 0.5 * (s + s.T), c11, h, rtc
+    g11 -= g21.T @ h                               # S in place (g11 is a fresh copy)
+    g11 += g11.T                                   # numpy buffers the overlapping operand
+    g11 *= 0.5
+    return g11, c11, h, rtc
 
 
 def _finite(lam: np.ndarray, s0: float) -> np.ndarray:
@@ -324,19 +326,45 @@ def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray) -> Decomposition |
     if red is None:
         return None
     s, c11, h, rtc = red
-    try:
-        w, v = sla.eigh(s, c11, check_finite=False)
+    del red
+    try:           # S and C11 are this function's own: LAPACK may overwrite them (no copies)
+        w, v = sla.eigh(s, c11, check_finite=False, overwrite_a=True, overwrite_b=True)
     except (ValueError, np.linalg.LinAlgError):
         return None                                # C11 not positive definite
+    del s, c11
     if not np.all(np.isfinite(w)) or w.min(initial=0.0) < -GROWING_REL * np.abs(w).max():
         return None
     lam = -w
     s0 = _shift(lam)
     keep = _finite(lam, s0)
-    lam, vk = lam[keep], v[:, keep]
+    if not keep.all():
+        lam, v = lam[keep], v[:, keep]
     zero_tol = ZERO_REL * abs(s0)
-    q1 = np.asarray(r @ vk)
-    if n0.shape[1]:
-        q1 = q1 - np.asarray(n0 @ (h @ vk))
-    return Decomposition(s0, q1, np.diag(lam), None, diagonal_clusters(lam, zero_tol), zero_tol,
-                         diagonal=True, left_factors=(vk.T, rtc))
+    q1 = _right_basis(r, n0, h, v)
+    return Decomposition(s0, q1, None, None, diagonal_clusters(lam, zero_tol), zero_tol,
+                         diagonal=True, left_factors=(_rows_of(q1, r, v).T, rtc), rates=lam)
+
+
+def _right_basis(r, n0, h: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """Q1 = R V - N0 (H V), shape (n, f), with no n x f temporary beside it where N0 is a
+    selection (its rows of R V are exact zeros, so subtracting there in place is the same
+    floats)."""
+    q1 = np.asarray(r @ v)
+    if n0.shape[1] == 0:
+        return q1
+    if isinstance(n0, _Selection):
+        q1[n0.rows] -= h @ v
+    else:
+        q1 -= np.asarray(n0 @ (h @ v))
+    return q1
+
+
+def _rows_of(q1: np.ndarray, r, v: np.ndarray) -> np.ndarray:
+    """V itself: R^T Q1 = V exactly where R is a selection (its rows of Q1 are V's rows, N0's
+    part being exact zeros there), taken as a view of Q1 where the rows are consecutive, so
+    the decomposition keeps one n x f matrix instead of two; else V."""
+    if isinstance(r, _Selection):
+        sel = _index(r.rows)
+        if isinstance(sel, slice):
+            return q1[sel]
+    return v
