@@ -863,3 +863,26 @@ def test_guarded_node_voltages_withhold_what_the_guarded_features_withhold():
     assert _flat(guarded.node_voltages()) == _node_voltages_one_by_one(guarded)
     assert max(map(abs, _flat(guarded.node_voltages()))) < \
         max(map(abs, _flat(sol.node_voltages())))
+
+
+def test_diagonal_cluster_rows_equal_the_per_cluster_copies(large_solutions, monkeypatch):
+    """On the symmetric route a probe's features and every node's voltages, taken from one
+    product over the modes without per-cluster copies of Q1, equal those of the per-cluster
+    route (``resp.clusters``) to rounding, and the same modes stay visible."""
+    from dataclasses import replace
+    from harness.closedform import features
+    for sol in large_solutions:
+        assert sol.intervals[0].dec.diagonal and sol.intervals[0].dec.block is None
+        probe = sol.circuit.expectations[0].probe
+        fast = replace(sol, _probe_cache={}), sol.node_voltages()
+        fast = (fast[0].features(probe, 0), fast[1])
+        assert "clusters" not in sol.intervals[0].__dict__
+        monkeypatch.setattr(features, "_unit_clusters", lambda resp: False)
+        slow = replace(sol, _probe_cache={})
+        slow = (slow.features(probe, 0), slow.node_voltages())
+        monkeypatch.undo()
+        assert fast[0].order == slow[0].order and fast[0].modes == pytest.approx(slow[0].modes)
+        for a, b in ((fast[0].before, slow[0].before), (fast[0].after, slow[0].after),
+                     (fast[0].final, slow[0].final)):
+            assert a == pytest.approx(b, rel=1e-12, abs=1e-12)
+        np.testing.assert_allclose(_flat(fast[1]), _flat(slow[1]), rtol=1e-12, atol=1e-12)
