@@ -886,3 +886,27 @@ def test_diagonal_cluster_rows_equal_the_per_cluster_copies(large_solutions, mon
                      (fast[0].final, slow[0].final)):
             assert a == pytest.approx(b, rel=1e-12, abs=1e-12)
         np.testing.assert_allclose(_flat(fast[1]), _flat(slow[1]), rtol=1e-12, atol=1e-12)
+
+
+def test_large_pencils_kept_sparse_give_the_dense_answers(large_solutions):
+    """A large interval keeps G~ and C~ sparse (``response.Kept``): their dense forms are the
+    matrices, and the jump test on the kept matrices, the conditioning estimate spending its
+    own copies and the impulse solve of a forced change give the dense routes' answers."""
+    from harness.closedform import conditioning, jumps
+    for sol in large_solutions:
+        resp = sol.intervals[0]
+        assert resp.kept_g.sparse is not None and resp.kept_c.sparse is not None
+        g, c = resp.g, resp.c
+        np.testing.assert_array_equal(resp.kept_c.sparse.toarray(), c)
+        x_minus = sol._x_minus(0)
+        for x_plus in (resp.x_plus, resp.x_plus + 0.1 * (np.abs(c).sum(axis=1) > 0)):
+            kept = jumps.impulse_weights(resp.kept_g, resp.kept_c, x_minus, x_plus)
+            dense = jumps.impulse_weights(g, c, x_minus, x_plus)
+            if dense is None:                  # an inconsistent change: both refuse it
+                assert kept is None
+                continue
+            np.testing.assert_allclose(kept, dense, rtol=1e-9,
+                                       atol=1e-12 * max(np.abs(dense).max(), 1.0))
+        s0 = resp.dec.s0
+        assert conditioning.pencil_condition(resp.g, resp.c, s0, own=True) == \
+            conditioning.pencil_condition(g, c, s0)

@@ -305,9 +305,14 @@ def _shift(lam: np.ndarray) -> float:
     return 1.0 if 1e-2 <= center <= 1e2 else center
 
 
-def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray) -> Decomposition | None:
+def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray,
+              c_rows=None) -> Decomposition | None:
     """The Decomposition of the scaled pencil (G~, C~) by the symmetric route, or None when it
-    does not apply (see the module docstring); ``null`` is the orthonormal null basis of C~."""
+    does not apply (see the module docstring); ``null`` is the orthonormal null basis of C~.
+
+    ``c_rows(rows)``, where given, returns those rows of C~ as a sparse matrix: then R^T C~ is
+    kept in that form for z0 (for unit-column bases) and g and c, this call's own copies, are
+    released before the eigenproblem, so it never runs beside two dense n x n matrices more."""
     n = g.shape[0]
     if n < max(MIN_SIZE, 1) or c.shape != g.shape or null.shape[0] != n:
         return None
@@ -327,8 +332,13 @@ def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray) -> Decomposition |
         return None
     s, c11, h, rtc = red
     del red
-    try:           # S and C11 are this function's own: LAPACK may overwrite them (no copies)
-        w, v = sla.eigh(s, c11, check_finite=False, overwrite_a=True, overwrite_b=True)
+    if c_rows is not None and isinstance(r, _Selection):
+        rtc = c_rows(r.rows)                       # the same entries, sparse
+    del g, c, gs, cs                               # (where a caller still holds them: no-op)
+    try:           # S and C11 are this function's own and exactly symmetric: handed over as
+        # their transposes (the same matrices, in LAPACK's column order), LAPACK overwrites
+        # them in place instead of working on Fortran-ordered copies
+        w, v = sla.eigh(s.T, c11.T, check_finite=False, overwrite_a=True, overwrite_b=True)
     except (ValueError, np.linalg.LinAlgError):
         return None                                # C11 not positive definite
     del s, c11
