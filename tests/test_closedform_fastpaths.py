@@ -827,8 +827,8 @@ def test_sparse_reach_solve_equals_the_dense_solve(large_solutions):
         p = resp.g[:n, :n] + reach.POINTS[0] * resp.c[:n, :n]
         rhs = np.random.default_rng(n).standard_normal(n) + 0j
         ref = solve(p.T, rhs)
-        np.testing.assert_allclose(reach._transposed_solve(p, rhs), ref, rtol=1e-9,
-                                   atol=1e-12 * np.abs(ref).max())
+        got = reach._transposed_solve(resp.g[:n, :n], resp.c[:n, :n], reach.POINTS[0], rhs)
+        np.testing.assert_allclose(got, ref, rtol=1e-9, atol=1e-12 * np.abs(ref).max())
 
 
 def test_vectorised_exponential_sums_and_outputs_equal_the_term_loops(large_solutions,
@@ -863,3 +863,50 @@ def test_guarded_node_voltages_withhold_what_the_guarded_features_withhold():
     assert _flat(guarded.node_voltages()) == _node_voltages_one_by_one(guarded)
     assert max(map(abs, _flat(guarded.node_voltages()))) < \
         max(map(abs, _flat(sol.node_voltages())))
+
+
+def test_diagonal_cluster_rows_equal_the_per_cluster_copies(large_solutions, monkeypatch):
+    """On the symmetric route a probe's features and every node's voltages, taken from one
+    product over the modes without per-cluster copies of Q1, equal those of the per-cluster
+    route (``resp.clusters``) to rounding, and the same modes stay visible."""
+    from dataclasses import replace
+    from harness.closedform import features
+    for sol in large_solutions:
+        assert sol.intervals[0].dec.diagonal and sol.intervals[0].dec.block is None
+        probe = sol.circuit.expectations[0].probe
+        fast = replace(sol, _probe_cache={}), sol.node_voltages()
+        fast = (fast[0].features(probe, 0), fast[1])
+        assert "clusters" not in sol.intervals[0].__dict__
+        monkeypatch.setattr(features, "_unit_clusters", lambda resp: False)
+        slow = replace(sol, _probe_cache={})
+        slow = (slow.features(probe, 0), slow.node_voltages())
+        monkeypatch.undo()
+        assert fast[0].order == slow[0].order and fast[0].modes == pytest.approx(slow[0].modes)
+        for a, b in ((fast[0].before, slow[0].before), (fast[0].after, slow[0].after),
+                     (fast[0].final, slow[0].final)):
+            assert a == pytest.approx(b, rel=1e-12, abs=1e-12)
+        np.testing.assert_allclose(_flat(fast[1]), _flat(slow[1]), rtol=1e-12, atol=1e-12)
+
+
+def test_large_pencils_kept_sparse_give_the_dense_answers(large_solutions):
+    """A large interval keeps G~ and C~ sparse (``response.Kept``): their dense forms are the
+    matrices, and the jump test on the kept matrices, the conditioning estimate spending its
+    own copies and the impulse solve of a forced change give the dense routes' answers."""
+    from harness.closedform import conditioning, jumps
+    for sol in large_solutions:
+        resp = sol.intervals[0]
+        assert resp.kept_g.sparse is not None and resp.kept_c.sparse is not None
+        g, c = resp.g, resp.c
+        np.testing.assert_array_equal(resp.kept_c.sparse.toarray(), c)
+        x_minus = sol._x_minus(0)
+        for x_plus in (resp.x_plus, resp.x_plus + 0.1 * (np.abs(c).sum(axis=1) > 0)):
+            kept = jumps.impulse_weights(resp.kept_g, resp.kept_c, x_minus, x_plus)
+            dense = jumps.impulse_weights(g, c, x_minus, x_plus)
+            if dense is None:                  # an inconsistent change: both refuse it
+                assert kept is None
+                continue
+            np.testing.assert_allclose(kept, dense, rtol=1e-9,
+                                       atol=1e-12 * max(np.abs(dense).max(), 1.0))
+        s0 = resp.dec.s0
+        assert conditioning.pencil_condition(resp.g, resp.c, s0, own=True) == \
+            conditioning.pencil_condition(g, c, s0)

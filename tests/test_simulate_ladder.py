@@ -54,3 +54,20 @@ def test_large_ladder_slowest_mode_and_final_value():
     assert f.tau is None and abs(f.modes[0] / slowest - 1.0) <= 1e-5
     stats = sol.stats(0)
     assert stats.steps > 0 and stats.nlu > 0
+
+
+def test_projected_dense_output_equals_scipys_per_step_evaluation():
+    """The dense output evaluated for many times at once, projected on a row (and on stacked
+    rows), equals scipy's OdeSolution evaluated time by time and then projected (the
+    reference), to rounding, on times spread over every step and at the step ends."""
+    from harness.simulate.integrate import projected
+    sol = solve(ladder(12, 1e3, 1e-9))
+    run = sol.runs[0]
+    rng = np.random.default_rng(5)
+    rows = rng.standard_normal((3, run.z.shape[0]))
+    s = np.concatenate([rng.uniform(0.0, run.end, 400), run.s])
+    ref = rows @ run.dense(s)
+    scale = np.abs(ref).max()
+    np.testing.assert_allclose(projected(run.dense, rows, s), ref, rtol=0, atol=1e-13 * scale)
+    np.testing.assert_allclose(projected(run.dense, rows[0], s), ref[0], rtol=0,
+                               atol=1e-13 * scale)

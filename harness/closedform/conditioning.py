@@ -30,15 +30,29 @@ from ..results import Conditioning
 from .linalg import _pattern, equilibrate
 
 
-def pencil_condition(g: np.ndarray, c: np.ndarray, s0: float) -> float:
-    """2-norm condition number of the equilibrated G + s0 C (inf if singular or not finite)."""
+def pencil_condition(g: np.ndarray, c: np.ndarray, s0: float, own: bool = False) -> float:
+    """2-norm condition number of the equilibrated G + s0 C (inf if singular or not finite).
+    ``own``: g and c are the caller's copies to spend (|G| + |s0| |C| is then formed in them:
+    two n x n temporaries fewer, the same floats)."""
     if g.size == 0:
         return 1.0
-    p = g + s0 * c
+    p = s0 * c                      # G + s0 C, formed in place (the same floats)
+    p += g
     if not np.all(np.isfinite(p)):
         return float("inf")
-    dr, dc = equilibrate(np.abs(g) + abs(s0) * np.abs(c))
-    p = dr[:, None] * p * dc[None, :]
+    if own:                         # |G| + |s0| |C|, likewise
+        weight = np.abs(c, out=c)
+        weight *= abs(s0)
+        weight += np.abs(g, out=g)
+    else:
+        weight = np.abs(c)
+        weight *= abs(s0)
+        weight += np.abs(g)
+    del g, c
+    dr, dc = equilibrate(weight)
+    del weight
+    p *= dr[:, None]
+    p *= dc[None, :]
     if p.shape[0] >= SPARSE_CONDITION_MIN:
         pattern = _pattern(p)
         if pattern is not None:
@@ -106,7 +120,9 @@ def assess(solution) -> tuple[Conditioning, ...]:
     for k, resp in enumerate(solution.intervals):
         key = id(resp.dec)
         if key not in seen:
-            seen[key] = (pencil_condition(resp.g, resp.c, resp.dec.s0),
-                         modes_condition(resp.dec.a))
+            seen[key] = (pencil_condition(resp.g, resp.c, resp.dec.s0,
+                                          own=resp.kept_g.sparse is not None
+                                          and resp.kept_c.sparse is not None),
+                         1.0 if resp.dec.diagonal else modes_condition(resp.dec.a))
         out.append(Conditioning(k, resp.start, *seen[key]))
     return tuple(out)

@@ -79,15 +79,35 @@ def raw_event(resp: IntervalResponse, before: tuple[np.ndarray, np.ndarray, np.n
         value_before = _finite(c_m[:n] @ x_m + d_m[:n] @ dx_m + k_m)
         value_after = _finite(ca[:n] @ resp.x_plus + da[:n] @ resp.dx_plus + k)
         constant = complex(ca @ resp.xp + k)
-        for data in resp.clusters:
-            h = ca @ data.qv + da @ data.qvt
-            coeffs = poly_coefficients(h, data.cluster, data.g)
-            if data.cluster.zero:
+        for cluster, h, g in _output_rows(resp, ca, da):
+            coeffs = poly_coefficients(h, cluster, g)
+            if cluster.zero:
                 constant += coeffs[0]
                 growth = coeffs[1:]
             else:
-                clusters.append((complex(data.cluster.rate), coeffs))
+                clusters.append((complex(cluster.rate), coeffs))
     return RawEvent(value_before, value_after, _finite(constant), tuple(clusters), growth, span)
+
+
+def _unit_clusters(resp: IntervalResponse) -> bool:
+    """A is diagonal and every cluster a unit selection of its coordinates (the symmetric
+    route), so the cluster rows are entries of one row over all modes."""
+    return resp.dec.diagonal and all(cl.index is not None for cl in resp.dec.clusters)
+
+
+def _output_rows(resp: IntervalResponse, ca: np.ndarray, da: np.ndarray):
+    """Per cluster j: (cluster, h_j = c~ Q1 V_j + d~ Q1 V_j T_j, g_j = W_j z0).  For a diagonal
+    A the rows of all clusters come from one product over the modes, c~ Q1 + (d~ Q1) * lambda,
+    O(n f) with no per-cluster complex copy of Q1 (``resp.clusters`` is not built)."""
+    if not _unit_clusters(resp):
+        for data in resp.clusters:
+            yield data.cluster, ca @ data.qv + da @ data.qvt, data.g
+        return
+    dec = resp.dec
+    row = ca @ dec.q1 + (da @ dec.q1) * dec.diagonal_rates
+    for cl in dec.clusters:
+        idx = list(cl.index)
+        yield cl, row[idx].astype(complex), resp.z0[idx].astype(complex)
 
 
 def _amplitudes(rate: complex, coeffs: np.ndarray) -> np.ndarray:
@@ -180,6 +200,9 @@ def node_values(resp: IntervalResponse, x_m: np.ndarray, dx_m: np.ndarray,
     vectors = (x_m, dx_m, resp.x_plus, resp.dx_plus, resp.xp)
     if resp.augmented or not all(np.isfinite(v).all() for v in vectors):
         return None
+    if _unit_clusters(resp):
+        final = _diagonal_final(resp, nodes)
+        return None if final is None else (x_m[nodes] + 0.0, resp.x_plus[nodes] + 0.0, final)
     zero = None
     with np.errstate(over="ignore", invalid="ignore"):
         for data in resp.clusters:
@@ -199,3 +222,30 @@ def node_values(resp: IntervalResponse, x_m: np.ndarray, dx_m: np.ndarray,
     if not np.isfinite(final).all():
         return None
     return x_m[nodes] + 0.0, resp.x_plus[nodes] + 0.0, final.real
+
+
+def _diagonal_final(resp: IntervalResponse, nodes: np.ndarray) -> np.ndarray | None:
+    """``node_values``' final values for a diagonal A of unit clusters, shape (m,), without
+    building ``resp.clusters``: x_p plus the zero mode's column times its coordinate; None
+    under the same conditions (a cluster of several modes, a mode that is not decaying, a
+    value that is not finite; finiteness of the products is judged by the largest entries,
+    which can only send a finite case to the node-by-node route)."""
+    dec = resp.dec
+    if any(cl.size != 1 for cl in dec.clusters):
+        return None
+    rates, z0, q1 = dec.diagonal_rates, resp.z0, dec.q1
+    zero = [cl.index[0] for cl in dec.clusters if cl.zero]
+    moving = np.array([cl.index[0] for cl in dec.clusters if not cl.zero], dtype=int)
+    with np.errstate(over="ignore", invalid="ignore"):
+        big = max(float(q1.max(initial=0.0)), -float(q1.min(initial=0.0)))
+        sizes = (big, big * float(np.abs(rates).max(initial=0.0)),
+                 big * float(np.abs(z0).max(initial=0.0)))
+        if not (np.isfinite(sizes).all() and np.isfinite(z0).all()):
+            return None
+        lam = rates[moving]
+        if not np.all((lam.real < 0) & (np.abs(lam.real) > UNDAMPED * np.abs(lam))):
+            return None
+        final = resp.xp[nodes].astype(complex)
+        if zero:                # the same product per node as ``raw_event``'s h @ g
+            final += q1[nodes, zero[0]] * complex(z0[zero[0]])
+    return final.real if np.isfinite(final).all() else None

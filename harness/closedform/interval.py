@@ -58,27 +58,42 @@ class Decomposition:
     Attributes:
         s0: the shift used.
         q1: right basis of the dynamic subspace, shape (n, f), real.
-        a: dynamics z' = A z, shape (f, f), real; its eigenvalues are the finite modes.
+        block: dynamics z' = A z, shape (f, f), real; its eigenvalues are the finite modes;
+            None on the diagonal route, where ``rates`` holds A's diagonal (``a`` gives the
+            matrix either way; the diagonal one is formed only when asked for, so a large
+            interval does not keep an f x f matrix of zeros).
         left: z0 = left @ e for e = x(0-) - x_p, shape (f, n), real.
         clusters: A split by eigenvalue cluster (``modes.clusters_of``).
         zero_tol: |lambda| at or below which a mode counts as zero.
         diagonal: A is diagonal (the symmetric route), so expm(A tau) z0 = e^(diag(A) tau) z0.
         left_factors: (F1, F2) with left = F1 @ F2, kept factored (then ``left`` is None):
             z0 = F1 (F2 e) costs O(n f) where forming left would cost O(n f r).
+        rates: A's diagonal, shape (f,), on the diagonal route (``block`` is None), else None.
     """
 
     s0: float
     q1: np.ndarray
-    a: np.ndarray
+    block: np.ndarray | None
     left: np.ndarray | None
     clusters: tuple[Cluster, ...]
     zero_tol: float
     diagonal: bool = False
     left_factors: tuple[np.ndarray, np.ndarray] | None = None
+    rates: np.ndarray | None = None
+
+    @property
+    def a(self) -> np.ndarray:
+        """A, shape (f, f) (formed from ``rates`` on the diagonal route)."""
+        return np.diag(self.rates) if self.block is None else self.block
+
+    @property
+    def diagonal_rates(self) -> np.ndarray:
+        """A's diagonal, shape (f,) (A is diagonal when ``diagonal``)."""
+        return self.rates if self.block is None else np.diagonal(self.block)
 
     @property
     def order(self) -> int:
-        return self.a.shape[0]
+        return self.q1.shape[1]
 
     def coordinates(self, e: np.ndarray) -> np.ndarray:
         """z0 = left @ e, shape (f,), for e = x(0-) - x_p, shape (n,)."""

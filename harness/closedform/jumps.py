@@ -89,18 +89,37 @@ def impulse_weights(g: np.ndarray, c: np.ndarray, x_minus: np.ndarray,
     """Scaled q~ with G~ q~ = -C~ (x+ - x-) and C~ q~ = 0, shape (n,); None if inconsistent.
 
     A row's charge/flux change below its rounding level (1e-12 times the row's largest entry of
-    |C~| times the largest |x|) counts as none.
+    |C~| times the largest |x|) counts as none.  ``g`` and ``c`` may be the interval's kept
+    matrices (``response.Kept``): where they are sparse the test for a change is made on the
+    non-zeros, and dense arrays are formed only when there is a change to solve for.
     """
-    rhs_top = -c @ (x_plus - x_minus)
-    size = max(np.abs(x_minus).max(initial=0.0), np.abs(x_plus).max(initial=0.0))
-    noise = 1e-12 * np.abs(c).max(axis=1, initial=0.0) * size
-    rhs_top[np.abs(rhs_top) <= noise] = 0.0
+    if hasattr(c, "dense"):
+        if c.sparse is None or g.sparse is None:
+            g, c = g.dense(), c.dense()
+        else:
+            rhs_top = -(c.sparse @ (x_plus - x_minus))
+            row_max = abs(c.sparse).max(axis=1).toarray().ravel()
+            if not np.any(_significant_change(rhs_top, row_max, x_minus, x_plus)):
+                return np.zeros(g.shape[0])
+            g, c = g.dense(), c.dense()
+    rhs_top = -(c @ (x_plus - x_minus))           # the same floats as (-C~) @ dx
+    rhs_top = _significant_change(rhs_top, np.abs(c).max(axis=1, initial=0.0), x_minus, x_plus)
     if not np.any(rhs_top):
         return np.zeros(g.shape[0])
     stack = np.vstack([g, c])
     rhs = np.concatenate([rhs_top, np.zeros(c.shape[0])])
     q, _, consistent = least_squares(stack, rhs)
     return q if consistent else None
+
+
+def _significant_change(rhs_top: np.ndarray, row_max: np.ndarray, x_minus: np.ndarray,
+                        x_plus: np.ndarray) -> np.ndarray:
+    """``rhs_top`` with the rows at or below their rounding level (1e-12 times the row's
+    largest |C~| entry ``row_max`` times the largest |x|) set to zero, in place."""
+    size = max(np.abs(x_minus).max(initial=0.0), np.abs(x_plus).max(initial=0.0))
+    noise = 1e-12 * row_max * size
+    rhs_top[np.abs(rhs_top) <= noise] = 0.0
+    return rhs_top
 
 
 @dataclass(frozen=True)
@@ -263,8 +282,9 @@ def jump_at(circuit: Circuit, layout: Layout, scale: Scale, g: np.ndarray, c: np
             scales: Scales) -> Jump:
     """The Jump at ``time`` from the scaled states just before and after, shapes (n,).
 
-    ``g``, ``c`` are the scaled matrices of the interval that starts at ``time``; ``values`` the
-    independent source values in that interval.
+    ``g``, ``c`` are the scaled matrices of the interval that starts at ``time`` (arrays, or as
+    the interval keeps them: ``impulse_weights``); ``values`` the independent source values in
+    that interval.
     """
     d = scale.var(layout)
     xm, xp = d * x_minus, d * x_plus

@@ -203,13 +203,19 @@ def layout_positions(idx: Index, layout: Layout) -> np.ndarray:
 
 
 def scaled(g: np.ndarray, c: np.ndarray, b: np.ndarray, layout: Layout,
-           scale: Scale) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+           scale: Scale, overwrite: bool = False) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """(G~, C~, b~) = (E G D, E C D / T, E b) as in the module docstring (each product taken
-    left to right as written, the later ones in place: no temporaries of shape (n, n))."""
+    left to right as written, the later ones in place: no temporaries of shape (n, n)).
+    ``overwrite``: G~ and C~ are g and c themselves, scaled in place (the same floats: the
+    products commute), so a large pencil is never held twice."""
     d, e = scale.var(layout), scale.row(layout)
-    gs = e[:, None] * g
+    if overwrite:
+        gs, cs = g, c
+        gs *= e[:, None]
+        cs *= e[:, None]
+    else:
+        gs, cs = e[:, None] * g, e[:, None] * c
     gs *= d[None, :]
-    cs = e[:, None] * c
     cs *= d[None, :]
     cs /= scale.t
     return gs, cs, e * b

@@ -182,7 +182,7 @@ def cycle(sol) -> Cycle:
         resp = step.resp
         key = id(resp.dec)
         if key not in pencils:
-            pencils[key] = Pencil(resp.g, resp.c, resp.dec)
+            pencils[key] = Pencil(resp.kept_g, resp.kept_c, resp.dec)
         minus.append(x_minus)
         new = build(sol.layout, pencils[key], null, resp.b, x_minus, index=step.k,
                     start=resp.start, next_time=resp.start + step.h * sol.scale.t,

@@ -55,7 +55,8 @@ class Functional:
     def terms(self, layout: Layout, scale: Scale, g: np.ndarray, b: np.ndarray,
               values: dict, size: int) -> tuple[np.ndarray, np.ndarray, float]:
         """(c~, d~, k) over the scaled state x~ (and dx~/dtau) of an interval whose scaled
-        matrices are ``g``, ``b``; zero-padded to ``size`` (augmented systems)."""
+        matrices are ``g``, ``b``; zero-padded to ``size`` (augmented systems).  ``g`` is read
+        only for a KCL sum (``kcl``) and may be None otherwise."""
         dvec = scale.var(layout)
         c = np.zeros(size)
         d = np.zeros(size)

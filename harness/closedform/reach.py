@@ -65,6 +65,20 @@ def _injection(layout: Layout, part, size: int) -> np.ndarray:
     return a
 
 
+def _injections(layout: Layout, storage: list, size: int):
+    """The rows a_X of every storage part, shape (parts, size), as a sparse matrix (one or two
+    entries per row; ``inject @ z`` is then z_p - z_n, the dense product's value)."""
+    from scipy.sparse import csr_matrix
+    rows, cols, vals = [], [], []
+    for k, part in enumerate(storage):
+        a = _injection(layout, part, size)
+        hit = np.flatnonzero(a)
+        rows += [k] * hit.size
+        cols += hit.tolist()
+        vals += a[hit].tolist()
+    return csr_matrix((vals, (rows, cols)), shape=(len(storage), size))
+
+
 def reaching_storage(circuit: Circuit, layout: Layout, g: np.ndarray, c: np.ndarray,
                      row: np.ndarray, drow: np.ndarray) -> set[str] | None:
     """The capacitors and inductors whose transfer function to the probe is not zero (module
@@ -72,13 +86,12 @@ def reaching_storage(circuit: Circuit, layout: Layout, g: np.ndarray, c: np.ndar
     coefficients over x~ and dx~/dtau (shape (n,)).  None when the pencil is singular at both
     points (then the caller counts every storage part)."""
     storage = [p for p in circuit.parts if p.kind in STORAGE]
-    inject = np.array([_injection(layout, p, g.shape[0]) for p in storage]).reshape(
-        len(storage), g.shape[0])
+    inject = _injections(layout, storage, g.shape[0])
     reached = np.zeros(len(storage), dtype=bool)
     solved = False
     for s0 in POINTS:
         try:
-            z = _transposed_solve(g + s0 * c, row + s0 * drow)
+            z = _transposed_solve(g, c, s0, row + s0 * drow)
         except (la.LinAlgError, ValueError, RuntimeError):
             continue
         solved = True
@@ -89,20 +102,33 @@ def reaching_storage(circuit: Circuit, layout: Layout, g: np.ndarray, c: np.ndar
     return {p.name for p, hit in zip(storage, reached) if hit}
 
 
-def _transposed_solve(p: np.ndarray, rhs: np.ndarray) -> np.ndarray:
-    """z with p^T z = rhs (complex): LAPACK's dense solve, or from ``SPARSE_LU_MIN`` unknowns
-    on for a sparse-enough p a sparse LU (SuperLU, partial pivoting), O(nnz) fill on MNA
-    matrices instead of O(n^3).  Raises ``RuntimeError`` when p is exactly singular."""
-    pattern = _pattern(p) if p.shape[0] >= SPARSE_LU_MIN else None
+def _transposed_solve(g: np.ndarray, c: np.ndarray, s0: complex,
+                      rhs: np.ndarray) -> np.ndarray:
+    """z with p^T z = rhs for p = g + s0 c (complex): LAPACK's dense solve, or from
+    ``SPARSE_LU_MIN`` unknowns on for a sparse-enough p a sparse LU (SuperLU, partial
+    pivoting), O(nnz) fill on MNA matrices instead of O(n^3).  The sparse route forms p only
+    on the non-zeros of g and c (the same floats per entry; Im s0 != 0, so those are p's
+    non-zeros), never as a dense complex n x n matrix.  Raises ``RuntimeError`` when p is
+    exactly singular."""
+    pattern = _union_pattern(g, c) if g.shape[0] >= SPARSE_LU_MIN else None
     if pattern is None:
-        return la.solve(p.T, rhs, check_finite=True)
-    if not (np.isfinite(p).all() and np.isfinite(rhs).all()):
+        return la.solve((g + s0 * c).T, rhs, check_finite=True)
+    rows, cols = pattern
+    entries = g[rows, cols] + s0 * c[rows, cols].astype(complex)
+    if not (np.isfinite(entries).all() and np.isfinite(rhs).all()):
         raise ValueError("non-finite pencil")
     from scipy.sparse import csc_matrix
     from scipy.sparse.linalg import splu
-    rows, cols = pattern[0], pattern[1]
-    lu = splu(csc_matrix((p[rows, cols], (rows, cols)), shape=p.shape), diag_pivot_thresh=1.0)
+    lu = splu(csc_matrix((entries, (rows, cols)), shape=g.shape), diag_pivot_thresh=1.0)
     z = lu.solve(np.asarray(rhs, dtype=complex), trans="T")
     if not np.isfinite(z).all():
         raise la.LinAlgError("singular pencil")
     return z
+
+
+def _union_pattern(g: np.ndarray, c: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+    """(rows, cols) of the entries where g or c is non-zero, row-major (``linalg._pattern``'s
+    order and density rule applied to that union), or None when it is too dense."""
+    mask = g != 0
+    mask |= c != 0
+    return None if _pattern(mask) is None else tuple(np.nonzero(mask))

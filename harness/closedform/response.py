@@ -24,7 +24,7 @@ import scipy.linalg as sla
 
 from . import symmetric
 from .interval import Decomposition, augment, decompose
-from .linalg import LeastSquares
+from .linalg import LeastSquares, _pattern
 from .mna import Layout
 from .modes import Cluster
 
@@ -57,12 +57,55 @@ class ClusterData:
     g: np.ndarray
 
 
-@dataclass(frozen=True)
-class Pencil:
-    """The scaled matrices of a switch configuration and their decomposition (cached)."""
+#: from this many unknowns a scaled matrix with at most ``linalg.SPARSE_SHARE`` non-zero
+#: entries is kept sparse between its uses (``Kept``): two dense n x n matrices per switch
+#: configuration were 100 MB of a 5,000-part circuit's memory, held for the whole analysis
+KEEP_SPARSE_MIN = 500
 
-    g: np.ndarray
-    c: np.ndarray
+
+class Kept:
+    """A scaled MNA matrix as it is kept: the dense array itself, or from ``KEEP_SPARSE_MIN``
+    rows on, where sparse enough (``linalg._pattern``), its non-zero entries (CSR).  ``dense()``
+    gives the matrix (the kept array, or a new one with the same floats, signed zeros read as
+    +0); ``rows(rows)`` the rows ``rows`` as a sparse matrix (sparse kind only)."""
+
+    def __init__(self, m: np.ndarray) -> None:
+        self.shape = m.shape
+        self.sparse = None
+        self._dense: np.ndarray | None = m
+        if m.shape[0] >= KEEP_SPARSE_MIN and _pattern(m) is not None:
+            from scipy.sparse import csr_matrix
+            self.sparse, self._dense = csr_matrix(m), None
+
+    def dense(self) -> np.ndarray:
+        return self._dense if self._dense is not None else self.sparse.toarray()
+
+    def rows(self, rows: np.ndarray):
+        return self.sparse[rows]
+
+
+class _Arrays:
+    """``g`` and ``c``: the kept G~ and C~ (``kept_g``, ``kept_c``) as arrays."""
+
+    kept_g: Kept
+    kept_c: Kept
+
+    @property
+    def g(self) -> np.ndarray:
+        return self.kept_g.dense()
+
+    @property
+    def c(self) -> np.ndarray:
+        return self.kept_c.dense()
+
+
+@dataclass(frozen=True)
+class Pencil(_Arrays):
+    """The scaled matrices of a switch configuration (``Kept``) and their decomposition
+    (cached); ``g`` and ``c`` give them as arrays."""
+
+    kept_g: Kept
+    kept_c: Kept
     dec: Decomposition
 
     @cached_property
@@ -73,13 +116,14 @@ class Pencil:
 
 
 @dataclass(frozen=True)
-class IntervalResponse:
+class IntervalResponse(_Arrays):
     """Interval k (k = -1: the pre-step circuit used for the values at 0-), scaled units.
 
     Attributes:
         index, start, next: k, t_k in s and t_(k+1) in s (None for the last interval).
         values: independent source name -> value in this interval (V or A).
-        g, c, b: the scaled MNA system.
+        kept_g, kept_c, b: the scaled MNA system (G~ and C~ as kept, ``Kept``; the properties
+            ``g`` and ``c`` give them as arrays, a new one per use where they are kept sparse).
         augmented: True when the response grows without bound (no bounded particular solution).
         growth_nodes: nodes where the unbalanced charge accumulates (augmented only).
         xp: particular solution, shape (n_aug,) (zero when augmented).
@@ -95,8 +139,8 @@ class IntervalResponse:
     start: float
     next: float | None
     values: Mapping[str, float]
-    g: np.ndarray
-    c: np.ndarray
+    kept_g: Kept
+    kept_c: Kept
     b: np.ndarray
     augmented: bool
     growth_nodes: tuple[str, ...]
@@ -111,7 +155,7 @@ class IntervalResponse:
 
     @property
     def n(self) -> int:
-        return self.g.shape[0]
+        return self.kept_g.shape[0]
 
     @cached_property
     def clusters(self) -> tuple[ClusterData, ...]:
@@ -125,7 +169,7 @@ class IntervalResponse:
         if f == 0:
             return np.tile(self.xp, (tau.size, 1)), np.zeros((tau.size, self.xp.size))
         if self.dec.diagonal:                      # expm(diag(lam) tau) z0 = e^(lam tau) z0
-            lam = np.diagonal(self.dec.a)
+            lam = self.dec.diagonal_rates
             with np.errstate(over="ignore", invalid="ignore"):
                 expo = np.exp(np.outer(tau, lam)) * self.z0
                 return self.xp[None, :] + expo @ self.dec.q1.T, (expo * lam) @ self.dec.q1.T
@@ -146,7 +190,7 @@ class IntervalResponse:
         if not (self.dec.diagonal and self.dec.order >= PROJECT_ORDER):
             x, dx = self.states(tau)
             return x @ c + dx @ d
-        lam = np.diagonal(self.dec.a)
+        lam = self.dec.diagonal_rates
         weights = (self.dec.q1.T @ c + lam * (self.dec.q1.T @ d)) * self.z0
         with np.errstate(over="ignore", invalid="ignore"):
             expo = np.exp(np.outer(tau.ravel(), lam))
@@ -174,11 +218,14 @@ class IntervalResponse:
         return x.real, dx.real
 
 
-def pencil_of(g: np.ndarray, c: np.ndarray, null: np.ndarray) -> Pencil:
+def pencil_of(g: Kept, c: Kept, null: np.ndarray) -> Pencil:
     """Decompose a non-augmented scaled pencil (SingularPencil if it is not regular): by the
-    symmetric route where it applies (``symmetric``), else by the general one."""
-    dec = symmetric.decompose(g, c, null)
-    return Pencil(g, c, dec if dec is not None else decompose(g, c, null))
+    symmetric route where it applies (``symmetric``), else by the general one.  Where the
+    matrices are kept sparse the symmetric route gets dense copies of its own, which it
+    releases before its eigenproblem (``c_rows``)."""
+    rows = c.rows if c.sparse is not None else None
+    dec = symmetric.decompose(g.dense(), c.dense(), null, c_rows=rows)
+    return Pencil(g, c, dec if dec is not None else decompose(g.dense(), c.dense(), null))
 
 
 def _particular(pencil: Pencil, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, bool]:
@@ -196,7 +243,7 @@ def _cluster_data(dec: Decomposition, z0: np.ndarray) -> tuple[ClusterData, ...]
         starts = np.cumsum([0] + [cl.size for cl in general])
     pos = 0
     q1c, z0c = dec.q1.astype(complex), z0.astype(complex)
-    q1t = q1c * np.diagonal(dec.a) if dec.diagonal else None     # Q1 A for a diagonal A
+    q1t = q1c * dec.diagonal_rates if dec.diagonal else None     # Q1 A for a diagonal A
     for cl in dec.clusters:
         if cl.index is not None and len(cl.index) == 1:   # one unit column: views, O(1)
             i = cl.index[0]
@@ -226,15 +273,14 @@ def build(layout: Layout, pencil: Pencil, null: np.ndarray, b: np.ndarray, x_min
 
     ``t_ref`` is the scaling time T in s (to convert t_(k+1) - t_k to scaled time).
     """
-    g, c = pencil.g, pencil.c
-    n = g.shape[0]
+    n = pencil.kept_g.shape[0]
     xp, resid, consistent = _particular(pencil, b)
     augmented = not consistent
     growth_nodes: tuple[str, ...] = ()
     if augmented:
         big = np.abs(resid[:layout.n_nodes])
         growth_nodes = tuple(layout.nodes[i] for i in np.flatnonzero(big > 1e-6 * big.max()))
-        ga, ca, null_a = augment(g, c, b, null)
+        ga, ca, null_a = augment(pencil.g, pencil.c, b, null)
         dec = decompose(ga, ca, null_a, augmented=True)
         xp = np.zeros(n + 1)
         e = np.concatenate([x_minus, [1.0]])
@@ -243,7 +289,8 @@ def build(layout: Layout, pencil: Pencil, null: np.ndarray, b: np.ndarray, x_min
         e = x_minus - xp
     with np.errstate(invalid="ignore", over="ignore"):     # a state beyond range stays NaN
         z0 = dec.coordinates(e)
-    resp = IntervalResponse(index, start, next_time, dict(values), g, c, b, augmented,
+    resp = IntervalResponse(index, start, next_time, dict(values), pencil.kept_g,
+                            pencil.kept_c, b, augmented,
                             growth_nodes, xp, dec, z0, np.zeros(n), np.zeros(n),
                             closed=dict(closed))
     x0, dx0 = resp.states(np.zeros(1))

@@ -22,7 +22,7 @@ from .stamps import layout_of, stamp, stamp_sources
 from .modes import UNDAMPED, Mode, mode_of
 from .probes import functional
 from .reach import reaching_storage, voltage_of_capacitor
-from .response import IntervalResponse, Pencil, build, pencil_of
+from .response import IntervalResponse, Kept, Pencil, build, pencil_of
 from . import signoff
 from .conditioning import assess
 from .thevenin import thevenin_resistances
@@ -99,9 +99,9 @@ class ClosedFormSolution(NotComputed):
         if k not in self._jump_cache:
             resp = self.intervals[k]
             x_minus = self._x_minus(k)
-            self._jump_cache[k] = jump_at(self.circuit, self.layout, self.scale, resp.g, resp.c,
-                                          x_minus, resp.x_plus, resp.start, resp.values,
-                                          self._jump_scales())
+            self._jump_cache[k] = jump_at(self.circuit, self.layout, self.scale, resp.kept_g,
+                                          resp.kept_c, x_minus, resp.x_plus, resp.start,
+                                          resp.values, self._jump_scales())
         return self._jump_cache[k]
 
     def span(self, k: int) -> tuple[float, float]:
@@ -229,9 +229,11 @@ class ClosedFormSolution(NotComputed):
         terms = self._zero_value(k)
         resp, n = self.intervals[k], self.layout.size
         fn = functional(self.circuit, self.layout, voltage_of_capacitor(self.circuit, probe))
-        row, drow, _ = fn.terms(self.layout, self.scale, resp.g, resp.b, resp.values, n)
-        coupled = reaching_storage(self.circuit, self.layout, resp.g[:n, :n], resp.c[:n, :n],
+        g = resp.g
+        row, drow, _ = fn.terms(self.layout, self.scale, g, resp.b, resp.values, n)
+        coupled = reaching_storage(self.circuit, self.layout, g[:n, :n], resp.c[:n, :n],
                                    row, drow)
+        del g
         if coupled is not None:
             terms = {p: t for p, t in terms.items() if p in coupled}
         return terms
@@ -278,7 +280,8 @@ class ClosedFormSolution(NotComputed):
         return self.prestep.x_plus if k == 0 else self.intervals[k - 1].x_end
 
     def _terms(self, fn, resp: IntervalResponse) -> tuple[np.ndarray, np.ndarray, float]:
-        return fn.terms(self.layout, self.scale, resp.g, resp.b, resp.values, resp.xp.size)
+        g = resp.g if fn.kcl is not None else None       # G~ only where the KCL sum needs it
+        return fn.terms(self.layout, self.scale, g, resp.b, resp.values, resp.xp.size)
 
     def _before(self, k: int, fn) -> tuple:
         """(x~, dx~/dtau, c~, d~, k) at t_k- (from the pre-step response for k = 0)."""
@@ -345,11 +348,13 @@ def _pencil(circuit, layout, scale, null, closed, groups, cache, time) -> Pencil
     if key not in cache:
         g, c, _ = stamp(circuit, layout, closed, lambda p: 0.0)
         pin(g, layout, groups, 1.0 / scale.r0)
-        gs, cs, _ = scaled(g, c, np.zeros(layout.size), layout, scale)
+        scaled(g, c, np.zeros(layout.size), layout, scale, overwrite=True)
+        kept_g, kept_c = Kept(g), Kept(c)
+        del g, c                        # a large pencil is kept sparse (``response.Kept``)
         try:
-            cache[key] = pencil_of(gs, cs, null)
+            cache[key] = pencil_of(kept_g, kept_c, null)
         except SingularPencil:
-            raise _singular(circuit, layout, gs, cs, time) from None
+            raise _singular(circuit, layout, kept_g.dense(), kept_c.dense(), time) from None
     return cache[key]
 
 

@@ -281,8 +281,10 @@ def _schur(g11, g21, g22, c11, rtc):
     if not np.all(np.isfinite(piv)) or piv.min() <= PIVOT_REL * max(piv.max(), 1e-300):
         return None
     h = sla.lu_solve(lu, g21, check_finite=False)
-    s = g11 - g21.T @ h
-    return 0.5 * (s + s.T), c11, h, rtc
+    g11 -= g21.T @ h                               # S in place (g11 is a fresh copy)
+    g11 += g11.T                                   # numpy buffers the overlapping operand
+    g11 *= 0.5
+    return g11, c11, h, rtc
 
 
 def _finite(lam: np.ndarray, s0: float) -> np.ndarray:
@@ -303,9 +305,14 @@ def _shift(lam: np.ndarray) -> float:
     return 1.0 if 1e-2 <= center <= 1e2 else center
 
 
-def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray) -> Decomposition | None:
+def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray,
+              c_rows=None) -> Decomposition | None:
     """The Decomposition of the scaled pencil (G~, C~) by the symmetric route, or None when it
-    does not apply (see the module docstring); ``null`` is the orthonormal null basis of C~."""
+    does not apply (see the module docstring); ``null`` is the orthonormal null basis of C~.
+
+    ``c_rows(rows)``, where given, returns those rows of C~ as a sparse matrix: then R^T C~ is
+    kept in that form for z0 (for unit-column bases) and g and c, this call's own copies, are
+    released before the eigenproblem, so it never runs beside two dense n x n matrices more."""
     n = g.shape[0]
     if n < max(MIN_SIZE, 1) or c.shape != g.shape or null.shape[0] != n:
         return None
@@ -324,19 +331,50 @@ def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray) -> Decomposition |
     if red is None:
         return None
     s, c11, h, rtc = red
-    try:
-        w, v = sla.eigh(s, c11, check_finite=False)
+    del red
+    if c_rows is not None and isinstance(r, _Selection):
+        rtc = c_rows(r.rows)                       # the same entries, sparse
+    del g, c, gs, cs                               # (where a caller still holds them: no-op)
+    try:           # S and C11 are this function's own and exactly symmetric: handed over as
+        # their transposes (the same matrices, in LAPACK's column order), LAPACK overwrites
+        # them in place instead of working on Fortran-ordered copies
+        w, v = sla.eigh(s.T, c11.T, check_finite=False, overwrite_a=True, overwrite_b=True)
     except (ValueError, np.linalg.LinAlgError):
         return None                                # C11 not positive definite
+    del s, c11
     if not np.all(np.isfinite(w)) or w.min(initial=0.0) < -GROWING_REL * np.abs(w).max():
         return None
     lam = -w
     s0 = _shift(lam)
     keep = _finite(lam, s0)
-    lam, vk = lam[keep], v[:, keep]
+    if not keep.all():
+        lam, v = lam[keep], v[:, keep]
     zero_tol = ZERO_REL * abs(s0)
-    q1 = np.asarray(r @ vk)
-    if n0.shape[1]:
-        q1 = q1 - np.asarray(n0 @ (h @ vk))
-    return Decomposition(s0, q1, np.diag(lam), None, diagonal_clusters(lam, zero_tol), zero_tol,
-                         diagonal=True, left_factors=(vk.T, rtc))
+    q1 = _right_basis(r, n0, h, v)
+    return Decomposition(s0, q1, None, None, diagonal_clusters(lam, zero_tol), zero_tol,
+                         diagonal=True, left_factors=(_rows_of(q1, r, v).T, rtc), rates=lam)
+
+
+def _right_basis(r, n0, h: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """Q1 = R V - N0 (H V), shape (n, f), with no n x f temporary beside it where N0 is a
+    selection (its rows of R V are exact zeros, so subtracting there in place is the same
+    floats)."""
+    q1 = np.asarray(r @ v)
+    if n0.shape[1] == 0:
+        return q1
+    if isinstance(n0, _Selection):
+        q1[n0.rows] -= h @ v
+    else:
+        q1 -= np.asarray(n0 @ (h @ v))
+    return q1
+
+
+def _rows_of(q1: np.ndarray, r, v: np.ndarray) -> np.ndarray:
+    """V itself: R^T Q1 = V exactly where R is a selection (its rows of Q1 are V's rows, N0's
+    part being exact zeros there), taken as a view of Q1 where the rows are consecutive, so
+    the decomposition keeps one n x f matrix instead of two; else V."""
+    if isinstance(r, _Selection):
+        sel = _index(r.rows)
+        if isinstance(sel, slice):
+            return q1[sel]
+    return v

@@ -34,6 +34,9 @@ from .conditioning import SPARSE_CONDITION_MIN, sparse_condition
 from .linalg import REGULAR_MIN_SIZE, LeastSquares, _pattern, equilibrate, regular_factor
 from .mna import Layout, Scale, voltage_row
 
+#: more storage parts than this are solved this many test injections at a time (an (n, s)
+#: block per batch instead of three (n, s) matrices: 50 MB each at 2,500 parts)
+CHUNK = 512
 #: G~ with an estimated reciprocal condition number (1-norm) above this takes the batched route.
 #: Faithful to the per-part null test (singular values below 1e-12 of the largest): it implies
 #: sigma_min / sigma_max > ~1e-7 / n, far above 1e-12 for any circuit within the part limit
@@ -75,14 +78,48 @@ def thevenin_resistances(circuit: Circuit, layout: Layout, scale: Scale,
     parts = _storage(circuit)
     if not parts:
         return {}
-    vrows, rhs = _injections(layout, scale, parts)
     factor = regular_factor(g_scaled, BATCH_RCOND, min_size=1)
     if factor is None:
-        return _per_part(layout, g_scaled, parts, vrows, rhs)
+        return _per_part_each(layout, g_scaled, parts,
+                              lambda k: _one_injection(layout, scale, parts[k]))
     solve = (lambda m: _refined_solve(g_scaled, factor, m))
+    if len(parts) > CHUNK:
+        return _chunked(layout, scale, g_scaled, parts, solve)
+    vrows, rhs = _injections(layout, scale, parts)
     x = solve(rhs)                                   # (n, s): every test injection at once
     out = {p.name: float(vrows[:, k] @ x[:, k]) for k, p in enumerate(parts)
            if p.kind == CAPACITOR}
+    out = _with_inductors(layout, g_scaled, parts, vrows, rhs, x, solve, out)
+    return {p.name: out[p.name] for p in parts}
+
+
+def _chunked(layout: Layout, scale: Scale, g_scaled: np.ndarray, parts: list,
+             solve) -> dict[str, float]:
+    """``thevenin_resistances``' batched route for many storage parts: the test injections
+    solved ``CHUNK`` columns at a time (each column's solve and dot product as in one batch),
+    so no (n, s) matrix is held; inductors keep their own columns for the bordered solve."""
+    out: dict[str, float] = {}
+    kept = []
+    for start in range(0, len(parts), CHUNK):
+        group = parts[start:start + CHUNK]
+        vrows, rhs = _injections(layout, scale, group)
+        x = solve(rhs)
+        out.update({p.name: float(vrows[:, k] @ x[:, k]) for k, p in enumerate(group)
+                    if p.kind == CAPACITOR})
+        kept += [(p, vrows[:, k], rhs[:, k], x[:, k]) for k, p in enumerate(group)
+                 if p.kind == INDUCTOR]
+    if not kept:
+        return {p.name: out[p.name] for p in parts}
+    held, vrows, rhs, x = ([item[i] for item in kept] for i in range(4))
+    out = _with_inductors(layout, g_scaled, held, np.column_stack(vrows),
+                          np.column_stack(rhs), np.column_stack(x), solve, out)
+    return {p.name: out[p.name] for p in parts}
+
+
+def _with_inductors(layout: Layout, g_scaled: np.ndarray, parts: list, vrows: np.ndarray,
+                    rhs: np.ndarray, x: np.ndarray, solve, out: dict) -> dict[str, float]:
+    """``out`` (the capacitors' R_th) with every inductor's added, by the bordered solve
+    (module docstring) or, where its pivot is too small, the per-part route."""
     inductors = [k for k, p in enumerate(parts) if p.kind == INDUCTOR]
     if inductors:
         cols = np.array([layout.branch(parts[k].name) for k in inductors])
@@ -97,7 +134,7 @@ def thevenin_resistances(circuit: Circuit, layout: Layout, scale: Scale,
                 continue
             xk = x[:, k] - wk * (x[j, k] / wk[j])    # x_j = 0: the inductor itself open
             out[parts[k].name] = float(vrows[:, k] @ xk)
-    return {p.name: out[p.name] for p in parts}
+    return out
 
 
 def _refined_solve(g: np.ndarray, factor, rhs: np.ndarray) -> np.ndarray:
@@ -107,11 +144,24 @@ def _refined_solve(g: np.ndarray, factor, rhs: np.ndarray) -> np.ndarray:
     return x + factor.solve(rhs - g @ x)
 
 
+def _one_injection(layout: Layout, scale: Scale, part) -> tuple[np.ndarray, np.ndarray]:
+    """``_injections`` of one part: its voltage row and test injection, shapes (n,)."""
+    vrows, rhs = _injections(layout, scale, [part])
+    return vrows[:, 0], rhs[:, 0]
+
+
 def _per_part(layout: Layout, g_scaled: np.ndarray, parts: list, vrows: np.ndarray,
               rhs: np.ndarray) -> dict[str, float]:
+    """``_per_part_each`` with the parts' voltage rows and injections given as columns."""
+    return _per_part_each(layout, g_scaled, parts, lambda k: (vrows[:, k], rhs[:, k]))
+
+
+def _per_part_each(layout: Layout, g_scaled: np.ndarray, parts: list,
+                   injection) -> dict[str, float]:
     """R_th by one least-squares solve per part and a null-space test: every capacitor shares
     one solver and one test of G~; each inductor (whose own row is replaced by i = 0) gets its
-    own."""
+    own.  ``injection(k)``: part k's (voltage row, test injection), shapes (n,), made per part
+    so that no (n, s) matrix is held."""
     out = {}
     shared = None
     for k, part in enumerate(parts):
@@ -124,7 +174,8 @@ def _per_part(layout: Layout, g_scaled: np.ndarray, parts: list, vrows: np.ndarr
         else:
             shared = _solver_and_null(g_scaled) if shared is None else shared
             solver, null = shared
-        out[part.name] = _solve_ratio(solver, rhs[:, k], vrows[:, k], null)
+        vrow, rhs = injection(k)
+        out[part.name] = _solve_ratio(solver, rhs, vrow, null)
     return out
 
 

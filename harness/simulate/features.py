@@ -89,7 +89,7 @@ def post_pulse(run: IntervalRun, rows: np.ndarray, offsets: np.ndarray, s_a: flo
             interval's origin.
     """
     s = s_a + np.linspace(0.0, width, FIT_POINTS)
-    x = run.probe(rows, offsets, s)  # (p, FIT_POINTS)
+    x = run.probe(rows, offsets, s, whole_states=True)  # (p, FIT_POINTS)
     coeffs = np.polyfit(s / width, x.T, FIT_DEGREE).reshape(FIT_DEGREE + 1, -1)
     return PostPulse(s_a, width, coeffs)
 

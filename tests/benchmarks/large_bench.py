@@ -28,6 +28,8 @@ RESULTS = Path(__file__).with_name("RESULTS.md")
 HEADING = "## Large circuits"
 SIZES = (50, 100, 250, 500, 750, 1000, 1500, 2000, 2499)
 TARGET_SECTIONS = 1000
+#: the ladder whose check is measured stage by stage (4,999 parts)
+STAGE_SECTIONS = 2499
 TARGET_SECONDS = 10.0
 #: what the measured curve shows (kept beside the table when it is rewritten)
 NOTES = """
@@ -35,17 +37,18 @@ NOTES = """
 What the curve shows: below ~500 sections the ~2 s of a fresh process (imports, the reports and
 three plots) dominates.  The bump at 750 sections is the numerical engine's own modes (a dense
 QZ with left and right vectors of its ideal pencil, `simulate.modal`, up to `EIGEN_UP_TO` = 800
-states: ~2.5 s of CPU at 752 states; above it the numerical engine reports no modes of its own
-and no dominant τ).  From 1,000 sections on the growth is the closed form's dense symmetric
-eigen-decomposition (all n modes, O(n³)) and its dense n x n matrices (memory O(n²): 264 MB at
-2,001 parts, ~0.8-1.2 GB at 4,999).  Before this work the 300-section check took 5.3 s of CPU,
-9.6 s of 12.9 s under the profiler in the cautions' per-node features, and the 1,000-section
-one was stopped after 3 minutes (the per-capacitor Thevenin rebuild, the reach test once per
-features call, an O(n³) SVD for the conditioning).  Every size ends in exit 1: the rough hand
-values, and the closed form's dominant τ at the far end counts only the capacitors its reach
-test sees (33 of 600 at 600 sections: far capacitors' transfer at the test points falls below
-`reach.REACH`), which disagrees with the numerical engine's Elmore-like sum (left to the
-engine-agreement work)."""
+states; above it the numerical engine reports no modes of its own and no dominant τ).  From
+1,000 sections on the growth is the closed form's dense symmetric eigendecomposition (all n
+modes, O(n³) time); its memory is now Q1 (n x f, kept for the whole analysis) and, for moments,
+eigh's S, C11 and workspace (O(n²): 50 MB per n x n matrix at 4,999 parts).  Memory at 4,999
+parts was 821 MB before the memory work of 2026-12-04 (per stage: closed form 596 MB peak,
+conditioning 510, comparison 836, 657 held at the end): two dense G~, C~ per pencil, V beside
+Q1, an f x f diagonal A, two complex copies of Q1 for the features, (n, s) test injections in
+the Thevenin routine and the reach test, a dense complex G~ + s0 C~, and the jump test's
+temporaries.  Every size ends in exit 1: the rough hand values, and the closed form's dominant
+τ at the far end counts only the capacitors its reach test sees (33 of 600 at 600 sections:
+far capacitors' transfer at the test points falls below `reach.REACH`), which disagrees with
+the numerical engine's Elmore-like sum (left to the engine-agreement work)."""
 
 
 def ladder_file(sections: int) -> str:
@@ -95,6 +98,74 @@ def measure(sizes) -> list[dict]:
     return rows
 
 
+#: the stages of one check whose peak memory is measured (``stage_memory``)
+STAGES = ("read", "closed form solve", "conditioning", "numerical engine", "cautions",
+          "comparison (features, sign-off, Thevenin, reach)")
+
+
+def _resident() -> tuple[float, float]:
+    """(peak since the last reset, current) resident memory of this process, MB."""
+    status = {line.split(":")[0]: int(line.split()[1]) for line in open("/proc/self/status")
+              if line.startswith(("VmHWM", "VmRSS"))}
+    return status["VmHWM"] / 1024, status["VmRSS"] / 1024
+
+
+def _stages_child(sections: int) -> None:
+    """Run one check's stages in this process (``runner._analyse``'s order) and print, per
+    stage, the peak resident memory during it (the kernel's high-water mark, reset through
+    /proc/self/clear_refs before each stage) and the memory held after it, as JSON."""
+    import json
+    from harness import closedform, runner, simulate
+    from harness.circuitfile import read_circuit
+    from harness.compare import compare_file
+    from harness.compare.trust import guard
+    from harness.report.cautions import cautions_for
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "ladder.toml"
+        path.write_text(ladder_file(sections), encoding="utf-8")
+        out, state = [], {}
+
+        def stage(fn):
+            with open("/proc/self/clear_refs", "w") as f:
+                f.write("5")
+            fn()
+            out.append(_resident())
+
+        stage(lambda: state.update(circuit=read_circuit(str(path))))
+        circuit = state["circuit"]
+        stage(lambda: state.update(exact=closedform.solve(circuit)))
+        stage(lambda: state.update(trust=state["exact"].conditioning()))
+        exact = guard(state["exact"], state["trust"])
+        stage(lambda: state.update(sim=guard(simulate.solve(circuit), state["trust"])))
+        stage(lambda: state.update(cautions=cautions_for(
+            circuit, voltages=runner._node_voltages(circuit, exact),
+            jumps=[exact.jump(k) for k in range(len(circuit.events))])))
+        stage(lambda: compare_file(circuit, exact, state["sim"], cautions=state["cautions"],
+                                   seconds=0.0))
+    print(json.dumps(out))
+
+
+def stage_memory(sections: int) -> list[tuple[float, float]]:
+    """Per stage of one check of the ``sections``-section ladder, in a fresh process: (peak
+    MB during the stage, MB held after it)."""
+    import json
+    env = dict(os.environ, OPENBLAS_NUM_THREADS="1", MPLBACKEND="Agg")
+    done = subprocess.run([sys.executable, "-m", "tests.benchmarks.large_bench",
+                           "--stages-child", str(sections)], capture_output=True, text=True,
+                          env=env, check=True)
+    return [tuple(x) for x in json.loads(done.stdout.strip().splitlines()[-1])]
+
+
+def _stage_table(sections: int, stages: list[tuple[float, float]]) -> str:
+    body = [f"Memory by stage of one check of the {sections}-section ladder "
+            f"({2 * sections + 1} parts; `large_bench --stages`, one fresh process, the "
+            f"analysis without the reports):", "",
+            "| stage | peak resident MB during it | resident MB after it |", "|---|---|---|"]
+    body += [f"| {name} | {peak:.0f} | {held:.0f} |" for name, (peak, held) in
+             zip(STAGES, stages)]
+    return "\n".join(body)
+
+
 def compose(rows: list[dict], load: tuple[str, str]) -> str:
     body = ["| sections | parts | check CPU s | wall s | peak memory MB | exit | "
             "local exponent (CPU vs parts) |", "|---|---|---|---|---|---|---|"]
@@ -127,10 +198,18 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__)
     parser.add_argument("--sizes", nargs="*", type=int, default=list(SIZES))
     parser.add_argument("--print-only", action="store_true")
+    parser.add_argument("--stages", type=int, default=STAGE_SECTIONS,
+                        help="ladder sections of the per-stage memory table (0: none)")
+    parser.add_argument("--stages-child", type=int, help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
+    if args.stages_child:
+        _stages_child(args.stages_child)
+        return 0
     load0 = load_average()
     rows = measure(args.sizes)
     text = compose(rows, (load0, load_average()))
+    if args.stages:
+        text += "\n\n" + _stage_table(args.stages, stage_memory(args.stages))
     return publish(RESULTS, HEADING, text, args.print_only)
 
 
