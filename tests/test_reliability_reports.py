@@ -96,7 +96,7 @@ def test_titles_cannot_place_files_outside_the_report_folder(tmp_path, title, ca
         assert p == reports.parent or reports in p.parents or p == reports, p
     assert sorted(p.name for p in reports.iterdir() if p.is_file()) == sorted(REPORT_FILES)
     plots = list((reports / "plots").iterdir())
-    assert plots and all(p.suffix == ".png" and not p.name.startswith(".") for p in plots)
+    assert plots and all(p.suffix == ".svg" and not p.name.startswith(".") for p in plots)
 
 
 def test_circuit_file_named_like_a_path_stays_inside(tmp_path, capsys):

@@ -31,7 +31,7 @@ _STAGE, _OLD = ".tauproof-new-", ".tauproof-old-"
 def publish(folder: Path, files: dict[str, bytes], plots: dict[str, bytes], plot_dir: str,
             ours: re.Pattern) -> list[Path]:
     """Replace the report set in ``folder`` by ``files`` (name -> bytes) and ``plots`` (name ->
-    PNG bytes, in ``folder/plot_dir``); plots an earlier run left there whose names match
+    bytes, in ``folder/plot_dir``); plots an earlier run left there whose names match
     ``ours`` and that this run does not write are removed with the old set.
 
     Returns the paths written: ``files`` in their order, then the plots.
