@@ -28,23 +28,15 @@ from harness.outcome import PASS, CheckResult, FileResult, RunResult
 from harness.report import html, plots, reportset, scale, svg, write_all
 from harness.runner import check_file
 from harness.simulate import solve as numeric_solve
+from tests.test_cli_output import RC as RC_CIRCUIT, RC_EXPECT
 
 ROOT = Path(__file__).resolve().parent.parent
 NS = "{http://www.w3.org/2000/svg}"
 #: SI prefixes (BIPM, The International System of Units, 9th edition, table 7)
 PREFIX = {"f": 1e-15, "p": 1e-12, "n": 1e-9, "µ": 1e-6, "m": 1e-3, "": 1.0, "k": 1e3,
           "M": 1e6, "G": 1e9}
-RC = """
-title = "RC charge"
-[parts]
-V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "0 V", steps = [["0 s", "5 V"]] }
-R1 = { kind = "resistor", nodes = ["in", "out"], value = "10k" }
-C1 = { kind = "capacitor", nodes = ["out", "gnd"], value = "1u" }
-[[expect]]
-node = "out"
-final = "5 V"
-tau = "10 ms"
-"""
+#: an RC charge, 5 V through 10 kΩ into 1 µF (τ = 10 ms), with its hand values
+RC = RC_CIRCUIT + RC_EXPECT
 LIBRARY = ROOT / "circuits" / "library"
 
 
