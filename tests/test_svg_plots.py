@@ -260,3 +260,15 @@ def test_report_set_is_synced_with_one_syncfs_on_linux(tmp_path, monkeypatch):
     run = RunResult(files=(FileResult("rc.toml", "RC", PASS, checks=(rc_check(),)),))
     write_all(run, tmp_path)
     assert synced == []
+
+
+def test_an_earlier_runs_png_plots_go_with_the_old_set(tmp_path):
+    """PNG plots an earlier version wrote under the same naming pattern are removed with the old
+    set; a file of the user's beside them stays."""
+    (tmp_path / "plots").mkdir()
+    (tmp_path / "plots" / "001-rc-c1.png").write_bytes(b"old plot")
+    (tmp_path / "plots" / "my-notes.png").write_bytes(b"mine")
+    run = RunResult(files=(FileResult("rc.toml", "RC", PASS, checks=(rc_check(),)),))
+    paths = write_all(run, tmp_path)
+    assert sorted(p.name for p in (tmp_path / "plots").iterdir()) == sorted(
+        [p.name for p in paths if p.parent.name == "plots"] + ["my-notes.png"])
