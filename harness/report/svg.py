@@ -18,7 +18,6 @@ are character data, never markup.
 
 from __future__ import annotations
 
-import json
 import re
 from dataclasses import dataclass, field
 from html import escape as _escape
@@ -26,7 +25,6 @@ from html import escape as _escape
 import numpy as np
 
 from ..safetext import printable
-from . import scale
 
 SVG_NS = "http://www.w3.org/2000/svg"
 #: the fonts asked for, first available wins (a sans-serif face with the Greek and math signs)
@@ -62,13 +60,6 @@ def text_width(text: str, size: float) -> float:
 def without_metadata(svg: str) -> str:
     """The chart without its ``<metadata>`` facts (for the HTML page, where tables say it)."""
     return _METADATA.sub("", svg, count=1)
-
-
-def facts(svg: str) -> dict:
-    """The JSON facts of a chart's ``<metadata>`` element ({} when it has none)."""
-    import xml.etree.ElementTree as ET
-    found = ET.fromstring(svg).find(f"{{{SVG_NS}}}metadata")
-    return json.loads(found.text) if found is not None and found.text else {}
 
 
 @dataclass(frozen=True)
