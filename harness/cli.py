@@ -62,6 +62,9 @@ def _parser(json_errors: bool = False) -> argparse.ArgumentParser:
     check.add_argument("--report-dir", default=None,
                        help="where reports go (default: reports/)")
     check.add_argument("--no-report", action="store_true", help="do not write report files")
+    check.add_argument("--no-plots", action="store_true",
+                       help="write the reports without plots (no plots/ files, no plots in "
+                            "the HTML page)")
     check.add_argument("--all", action="store_true", dest="show_all",
                        help="list every check on the console, passes too (default: what needs "
                             "attention in full, passes summarised)")
@@ -396,7 +399,7 @@ def _write_reports(args, argv, result, bar):
     facts = collect(result, sys.argv[1:] if argv is None else argv)
     try:
         return result, write_all(result, Path(args.report_dir), jobs=args.jobs, progress=bar,
-                                 provenance=facts)
+                                 provenance=facts, with_plots=not args.no_plots)
     except OSError as err:
         problem = f"could not write the reports to the folder {args.report_dir}: {err}"
         return RunResult(files=result.files, errors=result.errors + (problem,)), []

@@ -1,6 +1,6 @@
 """What the command prints and writes must never mislead: each test runs a circuit file through
 ``python -m harness.cli`` and reads the output with a real consumer (a strict JSON parser,
-pandas, xml.etree, the PNG's text chunks).
+pandas, xml.etree, the SVG plots' metadata).
 
 Reference values: the RC charge x(t) = V·(1 − e^(−t/RC)) and its crossing time
 τ·ln((x(0+) − x∞)/(level − x∞)) (common practice); a resistive divider's output V·R2/(R1 + R2)
@@ -21,7 +21,6 @@ from pathlib import Path
 
 import pandas as pd
 import pytest
-from PIL import Image
 
 ROOT = Path(__file__).resolve().parent.parent
 
@@ -137,9 +136,9 @@ def strict_json(text: str):
 
 
 def plot_facts(path: Path) -> dict:
-    """The facts a plot writes into its PNG text chunk ``tauproof``: legend labels, axis limits."""
-    with Image.open(path) as image:
-        return json.loads(image.text["tauproof"])
+    """The facts a plot writes into its SVG ``<metadata>`` (JSON): legend labels, axis limits."""
+    found = ET.parse(path).getroot().find("{http://www.w3.org/2000/svg}metadata")
+    return json.loads(found.text)
 
 
 # ------------------------------------------------------------------ one strict JSON writer
@@ -179,7 +178,7 @@ def test_check_plot_stops_at_the_next_event_and_marks_the_held_continuation(tmp_
     done = cli("check", path, "--report-dir", tmp_path / "r")
     assert done.returncode == 1, done.stderr
     plots = tmp_path / "r" / "plots"
-    facts = plot_facts(next(plots.glob("001-*-c1.png")))
+    facts = plot_facts(next(plots.glob("001-*-c1.svg")))
     labels = facts["legend"]
     assert "next event t = 100 ns" in labels
     assert any("if held" in label for label in labels)
@@ -193,13 +192,13 @@ def test_each_file_gets_a_whole_schedule_plot_in_both_reports(tmp_path):
     """One plot per file of every probe across every event, in the HTML and the Markdown."""
     path = write(tmp_path, "gate.toml", GATE)
     cli("check", path, "--report-dir", tmp_path / "r")
-    schedule = next((tmp_path / "r" / "plots").glob("001-*-schedule.png"))
+    schedule = next((tmp_path / "r" / "plots").glob("001-*-schedule.svg"))
     facts = plot_facts(schedule)
     assert {"node g", "through Rg"} <= set(facts["legend"])
     assert facts["xlim"][0] <= 0.0 and facts["xlim"][1] > 100e-9
     assert f"plots/{schedule.name}" in \
         (tmp_path / "r" / "report.md").read_text(encoding="utf-8")
-    assert 'alt="whole schedule of' in (tmp_path / "r" / "report.html").read_text(encoding="utf-8")
+    assert 'aria-label="whole schedule of' in (tmp_path / "r" / "report.html").read_text(encoding="utf-8")
 
 
 def test_steady_probe_is_not_plotted_at_the_scale_of_its_rounding(tmp_path):
@@ -208,11 +207,11 @@ def test_steady_probe_is_not_plotted_at_the_scale_of_its_rounding(tmp_path):
     path = write(tmp_path, "steady.toml", STEADY)
     done = cli("check", path, "--report-dir", tmp_path / "r")
     assert done.returncode == 0, done.stdout + done.stderr
-    facts = plot_facts(next((tmp_path / "r" / "plots").glob("001-*-c1.png")))
+    facts = plot_facts(next((tmp_path / "r" / "plots").glob("001-*-c1.svg")))
     low, high = facts["ylim"]
     assert high - low >= 0.01 * 1.7736
     assert not any(label.startswith("jump") for label in facts["legend"]), facts["legend"]
-    schedule = plot_facts(next((tmp_path / "r" / "plots").glob("001-*-schedule.png")))
+    schedule = plot_facts(next((tmp_path / "r" / "plots").glob("001-*-schedule.svg")))
     assert schedule["ylims"][0][1] - schedule["ylims"][0][0] >= 0.01 * 1.7736
 
 
@@ -220,7 +219,7 @@ def test_a_real_jump_is_named_in_the_legend(tmp_path):
     """The gate current reverses at the end of the pulse: 100.8 mA → −2.073 A."""
     path = write(tmp_path, "gate.toml", GATE)
     cli("check", path, "--report-dir", tmp_path / "r")
-    facts = plot_facts(next((tmp_path / "r" / "plots").glob("001-*-c2.png")))
+    facts = plot_facts(next((tmp_path / "r" / "plots").glob("001-*-c2.svg")))
     assert "jump 100.8 mA → -2.073 A" in facts["legend"]
 
 

@@ -96,7 +96,7 @@ def test_titles_cannot_place_files_outside_the_report_folder(tmp_path, title, ca
         assert p == reports.parent or reports in p.parents or p == reports, p
     assert sorted(p.name for p in reports.iterdir() if p.is_file()) == sorted(REPORT_FILES)
     plots = list((reports / "plots").iterdir())
-    assert plots and all(p.suffix == ".png" and not p.name.startswith(".") for p in plots)
+    assert plots and all(p.suffix == ".svg" and not p.name.startswith(".") for p in plots)
 
 
 def test_circuit_file_named_like_a_path_stays_inside(tmp_path, capsys):
@@ -160,16 +160,18 @@ def test_write_interrupted_in_process_leaves_the_old_set(tmp_path, monkeypatch, 
     assert sorted(p.name for p in reports.iterdir()) == sorted(old)
 
 
+#: the command line killed at the KILL_AT-th file the report set writes (its mode is set right
+#: after its bytes are written, before the set is synced and swapped)
 _KILL_SCRIPT = textwrap.dedent("""
     import os, signal, sys
     calls = [0]
-    real = os.fsync
-    def fsync(fd):
+    real = os.chmod
+    def chmod(path, mode, **kwargs):
         calls[0] += 1
         if calls[0] == int(os.environ["KILL_AT"]):
             os.kill(os.getpid(), signal.SIGKILL)
-        real(fd)
-    os.fsync = fsync
+        real(path, mode, **kwargs)
+    os.chmod = chmod
     from harness.cli import main
     sys.exit(main(sys.argv[1:]))
     """)

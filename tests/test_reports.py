@@ -137,16 +137,18 @@ class _Collector(HTMLParser):
 
 
 def test_write_all_returns_the_five_files_and_one_plot_per_check(written):
-    """write_all writes the five report files first, then one PNG per check with a trace."""
+    """write_all writes the five report files first, then one SVG per check with a trace."""
     run, folder, paths = written
     files = len(report.REPORT_FILES)
     assert [p.name for p in paths[:files]] == list(report.REPORT_FILES)
-    pngs = paths[files:]
-    assert len(pngs) == len(_all_checks(run))
+    plots = paths[files:]
+    assert len(plots) == len(_all_checks(run))
     for p in paths:
         assert p.is_file()
         assert p.resolve().parent in (folder.resolve(), (folder / "plots").resolve())
-    assert all(p.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" for p in pngs)
+    for p in plots:          # well-formed XML whose root is an SVG element (xml.etree)
+        assert p.suffix == ".svg"
+        assert ET.parse(p).getroot().tag == "{http://www.w3.org/2000/svg}svg"
 
 
 def test_csv_has_one_row_per_field_and_every_check(written):
@@ -218,7 +220,8 @@ def test_junit_has_one_testcase_per_check_and_failures_where_not_pass(written):
 
 
 def test_html_parses_holds_every_probe_and_fetches_nothing(written):
-    """report.html parses with balanced tags, names every probe, embeds PNGs as data: URIs only."""
+    """report.html parses with balanced tags, names every probe, holds one inline SVG plot per
+    check and loads nothing (no src, no outside link)."""
     run, folder, _ = written
     page = (folder / "report.html").read_text(encoding="utf-8")
     parser = _Collector()
@@ -229,8 +232,8 @@ def test_html_parses_holds_every_probe_and_fetches_nothing(written):
     for _, check in _all_checks(run):
         assert check.probe in text
         assert check.direction in text
-    assert len(parser.srcs) == len(_all_checks(run))
-    assert all(src.startswith("data:image/png;base64,") for src in parser.srcs)
+    assert parser.srcs == []
+    assert page.count('<div class="plot"') == len(_all_checks(run))
     assert all(href.startswith("#") for href in parser.hrefs)
     assert "script" not in parser.tags and "link" not in parser.tags
     assert "Safety cautions" in text and "dissipated 1.36 nJ" in text
@@ -325,7 +328,7 @@ def test_checks_without_trace_or_single_tau_still_report(tmp_path):
     paths = report.write_all(run, tmp_path)
     assert len(paths) == len(report.REPORT_FILES) + 1
     page = (tmp_path / "report.html").read_text(encoding="utf-8")
-    assert page.count("data:image/png;base64,") == 1
+    assert page.count('<div class="plot"') == 1
     assert "order 2, τ = 1 ms, 100 µs" in page and "node mid" in page
 
 
@@ -439,13 +442,16 @@ def test_cautions_use_computed_values_when_given():
     assert cautions.DEFERRAL in notes
 
 
-def test_plot_renders_text_that_looks_like_mathtext():
-    """A probe name with '$\\frac$' is drawn as plain text rather than failing in mathtext."""
+def test_plot_draws_odd_text_as_it_is():
+    """A probe name with '$\\frac$' and '<b>&' is drawn as plain text: the SVG parses and its
+    y-axis label reads exactly the name."""
     check = make_run().files[0].checks[0]
-    odd = CheckResult(0, "through R$\\frac{$1", 0.0, PASS, check.fields, order=1, modes=(0.1,),
+    name = "through R$\\frac{$1 <b>&"
+    odd = CheckResult(0, name, 0.0, PASS, check.fields, order=1, modes=(0.1,),
                       trace=check.trace)
-    png = report.plots.plot_check(odd)
-    assert png[:8] == b"\x89PNG\r\n\x1a\n"
+    root = ET.fromstring(report.plots.plot_check(odd))
+    texts = ["".join(t.itertext()) for t in root.iter("{http://www.w3.org/2000/svg}text")]
+    assert name in texts and not list(root.iter("{http://www.w3.org/2000/svg}b"))
 
 
 SPLIT_RAILS = """

@@ -6,10 +6,10 @@ import csv
 import io
 import json
 import math
+import xml.etree.ElementTree as ET
 from pathlib import Path
 
 import pytest
-from PIL import Image
 
 from harness.outcome import RunResult
 from harness.report import write_all
@@ -29,8 +29,8 @@ def written(tmp_path_factory):
 
 
 def _facts(path: Path) -> dict:
-    with Image.open(path) as image:
-        return json.loads(image.text["tauproof"])
+    """The JSON facts in the chart's SVG ``<metadata>``."""
+    return json.loads(ET.parse(path).getroot().find("{http://www.w3.org/2000/svg}metadata").text)
 
 
 def test_sensitivity_chart_ranks_the_first_order_sensitivities(written):
@@ -38,14 +38,14 @@ def test_sensitivity_chart_ranks_the_first_order_sensitivities(written):
     ∂ln t/∂ln L = −∂ln t/∂ln V = (L/(V − L))/ln(V/(V − L)) = 1.652 at V = 3.3 V, L = 2 V
     (differentiated by hand); the chart lists them largest first."""
     _, folder = written
-    facts = _facts(folder / "plots" / "001-spec-sensitivity-s2.png")      # the crossing
+    facts = _facts(folder / "plots" / "001-spec-sensitivity-s2.svg")      # the crossing
     assert facts["field"] == "crossing"
     x = (2.0 / 1.3) / math.log(3.3 / 1.3)
     values = dict(zip(facts["quantities"], facts["sensitivities"]))
     assert values == pytest.approx({"level": x, "V1": -x, "R1": 1.0, "C1": 1.0}, rel=1e-6)
     assert [abs(v) for v in facts["sensitivities"]] == sorted(
         (abs(v) for v in facts["sensitivities"]), reverse=True)
-    tau = _facts(folder / "plots" / "001-spec-sensitivity-s1.png")    # τ = R·C
+    tau = _facts(folder / "plots" / "001-spec-sensitivity-s1.svg")    # τ = R·C
     assert dict(zip(tau["quantities"], tau["sensitivities"])) == pytest.approx(
         {"R1": 1.0, "C1": 1.0, "V1": 0.0, "level": 0.0}, abs=1e-6)
 
@@ -53,9 +53,10 @@ def test_sensitivity_chart_ranks_the_first_order_sensitivities(written):
 def test_html_and_markdown_carry_both_plots(written):
     _, folder = written
     page = (folder / "report.html").read_text()
-    assert page.count('alt="sensitivities of ') == 2 and page.count('alt="histogram of ') == 2
+    assert page.count('aria-label="sensitivities of ') == 2
+    assert page.count('aria-label="histogram of ') == 2
     md = (folder / "report.md").read_text()
-    assert "(plots/001-spec-sensitivity-s2.png)" in md and "(plots/001-spec-s2.png)" in md
+    assert "(plots/001-spec-sensitivity-s2.svg)" in md and "(plots/001-spec-s2.svg)" in md
 
 
 def test_samples_csv_and_console_line(written):

@@ -6,12 +6,13 @@ plots, their links, the provenance).  Adding a report format is that module and 
 ``WRITERS`` (DEVELOPERS.md, "How to add a report format").  The console text (``console``) is
 printed by the command line, not written as a file.
 
-``write_all(run, report_dir)`` writes every report file for one run plus one PNG per check with
-a trace and one whole-schedule PNG per file under ``report_dir/plots/`` (named ``<file
-number>-<sanitised title>-c<check>.png`` and ``…-schedule.png``; untrusted titles cannot leave
+``write_all(run, report_dir)`` writes every report file for one run plus one SVG plot per check
+with a trace and one whole-schedule SVG per file under ``report_dir/plots/`` (named ``<file
+number>-<sanitised title>-c<check>.svg`` and ``…-schedule.svg``; untrusted titles cannot leave
 the folder), as one set (``publish``: staged in a hidden folder, then swapped in; a failure
-leaves the previous set whole, and links are never followed).  The HTML embeds the same plots
-as data URIs; the Markdown links the PNG files.  Failures to write raise ``ReportError`` (an
+leaves the previous set whole, and links are never followed).  The HTML holds the same plots
+inline; the Markdown links the SVG files.  ``with_plots=False`` (the command line's
+``--no-plots``) writes every report without them.  Failures to write raise ``ReportError`` (an
 ``OSError``).
 """
 
@@ -39,12 +40,15 @@ WRITERS = (html, markdown, csvout, jsonout, junit)
 #: the report files, one per writer
 REPORT_FILES = tuple(writer.FILE for writer in WRITERS)
 PLOT_DIR = "plots"
-#: names this package gives plot files; older ones matching it are removed from plots/
-_PLOT_NAME = re.compile(r"^\d{3,}-[A-Za-z0-9_-]+-(c\d+|schedule|s\d+)\.png$")
+#: the plot files' suffix
+PLOT_SUFFIX = ".svg"
+#: names this package gives plot files (and gave them as PNG); older ones matching it are
+#: removed from plots/
+_PLOT_NAME = re.compile(r"^\d{3,}-[A-Za-z0-9_-]+-(c\d+|schedule|s\d+)\.(svg|png)$")
 
 
 def _plot_one(item):
-    """(key, check or file, file name) -> (key, PNG bytes or None, warning text or None)."""
+    """(key, check or file, file name) -> (key, SVG text or None, warning text or None)."""
     key, what, file = item
     try:
         if key[1] == SCHEDULE:
@@ -60,12 +64,12 @@ PARALLEL_PLOTS = 16
 
 
 def render_plots(run: RunResult, jobs: int = 1,
-                 progress: Progress | None = None) -> dict[tuple[int, int], bytes]:
-    """(file index, check index) -> PNG bytes for every check that carries a trace, and
+                 progress: Progress | None = None) -> dict[tuple[int, int], str]:
+    """(file index, check index) -> SVG text for every check that carries a trace, and
     (file index, ``SCHEDULE``) -> the file's whole-schedule plot.
 
-    With ``jobs`` > 1 and many plots they are drawn in worker processes (drawing is most of a
-    report's cost: ~0.1 s a plot); the result is the same.  ``progress`` is stepped per plot.
+    With ``jobs`` > 1 and many plots they are drawn in worker processes; the result is the
+    same.  ``progress`` is stepped per plot.
     """
     items = []
     for i, file in enumerate(run.files):
@@ -81,11 +85,11 @@ def render_plots(run: RunResult, jobs: int = 1,
     else:
         drawn = [_stepped(_plot_one(item), progress) for item in items]
     out = {}
-    for key, png, problem in drawn:
+    for key, chart, problem in drawn:
         if problem:
             warnings.warn(problem, RuntimeWarning, stacklevel=2)
-        elif png is not None:
-            out[key] = png
+        elif chart is not None:
+            out[key] = chart
     return out
 
 
@@ -119,7 +123,7 @@ def _draw_in_workers(items: list, jobs: int) -> list:
 
 
 def _spec_histograms(run: RunResult, with_plots: bool) -> dict:
-    """(file index, field index) -> each spec'd field's histogram PNG, and with
+    """(file index, field index) -> each spec'd field's histogram SVG, and with
     ``spreads.SENSITIVITY`` appended its sensitivity chart (``report.spreads``)."""
     if not with_plots:
         return {}
@@ -127,64 +131,64 @@ def _spec_histograms(run: RunResult, with_plots: bool) -> dict:
              for j, s in enumerate(f.spreads)}
     drawn.update({(i, j, spreads.SENSITIVITY): spreads.sensitivity_chart(s)
                   for i, f in enumerate(run.files) for j, s in enumerate(f.spreads)})
-    return {key: png for key, png in drawn.items() if png}
+    return {key: chart for key, chart in drawn.items() if chart}
 
 
-def _with_spreads(run: RunResult, files: dict, pngs: dict, names: dict, histograms: dict):
+def _with_spreads(run: RunResult, files: dict, charts: dict, names: dict, histograms: dict):
     """Add the spec samples' CSV and each spec'd field's histogram and sensitivity chart to
     the set."""
     if not any(f.spreads for f in run.files):
-        return pngs, names
+        return charts, names
     files[spreads.SAMPLES_CSV] = spreads.samples_csv(run).encode("utf-8")
-    pngs, names = dict(pngs), dict(names)
-    for key, png in histograms.items():
-        pngs[("spec",) + key] = png
+    charts, names = dict(charts), dict(names)
+    for key, chart in histograms.items():
+        charts[("spec",) + key] = chart
         names[("spec",) + key] = _spec_plot_name(*key)
-    return pngs, names
+    return charts, names
 
 
 def _spec_plot_name(i: int, j: int, kind: str = "") -> str:
-    """``003-spec-s2.png`` (histogram), ``003-spec-sensitivity-s2.png`` (chart)."""
-    return f"{i + 1:03d}-spec{'-' + kind if kind else ''}-s{j + 1}.png"
+    """``003-spec-s2.svg`` (histogram), ``003-spec-sensitivity-s2.svg`` (chart)."""
+    return f"{i + 1:03d}-spec{'-' + kind if kind else ''}-s{j + 1}{PLOT_SUFFIX}"
 
 
 def plot_name(run: RunResult, key: tuple[int, int | str]) -> str:
-    """The plot's file name: ``003-logger-board-reset-c2.png``, ``003-logger-board-reset-
-    schedule.png`` (sanitised, inside the folder)."""
+    """The plot's file name: ``003-logger-board-reset-c2.svg``, ``003-logger-board-reset-
+    schedule.svg`` (sanitised, inside the folder)."""
     i, index = key
     file = run.files[i]
     stem = safe_name(file.title or Path(file.file).stem)
-    return f"{i + 1:03d}-{stem}-{SCHEDULE if index == SCHEDULE else f'c{index + 1}'}.png"
+    return f"{i + 1:03d}-{stem}-{SCHEDULE if index == SCHEDULE else f'c{index + 1}'}{PLOT_SUFFIX}"
 
 
 def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
               jobs: int = 1, progress: Progress | None = None,
               provenance: Mapping | None = None) -> list[Path]:
     """Write the report files (``REPORT_FILES``, one per writer of ``WRITERS``) and the plot
-    PNGs into ``report_dir``.
+    SVGs into ``report_dir``.
 
     Returns the paths written: the report files in ``REPORT_FILES`` order, then the plots.
     The folder is created if missing.  Everything is rendered first, then ``publish`` puts the
     whole set in place at once: a serializer's exception, a full disk, a report name that is a
-    folder or a link, or a signal leave the previous set as it was; plot PNGs an earlier run
+    folder or a link, or a signal leave the previous set as it was; plot files an earlier run
     left in ``plots/`` under this package's naming pattern go with it.
-    ``with_plots=False`` skips the (slowish, ~0.1 s each) plots.  ``progress`` is stepped per
-    plot; ``provenance`` (``report.provenance.collect``) heads the HTML and Markdown reports.
+    ``with_plots=False`` skips the plots (every report is still written).  ``progress`` is
+    stepped per plot; ``provenance`` (``report.provenance.collect``) heads the HTML and Markdown reports.
 
     Raises:
         ReportError: the folder cannot be created or written, or the set cannot be put in place.
     """
     folder = ensure_dir(Path(report_dir))
-    pngs = render_plots(run, jobs, progress) if with_plots else {}
-    names = {key: plot_name(run, key) for key in pngs}
+    charts = render_plots(run, jobs, progress) if with_plots else {}
+    names = {key: plot_name(run, key) for key in charts}
     links = {key: f"{PLOT_DIR}/{name}" for key, name in names.items()}
     # every serializer runs before any file is touched: if one raises, the old report stays whole
     histograms = _spec_histograms(run, with_plots)
     spec_links = {(run.files[key[0]].file,) + key[1:]: f"{PLOT_DIR}/{_spec_plot_name(*key)}"
                   for key in histograms}
-    context = ReportContext(pngs, links, provenance or {}, histograms,
+    context = ReportContext(charts, links, provenance or {}, histograms,
                             spec_links if with_plots else {})
     files = {writer.FILE: writer.write(run, context).encode("utf-8") for writer in WRITERS}
-    pngs, names = _with_spreads(run, files, pngs, names, histograms)
-    return publish(folder, files, {names[key]: png for key, png in pngs.items()}, PLOT_DIR,
-                   _PLOT_NAME)
+    charts, names = _with_spreads(run, files, charts, names, histograms)
+    return publish(folder, files, {names[key]: chart.encode("utf-8")
+                                   for key, chart in charts.items()}, PLOT_DIR, _PLOT_NAME)

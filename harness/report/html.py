@@ -1,7 +1,8 @@
-"""report.html: a self-contained page (inline CSS, plots as base64 PNG data URIs).
+"""report.html: a self-contained page (inline CSS, plots as inline SVG elements).
 
 Nothing on the page is fetched: no scripts, no external style sheets or images, and a
-Content-Security-Policy that forbids loading anything but ``data:`` images.  Every piece of text
+Content-Security-Policy that forbids loading anything (the plots are part of the page's markup,
+``svg``: their text is escaped like the rest).  Every piece of text
 goes through ``html.escape``.  Layout: the provenance (tool, time, command, versions, git
 commit), the overall summary, a verdict filter (CSS radio buttons) and the file list at the top,
 files that need attention first; per file a header (file, SHA-256, verdict, findings and cautions
@@ -13,7 +14,6 @@ Print styles drop the filter and unfold everything.
 
 from __future__ import annotations
 
-import base64
 from html import escape as _escape
 from typing import Any, Mapping
 
@@ -22,6 +22,7 @@ from ..outcome import PASS, CheckResult, FileResult, RunResult
 from . import common, spreads
 from .context import ReportContext
 from .plot_schedule import SCHEDULE
+from .svg import without_metadata
 
 CSS = """
 body{font:14px/1.45 system-ui,-apple-system,"Segoe UI",Roboto,"DejaVu Sans",sans-serif;
@@ -44,7 +45,7 @@ tr.bad td{background:#fff8f7}
 .check.c-engines-disagree{border-left-color:#e08a00}.check.c-error{border-left-color:#5c1a1a}
 .facts{flex:1 1 460px;min-width:0;overflow-x:auto}.plot{flex:0 1 632px;min-width:0}
 .facts pre{white-space:pre-wrap;overflow-wrap:anywhere}
-.plot img{display:block;max-width:100%;height:auto;border:1px solid #eee}
+.plot svg{display:block;max-width:100%;height:auto;border:1px solid #eee}
 .caution{border:2px solid #c77700;background:#fff6e0;padding:8px 12px;margin:8px 0;
  border-radius:4px}.caution strong{color:#8a4b00}
 .errors{border:2px solid #a3221a;background:#fdecea;padding:6px 12px;margin:8px 0}
@@ -62,10 +63,10 @@ details>summary{cursor:pointer;font-weight:600;margin:8px 0}
 a.top{display:inline-block;margin:8px 0;font-size:12px}
 @media print{.filter,a.top,input{display:none}body{max-width:none;margin:0;font-size:11px}
  details::details-content{content-visibility:visible;display:contents}
- section,.check{break-inside:avoid}h2{break-before:auto}.plot img{max-width:90%}}
+ section,.check{break-inside:avoid}h2{break-before:auto}.plot svg{max-width:90%}}
 """
 
-_CSP = "default-src 'none'; img-src data:; style-src 'unsafe-inline'"
+_CSP = "default-src 'none'; style-src 'unsafe-inline'"
 
 
 def esc(text: object) -> str:
@@ -87,9 +88,9 @@ def write(run: RunResult, context: ReportContext) -> str:
         "</main>", spreads.html(run, context.histograms) + "</main>", 1)
 
 
-def render(run: RunResult, plots: Mapping[tuple[int, int], bytes] | None = None,
+def render(run: RunResult, plots: Mapping[tuple[int, int], str] | None = None,
            provenance: Mapping[str, Any] | None = None) -> str:
-    """The HTML page.  ``plots`` maps (file index, check index) to PNG bytes, and (file index,
+    """The HTML page.  ``plots`` maps (file index, check index) to SVG text, and (file index,
     ``SCHEDULE``) to the file's whole-schedule plot; ``provenance`` (``provenance.collect``)
     heads the page and gives each file's parts as written.  Files that need attention come
     first; passing files and checks are folded (``<details>``); a CSS-only filter by verdict
@@ -213,7 +214,7 @@ def _parts_table(parts: list[Mapping[str, str]]) -> str:
     return f"<p><strong>Parts</strong> (as written)</p><table>{head}{body}</table>"
 
 
-def _check_block(check: CheckResult, png: bytes | None) -> str:
+def _check_block(check: CheckResult, chart: str | None) -> str:
     facts = [f"<h3>{esc(common.check_label(check))} {badge(check.verdict)}</h3>"]
     if check.direction:
         facts.append(f'<p class="meta">reference direction: {esc(check.direction)}</p>')
@@ -234,69 +235,53 @@ def _check_block(check: CheckResult, png: bytes | None) -> str:
         facts.append("<details open><summary>The hand method, done right (formulas in part "
                      "names, then numbers)</summary><pre>"
                      + esc("\n".join(check.derivation)) + "</pre></details>")
-    plot = _image(png, f"waveform of {common.check_label(check)}") if png is not None else ""
+    plot = _image(chart, f"waveform of {common.check_label(check)}") if chart is not None else ""
     return (f'<div class="check c-{esc(check.verdict)}"><div class="facts">' + "".join(facts)
             + "</div>" + plot + "</div>")
 
 
-#: colours an embedded plot keeps: a palette PNG of the plot's few line colours and their
-#: anti-aliasing is ~3.5x smaller than the full-colour one (the whole-library page 7.9 MB -> see
-#: DEVELOPERS.md) and reads the same; the PNG files in plots/ stay full colour
-EMBED_COLOURS = 32
+def inline(chart: str, alt: str) -> str:
+    """A plot's SVG text as an element of the page, without its metadata (the tables beside it
+    say the same), labelled ``alt`` for screen readers."""
+    return (f'<div class="plot" role="img" aria-label="{esc(alt)}">{without_metadata(chart)}'
+            "</div>")
 
 
-def embedded(png: bytes) -> bytes:
-    """``png`` as a palette PNG of ``EMBED_COLOURS`` colours for the page (``png`` itself when
-    it cannot be read)."""
-    import io
-    try:
-        from PIL import Image
-        image = Image.open(io.BytesIO(png)).convert("RGB")
-        small = image.quantize(colors=EMBED_COLOURS, method=Image.Quantize.MEDIANCUT,
-                               dither=Image.Dither.NONE)
-        out = io.BytesIO()
-        small.save(out, "PNG", optimize=True)
-    except Exception:  # a plot the imaging library cannot read is embedded as drawn
-        return png
-    return out.getvalue() if len(out.getvalue()) < len(png) else png
-
-
-def _image(png: bytes, alt: str) -> str:
-    """A plot as an inline data-URI image; ``png`` is already ``embedded`` (a palette PNG), or
-    ``NOT_EMBEDDED`` for a passing check's plot left out to keep the page small."""
-    if png is NOT_EMBEDDED:
+def _image(chart: str, alt: str) -> str:
+    """A plot inline, or the note that stands for a passing check's plot left out
+    (``NOT_EMBEDDED``) to keep the page small."""
+    if not chart:
         return ('<p class="meta">(the plot of this passing check is in plots/ of the report '
                 "folder and in report.md: the page keeps its size down)</p>")
-    data = base64.b64encode(png).decode("ascii")
-    return f'<div class="plot"><img src="data:image/png;base64,{data}" alt="{esc(alt)}"></div>'
+    return inline(chart, alt)
 
 
-#: bytes of embedded plots a page holds before passing checks' plots are left out (the
-#: schedule plots and every check that needs attention are always embedded): ~2 MB of page
-EMBED_BUDGET = 1_200_000
+#: characters of plots a page holds before passing checks' plots are left out (the schedule
+#: plots and every check that needs attention are always shown): ~2 MB of page
+EMBED_BUDGET = 1_600_000
 #: the stand-in for a plot left out of the page
-NOT_EMBEDDED = b""
+NOT_EMBEDDED = ""
 
 
 def _within_budget(run: RunResult, plots: Mapping, order: list[int]) -> dict:
-    """The plots as embedded PNGs, in the page's order: every file's schedule plot and every
-    check that needs attention first, then passing checks' plots while their sum stays within
+    """The plots the page shows, in the page's order: every file's schedule plot and every
+    check that needs attention, then passing checks' plots while the sum stays within
     ``EMBED_BUDGET``; the rest ``NOT_EMBEDDED``."""
     out, used, later = {}, 0, []
     for i in order:
+        passing = {(i, c.index) for c in run.files[i].checks if c.verdict == PASS}
         for key in [(i, SCHEDULE)] + [(i, c.index) for c in run.files[i].checks]:
             if key not in plots:
                 continue
-            check = next((c for c in run.files[i].checks if (i, c.index) == key), None)
-            if check is not None and check.verdict == PASS:
+            if key in passing:
                 later.append(key)
                 continue
-            out[key] = embedded(plots[key])
-            used += len(out[key])
+            out[key] = plots[key]
+            used += len(plots[key])
     for key in later:
-        small = embedded(plots[key])
-        out[key] = small if used + len(small) <= EMBED_BUDGET else NOT_EMBEDDED
-        used += len(small) if out[key] else 0
+        fits = used + len(plots[key]) <= EMBED_BUDGET
+        out[key] = plots[key] if fits else NOT_EMBEDDED
+        used += len(plots[key]) if fits else 0
     return out
 
 

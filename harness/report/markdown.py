@@ -3,7 +3,7 @@
 An overall summary and the list of files at the top; per file a header (file, verdict, cautions
 first and prominent, errors, warnings, jumps, a link to its whole-schedule plot) and per check a
 field table, the probe's reference direction, order and modes, the waveform deviation, the
-messages (notes of passing fields marked "note:") and a link to its plot PNG.
+messages (notes of passing fields marked "note:") and a link to its plot (an SVG file).
 
 All untrusted text (titles, part names, messages) goes through ``escape``: Markdown punctuation is
 backslash-escaped, ``|`` cannot split a table cell, and ``<``/``>``/``&`` become HTML entities
@@ -45,7 +45,7 @@ def write(run: RunResult, context: ReportContext) -> str:
 def render(run: RunResult, plots: Mapping[tuple[int, int], str] | None = None,
            provenance: Mapping[str, Any] | None = None) -> str:
     """The Markdown text.  ``plots`` maps (file index, check index) to a path relative to the
-    report folder (``plots/001-x-c1.png``), and (file index, ``SCHEDULE``) to the file's
+    report folder (``plots/001-x-c1.svg``), and (file index, ``SCHEDULE``) to the file's
     whole-schedule plot; checks without one get no image.  ``provenance``
     (``provenance.collect``) heads the text and gives each file's SHA-256 and parts as written.
     Files that need attention come first."""

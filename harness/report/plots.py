@@ -1,4 +1,4 @@
-"""One waveform plot per check, as PNG bytes (matplotlib object API on the Agg canvas).
+"""One waveform plot per check, as SVG text (``svg``: drawn by this package, no plotting library).
 
 The figure shows, for the check's interval up to the next event (a dotted vertical line): the
 numeric waveform, the closed-form curve, the curve the hand values predict, the event (a
@@ -7,8 +7,8 @@ engine tolerance).  Past the next event only the closed form goes on, grey and d
 "if held" (the circuit never follows it), for a quarter of the interval or as far as a crossing
 or peak mark that lies there (also grey, "if held").  The y-axis spans at least ``MIN_SPAN`` of
 the probe's scale.  Time runs from the event (t - t_k, so τ can be read off directly; the event time is
-in the axis label).  Axes carry SI prefixes through matplotlib's ``EngFormatter``.  No pyplot,
-no global state and no display: ``Figure`` plus ``FigureCanvasAgg`` render off-screen anywhere.
+in the axis label).  Ticks carry SI prefixes (``scale.si_labels``); each curve is thinned to
+the pixel resolution, so a plot is a few kilobytes and takes milliseconds to write.
 
 The hand curve is the classical first-order response
     x(t) = x_inf + (x(t_k+) - x_inf) * exp(-(t - t_k) / tau)           for t >= t_k
@@ -23,8 +23,6 @@ maximum and the hand ones, or the hand ripple about the middle (``Trace.ripple_l
 
 from __future__ import annotations
 
-import io
-import json
 import math
 from dataclasses import dataclass
 
@@ -35,15 +33,12 @@ from ..compare.curve import first_order
 from ..outcome import CheckResult, FieldResult
 from ..units import format_apart
 from . import common
+from .svg import Chart, Panel, Style
+from .svgdraw import render
 
-#: figure size in inches and resolution: 7 x 4 in at 90 dpi is 630 x 360 px
-SIZE = (7.0, 4.0)
-#: the size with a second panel (the last periods of a repeating window)
-PERIODS_SIZE = (7.0, 6.8)
-#: the gap between the two panels, a fraction of the mean axis height (room for the upper
-#: panel's time label)
-PERIODS_GAP = 0.32
-DPI = 90
+#: the chart's width and its panel's height, px (a second panel for the last periods of a
+#: repeating window has ``PERIODS_HEIGHT``)
+WIDTH, HEIGHT, PERIODS_HEIGHT = 630, 250, 210
 #: points on the hand-predicted curve
 HAND_POINTS = 400
 #: the y-axis spans at least this fraction of the probe's scale (its largest magnitude)
@@ -53,13 +48,23 @@ MIN_SPAN = 0.02
 HELD_VIEW = 0.25
 #: room left of the event on the x-axis, as a fraction of the axis
 X_MARGIN = 0.03
-#: figure margins in inches (tick labels and axis label left; the x label below; the title)
-#: and the height of one legend row
-MARGIN_LEFT, MARGIN_RIGHT, MARGIN_TOP, MARGIN_BOTTOM, LEGEND_ROW = 0.95, 0.2, 0.32, 0.5, 0.2
+#: characters of the title and of the y-axis label, at most
+TITLE_CHARS, LABEL_CHARS = 76, 40
 
 _COLOURS = {"numeric": "#1f5fbf", "closed": "#e07b00", "hand": "#2a9d3a", "event": "#777777",
             "jump": "#c0262d", "estimate": "#8e44ad", "level": "#555555", "mark": "#000000",
             "held": "#9a9a9a"}
+#: how each curve and line is drawn (widths and dashes in px): the numeric waveform wide and
+#: pale beneath the closed form's dashes, the hand curve dotted
+STYLES = {"numeric": Style(_COLOURS["numeric"], 3.0, opacity=0.55),
+          "closed": Style(_COLOURS["closed"], 1.6, "6,2.6"),
+          "hand": Style(_COLOURS["hand"], 1.8, "1.8,2.6"),
+          "held": Style(_COLOURS["held"], 1.4, "5.5,4"),
+          "estimate": Style(_COLOURS["estimate"], 1.4, "7,2.8,1.4,2.8"),
+          "level": Style(_COLOURS["level"], 1.0, "3.7,1.6"),
+          "event": Style(_COLOURS["event"], 1.1, "7,1.8,1.1,1.8"),
+          "next": Style(_COLOURS["event"], 1.1, "1.1,2.2"),
+          "jump": Style(_COLOURS["jump"], 1.7)}
 
 
 def hand_curve(check: CheckResult,
@@ -104,123 +109,52 @@ def _trace_end(check: CheckResult) -> float | None:
     return max(ends) if ends else None
 
 
-def plain(text: str) -> str:
-    """Text safe from matplotlib's mathtext (``$`` starts math; escape it), control and
-    bidi-control characters shown as escapes."""
-    return common.printable(text).replace("\\", "\\\\").replace("$", r"\$")
-
-
-def plot_check(check: CheckResult, title: str = "") -> bytes | None:
-    """Render the check's waveform plot as PNG bytes; None when the check has no trace."""
+def plot_check(check: CheckResult, title: str = "") -> str | None:
+    """The check's waveform plot as SVG text; None when the check has no trace."""
     trace = check.trace
     if trace is None:
         return None
     unit = trace.unit or (check.fields[0].unit if check.fields else "")
-    periods = trace.periods_t is not None
-    fig, axes = new_figure(2, PERIODS_SIZE, share=False) if periods else new_figure()
-    ax, axes = (axes[0], axes) if periods else (axes, [axes])
+    heading = title or common.check_label(check)
+    chart = Chart(WIDTH, shorten(common.printable(heading), TITLE_CHARS))
     t_k = trace.event if trace.event is not None else check.at
     view = _view(check, t_k)
+    ax = chart.panel(HEIGHT, xunit="s", yunit=unit_symbol(unit),
+                     xlabel=f"time since the event at t = {common.time(t_k)}",
+                     ylabel=shorten(common.printable(check.probe), LABEL_CHARS))
     ends = _draw_curves(ax, check, t_k, view)
     _draw_signoff(ax, check, t_k, view)
     _draw_event(ax, check, unit, t_k)
-    axis_format(ax, unit)
     width = view.end - t_k
-    ax.set_xlim(min(_start(check) - t_k, 0.0) - X_MARGIN * width, view.end - t_k)
+    ax.xlim = (min(_start(check) - t_k, 0.0) - X_MARGIN * width, view.end - t_k)
     keep_span(ax, trace.scale)
-    ax.set_xlabel(f"time since the event at t = {common.time(t_k)}", fontsize=9)
-    ax.set_ylabel(plain(shorten(check.probe, 40)), fontsize=9)
-    heading = title or common.check_label(check)
-    ax.set_title(plain(shorten(heading, 80)), fontsize=10, loc="left")
-    if periods:
-        _draw_periods(axes[1], trace, unit)
-    legend_below(fig, axes, 3)
-    if periods:
-        fig.subplots_adjust(hspace=PERIODS_GAP)
-    return png(fig, axes, curves_end=max(ends, default=None))
+    if trace.periods_t is not None:
+        _draw_periods(chart.panel(PERIODS_HEIGHT, xunit="s", yunit=unit_symbol(unit)), trace)
+    return render(chart, curves_end=max(ends, default=None))
 
 
-def _draw_periods(ax, trace, unit: str) -> None:
+def _draw_periods(ax: Panel, trace) -> None:
     """The last periods of the repeating window in both engines (absolute time), with the
     steady state's minimum and maximum (dotted) and the hand ones or the hand ripple (dashed)
     as horizontal lines."""
-    ax.plot(trace.periods_t, trace.periods_numeric, color=_COLOURS["numeric"], linewidth=2.4,
-            alpha=0.55, label="_nolegend_")
-    ax.plot(trace.periods_t, trace.periods_closed, color=_COLOURS["closed"], linewidth=1.3,
-            linestyle="--", label="_nolegend_")
-    shown = set()
+    ax.line(trace.periods_t, trace.periods_numeric, STYLES["numeric"], kind="numeric")
+    ax.line(trace.periods_t, trace.periods_closed, STYLES["closed"], kind="closed")
     for label, level in trace.ripple_lines:
         hand = label.startswith("hand")
-        ax.axhline(level, color=_COLOURS["hand" if hand else "closed"], linewidth=1.0,
-                   linestyle="--" if hand else ":",
-                   label="_nolegend_" if label in shown else plain(label))
-        shown.add(label)
-    axis_format(ax, unit)
+        ax.hline(level, Style(_COLOURS["hand" if hand else "closed"], 1.3,
+                              "4.8,2" if hand else "1.3,2.1"), common.printable(label))
     keep_span(ax, trace.scale)
-    ax.set_xlabel("time (the last periods of the repeating window)", fontsize=9)
+    ax.xlabel = "time (the last periods of the repeating window)"
 
 
-def new_figure(rows: int = 1, size: tuple[float, float] = SIZE, share: bool = True):
-    """A Figure on the Agg canvas (no pyplot, no global state) and its axes (one per row,
-    sharing the time axis unless ``share`` is false)."""
-    from matplotlib.backends.backend_agg import FigureCanvasAgg  # imported when drawing: a
-    from matplotlib.figure import Figure                           # run without reports does
-    fig = Figure(figsize=size, dpi=DPI)                           # not pay ~0.3 s for it
-    FigureCanvasAgg(fig)
-    axes = fig.subplots(rows, 1, sharex=share, squeeze=False)[:, 0]
-    return fig, (axes[0] if rows == 1 else list(axes))
-
-
-def legend_below(fig, axes, ncols: int) -> None:
-    """The figure's legend centred under the axes, and the margins set by hand for it, the
-    tick labels and the titles: a fixed layout draws the figure once, where a constrained
-    layout drew it twice (40 % of the plot time)."""
-    labels = []
-    for ax in axes:
-        labels += [lab for lab in ax.get_legend_handles_labels()[1] if lab not in labels]
-    width, height = fig.get_size_inches()
-    rows = math.ceil(len(labels) / ncols) if labels else 0
-    legend = LEGEND_ROW * rows
-    fig.subplots_adjust(left=MARGIN_LEFT / width, right=1 - MARGIN_RIGHT / width,
-                        top=1 - MARGIN_TOP / height, bottom=(MARGIN_BOTTOM + legend) / height,
-                        hspace=0.15)
-    if labels:
-        fig.legend(loc="lower center", bbox_to_anchor=(0.5, 0.0), ncols=ncols, fontsize=8.5,
-                   frameon=False)
-
-
-def axis_format(ax, unit: str) -> None:
-    """SI-prefixed ticks (time on x, the probe's unit on y) and the light grid."""
-    from matplotlib.ticker import EngFormatter
-    ax.xaxis.set_major_formatter(EngFormatter(unit="s", places=None))
-    ax.yaxis.set_major_formatter(EngFormatter(unit=_symbol(unit)))
-    ax.grid(True, color="#dddddd", linewidth=0.6)
-    ax.tick_params(labelsize=9)
-
-
-def keep_span(ax, scale: float) -> None:
+def keep_span(ax: Panel, scale: float) -> None:
     """Widen the y-axis to at least ``MIN_SPAN`` of the probe's scale about its middle, so a
     probe that hardly moves is not drawn at the scale of its rounding."""
-    low, high = ax.get_ylim()
+    low, high = ax.ylim()
     span = MIN_SPAN * scale
     if span > 0 and high - low < span:
         middle = 0.5 * (low + high)
         ax.set_ylim(middle - span / 2, middle + span / 2)
-
-
-def png(fig, axes, **facts) -> bytes:
-    """The figure as PNG bytes, with its legend labels and axis limits (SI units, times as on the
-    axes) in the PNG text chunk ``tauproof`` (JSON) for whoever reads the file without eyes."""
-    labels = []
-    for ax in axes:
-        labels += [label for label in ax.get_legend_handles_labels()[1] if label not in labels]
-    facts = {"legend": labels, "xlim": list(axes[0].get_xlim()),
-             "ylim": list(axes[0].get_ylim()), "ylims": [list(ax.get_ylim()) for ax in axes],
-             **facts}
-    buffer = io.BytesIO()
-    fig.savefig(buffer, format="png", dpi=DPI,
-                metadata={"tauproof": json.dumps(facts, allow_nan=False)})
-    return buffer.getvalue()
 
 
 @dataclass(frozen=True)
@@ -262,51 +196,47 @@ def _split(t: np.ndarray, x: np.ndarray, cut: float | None):
             (np.insert(t[~inside], 0, cut), np.insert(x[~inside], 0, at)))
 
 
-def _draw_curves(ax, check: CheckResult, t_k: float, view: _View) -> list[float]:
+def _draw_curves(ax: Panel, check: CheckResult, t_k: float, view: _View) -> list[float]:
     """Numeric, closed-form and hand curves against t - t_k, each up to the next event; the
     closed form's held continuation beyond it grey and dashed ("if held").  Returns the
     absolute times where the solid curves end."""
     trace, ends = check.trace, []
-    styles = [(trace.numeric_t, trace.numeric_x, dict(color=_COLOURS["numeric"], linewidth=2.4,
-                                                      alpha=0.55, label="numeric")),
-              (trace.closed_t, trace.closed_x, dict(color=_COLOURS["closed"], linewidth=1.3,
-                                                    linestyle="--", label="closed form"))]
+    curves = [(trace.numeric_t, trace.numeric_x, "numeric", "numeric"),
+              (trace.closed_t, trace.closed_x, "closed", "closed form")]
     curve = hand_curve(check)
     if curve is not None:
-        styles.append((curve[0], curve[1], dict(color=_COLOURS["hand"], linewidth=1.3,
-                                                linestyle=":", label="hand values")))
-    for t, x, style in styles:
+        curves.append((curve[0], curve[1], "hand", "hand values"))
+    for t, x, kind, label in curves:
         if t is None or not len(t):
             continue
         (t_in, x_in), held = _split(t, x, view.next_event)
-        ax.plot(t_in - t_k, x_in, **style)
+        ax.line(t_in - t_k, x_in, STYLES[kind], label, kind)
         ends.append(float(t_in[-1]))
-        if style["label"] == "closed form" and len(held[0]):
+        if kind == "closed" and len(held[0]):
             shown = held[0] <= view.end
-            ax.plot(held[0][shown] - t_k, held[1][shown], color=_COLOURS["held"],
-                    linewidth=1.1, linestyle=(0, (4, 3)), label="closed form if held")
+            ax.line(held[0][shown] - t_k, held[1][shown], STYLES["held"],
+                    "closed form if held", "held")
     return ends
 
 
-def _draw_signoff(ax, check: CheckResult, t_k: float, view: _View) -> None:
+def _draw_signoff(ax: Panel, check: CheckResult, t_k: float, view: _View) -> None:
     """Crossing level (dashed line), crossing and peak marks (grey and "if held" past the next
     event), the one-τ dominant estimate up to the next event."""
     trace = check.trace
     if trace.estimate_t is not None and trace.estimate_x is not None:
         (t, x), _ = _split(trace.estimate_t, trace.estimate_x, view.next_event)
-        ax.plot(t - t_k, x, color=_COLOURS["estimate"], linewidth=1.1,
-                linestyle=(0, (5, 2, 1, 2)), label="one-τ estimate")
+        ax.line(t - t_k, x, STYLES["estimate"], "one-τ estimate", "estimate")
     for label, level in trace.levels:
-        ax.axhline(level, color=_COLOURS["level"], linewidth=0.8, linestyle="--",
-                   label=plain(label))
+        ax.hline(level, STYLES["level"], common.printable(label))
     for label, when, x in trace.marks:
         held = view.next_event is not None and when > view.next_event
         text = f"{label} +{common.time(when - t_k)}" + (" (if held)" if held else "")
-        ax.plot([when - t_k], [x], marker="x" if label == "crossing" else "^", markersize=7,
-                color=_COLOURS["held" if held else "mark"], linestyle="none", label=plain(text))
+        ax.marker(when - t_k, x, "x" if label == "crossing" else "^",
+                  Style(_COLOURS["held" if held else "mark"]), 9.0,
+                  label=common.printable(text))
     if view.next_event is not None:
-        ax.axvline(view.next_event - t_k, color=_COLOURS["event"], linewidth=0.9,
-                   linestyle=(0, (1, 2)), label=f"next event t = {common.time(view.next_event)}")
+        ax.vline(view.next_event - t_k, STYLES["next"],
+                 f"next event t = {common.time(view.next_event)}")
 
 
 def _trace_start(check: CheckResult) -> float | None:
@@ -316,30 +246,28 @@ def _trace_start(check: CheckResult) -> float | None:
     return min(starts) if starts else None
 
 
-def _draw_event(ax, check: CheckResult, unit: str, t_k: float) -> None:
+def _draw_event(ax: Panel, check: CheckResult, unit: str, t_k: float) -> None:
     """The event line (0 on the relative axis) and, where the trace knows both sides, the jump
     (named a jump only when the two sides differ beyond the engine tolerance)."""
     trace = check.trace
-    ax.axvline(0.0, color=_COLOURS["event"], linewidth=0.9, linestyle="-.",
-               label=f"event t = {common.time(t_k)}")
+    ax.vline(0.0, STYLES["event"], f"event t = {common.time(t_k)}")
     before, after = trace.before, trace.after
     if before is None or after is None:
         return
     jumps = not tol.agree(before, after, tol.ENGINE_RELATIVE, tol.ENGINE_FLOOR * trace.scale)
     if jumps:
         a, b = format_apart([before, after], unit)
-        label = plain(f"jump {a} → {b}")
+        label = f"jump {a} → {b}"
     else:
-        label = plain(f"no jump ({common.value(after, unit)})")
-    ax.plot([0.0], [before], marker="o", markersize=5, markerfacecolor="white",
-            markeredgecolor=_COLOURS["jump"], linestyle="none", label=label)
-    ax.plot([0.0], [after], marker="o", markersize=5, color=_COLOURS["jump"], linestyle="none")
+        label = f"no jump ({common.value(after, unit)})"
     if jumps:
-        ax.annotate("", xy=(0.0, after), xytext=(0.0, before),
-                    arrowprops={"arrowstyle": "->", "color": _COLOURS["jump"], "linewidth": 1.4})
+        ax.arrow(0.0, before, after, STYLES["jump"])
+    ax.marker(0.0, before, "o", STYLES["jump"], 7.0, filled=False,
+              label=common.printable(label))
+    ax.marker(0.0, after, "o", STYLES["jump"], 7.0)
 
 
-def _symbol(unit: str) -> str:
+def unit_symbol(unit: str) -> str:
     return {"ohm": "Ω", "1": ""}.get(unit, unit)
 
 

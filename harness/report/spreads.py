@@ -4,7 +4,6 @@ the limits marked, ranked sensitivity bar chart) and the samples as CSV."""
 
 from __future__ import annotations
 
-import base64
 import csv
 import io
 
@@ -82,9 +81,9 @@ def markdown(run: RunResult, plots: dict) -> list[str]:
 def html(run: RunResult, histograms: dict | None = None) -> str:
     """A section per spec'd field: its summary, the ranked sensitivities with the corners, the
     Monte Carlo line, its histogram and its sensitivity chart (``histograms``: (file index,
-    field index) -> histogram PNG, (file index, field index, SENSITIVITY) -> chart PNG,
-    embedded as data-URI images: the page's policy allows no other source)."""
-    from .html import embedded, esc
+    field index) -> histogram SVG, (file index, field index, SENSITIVITY) -> chart SVG, written
+    inline)."""
+    from .html import esc, inline
     histograms = histograms or {}
     parts = []
     for i, f in enumerate(run.files):
@@ -98,11 +97,9 @@ def html(run: RunResult, histograms: dict | None = None) -> str:
             body.append("<table><tr><th>quantity</th><th>sensitivity ∂x/∂p·p/x</th>"
                         f"<th>at min</th><th>at max</th></tr>{rows}</table>")
             for key, what in (((i, j), "histogram"), ((i, j, SENSITIVITY), "sensitivities")):
-                png = histograms.get(key)
-                if png:
-                    data = base64.b64encode(embedded(png)).decode("ascii")
-                    body.append(f'<div class="plot"><img src="data:image/png;base64,{data}" '
-                                f'alt="{esc(what + " of " + s.name)}"></div>')
+                chart = histograms.get(key)
+                if chart:
+                    body.append(inline(chart, f"{what} of {s.name}"))
             parts.append("".join(body))
     if not parts:
         return ""
@@ -133,41 +130,48 @@ def samples_csv(run: RunResult) -> str:
     return buffer.getvalue()
 
 
-def histogram(s) -> bytes | None:
-    """PNG: the samples' histogram with the limits, extremes and RSS bounds marked."""
-    from .plots import new_figure, png
+#: the charts' width and panel height, px
+WIDTH, HEIGHT = 630, 250
+#: bins of the Monte Carlo histogram
+BINS = 60
+
+
+def histogram(s) -> str | None:
+    """SVG: the samples' histogram with the limits, extremes and RSS bounds marked."""
+    from .plots import unit_symbol
+    from .svg import Chart, Style
+    from .svgdraw import render
     if s.samples is None or not np.isfinite(s.samples).any():
         return None
-    fig, ax = new_figure()
-    ax.hist(s.samples[np.isfinite(s.samples)], bins=60, color="#8fb3d9", label="samples")
-    marks = [("spec min", s.limits["min"], "red"), ("spec max", s.limits["max"], "red"),
-             ("extreme min", s.low, "black"), ("extreme max", s.high, "black")]
+    chart = Chart(WIDTH, printable(f"{s.check} — {s.name}: {len(s.samples)} samples"))
+    ax = chart.panel(HEIGHT, xunit=unit_symbol(s.unit), yunit=None, xlabel=f"{s.name} ({s.unit})",
+                     ylabel="samples")
+    counts, edges = np.histogram(s.samples[np.isfinite(s.samples)], bins=BINS)
+    ax.bars(edges, counts, "#8fb3d9", "samples")
+    marks = [("spec min", s.limits["min"], "#d62728"), ("spec max", s.limits["max"], "#d62728"),
+             ("extreme min", s.low, "#000000"), ("extreme max", s.high, "#000000")]
     if s.rss:
-        marks += [("RSS min", s.rss[0], "green"), ("RSS max", s.rss[1], "green")]
+        marks += [("RSS min", s.rss[0], "#2a9d3a"), ("RSS max", s.rss[1], "#2a9d3a")]
     for label, x, colour in marks:
         if x is not None:
-            ax.axvline(x, color=colour, linestyle="--" if "RSS" in label else "-", label=label)
-    ax.set_xlabel(f"{s.name} ({s.unit})")
-    ax.legend(fontsize=8)
-    return png(fig, [ax], field=s.name)
+            ax.vline(x, Style(colour, 1.8, "6,2.6" if "RSS" in label else ""), label)
+    return render(chart, field=s.name)
 
 
-def sensitivity_chart(s) -> bytes | None:
-    """PNG: the normalised sensitivities ∂x/∂p·p/x as horizontal bars, largest on top (rise
-    blue, fall orange); the PNG text chunk carries the quantities and values in that order."""
-    from .plots import new_figure, png
+def sensitivity_chart(s) -> str | None:
+    """SVG: the normalised sensitivities ∂x/∂p·p/x as horizontal bars, largest on top (rise
+    blue, fall orange); the metadata carries the quantities and values in that order."""
+    from .svg import Chart, Style
+    from .svgdraw import render
     ranked = [(q, x) for q, x in s.sensitivities if np.isfinite(x)]
     if not ranked:
         return None
-    fig, ax = new_figure()
+    chart = Chart(WIDTH, printable(f"{s.check} — {s.name}"))
     names = [printable(q) for q, _ in ranked][::-1]
     values = [x for _, x in ranked][::-1]
-    ax.barh(range(len(values)), values, color=["#3b75af" if x >= 0 else "#ef8636"
-                                               for x in values], label="∂x/∂p·p/x")
-    ax.set_yticks(range(len(values)), names)
-    ax.axvline(0.0, color="black", linewidth=0.8)
-    ax.set_xlabel(f"normalised sensitivity of {s.name}")
-    ax.set_title(printable(f"{s.check} — {s.name}"), fontsize=9)
-    fig.subplots_adjust(left=0.2)
-    return png(fig, [ax], field=s.name, quantities=[q for q, _ in ranked],
-               sensitivities=[x for _, x in ranked])
+    ax = chart.panel(max(90, 30 * len(values)), xunit=None, yunit=None, categories=names,
+                     xlabel=f"normalised sensitivity of {s.name}")
+    ax.hbars(values, ["#3b75af" if x >= 0 else "#ef8636" for x in values])
+    ax.vline(0.0, Style("#000000", 1.0))
+    return render(chart, field=s.name, quantities=[q for q, _ in ranked],
+                  sensitivities=[x for _, x in ranked])
