@@ -107,7 +107,8 @@ def test_follower_with_gbw_alone_is_first_order_with_tau_one_over_omega_t(solve,
 
 NONINVERTING = '''R1 = { kind = "resistor", nodes = ["x", "gnd"], value = "1k" }
 R2 = { kind = "resistor", nodes = ["x", "out"], value = "3k" }
-U1 = { kind = "opamp", nodes = ["out", "gnd"], control = ["in", "x"], gain = "1000", gbw = "1 MHz" }
+U1 = { kind = "opamp", nodes = ["out", "gnd"], control = ["in", "x"], gain = "1000", \
+gbw = "1 MHz" }
 '''
 
 
@@ -301,3 +302,22 @@ def test_dominant_tau_counts_the_pole_as_a_zero_value_term():
     assert closed.tau == pytest.approx(want, rel=1e-9)
     assert closed.terms["U1"] == pytest.approx(4 / (2 * math.pi * 1e6), rel=1e-9)
     assert numeric(circuit).dominant(_node("out"), 0).tau == pytest.approx(want, rel=2e-5)
+
+
+def test_derive_carries_the_pole_and_the_output_state(tmp_path, capsys):
+    """``tauproof derive`` on the non-inverting stage with a second event: τ is the closed
+    loop's pole, A0·(1/ω_t)·(R1 + R2)/(R1 + R2 + R1·A0) (sympy's pole of A/(1 + A·β),
+    ``test_noninverting_amplifier_with_finite_gain_and_gbw``: 634.1 ns at G = 4, A0 = 1000,
+    GBW = 1 MHz), and at the second event the output starts from the value it held (its
+    state), G·V/(1 + G/A0) = 3.984 V, instead of jumping."""
+    from harness.cli import main
+    tau = float(-1 / sp.solve(sp.denom(sp.cancel(_noninverting_transfer())), s)[0])
+    path = tmp_path / "ni.toml"
+    path.write_text('title = "ni"\n[parts]\nV1 = { kind = "voltage-source", nodes = ["in", '
+                    '"gnd"], value = "0 V", steps = [["0 s", "1 V"], ["20 us", "0 V"]] }\n'
+                    + NONINVERTING + '[[expect]]\nnode = "out"\nat = "20 us"\nfinal = "0 V"\n')
+    main(["derive", str(path)])
+    out = capsys.readouterr().out
+    assert f"= {tau * 1e9:.4g} ns" in out, out
+    assert "U1·1.5915494309189535e-07 s·(R1 + R2)/(R1 + R2 + R1·U1)" in out, out
+    assert "x(t_k+) = U1·1.0 V·(R1 + R2)/(R1 + R2 + R1·U1) = 3.984 V" in out, out

@@ -14,7 +14,8 @@ Units of the unscaled system: KCL rows in A, branch rows in V.
 Scaling (the engine's non-dimensionalisation): currents are measured in units of V/R0 and time in
 units of T, where R0 is the geometric mean of the resistances present (resistors and switch
 on-resistances) and T the geometric mean of the products R0*C and L/R0 over all capacitors and
-inductors and of 1/ω_t over the op-amps with a gain-bandwidth product.  With D = diag(1 for voltages, 1/R0 for currents) (x = D x~) and row weights
+inductors and of 1/ω_t over the op-amps with a gain-bandwidth product.  With
+D = diag(1 for voltages, 1/R0 for currents) (x = D x~) and row weights
 E = diag(R0 for KCL rows, 1 for branch rows), the scaled system is
 
     C~ dx~/dtau + G~ x~ = b~,   C~ = E C D / T,  G~ = E G D,  b~ = E b,  t = T tau,

@@ -4,11 +4,12 @@ the state (``EQUATIONS``), and the state layout those stamps imply.
 State y (length n): the voltages of the non-ground nodes, then the currents of the parts whose
 kind keeps its current as a state (inductors), then the internal voltage w of each op-amp with a
 gain-bandwidth product (its *pole*: ``KindEquations.pole``), then one current i_p per *carrier*
-(a part whose kind fixes a voltage: voltage sources, vcvs, ccvs, op-amps and ideal switches).  A carrier's current is
-u / r_s + i_p with u = v_p − v_n − (its ideal voltage); an open ideal switch carries its plain
-(zero) current.  Capacitors have no branch current here: they enter the capacitance matrix M
-(``equations._assemble``).  These are this engine's own equations, written independently of the
-exact engine's stamps (``closedform/stamps.py``); both read only the model's declarations.
+(a part whose kind fixes a voltage: voltage sources, vcvs, ccvs, op-amps and ideal switches).
+A carrier's current is u / r_s + i_p with u = v_p − v_n − (its ideal voltage); an open ideal
+switch carries its plain (zero) current.  Capacitors have no branch current here: they enter the
+capacitance matrix M (``equations._assemble``).  These are this engine's own equations, written
+independently of the exact engine's stamps (``closedform/stamps.py``); both read only the
+model's declarations.
 """
 
 from __future__ import annotations
