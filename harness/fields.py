@@ -142,6 +142,10 @@ def _kind_of(name: str, spec: object, where: Where) -> dict:
                                         field=key))
                    for key, unit in declared.units.items()
                    if key not in _OWN_ATTRIBUTE and key in spec)
+    for key, value in params:
+        if key in declared.positive_params and not value > 0:
+            raise where.error(f"{key} must be greater than zero, got {spec[key]!r} (leave it "
+                              "out for none)", path=path + (key,), part=name, field=key)
     if params:
         out["params"] = params
     return out

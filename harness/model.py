@@ -29,6 +29,8 @@ VCCS = "vccs"
 CCVS = "ccvs"
 CCCS = "cccs"
 OPAMP = "opamp"
+#: the op-amp's gain-bandwidth product field (Hz): its single pole (``KindSpec.field_help``)
+GBW = "gbw"
 
 #: branch types of a part kind (``KindSpec.branch``): it fixes its voltage and carries any
 #: current; it fixes its current; it relates the two by a resistance; it stores charge (its
@@ -68,6 +70,8 @@ class KindSpec:
         dissipative: an expectation may ask for the energy it absorbs.
         field_help: what each of its fields that no other kind has means (the reference is
             written from it; shared fields are described in ``fields.FIELD_HELP``).
+        positive_params: its further quantity fields (``Part.params``) that must be greater
+            than zero when given.
     """
 
     name: str
@@ -83,6 +87,7 @@ class KindSpec:
     sensed: bool = False
     dissipative: bool = False
     field_help: Mapping[str, str] = field(default_factory=dict)
+    positive_params: tuple[str, ...] = ()
 
     @property
     def storage(self) -> bool:
@@ -151,9 +156,15 @@ KIND_SPECS: Mapping[str, KindSpec] = MappingProxyType({spec.name: spec for spec 
                 "through itself to n", CURRENT_TYPE, SENSED_CURRENT),
     KindSpec(OPAMP, "an ideal operational amplifier: output p, n; inputs cp (non-inverting) "
              "and cn (inverting) held at v(cp) = v(cn), drawing no current; with `gain`, "
-             "v(p) − v(n) = gain · (v(cp) − v(cn))", "operational amplifier",
-             ("control", "gain", "value"), {"gain": "1", "value": "1"}, VOLTAGE_TYPE,
-             required=("control",), control=VOLTAGE_PAIR, positive=True),
+             "v(p) − v(n) = gain · (v(cp) − v(cn)); with `gbw`, a single-pole amplifier "
+             "(one more state)", "operational amplifier",
+             ("control", "gain", "value", GBW), {"gain": "1", "value": "1", GBW: "Hz"},
+             VOLTAGE_TYPE, required=("control",), control=VOLTAGE_PAIR, positive=True,
+             field_help={GBW: "gain-bandwidth product, the frequency where the open-loop gain "
+                              "falls to 1 (\"10 MHz\"): with `gain` A0 the open-loop gain is "
+                              "A0 / (1 + s·A0 / (2π·gbw)), without it the integrator "
+                              "2π·gbw / s (default: no pole)"},
+             positive_params=(GBW,)),
 )})
 
 

@@ -9,9 +9,12 @@ Method (no time stepping; plain dense linear algebra).
    on-resistance: v = R_on i), so the layout never changes.  ccvs/cccs sense a branch variable or
    a resistor's (vp - vn)/R.  Node groups that reach ground only through open switches or
    current sources (undefined common voltage) are tied to ground by R0 and reported.
-   Each part kind's entries come from its stamp in ``stamps.STAMPS``.
+   Each part kind's entries come from its stamp in ``stamps.STAMPS``; an op-amp with a
+   gain-bandwidth product puts −(v(p) − v(n))/ω_t on its branch row of C, so its output voltage
+   is a state like a capacitor's (the null basis of C joins its output terminals).
 2. Scaling.  Currents in units of V/R0 and time in units of T, R0 the geometric mean of the
-   resistances, T the geometric mean of R0*C over capacitors and L/R0 over inductors, so the
+   resistances, T the geometric mean of R0*C over capacitors, L/R0 over inductors and 1/ω_t
+   over op-amp poles, so the
    scaled matrices and modes are O(1) for typical values.
 3. State at 0- (``initial``).  DC steady state of the pre-step circuit, or, where parts carry
    ``initial``, the DC solve with those capacitors held as voltage sources and those inductors

@@ -14,7 +14,8 @@ Units of the unscaled system: KCL rows in A, branch rows in V.
 Scaling (the engine's non-dimensionalisation): currents are measured in units of V/R0 and time in
 units of T, where R0 is the geometric mean of the resistances present (resistors and switch
 on-resistances) and T the geometric mean of the products R0*C and L/R0 over all capacitors and
-inductors.  With D = diag(1 for voltages, 1/R0 for currents) (x = D x~) and row weights
+inductors and of 1/ω_t over the op-amps with a gain-bandwidth product.  With
+D = diag(1 for voltages, 1/R0 for currents) (x = D x~) and row weights
 E = diag(R0 for KCL rows, 1 for branch rows), the scaled system is
 
     C~ dx~/dtau + G~ x~ = b~,   C~ = E C D / T,  G~ = E G D,  b~ = E b,  t = T tau,
@@ -32,8 +33,8 @@ from typing import Callable, Mapping
 
 import numpy as np
 
-from ..model import (CAPACITOR, CURRENT_TYPE, INDUCTOR, KIND_SPECS, RESISTOR, SWITCH, SWITCHED,
-                     Circuit, Part)
+from ..model import (CAPACITOR, CURRENT_TYPE, GBW, INDUCTOR, KIND_SPECS, OPAMP, RESISTOR, SWITCH,
+                     SWITCHED, Circuit, Part)
 
 #: from this many parts on, node groups come from scipy.sparse.csgraph and resistors and
 #: capacitors are stamped in one vectorised call (below, the plain Python loops are faster)
@@ -102,7 +103,8 @@ def _geomean(values: list[float]) -> float:
 
 
 def scale_of(circuit: Circuit) -> Scale:
-    """R0 = geometric mean of resistances; T = geometric mean of R0*C and L/R0 (DESIGN step 1)."""
+    """R0 = geometric mean of resistances; T = geometric mean of R0*C, L/R0 and each op-amp's
+    1/ω_t (its gain-bandwidth pole, ``opamp_omega``) (DESIGN step 1)."""
     res = [p.value for p in circuit.parts if p.kind == RESISTOR and p.value and p.value > 0]
     res += [p.on_resistance for p in circuit.parts
             if p.kind == SWITCH and p.on_resistance and p.on_resistance > 0]
@@ -115,7 +117,14 @@ def scale_of(circuit: Circuit) -> Scale:
     else:
         r0 = 1.0
     times = [r0 * c for c in caps] + [ell / r0 for ell in inds]
+    times += [1.0 / w for w in map(opamp_omega, circuit.parts) if w is not None]
     return Scale(r0=r0, t=_geomean(times) if times else 1.0)
+
+
+def opamp_omega(part: Part) -> float | None:
+    """ω_t = 2π·gbw in rad/s of an op-amp with a gain-bandwidth product, else None."""
+    gbw = part.param(GBW) if part.kind == OPAMP else None
+    return None if gbw is None else 2.0 * math.pi * gbw
 
 
 def voltage_row(layout: Layout, p: str, n: str) -> np.ndarray:
@@ -234,10 +243,13 @@ def find_root(parent: dict, x):
 def capacitor_null_basis(circuit: Circuit, layout: Layout) -> np.ndarray:
     """Orthonormal basis of the null space of C (and of C~), shape (n, m), built from the graph.
 
-    C is the capacitor Laplacian on the node block plus diag(-L) on the inductor currents, so its
+    C is the capacitor Laplacian on the node block plus diag(-L) on the inductor currents, and
+    on the branch row of an op-amp with a gain-bandwidth product −(v(p) − v(n))/ω_t, so its
     null space is spanned by (a) every branch current that is not an inductor's, and (b) for each
-    set of nodes joined by capacitors that does not reach ground, the (normalised) indicator of
-    that set (a node without capacitors is a set of its own).  Exact, with no rank decision.
+    set of nodes joined by capacitors and such op-amps' outputs that does not reach ground, the
+    (normalised) indicator of that set (a node without either is a set of its own): an
+    indicator of a union of capacitor groups meets an op-amp row as a(p) − a(n), zero exactly
+    when its output terminals are in one set.  Exact, with no rank decision.
     Built once per circuit and layout (read-only).
     """
     memo = index_of(circuit).components
@@ -255,7 +267,7 @@ def _capacitor_null_basis(circuit: Circuit, layout: Layout) -> np.ndarray:
     find = partial(find_root, parent)
 
     for part in circuit.parts:
-        if part.kind == CAPACITOR:
+        if part.kind == CAPACITOR or opamp_omega(part) is not None:
             parent[find(part.p)] = find(part.n)
     groups: dict[str, list[int]] = {}
     for i, node in enumerate(layout.nodes):

@@ -5,7 +5,8 @@ exactly (a loop that closes on itself, an open end), so the storage parts that s
 response are not the ones merely *connected* to it.  The closed form answers the question
 with its own interval pencil (scaled MNA C~ x' + G~ x = b~, sources zeroed): a storage part's
 dynamics enter the equations through its C~ entries, along the injection vector a_X (e_p - e_n
-over the KCL rows of a capacitor's terminals; the unit vector of an inductor's branch row).
+over the KCL rows of a capacitor's terminals; the unit vector of an inductor's branch row, or
+of an op-amp's whose gain-bandwidth pole puts −(v(p) − v(n))/ω_t in its row of C~).
 Its influence on the probe y = r . x (r the probe's row over x~ and dx~/dtau at s) is the
 transfer function
 
@@ -30,9 +31,9 @@ from __future__ import annotations
 import numpy as np
 import scipy.linalg as la
 
-from ..model import ACROSS, CAPACITOR, INDUCTOR, STORAGE, THROUGH, Circuit, Probe
+from ..model import ACROSS, CAPACITOR, STORAGE, THROUGH, Circuit, Probe
 from .linalg import SPARSE_LU_MIN, _pattern
-from .mna import Layout
+from .mna import Layout, opamp_omega
 
 #: generic points in scaled time at which the transfer functions are tested
 POINTS = (0.8183 + 0.5477j, 2.6971 - 1.3089j)
@@ -53,9 +54,10 @@ def voltage_of_capacitor(circuit: Circuit, probe: Probe) -> Probe:
 
 
 def _injection(layout: Layout, part, size: int) -> np.ndarray:
-    """a_X over the rows (shape (size,)): where the part's C~ entries enter the equations."""
+    """a_X over the rows (shape (size,)): where the part's C~ entries enter the equations (an
+    inductor's and a gain-bandwidth op-amp's: its own branch row)."""
     a = np.zeros(size)
-    if part.kind == INDUCTOR:
+    if part.kind != CAPACITOR:
         a[layout.branch(part.name)] = 1.0
         return a
     for node, sign in ((part.p, 1.0), (part.n, -1.0)):
@@ -81,11 +83,12 @@ def _injections(layout: Layout, storage: list, size: int):
 
 def reaching_storage(circuit: Circuit, layout: Layout, g: np.ndarray, c: np.ndarray,
                      row: np.ndarray, drow: np.ndarray) -> set[str] | None:
-    """The capacitors and inductors whose transfer function to the probe is not zero (module
+    """The capacitors, inductors and gain-bandwidth op-amps whose transfer function to the
+    probe is not zero (module
     docstring) in the scaled pencil (g, c) of one interval; ``row``, ``drow``: the probe's
     coefficients over x~ and dx~/dtau (shape (n,)).  None when the pencil is singular at both
     points (then the caller counts every storage part)."""
-    storage = [p for p in circuit.parts if p.kind in STORAGE]
+    storage = [p for p in circuit.parts if p.kind in STORAGE or opamp_omega(p) is not None]
     inject = _injections(layout, storage, g.shape[0])
     reached = np.zeros(len(storage), dtype=bool)
     solved = False

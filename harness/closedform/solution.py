@@ -25,7 +25,7 @@ from .reach import reaching_storage, voltage_of_capacitor
 from .response import IntervalResponse, Kept, Pencil, build, pencil_of
 from . import signoff
 from .conditioning import assess
-from .thevenin import thevenin_resistances
+from .thevenin import pole_time_constants, thevenin_resistances
 
 ENGINE = "closed_form"
 
@@ -248,8 +248,9 @@ class ClosedFormSolution(NotComputed):
         """Part -> zero-value time constant (s) for interval k, memoised."""
         key = ("zero-value", k)
         if key not in self._jump_cache:
-            self._jump_cache[key] = signoff.zero_value_terms(self.circuit, self.thevenin(k),
-                                                                 self.scale.r0)
+            terms = signoff.zero_value_terms(self.circuit, self.thevenin(k), self.scale.r0)
+            terms.update(pole_time_constants(self.circuit, self.intervals[k].g, self.layout))
+            self._jump_cache[key] = terms
         return self._jump_cache[key]
 
     # ----------------------------------------------------------------- periodic drive

@@ -17,9 +17,10 @@ from typing import Callable, Mapping
 
 import numpy as np
 
-from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, OPAMP, RESISTOR, SWITCH,
-                     VCCS, VCVS, VOLTAGE_SOURCE, Circuit, Part)
-from .mna import GRAPH_MIN_PARTS, Layout, layout_positions, index_of, part_named, voltage_row
+from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, OPAMP, RESISTOR,
+                     SWITCH, VCCS, VCVS, VOLTAGE_SOURCE, Circuit, Part)
+from .mna import (GRAPH_MIN_PARTS, Layout, layout_positions, index_of, opamp_omega, part_named,
+                  voltage_row)
 
 
 @dataclass(frozen=True)
@@ -139,11 +140,21 @@ def _ccvs(st: Stamping, part: Part) -> None:
 
 def _opamp(st: Stamping, part: Part) -> None:
     """The nullor: v(cp) − v(cn) = 0 on its branch row (its output current is the branch
-    variable, its output voltage free); with a gain A: v(cp) − v(cn) − (v(p) − v(n))/A = 0."""
+    variable, its output voltage free); with a gain A: v(cp) − v(cn) − (v(p) − v(n))/A = 0.
+
+    With a gain-bandwidth product (``gbw``, ω_t = 2π·gbw in rad/s) the open-loop gain
+    A(s) = A/(1 + s·A/ω_t) (or ω_t/s without a gain) gives, on the same row,
+    v(cp) − v(cn) − (v(p) − v(n))/A − (v(p) − v(n))′/ω_t = 0: the entry −1/ω_t on the output
+    voltage in C makes v(p) − v(n) a state of the pencil (the single pole)."""
+    j = st.layout.branch(part.name)
+    out = voltage_row(st.layout, part.p, part.n)
     row = voltage_row(st.layout, *part.control)
     if part.value is not None:
-        row = row - voltage_row(st.layout, part.p, part.n) / part.value
-    st.g[st.layout.branch(part.name)] = row
+        row = row - out / part.value
+    st.g[j] = row
+    omega = opamp_omega(part)
+    if omega is not None:
+        st.c[j] -= out / omega
 
 
 def _switch(st: Stamping, part: Part) -> None:

@@ -23,6 +23,12 @@ least-squares solver (its equilibration, pattern and factors made once: ``LeastS
 one null-space test; each such inductor gets its own.  The null-space test is an SVD, O(n^3),
 skipped where the solver's own LU condition estimate already shows that no singular value can
 fall below ``NULL_REL`` of the largest (``_provably_regular``).
+
+An op-amp with a gain-bandwidth product is a storage of its own: its pole puts −(v(p) − v(n))/ω_t
+on its branch row of C.  Its zero-value time constant (``pole_time_constants``) is that entry
+times the output voltage a unit source on its branch row (an input offset of 1 V) gives in G~:
+τ = −(v(p) − v(n))/ω_t, the term tr(G^-1 C) adds for that row (capacitors open, the other
+op-amps at their DC gain).  For a follower it is (1/ω_t)·A/(1 + A), the closed-loop pole.
 """
 
 from __future__ import annotations
@@ -32,7 +38,7 @@ import numpy as np
 from ..model import CAPACITOR, INDUCTOR, Circuit
 from .conditioning import SPARSE_CONDITION_MIN, sparse_condition
 from .linalg import REGULAR_MIN_SIZE, LeastSquares, _pattern, equilibrate, regular_factor
-from .mna import Layout, Scale, voltage_row
+from .mna import Layout, Scale, opamp_omega, voltage_row
 
 #: more storage parts than this are solved this many test injections at a time (an (n, s)
 #: block per batch instead of three (n, s) matrices: 50 MB each at 2,500 parts)
@@ -222,3 +228,30 @@ def _solve_ratio(solver: LeastSquares, rhs: np.ndarray, vrow: np.ndarray,
     if null.shape[0] and np.max(np.abs(null @ vrow)) > NULL_COUPLING:
         return float("inf")
     return float(vrow @ x)
+
+
+def pole_time_constants(circuit: Circuit, g_scaled: np.ndarray,
+                        layout: Layout) -> dict[str, float]:
+    """Op-amp name -> the zero-value time constant in s of its gain-bandwidth pole (module
+    docstring), for every op-amp with a ``gbw``; +inf where the output voltage is not fixed
+    by G~.  Branch rows are unweighted in the scaling (``mna.Scale``), so a unit right side
+    there is 1 V and the node voltages read off x~ directly.
+
+    Args:
+        g_scaled: the interval's scaled G~ (shape (n, n)), floating groups already pinned.
+    """
+    amps = [(p, w) for p in circuit.parts if (w := opamp_omega(p)) is not None]
+    if not amps:
+        return {}
+    unit = np.zeros((g_scaled.shape[0], len(amps)))
+    unit[[layout.branch(p.name) for p, _ in amps], np.arange(len(amps))] = 1.0
+    vrows = np.column_stack([voltage_row(layout, p.p, p.n) for p, _ in amps])
+    factor = regular_factor(g_scaled, BATCH_RCOND, min_size=1)
+    if factor is not None:
+        x = _refined_solve(g_scaled, factor, unit)
+        volts = [float(vrows[:, k] @ x[:, k]) for k in range(len(amps))]
+    else:
+        solver, null = _solver_and_null(g_scaled)
+        volts = [_solve_ratio(solver, unit[:, k], vrows[:, k], null) for k in range(len(amps))]
+    return {p.name: (-v / w if np.isfinite(v) else float("inf"))
+            for (p, w), v in zip(amps, volts)}

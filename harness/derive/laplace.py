@@ -75,7 +75,8 @@ def _lowest(poly: sp.Poly) -> int:
 def solve(net: Network, state: dict) -> list:
     """Y(s) = s·X(s) of every unknown as a sympy fraction (rational in s and the symbols).
 
-    ``state``: storage name -> its symbolic value at t_k− (capacitor voltage, inductor current).
+    ``state``: storage name -> its symbolic value at t_k− (capacitor voltage, inductor current,
+    a gain-bandwidth op-amp's output voltage).
     """
     n = len(net.index)
     rhs = sp.Matrix(net.b)
@@ -85,6 +86,8 @@ def solve(net: Network, state: dict) -> list:
             k = net.index[key]
             rhs[k] += S * net.c[k, k] * value
     rhs += S * _capacitor_charges(net, state)
+    for name, (k, tau) in net.poles.items():       # an op-amp's pole: −(1/ω_t)·v_out(t_k−)
+        rhs[k] -= S * tau * state.get(name, 0)
     if n == 0:
         return []
     return fraction_free(net.g + S * net.c, rhs)

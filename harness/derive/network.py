@@ -18,6 +18,7 @@ This module builds the matrices only; ``laplace`` solves them.  Nothing here imp
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Callable
 
@@ -94,6 +95,8 @@ class Network:
         capacitors: name -> (row of p or None, row of n or None, its symbol).
         conductances: resistive switch -> its conductance (S) in the interval.
         currents: current source, vccs, cccs -> fn(v, y) giving its current from Y(s).
+        poles: op-amp with a gain-bandwidth product -> (its branch row, 1/ω_t in s): its
+            output voltage v(p) − v(n) is a state, entering C·x(t_k−) as −(1/ω_t)·v_out.
     """
 
     index: dict
@@ -104,6 +107,7 @@ class Network:
     capacitors: dict = field(default_factory=dict)
     conductances: dict = field(default_factory=dict)
     currents: dict = field(default_factory=dict)
+    poles: dict = field(default_factory=dict)
 
 
 def _closed(part: m.Part, time: float, pre: bool) -> bool:
@@ -153,7 +157,7 @@ def build(circuit: m.Circuit, time: float, syms: Symbols, pre: bool = False,
     n = len(index)
     g, c, b = sp.zeros(n, n), sp.zeros(n, n), sp.zeros(n, 1)
     row = {nd: index.get(f"v:{nd}") for nd in circuit.nodes}
-    stamps = _Stamps(g, c, b, row, index, {}, {}, {})
+    stamps = _Stamps(g, c, b, row, index, {}, {}, {}, {})
     for part in circuit.parts:
         if part.name in open_parts:
             continue
@@ -164,7 +168,7 @@ def build(circuit: m.Circuit, time: float, syms: Symbols, pre: bool = False,
     storage = tuple(p.name for p in circuit.parts if p.kind in m.STORAGE
                     and p.name not in open_parts and p.name not in short)
     return Network(index, g, c, b, storage, stamps.capacitors, stamps.conductances,
-                   stamps.currents)
+                   stamps.currents, stamps.poles)
 
 
 @dataclass
@@ -177,6 +181,7 @@ class _Stamps:
     capacitors: dict
     conductances: dict
     currents: dict
+    poles: dict
 
     def pair(self, mat, p, n, value, cp=None, cn=None) -> None:
         """Stamp ``value`` between rows (p, n) and columns (cp, cn) (a conductance pattern)."""
@@ -301,7 +306,9 @@ def _cccs(part: m.Part, iv: _Interval, st: _Stamps) -> None:
 
 def _opamp(part: m.Part, iv: _Interval, st: _Stamps) -> None:
     """v_cp − v_cn = 0 (the nullor), or v_cp − v_cn − (v_p − v_n)/gain = 0, on the row of
-    its output current."""
+    its output current; with a gain-bandwidth product the single pole A(s) = gain/(1 + s·gain/ω_t)
+    (ω_t/s without a gain) adds −(1/ω_t)·(v_p − v_n)′ to the row: −1/ω_t in C (a number in s,
+    ``Symbols.quantity``), so its output voltage is a state (``Network.poles``)."""
     k = st.branch_kcl(part)
     terms = [(part.control[0], 1), (part.control[1], -1)]
     if part.value is not None:
@@ -310,6 +317,13 @@ def _opamp(part: m.Part, iv: _Interval, st: _Stamps) -> None:
     for node, coef in terms:
         if st.row[node] is not None:
             st.g[k, st.row[node]] += coef
+    gbw = part.param(m.GBW)
+    if gbw is not None:
+        tau = iv.syms.quantity(1.0 / (2.0 * math.pi * gbw), "s")
+        for node, sign in ((part.p, -1), (part.n, 1)):
+            if st.row[node] is not None:
+                st.c[k, st.row[node]] += sign * tau
+        st.poles[part.name] = (k, tau)
 
 
 def _always(part: m.Part, time: float, pre: bool) -> bool:

@@ -15,7 +15,16 @@ from .derivation import Derivation, Formula, OverBudget, StoragePart, agrees
 
 
 def _state_probe(part: m.Part) -> m.Probe:
-    return m.Probe(m.ACROSS if part.kind == m.CAPACITOR else m.THROUGH, (part.name,))
+    """The probe of a part's state: a capacitor's (or gain-bandwidth op-amp's output) voltage,
+    an inductor's current."""
+    return m.Probe(m.THROUGH if part.kind == m.INDUCTOR else m.ACROSS, (part.name,))
+
+
+def _stateful(circuit: m.Circuit) -> tuple[m.Part, ...]:
+    """The parts with a state: storage, and op-amps with a gain-bandwidth pole (their output
+    voltage)."""
+    return tuple(p for p in circuit.parts
+                 if p.kind in m.STORAGE or (p.kind == m.OPAMP and p.param(m.GBW) is not None))
 
 
 def numbers_only(circuit: m.Circuit, solution, exp: m.Expectation, reason: str) -> Derivation:
@@ -68,8 +77,8 @@ class Worker:
         if k in self.states:
             return self.states[k]
         out = {}
-        for part in self.circuit.storage_parts():
-            unit = "V" if part.kind == m.CAPACITOR else "A"
+        for part in _stateful(self.circuit):
+            unit = "A" if part.kind == m.INDUCTOR else "V"
             if k < 0:
                 init = part.initial
                 out[part.name] = 0 if init is None else self.syms.quantity(init, unit)

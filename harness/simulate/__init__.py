@@ -6,8 +6,10 @@ engine (harness.closedform); tests/test_independence.py enforces that neither im
 Solution protocol, engine "numeric").
 
 Model (equations.py; each kind's branch current in branches.py)
-    Nodal equations M y' = -K y + b over the non-ground node voltages, the inductor currents and
-    one current per *carrier* (voltage source, vcvs, ccvs, ideal switch).  Regularisation:
+    Nodal equations M y' = -K y + b over the non-ground node voltages, the inductor currents, the
+    internal voltage w of each op-amp with a gain-bandwidth product ((1/ω_t) w' = v_cp − v_cn
+    − w/A0, its output a carrier of w) and one current per *carrier* (voltage source, vcvs, ccvs,
+    op-amp, ideal switch).  Regularisation:
 
     * a carrier is its ideal voltage in series with r_s || L_p (L_p = r_s t_pulse): its current
       is u / r_s + i_p with L_p i_p' = u, u = v_p - v_n - (ideal voltage).  A step that needs an
@@ -34,7 +36,8 @@ Regularisation rule (regularise.py), eps = ``pulse_ratio`` (default 1e-7)
     t_fast, a lower estimate of the fastest real time constant: half the fastest mode of a
     coarse pilot model (eps = 1e-3, eigenvalues of its Jacobians below 0.03 / t_pulse; up to
     300 states), else from part values (0.25 min over capacitor nodes of C_min/(2 G_node),
-    L_min / R_sum, sqrt(L_min C_min) / 2 pi, divided by 1 + the controlled sources' gains); at
+    L_min / R_sum, sqrt(L_min C_min) / 2 pi, 1/ω_t of an op-amp pole, divided by 1 + the
+    controlled sources' gains); at
     most the shortest event gap.  Then t_pulse = eps t_fast and
 
     * r_s = min(eps R_min, t_pulse / (4 C_loop)) but at least 1e-9 R_min (below that 1/r_s
@@ -49,7 +52,8 @@ Regularisation rule (regularise.py), eps = ``pulse_ratio`` (default 1e-7)
 
     No value comes from the exact engine.  The pulse has died after s_a = 100 t_pulse; the settle
     horizon of an interval is 1e3 t_slow (t_slow: R_sum C_sum, L_sum / R_min,
-    2 pi sqrt(L_sum C_sum), the longest event gap, times the gain factor).  rtol = eps (within
+    2 pi sqrt(L_sum C_sum), (R_sum / R_min) / ω_t of an op-amp pole, the longest event gap, times
+    the gain factor).  rtol = eps (within
     [1e-8, 1e-4]); atol = 1e-4 rtol times the voltage or current scale (largest source, initial
     or 0- value), for a carrier current at least 1e-14 (sum of |u coefficients|) V_scale / r_s,
     the rounding of u seen through 1/r_s (tighter makes the steps stall).

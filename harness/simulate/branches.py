@@ -2,23 +2,25 @@
 the state (``EQUATIONS``), and the state layout those stamps imply.
 
 State y (length n): the voltages of the non-ground nodes, then the currents of the parts whose
-kind keeps its current as a state (inductors), then one current i_p per *carrier* (a part whose
-kind fixes a voltage: voltage sources, vcvs, ccvs and ideal switches).  A carrier's current is
-u / r_s + i_p with u = v_p − v_n − (its ideal voltage); an open ideal switch carries its plain
-(zero) current.  Capacitors have no branch current here: they enter the capacitance matrix M
-(``equations._assemble``).  These are this engine's own equations, written independently of the
-exact engine's stamps (``closedform/stamps.py``); both read only the model's declarations.
+kind keeps its current as a state (inductors), then the internal voltage w of each op-amp with a
+gain-bandwidth product (its *pole*: ``KindEquations.pole``), then one current i_p per *carrier*
+(a part whose kind fixes a voltage: voltage sources, vcvs, ccvs, op-amps and ideal switches).
+A carrier's current is u / r_s + i_p with u = v_p − v_n − (its ideal voltage); an open ideal
+switch carries its plain (zero) current.  Capacitors have no branch current here: they enter the
+capacitance matrix M (``equations._assemble``).  These are this engine's own equations, written
+independently of the exact engine's stamps (``closedform/stamps.py``); both read only the
+model's declarations.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Callable, Mapping
 
 import numpy as np
 
 from ..errors import InputError
-from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, KIND_SPECS, OPAMP,
+from ..model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, GBW, INDUCTOR, KIND_SPECS, OPAMP,
                      RESISTOR, SENSED_CURRENT, SWITCH, SWITCHED, VCCS, VCVS, VOLTAGE_SOURCE,
                      Circuit, Part)
 from .regularise import Regularisation
@@ -34,6 +36,8 @@ class Layout:
         carriers: carrier part names (the last indices).
         node_index: node name -> state index (ground is absent).
         part_index: inductor or carrier name -> index of its current state.
+        poles: names of the parts with an internal voltage state (between the inductors and
+            the carriers); pole_index: their name -> index of that state.
     """
 
     nodes: tuple[str, ...]
@@ -41,10 +45,25 @@ class Layout:
     carriers: tuple[str, ...]
     node_index: Mapping[str, int]
     part_index: Mapping[str, int]
+    poles: tuple[str, ...] = ()
+    pole_index: Mapping[str, int] = field(default_factory=dict)
 
     @property
     def n(self) -> int:
-        return len(self.nodes) + len(self.inductors) + len(self.carriers)
+        return len(self.nodes) + len(self.inductors) + len(self.poles) + len(self.carriers)
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        """The name of each state, shape (n,): its node, or the part it belongs to."""
+        return self.nodes + self.inductors + self.poles + self.carriers
+
+    @property
+    def volts(self) -> np.ndarray:
+        """Which states are voltages (nodes, poles) rather than currents, shape (n,) bool."""
+        out = np.zeros(self.n, dtype=bool)
+        out[:len(self.nodes)] = True
+        out[list(self.pole_index.values())] = True
+        return out
 
 
 @dataclass(frozen=True)
@@ -103,6 +122,8 @@ class KindEquations:
             ``ideal``).
         fixed: its current is the same Affine in every interval (built once per circuit).
         state: its current is a state of y (an inductor: L di/dt = v_p − v_n, with a shunt).
+        pole: (part, layout) -> (m, f) for a part with an internal voltage state w of its own,
+            m w' = f(y) (m in s, f an Affine in V), or None for this part (no such state).
     """
 
     current: Callable[[Part, Layout, Drive], Affine] | None = None
@@ -110,6 +131,7 @@ class KindEquations:
     carrier: Callable[[Part], bool] | None = None
     fixed: bool = False
     state: bool = False
+    pole: Callable[[Part, Layout], tuple[float, Affine] | None] | None = None
 
 
 def _voltage(part: Part, lay: Layout) -> Affine:
@@ -126,10 +148,27 @@ def _amplifier_error(part: Part, lay: Layout, drive: Drive) -> Affine:
     """An operational amplifier's u = v(cn) − v(cp) (+ (v_p − v_n)/gain with a finite gain):
     its output sinks u / r_s + i_p, so an input driven above the other sources current into
     the output node, as a real amplifier with cp its non-inverting input does; u = 0 is the
-    ideal (nullor) constraint v(cp) = v(cn)."""
+    ideal (nullor) constraint v(cp) = v(cn).  With a gain-bandwidth product its output is a
+    voltage source of its internal voltage w (``_amplifier_pole``): u = v_p − v_n − w."""
+    if part.name in lay.pole_index:
+        return _voltage(part, lay).plus(Affine({lay.pole_index[part.name]: -1.0}))
     cp, cn = part.control
     u = Affine(difference(lay, cn, cp))
     return u if part.value is None else u.plus(_voltage(part, lay).scaled(1.0 / part.value))
+
+
+def _amplifier_pole(part: Part, lay: Layout) -> tuple[float, Affine] | None:
+    """The single-pole amplifier's internal voltage w, the output it drives: the open-loop
+    gain A0/(1 + s/ω_p) with ω_p = ω_t/A0 (ω_t = 2π·gbw) is w' = ω_p (A0 (v_cp − v_cn) − w),
+    written divided by A0 as (1/ω_t) w' = v_cp − v_cn − w/A0; without a gain the integrator
+    (1/ω_t) w' = v_cp − v_cn (the gain ω_t/s).  None without a ``gbw``."""
+    gbw = part.param(GBW)
+    if gbw is None:
+        return None
+    f = Affine(difference(lay, *part.control))
+    if part.value is not None:
+        f = f.plus(Affine({lay.pole_index[part.name]: -1.0 / part.value}))
+    return 1.0 / (2.0 * np.pi * gbw), f
 
 
 #: kind -> this engine's equations of it
@@ -154,7 +193,7 @@ EQUATIONS: Mapping[str, KindEquations] = {
     CCVS: KindEquations(ideal=lambda part, lay, drive: _voltage(part, lay).plus(
         drive.sensed.scaled(-part.value))),
     CCCS: KindEquations(current=lambda part, lay, drive: drive.sensed.scaled(part.value)),
-    OPAMP: KindEquations(ideal=_amplifier_error),
+    OPAMP: KindEquations(ideal=_amplifier_error, pole=_amplifier_pole),
 }
 
 
@@ -169,10 +208,31 @@ def layout(circuit: Circuit) -> Layout:
     """The state layout of ``circuit``."""
     nodes = tuple(n for n in circuit.nodes if n != circuit.ground)
     inductors = tuple(p.name for p in circuit.parts if EQUATIONS[p.kind].state)
+    poles = tuple(p.name for p in circuit.parts if has_pole(p))
     carriers = tuple(p.name for p in circuit.parts if is_carrier(p))
     node_index = {name: i for i, name in enumerate(nodes)}
-    part_index = {name: len(nodes) + i for i, name in enumerate(inductors + carriers)}
-    return Layout(nodes, inductors, carriers, node_index, part_index)
+    start = len(nodes) + len(inductors)
+    part_index = {name: len(nodes) + i for i, name in enumerate(inductors)}
+    part_index.update({name: start + len(poles) + i for i, name in enumerate(carriers)})
+    pole_index = {name: start + i for i, name in enumerate(poles)}
+    return Layout(nodes, inductors, carriers, node_index, part_index, poles, pole_index)
+
+
+def has_pole(part: Part) -> bool:
+    """True for a part with an internal voltage state (an op-amp with a ``gbw``)."""
+    eq = EQUATIONS[part.kind]
+    return eq.pole is not None and part.param(GBW) is not None
+
+
+def pole_rows(circuit: Circuit, lay: Layout) -> list[tuple[int, float, Affine]]:
+    """(state index, m, f) of every internal voltage state: m w' = f(y)."""
+    by_name = {p.name: p for p in circuit.parts}
+    out = []
+    for name in lay.poles:
+        part = by_name[name]
+        m, f = EQUATIONS[part.kind].pole(part, lay)
+        out.append((lay.pole_index[name], m, f))
+    return out
 
 
 @dataclass(frozen=True)

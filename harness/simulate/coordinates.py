@@ -31,7 +31,7 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from ..model import CAPACITOR, Circuit
-from .branches import Affine, Branches, Layout, flows
+from .branches import Affine, Branches, Layout, flows, pole_rows
 from .nodesets import find_root
 
 Path = dict[int, int]  # coordinate index -> integer multiplier
@@ -260,6 +260,9 @@ def assemble(circuit: Circuit, lay: Layout, br: Branches, parents: dict[int, int
             u = br.voltages[name] if br.voltages[name] is not None else Affine({r: -l_p / t_pulse})
             M.setdefault((r, r), []).append(l_p)
         stamp({r: 1}, u, -1.0)
+    for r, m, f in pole_rows(circuit, lay):  # an amplifier's internal voltage: m w' = f
+        M.setdefault((r, r), []).append(m)
+        stamp({r: 1}, f, -1.0)
     caps = [(p.p, p.n, p.value) for p in circuit.parts if p.kind == CAPACITOR]
     caps += [(node, circuit.ground, c) for node, c in parasitic.items() if c > 0]
     for p, q, c in caps:

@@ -59,17 +59,17 @@ def _source_max(circuit: Circuit, kind: str) -> float:
 
 def _scales(circuit: Circuit, lay, y0: np.ndarray) -> tuple[float, float]:
     """(V, A) scales of node voltages and inductor currents from sources, initials and 0-."""
-    nn = len(lay.nodes)
     res = [abs(p.value) for p in circuit.parts if p.kind == RESISTOR and p.value]
     v_src, i_src = _source_max(circuit, VOLTAGE_SOURCE), _source_max(circuit, CURRENT_SOURCE)
     v_init = max([abs(p.initial) for p in circuit.parts
                   if p.kind == CAPACITOR and p.initial is not None], default=0.0)
     i_init = max([abs(p.initial) for p in circuit.parts
                   if p.kind == INDUCTOR and p.initial is not None], default=0.0)
-    v = max(float(np.max(np.abs(y0[:nn]), initial=0.0)), v_src, v_init)
+    volts = lay.volts
+    v = max(float(np.max(np.abs(y0[volts]), initial=0.0)), v_src, v_init)
     if res:
         v = max(v, i_src * max(res))
-    i = max(float(np.max(np.abs(y0[nn:]), initial=0.0)), i_src, i_init)
+    i = max(float(np.max(np.abs(y0[~volts]), initial=0.0)), i_src, i_init)
     if res:
         i = max(i, v / max(res))
     v = v if v > 0 else 1.0
@@ -92,15 +92,13 @@ def _plausible(circuit: Circuit, lay, atol: np.ndarray, rtol: float, v_scale: fl
     far below what a small resistance carries: 0.503 A settles through 6.64 ohm beside
     686 kohm, 1e5 times a 4.9 uA scale.
     """
-    nn = len(lay.nodes)
     res = [abs(p.value) for p in circuit.parts if p.kind == RESISTOR and p.value]
     res += [abs(r) for p in circuit.parts if p.kind == SWITCH
             for r in (p.on_resistance, p.off_resistance) if r]
     i_src = _source_max(circuit, CURRENT_SOURCE)
     volts = max(v_scale, i_src * max(res, default=0.0)) * gain_factor(circuit)
     amps = max(i_scale, volts / min(res) + i_src if res else 0.0)
-    physical = np.full(lay.n, PLAUSIBLE * volts)
-    physical[nn:] = PLAUSIBLE * amps
+    physical = np.where(lay.volts, PLAUSIBLE * volts, PLAUSIBLE * amps)
     return np.maximum(1e9 * atol / rtol, physical)
 
 
@@ -125,7 +123,7 @@ def _warning(circuit: Circuit, lay, run, k: int, run_dyn: np.ndarray) -> Diagnos
         return None
     t = circuit.events[k]
     change = np.abs(run.y[:, -1] - run.y[:, 0]) / np.maximum(np.abs(run.y).max(axis=1), 1e-300)
-    names = lay.nodes + lay.inductors + lay.carriers
+    names = lay.names
     dyn = run_dyn
     index = int(dyn[int(np.argmax(change))]) if dyn.size else 0
     name = names[index] if len(names) else "?"
@@ -184,7 +182,7 @@ def _states_at_least(circuit: Circuit, lay) -> int:
     floating = sum(1 for root in roots if root != ground)
     touched = len(parent) - 1  # the nodes on capacitors, ground excluded
     inductors = sum(1 for p in circuit.parts if p.kind == INDUCTOR and p.value)
-    return inductors + len(lay.carriers) + max(touched - floating, 0)
+    return inductors + len(lay.poles) + len(lay.carriers) + max(touched - floating, 0)
 
 
 def _pulse_growth(circuit: Circuit, system, reg) -> float | None:
@@ -267,6 +265,7 @@ def _dynamic(circuit: Circuit, lay) -> np.ndarray:
             dynamic[[lay.node_index[x] for x in part.nodes if x in lay.node_index]] = True
         elif part.kind == INDUCTOR:
             dynamic[lay.part_index[part.name]] = True
+    dynamic[list(lay.pole_index.values())] = True
     return dynamic
 
 
@@ -352,9 +351,7 @@ def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
         pre, systems = _build_all(circuit, lay, reg)
     y0 = initial_state(circuit, lay, pre)
     v_scale, i_scale = _scales(circuit, lay, y0)
-    nn = len(lay.nodes)
-    atol = np.full(lay.n, rtol * ATOL_FRACTION * v_scale)
-    atol[nn:] = rtol * ATOL_FRACTION * i_scale
+    atol = np.where(lay.volts, rtol * ATOL_FRACTION * v_scale, rtol * ATOL_FRACTION * i_scale)
     atol = _carrier_floor(circuit, lay, [pre] + list(systems), atol, v_scale, reg.r_series)
     plausible = _plausible(circuit, lay, atol, rtol, v_scale, i_scale)
     runs, warnings = _march(circuit, lay, systems, y0, reg, rtol, atol, plausible)

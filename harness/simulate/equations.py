@@ -19,7 +19,8 @@ stamp in ``branches.EQUATIONS``):
 * inductor: its state current, plus a shunt (v_p - v_n)/r_shunt across it.
 
 KCL at each node, with the capacitance matrix M from the capacitors and c_node, gives the node
-rows; L di/dt = v_p - v_n the inductor rows; L_p di_p/dt = u the carrier rows.  This full form
+rows; L di/dt = v_p - v_n the inductor rows; m w' = f(y) the rows of the op-amps' internal
+voltages (``branches.KindEquations.pole``); L_p di_p/dt = u the carrier rows.  This full form
 gives the DC operating points.  The ODE itself is written in tree coordinates and the rows
 without capacitance are eliminated (coordinates.py), so that no artificial capacitance makes
 capacitor-less nodes stiff and no 1/r_s drowns a slow mode; a node that would float in some
@@ -41,7 +42,7 @@ import scipy.sparse.linalg as spla
 
 from ..model import CAPACITOR, Circuit
 from .branches import (Affine, Branches, Layout, Regulariser, branch_currents, difference,
-                       flows)
+                       flows, pole_rows)
 from .coordinates import SPARSE_ABOVE, Reducer, assemble, constants, forest
 from .regularise import Regularisation
 
@@ -119,6 +120,9 @@ def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation,
         r = lay.part_index[name]
         stamp_k(r, Affine(difference(lay, part.p, part.n)), -1.0)
         stamp_m(r, r, part.value)
+    for r, m, f in pole_rows(circuit, lay):  # an amplifier's internal voltage: m w' = f
+        stamp_k(r, f, -1.0)
+        stamp_m(r, r, m)
     l_p = reg.r_series * reg.t_pulse
     for name in lay.carriers:  # L_p di_p/dt = u, or i_p' = -i_p / t_pulse when open
         r = lay.part_index[name]

@@ -171,7 +171,7 @@ def _null_owner(circuit: Circuit, lay: Layout, A: sp.csc_matrix) -> Part | None:
         r /= np.sqrt(np.where(S.max(axis=1) > 0, S.max(axis=1), 1.0))
         c /= np.sqrt(np.where(S.max(axis=0) > 0, S.max(axis=0), 1.0))
     v = np.abs(np.linalg.svd(r[:, None] * A.toarray() * c[None, :])[2][-1] * c)
-    names = list(lay.nodes) + list(lay.inductors) + list(lay.carriers)
+    names = list(lay.names)
     involved = {names[i] for i in np.flatnonzero(v[:len(names)] > NULL_SHARE * v.max())}
     for part in circuit.parts:
         if part.kind in CONTROLLED:
@@ -259,7 +259,7 @@ def initial_state(circuit: Circuit, lay: Layout, pre: System) -> np.ndarray:
     x = _solve(A, rhs, circuit, lay)
     y = x[:lay.n]
     i_scale = max([abs(circuit.part(nm).initial or 0.0) for nm in lay.inductors]
-                  + [float(np.max(np.abs(y[len(lay.nodes):]), initial=0.0)),
+                  + [float(np.max(np.abs(y[~lay.volts]), initial=0.0)),
                      _resistive_current(circuit), 1e-30])
     _check_consistent(circuit, pre, y, i_scale)
     return y

@@ -65,9 +65,7 @@ class Modes:
 
 def state_scales(sol) -> np.ndarray:
     """a_j: the voltage scale for node states, the current scale for current states (n,)."""
-    a = np.full(sol.layout.n, sol.i_scale)
-    a[:len(sol.layout.nodes)] = sol.v_scale
-    return a
+    return np.where(sol.layout.volts, sol.v_scale, sol.i_scale)
 
 
 def decompose(sol, system) -> Modes | None:

@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 from typing import Mapping
 
 from .nodesets import find_root
-from ..model import (CAPACITOR, INDUCTIVE, INDUCTOR, KIND_SPECS, RESISTIVE, RESISTOR, SWITCH,
+from ..model import (CAPACITOR, GBW, INDUCTIVE, INDUCTOR, KIND_SPECS, RESISTIVE, RESISTOR, SWITCH,
                      VOLTAGE_TYPE, Circuit)
 
 #: default ratio of the regularising time constants to the fastest real one (and of r_s to R)
@@ -207,12 +207,23 @@ def _time_scales(circuit: Circuit, v: _Values) -> tuple[float, float]:
     if v.inductances and v.capacitances:
         fast.append(math.sqrt(min(v.inductances) * min(v.capacitances)) / (2 * math.pi))
         slow.append(2 * math.pi * math.sqrt(sum(v.inductances) * sum(v.capacitances)))
+    for omega in _amplifier_poles(circuit):    # a closed loop around a gain-bandwidth pole
+        fast.append(1.0 / omega)
+        slow.append(r_sum / min(v.resistances) / omega if v.resistances else 1.0 / omega)
     fast += list(v.gaps)
     t_fast = min([t for t in fast if math.isfinite(t) and t > 0], default=FALLBACK_TIME)
     t_slow = max(slow + [t_fast], default=FALLBACK_TIME)
     if v.gaps:
         t_slow = max(t_slow, max(v.gaps))
     return t_fast / v.gain_factor, t_slow * v.gain_factor
+
+
+def _amplifier_poles(circuit: Circuit) -> list[float]:
+    """ω_t = 2π·gbw (rad/s) of every op-amp with a gain-bandwidth product: its closed loop
+    settles no faster than about 1/ω_t (a follower: exactly) and no slower than the noise
+    gain, at most the resistance spread R_sum/R_min, times 1/ω_t."""
+    return [2.0 * math.pi * p.param(GBW) for p in circuit.parts
+            if KIND_SPECS[p.kind].units.get(GBW) and p.param(GBW) is not None]
 
 
 def _conducts(part, time: float, before: bool) -> bool:
