@@ -14,181 +14,21 @@ leaves the previous set whole, and links are never followed).  The HTML holds th
 inline; the Markdown links the SVG files.  ``with_plots=False`` (the command line's
 ``--no-plots``) writes every report without them.  Failures to write raise ``ReportError`` (an
 ``OSError``).
+
+The writing itself lives in ``writeall``; this module forwards its names on first use (PEP 562
+module ``__getattr__``), so that importing one writer (``harness.report.console``, ``jsonout``)
+does not load the others.
 """
 
 from __future__ import annotations
 
-import re
-import signal
-import warnings
-from pathlib import Path
-
-from typing import Mapping
-
-from ..outcome import RunResult
-from ..progress import Progress
-from . import csvout, html, jsonout, junit, markdown, plots, spreads
-from .plot_schedule import SCHEDULE, plot_schedule
-from .atomic import ReportError, ensure_dir, safe_name
-from .context import ReportContext
-from .reportset import publish
-
-__all__ = ["REPORT_FILES", "WRITERS", "ReportError", "render_plots", "write_all"]
-
-#: the report-file writers, in the order ``write_all`` returns their files
-WRITERS = (html, markdown, csvout, jsonout, junit)
-#: the report files, one per writer
-REPORT_FILES = tuple(writer.FILE for writer in WRITERS)
-PLOT_DIR = "plots"
-#: the plot files' suffix
-PLOT_SUFFIX = ".svg"
-#: names this package gives plot files (and gave them as PNG); older ones matching it are
-#: removed from plots/
-_PLOT_NAME = re.compile(r"^\d{3,}-[A-Za-z0-9_-]+-(c\d+|schedule|s\d+)\.(svg|png)$")
+__all__ = ["PLOT_DIR", "PLOT_SUFFIX", "REPORT_FILES", "WRITERS", "ReportError", "plot_name",
+           "render_plots", "write_all"]
 
 
-def _plot_one(item):
-    """(key, check or file, file name) -> (key, SVG text or None, warning text or None)."""
-    key, what, file = item
-    try:
-        if key[1] == SCHEDULE:
-            return key, plot_schedule(what), None
-        return key, plots.plot_check(what), None
-    except Exception as exc:  # a bad trace must not cost the whole report
-        name = "the schedule" if key[1] == SCHEDULE else f"check #{what.index + 1}"
-        return key, None, f"{file}: no plot for {name}: {exc}"
-
-
-#: fewer plots than this are drawn in this process even when jobs > 1
-PARALLEL_PLOTS = 16
-
-
-def render_plots(run: RunResult, jobs: int = 1,
-                 progress: Progress | None = None) -> dict[tuple[int, int], str]:
-    """(file index, check index) -> SVG text for every check that carries a trace, and
-    (file index, ``SCHEDULE``) -> the file's whole-schedule plot.
-
-    With ``jobs`` > 1 and many plots they are drawn in worker processes; the result is the
-    same.  ``progress`` is stepped per plot.
-    """
-    items = []
-    for i, file in enumerate(run.files):
-        items.append(((i, SCHEDULE), file, file.file))
-        items += [((i, check.index), check, file.file) for check in file.checks]
-    progress = progress or Progress(False)
-    progress.add(len(items), "plots")
-    if jobs > 1 and len(items) >= PARALLEL_PLOTS:
-        from ..pool import usable_jobs
-        jobs = usable_jobs(jobs)
-    if jobs > 1 and len(items) >= PARALLEL_PLOTS:
-        drawn = [_stepped(d, progress) for d in _draw_in_workers(items, jobs)]
-    else:
-        drawn = [_stepped(_plot_one(item), progress) for item in items]
-    out = {}
-    for key, chart, problem in drawn:
-        if problem:
-            warnings.warn(problem, RuntimeWarning, stacklevel=2)
-        elif chart is not None:
-            out[key] = chart
-    return out
-
-
-def _stepped(drawn, progress: Progress):
-    progress.step()
-    return drawn
-
-
-def _draw_in_workers(items: list, jobs: int) -> list:
-    """``_plot_one`` of every item in ``jobs`` worker processes (``harness.pool``: killed with
-    the run on SIGINT or SIGTERM, and dying with it); a lost worker costs its plot only.
-
-    Raises:
-        KeyboardInterrupt, pool.Interrupted: the run was stopped (every worker is gone).
-    """
-    from ..pool import RunInterrupted, run_tasks
-
-    def lost(i: int, how: str = "timed out"):
-        key, what, file = items[i]
-        return key, None, f"{file}: no plot: the worker drawing it {how}"
-
-    try:
-        done = run_tasks([(item,) for item in items], _plot_one, jobs=jobs, timeout=None,
-                         on_timeout=lost, on_death=lost)
-    except RunInterrupted as stop:
-        if stop.signum == signal.SIGINT:
-            raise KeyboardInterrupt from None
-        from ..pool import Interrupted
-        raise Interrupted(stop.signum) from None
-    return [done[i] for i in range(len(items))]
-
-
-def _spec_histograms(run: RunResult, with_plots: bool) -> dict:
-    """(file index, field index) -> each spec'd field's histogram SVG, and with
-    ``spreads.SENSITIVITY`` appended its sensitivity chart (``report.spreads``)."""
-    if not with_plots:
-        return {}
-    drawn = {(i, j): spreads.histogram(s) for i, f in enumerate(run.files)
-             for j, s in enumerate(f.spreads)}
-    drawn.update({(i, j, spreads.SENSITIVITY): spreads.sensitivity_chart(s)
-                  for i, f in enumerate(run.files) for j, s in enumerate(f.spreads)})
-    return {key: chart for key, chart in drawn.items() if chart}
-
-
-def _with_spreads(run: RunResult, files: dict, charts: dict, names: dict, histograms: dict):
-    """Add the spec samples' CSV and each spec'd field's histogram and sensitivity chart to
-    the set."""
-    if not any(f.spreads for f in run.files):
-        return charts, names
-    files[spreads.SAMPLES_CSV] = spreads.samples_csv(run).encode("utf-8")
-    charts, names = dict(charts), dict(names)
-    for key, chart in histograms.items():
-        charts[("spec",) + key] = chart
-        names[("spec",) + key] = _spec_plot_name(*key)
-    return charts, names
-
-
-def _spec_plot_name(i: int, j: int, kind: str = "") -> str:
-    """``003-spec-s2.svg`` (histogram), ``003-spec-sensitivity-s2.svg`` (chart)."""
-    return f"{i + 1:03d}-spec{'-' + kind if kind else ''}-s{j + 1}{PLOT_SUFFIX}"
-
-
-def plot_name(run: RunResult, key: tuple[int, int | str]) -> str:
-    """The plot's file name: ``003-logger-board-reset-c2.svg``, ``003-logger-board-reset-
-    schedule.svg`` (sanitised, inside the folder)."""
-    i, index = key
-    file = run.files[i]
-    stem = safe_name(file.title or Path(file.file).stem)
-    return f"{i + 1:03d}-{stem}-{SCHEDULE if index == SCHEDULE else f'c{index + 1}'}{PLOT_SUFFIX}"
-
-
-def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
-              jobs: int = 1, progress: Progress | None = None,
-              provenance: Mapping | None = None) -> list[Path]:
-    """Write the report files (``REPORT_FILES``, one per writer of ``WRITERS``) and the plot
-    SVGs into ``report_dir``.
-
-    Returns the paths written: the report files in ``REPORT_FILES`` order, then the plots.
-    The folder is created if missing.  Everything is rendered first, then ``publish`` puts the
-    whole set in place at once: a serializer's exception, a full disk, a report name that is a
-    folder or a link, or a signal leave the previous set as it was; plot files an earlier run
-    left in ``plots/`` under this package's naming pattern go with it.
-    ``with_plots=False`` skips the plots (every report is still written).  ``progress`` is
-    stepped per plot; ``provenance`` (``report.provenance.collect``) heads the HTML and Markdown reports.
-
-    Raises:
-        ReportError: the folder cannot be created or written, or the set cannot be put in place.
-    """
-    folder = ensure_dir(Path(report_dir))
-    charts = render_plots(run, jobs, progress) if with_plots else {}
-    names = {key: plot_name(run, key) for key in charts}
-    links = {key: f"{PLOT_DIR}/{name}" for key, name in names.items()}
-    # every serializer runs before any file is touched: if one raises, the old report stays whole
-    histograms = _spec_histograms(run, with_plots)
-    spec_links = {(run.files[key[0]].file,) + key[1:]: f"{PLOT_DIR}/{_spec_plot_name(*key)}"
-                  for key in histograms}
-    context = ReportContext(charts, links, provenance or {}, histograms,
-                            spec_links if with_plots else {})
-    files = {writer.FILE: writer.write(run, context).encode("utf-8") for writer in WRITERS}
-    charts, names = _with_spreads(run, files, charts, names, histograms)
-    return publish(folder, files, {names[key]: chart.encode("utf-8")
-                                   for key, chart in charts.items()}, PLOT_DIR, _PLOT_NAME)
+def __getattr__(name: str):
+    """The names of ``writeall``, imported when first asked for."""
+    if name in __all__:
+        from . import writeall
+        return getattr(writeall, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
