@@ -127,9 +127,9 @@ def _panel(p: Panel, frame, y_ticks) -> str:
            f'<path d="{marks}" stroke="{_FRAME}" stroke-width="1"/>']
     if p.x_tick_labels:
         base = bottom + TICK + GAP + TICK_FONT * 0.8
-        out.append(f'<g text-anchor="middle">' + "".join(
+        out.append('<g text-anchor="middle">' + "".join(
             f'<text x="{x:.1f}" y="{base:.1f}">{s}</text>' for x, s in zip(xs, xl)) + "</g>")
-    out.append(f'<g text-anchor="end">' + "".join(
+    out.append('<g text-anchor="end">' + "".join(
         f'<text x="{left - TICK - GAP:.1f}" y="{y + TICK_FONT * 0.35:.1f}">{s}</text>'
         for y, s in zip(ys, yl)) + "</g>")
     out += _axis_labels(p, frame)
