@@ -47,10 +47,6 @@ from .runner import (RunInterrupted, RunOptions, _bar, _check_task, _done, _erro
 CONNECT_TIMEOUT = 5.0
 #: times a file may kill its worker on a ``local:N`` cluster before it becomes an error
 LOCAL_ALLOWED_FAILURES = 2
-#: scheduler settings of a ``local:N`` cluster: the death bound, and no file queued on a worker
-#: beside the one it runs (a dying worker counts against every file it holds)
-_LOCAL_SCHEDULER = {"distributed.scheduler.allowed-failures": LOCAL_ALLOWED_FAILURES,
-                    "distributed.scheduler.worker-saturation": 1.0}
 #: how often (s) the client looks for finished futures and expired deadlines
 _POLL = 0.02
 #: prefix of the address that asks for a cluster started for the run
@@ -85,15 +81,17 @@ def run(paths: Iterable[str], options: RunOptions, address: str,
         work: Callable = _check_task) -> RunResult:
     """Check every file under ``paths`` on the cluster at ``address``; results in the order the
     files were collected (as ``runner.run``).  ``work(path, numeric, tolerance)`` is what each
-    task runs (``runner.check_file`` through ``_check_task``).
+    task runs (``runner.check_file`` through ``_check_task``).  The files are read and planned
+    here while the cluster starts (``_connect`` starts it on a thread of its own).
 
     Raises:
         ClusterUnreachable: no scheduler answered at ``address``.
         RunInterrupted: SIGINT or SIGTERM stopped the run; ``partial`` holds what finished.
     """
     files, missing = collect(paths)
-    with _quiet_logs(), _connect(address, options.numeric) as client:
-        results = _gather(client, files, options, missing, work)
+    with _quiet_logs(), _connect(address, options.numeric) as started:
+        plans = [_plan(f, options.tolerance, options.numeric) for f in files]
+        results = _gather(started(), files, options, missing, work, plans)
     return RunResult(files=tuple(missing) + tuple(results))
 
 
@@ -110,66 +108,99 @@ def _quiet_logs():
         logger.setLevel(level)
 
 
+def _local_settings() -> dict:
+    """Dask settings of a ``local:N`` cluster, held while it runs (a worker restarted later
+    starts the same way): the death bound; no file queued on a worker beside the one it runs (a
+    dying worker counts against every file it holds); worker processes forked from this one
+    where the platform can fork (they start with the engines this process imported, in ~0.1 s
+    where a spawned one starts a new interpreter and imports everything again: measured
+    ``tests/benchmarks/cluster_bench.py``)."""
+    import multiprocessing as mp
+    method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
+    return {"distributed.scheduler.allowed-failures": LOCAL_ALLOWED_FAILURES,
+            "distributed.scheduler.worker-saturation": 1.0,
+            "distributed.worker.multiprocessing-method": method}
+
+
 @contextlib.contextmanager
 def _connect(address: str, numeric: bool):
-    """A client of the scheduler at ``address``, or of a ``local:N`` cluster started here."""
+    """Yields ``started()``, which returns a client of the scheduler at ``address`` (or of a
+    ``local:N`` cluster started here) once it is connected: the connection is made on a thread
+    of its own, so the caller reads and plans the files meanwhile.  Closes both at the end.
+
+    For ``local:N`` the engines are imported here first (``runner._preload``, and the Monte
+    Carlo planning's modules), so forked workers have them, and nothing is being imported
+    here while a worker is forked."""
     import dask
+    from concurrent.futures import ThreadPoolExecutor
+
+    local = address.startswith(LOCAL)
+    settings = dask.config.set(_local_settings() if local else {})
+    with settings, ThreadPoolExecutor(1, thread_name_prefix="tauproof-connect") as starter:
+        if local:
+            _preload(numeric)
+            from .variation import shard  # noqa: F401  (planning, below, while workers fork)
+        start = starter.submit(_start, address)
+        try:
+            yield lambda: start.result()[0]
+        finally:
+            with contextlib.suppress(ClusterUnreachable):
+                _close(*start.result())
+
+
+def _start(address: str):
+    """(client, cluster or None): a client of ``address``, with the ``local:N`` cluster it
+    names started first (its workers run ``dask_setup`` of this module as they start)."""
     from distributed import Client, LocalCluster
 
     cluster = None
     try:
         if address.startswith(LOCAL):
-            with dask.config.set(_LOCAL_SCHEDULER):
-                cluster = LocalCluster(n_workers=int(address[len(LOCAL):]),
-                                       threads_per_worker=1, processes=True,
-                                       dashboard_address=None, silence_logs=logging.CRITICAL)
-            client = Client(cluster, timeout=CONNECT_TIMEOUT)
-        else:
-            client = Client(address, timeout=CONNECT_TIMEOUT)
+            cluster = LocalCluster(n_workers=int(address[len(LOCAL):]), threads_per_worker=1,
+                                   processes=True, dashboard_address=None,
+                                   silence_logs=logging.CRITICAL, preload=[__name__])
+            return Client(cluster, timeout=CONNECT_TIMEOUT), cluster
+        return Client(address, timeout=CONNECT_TIMEOUT), None
     except (OSError, TimeoutError) as err:
         if cluster is not None:
             cluster.close()
         raise ClusterUnreachable(address, str(err) or type(err).__name__) from None
-    try:
-        if cluster is not None:
-            _workers_ignore_interrupts(client)
-        client.run(_preload, numeric)  # every worker imports the engines once, before the files
-        yield client
-    finally:
-        client.close()
-        if cluster is not None:
-            cluster.close()
 
 
-def _local_worker_setup(worker=None) -> None:
-    """In a worker process of a ``local:N`` cluster: SIGINT is ignored (Ctrl-C at a terminal
-    reaches the whole process group, local workers included; the client decides: it cancels and
-    stops the cluster), and the process dies with its parent, the client (``pool.die_with_parent``):
-    a worker busy in a task could outlive an interrupted client, holding its output pipes."""
+def _close(client, cluster) -> None:
+    """The client, then the ``local:N`` cluster it started (nothing runs on it any more: the
+    results are in hand)."""
+    client.close()
+    if cluster is not None:
+        cluster.close()
+
+
+def dask_setup(worker=None) -> None:
+    """Run by Dask in every worker process of a ``local:N`` cluster as it starts (the
+    cluster's worker preload, restarted workers too): SIGINT is ignored (Ctrl-C at a terminal
+    reaches the whole process group, local workers included; the client decides: it cancels
+    and stops the cluster) and SIGTERM takes its default action (a forked worker inherits the
+    command line's handler); the process dies with its parent, the client
+    (``pool.die_with_parent``): a worker busy in a task could outlive an interrupted client,
+    holding its output pipes.  A worker started by spawning (no fork on this platform) imports
+    the engines here, before its first file."""
     import os
     import signal
     from .pool import die_with_parent
     with contextlib.suppress(ValueError):  # not the main thread: nothing to do
         signal.signal(signal.SIGINT, signal.SIG_IGN)
+        signal.signal(signal.SIGTERM, signal.SIG_DFL)
     die_with_parent(os.getppid())
-
-
-def _workers_ignore_interrupts(client) -> None:
-    """Every worker of a ``local:N`` cluster is set up by ``_local_worker_setup``, also one
-    restarted later (a worker plugin is run on each worker as it joins)."""
-    from distributed import WorkerPlugin
-
-    class LocalWorker(WorkerPlugin):
-        def setup(self, worker) -> None:
-            _local_worker_setup(worker)
-
-    client.register_plugin(LocalWorker(), name="tauproof-local-worker")
+    _preload(True)
 
 
 def _gather(client, files: list[str], options: RunOptions, missing: list[FileResult],
-            work: Callable) -> list[FileResult]:
-    """Submit the files, collect their results as they finish (progress, deadlines)."""
-    run = _Run(client, files, options, work)
+            work: Callable, plans: list[dict] | None = None) -> list[FileResult]:
+    """Submit the files, collect their results as they finish (progress, deadlines).
+    ``plans``: each file's Monte Carlo pieces (``_plan``; read here when not given)."""
+    if plans is None:
+        plans = [_plan(f, options.tolerance, options.numeric) for f in files]
+    run = _Run(client, files, options, work, plans)
     try:
         while len(run.done) < len(files):
             run.hand_out()
@@ -200,7 +231,8 @@ class _Task:
 class _Run:
     """The state of one run on the cluster: files waiting, files running, results."""
 
-    def __init__(self, client, files: list[str], options: RunOptions, work: Callable) -> None:
+    def __init__(self, client, files: list[str], options: RunOptions, work: Callable,
+                 plans: list[dict]) -> None:
         from distributed import as_completed
         self.client, self.files, self.options, self.work = client, files, options, work
         self.bar = _bar(files, options)
@@ -209,9 +241,10 @@ class _Run:
         self.window = max(1, sum(client.nthreads().values())) if self.limit else None
         self.done: dict[int, FileResult] = {}
         self.running: dict = {}              # the file's future -> _Task
-        self.pending = list(range(len(files)))
-        self.plans: dict[int, dict] = {}
-        self.finished = as_completed()
+        self.plans = plans
+        self.pending = _heaviest_first(files, plans)
+        # results are fetched by the client's event loop as the files finish
+        self.finished = as_completed(with_results=True, raise_errors=False)
 
     def hand_out(self) -> None:
         """Submit waiting files while the window allows (a file counts its pieces too; one
@@ -219,8 +252,8 @@ class _Run:
         load = sum(1 + len(t.pieces) for t in self.running.values())
         while self.pending:
             i = self.pending[0]
-            plan = self.plans.setdefault(i, _plan(self.files[i], self.options.tolerance))
-            cost = 1 + sum(len(ranges) for ranges in plan.values())
+            plan = self.plans[i]
+            cost = 1 + sum(split.tasks for split in plan.values())
             if self.window is not None and self.running and load + cost > self.window:
                 return
             self.pending.pop(0)
@@ -231,27 +264,26 @@ class _Run:
             load += cost
 
     def _submit(self, path: str, plan: dict):
-        """The file's task, after the tasks of its Monte Carlo pieces when it has some (both
-        ahead of plain files, so a heavy file starts early)."""
+        """The file's task; when it has a plan, after the tasks of its parts (``_parts``), all
+        ahead of plain files so a heavy file starts early.  (future, its parts' futures)."""
         opts = self.options
         if not plan:
             return self.client.submit(self.work, path, opts.numeric, opts.tolerance,
                                       pure=False), []
-        given = {index: [self.client.submit(_piece, path, opts.tolerance, index, a, b,
-                                            pure=False, priority=1) for a, b in ranges]
-                 for index, ranges in plan.items()}
+        given, values, parts = _parts(self.client, path, opts.tolerance, plan)
         future = self.client.submit(_joined, self.work, path, opts.numeric, opts.tolerance,
-                                    given, pure=False, priority=1)
-        return future, [f for futures in given.values() for f in futures]
+                                    given, values, pure=False, priority=1)
+        return future, parts
 
     def collect(self) -> bool:
         """Record the files that finished; False when none had."""
         batch = self.finished.next_batch(block=False)
-        for future in batch:
+        for future, result in batch:
             task = self.running.pop(future, None)
             if task is None:          # cancelled on its deadline, already recorded
                 continue
-            self.done[task.index] = _outcome(future, self.files[task.index])
+            self.done[task.index] = result if future.status == "finished" else \
+                _outcome(future, self.files[task.index])
             self.bar.step()
         return bool(batch)
 
@@ -286,18 +318,68 @@ class _Run:
                 self.client.restart_workers(stuck, raise_for_error=False)
 
 
-def _plan(path: str, tolerance: float | None) -> dict:
-    """The file's Monte Carlo pieces (``variation.shard.plan``), read here on the client; none
-    for a file without spec limits, or one that cannot be read here (its task says why)."""
+def _heaviest_first(files: list[str], plans: list[dict]) -> list[int]:
+    """The files' indices in the order they are handed out: those with Monte Carlo pieces
+    first, then by size in bytes, largest first (a rough measure of the work: the heavy files
+    start early and the run does not end on one of them), collection order among equals."""
+    import os
+
+    def size(i: int) -> int:
+        with contextlib.suppress(OSError):
+            return os.path.getsize(files[i])
+        return 0
+
+    return sorted(range(len(files)),
+                  key=lambda i: (-sum(split.tasks for split in plans[i].values()), -size(i)))
+
+
+@dataclass(frozen=True)
+class _Split:
+    """How one expectation's spread analysis is spread: its Monte Carlo pieces' sample ranges
+    and the number of extreme corners the numerical engine is run at apart."""
+
+    ranges: list
+    corners: int
+
+    @property
+    def tasks(self) -> int:
+        """Its tasks: a piece each, and the corner search and a task per corner."""
+        return len(self.ranges) + (1 + self.corners if self.corners else 0)
+
+
+def _plan(path: str, tolerance: float | None, numeric: bool) -> dict:
+    """Expectation index -> ``_Split``, read here on the client: the expectations whose Monte
+    Carlo spans more than one piece (``variation.shard.plan``), with their corners
+    (``shard.corner_count``) when the numerical engine runs; none for a file without spec
+    limits, or one that cannot be read here (its task says why)."""
     try:
         with open(path, "rb") as handle:
             if b"spec" not in handle.read():
                 return {}
         from .circuitfile import read_circuit
         from .variation import shard
-        return shard.plan(read_circuit(path, tolerance))
+        circuit = read_circuit(path, tolerance)
+        return {index: _Split(ranges, shard.corner_count(circuit, index) if numeric else 0)
+                for index, ranges in shard.plan(circuit).items()}
     except Exception:  # planning only spreads the work; the file's own task reports faults
         return {}
+
+
+def _parts(client, path: str, tolerance: float | None, plan: dict):
+    """Submit the parts of a file's spread analysis: per expectation, the search of its
+    corners from the box alone (first), its Monte Carlo pieces, then the numerical engine at
+    each corner (``variation.shard``).  Returns (index -> the pieces' futures, index -> the
+    corner values' futures, every part's future)."""
+    given, values, parts = {}, {}, []
+    for index, split in plan.items():
+        found = client.submit(_corners, path, tolerance, index, pure=False, priority=2) \
+            if split.corners else None
+        given[index] = [client.submit(_piece, path, tolerance, index, a, b, pure=False,
+                                      priority=1) for a, b in split.ranges]
+        values[index] = [client.submit(_corner_value, path, tolerance, index, found, k,
+                                       pure=False, priority=1) for k in range(split.corners)]
+        parts += ([found] if found is not None else []) + given[index] + values[index]
+    return given, values, parts
 
 
 def _piece(path: str, tolerance: float | None, index: int, start: int, stop: int):
@@ -310,12 +392,42 @@ def _piece(path: str, tolerance: float | None, index: int, start: int, stop: int
         return shard.summary(circuit, index, start, stop)
 
 
-def _joined(work: Callable, path: str, numeric: bool, tolerance: float | None, given: dict):
-    """A worker's task: the file's analysis with its Monte Carlo taken from its pieces
-    (``given``: expectation index -> the pieces' summaries in order, Dask having put each
-    piece's result in place of its future)."""
+def _corners(path: str, tolerance: float | None, index: int) -> list:
+    """A worker's task: where the extreme search of expectation ``index`` ends from the box
+    alone (``variation.shard.corners``); none when that fails (the values are only taken
+    where the file's own analysis ends on the same corners)."""
+    from .circuitfile import read_circuit
     from .variation import shard
-    samples = {index: shard.merged(list(parts)) for index, parts in given.items()}
+    try:
+        with native_output_silenced():
+            return shard.corners(read_circuit(path, tolerance), index)
+    except Exception:
+        return []
+
+
+def _corner_value(path: str, tolerance: float | None, index: int, found: list, k: int):
+    """A worker's task: the numerical engine at corner ``k`` of ``found`` (``_corners``'s
+    result, put in place of its future by Dask): ``shard.corner_value``, or None."""
+    from .circuitfile import read_circuit
+    from .variation import shard
+    if k >= len(found):
+        return None
+    try:
+        with native_output_silenced():
+            return shard.corner_value(read_circuit(path, tolerance), index, *found[k])
+    except Exception:
+        return None
+
+
+def _joined(work: Callable, path: str, numeric: bool, tolerance: float | None, given: dict,
+            values: dict):
+    """A worker's task: the file's analysis with its Monte Carlo taken from its pieces and the
+    numerical engine's corner values from their tasks (``given`` / ``values``: expectation
+    index -> the parts' results in order, Dask having put each result in place of its
+    future)."""
+    from .variation import shard
+    samples = {index: shard.evaluated(given.get(index), values.get(index, ()))
+               for index in given}
     return work(path, numeric, tolerance, samples=samples)
 
 

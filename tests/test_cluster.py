@@ -100,7 +100,8 @@ def test_a_worker_dying_on_a_piece_costs_the_file_nothing(tmp_path, monkeypatch,
     result = cluster.run([str(tmp_path)], RunOptions(), "local:2")
     tried = sorted(p.name.split("-")[0] for p in marks.iterdir())
     assert tried.count("262144") == cluster.LOCAL_ALLOWED_FAILURES + 1, tried
-    assert "0" in tried and "524288" in tried
+    assert "0" in tried     # the first piece starts beside it (the last may be dropped
+    #                          once the file's own task has failed: the file runs again whole)
     assert _without_timings(document(result)) == _without_timings(one)
 
 
