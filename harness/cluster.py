@@ -131,8 +131,10 @@ def _connect(address: str, numeric: bool):
     For ``local:N`` the engines are imported here first (``runner._preload``, and the Monte
     Carlo planning's modules), so forked workers have them, and nothing is being imported
     here while a worker is forked."""
-    import dask
     from concurrent.futures import ThreadPoolExecutor
+
+    import dask
+    import distributed  # noqa: F401  (its settings' defaults, before ours are set over them)
 
     local = address.startswith(LOCAL)
     settings = dask.config.set(_local_settings() if local else {})
@@ -140,7 +142,7 @@ def _connect(address: str, numeric: bool):
         if local:
             _preload(numeric)
             from .variation import shard  # noqa: F401  (planning, below, while workers fork)
-        start = starter.submit(_start, address)
+        start = starter.submit(_start, address, numeric)
         try:
             yield lambda: start.result()[0]
         finally:
@@ -148,9 +150,11 @@ def _connect(address: str, numeric: bool):
                 _close(*start.result())
 
 
-def _start(address: str):
+def _start(address: str, numeric: bool):
     """(client, cluster or None): a client of ``address``, with the ``local:N`` cluster it
-    names started first (its workers run ``dask_setup`` of this module as they start)."""
+    names started first (its workers run ``dask_setup`` of this module as they start); the
+    workers of a scheduler started elsewhere import the engines now, before their first file
+    (whose time limit would otherwise include the imports)."""
     from distributed import Client, LocalCluster
 
     cluster = None
@@ -160,11 +164,13 @@ def _start(address: str):
                                    processes=True, dashboard_address=None,
                                    silence_logs=logging.CRITICAL, preload=[__name__])
             return Client(cluster, timeout=CONNECT_TIMEOUT), cluster
-        return Client(address, timeout=CONNECT_TIMEOUT), None
+        client = Client(address, timeout=CONNECT_TIMEOUT)
     except (OSError, TimeoutError) as err:
         if cluster is not None:
             cluster.close()
         raise ClusterUnreachable(address, str(err) or type(err).__name__) from None
+    client.run(_preload, numeric)
+    return client, None
 
 
 def _close(client, cluster) -> None:
@@ -191,7 +197,24 @@ def dask_setup(worker=None) -> None:
         signal.signal(signal.SIGINT, signal.SIG_IGN)
         signal.signal(signal.SIGTERM, signal.SIG_DFL)
     die_with_parent(os.getppid())
-    _preload(True)
+    import dask
+    if dask.config.get("distributed.worker.multiprocessing-method") == "fork":
+        _fresh_offload_thread()
+    else:
+        _preload(True)
+
+
+def _fresh_offload_thread() -> None:
+    """A forked worker inherits the client's pool of one thread on which Dask (de)serialises
+    messages over ``distributed.comm.offload`` (10 MiB) without that thread (a fork copies only
+    the thread that forks): once the client had received a large result, a worker forked after
+    it hung on its first large transfer, the pool believing its thread alive.  A new pool
+    (Dask's module attribute, the one thread it names ``Dask-Offload``)."""
+    from concurrent.futures import ThreadPoolExecutor
+    from distributed import utils
+    if isinstance(getattr(utils, "_offload_executor", None), ThreadPoolExecutor):
+        utils._offload_executor = ThreadPoolExecutor(max_workers=1,
+                                                     thread_name_prefix="Dask-Offload")
 
 
 def _gather(client, files: list[str], options: RunOptions, missing: list[FileResult],

@@ -105,6 +105,33 @@ def test_a_worker_dying_on_a_piece_costs_the_file_nothing(tmp_path, monkeypatch,
     assert _without_timings(document(result)) == _without_timings(one)
 
 
+#: values of 16 MB: over Dask's ``distributed.comm.offload`` threshold (10 MiB), so Dask
+#: (de)serialises them on its offload thread
+LARGE = 2_000_000
+
+
+def _large(count: int):
+    import numpy as np
+    return np.ones(count)
+
+
+def _total(values) -> float:
+    return float(values.sum())
+
+
+def test_workers_forked_after_a_large_result_still_move_large_values():
+    """Local workers are forked from the client: one forked after the client had received a
+    large value (its offload thread running) must not inherit a pool without its thread."""
+    with cluster._connect("local:2", True) as started:
+        client = started()
+        assert client.submit(_large, LARGE, pure=False).result().size == LARGE
+        client.restart_workers(list(client.nthreads()))
+        first, second = sorted(client.nthreads())
+        made = client.submit(_large, LARGE, workers=[first], pure=False)
+        total = client.submit(_total, made, workers=[second], pure=False)
+        assert total.result(timeout=60) == LARGE
+
+
 def _few_files(tmp_path: Path, odd: str) -> list[str]:
     """Three library files and a copy of the first named ``odd``, in collection order."""
     chosen = sorted(LIBRARY.rglob("*.toml"))[:3]
