@@ -8,10 +8,18 @@ the workers read the file themselves, so the file must be reachable at the same 
 worker (a relative path is read from the worker's working folder).
 
 A file whose Monte Carlo spans more than one piece (``variation.shard.plan``, read on the
-client) also gets a task per piece (``_piece``: samples [start, stop) of one expectation); its
-own task waits for them and is handed their streamed summaries (``_joined``), so one heavy file
-spreads over the workers.  The samples do not depend on the split and a local run merges the
-same pieces in the same order (``variation.sampling``): the result is the bytes of a local run.
+client) also gets a task per piece (``_piece``: samples [start, stop) of one expectation), and,
+when the numerical engine runs, a task searching its extreme corners from the box alone
+(``_corners``) and one per corner running the engine there (``_corner_value``); its own task
+waits for them and is handed the pieces' streamed summaries and the corners' values
+(``_joined``), so one heavy file spreads over the workers.  The samples do not depend on the
+split, a local run merges the same pieces in the same order (``variation.sampling``), and a
+corner's value is taken only where the file's own search ends on that corner
+(``variation.shard``): the result is the bytes of a local run.
+
+Files are handed out heaviest first (``_heaviest_first``).  A ``local:N`` cluster's workers are
+forked from this process once it has imported the engines (``_local_settings``), and the
+cluster starts on a thread while the files are read and planned (``_connect``).
 
 Faults, as in a local run:
 
@@ -21,8 +29,8 @@ Faults, as in a local run:
   fails again it is an ``error`` naming the cause; the other files go on;
 * ``timeout``: tasks are handed out no faster than the cluster has threads (a file with pieces
   counts each), so a file's clock starts when it is handed out; a file over the limit is
-  cancelled with its pieces (a worker running one restarted when it has one thread) and becomes
-  "timed out after N s";
+  cancelled with its parts (a worker running one replaced when it has one thread:
+  ``_stop_workers``) and becomes "timed out after N s";
 * SIGINT (``KeyboardInterrupt``) or SIGTERM (``pool.Interrupted``): every future is cancelled and
   ``runner.RunInterrupted`` carries the results that finished;
 * a scheduler that does not answer within ``CONNECT_TIMEOUT`` s: ``ClusterUnreachable``.
@@ -160,8 +168,11 @@ def _start(address: str, numeric: bool):
     cluster = None
     try:
         if address.startswith(LOCAL):
+            # no dashboard; the scheduler's own HTTP server (health, metrics) on a free port,
+            # not Dask's 8787, which another cluster may hold (Dask then warns)
             cluster = LocalCluster(n_workers=int(address[len(LOCAL):]), threads_per_worker=1,
                                    processes=True, dashboard_address=None,
+                                   scheduler_kwargs={"dashboard_address": ":0"},
                                    silence_logs=logging.CRITICAL, preload=[__name__])
             return Client(cluster, timeout=CONNECT_TIMEOUT), cluster
         client = Client(address, timeout=CONNECT_TIMEOUT)
@@ -343,20 +354,34 @@ class _Run:
 
 def _stop_workers(client, workers: list[str]) -> None:
     """Replace these workers, each stuck in a task that was cancelled.  A worker of a
-    ``local:N`` cluster (a process of this machine) is killed at once and its nanny starts a
+    ``local:N`` cluster (a child process of this one) is killed at once and its nanny starts a
     new one, as after any death (~0.1 s); Dask's restart would first wait for the busy worker
-    to close, seconds in which this client collects nothing.  A remote worker is restarted
-    through its scheduler."""
+    to close, seconds in which this client collects nothing.  Its process id is asked of the
+    worker itself (its event loop answers while a task holds its thread: a nanny's record can
+    name a newer worker than the one the scheduler gave the task).  A remote worker is
+    restarted through its scheduler."""
     import os
     import signal
-    local = getattr(client, "cluster", None)
-    if local is None:
+    if getattr(client, "cluster", None) is None:
         client.restart_workers(workers, raise_for_error=False)
         return
-    for nanny in list(local.workers.values()):   # the nanny of each worker, and its process
-        if nanny.worker_address in workers and nanny.pid:
+    for pid in client.run(os.getpid, workers=workers, on_error="ignore").values():
+        if isinstance(pid, int) and _parent_of(pid) == os.getpid():
             with contextlib.suppress(ProcessLookupError):
-                os.kill(nanny.pid, signal.SIGKILL)
+                os.kill(pid, signal.SIGKILL)
+
+
+def _parent_of(pid: int) -> int | None:
+    """The parent process id of ``pid`` (``/proc/PID/stat``, field 4: proc(5)); where there is
+    no /proc, ``pid``'s parent is taken to be this process (the local workers are its own)."""
+    import os
+    try:
+        with open(f"/proc/{pid}/stat", encoding="ascii") as handle:
+            return int(handle.read().rsplit(")", 1)[1].split()[1])
+    except FileNotFoundError:
+        return os.getpid() if not os.path.isdir("/proc") else None
+    except (OSError, ValueError, IndexError):
+        return None
 
 
 def _heaviest_first(files: list[str], plans: list[dict]) -> list[int]:
