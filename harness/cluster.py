@@ -8,10 +8,18 @@ the workers read the file themselves, so the file must be reachable at the same 
 worker (a relative path is read from the worker's working folder).
 
 A file whose Monte Carlo spans more than one piece (``variation.shard.plan``, read on the
-client) also gets a task per piece (``_piece``: samples [start, stop) of one expectation); its
-own task waits for them and is handed their streamed summaries (``_joined``), so one heavy file
-spreads over the workers.  The samples do not depend on the split and a local run merges the
-same pieces in the same order (``variation.sampling``): the result is the bytes of a local run.
+client) also gets a task per piece (``_piece``: samples [start, stop) of one expectation), and,
+when the numerical engine runs, a task searching its extreme corners from the box alone
+(``_corners``) and one per corner running the engine there (``_corner_value``); its own task
+waits for them and is handed the pieces' streamed summaries and the corners' values
+(``_joined``), so one heavy file spreads over the workers.  The samples do not depend on the
+split, a local run merges the same pieces in the same order (``variation.sampling``), and a
+corner's value is taken only where the file's own search ends on that corner
+(``variation.shard``): the result is the bytes of a local run.
+
+Files are handed out heaviest first (``_heaviest_first``).  A ``local:N`` cluster's workers are
+forked from this process once it has imported the engines (``_local_settings``), and the
+cluster starts on a thread while the files are read and planned (``_connect``).
 
 Faults, as in a local run:
 
@@ -21,8 +29,8 @@ Faults, as in a local run:
   fails again it is an ``error`` naming the cause; the other files go on;
 * ``timeout``: tasks are handed out no faster than the cluster has threads (a file with pieces
   counts each), so a file's clock starts when it is handed out; a file over the limit is
-  cancelled with its pieces (a worker running one restarted when it has one thread) and becomes
-  "timed out after N s";
+  cancelled with its parts (a worker running one replaced when it has one thread:
+  ``_stop_workers``) and becomes "timed out after N s";
 * SIGINT (``KeyboardInterrupt``) or SIGTERM (``pool.Interrupted``): every future is cancelled and
   ``runner.RunInterrupted`` carries the results that finished;
 * a scheduler that does not answer within ``CONNECT_TIMEOUT`` s: ``ClusterUnreachable``.
@@ -47,10 +55,6 @@ from .runner import (RunInterrupted, RunOptions, _bar, _check_task, _done, _erro
 CONNECT_TIMEOUT = 5.0
 #: times a file may kill its worker on a ``local:N`` cluster before it becomes an error
 LOCAL_ALLOWED_FAILURES = 2
-#: scheduler settings of a ``local:N`` cluster: the death bound, and no file queued on a worker
-#: beside the one it runs (a dying worker counts against every file it holds)
-_LOCAL_SCHEDULER = {"distributed.scheduler.allowed-failures": LOCAL_ALLOWED_FAILURES,
-                    "distributed.scheduler.worker-saturation": 1.0}
 #: how often (s) the client looks for finished futures and expired deadlines
 _POLL = 0.02
 #: prefix of the address that asks for a cluster started for the run
@@ -85,15 +89,17 @@ def run(paths: Iterable[str], options: RunOptions, address: str,
         work: Callable = _check_task) -> RunResult:
     """Check every file under ``paths`` on the cluster at ``address``; results in the order the
     files were collected (as ``runner.run``).  ``work(path, numeric, tolerance)`` is what each
-    task runs (``runner.check_file`` through ``_check_task``).
+    task runs (``runner.check_file`` through ``_check_task``).  The files are read and planned
+    here while the cluster starts (``_connect`` starts it on a thread of its own).
 
     Raises:
         ClusterUnreachable: no scheduler answered at ``address``.
         RunInterrupted: SIGINT or SIGTERM stopped the run; ``partial`` holds what finished.
     """
     files, missing = collect(paths)
-    with _quiet_logs(), _connect(address, options.numeric) as client:
-        results = _gather(client, files, options, missing, work)
+    with _quiet_logs(), _connect(address, options.numeric) as started:
+        plans = [_plan(f, options.tolerance, options.numeric) for f in files]
+        results = _gather(started(), files, options, missing, work, plans)
     return RunResult(files=tuple(missing) + tuple(results))
 
 
@@ -110,66 +116,125 @@ def _quiet_logs():
         logger.setLevel(level)
 
 
+def _local_settings() -> dict:
+    """Dask settings of a ``local:N`` cluster, held while it runs (a worker restarted later
+    starts the same way): the death bound; no file queued on a worker beside the one it runs (a
+    dying worker counts against every file it holds); worker processes forked from this one
+    where the platform can fork (they start with the engines this process imported, in ~0.1 s
+    where a spawned one starts a new interpreter and imports everything again: measured
+    ``tests/benchmarks/cluster_bench.py``)."""
+    import multiprocessing as mp
+    method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
+    return {"distributed.scheduler.allowed-failures": LOCAL_ALLOWED_FAILURES,
+            "distributed.scheduler.worker-saturation": 1.0,
+            "distributed.worker.multiprocessing-method": method}
+
+
 @contextlib.contextmanager
 def _connect(address: str, numeric: bool):
-    """A client of the scheduler at ``address``, or of a ``local:N`` cluster started here."""
+    """Yields ``started()``, which returns a client of the scheduler at ``address`` (or of a
+    ``local:N`` cluster started here) once it is connected: the connection is made on a thread
+    of its own, so the caller reads and plans the files meanwhile.  Closes both at the end.
+
+    For ``local:N`` the engines are imported here first (``runner._preload``, and the Monte
+    Carlo planning's modules), so forked workers have them, and nothing is being imported
+    here while a worker is forked."""
+    from concurrent.futures import ThreadPoolExecutor
+
     import dask
+    import distributed  # noqa: F401  (its settings' defaults, before ours are set over them)
+
+    local = address.startswith(LOCAL)
+    settings = dask.config.set(_local_settings() if local else {})
+    with settings, ThreadPoolExecutor(1, thread_name_prefix="tauproof-connect") as starter:
+        if local:
+            _preload(numeric)
+            from .variation import shard  # noqa: F401  (planning, below, while workers fork)
+        start = starter.submit(_start, address, numeric)
+        try:
+            yield lambda: start.result()[0]
+        finally:
+            with contextlib.suppress(ClusterUnreachable):
+                _close(*start.result())
+
+
+def _start(address: str, numeric: bool):
+    """(client, cluster or None): a client of ``address``, with the ``local:N`` cluster it
+    names started first (its workers run ``dask_setup`` of this module as they start); the
+    workers of a scheduler started elsewhere import the engines now, before their first file
+    (whose time limit would otherwise include the imports)."""
     from distributed import Client, LocalCluster
 
     cluster = None
     try:
         if address.startswith(LOCAL):
-            with dask.config.set(_LOCAL_SCHEDULER):
-                cluster = LocalCluster(n_workers=int(address[len(LOCAL):]),
-                                       threads_per_worker=1, processes=True,
-                                       dashboard_address=None, silence_logs=logging.CRITICAL)
-            client = Client(cluster, timeout=CONNECT_TIMEOUT)
-        else:
-            client = Client(address, timeout=CONNECT_TIMEOUT)
+            # no dashboard; the scheduler's own HTTP server (health, metrics) on a free port,
+            # not Dask's 8787, which another cluster may hold (Dask then warns)
+            cluster = LocalCluster(n_workers=int(address[len(LOCAL):]), threads_per_worker=1,
+                                   processes=True, dashboard_address=None,
+                                   scheduler_kwargs={"dashboard_address": ":0"},
+                                   silence_logs=logging.CRITICAL, preload=[__name__])
+            return Client(cluster, timeout=CONNECT_TIMEOUT), cluster
+        client = Client(address, timeout=CONNECT_TIMEOUT)
     except (OSError, TimeoutError) as err:
         if cluster is not None:
             cluster.close()
         raise ClusterUnreachable(address, str(err) or type(err).__name__) from None
-    try:
-        if cluster is not None:
-            _workers_ignore_interrupts(client)
-        client.run(_preload, numeric)  # every worker imports the engines once, before the files
-        yield client
-    finally:
-        client.close()
-        if cluster is not None:
-            cluster.close()
+    client.run(_preload, numeric)
+    return client, None
 
 
-def _local_worker_setup(worker=None) -> None:
-    """In a worker process of a ``local:N`` cluster: SIGINT is ignored (Ctrl-C at a terminal
-    reaches the whole process group, local workers included; the client decides: it cancels and
-    stops the cluster), and the process dies with its parent, the client (``pool.die_with_parent``):
-    a worker busy in a task could outlive an interrupted client, holding its output pipes."""
+def _close(client, cluster) -> None:
+    """The client, then the ``local:N`` cluster it started (nothing runs on it any more: the
+    results are in hand)."""
+    client.close()
+    if cluster is not None:
+        cluster.close()
+
+
+def dask_setup(worker=None) -> None:
+    """Run by Dask in every worker process of a ``local:N`` cluster as it starts (the
+    cluster's worker preload, restarted workers too): SIGINT is ignored (Ctrl-C at a terminal
+    reaches the whole process group, local workers included; the client decides: it cancels
+    and stops the cluster) and SIGTERM takes its default action (a forked worker inherits the
+    command line's handler); the process dies with its parent, the client
+    (``pool.die_with_parent``): a worker busy in a task could outlive an interrupted client,
+    holding its output pipes.  A worker started by spawning (no fork on this platform) imports
+    the engines here, before its first file."""
     import os
     import signal
     from .pool import die_with_parent
     with contextlib.suppress(ValueError):  # not the main thread: nothing to do
         signal.signal(signal.SIGINT, signal.SIG_IGN)
+        signal.signal(signal.SIGTERM, signal.SIG_DFL)
     die_with_parent(os.getppid())
+    import dask
+    if dask.config.get("distributed.worker.multiprocessing-method") == "fork":
+        _fresh_offload_thread()
+    else:
+        _preload(True)
 
 
-def _workers_ignore_interrupts(client) -> None:
-    """Every worker of a ``local:N`` cluster is set up by ``_local_worker_setup``, also one
-    restarted later (a worker plugin is run on each worker as it joins)."""
-    from distributed import WorkerPlugin
-
-    class LocalWorker(WorkerPlugin):
-        def setup(self, worker) -> None:
-            _local_worker_setup(worker)
-
-    client.register_plugin(LocalWorker(), name="tauproof-local-worker")
+def _fresh_offload_thread() -> None:
+    """A forked worker inherits the client's pool of one thread on which Dask (de)serialises
+    messages over ``distributed.comm.offload`` (10 MiB) without that thread (a fork copies only
+    the thread that forks): once the client had received a large result, a worker forked after
+    it hung on its first large transfer, the pool believing its thread alive.  A new pool
+    (Dask's module attribute, the one thread it names ``Dask-Offload``)."""
+    from concurrent.futures import ThreadPoolExecutor
+    from distributed import utils
+    if isinstance(getattr(utils, "_offload_executor", None), ThreadPoolExecutor):
+        utils._offload_executor = ThreadPoolExecutor(max_workers=1,
+                                                     thread_name_prefix="Dask-Offload")
 
 
 def _gather(client, files: list[str], options: RunOptions, missing: list[FileResult],
-            work: Callable) -> list[FileResult]:
-    """Submit the files, collect their results as they finish (progress, deadlines)."""
-    run = _Run(client, files, options, work)
+            work: Callable, plans: list[dict] | None = None) -> list[FileResult]:
+    """Submit the files, collect their results as they finish (progress, deadlines).
+    ``plans``: each file's Monte Carlo pieces (``_plan``; read here when not given)."""
+    if plans is None:
+        plans = [_plan(f, options.tolerance, options.numeric) for f in files]
+    run = _Run(client, files, options, work, plans)
     try:
         while len(run.done) < len(files):
             run.hand_out()
@@ -200,7 +265,8 @@ class _Task:
 class _Run:
     """The state of one run on the cluster: files waiting, files running, results."""
 
-    def __init__(self, client, files: list[str], options: RunOptions, work: Callable) -> None:
+    def __init__(self, client, files: list[str], options: RunOptions, work: Callable,
+                 plans: list[dict]) -> None:
         from distributed import as_completed
         self.client, self.files, self.options, self.work = client, files, options, work
         self.bar = _bar(files, options)
@@ -209,9 +275,10 @@ class _Run:
         self.window = max(1, sum(client.nthreads().values())) if self.limit else None
         self.done: dict[int, FileResult] = {}
         self.running: dict = {}              # the file's future -> _Task
-        self.pending = list(range(len(files)))
-        self.plans: dict[int, dict] = {}
-        self.finished = as_completed()
+        self.plans = plans
+        self.pending = _heaviest_first(files, plans)
+        # results are fetched by the client's event loop as the files finish
+        self.finished = as_completed(with_results=True, raise_errors=False)
 
     def hand_out(self) -> None:
         """Submit waiting files while the window allows (a file counts its pieces too; one
@@ -219,8 +286,8 @@ class _Run:
         load = sum(1 + len(t.pieces) for t in self.running.values())
         while self.pending:
             i = self.pending[0]
-            plan = self.plans.setdefault(i, _plan(self.files[i], self.options.tolerance))
-            cost = 1 + sum(len(ranges) for ranges in plan.values())
+            plan = self.plans[i]
+            cost = 1 + sum(split.tasks for split in plan.values())
             if self.window is not None and self.running and load + cost > self.window:
                 return
             self.pending.pop(0)
@@ -231,27 +298,26 @@ class _Run:
             load += cost
 
     def _submit(self, path: str, plan: dict):
-        """The file's task, after the tasks of its Monte Carlo pieces when it has some (both
-        ahead of plain files, so a heavy file starts early)."""
+        """The file's task; when it has a plan, after the tasks of its parts (``_parts``), all
+        ahead of plain files so a heavy file starts early.  (future, its parts' futures)."""
         opts = self.options
         if not plan:
             return self.client.submit(self.work, path, opts.numeric, opts.tolerance,
                                       pure=False), []
-        given = {index: [self.client.submit(_piece, path, opts.tolerance, index, a, b,
-                                            pure=False, priority=1) for a, b in ranges]
-                 for index, ranges in plan.items()}
+        given, values, parts = _parts(self.client, path, opts.tolerance, plan)
         future = self.client.submit(_joined, self.work, path, opts.numeric, opts.tolerance,
-                                    given, pure=False, priority=1)
-        return future, [f for futures in given.values() for f in futures]
+                                    given, values, pure=False, priority=1)
+        return future, parts
 
     def collect(self) -> bool:
         """Record the files that finished; False when none had."""
         batch = self.finished.next_batch(block=False)
-        for future in batch:
+        for future, result in batch:
             task = self.running.pop(future, None)
             if task is None:          # cancelled on its deadline, already recorded
                 continue
-            self.done[task.index] = _outcome(future, self.files[task.index])
+            self.done[task.index] = result if future.status == "finished" else \
+                _outcome(future, self.files[task.index])
             self.bar.step()
         return bool(batch)
 
@@ -261,8 +327,8 @@ class _Run:
 
     def expire(self) -> None:
         """Cancel the files past their deadline (pieces too); each becomes "timed out after
-        N s".  A worker with one thread that was running one is restarted (a thread cannot be
-        stopped)."""
+        N s".  A worker with one thread that was running one is replaced (a thread cannot be
+        stopped: ``_stop_workers``)."""
         if not self.limit:
             return
         now = time.monotonic()
@@ -283,21 +349,103 @@ class _Run:
             self.bar.step()
         if stuck:
             with contextlib.suppress(Exception):  # best effort: the result is already recorded
-                self.client.restart_workers(stuck, raise_for_error=False)
+                _stop_workers(self.client, stuck)
 
 
-def _plan(path: str, tolerance: float | None) -> dict:
-    """The file's Monte Carlo pieces (``variation.shard.plan``), read here on the client; none
-    for a file without spec limits, or one that cannot be read here (its task says why)."""
+def _stop_workers(client, workers: list[str]) -> None:
+    """Replace these workers, each stuck in a task that was cancelled.  A worker of a
+    ``local:N`` cluster (a child process of this one) is killed at once and its nanny starts a
+    new one, as after any death (~0.1 s); Dask's restart would first wait for the busy worker
+    to close, seconds in which this client collects nothing.  Its process id is asked of the
+    worker itself (its event loop answers while a task holds its thread: a nanny's record can
+    name a newer worker than the one the scheduler gave the task).  A remote worker is
+    restarted through its scheduler."""
+    import os
+    import signal
+    if getattr(client, "cluster", None) is None:
+        client.restart_workers(workers, raise_for_error=False)
+        return
+    for pid in client.run(os.getpid, workers=workers, on_error="ignore").values():
+        if isinstance(pid, int) and _parent_of(pid) == os.getpid():
+            with contextlib.suppress(ProcessLookupError):
+                os.kill(pid, signal.SIGKILL)
+
+
+def _parent_of(pid: int) -> int | None:
+    """The parent process id of ``pid`` (``/proc/PID/stat``, field 4: proc(5)); where there is
+    no /proc, ``pid``'s parent is taken to be this process (the local workers are its own)."""
+    import os
+    try:
+        with open(f"/proc/{pid}/stat", encoding="ascii") as handle:
+            return int(handle.read().rsplit(")", 1)[1].split()[1])
+    except FileNotFoundError:
+        return os.getpid() if not os.path.isdir("/proc") else None
+    except (OSError, ValueError, IndexError):
+        return None
+
+
+def _heaviest_first(files: list[str], plans: list[dict]) -> list[int]:
+    """The files' indices in the order they are handed out: those with Monte Carlo pieces
+    first, then by size in bytes, largest first (a rough measure of the work: the heavy files
+    start early and the run does not end on one of them), collection order among equals."""
+    import os
+
+    def size(i: int) -> int:
+        with contextlib.suppress(OSError):
+            return os.path.getsize(files[i])
+        return 0
+
+    return sorted(range(len(files)),
+                  key=lambda i: (-sum(split.tasks for split in plans[i].values()), -size(i)))
+
+
+@dataclass(frozen=True)
+class _Split:
+    """How one expectation's spread analysis is spread: its Monte Carlo pieces' sample ranges
+    and the number of extreme corners the numerical engine is run at apart."""
+
+    ranges: list
+    corners: int
+
+    @property
+    def tasks(self) -> int:
+        """Its tasks: a piece each, and the corner search and a task per corner."""
+        return len(self.ranges) + (1 + self.corners if self.corners else 0)
+
+
+def _plan(path: str, tolerance: float | None, numeric: bool) -> dict:
+    """Expectation index -> ``_Split``, read here on the client: the expectations whose Monte
+    Carlo spans more than one piece (``variation.shard.plan``), with their corners
+    (``shard.corner_count``) when the numerical engine runs; none for a file without spec
+    limits, or one that cannot be read here (its task says why)."""
     try:
         with open(path, "rb") as handle:
             if b"spec" not in handle.read():
                 return {}
         from .circuitfile import read_circuit
         from .variation import shard
-        return shard.plan(read_circuit(path, tolerance))
+        circuit = read_circuit(path, tolerance)
+        return {index: _Split(ranges, shard.corner_count(circuit, index) if numeric else 0)
+                for index, ranges in shard.plan(circuit).items()}
     except Exception:  # planning only spreads the work; the file's own task reports faults
         return {}
+
+
+def _parts(client, path: str, tolerance: float | None, plan: dict):
+    """Submit the parts of a file's spread analysis: per expectation, the search of its
+    corners from the box alone (first), its Monte Carlo pieces, then the numerical engine at
+    each corner (``variation.shard``).  Returns (index -> the pieces' futures, index -> the
+    corner values' futures, every part's future)."""
+    given, values, parts = {}, {}, []
+    for index, split in plan.items():
+        found = client.submit(_corners, path, tolerance, index, pure=False, priority=2) \
+            if split.corners else None
+        given[index] = [client.submit(_piece, path, tolerance, index, a, b, pure=False,
+                                      priority=1) for a, b in split.ranges]
+        values[index] = [client.submit(_corner_value, path, tolerance, index, found, k,
+                                       pure=False, priority=1) for k in range(split.corners)]
+        parts += ([found] if found is not None else []) + given[index] + values[index]
+    return given, values, parts
 
 
 def _piece(path: str, tolerance: float | None, index: int, start: int, stop: int):
@@ -310,12 +458,42 @@ def _piece(path: str, tolerance: float | None, index: int, start: int, stop: int
         return shard.summary(circuit, index, start, stop)
 
 
-def _joined(work: Callable, path: str, numeric: bool, tolerance: float | None, given: dict):
-    """A worker's task: the file's analysis with its Monte Carlo taken from its pieces
-    (``given``: expectation index -> the pieces' summaries in order, Dask having put each
-    piece's result in place of its future)."""
+def _corners(path: str, tolerance: float | None, index: int) -> list:
+    """A worker's task: where the extreme search of expectation ``index`` ends from the box
+    alone (``variation.shard.corners``); none when that fails (the values are only taken
+    where the file's own analysis ends on the same corners)."""
+    from .circuitfile import read_circuit
     from .variation import shard
-    samples = {index: shard.merged(list(parts)) for index, parts in given.items()}
+    try:
+        with native_output_silenced():
+            return shard.corners(read_circuit(path, tolerance), index)
+    except Exception:
+        return []
+
+
+def _corner_value(path: str, tolerance: float | None, index: int, found: list, k: int):
+    """A worker's task: the numerical engine at corner ``k`` of ``found`` (``_corners``'s
+    result, put in place of its future by Dask): ``shard.corner_value``, or None."""
+    from .circuitfile import read_circuit
+    from .variation import shard
+    if k >= len(found):
+        return None
+    try:
+        with native_output_silenced():
+            return shard.corner_value(read_circuit(path, tolerance), index, *found[k])
+    except Exception:
+        return None
+
+
+def _joined(work: Callable, path: str, numeric: bool, tolerance: float | None, given: dict,
+            values: dict):
+    """A worker's task: the file's analysis with its Monte Carlo taken from its pieces and the
+    numerical engine's corner values from their tasks (``given`` / ``values``: expectation
+    index -> the parts' results in order, Dask having put each result in place of its
+    future)."""
+    from .variation import shard
+    samples = {index: shard.evaluated(given.get(index), values.get(index, ()))
+               for index in given}
     return work(path, numeric, tolerance, samples=samples)
 
 

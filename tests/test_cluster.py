@@ -100,8 +100,36 @@ def test_a_worker_dying_on_a_piece_costs_the_file_nothing(tmp_path, monkeypatch,
     result = cluster.run([str(tmp_path)], RunOptions(), "local:2")
     tried = sorted(p.name.split("-")[0] for p in marks.iterdir())
     assert tried.count("262144") == cluster.LOCAL_ALLOWED_FAILURES + 1, tried
-    assert "0" in tried and "524288" in tried
+    assert "0" in tried     # the first piece starts beside it (the last may be dropped
+    #                          once the file's own task has failed: the file runs again whole)
     assert _without_timings(document(result)) == _without_timings(one)
+
+
+#: values of 16 MB: over Dask's ``distributed.comm.offload`` threshold (10 MiB), so Dask
+#: (de)serialises them on its offload thread
+LARGE = 2_000_000
+
+
+def _large(count: int):
+    import numpy as np
+    return np.ones(count)
+
+
+def _total(values) -> float:
+    return float(values.sum())
+
+
+def test_workers_forked_after_a_large_result_still_move_large_values():
+    """Local workers are forked from the client: one forked after the client had received a
+    large value (its offload thread running) must not inherit a pool without its thread."""
+    with cluster._connect("local:2", True) as started:
+        client = started()
+        assert client.submit(_large, LARGE, pure=False).result().size == LARGE
+        client.restart_workers(list(client.nthreads()))
+        first, second = sorted(client.nthreads())
+        made = client.submit(_large, LARGE, workers=[first], pure=False)
+        total = client.submit(_total, made, workers=[second], pure=False)
+        assert total.result(timeout=60) == LARGE
 
 
 def _few_files(tmp_path: Path, odd: str) -> list[str]:
@@ -142,14 +170,16 @@ def test_a_file_over_the_timeout_is_stopped_and_the_others_finish(tmp_path):
         return check_file(path, numeric)
 
     started = time.monotonic()
-    result = cluster.run([str(tmp_path)], RunOptions(numeric=False, timeout=3), "local:2",
+    # the limit leaves a file its first run on a fresh worker on a loaded machine (measured
+    # over 3 s at a load average of 11 on 2 cores)
+    result = cluster.run([str(tmp_path)], RunOptions(numeric=False, timeout=8), "local:2",
                          work=sleepy)
     assert time.monotonic() - started < 60
     verdicts = {Path(f.file).name: f.verdict for f in result.files}
     assert verdicts == {"f0.toml": "pass", "f1.toml": "pass", "f2.toml": "pass",
                         "slow.toml": "error"}
     slow = [f for f in result.files if "slow" in f.file][0]
-    assert "timed out after 3 s" in slow.errors[0]
+    assert "timed out after 8 s" in slow.errors[0]
 
 
 def test_an_unreachable_scheduler_is_exit_two_naming_it(capsys):

@@ -2,6 +2,8 @@
 generator (numpy's SeedSequence child streams), and a file's samples summarised in pieces and
 merged in order give what one process gives, bit for bit (what a cluster run relies on)."""
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
 
@@ -70,7 +72,7 @@ def _split(monkeypatch, chunks: int = 1):
 def _given(circuit):
     plan = shard.plan(circuit)
     assert list(plan) == [0] and len(plan[0]) > 1, plan
-    return {0: shard.merged([shard.summary(circuit, 0, a, b) for a, b in plan[0]])}
+    return {0: shard.evaluated([shard.summary(circuit, 0, a, b) for a, b in plan[0]], ())}
 
 
 def test_pieces_merged_in_order_give_the_one_process_result(monkeypatch):
@@ -92,13 +94,62 @@ def test_given_summaries_stand_in_for_the_evaluation(monkeypatch):
     _split(monkeypatch)
     circuit = _circuit(9000)
     given = _given(circuit)
-    marked = given[0]
+    marked = given[0].samples
     marked.low[0], marked.high[0] = 5.0, 5.0             # every τ sample above its 2 ms limit
     marked.passed[0] = 0
-    failing = analyse.analyse_circuit(circuit, numeric=False, given={0: marked})
+    failing = analyse.analyse_circuit(circuit, numeric=False, given=given)
     tau = [s for s in failing if s.name == "tau"][0]
     assert tau.monte_carlo["passed"] == 0 and tau.verdict == "mismatch"
 
 
 def test_a_small_monte_carlo_is_not_split():
     assert shard.plan(_circuit(3000)) == {}
+
+
+def _corner_values(circuit):
+    """The numerical engine at each corner ``shard.corners`` finds, as separate tasks would
+    give them."""
+    return [shard.corner_value(circuit, 0, name, corner)
+            for name, corner in shard.corners(circuit, 0)]
+
+
+def test_corners_found_apart_are_the_analysis_own(monkeypatch):
+    """The monotonic RC: every extreme is a vertex of the box, whatever the Monte Carlo, so
+    the corners searched without it are those the analysis reaches with it, and their engine
+    values, handed in with the pieces, give the one-process result bit for bit."""
+    _split(monkeypatch)
+    circuit = _circuit(9000)
+    assert shard.corner_count(circuit, 0) == 4                  # τ and crossing, min and max
+    found = shard.corners(circuit, 0)
+    assert [name for name, _ in found] == ["tau", "tau", "crossing", "crossing"]
+    alone = analyse.analyse_circuit(circuit)
+    pieces = [shard.summary(circuit, 0, a, b) for a, b in shard.plan(circuit)[0]]
+    split = analyse.analyse_circuit(circuit, given={0: shard.evaluated(pieces,
+                                                                       _corner_values(circuit))})
+    assert [s.to_json() for s in split] == [s.to_json() for s in alone]
+    for s in alone:                                              # the same corners, value for value
+        corners = {(name, c.tobytes()) for name, c in found if name == s.name}
+        assert {(s.name, np.array(list(s.low_corner.values())).tobytes()),
+                (s.name, np.array(list(s.high_corner.values())).tobytes())} == corners
+
+
+def test_a_corner_value_handed_in_is_taken_and_others_are_run_here(monkeypatch):
+    """A value handed in for a corner the search reaches replaces the engine's run there; one
+    for a corner it does not reach is ignored (the engine runs)."""
+    _split(monkeypatch)
+    circuit = _circuit(9000)
+    alone = {s.name: s for s in analyse.analyse_circuit(circuit)}
+    (name, corner), *_ = shard.corners(circuit, 0)              # τ's min corner
+    elsewhere = np.full_like(corner, 0.5)                       # not a corner of the box
+    known = {(name, corner.tobytes()): 123.0, (name, elsewhere.tobytes()): 7.0}
+    got = {s.name: s for s in analyse.analyse_circuit(
+        circuit, given={0: analyse.Evaluated(numeric=known)})}
+    assert got["tau"].numeric_low == 123.0
+    assert got["tau"].numeric_high == alone["tau"].numeric_high
+    assert got["crossing"].to_json() == alone["crossing"].to_json()
+
+
+def test_no_corners_without_the_extremes():
+    circuit = _circuit(9000)
+    bare = replace(circuit, variation=replace(circuit.variation, methods=("monte-carlo",)))
+    assert shard.corner_count(bare, 0) == 0 and shard.corners(bare, 0) == []

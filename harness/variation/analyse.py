@@ -11,6 +11,7 @@ engine at each extreme corner; and the verdict.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -102,29 +103,49 @@ def monte_carlo(fn, low, high, variation: m.Variation, limits: tuple[m.Limits, .
                                                        KEEP if keep is None else keep)
 
 
+@dataclass(frozen=True)
+class Evaluated:
+    """What was evaluated elsewhere for one expectation (``shard``, on other processes):
+    ``samples`` its Monte Carlo summary (``shard.summary`` of its pieces, merged in order) and
+    ``numeric`` the numerical engine's values at corners, (field name, the corner's float64
+    bytes) -> value, used where the extreme search ends on one of those corners."""
+
+    samples: Accumulator | None = None
+    numeric: dict = field(default_factory=dict)
+
+
 def analyse_circuit(circuit: m.Circuit, numeric: bool = True,
                     given: dict | None = None) -> tuple[SpreadResult, ...]:
     """Every spec'd field of every expectation of ``circuit``.  ``given`` maps an
-    expectation's index to its Monte Carlo summary evaluated elsewhere (``shard.summary`` of
-    its pieces, merged in order)."""
+    expectation's index to what was evaluated elsewhere (an ``Evaluated``)."""
     out = []
     for index, exp in enumerate(circuit.expectations):
         if exp.spec:
-            out += analyse_expectation(circuit, exp, numeric, (given or {}).get(index))
+            done = (given or {}).get(index, Evaluated())
+            out += analyse_expectation(circuit, exp, numeric, done.samples, done.numeric)
     return tuple(out)
 
 
-def analyse_expectation(circuit: m.Circuit, exp: m.Expectation, numeric: bool = True,
-                        samples: Accumulator | None = None):
-    """SpreadResults of the spec'd fields of one expectation; ``samples``: the Monte Carlo
-    summary when it was evaluated elsewhere (``sampling.accumulate_range``, merged in order),
-    else it is run here."""
+def basis(circuit: m.Circuit, exp: m.Expectation):
+    """(names, quantities, fn, route, low, high, nominal, gradients) of one expectation: its
+    spec'd fields, varied quantities, evaluator (``evaluator``), the box's edges, the nominal
+    values (F,) and the sensitivities (F, n)."""
     names = spec_names(exp)
     quantities = varied(circuit, exp)
     fn, route = evaluator(circuit, exp, names, quantities)
     low, high = edges(quantities)
     nominal = fn(np.zeros((1, len(quantities))))[0]
-    grads = sensitivities(fn, nominal, len(quantities))
+    return names, quantities, fn, route, low, high, nominal, \
+        sensitivities(fn, nominal, len(quantities))
+
+
+def analyse_expectation(circuit: m.Circuit, exp: m.Expectation, numeric: bool = True,
+                        samples: Accumulator | None = None, known: dict | None = None):
+    """SpreadResults of the spec'd fields of one expectation; ``samples``: the Monte Carlo
+    summary when it was evaluated elsewhere (``sampling.accumulate_range``, merged in order),
+    else it is run here; ``known``: the numerical engine's values at corners evaluated
+    elsewhere (``Evaluated.numeric``)."""
+    names, quantities, fn, route, low, high, nominal, grads = basis(circuit, exp)
     methods = circuit.variation.methods
     acc = None
     extra = extra_values = None
@@ -140,12 +161,29 @@ def analyse_expectation(circuit: m.Circuit, exp: m.Expectation, numeric: bool = 
     for col, name in enumerate(names):
         pair = found[col] if found else None
         results.append(_field(circuit, exp, name, col, quantities, nominal[col], grads[col],
-                              pair, how, acc, route, numeric, low, high))
+                              pair, how, acc, route, _Corners(known or {}) if numeric else None,
+                              low, high))
     return results
+
+
+class _Corners:
+    """The numerical engine at a field's corner: the value evaluated elsewhere for that
+    field and corner when there is one (the same call, so the same bits), else run here."""
+
+    def __init__(self, known: dict) -> None:
+        self.known = known
+
+    def __call__(self, circuit, exp, name: str, quantities, corner: np.ndarray) -> float:
+        value = self.known.get((name, corner.tobytes()))
+        if value is None:
+            value = numeric_at(circuit, exp, (name,), quantities, corner)[0]
+        return _num(value)
 
 
 def _field(circuit, exp, name, col, quantities, nominal, grad, pair, how, acc, route,
            numeric, low, high) -> SpreadResult:
+    """One field's SpreadResult; ``numeric``: the numerical engine at a corner
+    (``_Corners``), None when it is not run."""
     limits = exp.spec[name]
     unit = field_spec(name).unit_for(exp.probe.dimension)
     methods = circuit.variation.methods
@@ -170,11 +208,9 @@ def _field(circuit, exp, name, col, quantities, nominal, grad, pair, how, acc, r
                                         np.vstack([lo.corner, hi.corner]))[:, 0]
             lo_val, hi_val = _num(exact[0]), _num(exact[1])
             result.update(low=lo_val, high=hi_val)
-        if numeric:
-            result.update(numeric_low=_num(numeric_at(circuit, exp, (name,), quantities,
-                                                      lo.corner)[0]),
-                          numeric_high=_num(numeric_at(circuit, exp, (name,), quantities,
-                                                       hi.corner)[0]))
+        if numeric is not None:
+            result.update(numeric_low=numeric(circuit, exp, name, quantities, lo.corner),
+                          numeric_high=numeric(circuit, exp, name, quantities, hi.corner))
     if m.RSS in methods and math.isfinite(nominal):
         result["rss"] = rss_bounds(nominal, grad, low, high)
     if acc is not None:
@@ -189,7 +225,7 @@ def _field(circuit, exp, name, col, quantities, nominal, grad, pair, how, acc, r
                         f"does not take this circuit, and the exact engine solves each sample; "
                         f"the yield and its interval are of those samples")
     verdict, messages = _unestablished(result, pair is not None and m.EXTREMES in methods,
-                                       numeric, verdict, messages)
+                                       numeric is not None, verdict, messages)
     return SpreadResult(verdict=verdict, messages=tuple(messages), **result)
 
 

@@ -3,11 +3,18 @@
 
 * the library: ``tauproof check circuits/library --no-report`` with ``--jobs 1``, ``--jobs 2``
   and ``--cluster local:2`` (interleaved, medians);
-* start-up cost of each mechanism and overhead per task (no-op tasks); what a worker's death
-  and a task over its time limit cost each (time until a no-op task behind it has run);
+* the local cluster's fixed costs, each in a fresh process so imports count, as it started
+  before (workers spawned, then told to import the engines) and as it starts now (workers
+  forked from the client after it imported them, while the client plans): importing Dask's
+  client, starting, stopping; the overhead per task (no-op tasks), results fetched one by one
+  by the caller (before) and by the client's event loop (now); the pool's start-up and
+  overhead beside them, and the ratio they predict for the library on an idle machine;
+* what a worker's death and a task over its time limit cost each (time until a no-op task
+  behind it has run);
 * a 10⁶-sample Monte Carlo (the library's reset-delay tolerance file with 1,000,000 samples:
   four pieces on the batched route) in this process, then on a running local cluster of 1 and
-  of 2 workers (start-up excluded), and what its parts cost (one piece; the file's own task);
+  of 2 workers (start-up excluded), with the numerical engine at the corners in tasks of their
+  own (now) and inside the file's own task (before), and what its parts cost;
 * the exact engine's cost per sample (the same file with a second storage part), for the
   estimate on paper in RESULTS.md.
 
@@ -17,6 +24,7 @@
 from __future__ import annotations
 
 import contextlib
+import copy
 import statistics
 import subprocess
 import sys
@@ -80,21 +88,64 @@ def pool_costs() -> dict:
     return {"startup": startup, "per_task": (time.perf_counter() - start) / TASKS}
 
 
-def dask_costs() -> dict:
-    """A local cluster of 2 processes as ``--cluster local:2`` starts it: start-up (cluster,
-    client, engines imported on the workers), overhead per no-op task (submit, run, gather
-    through as_completed) and the time to stop it."""
+#: the code a fresh process runs for ``fixed_costs`` (prints the figures as JSON)
+_FIXED = """
+import json, logging, sys, time
+from harness.runner import _preload
+_preload(True)
+began = time.perf_counter()
+import distributed
+imported = time.perf_counter() - began
+from harness import cluster
+began = time.perf_counter()
+if sys.argv[1] == "before":          # spawned workers, then told to import the engines
+    import dask
+    with dask.config.set({"distributed.worker.multiprocessing-method": "spawn"}):
+        local = distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                         dashboard_address=None, silence_logs=logging.CRITICAL)
+        client = distributed.Client(local)
+        client.run(_preload, True)
+    started = time.perf_counter() - began
+    began = time.perf_counter()
+    client.close(); local.close()
+else:                                 # as --cluster local:2 starts it now
+    with cluster._connect("local:2", True) as ready:
+        ready()
+        started = time.perf_counter() - began
+        began = time.perf_counter()
+stopped = time.perf_counter() - began
+print(json.dumps({"import": imported, "start": started, "stop": stopped}))
+"""
+
+
+def fixed_costs(way: str) -> dict:
+    """Seconds to import Dask's client (the engines already imported), to start a local cluster
+    of 2 workers ready to analyse, and to stop it; ``way`` "before" or "now"; in a fresh
+    process."""
+    import json
+    out = subprocess.run([sys.executable, "-c", _FIXED, way], capture_output=True, text=True,
+                         check=True).stdout
+    return json.loads(out.strip().splitlines()[-1])
+
+
+def dask_per_task() -> dict:
+    """Overhead per no-op task on a running ``local:2`` cluster (submit, run, result): each
+    result fetched by the caller (before) and by the client's event loop (now)."""
     from distributed import as_completed
     from harness import cluster
-    start = time.perf_counter()
-    with cluster._connect("local:2", True) as client:
-        startup = time.perf_counter() - start
+    out = {}
+    with cluster._connect("local:2", True) as ready:
+        client = ready()
         start = time.perf_counter()
         for future in as_completed([client.submit(_noop, i, pure=False) for i in range(TASKS)]):
             future.result()
-        per_task = (time.perf_counter() - start) / TASKS
+        out["before"] = (time.perf_counter() - start) / TASKS
         start = time.perf_counter()
-    return {"startup": startup, "per_task": per_task, "shutdown": time.perf_counter() - start}
+        for _ in as_completed([client.submit(_noop, i, pure=False) for i in range(TASKS)],
+                              with_results=True):
+            pass
+        out["now"] = (time.perf_counter() - start) / TASKS
+    return out
 
 
 def _fault(kind):
@@ -134,7 +185,8 @@ def dask_faults() -> dict:
     from harness import cluster
     from harness.runner import RunOptions
     out = {}
-    with cluster._connect("local:1", True) as client:
+    with cluster._connect("local:1", True) as ready:
+        client = ready()
         start = time.perf_counter()
         dying = client.submit(_fault, "die", pure=False)
         with contextlib.suppress(Exception):     # KilledWorker past the death bound
@@ -169,7 +221,9 @@ def _variant(folder: Path, samples: int, second_stage: bool = False) -> Path:
 def monte_carlo(repeats: int) -> dict:
     """The 10⁶-sample file: in this process (the ``--jobs 1`` path), then through the cluster
     code on a running local cluster of 1 and of 2 workers (median of ``repeats`` each, start-up
-    excluded); the cost of one piece and of the file's own task with the values given."""
+    excluded), with the corners' engine runs in tasks of their own ("now") and in the file's
+    own task ("before": the plan without corners), interleaved; what its parts cost here."""
+    from dataclasses import replace
     from harness import cluster
     from harness.circuitfile import read_circuit
     from harness.runner import RunOptions, _check_task, check_file
@@ -184,23 +238,45 @@ def monte_carlo(repeats: int) -> dict:
         start = time.perf_counter()
         whole = check_file(path)
         out["here"] = time.perf_counter() - start
-        start = time.perf_counter()
-        given = {i: shard.merged([shard.summary(circuit, i, a, b) for a, b in r])
-                 for i, r in plan.items()}
-        out["pieces_here"] = time.perf_counter() - start
+        out.update(_parts_here(path, circuit, plan))
+        now = cluster._plan(path, None, True)
+        ways = {"now": now, "before": {i: replace(s, corners=0) for i, s in now.items()}}
+        for workers in (1, 2):
+            with cluster._connect(f"local:{workers}", True) as ready:
+                client = ready()
+                times: dict = {way: [] for way in ways}
+                for _ in range(repeats):
+                    for way, split in ways.items():
+                        start = time.perf_counter()
+                        got = cluster._gather(client, [path], RunOptions(), [], _check_task,
+                                              [split])
+                        times[way].append(time.perf_counter() - start)
+                        assert [s.to_json() for s in got[0].spreads] == \
+                            [s.to_json() for s in whole.spreads]
+            for way, taken in times.items():
+                out[f"{way} {workers}"] = statistics.median(taken)
+        out["load_after"] = load()
+    return out
+
+
+def _parts_here(path: str, circuit, plan: dict) -> dict:
+    """Seconds, in this process: every piece; the corners' search and the engine at them; the
+    file's own task handed both, and handed the pieces alone."""
+    from harness.runner import check_file
+    from harness.variation import shard
+    out = {}
+    start = time.perf_counter()
+    pieces = {i: [shard.summary(circuit, i, a, b) for a, b in r] for i, r in plan.items()}
+    out["pieces_here"] = time.perf_counter() - start
+    start = time.perf_counter()
+    values = {i: [shard.corner_value(circuit, i, *c) for c in shard.corners(circuit, i)]
+              for i in plan}
+    out["corners_here"] = time.perf_counter() - start
+    for name, handed in (("final_here", values), ("final_pieces_only", {})):
+        given = {i: shard.evaluated(copy.deepcopy(pieces[i]), handed.get(i, ())) for i in plan}
         start = time.perf_counter()
         check_file(path, True, None, given)
-        out["final_here"] = time.perf_counter() - start
-        for workers in (1, 2):
-            with cluster._connect(f"local:{workers}", True) as client:
-                times = []
-                for _ in range(repeats):
-                    start = time.perf_counter()
-                    got = cluster._gather(client, [path], RunOptions(), [], _check_task)
-                    times.append(time.perf_counter() - start)
-                    assert got[0].spreads[0].monte_carlo == whole.spreads[0].monte_carlo
-            out[f"workers {workers}"] = statistics.median(times)
-        out["load_after"] = load()
+        out[name] = time.perf_counter() - start
     return out
 
 
@@ -215,6 +291,15 @@ def exact_per_sample(count: int = 32) -> float:
         return (time.perf_counter() - start) / count
 
 
+def expected(walls: dict, files: int, pool: dict, fixed: dict, per_task: float) -> float:
+    """``--jobs 1`` / the wall ``local:2`` is expected to take: ``--jobs 2``'s plus what the
+    cluster costs beyond the pool (import, start, stop; overhead per task, half of the files
+    on each worker)."""
+    extra = fixed["import"] + fixed["start"] + fixed["stop"] - pool["startup"] + \
+        (per_task - pool["per_task"]) * files / 2
+    return walls["jobs 1"] / (walls["jobs 2"] + extra)
+
+
 def main() -> None:
     from harness.cluster import LOCAL_ALLOWED_FAILURES
     repeats = int(sys.argv[1]) if len(sys.argv) > 1 else 1
@@ -227,11 +312,20 @@ def main() -> None:
           f"jobs 1 / jobs 2 = {walls['jobs 1'] / walls['jobs 2']:.2f}x, "
           f"jobs 2 / local:2 = {walls['jobs 2'] / walls['local:2']:.2f}x")
     before = load()
-    pool, dask = pool_costs(), dask_costs()
-    print(f"start-up: pool {pool['startup']:.2f} s, local cluster {dask['startup']:.2f} s "
-          f"(+ {dask['shutdown']:.2f} s to stop); load average {before:.1f}")
-    print(f"overhead per task: pool {pool['per_task'] * 1e3:.2f} ms, "
-          f"local cluster {dask['per_task'] * 1e3:.2f} ms")
+    pool = pool_costs()
+    fixed = {way: fixed_costs(way) for way in ("before", "now")}
+    task = dask_per_task()
+    print(f"local cluster fixed costs, before / now (s): " + "; ".join(
+        f"{what} {fixed['before'][what]:.2f} / {fixed['now'][what]:.2f}"
+        for what in ("import", "start", "stop")) + f"; pool start-up {pool['startup']:.2f}; "
+        f"load average {before:.1f}")
+    print(f"overhead per task: pool {pool['per_task'] * 1e3:.2f} ms, local cluster "
+          f"{task['before'] * 1e3:.2f} ms before / {task['now'] * 1e3:.2f} ms now")
+    print(f"  expected jobs 1 / local:2 from these: before "
+          f"{expected(walls, files, pool, fixed['before'], task['before']):.2f}x, now "
+          f"{expected(walls, files, pool, fixed['now'], task['now']):.2f}x "
+          f"(measured jobs 1 / jobs 2 {walls['jobs 1'] / walls['jobs 2']:.2f}x); "
+          f"load average {load():.1f}")
     before = load()
     pf, df = pool_faults(), dask_faults()
     print(f"a worker's death: pool {pf['die']:.2f} s, local cluster {df['die']:.2f} s per death "
@@ -240,12 +334,14 @@ def main() -> None:
           f"beyond the limit; load average {before:.1f}")
     mc = monte_carlo(repeats)
     print(f"Monte Carlo, {MC_SAMPLES:,} samples in {mc['pieces']} pieces (median wall s): "
-          f"this process {mc['here']:.2f}, cluster of 1 worker {mc['workers 1']:.2f}, "
-          f"of 2 workers {mc['workers 2']:.2f}; 1 / 2 workers = "
-          f"{mc['workers 1'] / mc['workers 2']:.2f}x; load average {mc['load_before']:.1f} -> "
+          f"this process {mc['here']:.2f}; cluster of 1 / 2 workers, corners in tasks of their "
+          f"own {mc['now 1']:.2f} / {mc['now 2']:.2f} = {mc['now 1'] / mc['now 2']:.2f}x, in "
+          f"the file's task (before) {mc['before 1']:.2f} / {mc['before 2']:.2f} = "
+          f"{mc['before 1'] / mc['before 2']:.2f}x; load average {mc['load_before']:.1f} -> "
           f"{mc['load_after']:.1f}")
-    print(f"  in this process: all pieces {mc['pieces_here']:.2f} s, the file's own task with "
-          f"the values given {mc['final_here']:.2f} s")
+    print(f"  in this process: all pieces {mc['pieces_here']:.2f} s, the corners' search and "
+          f"engine runs {mc['corners_here']:.2f} s, the file's own task handed both "
+          f"{mc['final_here']:.2f} s, handed the pieces alone {mc['final_pieces_only']:.2f} s")
     before = load()
     per = exact_per_sample()
     print(f"exact engine per sample: {per * 1e3:.1f} ms; load average {before:.1f}")
