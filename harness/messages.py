@@ -145,6 +145,17 @@ def _sign_change(d: r.Diagnostic) -> str:
     return "the post-pulse response changes sign: more than one mode or an oscillation"
 
 
+def _undefined_current(d: r.Diagnostic) -> str:
+    part, loop = d.parts[0], _names(d.parts)
+    given = d.detail.replace(",", ", ") or "the initial values"
+    return (f"the current of {part} at 0- (before the first event) is not established: {part} "
+            f"is in a loop of capacitors and voltage-type parts ({loop}) whose current the "
+            f"resistive network at 0- leaves free, and the initial values given ({given}) are "
+            f"not the circuit's DC state, so it was not at rest and how the loop's current "
+            f"divides depends on how that state was reached; probe a part outside the loop "
+            f"(a resistor feeding it), or give initial values that are the DC state")
+
+
 #: diagnostic code -> its sentence (every code ``harness.results`` declares has one)
 CODES: dict[str, Callable[[r.Diagnostic], str]] = {
     r.FLOATING_NODES: _floating, r.UNDAMPED_OSCILLATION: _undamped,
@@ -154,7 +165,7 @@ CODES: dict[str, Callable[[r.Diagnostic], str]] = {
     r.GROWING_MODE: _growing_mode, r.NO_DC_PATH: _no_dc_path, r.PULSE_GROWTH: _pulse_growth,
     r.UNSETTLED: _unsettled, r.WORK_BUDGET: _work_budget, r.BREAKDOWN: _breakdown,
     r.STOPPED: _stopped, r.NOT_REACHED: _not_reached, r.NO_FINAL: _no_final,
-    r.SIGN_CHANGE: _sign_change,
+    r.SIGN_CHANGE: _sign_change, r.UNDEFINED_CURRENT: _undefined_current,
 }
 
 

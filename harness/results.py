@@ -79,11 +79,16 @@ STOPPED = "integration-stopped"            # interval, time: later intervals not
 NOT_REACHED = "not-reached"                # time (interval for a probe): stopped before it
 NO_FINAL = "no-final-value"                # interval, time; detail: the integrator's status
 SIGN_CHANGE = "sign-change"                # the post-pulse response changes sign
+# Either engine, one probe at t = 0- (``Features.notes``): time 0, parts the probed part then
+# the rest of the loop of capacitors and voltage-type parts its current circulates in, detail
+# the parts with ``initial`` (comma-separated names): the state at 0- is not at rest, so the
+# resistive network at 0- does not fix that current (``before`` is None):
+UNDEFINED_CURRENT = "undefined-loop-current"
 #: every diagnostic code an engine may report (each has its sentence in ``harness.messages``)
 DIAGNOSTIC_CODES = (FLOATING_NODES, UNDAMPED_OSCILLATION, STATE_OVERFLOW, IMPULSE_DERIVATIVE,
                     IMPULSIVE_CURRENT, IMPULSIVE_VOLTAGE, RESPONSE_OVERFLOW, NO_DECAY,
                     GROWING_MODE, NO_DC_PATH, PULSE_GROWTH, UNSETTLED, WORK_BUDGET, BREAKDOWN,
-                    STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE)
+                    STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE, UNDEFINED_CURRENT)
 
 
 @dataclass(frozen=True)

@@ -21,6 +21,7 @@ from .mna import Layout, Scale, capacitor_null_basis, interval_groups, pin, scal
 from .stamps import layout_of, stamp, stamp_sources
 from .modes import UNDAMPED, Mode, mode_of
 from .probes import functional
+from .snapshot import undefined_before
 from .reach import reaching_storage, voltage_of_capacitor
 from .response import IntervalResponse, Pencil, build, pencil_of
 from . import periodic, signoff
@@ -295,6 +296,9 @@ class ClosedFormSolution(NotComputed):
                 terms = self._terms(fn, resp)    # this interval's, and the next one's "before"
                 raws.append(raw_event(resp, before, terms, (end - start) / self.scale.t))
                 before = (resp.x_end, resp.dx_end) + terms
+            unset = undefined_before(self.circuit, self.layout, self.prestep, probe)
+            if unset is not None and raws:
+                raws[0] = replace(raws[0], before=None, unset=unset)
             sc = self._jump_scales()
             floor = SCALE_FLOOR * (sc.current if fn.dimension == "A" else sc.voltage)
             self._probe_cache[key] = (raws, probe_scale(raws, floor))

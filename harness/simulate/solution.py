@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -18,6 +18,7 @@ from .regularise import Regularisation, gain_factor
 from . import periodic, signoff
 from .dominant import dominant as dominant_tau
 from .modal import visible as visible_modes
+from .loops import undefined_before
 
 ENGINE = "numeric"
 
@@ -124,6 +125,8 @@ class NumericSolution(NotComputed):
             return None
         w, _ = self._rows(probe, k - 1)
         if k == 0:
+            if self._unset(probe) is not None:
+                return None
             origin, _, _ = self._origin(-1)
             y0 = self.pre.reduction.integrated(self.y0)
             return float(w @ (y0 - origin) + self._offset(probe, -1))
@@ -131,6 +134,13 @@ class NumericSolution(NotComputed):
             return None
         run = self.runs[k - 1]
         return float(values(run, w, self._offset(probe, k - 1), np.array([run.length]))[0])
+
+    def _unset(self, probe: Probe) -> Diagnostic | None:
+        """Why ``before`` at 0- is not established for ``probe`` (``loops``), else None."""
+        key = ("unset", probe)
+        if key not in self._cache:
+            self._cache[key] = undefined_before(self.circuit, self.pre, self.y0, probe)
+        return self._cache[key]
 
     def _post(self, probe: Probe, k: int):
         key = ("post", probe, k)
@@ -174,7 +184,13 @@ class NumericSolution(NotComputed):
 
     # ----- Solution protocol -----------------------------------------------------------------
     def features(self, probe: Probe, k: int) -> Features:
-        """Values of ``probe`` at event k (see harness.simulate for the methods)."""
+        """Values of ``probe`` at event k (see harness.simulate for the methods); at 0- a
+        current the resistive network leaves free is None with its note (``loops``)."""
+        out = self._features(probe, k)
+        unset = self._unset(probe) if k == 0 else None
+        return out if unset is None else replace(out, notes=(unset,) + tuple(out.notes))
+
+    def _features(self, probe: Probe, k: int) -> Features:
         before, after, final = self._base(probe, k)
         if k >= len(self.runs):
             return Features(before, None, None, notes=(
