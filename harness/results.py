@@ -79,6 +79,10 @@ STOPPED = "integration-stopped"            # interval, time: later intervals not
 NOT_REACHED = "not-reached"                # time (interval for a probe): stopped before it
 NO_FINAL = "no-final-value"                # interval, time; detail: the integrator's status
 SIGN_CHANGE = "sign-change"                # the post-pulse response changes sign
+# Either engine, one probe at one event (``Features.notes``): time, interval, parts the
+# resistors and outputs carrying the impulse (``IMPULSIVE`` hazard): the probe itself carries
+# an impulse there, so no value just after the event is claimed (``after`` is None):
+IMPULSIVE_VALUE = "impulsive-value"
 # Either engine, one probe at t = 0- (``Features.notes``): time 0, parts the probed part then
 # the rest of the loop of capacitors and voltage-type parts its current circulates in, detail
 # the parts with ``initial`` (comma-separated names): the state at 0- is not at rest, so the
@@ -88,7 +92,8 @@ UNDEFINED_CURRENT = "undefined-loop-current"
 DIAGNOSTIC_CODES = (FLOATING_NODES, UNDAMPED_OSCILLATION, STATE_OVERFLOW, IMPULSE_DERIVATIVE,
                     IMPULSIVE_CURRENT, IMPULSIVE_VOLTAGE, RESPONSE_OVERFLOW, NO_DECAY,
                     GROWING_MODE, NO_DC_PATH, PULSE_GROWTH, UNSETTLED, WORK_BUDGET, BREAKDOWN,
-                    STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE, UNDEFINED_CURRENT)
+                    STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE, UNDEFINED_CURRENT,
+                    IMPULSIVE_VALUE)
 
 
 @dataclass(frozen=True)
@@ -199,6 +204,11 @@ class Hazard:
 INTERRUPTED = "interrupted-current"
 FORCED = "forced-current"
 GROWTH = "unbounded-growth"
+#: an event drives an impulse (a Dirac) through a resistor or across an amplifier's or
+#: controlled source's output: a node voltage or a resistor current is infinite for an instant
+#: in the ideal circuit (a step into a bare differentiator); parts: the resistors and outputs
+#: that carry it, values ``"<part>:flux"`` (V s, the impulse's weight across each)
+IMPULSIVE = "impulsive-response"
 
 
 @dataclass(frozen=True)

@@ -6,8 +6,9 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from ..model import CAPACITOR, CONTROLLED, SWITCH, Circuit, Probe
-from ..results import NO_FINAL, NOT_REACHED, Diagnostic, Features, Jump, NotComputed
+from ..model import CAPACITOR, CONTROLLED, RESISTOR, SWITCH, THROUGH, Circuit, Probe
+from ..results import (IMPULSIVE_VALUE, NO_FINAL, NOT_REACHED, Diagnostic, Features, Jump,
+                       NotComputed)
 from ..tolerances import MODE_VISIBILITY, SETTLE_FRACTION
 from .branches import Layout
 from .equations import System
@@ -188,7 +189,40 @@ class NumericSolution(NotComputed):
         current the resistive network leaves free is None with its note (``loops``)."""
         out = self._features(probe, k)
         unset = self._unset(probe) if k == 0 else None
-        return out if unset is None else replace(out, notes=(unset,) + tuple(out.notes))
+        if unset is not None:
+            out = replace(out, notes=(unset,) + tuple(out.notes))
+        impulse = self._impulse(probe, k) if k < len(self.runs) else None
+        return out if impulse is None else replace(out, after=None,
+                                                  notes=(impulse,) + tuple(out.notes))
+
+    def _impulse(self, probe: Probe, k: int) -> Diagnostic | None:
+        """The note for a probe that carries an impulse at event k: where this engine's pulse
+        moves charge through a resistor (``jump``), a ``through`` probe of such a resistor, or
+        a voltage probe whose integral over the pulse window, less the post-pulse fit's,
+        exceeds what ten times the voltage scale (times the controlled gains) gives over the
+        window (the rule of ``_opening_fluxes``)."""
+        key = ("impulse", probe, k)
+        if key not in self._cache:
+            self._cache[key] = self._impulse_note(probe, k)
+        return self._cache[key]
+
+    def _impulse_note(self, probe: Probe, k: int) -> Diagnostic | None:
+        resistors = tuple(nm for nm in self.jump(k).charges
+                          if self.circuit.part(nm).kind == RESISTOR)
+        if not resistors:
+            return None
+        note = Diagnostic(IMPULSIVE_VALUE, self._t(k), k, parts=resistors, engine=ENGINE)
+        if probe.kind == THROUGH:
+            return note if probe.targets[0] in resistors else None
+        run, reg = self.runs[k], self.regularisation
+        nodes, weights = pulse_points(run, reg.post_pulse)
+        if not nodes.size:
+            return None
+        w, _ = self._rows(probe, k)
+        inside = run.probe(w[None, :], np.array([self._offset(probe, k)]), nodes) @ weights
+        flux = float(inside[0] - self._post(probe, k).integral()[0])
+        floor = 10.0 * self.v_scale * gain_factor(self.circuit) * reg.post_pulse
+        return note if abs(flux) > floor else None
 
     def _features(self, probe: Probe, k: int) -> Features:
         before, after, final = self._base(probe, k)
