@@ -56,6 +56,10 @@ class Feedback:
     time: float | None
 
 
+class _Unknown(Exception):
+    """A part kind this test has no equation for: the circuit is not judged."""
+
+
 class _Tableau:
     """Unknowns: node voltages (ground excluded), then one current per part (p -> n)."""
 
@@ -108,7 +112,7 @@ def _row(t: _Tableau, part: Part, closed: dict, condition: str, driven: str) -> 
     if kind == OPAMP:
         sense = t.volt(*part.control)
         return (sense if part.value is None else v - part.value * sense), 0.0
-    raise KeyError(kind)
+    raise _Unknown(kind)
 
 
 def _beta(circuit: Circuit, amp: Part, closed: dict, condition: str) -> float | None:
@@ -158,20 +162,21 @@ def positive_feedback(circuit: Circuit) -> list[Feedback]:
     amps = [p for p in circuit.parts if p.kind == OPAMP]
     if not amps or len(circuit.nodes) + len(circuit.parts) > MAX_UNKNOWNS:
         return []
-    out = []
-    for amp in amps:
-        found = None
-        for time, closed in _configurations(circuit):
-            for condition in (DC, FAST):
-                beta = _beta(circuit, amp, closed, condition)
-                if beta is None:
-                    continue
-                loop = beta if amp.value is None else amp.value * beta - 1.0
-                if loop > MARGIN:
-                    found = Feedback(amp.name, condition, beta, amp.value, time)
-                    break
-            if found:
-                break
-        if found:
-            out.append(found)
-    return out
+    try:
+        found = [_first(circuit, amp) for amp in amps]
+    except _Unknown:
+        return []
+    return [f for f in found if f is not None]
+
+
+def _first(circuit: Circuit, amp: Part) -> Feedback | None:
+    """The first configuration and limit in which ``amp``'s feedback is positive, or None."""
+    for time, closed in _configurations(circuit):
+        for condition in (DC, FAST):
+            beta = _beta(circuit, amp, closed, condition)
+            if beta is None:
+                continue
+            loop = beta if amp.value is None else amp.value * beta - 1.0
+            if loop > MARGIN:
+                return Feedback(amp.name, condition, beta, amp.value, time)
+    return None

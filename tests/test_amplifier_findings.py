@@ -127,3 +127,20 @@ U1 = { kind = "opamp", nodes = ["out", "gnd"], control = ["p", "m"] }
 '''
     (found,) = positive_feedback(_circuit(parts))
     assert found.condition == "fast" and found.beta == pytest.approx(0.5, rel=1e-9)
+
+
+def test_check_of_a_bare_differentiator_fails_and_is_not_an_engine_problem(tmp_path):
+    """The output's hand `after` cannot pass (no value after an impulse); the virtual ground's
+    0 V stands on the closed form alone (the numerical engine's pulse swamps that event), and
+    no field blames the engines."""
+    from harness.runner import check_file
+    path = tmp_path / "bare.toml"
+    path.write_text(HEAD + BARE + '[[expect]]\nnode = "out"\nat = "0 s"\nafter = "0 V"\n'
+                    '[[expect]]\nnode = "x"\nat = "0 s"\nafter = "0 V"\n')
+    result = check_file(str(path))
+    assert result.verdict == "finding"
+    out, x = result.checks
+    assert [f.verdict for f in out.fields if f.name == "after"] == ["mismatch"]
+    assert [f.verdict for f in x.fields if f.name == "after"] == ["pass"]
+    assert any("not cross-checked" in str(msg) for msg in x.messages)
+    assert all(f.verdict != "engines-disagree" for c in result.checks for f in c.fields)

@@ -89,12 +89,16 @@ def _null_space(s: np.ndarray) -> np.ndarray:
 
 
 def free_loop(circuit: Circuit, layout: Layout, prestep: IntervalResponse,
-              probe: Probe) -> tuple[str, ...] | None:
+              probe: Probe, cache: dict) -> tuple[str, ...] | None:
     """The parts of the loop whose free current ``probe`` reads at 0- (module docstring), or
-    None where the resistive network at 0- fixes the probe's value."""
+    None where the resistive network at 0- fixes the probe's value; the null space is kept in
+    ``cache`` for the circuit's other probes."""
     if probe.kind != THROUGH or layout.size > MAX_SIZE:
         return None
-    s, caps = _snapshot(circuit, layout, prestep.g)
+    if "snapshot-null" not in cache:
+        s, caps = _snapshot(circuit, layout, prestep.g)
+        cache["snapshot-null"] = (_null_space(s), caps)
+    null, caps = cache["snapshot-null"]
     names = list(layout.nodes) + list(layout.branches) + caps
     part = probe.targets[0]
     if part in caps:
@@ -103,7 +107,6 @@ def free_loop(circuit: Circuit, layout: Layout, prestep: IntervalResponse,
         index = layout.branch(part)
     else:
         return None
-    null = _null_space(s)
     if null.shape[1] == 0:
         return None
     span = np.abs(null).max(axis=0)
@@ -118,11 +121,11 @@ def free_loop(circuit: Circuit, layout: Layout, prestep: IntervalResponse,
 
 
 def undefined_before(circuit: Circuit, layout: Layout, prestep: IntervalResponse,
-                     probe: Probe) -> Diagnostic | None:
+                     probe: Probe, cache: dict) -> Diagnostic | None:
     """The diagnostic for a ``before`` at 0- that the model leaves undefined, or None."""
     if probe.kind != THROUGH or at_rest(prestep):
         return None
-    loop = free_loop(circuit, layout, prestep, probe)
+    loop = free_loop(circuit, layout, prestep, probe, cache)
     if loop is None:
         return None
     given = tuple(p.name for p in circuit.parts if p.initial is not None)

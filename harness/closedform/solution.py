@@ -315,7 +315,8 @@ class ClosedFormSolution(NotComputed):
                 terms = self._terms(fn, resp)    # this interval's, and the next one's "before"
                 raws.append(raw_event(resp, before, terms, (end - start) / self.scale.t))
                 before = (resp.x_end, resp.dx_end) + terms
-            unset = undefined_before(self.circuit, self.layout, self.prestep, probe)
+            unset = undefined_before(self.circuit, self.layout, self.prestep, probe,
+                                     self._jump_cache)
             if unset is not None and raws:
                 raws[0] = replace(raws[0], before=None, unset=unset)
             sc = self._jump_scales()

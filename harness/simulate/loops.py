@@ -65,21 +65,25 @@ def loop_through(circuit: Circuit, name: str) -> tuple[str, ...] | None:
     return (name,) + tuple(reversed(path))
 
 
-def at_rest(pre: System, y0: np.ndarray) -> bool:
-    """Whether y(0-) satisfies the pre-step DC rows (module docstring)."""
+def at_rest(pre: System, y0: np.ndarray, n_nodes: int) -> bool:
+    """Whether y(0-) satisfies the pre-step DC rows (module docstring), the node rows
+    (currents) and the other rows (voltages) each against their own largest term."""
     residual = np.abs(pre.K_dc @ y0 - pre.b_dc)
     terms = abs(pre.K_dc) @ np.abs(y0) + np.abs(pre.b_dc)
-    top = float(np.max(terms, initial=0.0))
-    return float(np.max(residual, initial=0.0)) <= REST * max(top, 1e-300)
+    for rows in (slice(0, n_nodes), slice(n_nodes, None)):
+        top = float(np.max(terms[rows], initial=0.0))
+        if float(np.max(residual[rows], initial=0.0)) > REST * max(top, 1e-300):
+            return False
+    return True
 
 
-def undefined_before(circuit: Circuit, pre: System, y0: np.ndarray,
+def undefined_before(circuit: Circuit, pre: System, y0: np.ndarray, n_nodes: int,
                      probe: Probe) -> Diagnostic | None:
     """The diagnostic for a ``before`` at 0- this engine does not establish, or None."""
     if probe.kind != THROUGH:
         return None
     loop = loop_through(circuit, probe.targets[0])
-    if loop is None or at_rest(pre, y0):
+    if loop is None or at_rest(pre, y0, n_nodes):
         return None
     given = ",".join(p.name for p in circuit.parts if p.initial is not None)
     return Diagnostic(UNDEFINED_CURRENT, 0.0, parts=loop, detail=given, engine="numeric")

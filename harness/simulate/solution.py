@@ -140,7 +140,8 @@ class NumericSolution(NotComputed):
         """Why ``before`` at 0- is not established for ``probe`` (``loops``), else None."""
         key = ("unset", probe)
         if key not in self._cache:
-            self._cache[key] = undefined_before(self.circuit, self.pre, self.y0, probe)
+            self._cache[key] = undefined_before(self.circuit, self.pre, self.y0,
+                                                     len(self.layout.nodes), probe)
         return self._cache[key]
 
     def _post(self, probe: Probe, k: int):
