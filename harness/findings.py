@@ -31,7 +31,7 @@ from dataclasses import dataclass
 
 from .feedback import POSITIVE_FEEDBACK, positive_feedback
 from .messages import hazard_text, open_node_text, positive_feedback_text
-from .model import RESISTOR, Circuit
+from .model import Circuit
 from .results import FORCED, GROWTH, IMPULSIVE, INTERRUPTED, Hazard, Jump
 from .topology import dangling_nodes
 
@@ -89,7 +89,7 @@ def _numeric_sees(h: Hazard, numeric, k: int) -> bool | None:
     if jump.energy is None and not jump.forced and jump.warnings:
         return None                              # it stopped before this event
     if h.code == IMPULSIVE:
-        return any(numeric.circuit.part(p).kind == RESISTOR for p in jump.charges)
+        return bool(numeric.impulsive_resistors(k))
     return set(jump.forced) == {p for p in h.parts if f"{p}:before" in h.values}
 
 

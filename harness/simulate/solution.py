@@ -35,6 +35,9 @@ FIT_TO_MODE = 1e-2
 #: fit windows per time constant below which a mode's share of an after-value is unresolved
 #: (``NumericSolution.resolution``)
 RESOLVE = 25.0
+#: a resistor's charge in the pulse is an impulse only above this share of the largest charge
+#: another part moves in it (the impulse of a capacitor's current passes on whole)
+IMPULSE_SHARE = 1e-3
 
 
 @dataclass(frozen=True)
@@ -207,9 +210,22 @@ class NumericSolution(NotComputed):
             self._cache[key] = self._impulse_note(probe, k)
         return self._cache[key]
 
+    def impulsive_resistors(self, k: int) -> tuple[str, ...]:
+        """The resistors through which this engine's pulse at event k moves an impulse of
+        charge: more than a finite current can carry over the pulse window (ten times the
+        current scale times the controlled gains, the rule of ``_opening_fluxes``) and more
+        than ``IMPULSE_SHARE`` of the largest charge any other part moves in the pulse."""
+        charges = self.jump(k).charges
+        others = [abs(q) for nm, q in charges.items()
+                  if self.circuit.part(nm).kind != RESISTOR]
+        floor = max(10.0 * self.i_scale * gain_factor(self.circuit)
+                    * self.regularisation.post_pulse,
+                    IMPULSE_SHARE * max(others, default=0.0))
+        return tuple(nm for nm, q in charges.items()
+                     if self.circuit.part(nm).kind == RESISTOR and abs(q) > floor)
+
     def _impulse_note(self, probe: Probe, k: int) -> Diagnostic | None:
-        resistors = tuple(nm for nm in self.jump(k).charges
-                          if self.circuit.part(nm).kind == RESISTOR)
+        resistors = self.impulsive_resistors(k)
         if not resistors:
             return None
         note = Diagnostic(IMPULSIVE_VALUE, self._t(k), k, parts=resistors, engine=ENGINE)
