@@ -25,14 +25,12 @@ with the engines (the comparator layer: findings).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 
 from .model import (CAPACITOR, CCCS, CCVS, CURRENT_SOURCE, INDUCTOR, OPAMP, RESISTOR, SWITCH,
                     VCCS, VCVS, VOLTAGE_SOURCE, Circuit, Part)
+from .results import POSITIVE_FEEDBACK, Hazard
 
-POSITIVE_FEEDBACK = "positive-feedback"
 DC, FAST = "dc", "fast"
 #: beta (or A·beta - 1 for a finite gain) above this is positive feedback; the network's own
 #: rounding is ~1e-15
@@ -41,19 +39,6 @@ MARGIN = 1e-9
 RCOND = 1e-12
 #: larger systems are not analysed (a dense SVD)
 MAX_UNKNOWNS = 600
-
-
-@dataclass(frozen=True)
-class Feedback:
-    """One amplifier with positive feedback: its name, the limit (``DC`` or ``FAST``), the
-    feedback factor beta (V/V), its gain A (None: ideal), the time from which the switch
-    configuration holds (s; None: before t = 0)."""
-
-    amplifier: str
-    condition: str
-    beta: float
-    gain: float | None
-    time: float | None
 
 
 class _Unknown(Exception):
@@ -157,8 +142,9 @@ def _configurations(circuit: Circuit) -> list[tuple[float | None, dict]]:
     return out
 
 
-def positive_feedback(circuit: Circuit) -> list[Feedback]:
-    """Every op-amp whose feedback is positive (module docstring), once each."""
+def positive_feedback(circuit: Circuit) -> list[Hazard]:
+    """Every op-amp whose feedback is positive (module docstring), once each, as a
+    ``results.POSITIVE_FEEDBACK`` hazard."""
     amps = [p for p in circuit.parts if p.kind == OPAMP]
     if not amps or len(circuit.nodes) + len(circuit.parts) > MAX_UNKNOWNS:
         return []
@@ -169,7 +155,7 @@ def positive_feedback(circuit: Circuit) -> list[Feedback]:
     return [f for f in found if f is not None]
 
 
-def _first(circuit: Circuit, amp: Part) -> Feedback | None:
+def _first(circuit: Circuit, amp: Part) -> Hazard | None:
     """The first configuration and limit in which ``amp``'s feedback is positive, or None."""
     for time, closed in _configurations(circuit):
         for condition in (DC, FAST):
@@ -178,5 +164,10 @@ def _first(circuit: Circuit, amp: Part) -> Feedback | None:
                 continue
             loop = beta if amp.value is None else amp.value * beta - 1.0
             if loop > MARGIN:
-                return Feedback(amp.name, condition, beta, amp.value, time)
+                values = {"beta": beta, "fast": float(condition == FAST),
+                          "pre-step": float(time is None)}
+                if amp.value is not None:
+                    values["gain"] = amp.value
+                return Hazard(POSITIVE_FEEDBACK, 0.0 if time is None else time, (amp.name,),
+                              (), values)
     return None

@@ -29,8 +29,8 @@ from __future__ import annotations
 import difflib
 from dataclasses import dataclass
 
-from .feedback import POSITIVE_FEEDBACK, positive_feedback
-from .messages import hazard_text, open_node_text, positive_feedback_text
+from .feedback import positive_feedback
+from .messages import hazard_text, open_node_text
 from .model import Circuit
 from .results import FORCED, GROWTH, IMPULSIVE, INTERRUPTED, Hazard, Jump
 from .topology import dangling_nodes
@@ -107,8 +107,7 @@ def findings(circuit: Circuit, exact, numeric=None) -> tuple[Finding, ...]:
             sees = (_numeric_sees(h, numeric, circuit.events.index(h.time))
                     if h.code == IMPULSIVE and h.time in circuit.events else None)
             out.append(_hazard_finding(h, sees))
-    out += [Finding(POSITIVE_FEEDBACK, (f.amplifier,), positive_feedback_text(
-        f.amplifier, f.condition, f.beta, f.gain, f.time)) for f in positive_feedback(circuit)]
+    out += [_hazard_finding(h, None) for h in positive_feedback(circuit)]
     ack = set(circuit.settings.acknowledge)
     return tuple(Finding(f.code, f.subjects, f.message, bool(ack & set(f.subjects)))
                  for f in out)

@@ -237,20 +237,18 @@ def hazard_text(h: r.Hazard, numeric_sees: bool | None = None) -> str:
     """The finding for a hazard (``numeric_sees`` False: the numerical engine's own jump does
     not show it, which the sentence says)."""
     said = (_growth_hazard(h) if h.code == r.GROWTH else
-            _impulse_hazard(h) if h.code == r.IMPULSIVE else _jump_hazard(h))
+            _impulse_hazard(h) if h.code == r.IMPULSIVE else
+            _feedback_hazard(h) if h.code == r.POSITIVE_FEEDBACK else _jump_hazard(h))
     if numeric_sees is False:
         said += " (the numerical engine's integration does not show this jump: review it)"
     return said
 
 
-def positive_feedback_text(amplifier: str, condition: str, beta: float, gain: float | None,
-                           time: float | None) -> str:
-    """The finding for an op-amp with positive feedback (``harness.feedback``): ``condition``
-    ``dc`` (capacitors open) or ``fast`` (capacitors shorted), the feedback factor ``beta``
-    (V/V), its gain (None: ideal), the time its switch configuration starts (None: before 0)."""
-    where = "at DC (capacitors open, inductors shorted)" if condition == "dc" else \
-        "at high frequency (capacitors shorted, inductors open)"
-    when = "before t = 0" if time is None else f"from {format_si(time, 's')}"
+def _feedback_hazard(h: r.Hazard) -> str:
+    amplifier, beta, gain = h.parts[0], h.values["beta"], h.values.get("gain")
+    where = ("at high frequency (capacitors shorted, inductors open)" if h.values.get("fast")
+             else "at DC (capacitors open, inductors shorted)")
+    when = "before t = 0" if h.values.get("pre-step") else f"from {format_si(h.time, 's')}"
     loop = (f"the loop gain A·β = {gain * beta:.4g} exceeds 1" if gain is not None
             else "the loop gain is positive")
     return (f"{amplifier} has positive feedback {where} {when}: with its output driven, "

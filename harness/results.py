@@ -209,6 +209,11 @@ GROWTH = "unbounded-growth"
 #: in the ideal circuit (a step into a bare differentiator); parts: the resistors and outputs
 #: that carry it, values ``"<part>:flux"`` (V s, the impulse's weight across each)
 IMPULSIVE = "impulsive-response"
+#: an op-amp's feedback is positive (``harness.feedback``): time the event from which the
+#: switch configuration holds (0 for the pre-step one, with ``"pre-step"`` 1), parts the
+#: amplifier, values ``"beta"`` (V/V), ``"gain"`` (finite gain A, absent for the nullor),
+#: ``"fast"`` (1: with capacitors shorted and inductors open, 0: at DC)
+POSITIVE_FEEDBACK = "positive-feedback"
 
 
 @dataclass(frozen=True)

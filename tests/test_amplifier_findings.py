@@ -16,9 +16,9 @@ import sympy as sp
 from harness import model as m
 from harness.circuitfile import parse_circuit
 from harness.closedform import solve as exact
-from harness.feedback import DC, positive_feedback
+from harness.feedback import positive_feedback
 from harness.findings import findings
-from harness.results import IMPULSIVE, IMPULSIVE_VALUE
+from harness.results import IMPULSIVE, IMPULSIVE_VALUE, POSITIVE_FEEDBACK
 from harness.simulate.engine import solve as numeric
 
 HEAD = ('title = "stage"\n[parts]\nV1 = { kind = "voltage-source", nodes = ["in", "gnd"], '
@@ -88,8 +88,9 @@ def test_inverting_amplifier_has_no_finding_and_swapped_inputs_have_one(gain):
     assert positive_feedback(good) == []
     swapped = _circuit(INVERTING.replace("GAIN", gain).replace('["gnd", "x"]', '["x", "gnd"]'))
     (found,) = positive_feedback(swapped)
-    assert found.amplifier == "U1" and found.condition == DC
-    assert found.beta == pytest.approx(1000 / 3000, rel=1e-9)          # R1/(R1 + R2)
+    assert found.code == POSITIVE_FEEDBACK and found.parts == ("U1",)
+    assert found.values["fast"] == 0.0 and found.values["pre-step"] == 1.0
+    assert found.values["beta"] == pytest.approx(1000 / 3000, rel=1e-9)   # R1/(R1 + R2)
 
 
 def test_finite_gain_below_unity_loop_gain_is_not_a_latch():
@@ -107,7 +108,7 @@ U1 = { kind = "opamp", nodes = ["out", "gnd"], control = ["p", "m"] }
 '''
     circuit = _circuit(schmitt)
     (found,) = positive_feedback(circuit)
-    assert found.beta == pytest.approx(10 / 110, rel=1e-9)             # R1/(R1 + R2)
+    assert found.values["beta"] == pytest.approx(10 / 110, rel=1e-9)   # R1/(R1 + R2)
     (finding,) = [f for f in findings(circuit, exact(circuit)) if f.code == "positive-feedback"]
     assert finding.subjects == ("U1",) and "latches" in finding.message
     acknowledged = parse_circuit(HEAD + schmitt + '[settings]\nacknowledge = ["U1"]\n', "s.toml")
@@ -126,7 +127,8 @@ R4 = { kind = "resistor", nodes = ["m", "out"], value = "1k" }
 U1 = { kind = "opamp", nodes = ["out", "gnd"], control = ["p", "m"] }
 '''
     (found,) = positive_feedback(_circuit(parts))
-    assert found.condition == "fast" and found.beta == pytest.approx(0.5, rel=1e-9)
+    assert found.values["fast"] == 1.0
+    assert found.values["beta"] == pytest.approx(0.5, rel=1e-9)
 
 
 def test_check_of_a_bare_differentiator_fails_and_is_not_an_engine_problem(tmp_path):
