@@ -214,7 +214,12 @@ class NumericSolution(NotComputed):
         """The resistors through which this engine's pulse at event k moves an impulse of
         charge: more than a finite current can carry over the pulse window (ten times the
         current scale times the controlled gains, the rule of ``_opening_fluxes``) and more
-        than ``IMPULSE_SHARE`` of the largest charge any other part moves in the pulse."""
+        than ``IMPULSE_SHARE`` of the largest charge any other part moves in the pulse.  A
+        circuit without a controlled source or amplifier has none (each loop that carries an
+        impulse is one of capacitors and voltage sources, never through a resistance), so its
+        jumps are not computed for this."""
+        if not any(p.kind in CONTROLLED for p in self.circuit.parts) or k >= len(self.runs):
+            return ()
         charges = self.jump(k).charges
         others = [abs(q) for nm, q in charges.items()
                   if self.circuit.part(nm).kind != RESISTOR]
