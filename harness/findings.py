@@ -12,7 +12,12 @@ finding is still reported.  Kinds (``Finding.code``):
 * ``forced-current``: an opening switch forces inductor currents to jump: an impulse of voltage
   across the switch dissipates the jump's energy in it;
 * ``unbounded-growth``: a current into nodes with no DC path, or a growing mode
-  (``ClosedFormSolution.hazards``).
+  (``ClosedFormSolution.hazards``);
+* ``impulsive-response``: an event drives an impulse of voltage across a resistor or an
+  amplifier's output (a step into a bare differentiator): a node voltage and a resistor current
+  are infinite for an instant in the ideal circuit (``ClosedFormSolution.hazards``; the sentence
+  says where the numerical engine's pulse moves no charge through a resistor);
+* ``positive-feedback``: an op-amp whose feedback is positive (``harness.feedback``).
 
 The jump findings come from the closed form's jump; where the numerical engine, by its own
 integration, sees a different set of forced inductors, the message says so.  Their sentences
@@ -24,9 +29,10 @@ from __future__ import annotations
 import difflib
 from dataclasses import dataclass
 
+from .feedback import positive_feedback
 from .messages import hazard_text, open_node_text
 from .model import Circuit
-from .results import FORCED, GROWTH, INTERRUPTED, Hazard, Jump
+from .results import FORCED, GROWTH, IMPULSIVE, INTERRUPTED, Hazard, Jump
 from .topology import dangling_nodes
 
 OPEN_NODE = "open-node"
@@ -75,12 +81,15 @@ def _hazard_finding(h: Hazard, numeric_sees: bool | None) -> Finding:
 
 
 def _numeric_sees(h: Hazard, numeric, k: int) -> bool | None:
-    """Whether the numerical engine's own jump forces the same inductors (None: not run)."""
+    """Whether the numerical engine's own jump forces the same inductors, or (an impulse)
+    moves charge through a resistor (None: not run)."""
     if numeric is None or h.code == GROWTH:
         return None
     jump = numeric.jump(k)
     if jump.energy is None and not jump.forced and jump.warnings:
         return None                              # it stopped before this event
+    if h.code == IMPULSIVE:
+        return bool(numeric.impulsive_resistors(k))
     return set(jump.forced) == {p for p in h.parts if f"{p}:before" in h.values}
 
 
@@ -95,7 +104,10 @@ def findings(circuit: Circuit, exact, numeric=None) -> tuple[Finding, ...]:
         key = (h.code, h.parts, h.nodes, tuple(sorted(h.values)))
         if key not in seen:
             seen.add(key)
-            out.append(_hazard_finding(h, None))
+            sees = (_numeric_sees(h, numeric, circuit.events.index(h.time))
+                    if h.code == IMPULSIVE and h.time in circuit.events else None)
+            out.append(_hazard_finding(h, sees))
+    out += [_hazard_finding(h, None) for h in positive_feedback(circuit)]
     ack = set(circuit.settings.acknowledge)
     return tuple(Finding(f.code, f.subjects, f.message, bool(ack & set(f.subjects)))
                  for f in out)

@@ -141,8 +141,25 @@ def _no_final(d: r.Diagnostic) -> str:
     return f"the response did not settle ({d.detail}): no final value"
 
 
+def _impulsive_value(d: r.Diagnostic) -> str:
+    return (f"at {_at(d)} this probe carries an impulse (a Dirac) driven through "
+            f"{_names(d.parts)}: in the ideal circuit it is infinite for an instant, so no "
+            f"value just after the event is claimed (see the impulsive-response finding)")
+
+
 def _sign_change(d: r.Diagnostic) -> str:
     return "the post-pulse response changes sign: more than one mode or an oscillation"
+
+
+def _undefined_current(d: r.Diagnostic) -> str:
+    part, loop = d.parts[0], _names(d.parts)
+    given = d.detail.replace(",", ", ") or "the initial values"
+    return (f"the current of {part} at 0- (before the first event) is not established: {part} "
+            f"is in a loop of capacitors and voltage-type parts ({loop}) whose current the "
+            f"resistive network at 0- leaves free, and the initial values given ({given}) are "
+            f"not the circuit's DC state, so it was not at rest and how the loop's current "
+            f"divides depends on how that state was reached; probe a part outside the loop "
+            f"(a resistor feeding it), or give initial values that are the DC state")
 
 
 #: diagnostic code -> its sentence (every code ``harness.results`` declares has one)
@@ -154,7 +171,8 @@ CODES: dict[str, Callable[[r.Diagnostic], str]] = {
     r.GROWING_MODE: _growing_mode, r.NO_DC_PATH: _no_dc_path, r.PULSE_GROWTH: _pulse_growth,
     r.UNSETTLED: _unsettled, r.WORK_BUDGET: _work_budget, r.BREAKDOWN: _breakdown,
     r.STOPPED: _stopped, r.NOT_REACHED: _not_reached, r.NO_FINAL: _no_final,
-    r.SIGN_CHANGE: _sign_change,
+    r.SIGN_CHANGE: _sign_change, r.UNDEFINED_CURRENT: _undefined_current,
+    r.IMPULSIVE_VALUE: _impulsive_value,
 }
 
 
@@ -202,13 +220,43 @@ def _growth_hazard(h: r.Hazard) -> str:
             f"the voltage grows without bound")
 
 
+def _impulse_hazard(h: r.Hazard) -> str:
+    when = format_si(h.time, "s")
+    weights = ", ".join(f"{p} ({format_si(h.values[f'{p}:flux'], 'V s')})" for p in h.parts
+                        if f"{p}:flux" in h.values)
+    return (f"at {when} the event drives an impulse of voltage across {weights}: in the ideal "
+            f"circuit a node voltage and a resistor current are infinite for an instant (the "
+            f"impulse of a capacitor's current carried on through a resistor, as in a "
+            f"differentiator without a series resistor); a real amplifier saturates instead, so "
+            f"no value just after the event is claimed for the parts it reaches; add a "
+            f"resistance in series with the capacitor (or a capacitor across the feedback "
+            f"resistor), or list {h.parts[0]} in [settings] acknowledge")
+
+
 def hazard_text(h: r.Hazard, numeric_sees: bool | None = None) -> str:
     """The finding for a hazard (``numeric_sees`` False: the numerical engine's own jump does
     not show it, which the sentence says)."""
-    said = _growth_hazard(h) if h.code == r.GROWTH else _jump_hazard(h)
+    said = (_growth_hazard(h) if h.code == r.GROWTH else
+            _impulse_hazard(h) if h.code == r.IMPULSIVE else
+            _feedback_hazard(h) if h.code == r.POSITIVE_FEEDBACK else _jump_hazard(h))
     if numeric_sees is False:
         said += " (the numerical engine's integration does not show this jump: review it)"
     return said
+
+
+def _feedback_hazard(h: r.Hazard) -> str:
+    amplifier, beta, gain = h.parts[0], h.values["beta"], h.values.get("gain")
+    where = ("at high frequency (capacitors shorted, inductors open)" if h.values.get("fast")
+             else "at DC (capacitors open, inductors shorted)")
+    when = "before t = 0" if h.values.get("pre-step") else f"from {format_si(h.time, 's')}"
+    loop = (f"the loop gain A·β = {gain * beta:.4g} exceeds 1" if gain is not None
+            else "the loop gain is positive")
+    return (f"{amplifier} has positive feedback {where} {when}: with its output driven, "
+            f"v(+) − v(−) follows it with β = {beta:+.4g}, so {loop}; the ideal model "
+            f"solves the stage as if the feedback were negative, but a real amplifier latches "
+            f"at a supply rail (a comparator with hysteresis); check which input the feedback "
+            f"goes to, or list {amplifier} in [settings] acknowledge if the stage is meant to "
+            f"switch")
 
 
 #: why an engine gives no periodic steady state (``results.PeriodicValue.reason``)

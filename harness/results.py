@@ -79,11 +79,21 @@ STOPPED = "integration-stopped"            # interval, time: later intervals not
 NOT_REACHED = "not-reached"                # time (interval for a probe): stopped before it
 NO_FINAL = "no-final-value"                # interval, time; detail: the integrator's status
 SIGN_CHANGE = "sign-change"                # the post-pulse response changes sign
+# Either engine, one probe at one event (``Features.notes``): time, interval, parts the
+# resistors and outputs carrying the impulse (``IMPULSIVE`` hazard): the probe itself carries
+# an impulse there, so no value just after the event is claimed (``after`` is None):
+IMPULSIVE_VALUE = "impulsive-value"
+# Either engine, one probe at t = 0- (``Features.notes``): time 0, parts the probed part then
+# the rest of the loop of capacitors and voltage-type parts its current circulates in, detail
+# the parts with ``initial`` (comma-separated names): the state at 0- is not at rest, so the
+# resistive network at 0- does not fix that current (``before`` is None):
+UNDEFINED_CURRENT = "undefined-loop-current"
 #: every diagnostic code an engine may report (each has its sentence in ``harness.messages``)
 DIAGNOSTIC_CODES = (FLOATING_NODES, UNDAMPED_OSCILLATION, STATE_OVERFLOW, IMPULSE_DERIVATIVE,
                     IMPULSIVE_CURRENT, IMPULSIVE_VOLTAGE, RESPONSE_OVERFLOW, NO_DECAY,
                     GROWING_MODE, NO_DC_PATH, PULSE_GROWTH, UNSETTLED, WORK_BUDGET, BREAKDOWN,
-                    STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE)
+                    STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE, UNDEFINED_CURRENT,
+                    IMPULSIVE_VALUE)
 
 
 @dataclass(frozen=True)
@@ -194,6 +204,16 @@ class Hazard:
 INTERRUPTED = "interrupted-current"
 FORCED = "forced-current"
 GROWTH = "unbounded-growth"
+#: an event drives an impulse (a Dirac) through a resistor or across an amplifier's or
+#: controlled source's output: a node voltage or a resistor current is infinite for an instant
+#: in the ideal circuit (a step into a bare differentiator); parts: the resistors and outputs
+#: that carry it, values ``"<part>:flux"`` (V s, the impulse's weight across each)
+IMPULSIVE = "impulsive-response"
+#: an op-amp's feedback is positive (``harness.feedback``): time the event from which the
+#: switch configuration holds (0 for the pre-step one, with ``"pre-step"`` 1), parts the
+#: amplifier, values ``"beta"`` (V/V), ``"gain"`` (finite gain A, absent for the nullor),
+#: ``"fast"`` (1: with capacitors shorted and inductors open, 0: at DC)
+POSITIVE_FEEDBACK = "positive-feedback"
 
 
 @dataclass(frozen=True)

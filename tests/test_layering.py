@@ -29,7 +29,7 @@ from test_independence import imported_modules
 
 HARNESS = Path(__file__).resolve().parents[1] / "harness"
 ENGINES = ("harness.closedform", "harness.simulate")
-COMPARATOR = ("harness.compare", "harness.findings")
+COMPARATOR = ("harness.compare", "harness.findings", "harness.feedback")
 #: the command line and what drives a run (the worker pool and the progress bar are shared
 #: infrastructure: the report writers draw plots in the same pool)
 APPLICATION = ("harness.cli", "harness.runner", "harness.config", "harness.starter",

@@ -44,6 +44,8 @@ class RawEvent:
         clusters: (scaled rate, polynomial coefficients a_m) per non-zero cluster.
         growth: a_m for m >= 1 of the zero cluster (polynomial growth), shape (m-1,).
         span: the length of interval k's span in scaled time (for growth amplitudes).
+        unset: why ``before`` is None although the state is finite (a current at 0- the
+            resistive network at 0- leaves free, ``snapshot.undefined_before``), else None.
     """
 
     before: float | None
@@ -52,6 +54,7 @@ class RawEvent:
     clusters: tuple[tuple[complex, np.ndarray], ...]
     growth: np.ndarray
     span: float
+    unset: Diagnostic | None = None
 
 
 def _finite(value: complex | float) -> float | None:
@@ -175,7 +178,9 @@ def classify(ev: RawEvent, scale: float, t_ref: float) -> Features:
              for m, a in enumerate(ev.growth)]):
         bounded = False
         notes.append(Diagnostic(NO_DC_PATH))
-    if ev.before is None or ev.after is None:
+    if ev.unset is not None:
+        notes.append(ev.unset)
+    if (ev.before is None and ev.unset is None) or ev.after is None:
         notes.append(Diagnostic(RESPONSE_OVERFLOW))
     notes = list(dict.fromkeys(notes))
     modes = _merge(taus)

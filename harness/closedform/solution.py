@@ -9,18 +9,21 @@ import numpy as np
 from ..errors import TopologyError
 from ..model import (ACROSS, CAPACITOR, CONTROLLED, CURRENT_BRANCHES, CURRENT_SOURCE, NODE,
                      SOURCES, SWITCH, THROUGH, VOLTAGE_CONTROLLED, Circuit, Probe)
-from ..results import (FLOATING_NODES, GROWTH, UNDAMPED_OSCILLATION, Conditioning, Diagnostic,
-                       Features, Hazard, Jump, NotComputed)
+from ..results import (FLOATING_NODES, GROWTH, IMPULSIVE, RESPONSE_OVERFLOW,
+                       UNDAMPED_OSCILLATION, Conditioning, Diagnostic, Features, Hazard, Jump,
+                       NotComputed)
 from ..tolerances import MODE_VISIBILITY, SETTLE_FRACTION
 from ..units import format_si
 from .features import SCALE_FLOOR, RawEvent, classify, node_values, probe_scale, raw_event
 from .initial import dc_state
 from .interval import SingularPencil
-from .jumps import Scales, jump_at
+from .jumps import Scales, impulse_weights, jump_at
+from .impulses import impulse_hazard, probe_impulse
 from .mna import Layout, Scale, capacitor_null_basis, interval_groups, pin, scale_of, scaled
 from .stamps import layout_of, stamp, stamp_sources
 from .modes import UNDAMPED, Mode, mode_of
 from .probes import functional
+from .snapshot import undefined_before
 from .reach import reaching_storage, voltage_of_capacitor
 from .response import IntervalResponse, Kept, Pencil, build, pencil_of
 from . import signoff
@@ -59,9 +62,14 @@ class ClosedFormSolution(NotComputed):
 
     # ----------------------------------------------------------------- the Solution protocol
     def features(self, probe: Probe, k: int) -> Features:
-        """Values of ``probe`` at event k (before, after, final, order, modes, tau)."""
+        """Values of ``probe`` at event k (before, after, final, order, modes, tau); a probe
+        that carries an impulse at the event has no ``after`` (``impulses``)."""
         raws, scale = self._raw(probe)
         out = classify(raws[k], scale, self.scale.t)
+        impulse = self._impulse(probe, k)
+        if impulse is not None:
+            out = replace(out, after=None, notes=(impulse,) + tuple(
+                n for n in out.notes if n.code != RESPONSE_OVERFLOW))
         if out.order is not None and out.order > 1:
             try:
                 out = replace(out, dominant_tau=self._dominant_sum(probe, k))
@@ -277,6 +285,18 @@ class ClosedFormSolution(NotComputed):
         return found
 
     # ----------------------------------------------------------------- internals
+    def _impulse(self, probe: Probe, k: int) -> Diagnostic | None:
+        """The note of an impulse ``probe`` carries at event k (``impulses``), else None."""
+        hazard = next((h for h in self.hazards if h.code == IMPULSIVE
+                       and h.time == self.intervals[k].start), None)
+        if hazard is None:
+            return None
+        resp = self.intervals[k]
+        fn = functional(self.circuit, self.layout, probe)
+        c_probe = self._terms(fn, resp)[0][:resp.n]
+        q = impulse_weights(resp.g, resp.c, self._x_minus(k), resp.x_plus)
+        return probe_impulse(probe, hazard, k, c_probe, q, self._jump_scales())
+
     def _x_minus(self, k: int) -> np.ndarray:
         return self.prestep.x_plus if k == 0 else self.intervals[k - 1].x_end
 
@@ -301,6 +321,10 @@ class ClosedFormSolution(NotComputed):
                 terms = self._terms(fn, resp)    # this interval's, and the next one's "before"
                 raws.append(raw_event(resp, before, terms, (end - start) / self.scale.t))
                 before = (resp.x_end, resp.dx_end) + terms
+            unset = undefined_before(self.circuit, self.layout, self.prestep, probe,
+                                     self._jump_cache)
+            if unset is not None and raws:
+                raws[0] = replace(raws[0], before=None, unset=unset)
             sc = self._jump_scales()
             floor = SCALE_FLOOR * (sc.current if fn.dimension == "A" else sc.voltage)
             self._probe_cache[key] = (raws, probe_scale(raws, floor))
@@ -436,7 +460,9 @@ def solve(circuit: Circuit) -> ClosedFormSolution:
     for k, resp in enumerate(intervals):
         jump = sol.jump(k)
         warnings += list(jump.warnings)
-        hazards += _interval_hazards(circuit, resp, scale)
+        impulse = impulse_hazard(circuit, jump)
+        hazards += ([impulse] if impulse is not None else []) + \
+            _interval_hazards(circuit, resp, scale)
     return replace(sol, warnings=tuple(dict.fromkeys(warnings)), hazards=tuple(hazards))
 
 

@@ -17,7 +17,7 @@ import numpy as np
 from .. import tolerances as tol
 from ..model import (ACROSS, BETWEEN, CURRENT_SOURCE, NODE, RESISTOR, THROUGH, VOLTAGE_SOURCE,
                      Circuit, Expectation, Probe)
-from ..results import Features, Solution
+from ..results import IMPULSIVE, Features, Solution
 from ..units import format_exact
 
 
@@ -114,6 +114,14 @@ class CheckContext:
         limit = None if self.numeric is None else self.numeric.resolution(self.k)
         if limit is None:
             return ""
+        impulse = next((h for h in self.exact.hazards if h.code == IMPULSIVE
+                        and h.time == self.circuit.events[self.k]), None)
+        if impulse is not None:
+            return (f"not cross-checked after the event: it drives an impulse through "
+                    f"{', '.join(impulse.parts)} (the impulsive-response finding), whose "
+                    f"narrow pulse in the numerical engine swamps what follows it; the closed "
+                    f"form's after-value, τ, order, peak, crossing and dominant τ stand alone: "
+                    f"a limit of the numerical engine")
         fe = self.exact.features(self.probe, self.k)
         fast = [t for t in fe.modes if t < limit]
         if not fast:

@@ -2,12 +2,13 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from ..model import CAPACITOR, CONTROLLED, SWITCH, Circuit, Probe
-from ..results import NO_FINAL, NOT_REACHED, Diagnostic, Features, Jump, NotComputed
+from ..model import CAPACITOR, CONTROLLED, RESISTOR, SWITCH, THROUGH, Circuit, Probe
+from ..results import (IMPULSIVE_VALUE, NO_FINAL, NOT_REACHED, Diagnostic, Features, Jump,
+                       NotComputed)
 from ..tolerances import MODE_VISIBILITY, SETTLE_FRACTION
 from .branches import Layout
 from .equations import System
@@ -18,6 +19,7 @@ from .regularise import Regularisation, gain_factor
 from . import periodic, signoff
 from .dominant import dominant as dominant_tau
 from .modal import visible as visible_modes
+from .loops import undefined_before
 
 ENGINE = "numeric"
 
@@ -33,6 +35,9 @@ FIT_TO_MODE = 1e-2
 #: fit windows per time constant below which a mode's share of an after-value is unresolved
 #: (``NumericSolution.resolution``)
 RESOLVE = 25.0
+#: a resistor's charge in the pulse is an impulse only above this share of the largest charge
+#: another part moves in it (the impulse of a capacitor's current passes on whole)
+IMPULSE_SHARE = 1e-3
 
 
 @dataclass(frozen=True)
@@ -124,6 +129,8 @@ class NumericSolution(NotComputed):
             return None
         w, _ = self._rows(probe, k - 1)
         if k == 0:
+            if self._unset(probe) is not None:
+                return None
             origin, _, _ = self._origin(-1)
             y0 = self.pre.reduction.integrated(self.y0)
             return float(w @ (y0 - origin) + self._offset(probe, -1))
@@ -131,6 +138,14 @@ class NumericSolution(NotComputed):
             return None
         run = self.runs[k - 1]
         return float(values(run, w, self._offset(probe, k - 1), np.array([run.length]))[0])
+
+    def _unset(self, probe: Probe) -> Diagnostic | None:
+        """Why ``before`` at 0- is not established for ``probe`` (``loops``), else None."""
+        key = ("unset", probe)
+        if key not in self._cache:
+            self._cache[key] = undefined_before(self.circuit, self.pre, self.y0,
+                                                     len(self.layout.nodes), probe)
+        return self._cache[key]
 
     def _post(self, probe: Probe, k: int):
         key = ("post", probe, k)
@@ -174,7 +189,64 @@ class NumericSolution(NotComputed):
 
     # ----- Solution protocol -----------------------------------------------------------------
     def features(self, probe: Probe, k: int) -> Features:
-        """Values of ``probe`` at event k (see harness.simulate for the methods)."""
+        """Values of ``probe`` at event k (see harness.simulate for the methods); at 0- a
+        current the resistive network leaves free is None with its note (``loops``)."""
+        out = self._features(probe, k)
+        unset = self._unset(probe) if k == 0 else None
+        if unset is not None:
+            out = replace(out, notes=(unset,) + tuple(out.notes))
+        impulse = self._impulse(probe, k) if k < len(self.runs) else None
+        return out if impulse is None else replace(out, after=None,
+                                                  notes=(impulse,) + tuple(out.notes))
+
+    def _impulse(self, probe: Probe, k: int) -> Diagnostic | None:
+        """The note for a probe that carries an impulse at event k: where this engine's pulse
+        moves charge through a resistor (``jump``), a ``through`` probe of such a resistor, or
+        a voltage probe whose integral over the pulse window, less the post-pulse fit's,
+        exceeds what ten times the voltage scale (times the controlled gains) gives over the
+        window (the rule of ``_opening_fluxes``)."""
+        key = ("impulse", probe, k)
+        if key not in self._cache:
+            self._cache[key] = self._impulse_note(probe, k)
+        return self._cache[key]
+
+    def impulsive_resistors(self, k: int) -> tuple[str, ...]:
+        """The resistors through which this engine's pulse at event k moves an impulse of
+        charge: more than a finite current can carry over the pulse window (ten times the
+        current scale times the controlled gains, the rule of ``_opening_fluxes``) and more
+        than ``IMPULSE_SHARE`` of the largest charge any other part moves in the pulse.  A
+        circuit without a controlled source or amplifier has none (each loop that carries an
+        impulse is one of capacitors and voltage sources, never through a resistance), so its
+        jumps are not computed for this."""
+        if not any(p.kind in CONTROLLED for p in self.circuit.parts) or k >= len(self.runs):
+            return ()
+        charges = self.jump(k).charges
+        others = [abs(q) for nm, q in charges.items()
+                  if self.circuit.part(nm).kind != RESISTOR]
+        floor = max(10.0 * self.i_scale * gain_factor(self.circuit)
+                    * self.regularisation.post_pulse,
+                    IMPULSE_SHARE * max(others, default=0.0))
+        return tuple(nm for nm, q in charges.items()
+                     if self.circuit.part(nm).kind == RESISTOR and abs(q) > floor)
+
+    def _impulse_note(self, probe: Probe, k: int) -> Diagnostic | None:
+        resistors = self.impulsive_resistors(k)
+        if not resistors:
+            return None
+        note = Diagnostic(IMPULSIVE_VALUE, self._t(k), k, parts=resistors, engine=ENGINE)
+        if probe.kind == THROUGH:
+            return note if probe.targets[0] in resistors else None
+        run, reg = self.runs[k], self.regularisation
+        nodes, weights = pulse_points(run, reg.post_pulse)
+        if not nodes.size:
+            return None
+        w, _ = self._rows(probe, k)
+        inside = run.probe(w[None, :], np.array([self._offset(probe, k)]), nodes) @ weights
+        flux = float(inside[0] - self._post(probe, k).integral()[0])
+        floor = 10.0 * self.v_scale * gain_factor(self.circuit) * reg.post_pulse
+        return note if abs(flux) > floor else None
+
+    def _features(self, probe: Probe, k: int) -> Features:
         before, after, final = self._base(probe, k)
         if k >= len(self.runs):
             return Features(before, None, None, notes=(
