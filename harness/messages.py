@@ -19,7 +19,7 @@ from typing import Any, Callable, Iterable
 
 from . import results as r
 from .outcome import CheckResult, FileResult, RunResult
-from .units import format_si
+from .units import format_exact, format_si
 
 #: the prefix of a diagnostic the numerical engine reports, in a file's warnings
 NUMERIC = "numerical engine: "
@@ -145,6 +145,21 @@ def _sign_change(d: r.Diagnostic) -> str:
     return "the post-pulse response changes sign: more than one mode or an oscillation"
 
 
+def _unresolved_mode(d: r.Diagnostic) -> str:
+    tau, reach = format_exact(d.value("tau"), "s"), format_exact(d.value("reach"), "s")
+    why = (f"mode is faster than the numerical engine resolves here (its narrow pulse and fit "
+           f"window reach {reach}: a large capacitor across a source, or the event time's own "
+           f"resolution, keeps the pulse wide)")
+    if d.detail == "energy":
+        part = d.parts[0]
+        return (f"energy of {part} not cross-checked: the closed form's {tau} {why}, and the "
+                f"energy of {part} carries that mode in its current; the closed form's energy "
+                f"stands alone: a limit of the numerical engine")
+    return (f"not cross-checked after the event: the closed form's {tau} {why}; the closed "
+            f"form's after-value, τ, order, peak, crossing and dominant τ stand alone: a limit "
+            f"of the numerical engine")
+
+
 #: diagnostic code -> its sentence (every code ``harness.results`` declares has one)
 CODES: dict[str, Callable[[r.Diagnostic], str]] = {
     r.FLOATING_NODES: _floating, r.UNDAMPED_OSCILLATION: _undamped,
@@ -154,7 +169,7 @@ CODES: dict[str, Callable[[r.Diagnostic], str]] = {
     r.GROWING_MODE: _growing_mode, r.NO_DC_PATH: _no_dc_path, r.PULSE_GROWTH: _pulse_growth,
     r.UNSETTLED: _unsettled, r.WORK_BUDGET: _work_budget, r.BREAKDOWN: _breakdown,
     r.STOPPED: _stopped, r.NOT_REACHED: _not_reached, r.NO_FINAL: _no_final,
-    r.SIGN_CHANGE: _sign_change,
+    r.SIGN_CHANGE: _sign_change, r.UNRESOLVED_MODE: _unresolved_mode,
 }
 
 

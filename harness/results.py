@@ -79,11 +79,16 @@ STOPPED = "integration-stopped"            # interval, time: later intervals not
 NOT_REACHED = "not-reached"                # time (interval for a probe): stopped before it
 NO_FINAL = "no-final-value"                # interval, time; detail: the integrator's status
 SIGN_CHANGE = "sign-change"                # the post-pulse response changes sign
+# Found by the comparator from the numerical engine's ``resolution``: interval, time, values
+# tau (s, the closed form's fastest mode there) and reach (s, what the numerical engine
+# resolves after the event); detail ``probe`` (the probe's values after the event) or
+# ``energy`` (parts: the part whose current carries the mode):
+UNRESOLVED_MODE = "unresolved-mode"
 #: every diagnostic code an engine may report (each has its sentence in ``harness.messages``)
 DIAGNOSTIC_CODES = (FLOATING_NODES, UNDAMPED_OSCILLATION, STATE_OVERFLOW, IMPULSE_DERIVATIVE,
                     IMPULSIVE_CURRENT, IMPULSIVE_VOLTAGE, RESPONSE_OVERFLOW, NO_DECAY,
                     GROWING_MODE, NO_DC_PATH, PULSE_GROWTH, UNSETTLED, WORK_BUDGET, BREAKDOWN,
-                    STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE)
+                    STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE, UNRESOLVED_MODE)
 
 
 @dataclass(frozen=True)
