@@ -454,3 +454,44 @@ def test_an_energy_disagreement_without_a_fast_mode_is_still_one():
                        ctx.probe, 0)
     exp = Expectation(0, ctx.probe, energy=EnergyCheck("R1"))
     assert compare_energy(exp, ctx.exact.features(None, 0), ctx).verdict == ENGINES_DISAGREE
+
+
+RC_TWO_STEPS = """
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "0 V", steps = [["1 ms", "1 V"], ["2 ms", "3 V"]] }
+R1 = { kind = "resistor", nodes = ["in", "a"], value = "1k" }
+C1 = { kind = "capacitor", nodes = ["a", "gnd"], value = "100n" }
+
+[[expect]]
+node = "a"
+at = "2 ms"
+after = "AFTER V"
+final = "3 V"
+tau = "100 us"
+peak = "3 V"
+"""
+
+
+def test_values_the_numerical_engine_did_not_reach_are_its_limit_not_a_disagreement(
+        tmp_path, monkeypatch):
+    # the numerical engine's work budget spent in the second interval (here forced by a tiny
+    # budget): its values from there on are missing, a limit its warning names, never
+    # "an engine problem".  Reference, textbook RC charging: v(2 ms) = 1 V (1 - e^-10) with
+    # tau = R1 C1 = 100 us, then the step to 3 V from there
+    import math
+    from harness import messages
+    from harness.results import NOT_REACHED
+    from harness.runner import check_file
+    from harness.simulate import engine
+    monkeypatch.setattr(engine, "STEP_BUDGET", 60)
+    after = 1.0 - math.exp(-10.0)
+    path = tmp_path / "rc.toml"
+    path.write_text(RC_TWO_STEPS.replace("AFTER", f"{after:.9g}"), encoding="utf-8")
+    result = check_file(str(path))
+    check = result.checks[0]
+    assert any("work budget" in messages.text(w) for w in result.warnings)
+    assert all(f.verdict == PASS for f in check.fields), [(f.name, f.message) for f in check.fields]
+    assert check.fields[1].closed_form == pytest.approx(after, rel=1e-9)
+    assert check.fields[1].numeric is None
+    stopped = [m for m in check.messages if not isinstance(m, str) and m.code == NOT_REACHED]
+    assert stopped and "stopped before this interval" in messages.text(stopped[0])

@@ -18,7 +18,7 @@ from .. import tolerances as tol
 from ..model import (ACROSS, BETWEEN, CURRENT_SOURCE, NODE, RESISTOR, THROUGH, VOLTAGE_SOURCE,
                      Circuit, Expectation, Probe)
 from ..messages import text
-from ..results import UNRESOLVED_MODE, Diagnostic, Features, Solution
+from ..results import NOT_REACHED, UNRESOLVED_MODE, Diagnostic, Features, Solution
 
 
 def direction(probe: Probe, circuit: Circuit) -> str:
@@ -134,8 +134,19 @@ class CheckContext:
     @property
     def unjudged(self) -> bool:
         """Whether the interval's dynamics (crossing, peak, dominant τ, ring, order, waveform)
-        get no engine verdict: below the noise floor, or unresolved by the numerical engine."""
-        return self.quiet or bool(self.unresolved)
+        get no engine verdict: below the noise floor, unresolved by the numerical engine, or
+        not reached by it."""
+        return self.quiet or bool(self.unresolved) or bool(self.stopped)
+
+    @cached_property
+    def stopped(self) -> tuple[Diagnostic, ...]:
+        """The numerical engine's ``not-reached`` note when its integration stopped before
+        interval k (a work budget, a breakdown: the file's warnings say which), else (): its
+        missing values there are its reported limit, not a disagreement."""
+        if self.numeric is None:
+            return ()
+        notes = self.numeric.features(self.probe, self.k).notes
+        return tuple(n for n in notes if isinstance(n, Diagnostic) and n.code == NOT_REACHED)
 
     @cached_property
     def quiet(self) -> bool:

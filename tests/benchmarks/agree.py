@@ -47,7 +47,7 @@ def disagreements(result) -> list[tuple[str, str]]:
                         else "value")
                 out.append((f"{f.name}:{kind}", f"{check.probe} @ {check.at:.3g}: {f.message}"))
         for m in check.messages:
-            if m.startswith(("order:", "waveform:")):
+            if isinstance(m, str) and m.startswith(("order:", "waveform:")):
                 out.append((m.split(":")[0], f"{check.probe} @ {check.at:.3g}: {m}"))
     return out
 
