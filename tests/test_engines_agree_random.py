@@ -490,7 +490,8 @@ def test_values_the_numerical_engine_did_not_reach_are_its_limit_not_a_disagreem
     result = check_file(str(path))
     check = result.checks[0]
     assert any("work budget" in messages.text(w) for w in result.warnings)
-    assert all(f.verdict == PASS for f in check.fields), [(f.name, f.message) for f in check.fields]
+    assert all(f.verdict == PASS for f in check.fields), [(f.name, f.message)
+                                                          for f in check.fields]
     assert check.fields[1].closed_form == pytest.approx(after, rel=1e-9)
     assert check.fields[1].numeric is None
     stopped = [m for m in check.messages if not isinstance(m, str) and m.code == NOT_REACHED]

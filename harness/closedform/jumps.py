@@ -230,8 +230,8 @@ FORCED_JUMP = 1e-6
 def _forced(circuit: Circuit, layout: Layout, time: float, x_minus: np.ndarray,
             x_plus: np.ndarray, fluxes: dict, scales: Scales):
     """(forced, opened): inductor -> (i-, i+) in A for the inductors whose current jumps
-    (currents below ``tolerances.EXACT_CURRENT_ROUNDING`` of the scale set to 0), and the switches opening at
-    ``time`` that carry the voltage impulse (in ``fluxes``)."""
+    (currents below ``tolerances.EXACT_CURRENT_ROUNDING`` of the scale set to 0), and the
+    switches opening at ``time`` that carry the voltage impulse (in ``fluxes``)."""
     def clean(i: float) -> float:
         return 0.0 if abs(i) < EXACT_CURRENT_ROUNDING * scales.current else float(i)
 
