@@ -19,7 +19,7 @@ from typing import Any, Callable, Iterable
 
 from . import results as r
 from .outcome import CheckResult, FileResult, RunResult
-from .units import format_si
+from .units import format_exact, format_si
 
 #: the prefix of a diagnostic the numerical engine reports, in a file's warnings
 NUMERIC = "numerical engine: "
@@ -162,6 +162,21 @@ def _undefined_current(d: r.Diagnostic) -> str:
             f"(a resistor feeding it), or give initial values that are the DC state")
 
 
+def _unresolved_mode(d: r.Diagnostic) -> str:
+    tau, reach = format_exact(d.value("tau"), "s"), format_exact(d.value("reach"), "s")
+    why = (f"mode is faster than the numerical engine resolves here (its narrow pulse and fit "
+           f"window reach {reach}: a large capacitor across a source, or the event time's own "
+           f"resolution, keeps the pulse wide)")
+    if d.detail == "energy":
+        part = d.parts[0]
+        return (f"energy of {part} not cross-checked: the closed form's {tau} {why}, and the "
+                f"energy of {part} carries that mode in its current; the closed form's energy "
+                f"stands alone: a limit of the numerical engine")
+    return (f"not cross-checked after the event: the closed form's {tau} {why}; the closed "
+            f"form's after-value, τ, order, peak, crossing and dominant τ stand alone: a limit "
+            f"of the numerical engine")
+
+
 #: diagnostic code -> its sentence (every code ``harness.results`` declares has one)
 CODES: dict[str, Callable[[r.Diagnostic], str]] = {
     r.FLOATING_NODES: _floating, r.UNDAMPED_OSCILLATION: _undamped,
@@ -172,7 +187,7 @@ CODES: dict[str, Callable[[r.Diagnostic], str]] = {
     r.UNSETTLED: _unsettled, r.WORK_BUDGET: _work_budget, r.BREAKDOWN: _breakdown,
     r.STOPPED: _stopped, r.NOT_REACHED: _not_reached, r.NO_FINAL: _no_final,
     r.SIGN_CHANGE: _sign_change, r.UNDEFINED_CURRENT: _undefined_current,
-    r.IMPULSIVE_VALUE: _impulsive_value,
+    r.IMPULSIVE_VALUE: _impulsive_value, r.UNRESOLVED_MODE: _unresolved_mode,
 }
 
 

@@ -88,12 +88,17 @@ IMPULSIVE_VALUE = "impulsive-value"
 # the parts with ``initial`` (comma-separated names): the state at 0- is not at rest, so the
 # resistive network at 0- does not fix that current (``before`` is None):
 UNDEFINED_CURRENT = "undefined-loop-current"
+# Found by the comparator from the numerical engine's ``resolution``: interval, time, values
+# tau (s, the closed form's fastest mode there) and reach (s, what the numerical engine
+# resolves after the event); detail ``probe`` (the probe's values after the event) or
+# ``energy`` (parts: the part whose current carries the mode):
+UNRESOLVED_MODE = "unresolved-mode"
 #: every diagnostic code an engine may report (each has its sentence in ``harness.messages``)
 DIAGNOSTIC_CODES = (FLOATING_NODES, UNDAMPED_OSCILLATION, STATE_OVERFLOW, IMPULSE_DERIVATIVE,
                     IMPULSIVE_CURRENT, IMPULSIVE_VOLTAGE, RESPONSE_OVERFLOW, NO_DECAY,
                     GROWING_MODE, NO_DC_PATH, PULSE_GROWTH, UNSETTLED, WORK_BUDGET, BREAKDOWN,
                     STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE, UNDEFINED_CURRENT,
-                    IMPULSIVE_VALUE)
+                    IMPULSIVE_VALUE, UNRESOLVED_MODE)
 
 
 @dataclass(frozen=True)

@@ -107,6 +107,21 @@ ENERGY_FLOOR = 1e-6
 #: fraction of the energies stored at the event (double precision: ~1e-16 per term)
 JUMP_ENERGY_NOISE = 1e-13
 
+# ---- each engine's own rounding of a jump's inductor currents ----------------------------
+# An inductor current forced by an opening switch is reported as (i-, i+); a value below the
+# engine's own noise is reported as 0 A, so that "interrupted" (i+ = 0) is told from "forced"
+# (i+ != 0).  The two engines keep separate values on purpose: each is the noise of that
+# engine's own route, not a comparison between them (the comparator compares neither).
+#: closed form (closedform.jumps): i+ comes from charge and flux conservation in one linear
+#: solve of the pencil, exact to double rounding (~2.2e-16) times its conditioning: 1e-9 of
+#: the circuit's current scale covers a conditioning up to ~1e6 with a margin of ~4
+EXACT_CURRENT_ROUNDING = 1e-9
+#: numerical engine (simulate.solution): i+ is a quadratic fitted after the narrow pulse and
+#: extrapolated back to the event, on an integration at rtol = the pulse ratio (1e-7).
+#: Measured on the two coils of tests/test_findings.py: 0.250000003 A for 0.25 A (1.25e-8 of
+#: the 1 A scale); 1e-6 leaves a margin of ~100 above that, where 1e-9 would not
+NUMERIC_CURRENT_ROUNDING = 1e-6
+
 #: conditioning (harness.closedform.conditioning) above which a solution carries a warning:
 #: relative errors up to ~CONDITION_WARN * 2.2e-16 = 2e-8 (Higham 2002, ch. 7: log10 kappa digits)
 CONDITION_WARN = 1e8

@@ -27,6 +27,7 @@ import numpy as np
 from ..model import CAPACITOR, INDUCTOR, KIND_SPECS, RESISTOR, STORAGE, SWITCH, SWITCHED, Circuit
 from ..results import (IMPULSE_DERIVATIVE, IMPULSIVE_CURRENT, IMPULSIVE_VOLTAGE, STATE_OVERFLOW,
                        Diagnostic, Jump)
+from ..tolerances import EXACT_CURRENT_ROUNDING
 from .linalg import least_squares
 from .mna import Layout, Scale, index_of, part_voltages
 from .stamps import STAMPS, current_row
@@ -243,17 +244,15 @@ def _energy(circuit: Circuit, before: dict, after: dict, charges: dict, fluxes: 
 
 #: an inductor current change above this fraction of the circuit's current scale is a jump
 FORCED_JUMP = 1e-6
-#: currents below this fraction of the circuit's current scale are reported as 0 (rounding)
-CURRENT_ROUNDING = 1e-9
 
 
 def _forced(circuit: Circuit, layout: Layout, time: float, x_minus: np.ndarray,
             x_plus: np.ndarray, fluxes: dict, scales: Scales):
     """(forced, opened): inductor -> (i-, i+) in A for the inductors whose current jumps
-    (currents below CURRENT_ROUNDING of the scale set to 0), and the switches opening at
-    ``time`` that carry the voltage impulse (in ``fluxes``)."""
+    (currents below ``tolerances.EXACT_CURRENT_ROUNDING`` of the scale set to 0), and the
+    switches opening at ``time`` that carry the voltage impulse (in ``fluxes``)."""
     def clean(i: float) -> float:
-        return 0.0 if abs(i) < CURRENT_ROUNDING * scales.current else float(i)
+        return 0.0 if abs(i) < EXACT_CURRENT_ROUNDING * scales.current else float(i)
 
     forced = {}
     for p in circuit.parts:

@@ -47,7 +47,7 @@ def compare_check(circuit: Circuit, exp: Expectation, exact: Solution,
     return CheckResult(index=exp.index, probe=exp.probe.label, at=circuit.events[k],
                        verdict=worst(verdicts), fields=fields, order=fe.order, modes=fe.modes,
                        rings=fe.rings,
-                       messages=tuple(messages) + fe.notes, note=exp.note,
+                       messages=tuple(messages) + fe.notes + ctx.stopped, note=exp.note,
                        direction=direction(exp.probe, circuit), trace=trace,
                        dominant=dominant_json(dominant))
 

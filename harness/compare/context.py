@@ -17,8 +17,8 @@ import numpy as np
 from .. import tolerances as tol
 from ..model import (ACROSS, BETWEEN, CURRENT_SOURCE, NODE, RESISTOR, THROUGH, VOLTAGE_SOURCE,
                      Circuit, Expectation, Probe)
-from ..results import IMPULSIVE, Features, Solution
-from ..units import format_exact
+from ..messages import text
+from ..results import IMPULSIVE, NOT_REACHED, UNRESOLVED_MODE, Diagnostic, Features, Solution
 
 
 def direction(probe: Probe, circuit: Circuit) -> str:
@@ -110,7 +110,16 @@ class CheckContext:
         """Why the numerical engine's values just after event k are not judged, or "": the
         closed form sees a mode in the probe faster than that engine resolves after the event
         (``resolution``: its pulse cannot be made narrow enough there), a limit of that
-        engine, not a disagreement."""
+        engine, not a disagreement (the ``unresolved-mode`` diagnostic's sentence)."""
+        return self._unresolved(self.probe, "probe")
+
+    def unresolved_energy(self, part: str) -> str:
+        """Why the numerical engine's energy of ``part`` in interval k is not judged, or "":
+        the closed form sees a mode in the part's current faster than that engine resolves
+        after the event (the energy's first instants carry it), a limit of that engine."""
+        return self._unresolved(Probe(THROUGH, (part,)), "energy")
+
+    def _unresolved(self, probe: Probe, detail: str) -> str:
         limit = None if self.numeric is None else self.numeric.resolution(self.k)
         if limit is None:
             return ""
@@ -122,22 +131,30 @@ class CheckContext:
                     f"narrow pulse in the numerical engine swamps what follows it; the closed "
                     f"form's after-value, τ, order, peak, crossing and dominant τ stand alone: "
                     f"a limit of the numerical engine")
-        fe = self.exact.features(self.probe, self.k)
-        fast = [t for t in fe.modes if t < limit]
+        fast = [t for t in self.exact.features(probe, self.k).modes if t < limit]
         if not fast:
             return ""
-        return (f"not cross-checked after the event: the closed form's {format_exact(min(fast), 's')}"
-                f" mode is faster than the numerical engine resolves here (its narrow pulse "
-                f"and fit window reach {format_exact(limit, 's')}: a large capacitor across a "
-                f"source, or the event time's own resolution, keeps the pulse wide); the "
-                f"closed form's after-value, τ, order, peak, crossing and dominant τ stand "
-                f"alone: a limit of the numerical engine")
+        parts = probe.targets if detail == "energy" else ()
+        return text(Diagnostic(UNRESOLVED_MODE, self.circuit.events[self.k], self.k,
+                               parts=parts, values=(("tau", min(fast)), ("reach", limit)),
+                               detail=detail))
 
     @property
     def unjudged(self) -> bool:
         """Whether the interval's dynamics (crossing, peak, dominant τ, ring, order, waveform)
-        get no engine verdict: below the noise floor, or unresolved by the numerical engine."""
-        return self.quiet or bool(self.unresolved)
+        get no engine verdict: below the noise floor, unresolved by the numerical engine, or
+        not reached by it."""
+        return self.quiet or bool(self.unresolved) or bool(self.stopped)
+
+    @cached_property
+    def stopped(self) -> tuple[Diagnostic, ...]:
+        """The numerical engine's ``not-reached`` note when its integration stopped before
+        interval k (a work budget, a breakdown: the file's warnings say which), else (): its
+        missing values there are its reported limit, not a disagreement."""
+        if self.numeric is None:
+            return ()
+        notes = self.numeric.features(self.probe, self.k).notes
+        return tuple(n for n in notes if isinstance(n, Diagnostic) and n.code == NOT_REACHED)
 
     @cached_property
     def quiet(self) -> bool:

@@ -77,8 +77,10 @@ def compare_energy(exp: Expectation, fe: Features, ctx: CheckContext) -> FieldRe
     floor = energy_floor(ctx, ee.energy, want.part)
     verdict, message = PASS, ""
     numeric = None if en is None else en.energy
-    if en is not None and not tol.agree(ee.energy, numeric, tol.ENERGY_ENGINE_RELATIVE,
-                                        engine_energy_floor(ctx, ee, want.part)):
+    apart = en is not None and not tol.agree(ee.energy, numeric, tol.ENERGY_ENGINE_RELATIVE,
+                                             engine_energy_floor(ctx, ee, want.part))
+    limit = ctx.unresolved_energy(want.part) if apart else ""
+    if apart and not limit:
         verdict, message = ENGINES_DISAGREE, engine_message(ee.energy, numeric, "J")
     elif ee.energy is None:
         verdict = MISMATCH if want.value is not None else PASS
@@ -87,7 +89,7 @@ def compare_energy(exp: Expectation, fe: Features, ctx: CheckContext) -> FieldRe
                                                   floor):
         verdict = MISMATCH
         message = energy_hint(want.value, ee, ctx)
-    notes = energy_notes(ee, ctx, want.part)
+    notes = energy_notes(ee, ctx, want.part) + ([limit] if limit else [])
     message = "; ".join(([message] if message else []) + notes)
     extra = {"part": want.part, "jump": ee.jump, "steady_power": ee.steady_power,
              "in_interval": ee.in_interval,

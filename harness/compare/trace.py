@@ -58,7 +58,9 @@ def make_trace(ctx: CheckContext, exp: Expectation, fe: Features) -> Trace:
         swing = max(abs((fe.after or 0.0) - (fe.final if fe.final is not None else closed[-1])),
                     float(np.ptp(closed)), tol.WAVEFORM_SWING_FLOOR * ctx.scale,
                     ctx.noise / tol.WAVEFORM_RELATIVE, 1e-300)
-        deviation = float(np.nanmax(np.abs(numeric_x - closed)) / swing)
+        apart = np.abs(numeric_x - closed)
+        if np.any(np.isfinite(apart)):   # none where the numerical engine stopped before
+            deviation = float(np.nanmax(apart) / swing)
     hand_t, hand_x = _hand_curve(exp, fe, t)
     events = ctx.circuit.events
     trace = Trace(unit=exp.probe.dimension, numeric_t=numeric_t, numeric_x=numeric_x,

@@ -28,7 +28,9 @@ def _engine_ok(spec: FieldSpec, closed: float | None, numeric: float | None,
 
 def _judged(spec: FieldSpec, ctx: CheckContext) -> bool:
     """Whether the engines' values of the field are judged against each other here
-    (``FieldSpec.judged``)."""
+    (``FieldSpec.judged``); nowhere the numerical engine did not reach."""
+    if ctx.stopped:
+        return False
     if spec.judged == DYNAMICS:
         return not (ctx.quiet or ctx.unresolved)
     return not (spec.judged == RESOLVED and ctx.unresolved)

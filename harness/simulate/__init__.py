@@ -56,7 +56,9 @@ Regularisation rule (regularise.py), eps = ``pulse_ratio`` (default 1e-7)
     the gain factor).  rtol = eps (within
     [1e-8, 1e-4]); atol = 1e-4 rtol times the voltage or current scale (largest source, initial
     or 0- value), for a carrier current at least 1e-14 (sum of |u coefficients|) V_scale / r_s,
-    the rounding of u seen through 1/r_s (tighter makes the steps stall).
+    the rounding of u seen through 1/r_s (tighter makes the steps stall); for a node voltage at
+    most the current atol times the smallest resistance at the node (a current through a
+    milliohm switch resolved like an inductor current), at least 1e-14 V_scale.
 
 Initial state (initial.py)
     This engine's own DC solve of the ideal MNA system (refined in extended precision,

@@ -102,7 +102,12 @@ def values(run: IntervalRun, w: np.ndarray, offset: float, s: np.ndarray) -> np.
 
 def _loglinear(s: np.ndarray, d: np.ndarray) -> tuple[float, float]:
     """Weighted least squares of log|d| = a - s/tau (weights |d|, i.e. absolute residuals);
-    returns (A, tau) with d ~ A e^(-s/tau), tau <= 0 meaning no decay."""
+    returns (A, tau) with d ~ A e^(-s/tau), tau <= 0 meaning no decay.  Points where d is
+    exactly 0 carry no weight and are left out (their log is -inf: 0 x -inf made the fit NaN)."""
+    keep = d != 0
+    if np.count_nonzero(keep) < 2:
+        return 0.0, 0.0
+    s, d = s[keep], d[keep]
     weights = np.abs(d)
     slope, intercept = np.polyfit(s, np.log(np.abs(d)), 1, w=weights)
     tau = -1.0 / slope if slope < 0 else 0.0

@@ -9,7 +9,7 @@ import numpy as np
 from ..model import CAPACITOR, CONTROLLED, RESISTOR, SWITCH, THROUGH, Circuit, Probe
 from ..results import (IMPULSIVE_VALUE, NO_FINAL, NOT_REACHED, Diagnostic, Features, Jump,
                        NotComputed)
-from ..tolerances import MODE_VISIBILITY, SETTLE_FRACTION
+from ..tolerances import MODE_VISIBILITY, NUMERIC_CURRENT_ROUNDING, SETTLE_FRACTION
 from .branches import Layout
 from .equations import System
 from .features import decay, fit_window, post_pulse, pulse_points, values
@@ -25,8 +25,6 @@ ENGINE = "numeric"
 
 #: an impulsive charge below this fraction of (total capacitance x voltage scale) is noise
 CHARGE_FLOOR = 1e-9
-#: currents below this fraction of the current scale are reported as 0 in a jump
-CURRENT_ROUNDING = 1e-6
 #: a fitted τ within this fraction of a mode of this engine's own pencil is that mode: the
 #: log-linear fit finds which mode the probe follows, the pencil's QZ gives its rate to
 #: rounding.  A fast mode of small amplitude (116 ps beside 250.7 ns, or a 1e-4 share) bends
@@ -426,8 +424,10 @@ class NumericSolution(NotComputed):
                     opened=tuple(opened))
 
     def _clean(self, current: float) -> float:
-        """A current in A, 0 below CURRENT_ROUNDING of the circuit's current scale."""
-        return 0.0 if abs(current) < CURRENT_ROUNDING * self.i_scale else float(current)
+        """A current in A, 0 below ``tolerances.NUMERIC_CURRENT_ROUNDING`` of the circuit's
+        current scale (this engine's own noise; ``tolerances`` says why it differs from the
+        closed form's)."""
+        return 0.0 if abs(current) < NUMERIC_CURRENT_ROUNDING * self.i_scale else float(current)
 
     def _opening_fluxes(self, k: int, run, system, nodes: np.ndarray,
                         weights: np.ndarray) -> dict[str, float]:

@@ -52,6 +52,11 @@ def disagreements(result) -> list[tuple[str, str]]:
     return out
 
 
+def _check_texts(result) -> list[str]:
+    """Every text message of every check, its fields' included (diagnostics left out)."""
+    return [m for check in result.checks for m in check.messages if isinstance(m, str)]
+
+
 def run_one(seed: int, seconds: float = 60.0) -> dict:
     """Analyse circuit ``seed``; its disagreements, errors, limits and time."""
     from harness.messages import text as sentence
@@ -69,6 +74,7 @@ def run_one(seed: int, seconds: float = 60.0) -> dict:
         errors = list(result.errors)
         said = [w if isinstance(w, str) else sentence(w) for w in result.warnings]
         limits = [w for w in said if "budget" in w or "beyond" in w]
+        limits += [m for m in _check_texts(result) if "a limit of the numerical engine" in m]
     except _Timeout:
         found, errors, limits = [], [f"over {seconds:g} s"], []
     except Exception as err:  # the generator itself (reader refusal) is reported, not hidden
