@@ -24,7 +24,6 @@ free where its current has a component there above ``LOOP_SHARE``.  Rest: ‖dx~
 from __future__ import annotations
 
 import numpy as np
-import scipy.sparse as sparse
 
 from ..model import CAPACITOR, INDUCTOR, THROUGH, Circuit, Probe
 from ..results import UNDEFINED_CURRENT, Diagnostic
@@ -50,7 +49,8 @@ def at_rest(prestep: IntervalResponse) -> bool:
 
 def _snapshot(circuit: Circuit, layout: Layout, g) -> tuple[np.ndarray, list[str]]:
     """(the bordered snapshot matrix, the capacitors in the order of their columns)."""
-    g = g.toarray() if sparse.issparse(g) else np.array(g, dtype=float)
+    # a sparse G (kept sparse for large circuits) densified; no scipy.sparse import for a small one
+    g = np.array(g, dtype=float) if isinstance(g, np.ndarray) else g.toarray()
     caps = [p for p in circuit.parts if p.kind == CAPACITOR]
     n, m = layout.size, len(caps)
     s = np.zeros((n + m, n + m))
