@@ -122,12 +122,23 @@ def _local_settings() -> dict:
     dying worker counts against every file it holds); worker processes forked from this one
     where the platform can fork (they start with the engines this process imported, in ~0.1 s
     where a spawned one starts a new interpreter and imports everything again: measured
-    ``tests/benchmarks/cluster_bench.py``)."""
+    ``tests/benchmarks/cluster_bench.py``); the event loops' idle wake-ups off (``QUIET_LOOPS``)."""
     import multiprocessing as mp
     method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
     return {"distributed.scheduler.allowed-failures": LOCAL_ALLOWED_FAILURES,
             "distributed.scheduler.worker-saturation": 1.0,
-            "distributed.worker.multiprocessing-method": method}
+            "distributed.worker.multiprocessing-method": method, **QUIET_LOOPS}
+
+
+#: Dask settings that keep a ``local:N`` cluster's event loops from waking for nothing: the
+#: worker's statistical profiler (every 10 ms it takes the interpreter lock from the task's
+#: thread to walk its stack: Dask's dashboard is the only reader, and none is started) and the
+#: health tick of every event loop (worker, nanny, scheduler: 20 ms; it only times the loop for
+#: an "unresponsive" log line, which is silenced).  Together they were ~4 % of the workers' CPU
+#: over the library, beside ~7 % for everything else Dask does there (sampled with a
+#: profiler; tests/benchmarks/RESULTS.md).  Neither touches a task or its result.
+QUIET_LOOPS = {"distributed.worker.profile.enabled": False,
+               "distributed.admin.tick.interval": "1s"}
 
 
 @contextlib.contextmanager
@@ -168,6 +179,7 @@ def _start(address: str, numeric: bool):
     cluster = None
     try:
         if address.startswith(LOCAL):
+            _versions_read()
             # no dashboard; the scheduler's own HTTP server (health, metrics) on a free port,
             # not Dask's 8787, which another cluster may hold (Dask then warns)
             cluster = LocalCluster(n_workers=int(address[len(LOCAL):]), threads_per_worker=1,
@@ -182,6 +194,15 @@ def _start(address: str, numeric: bool):
         raise ClusterUnreachable(address, str(err) or type(err).__name__) from None
     client.run(_preload, numeric)
     return client, None
+
+
+def _versions_read() -> None:
+    """Read the installed packages' versions once here, before the workers fork: every Dask
+    process reports them as it joins (the scheduler compares them), and each read parses
+    package metadata (``importlib.metadata``, some 20-40 ms); Dask keeps them per process
+    (``distributed.versions``), so forked workers start with them read."""
+    from distributed.versions import get_versions
+    get_versions()
 
 
 def _close(client, cluster) -> None:
@@ -238,7 +259,7 @@ def _gather(client, files: list[str], options: RunOptions, missing: list[FileRes
     try:
         while len(run.done) < len(files):
             run.hand_out()
-            if not run.collect():
+            if not run.collect(block=not run.limit):
                 run.expire()
                 time.sleep(_POLL)
         _second_chance(client, files, run.done, options, work)
@@ -309,9 +330,11 @@ class _Run:
                                     given, values, pure=False, priority=1)
         return future, parts
 
-    def collect(self) -> bool:
-        """Record the files that finished; False when none had."""
-        batch = self.finished.next_batch(block=False)
+    def collect(self, block: bool = False) -> bool:
+        """Record the files that finished; False when none had.  ``block``: wait for one
+        (without a time limit there is nothing else to do: the client's thread sleeps until a
+        result arrives instead of looking every ``_POLL`` s; Dask's wait wakes for signals)."""
+        batch = self.finished.next_batch(block=block and bool(self.running))
         for future, result in batch:
             task = self.running.pop(future, None)
             if task is None:          # cancelled on its deadline, already recorded

@@ -2,7 +2,9 @@
 (1-minute load average from /proc/loadavg) read beside every figure:
 
 * the library: ``tauproof check circuits/library --no-report`` with ``--jobs 1``, ``--jobs 2``
-  and ``--cluster local:2`` (interleaved, medians);
+  and ``--cluster local:2``, and ``local:2`` with Dask's default worker profiler and loop ticks
+  (``cluster.QUIET_LOOPS`` emptied: the "before"), interleaved, medians of the wall time and
+  of the CPU time of every process of the run (the command and the workers it waited for);
 * the local cluster's fixed costs, each in a fresh process so imports count, as it started
   before (workers spawned, then told to import the engines) and as it starts now (workers
   forked from the client after it imported them, while the client plans): importing Dask's
@@ -49,27 +51,43 @@ def load() -> float:
         return float(handle.read().split()[0])
 
 
-def _wall(args: list[str]) -> tuple[float, int]:
-    cmd = [sys.executable, "-m", "harness", "check", LIBRARY, "--no-report", *args]
+#: ``tauproof check`` with the local cluster's event loops waking as Dask's defaults have them
+#: (``cluster.QUIET_LOOPS`` emptied), for the side-by-side "before"
+_AWAKE = ("import sys, harness.cli; from harness import cluster; cluster.QUIET_LOOPS.clear(); "
+          "sys.exit(harness.cli.main(sys.argv[1:]))")
+
+
+def _wall(args: list[str], awake: bool = False) -> tuple[float, float, int]:
+    """(wall s, CPU s of the command and every process it waited for, exit code)."""
+    import resource
+    head = ["-c", _AWAKE] if awake else ["-m", "harness"]
+    cmd = [sys.executable, *head, "check", LIBRARY, "--no-report", *args]
+    used = resource.getrusage(resource.RUSAGE_CHILDREN)
     start = time.perf_counter()
     code = subprocess.run(cmd, capture_output=True, text=True).returncode
-    return time.perf_counter() - start, code
+    wall = time.perf_counter() - start
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return wall, (after.ru_utime + after.ru_stime) - (used.ru_utime + used.ru_stime), code
 
 
-def library(repeats: int) -> tuple[dict, list[float]]:
-    """Median wall time (s) of each way of running the library, runs interleaved; the load
-    average before each run."""
+def library(repeats: int) -> tuple[dict, dict, list[float]]:
+    """Median wall time and CPU time (s) of each way of running the library, runs interleaved
+    (``local:2 awake``: the cluster with Dask's default profiler and loop ticks, as before
+    ``QUIET_LOOPS``); the load average before each run."""
     ways = {"jobs 1": ["--jobs", "1"], "jobs 2": ["--jobs", "2"],
-            "local:2": ["--cluster", "local:2"]}
+            "local:2": ["--cluster", "local:2"], "local:2 awake": ["--cluster", "local:2"]}
     times: dict[str, list[float]] = {name: [] for name in ways}
+    cpu: dict[str, list[float]] = {name: [] for name in ways}
     loads = []
     for _ in range(repeats):
         for name, args in ways.items():
             loads.append(load())
-            seconds, code = _wall(args)
+            seconds, used, code = _wall(args, awake=name.endswith("awake"))
             assert code == 0, (name, code)
             times[name].append(seconds)
-    return {name: statistics.median(t) for name, t in times.items()}, loads
+            cpu[name].append(used)
+    return ({name: statistics.median(t) for name, t in times.items()},
+            {name: statistics.median(t) for name, t in cpu.items()}, loads)
 
 
 def _noop(x):
@@ -303,11 +321,13 @@ def expected(walls: dict, files: int, pool: dict, fixed: dict, per_task: float) 
 def main() -> None:
     from harness.cluster import LOCAL_ALLOWED_FAILURES
     repeats = int(sys.argv[1]) if len(sys.argv) > 1 else 1
-    walls, loads = library(repeats)
+    walls, cpu, loads = library(repeats)
     files = len(list(Path(LIBRARY).rglob("*.toml")))
     print(f"library, {files} files ({repeats} run(s) each, median wall s): " +
-          ", ".join(f"{k} {v:.1f}" for k, v in walls.items()) +
+          ", ".join(f"{k} {v:.2f}" for k, v in walls.items()) +
           f"; load average {min(loads):.1f}-{max(loads):.1f}")
+    print("  CPU s, all processes of the run: " +
+          ", ".join(f"{k} {v:.2f}" for k, v in cpu.items()))
     print(f"  jobs 1 / local:2 = {walls['jobs 1'] / walls['local:2']:.2f}x, "
           f"jobs 1 / jobs 2 = {walls['jobs 1'] / walls['jobs 2']:.2f}x, "
           f"jobs 2 / local:2 = {walls['jobs 2'] / walls['local:2']:.2f}x")
