@@ -122,7 +122,8 @@ def _local_settings() -> dict:
     dying worker counts against every file it holds); worker processes forked from this one
     where the platform can fork (they start with the engines this process imported, in ~0.1 s
     where a spawned one starts a new interpreter and imports everything again: measured
-    ``tests/benchmarks/cluster_bench.py``); the event loops' idle wake-ups off (``QUIET_LOOPS``)."""
+    ``tests/benchmarks/cluster_bench.py``); the event loops' needless wake-ups off
+    (``QUIET_LOOPS``)."""
     import multiprocessing as mp
     method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
     return {"distributed.scheduler.allowed-failures": LOCAL_ALLOWED_FAILURES,
@@ -134,9 +135,10 @@ def _local_settings() -> dict:
 #: worker's statistical profiler (every 10 ms it takes the interpreter lock from the task's
 #: thread to walk its stack: Dask's dashboard is the only reader, and none is started) and the
 #: health tick of every event loop (worker, nanny, scheduler: 20 ms; it only times the loop for
-#: an "unresponsive" log line, which is silenced).  Together they were ~4 % of the workers' CPU
-#: over the library, beside ~7 % for everything else Dask does there (sampled with a
-#: profiler; tests/benchmarks/RESULTS.md).  Neither touches a task or its result.
+#: an "unresponsive" log line, which is silenced).  Sampled over the library, the profiler and
+#: its timers were a third of the workers' busy time outside the tasks (that time ~7 % of the
+#: tasks'); with the versions read once (``_versions_read``) a run's CPU fell 0.3-0.6 s
+#: (tests/benchmarks/RESULTS.md).  Neither touches a task or its result.
 QUIET_LOOPS = {"distributed.worker.profile.enabled": False,
                "distributed.admin.tick.interval": "1s"}
 

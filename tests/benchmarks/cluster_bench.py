@@ -2,9 +2,10 @@
 (1-minute load average from /proc/loadavg) read beside every figure:
 
 * the library: ``tauproof check circuits/library --no-report`` with ``--jobs 1``, ``--jobs 2``
-  and ``--cluster local:2``, and ``local:2`` with Dask's default worker profiler and loop ticks
-  (``cluster.QUIET_LOOPS`` emptied: the "before"), interleaved, medians of the wall time and
-  of the CPU time of every process of the run (the command and the workers it waited for);
+  and ``--cluster local:2``, and ``local:2`` as it ran before (``_AWAKE``: Dask's default
+  worker profiler and loop ticks, versions read in each worker, the client polling),
+  interleaved, medians of the wall time and of the CPU time of every process of the run (the
+  command and the workers it waited for);
 * the local cluster's fixed costs, each in a fresh process so imports count, as it started
   before (workers spawned, then told to import the engines) and as it starts now (workers
   forked from the client after it imported them, while the client plans): importing Dask's
@@ -51,9 +52,12 @@ def load() -> float:
         return float(handle.read().split()[0])
 
 
-#: ``tauproof check`` with the local cluster's event loops waking as Dask's defaults have them
-#: (``cluster.QUIET_LOOPS`` emptied), for the side-by-side "before"
+#: ``tauproof check`` on the local cluster as it ran before, for the side-by-side "before":
+#: event loops waking as Dask's defaults have them (``cluster.QUIET_LOOPS`` emptied), each
+#: worker reading the package versions itself, the client looking for results every 20 ms
 _AWAKE = ("import sys, harness.cli; from harness import cluster; cluster.QUIET_LOOPS.clear(); "
+          "cluster._versions_read = lambda: None; looked = cluster._Run.collect; "
+          "cluster._Run.collect = lambda run, block=False: looked(run); "
           "sys.exit(harness.cli.main(sys.argv[1:]))")
 
 
@@ -72,8 +76,8 @@ def _wall(args: list[str], awake: bool = False) -> tuple[float, float, int]:
 
 def library(repeats: int) -> tuple[dict, dict, list[float]]:
     """Median wall time and CPU time (s) of each way of running the library, runs interleaved
-    (``local:2 awake``: the cluster with Dask's default profiler and loop ticks, as before
-    ``QUIET_LOOPS``); the load average before each run."""
+    (``local:2 awake``: the cluster as it ran before, ``_AWAKE``); the load average before
+    each run."""
     ways = {"jobs 1": ["--jobs", "1"], "jobs 2": ["--jobs", "2"],
             "local:2": ["--cluster", "local:2"], "local:2 awake": ["--cluster", "local:2"]}
     times: dict[str, list[float]] = {name: [] for name in ways}
