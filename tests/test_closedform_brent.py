@@ -103,3 +103,27 @@ def test_refusals_match_scipy():
         brentq(lambda x: x ** 3 - 1e-3, -5.0, 7.0, 1e-300, EPS4, 3)
     with pytest.raises(RuntimeError):
         scipy_brentq(lambda x: x ** 3 - 1e-3, -5.0, 7.0, xtol=1e-300, rtol=EPS4, maxiter=3)
+
+
+def test_a_zero_interpolation_denominator_bisects_as_scipy_does():
+    """Two bracket points with equal function values make the inverse quadratic step's
+    denominator zero.  scipy's brentq (C, scipy/optimize/Zeros/brentq.c) then computes an
+    infinite or NaN trial step, fails the acceptance test and bisects; the step here must do the
+    same, not raise (a random circuit's peak refinement raised ZeroDivisionError here)."""
+    from harness.closedform.brent import _step
+    half = 0.25
+    out = _step(x_prev=0.0, f_prev=1.0, x_cur=0.5, f_cur=-0.1, x_blk=1.0, f_blk=1.0,
+                step_prev=1.0, step_cur=0.5, half=half, delta=1e-12)
+    assert out == (half, half)
+
+
+@pytest.mark.parametrize("seed", [85, 252])
+def test_random_circuits_whose_peak_refinement_hit_a_zero_denominator(seed, tmp_path):
+    """Seeds of the engine-agreement generator that ended in an internal error: their files
+    are now analysed (the result's verdict is the comparator's business, not an error)."""
+    from harness.runner import check_file
+    from tests.benchmarks.agree_circuits import circuit_text
+    path = tmp_path / f"random-{seed}.toml"
+    path.write_text(circuit_text(seed), encoding="utf-8")
+    result = check_file(str(path), numeric=False)
+    assert result.verdict != "error", result.error

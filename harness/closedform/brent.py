@@ -57,7 +57,7 @@ def brentq(fun: Callable[[float], float], a: float, b: float, xtol: float, rtol:
         if abs(f_blk) < abs(f_cur):          # keep the better end as x_cur
             x_prev, x_cur, x_blk = x_cur, x_blk, x_cur
             f_prev, f_cur, f_blk = f_cur, f_blk, f_cur
-        delta = (xtol + rtol * abs(x_cur)) / 2
+        delta = float(xtol + rtol * abs(x_cur)) / 2   # a float: numpy scalars would warn
         half = (x_blk - x_cur) / 2
         if f_cur == 0 or abs(half) < delta:
             return x_cur
@@ -77,13 +77,16 @@ def _step(x_prev: float, f_prev: float, x_cur: float, f_cur: float, x_blk: float
     """(previous step, next step): the interpolated step when it is safe and shrinks the
     bracket fast enough, else the bisection step ``half`` for both."""
     if abs(step_prev) > delta and abs(f_cur) < abs(f_prev):
-        if x_prev == x_blk:                  # two distinct points: secant
-            trial = -f_cur * (x_cur - x_prev) / (f_cur - f_prev)
-        else:                                # three: inverse quadratic interpolation
-            d_prev = (f_prev - f_cur) / (x_prev - x_cur)
-            d_blk = (f_blk - f_cur) / (x_blk - x_cur)
-            trial = -f_cur * (f_blk * d_blk - f_prev * d_prev) / (d_blk * d_prev
-                                                                  * (f_blk - f_prev))
+        try:
+            if x_prev == x_blk:              # two distinct points: secant
+                trial = -f_cur * (x_cur - x_prev) / (f_cur - f_prev)
+            else:                            # three: inverse quadratic interpolation
+                d_prev = (f_prev - f_cur) / (x_prev - x_cur)
+                d_blk = (f_blk - f_cur) / (x_blk - x_cur)
+                trial = -f_cur * (f_blk * d_blk - f_prev * d_prev) / (d_blk * d_prev
+                                                                      * (f_blk - f_prev))
+        except ZeroDivisionError:            # C gives inf or NaN here: the test below fails
+            return half, half                # and the step bisects, as scipy's brentq does
         if 2 * abs(trial) < min(abs(step_prev), 3 * abs(half) - delta):
             return step_cur, trial
     return half, half
