@@ -43,6 +43,11 @@ INFINITE_REL = 1e-11
 ZERO_REL = 1e-10
 #: as ZERO_REL for augmented (unbounded) systems, whose zero modes form Jordan blocks
 ZERO_REL_AUGMENTED = 1e-6
+#: a mode below ZERO_REL whose rate, re-read from the pencil itself (least squares of
+#: G~ q = -lambda C~ q on its own vectors), stays above this fraction of the shift is a slow real
+#: mode, not trapped charge: it is resolved at a shift moved down to it (1e3 eps: rounding of
+#: an exact zero mode's residual stays below it)
+ZERO_ROUNDING = 1e3 * np.finfo(float).eps
 #: shifts tried, as multiples of the first choice, when G~ + s0 C~ is (nearly) singular
 _SHIFT_TRIES = (1.0, 1.618, 0.618, 2.718, 0.3679, 7.389, 0.1353)
 
@@ -199,7 +204,50 @@ def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray, *,
         better = _try_shifts(g, c, null, center, zero_rel, strict=False)
         if better is not None:
             dec = better
-    return dec
+    return dec if augmented else _slow_modes_resolved(dec, g, c, null)
+
+
+def _zero_count(dec: Decomposition) -> int:
+    return sum(cl.size for cl in dec.clusters if cl.zero)
+
+
+def _slow_rate(dec: Decomposition, g: np.ndarray, c: np.ndarray) -> float:
+    """Smallest |lambda| of the zero cluster re-read from the pencil, or 0 if none is real.
+
+    A mode 12 decades slower than the shift falls below ZERO_REL s0, where lambda = s0 - 1/mu
+    has lost its digits, but its vectors q (n x m) are still those of a real mode: the least-
+    squares solution B of (C~ q) B = -(G~ q) has the cluster's rates as eigenvalues, read without
+    the cancellation.  Rates at or below ZERO_ROUNDING s0 are trapped charge (G~ q = 0).
+    """
+    zero = [cl for cl in dec.clusters if cl.zero]
+    if not zero or dec.block is None or zero[0].right is None:
+        return 0.0
+    q = dec.q1 @ zero[0].right
+    cq, gq = c @ q, g @ q
+    if not np.all(np.isfinite(cq)) or np.linalg.norm(cq) == 0.0:
+        return 0.0
+    rates = np.abs(np.linalg.eigvals(np.linalg.lstsq(cq, -gq, rcond=None)[0]))
+    rates = rates[rates > ZERO_ROUNDING * abs(dec.s0)]
+    return float(rates.min()) if rates.size else 0.0
+
+
+def _slow_modes_resolved(dec: Decomposition, g: np.ndarray, c: np.ndarray,
+                         null: np.ndarray) -> Decomposition:
+    """``dec``, or its pencil decomposed again at a shift that resolves a slow real mode.
+
+    The scale is the mode's own: the new shift is the geometric centre of the slow rate and the
+    fastest mode, so both sit ~ sqrt(spread) from it; the result is kept only when it finds the
+    same number of finite modes and fewer zero ones (a spread beyond ~1e20 stays unresolved).
+    """
+    slow = _slow_rate(dec, g, c)
+    if slow == 0.0:
+        return dec
+    rates = np.abs(np.linalg.eigvals(dec.a))
+    center = math.sqrt(slow * max(float(rates.max()), slow))
+    better = _try_shifts(g, c, null, center, ZERO_REL, strict=False)
+    if better is None or better.order != dec.order or _zero_count(better) >= _zero_count(dec):
+        return dec
+    return better
 
 
 def _try_shifts(g, c, null, base: float, zero_rel: float, strict: bool = True):
