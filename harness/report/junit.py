@@ -15,11 +15,15 @@ character XML 1.0 forbids is dropped.
 from __future__ import annotations
 
 import re
+from typing import TYPE_CHECKING
 
 from ..messages import worded
 from ..outcome import ERROR, PASS, CheckResult, FileResult, RunResult
 from . import common
 from .context import ReportContext
+
+if TYPE_CHECKING:                      # the annotation's type; loaded only when junit.xml is written
+    import xml.etree.ElementTree as ET
 
 #: characters XML 1.0 forbids; compiled on first use (by ``re``'s cache), not at import: the
 #: class of wide ranges costs ~3 ms, paid by every ``solve`` that imports the report package
