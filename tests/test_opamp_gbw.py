@@ -347,10 +347,15 @@ def test_dominant_tau_counts_the_pole_as_a_zero_value_term():
 
 def test_derive_carries_the_pole_and_the_output_state(tmp_path, capsys):
     """``tauproof derive`` on the non-inverting stage with a second event: τ is the closed
-    loop's pole, A0·(1/ω_t)·(R1 + R2)/(R1 + R2 + R1·A0) (sympy's pole of A/(1 + A·β),
+    loop's pole, A0·(R1 + R2)/(2π·GBW·(R1 + R2 + R1·A0)) (sympy's pole of A/(1 + A·β),
     ``test_noninverting_amplifier_with_finite_gain_and_gbw``: 634.1 ns at G = 4, A0 = 1000,
-    GBW = 1 MHz), and at the second event the output starts from the value it held (its
-    state), G·V/(1 + G/A0) = 3.984 V, instead of jumping."""
+    GBW = 1 MHz), the GBW shown as such (ω_t = 2π·GBW, 1/ω_t = 159.2 ns) rather than as a
+    bare 1/ω_t, and at the second event the output starts from the value it held (its
+    state), G·V/(1 + G/A0) = 3.984 V, instead of jumping: the continuity sentence names it.
+    The pasteable τ, read back by the hand-value evaluator, is sympy's pole."""
+    from harness import formula
+    from harness.derive import derive
+    from harness.derive.network import Symbols
     from harness.cli import main
     tau = float(-1 / sp.solve(sp.denom(sp.cancel(_noninverting_transfer())), s)[0])
     path = tmp_path / "ni.toml"
@@ -360,5 +365,15 @@ def test_derive_carries_the_pole_and_the_output_state(tmp_path, capsys):
     main(["derive", str(path)])
     out = capsys.readouterr().out
     assert f"= {tau * 1e9:.4g} ns" in out, out
-    assert "U1·1.5915494309189535e-07 s·(R1 + R2)/(R1 + R2 + R1·U1)" in out, out
+    assert "τ = U1·(R1 + R2)/(2·π·1000000.0 Hz·(R1 + R2 + R1·U1))" in out, out
+    assert "GBW = 1 MHz" in out and "1/ω_t = 159.2 ns" in out, out
+    assert "1.5915494309189535e-07" not in out, out
+    assert ("capacitor voltages, inductor currents and the output voltage of U1 (a pole's "
+            "state) are continuous") in out, out
     assert "x(t_k+) = U1·1.0 V·(R1 + R2)/(R1 + R2 + R1·U1) = 3.984 V" in out, out
+    circuit = parse_circuit(path.read_text(), str(path))
+    (d,) = derive(circuit, exact(circuit))
+    values, units = Symbols(circuit).scope()
+    assert d.tau.formula == "U1*(R1 + R2)/(2*pi*1000000.0 Hz*(R1 + R2 + R1*U1))"
+    assert formula.evaluate("= " + d.tau.formula, values, "s", units) == pytest.approx(
+        tau, rel=1e-12)
