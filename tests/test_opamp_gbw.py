@@ -232,6 +232,21 @@ def test_charge_amplifier_with_gbw(solve, rel):
         assert sum(run.stats.steps for run in sol.runs) < 5_000
 
 
+def test_derive_keeps_the_charge_amplifiers_output_through_the_charge_balance():
+    """At the step the loop C0–C1 shares charge (C0·V/(C0 + C1) on C1, charge conservation:
+    common practice) while the output, the pole's state, stays at 0 V (sympy: the initial
+    value theorem on ``_charge_amplifier_transfer``·V/s is 0); the derivation says both."""
+    from harness.derive import derive
+    from harness.report.derivation import lines
+    assert sp.limit(_charge_amplifier_transfer(), s, sp.oo) == 0
+    circuit = _circuit(CHARGE_AMPLIFIER + '[[expect]]\nnode = "out"\nat = "0 s"\n')
+    (d,) = derive(circuit, exact(circuit))
+    text = "\n".join(lines(d))
+    assert "C1: 0 = 0 before → C0·1.0 V/(C0 + C1) = 666.7 m after" in text, text
+    assert "U1: its output voltage is a pole's state and does not jump" in text, text
+    assert abs(d.after.value) < 1e-12
+
+
 FEEDBACK_CAP = '''R1 = { kind = "resistor", nodes = ["x", "gnd"], value = "1k" }
 R2 = { kind = "resistor", nodes = ["x", "out"], value = "3k" }
 C1 = { kind = "capacitor", nodes = ["x", "out"], value = "470n" }

@@ -67,6 +67,8 @@ def _jump_lines(d) -> list[str]:
     out.append("  charge (flux) balance over the loop, solved for the states after the event:")
     for name, (before, after) in d.jump_parts.items():
         out.append(f"    {name}: {_value(before, '')} before → {_value(after, '')} after")
+    for name, _ in d.poles:
+        out.append(f"    {name}: its output voltage is a pole's state and does not jump")
     out.append(f"  x(t_k+) = {_value(d.after, unit)}")
     return out
 
