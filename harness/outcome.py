@@ -97,14 +97,17 @@ class Trace:
     next_event: float | None = None
     #: the probe's scale (its unit): the largest magnitude it takes, as for the tolerances
     scale: float = 0.0
-    #: the last periods of the circuit's repeating window, for a check with periodic
-    #: steady-state fields: absolute times (s), closed form and numeric values, shape (n,)
+    #: periods of the circuit's repeating window, for a check with periodic steady-state
+    #: fields (``periods_steady``): times (s), closed form and numeric values, shape (n,)
     periods_t: np.ndarray | None = None
     periods_closed: np.ndarray | None = None
     periods_numeric: np.ndarray | None = None
     #: horizontal lines over those periods (label, value): the exact steady state's minimum
     #: and maximum, and the hand ones (or the hand ripple about the steady state's middle)
     ripple_lines: tuple[tuple[str, float], ...] = ()
+    #: True when those periods are the periodic steady state the fields judge (times in s
+    #: from a period's start at the window's first event); False: the window's last periods
+    periods_steady: bool = False
 
 
 @dataclass(frozen=True)

@@ -403,6 +403,11 @@ class Solution(Protocol):
         """The probe's periodic steady state over one period of the circuit's repeating window
         (``model.Periodic``), ``fraction`` the band of its settle count."""
 
+    def periodic_waveform(self, probe: Probe, offsets: np.ndarray) -> np.ndarray | None:
+        """Optional: the probe's periodic steady state at ``offsets`` (s after the window's
+        first event, modulo the period), shape (n,), the waveform ``periodic`` judges; None
+        without a steady state."""
+
     def resolution(self, k: int) -> float | None:
         """Optional: the fastest time constant in s the engine resolves just after event k
         (faster modes are not judged there), or None."""
@@ -426,7 +431,8 @@ class Solution(Protocol):
 class NotComputed:
     """The optional answers of ``Solution``, each "not computed".  Both engines inherit this and
     override the answers they give: the closed form ``hazards``, ``thevenin``,
-    ``conditioning`` and ``node_voltages``; the numerical engine ``resolution``."""
+    ``conditioning`` and ``node_voltages``; the numerical engine ``resolution``; both
+    ``periodic_waveform``."""
 
     hazards: tuple[Hazard, ...] = ()
 
@@ -437,6 +443,9 @@ class NotComputed:
         return None
 
     def conditioning(self) -> tuple[Conditioning, ...] | None:
+        return None
+
+    def periodic_waveform(self, probe: Probe, offsets: np.ndarray) -> np.ndarray | None:
         return None
 
     def withheld(self, k: int) -> str | None:

@@ -149,7 +149,14 @@ node = "g"
 
 def test_twelve_parts_within_budget(tmp_path):
     """A 12-part RC ladder (one source, six resistors, five capacitors) stays within the
-    time budget: formulas where they came in time, else numbers only with the reason."""
+    time budget: formulas where they came in time, else numbers only with the reason.
+
+    The budget is wall time (a SIGALRM), but what the test holds it to is the CPU time this
+    process spent (``time.process_time``): under load the wall clock also counts the time
+    other processes had the cores, which failed a wall-clock limit.  The budget (1 s) is far
+    below the ~3 s of CPU the whole derivation takes, so the budget must cut it ("time" in
+    ``limited``), and the CPU spent, at most the budget before the alarm, must stop within
+    1.5 s after it: a budget that did not stop the work fails both."""
     lines = ['title = "ladder"', "[parts]",
              'V1 = { kind = "voltage-source", nodes = ["n0", "gnd"], value = "0 V", '
              'steps = [["0 s", "1 V"]] }']
@@ -163,12 +170,13 @@ def test_twelve_parts_within_budget(tmp_path):
     circuit = read_circuit(str(_file(tmp_path, "\n".join(lines) + "\n")))
     assert len(circuit.parts) == 12
     sol = solve(circuit)
-    started = time.monotonic()
-    (d,) = derive(circuit, sol, budget=5.0)
-    spent = time.monotonic() - started
-    assert spent < 5.0 + 2.0                       # the budget holds, with the slack of one step
+    budget = 1.0
+    started = time.process_time()
+    (d,) = derive(circuit, sol, budget=budget)
+    spent = time.process_time() - started
+    assert d.limited.startswith("time"), d.limited  # cut by the budget
+    assert spent < budget + 1.5                     # and promptly, with the slack of one step
     assert d.final is not None and d.modes          # the numbers are always given
-    assert d.limited == "" or d.limited.startswith("time")
 
 
 def test_pasted_formulas_check_exactly(tmp_path):

@@ -191,6 +191,62 @@ def test_both_engines_against_scipy_lti_step(name, parts, transfer, times, scale
         assert np.max(np.abs(got - want)) <= rel * scale, (name, solve, got, want)
 
 
+CHARGE_AMPLIFIER = '''C0 = { kind = "capacitor", nodes = ["in", "x"], value = "2u" }
+R2 = { kind = "resistor", nodes = ["x", "out"], value = "2k" }
+C1 = { kind = "capacitor", nodes = ["x", "out"], value = "1u" }
+U1 = { kind = "opamp", nodes = ["out", "gnd"], control = ["gnd", "x"], gbw = "100 kHz" }
+'''
+
+
+def _charge_amplifier_transfer() -> sp.Expr:
+    """Charge amplifier (source – C0 – x – C1 ‖ R2 – output), KCL at x:
+    (Vin − Vx)·s·C0 = (Vx − Vo)·(s·C1 + 1/R2), Vo = −A(s)·Vx with A = ω_t/s: Vo/Vin by sympy."""
+    c0, r2, c1 = sp.Rational(2, 10**6), 2000, sp.Rational(1, 10**6)
+    vin, vx, vo = sp.symbols("vin vx vo")
+    a = _open_loop(10**5)
+    sol = sp.solve([sp.Eq((vin - vx) * s * c0, (vx - vo) * (s * c1 + 1 / r2)),
+                    sp.Eq(vo, -a * vx)], [vx, vo], dict=True)[0]
+    return sp.cancel(sol[vo] / vin)
+
+
+@pytest.mark.parametrize("solve,rel", ENGINES)
+def test_charge_amplifier_with_gbw(solve, rel):
+    """The source's step reaches the output through a loop of capacitors (C0, C1) and the
+    amplifier's output, whose voltage is its internal state w: the output cannot jump and
+    follows the fast mode of the loop (τ ≈ (1 + C0/C1)/ω_t, the noise gain over ω_t, common
+    practice), then decays with R2·C1 from about −V·C0/C1 (common practice).  Reference: sympy
+    inverse Laplace of ``_charge_amplifier_transfer``.  The numerical engine integrates it in
+    a few hundred steps, without a warning (its carrier voltage u = v_out − w is then its own
+    coordinate, not a difference of two volt-sized states)."""
+    h = _charge_amplifier_transfer()
+    poles = sorted(float(-1 / p) for p in sp.solve(sp.denom(h), s))
+    assert poles == pytest.approx([3 / (2 * math.pi * 1e5), 2e-3], rel=5e-3)
+    ref = _step(h)
+    circuit = _circuit(CHARGE_AMPLIFIER)
+    sol = solve(circuit)
+    assert not sol.warnings, sol.warnings
+    _check(solve, rel, circuit, _node("out"), ref, [1e-7, 1e-6, 5e-6, 2e-5, 1e-3, 5e-3], 2.0)
+    f = sol.features(_node("out"), 0)
+    assert abs(f.after) <= 1e-6 * 2.0 and abs(f.final) <= 1e-6 * 2.0
+    if solve is numeric:
+        assert sum(run.stats.steps for run in sol.runs) < 5_000
+
+
+def test_derive_keeps_the_charge_amplifiers_output_through_the_charge_balance():
+    """At the step the loop C0–C1 shares charge (C0·V/(C0 + C1) on C1, charge conservation:
+    common practice) while the output, the pole's state, stays at 0 V (sympy: the initial
+    value theorem on ``_charge_amplifier_transfer``·V/s is 0); the derivation says both."""
+    from harness.derive import derive
+    from harness.report.derivation import lines
+    assert sp.limit(_charge_amplifier_transfer(), s, sp.oo) == 0
+    circuit = _circuit(CHARGE_AMPLIFIER + '[[expect]]\nnode = "out"\nat = "0 s"\n')
+    (d,) = derive(circuit, exact(circuit))
+    text = "\n".join(lines(d))
+    assert "C1: 0 = 0 before → C0·1.0 V/(C0 + C1) = 666.7 m after" in text, text
+    assert "U1: its output voltage is a pole's state and does not jump" in text, text
+    assert abs(d.after.value) < 1e-12
+
+
 FEEDBACK_CAP = '''R1 = { kind = "resistor", nodes = ["x", "gnd"], value = "1k" }
 R2 = { kind = "resistor", nodes = ["x", "out"], value = "3k" }
 C1 = { kind = "capacitor", nodes = ["x", "out"], value = "470n" }
@@ -306,10 +362,15 @@ def test_dominant_tau_counts_the_pole_as_a_zero_value_term():
 
 def test_derive_carries_the_pole_and_the_output_state(tmp_path, capsys):
     """``tauproof derive`` on the non-inverting stage with a second event: τ is the closed
-    loop's pole, A0·(1/ω_t)·(R1 + R2)/(R1 + R2 + R1·A0) (sympy's pole of A/(1 + A·β),
+    loop's pole, A0·(R1 + R2)/(2π·GBW·(R1 + R2 + R1·A0)) (sympy's pole of A/(1 + A·β),
     ``test_noninverting_amplifier_with_finite_gain_and_gbw``: 634.1 ns at G = 4, A0 = 1000,
-    GBW = 1 MHz), and at the second event the output starts from the value it held (its
-    state), G·V/(1 + G/A0) = 3.984 V, instead of jumping."""
+    GBW = 1 MHz), the GBW shown as such (ω_t = 2π·GBW, 1/ω_t = 159.2 ns) rather than as a
+    bare 1/ω_t, and at the second event the output starts from the value it held (its
+    state), G·V/(1 + G/A0) = 3.984 V, instead of jumping: the continuity sentence names it.
+    The pasteable τ, read back by the hand-value evaluator, is sympy's pole."""
+    from harness import formula
+    from harness.derive import derive
+    from harness.derive.network import Symbols
     from harness.cli import main
     tau = float(-1 / sp.solve(sp.denom(sp.cancel(_noninverting_transfer())), s)[0])
     path = tmp_path / "ni.toml"
@@ -319,5 +380,15 @@ def test_derive_carries_the_pole_and_the_output_state(tmp_path, capsys):
     main(["derive", str(path)])
     out = capsys.readouterr().out
     assert f"= {tau * 1e9:.4g} ns" in out, out
-    assert "U1·1.5915494309189535e-07 s·(R1 + R2)/(R1 + R2 + R1·U1)" in out, out
+    assert "τ = U1·(R1 + R2)/(2·π·1000000.0 Hz·(R1 + R2 + R1·U1))" in out, out
+    assert "GBW = 1 MHz" in out and "1/ω_t = 159.2 ns" in out, out
+    assert "1.5915494309189535e-07" not in out, out
+    assert ("capacitor voltages, inductor currents and the output voltage of U1 (a pole's "
+            "state) are continuous") in out, out
     assert "x(t_k+) = U1·1.0 V·(R1 + R2)/(R1 + R2 + R1·U1) = 3.984 V" in out, out
+    circuit = parse_circuit(path.read_text(), str(path))
+    (d,) = derive(circuit, exact(circuit))
+    values, units = Symbols(circuit).scope()
+    assert d.tau.formula == "U1*(R1 + R2)/(2*pi*1000000.0 Hz*(R1 + R2 + R1*U1))"
+    assert formula.evaluate("= " + d.tau.formula, values, "s", units) == pytest.approx(
+        tau, rel=1e-12)

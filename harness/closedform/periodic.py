@@ -389,3 +389,30 @@ def steady_state(sol, probe: Probe, fraction: float) -> PeriodicValue:
         return periodic_value(sol, sol._periodic_cycle(), probe, fraction)
     except NoSteadyState as exc:
         return PeriodicValue.without(sol.circuit.periodic, fraction, exc.reason)
+
+
+def steady_waveform(sol, probe: Probe, offsets: np.ndarray) -> np.ndarray | None:
+    """The probe's steady-state values at ``offsets`` (s after the window's first event, within
+    [0, period]; NaN outside), shape (n,): each time in the interval of the steady-state period
+    that holds it, by the exact interval response from its steady-state start (``cycle``).  A
+    time on an event is the value just before it (the end of the interval it closes), offset 0
+    the value just after the window's first event.  None without a steady state."""
+    if sol.circuit.periodic is None:
+        return None
+    try:
+        cyc = sol._periodic_cycle()
+    except NoSteadyState:
+        return None
+    window, t_ref = sol.circuit.periodic, sol.scale.t
+    fn = functional(sol.circuit, sol.layout, probe)
+    offsets = np.asarray(offsets, dtype=float)
+    phase = window.first + offsets
+    out = np.full(phase.shape, np.nan)
+    for step, resp in zip(cyc.intervals, cyc.responses):
+        start = resp.start
+        inside = ((phase > start) | (offsets == 0) & (start == window.first)) & \
+            (phase <= start + step.h * t_ref)
+        if np.any(inside):
+            term = fn.terms(sol.layout, sol.scale, resp.g, resp.b, resp.values, resp.xp.size)
+            out[inside] = _values(resp, term, (phase[inside] - start) / t_ref)
+    return out

@@ -271,6 +271,12 @@ class ClosedFormSolution(NotComputed):
             self._probe_cache[key] = periodic.steady_state(self, probe, fraction)
         return self._probe_cache[key]
 
+    def periodic_waveform(self, probe: Probe, offsets: np.ndarray) -> np.ndarray | None:
+        """The probe's steady-state values at ``offsets`` (s after the window's first event,
+        modulo the period), shape (n,); None without a steady state (``closedform.periodic``)."""
+        from . import periodic
+        return periodic.steady_waveform(self, probe, offsets)
+
     def _periodic_cycle(self) -> "periodic.Cycle":
         """The steady-state period, built once (raises ``periodic.NoSteadyState``)."""
         from . import periodic

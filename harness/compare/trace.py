@@ -18,8 +18,12 @@ from .curve import first_order
 
 #: plot and waveform-comparison grid size per check
 GRID_POINTS = 400
-#: the last periods of a repeating window drawn for a check with periodic fields, and the
-#: points per interval of them
+#: below this share of the grid before the next event, a grid over the interval itself is
+#: added, to this multiple of the interval (the plot shows a quarter beyond the next event,
+#: ``report.plots.HELD_VIEW``)
+INTERVAL_SHARE, INTERVAL_VIEW = 0.25, 1.25
+#: the steady-state periods drawn for a check with periodic fields, and the points per
+#: interval of them
 PLOT_PERIODS, PERIOD_POINTS = 3, 120
 
 
@@ -42,15 +46,27 @@ def with_marks(trace: Trace, fields, dominant, t_k: float, final: float | None) 
                    estimate_x=est_x)
 
 
-def _grid(exact: Solution, k: int) -> np.ndarray:
+def _grid(exact: Solution, k: int, next_event: float | None) -> np.ndarray:
+    """``GRID_POINTS`` times over the interval's span (its held continuation up to settling,
+    absolute s), and, where fewer than ``INTERVAL_SHARE`` of them fall before the next event
+    (an interval far shorter than its settling), ``GRID_POINTS`` more from the event to
+    ``INTERVAL_VIEW`` times the interval: the stretch the plot shows.  Without them a 5 µs
+    interval of a 110 ms decay had no point before its next event."""
     start, end = exact.span(k)
     width = end - start
-    return start + width * np.linspace(1e-4, 1.0, GRID_POINTS)
+    grid = start + width * np.linspace(1e-4, 1.0, GRID_POINTS)
+    if next_event is None or not start < next_event < end or \
+            np.count_nonzero(grid < next_event) >= INTERVAL_SHARE * GRID_POINTS:
+        return grid
+    stop = min(end, start + INTERVAL_VIEW * (next_event - start))
+    near = start + (stop - start) * np.linspace(1e-4, 1.0, GRID_POINTS)
+    return np.union1d(near, grid)
 
 
 def make_trace(ctx: CheckContext, exp: Expectation, fe: Features) -> Trace:
     """Waveforms of the check's interval: closed form, numeric and the hand-predicted curve."""
-    t = _grid(ctx.exact, ctx.k)
+    events = ctx.circuit.events
+    t = _grid(ctx.exact, ctx.k, events[ctx.k + 1] if ctx.k + 1 < len(events) else None)
     closed = np.asarray(ctx.exact.waveform(exp.probe, ctx.k, t), dtype=float)
     numeric_t, numeric_x, deviation = t, np.full_like(t, np.nan), None
     if ctx.numeric is not None:
@@ -62,7 +78,6 @@ def make_trace(ctx: CheckContext, exp: Expectation, fe: Features) -> Trace:
         if np.any(np.isfinite(apart)):   # none where the numerical engine stopped before
             deviation = float(np.nanmax(apart) / swing)
     hand_t, hand_x = _hand_curve(exp, fe, t)
-    events = ctx.circuit.events
     trace = Trace(unit=exp.probe.dimension, numeric_t=numeric_t, numeric_x=numeric_x,
                   closed_t=t, closed_x=closed, hand_t=hand_t, hand_x=hand_x,
                   event=events[ctx.k], before=snap_zero(fe.before, ctx.scale),
@@ -75,9 +90,41 @@ def make_trace(ctx: CheckContext, exp: Expectation, fe: Features) -> Trace:
 
 
 def with_periods(trace: Trace, ctx: CheckContext, exp: Expectation) -> Trace:
-    """The trace with the last ``PLOT_PERIODS`` periods of the repeating window (each
-    interval's waveform in both engines, ``PERIOD_POINTS`` points per interval) and the lines
-    of the steady state's and the hand minimum and maximum."""
+    """The trace with ``PLOT_PERIODS`` periods of the periodic steady state the fields judge
+    (each engine's ``periodic_waveform``, ``PERIOD_POINTS`` points per interval, times from a
+    period's start at the window's first event) and the lines of the steady state's and the
+    hand minimum and maximum.  The window's own last periods are not it where the window is
+    shorter than the settling (a 6-period window that settles in 49); they are drawn instead
+    only where the closed form establishes no steady state."""
+    steady = _steady_periods(ctx, exp)
+    if steady is None:
+        return _window_periods(trace, ctx, exp)
+    times, closed, numeric = steady
+    return replace(trace, periods_t=times, periods_closed=closed, periods_numeric=numeric,
+                   ripple_lines=_ripple_lines(ctx, exp), periods_steady=True)
+
+
+def _steady_periods(ctx: CheckContext, exp: Expectation):
+    """(offsets from the window's first event, closed form, numeric) over ``PLOT_PERIODS``
+    steady-state periods, or None where the closed form gives no steady-state waveform."""
+    window = ctx.circuit.periodic
+    marks = [o - window.offsets[0] for o in window.offsets] + [window.period]
+    # each interval from just after its event to the next (the value before it), in (0, period]
+    within = np.concatenate([a + (b - a) * np.linspace(1e-6, 1.0, PERIOD_POINTS)
+                             for a, b in zip(marks[:-1], marks[1:])])
+    times = np.concatenate([p * window.period + within for p in range(PLOT_PERIODS)])
+    closed = ctx.exact.periodic_waveform(exp.probe, within)
+    if closed is None:
+        return None
+    numeric = None if ctx.numeric is None else ctx.numeric.periodic_waveform(exp.probe, within)
+    numeric = np.full_like(within, np.nan) if numeric is None else np.asarray(numeric, float)
+    return (times, np.tile(np.asarray(closed, dtype=float), PLOT_PERIODS),
+            np.tile(numeric, PLOT_PERIODS))
+
+
+def _window_periods(trace: Trace, ctx: CheckContext, exp: Expectation) -> Trace:
+    """The trace with the last ``PLOT_PERIODS`` periods of the repeating window (absolute
+    times, each interval's waveform in both engines) and the lines of ``_ripple_lines``."""
     window, events = ctx.circuit.periodic, ctx.circuit.events
     start = window.end - min(PLOT_PERIODS, window.count) * window.period
     times, closed, numeric = [], [], []

@@ -142,6 +142,12 @@ class Guarded:
             return PeriodicValue.without(window, fraction, NOT_ESTABLISHED)
         return self._inner.periodic(probe, fraction)
 
+    def periodic_waveform(self, probe: Probe, offsets: np.ndarray) -> np.ndarray | None:
+        """The wrapped engine's steady-state waveform, or None where ``periodic`` is withheld."""
+        if self.periodic(probe, tol.SETTLE_FRACTION).reason is not None:
+            return None
+        return self._inner.periodic_waveform(probe, offsets)
+
     def resolution(self, k: int) -> float | None:
         return self._inner.resolution(k)
 

@@ -74,6 +74,8 @@ class Derivation:
             (s, s², …); modes: the closed form's time constants (s).
         crossing: (level, time formula) where a crossing is asked.
         limited: why some values are numbers only ("size" / "time" with its figure), or "".
+        poles: (op-amp, its gain-bandwidth product in Hz) for each op-amp whose output
+            voltage is a state (single-pole model).
     """
 
     index: int
@@ -94,6 +96,7 @@ class Derivation:
     modes: tuple[float, ...] = ()
     crossing: tuple[float, Formula] | None = None
     limited: str = ""
+    poles: tuple[tuple[str, float], ...] = ()
 
     def fields(self) -> dict:
         """Field name -> Formula for every field with a pasteable formula."""

@@ -90,6 +90,9 @@ class _Display(_Formula):
     def _print_Mul(self, expr):
         return super()._print_Mul(expr).replace("*", "·")
 
+    def _print_Pi(self, expr):
+        return "π"
+
 
 def formula_text(expr: sp.Expr, quantities: dict) -> str:
     """The pasteable formula (without the leading ``=``)."""

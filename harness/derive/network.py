@@ -18,7 +18,6 @@ This module builds the matrices only; ``laplace`` solves them.  Nothing here imp
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from typing import Callable
 
@@ -307,8 +306,9 @@ def _cccs(part: m.Part, iv: _Interval, st: _Stamps) -> None:
 def _opamp(part: m.Part, iv: _Interval, st: _Stamps) -> None:
     """v_cp − v_cn = 0 (the nullor), or v_cp − v_cn − (v_p − v_n)/gain = 0, on the row of
     its output current; with a gain-bandwidth product the single pole A(s) = gain/(1 + s·gain/ω_t)
-    (ω_t/s without a gain) adds −(1/ω_t)·(v_p − v_n)′ to the row: −1/ω_t in C (a number in s,
-    ``Symbols.quantity``), so its output voltage is a state (``Network.poles``)."""
+    (ω_t/s without a gain) adds −(1/ω_t)·(v_p − v_n)′ to the row: −1/ω_t in C, written
+    1/(2π·GBW) with the GBW a number in Hz (``Symbols.quantity``), so a formula shows what the
+    pole is; its output voltage is a state (``Network.poles``)."""
     k = st.branch_kcl(part)
     terms = [(part.control[0], 1), (part.control[1], -1)]
     if part.value is not None:
@@ -319,7 +319,7 @@ def _opamp(part: m.Part, iv: _Interval, st: _Stamps) -> None:
             st.g[k, st.row[node]] += coef
     gbw = part.param(m.GBW)
     if gbw is not None:
-        tau = iv.syms.quantity(1.0 / (2.0 * math.pi * gbw), "s")
+        tau = 1 / (2 * sp.pi * iv.syms.quantity(gbw, "Hz"))     # 1/ω_t, shown as 2π·GBW
         for node, sign in ((part.p, -1), (part.n, 1)):
             if st.row[node] is not None:
                 st.c[k, st.row[node]] += sign * tau

@@ -27,6 +27,11 @@ def _stateful(circuit: m.Circuit) -> tuple[m.Part, ...]:
                  if p.kind in m.STORAGE or (p.kind == m.OPAMP and p.param(m.GBW) is not None))
 
 
+def _poles(circuit: m.Circuit) -> tuple[tuple[str, float], ...]:
+    """(op-amp name, its gain-bandwidth product in Hz) of each op-amp with a pole."""
+    return tuple((p.name, p.param(m.GBW)) for p in _stateful(circuit) if p.kind == m.OPAMP)
+
+
 def numbers_only(circuit: m.Circuit, solution, exp: m.Expectation, reason: str) -> Derivation:
     """The closed form's numbers for an expectation the symbolic budget did not reach."""
     k = circuit.events.index(exp.at)
@@ -36,7 +41,8 @@ def numbers_only(circuit: m.Circuit, solution, exp: m.Expectation, reason: str) 
         return None if v is None else Formula(v, v)
     return Derivation(exp.index, exp.label, exp.probe.label, exp.at, exp.probe.dimension,
                       num(f.before), num(f.after), num(f.final), num(f.tau), order=f.order,
-                      modes=f.modes, dominant=num(f.dominant_tau), limited=reason)
+                      modes=f.modes, dominant=num(f.dominant_tau), limited=reason,
+                      poles=_poles(circuit))
 
 
 class Worker:
@@ -124,7 +130,7 @@ class Worker:
         return Derivation(exp.index, exp.label, exp.probe.label, exp.at, exp.probe.dimension,
                           before, after, final, tau, storage, self.jumped(k), self._loops(k),
                           f.order, tuple(shown), dominant, f.modes,
-                          self.crossing(exp, tau, after, final))
+                          self.crossing(exp, tau, after, final), poles=_poles(self.circuit))
 
     def _tau_shape(self, expr):
         """τ as R_th·C or L/R_th with the resistance in series/parallel form."""

@@ -8,6 +8,8 @@ Markdown and HTML embed the same lines (``lines``).
 
 from __future__ import annotations
 
+import math
+
 from ..messages import text as said
 from ..units import format_si
 
@@ -32,6 +34,10 @@ def _tau_lines(d) -> list[str]:
         rule = "τ = R_th·C" if s.kind == "capacitor" else "τ = L/R_th"
         out.append(f"  {s.name} sees R_th = {_value(s.resistance, 'Ω')}; {rule} = "
                    f"{_value(s.tau, 's')}")
+    for name, gbw in d.poles:
+        out.append(f"  {name}'s gain-bandwidth product GBW = {format_si(gbw, 'Hz')} is a pole "
+                   f"of its open-loop gain (ω_t = 2π·GBW; 1/ω_t = "
+                   f"{format_si(1 / (2 * math.pi * gbw), 's')}); its output voltage is a state")
     if d.tau is not None:
         out.append(f"  first order: τ = {_value(d.tau, 's')}")
     elif d.order:
@@ -50,14 +56,19 @@ def _tau_lines(d) -> list[str]:
 def _jump_lines(d) -> list[str]:
     unit = d.unit
     if not d.jump_parts:
+        outputs = " and ".join(name for name, _ in d.poles)
+        states = ("capacitor voltages, inductor currents and the output voltage of "
+                  f"{outputs} (a pole's state) are" if d.poles else
+                  "capacitor voltages and inductor currents are")
         return ["Just after: no capacitor loop with a voltage source and no inductor cutset "
-                "with a current source moves at the event, so capacitor voltages and inductor "
-                "currents are continuous:",
+                f"with a current source moves at the event, so {states} continuous:",
                 f"  x(t_k+) = {_value(d.after, unit)}"]
     out = [f"Just after: {said(loop)}" for loop in d.loops] or ["Just after: the event moves charge"]
     out.append("  charge (flux) balance over the loop, solved for the states after the event:")
     for name, (before, after) in d.jump_parts.items():
         out.append(f"    {name}: {_value(before, '')} before → {_value(after, '')} after")
+    for name, _ in d.poles:
+        out.append(f"    {name}: its output voltage is a pole's state and does not jump")
     out.append(f"  x(t_k+) = {_value(d.after, unit)}")
     return out
 

@@ -16,9 +16,11 @@ with each of x(t_k+), x_inf and tau taken from the hand values and, where the ha
 out, from the closed form (then the numeric value).  ``Trace.hand_t``/``hand_x``, when the
 comparator supplies them, are drawn instead.
 
-A check with periodic steady-state fields gets a second panel: the last periods of the
-repeating window in both engines (``Trace.periods_t``) beside the steady state's minimum and
-maximum and the hand ones, or the hand ripple about the middle (``Trace.ripple_lines``).
+A check with periodic steady-state fields gets a second panel: three periods of the periodic
+steady state those fields judge, in both engines (``Trace.periods_t``, time from a period's
+start), beside the steady state's minimum and maximum and the hand ones, or the hand ripple
+about the middle (``Trace.ripple_lines``).  Without a steady state (the closed form finds
+none) the panel shows the repeating window's last periods instead.
 """
 
 from __future__ import annotations
@@ -41,8 +43,10 @@ from .svgdraw import render
 WIDTH, HEIGHT, PERIODS_HEIGHT = 630, 250, 210
 #: points on the hand-predicted curve
 HAND_POINTS = 400
-#: the y-axis spans at least this fraction of the probe's scale (its largest magnitude)
-MIN_SPAN = 0.02
+#: the y-axis spans at least this fraction of the probe's scale (its largest magnitude); the
+#: periods panel at least ``PERIODS_MIN_SPAN`` (a steady-state ripple of 1e-4 of the level,
+#: 2.3 mV on 24 V, is the signal there, far above the engines' agreement)
+MIN_SPAN, PERIODS_MIN_SPAN = 0.02, 1e-5
 #: past the next event the x-axis goes on for this fraction of the interval (the held
 #: continuation, grey), further only to show a mark that lies there
 HELD_VIEW = 0.25
@@ -134,24 +138,26 @@ def plot_check(check: CheckResult, title: str = "") -> str | None:
 
 
 def _draw_periods(ax: Panel, trace) -> None:
-    """The last periods of the repeating window in both engines (absolute time), with the
-    steady state's minimum and maximum (dotted) and the hand ones or the hand ripple (dashed)
-    as horizontal lines."""
+    """The periodic steady state the fields judge in both engines (time from a period's start
+    at the window's first event; without a steady state, the window's last periods in absolute
+    time), with the steady state's minimum and maximum (dotted) and the hand ones or the hand
+    ripple (dashed) as horizontal lines."""
     ax.line(trace.periods_t, trace.periods_numeric, STYLES["numeric"], kind="numeric")
     ax.line(trace.periods_t, trace.periods_closed, STYLES["closed"], kind="closed")
     for label, level in trace.ripple_lines:
         hand = label.startswith("hand")
         ax.hline(level, Style(_COLOURS["hand" if hand else "closed"], 1.3,
                               "4.8,2" if hand else "1.3,2.1"), common.printable(label))
-    keep_span(ax, trace.scale)
-    ax.xlabel = "time (the last periods of the repeating window)"
+    keep_span(ax, trace.scale, PERIODS_MIN_SPAN)
+    ax.xlabel = ("time in the periodic steady state (from a period's start)"
+                 if trace.periods_steady else "time (the last periods of the repeating window)")
 
 
-def keep_span(ax: Panel, scale: float) -> None:
-    """Widen the y-axis to at least ``MIN_SPAN`` of the probe's scale about its middle, so a
+def keep_span(ax: Panel, scale: float, fraction: float = MIN_SPAN) -> None:
+    """Widen the y-axis to at least ``fraction`` of the probe's scale about its middle, so a
     probe that hardly moves is not drawn at the scale of its rounding."""
     low, high = ax.ylim()
-    span = MIN_SPAN * scale
+    span = fraction * scale
     if span > 0 and high - low < span:
         middle = 0.5 * (low + high)
         ax.set_ylim(middle - span / 2, middle + span / 2)

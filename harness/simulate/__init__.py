@@ -23,7 +23,8 @@ Model (equations.py; each kind's branch current in branches.py)
       parasitic capacitance c_base to ground; no other node has one.
 
     The ODE is written in tree coordinates (coordinates.py): a spanning forest of closed carriers
-    and capacitors, one coordinate per node (its tree edge's voltage), KCL per fundamental
+    and capacitors, one coordinate per node (its tree edge's voltage; for the output of an
+    op-amp with a gain-bandwidth product, that voltage less w: its u), KCL per fundamental
     cutset, each branch stamped with integer path multipliers and exactly rounded sums, so 1/r_s
     cancels exactly from every cutset but its carrier's own.  Coordinates without capacitance
     (capacitor-less nodes, the common mode of a capacitor group without ground) are eliminated

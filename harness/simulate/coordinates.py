@@ -9,7 +9,8 @@ estimate sees noise and its steps stall.  The cure is the classical tree formula
   parasitic capacitances, node to ground), rooted at ground where a tree reaches it;
 * one coordinate per node: x_m = v_m - v_parent(m) for a node in a tree (its tree edge's
   voltage), x_m = v_m for a root or a node outside every tree; so v_m is the sum of x over the
-  path from m to its root;
+  path from m to its root (the tree edge of a carrier of an op-amp's internal voltage w is
+  shifted by w, so that its coordinate is the carrier's u: ``_Transform``);
 * KCL is written per coordinate as the fundamental cutset of its tree edge (the sum of the KCL
   rows below it).  Each branch is stamped on its own, with integer path multipliers and exactly
   rounded sums, so a carrier's 1/r_s cancels exactly from every cutset except its own.
@@ -71,24 +72,26 @@ class Reduction:
         return np.asarray(w @ self.lift).ravel(), float(e + w @ self.lift_c)
 
 
-def forest(circuit: Circuit, lay: Layout, closed: list[str], parasitic: dict[str, float]
-           ) -> dict[int, int]:
+def forest(circuit: Circuit, lay: Layout, closed: list[str], parasitic: dict[str, float],
+           owners: dict[str, int] | None = None) -> dict[int, int]:
     """Node index -> parent node index (-1 for ground) of the spanning forest described in the
-    module docstring; nodes absent are roots or outside every tree."""
-    edges = [circuit.part(name).nodes for name in closed]
-    edges += [p.nodes for p in circuit.parts if p.kind == CAPACITOR]
-    edges += [(n, circuit.ground) for n, c in parasitic.items() if c > 0]
+    module docstring; nodes absent are roots or outside every tree.  ``owners``, when given,
+    receives closed carrier name -> the node index of the child of its tree edge (carriers
+    that close a loop of carriers are chords and absent)."""
+    edges = [(circuit.part(name).nodes, name) for name in closed]
+    edges += [(p.nodes, None) for p in circuit.parts if p.kind == CAPACITOR]
+    edges += [((n, circuit.ground), None) for n, c in parasitic.items() if c > 0]
     parent_uf: dict[str, str] = {}
 
     find = partial(find_root, parent_uf)
 
-    adjacency: dict[str, list[str]] = {}
-    for a, b in edges:
+    adjacency: dict[str, list[tuple[str, str | None]]] = {}
+    for (a, b), label in edges:
         ra, rb = find(a), find(b)
         if ra != rb:
             parent_uf[ra] = rb
-            adjacency.setdefault(a, []).append(b)
-            adjacency.setdefault(b, []).append(a)
+            adjacency.setdefault(a, []).append((b, label))
+            adjacency.setdefault(b, []).append((a, label))
     out: dict[int, int] = {}
     seen = set()
     for root in [circuit.ground] + list(lay.nodes):
@@ -98,11 +101,13 @@ def forest(circuit: Circuit, lay: Layout, closed: list[str], parasitic: dict[str
         stack = [root]
         while stack:
             here = stack.pop()
-            for there in adjacency.get(here, []):
+            for there, label in adjacency.get(here, []):
                 if there in seen:
                     continue
                 seen.add(there)
                 out[lay.node_index[there]] = lay.node_index.get(here, -1)
+                if owners is not None and label is not None:
+                    owners[label] = lay.node_index[there]
                 stack.append(there)
     return out
 
@@ -171,12 +176,25 @@ class _Transform:
     x = S x' with S = I + (n - e_k) e_k^T (n the direction in x, k a coordinate where it is
     +-1), so its row of the transformed M vanishes exactly; T S and S^-1 T^-1 are rank-one
     updates of T and T^-1.
+
+    ``shifts`` (tree-edge child index -> {pole state index: integer a}) moves the coordinate of
+    a closed carrier whose ideal voltage is an op-amp's internal voltage w: x = (its tree edge's
+    voltage) - a w, so that the coordinate is the carrier's u itself (up to sign) rather than
+    the difference of two moving volt-sized states, whose rounding through 1/r_s is a noise
+    current that stalls the integrator's Newton iterations (a charge amplifier: C to the
+    inverting input, C back from the output).  Then y_nodes = T x_nodes + P w with
+    P = T_0 D (T_0 the forest's paths before the null directions, D the shifts), every entry an
+    integer.
     """
 
-    def __init__(self, lay: Layout, parents: dict[int, int], nulls: list[np.ndarray]) -> None:
+    def __init__(self, lay: Layout, parents: dict[int, int], nulls: list[np.ndarray],
+                 shifts: dict[int, dict[int, int]] | None = None) -> None:
         self.nn = nn = len(lay.nodes)
         self.n = lay.n
         paths = _paths(nn, parents)
+        self.poles = [_combine([(shifts[k], 1) for k in path if k in shifts])
+                      for path in paths] if shifts else [{} for _ in paths]
+        self.shifted = any(self.poles)
         rows = np.repeat(np.arange(nn), [len(path) for path in paths])
         cols = np.fromiter((k for path in paths for k in path), dtype=np.int64, count=rows.size)
         T = sp.csr_matrix((np.ones(rows.size, dtype=np.int64), (rows, cols)), shape=(nn, nn))
@@ -213,7 +231,14 @@ class _Transform:
 
     def state(self, i: int) -> Path:
         """Coordinates (with integer multipliers) summing to full state i."""
-        return self.paths[i] if i < self.nn else {i: 1}
+        if i >= self.nn:
+            return {i: 1}
+        return {**self.paths[i], **self.poles[i]} if self.poles[i] else self.paths[i]
+
+    def row(self, i: int) -> Path:
+        """The cutset rows (integer multipliers) that node i's KCL enters: its node part of T
+        (the shifts move columns only; the internal voltages keep their own rows)."""
+        return self.paths[i]
 
     def coef(self, aff: Affine) -> dict[int, float]:
         """The Affine's coefficients over x, each an exactly rounded sum (math.fsum)."""
@@ -229,15 +254,25 @@ class _Transform:
         extra = self.n - self.nn
         T = sp.block_diag([self.T.astype(float), sp.identity(extra)], "csr")
         Tinv = sp.block_diag([self.Tinv.astype(float), sp.identity(extra)], "csr")
+        if self.shifted:                  # y_nodes = T x + P w, so x = T^-1 (y_nodes - P w)
+            rows = [m for m, ws in enumerate(self.poles) for _ in ws]
+            cols = [j for ws in self.poles for j in ws]
+            vals = [float(a) for ws in self.poles for a in ws.values()]
+            P = sp.csr_matrix((vals, (rows, cols)), shape=(self.n, self.n))
+            T = (T + P).tocsr()
+            Tinv = (Tinv - Tinv @ P).tocsr()
         return T, Tinv
 
 
 def assemble(circuit: Circuit, lay: Layout, br: Branches, parents: dict[int, int],
-             l_p: float, t_pulse: float, parasitic: dict[str, float]):
+             l_p: float, t_pulse: float, parasitic: dict[str, float],
+             owners: dict[str, int] | None = None):
     """(K_x, M_x, T, T^-1, transform) of M_x x' = -K_x x + b_x in tree coordinates; b_x, the
     only part that depends on the sources' values, comes from ``constants`` with the same
-    transform."""
-    tr = _Transform(lay, parents, _null_directions(circuit, lay, parasitic))
+    transform.  ``owners``: the closed carriers' tree edges (``forest``), for the shifted
+    coordinates of carriers of an internal voltage (``_shifts``)."""
+    tr = _Transform(lay, parents, _null_directions(circuit, lay, parasitic),
+                    _shifts(circuit, lay, br, owners or {}))
     n = lay.n
     K: dict[tuple[int, int], list[float]] = {}
     M: dict[tuple[int, int], list[float]] = {}
@@ -267,8 +302,9 @@ def assemble(circuit: Circuit, lay: Layout, br: Branches, parents: dict[int, int
     caps += [(node, circuit.ground, c) for node, c in parasitic.items() if c > 0]
     for p, q, c in caps:
         d = _cutset(tr, lay, p, q)
+        d_col = _cutset(tr, lay, p, q, column=True) if tr.shifted else d
         for k, mk in d.items():
-            for l_, ml in d.items():
+            for l_, ml in d_col.items():
                 M.setdefault((k, l_), []).append(c * mk * ml)
     T, Tinv = tr.matrices()
     return _matrix(K, n), _matrix(M, n), T, Tinv, tr
@@ -291,11 +327,30 @@ def constants(circuit: Circuit, lay: Layout, br: Branches, tr: _Transform) -> np
     return np.array([math.fsum(v) for v in b])
 
 
-def _cutset(tr: _Transform, lay: Layout, p: str, q: str) -> Path:
-    """The coordinates (integer multipliers) of v_p - v_q: the cutset rows a branch from p to q
-    enters."""
-    return _combine([(tr.state(lay.node_index[x]), s) for x, s in ((p, 1), (q, -1))
+def _cutset(tr: _Transform, lay: Layout, p: str, q: str, column: bool = False) -> Path:
+    """The cutset rows (integer multipliers) a branch from p to q enters; with ``column`` the
+    coordinates of v_p - v_q (the same but for the shifted carriers' internal voltages)."""
+    path = tr.state if column else tr.row
+    return _combine([(path(lay.node_index[x]), s) for x, s in ((p, 1), (q, -1))
                      if x in lay.node_index])
+
+
+def _shifts(circuit: Circuit, lay: Layout, br: Branches, owners: dict[str, int]
+            ) -> dict[int, dict[int, int]]:
+    """The tree-edge child index -> {pole state index: integer multiplier} of ``_Transform``:
+    for each closed carrier in the forest whose u = v_p - v_n + sum a_j w_j holds internal
+    voltages w_j (an op-amp with a gain-bandwidth product, a_j = -1), D = -a_j with its tree
+    edge's child on p, +a_j on n, so that its coordinate is +-u."""
+    out: dict[int, dict[int, int]] = {}
+    poles = set(lay.pole_index.values())
+    for name, child in owners.items():
+        u = br.voltages.get(name)
+        extra = {} if u is None else {j: a for j, a in u.coef.items() if j in poles}
+        if not extra or any(a != round(a) for a in extra.values()):
+            continue
+        sign = 1 if lay.node_index.get(circuit.part(name).p) == child else -1
+        out[child] = {j: -sign * int(a) for j, a in extra.items()}
+    return out
 
 
 def _voltage(lay: Layout, a: str, b: str) -> dict[int, float]:

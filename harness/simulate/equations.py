@@ -217,9 +217,10 @@ def _shape(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
     K, M = _assemble(circuit, lay, reg, br)
     K_dc, _ = _assemble(circuit, lay, reg, br_dc)
     closed = [name for name, u in br.voltages.items() if u is not None]
-    parents = forest(circuit, lay, closed, reg.c_node)
+    owners: dict[str, int] = {}
+    parents = forest(circuit, lay, closed, reg.c_node, owners)
     K_x, M_x, T, Tinv, tr = assemble(circuit, lay, br, parents, reg.r_series * reg.t_pulse,
-                                     reg.t_pulse, reg.c_node)
+                                     reg.t_pulse, reg.c_node, owners)
     reducer = Reducer(K_x, M_x, T, Tinv)
     jac, solve = _jacobian(reducer.K_r, reducer.M_r)
     return _Shape(K, M, K_dc, tr, reducer, jac, solve)

@@ -282,3 +282,28 @@ def steady_state(sol, probe: Probe, fraction: float) -> PeriodicValue:
     except NoSteadyState as exc:
         return PeriodicValue.without(sol.circuit.periodic, fraction, exc.reason)
     return periodic_value(sol, cyc, probe, fraction)
+
+
+def steady_waveform(sol, probe: Probe, offsets: np.ndarray) -> np.ndarray | None:
+    """The probe's steady-state values at ``offsets`` (s after the window's first event, within
+    [0, period]; NaN outside), shape (n,), from the dense output of the period integrated from
+    u* (``cycle``); within an event's pulse (the regularised impulse, not a value) the value at
+    its end.  A time on an event is the value just before it, offset 0 the value after the
+    window's first event.  None without a steady state."""
+    try:                        # no window is NoSteadyState(NO_WINDOW) too (``cycle``)
+        cyc = sol._periodic_cycle()
+    except NoSteadyState:
+        return None
+    window = sol.circuit.periodic
+    offsets = np.asarray(offsets, dtype=float)
+    phase = window.first + offsets
+    out = np.full(phase.shape, np.nan)
+    for leg, dense in zip(cyc.legs, cyc.run.dense):
+        inside = ((phase > leg.start) | (offsets == 0) & (leg.start == window.first)) & \
+            (phase <= leg.start + leg.length)
+        if np.any(inside):
+            w, e = probe_row(sol.circuit, sol.layout, leg.system, probe)
+            local = np.clip(phase[inside] - leg.start,
+                            min(sol.regularisation.post_pulse, 0.5 * leg.length), leg.length)
+            out[inside] = w @ dense(local) + float(w @ leg.origin + e)
+    return out

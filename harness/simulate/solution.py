@@ -303,6 +303,11 @@ class NumericSolution(NotComputed):
             self._cache[key] = periodic.steady_state(self, probe, fraction)
         return self._cache[key]
 
+    def periodic_waveform(self, probe: Probe, offsets: np.ndarray) -> np.ndarray | None:
+        """The probe's steady-state values at ``offsets`` (s after the window's first event,
+        modulo the period), shape (n,); None without a steady state (``simulate.periodic``)."""
+        return periodic.steady_waveform(self, probe, offsets)
+
     def _periodic_cycle(self) -> "periodic.NumericCycle":
         """The steady-state period, built once (raises ``periodic.NoSteadyState``)."""
         if "periodic" not in self._cache:
