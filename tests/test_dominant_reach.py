@@ -189,3 +189,49 @@ def test_a_weak_but_real_path_reaches_the_probe():
     assert exact.tau == pytest.approx(reference, rel=1e-9)
     assert numeric(circuit).dominant(probe, 1).tau == pytest.approx(reference,
                                                                     rel=T.DOMINANT_ENGINE)
+
+
+# A random circuit of the engine-agreement generator (seed 977, its parts as generated): the
+# inductor L8 hangs off the source node `in` through R2 and R9 (and drives a ccvs stage), so an
+# ideal source stands between it and the L11/C13/L15 network; its transfer to L15's current is
+# exactly zero, yet the resolvent solve read it at 1.4e-13 of the probe's sensitivity.
+SOURCE_NODE_ISOLATES = """
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "0.0 V", steps = [["0.00038 s", "4.77 V"]] }
+R2 = { kind = "resistor", nodes = ["n1", "in"], value = "31.8 ohm" }
+R4 = { kind = "resistor", nodes = ["n3", "gnd"], value = "683 ohm" }
+R6 = { kind = "resistor", nodes = ["n5", "n3"], value = "1.08e+05 ohm" }
+L8 = { kind = "inductor", nodes = ["gnd", "m7"], value = "5.14e-06 H" }
+R9 = { kind = "resistor", nodes = ["m7", "n1"], value = "26.4 ohm" }
+L11 = { kind = "inductor", nodes = ["n5", "m10"], value = "0.0329 H" }
+R12 = { kind = "resistor", nodes = ["m10", "in"], value = "4560 ohm" }
+C13 = { kind = "capacitor", nodes = ["n5", "gnd"], value = "1.9e-08 F" }
+L15 = { kind = "inductor", nodes = ["n5", "m14"], value = "0.00421 H" }
+R16 = { kind = "resistor", nodes = ["m14", "in"], value = "287 ohm" }
+CC18 = { kind = "ccvs", nodes = ["o17", "gnd"], gain = -438, control = "R9" }
+R20 = { kind = "resistor", nodes = ["o17", "o19"], value = "4.34e+05 ohm" }
+R21 = { kind = "resistor", nodes = ["o19", "gnd"], value = "3.66e+05 ohm" }
+C22 = { kind = "capacitor", nodes = ["o19", "gnd"], value = "1.3e-11 F", initial = "1.09 V" }
+"""
+
+
+def test_storage_behind_an_ideal_source_node_does_not_reach_the_probe():
+    """Through L15 the dominant τ is b1 of i_L15(s)/V1(s) (sympy, branch equations written
+    here: L11 and L15 each in series with its resistor from `in` to n5, C13 and R6 + R4 from
+    n5 to ground); L8's 88 ns is not in it, in either engine."""
+    n5, i11, i15 = sp.symbols("n5 i11 i15")
+    vin = sp.Integer(1)
+    eqs = [vin - n5 - i11 * (4560 + s * sp.Rational(329, 10**4)),
+           vin - n5 - i15 * (287 + s * sp.Rational(421, 10**5)),
+           i11 + i15 - n5 * (s * sp.Rational(19, 10**9) + sp.Rational(1, 108000 + 683))]
+    den = sp.denom(sp.cancel(sp.together(_solve(eqs, [n5, i11, i15], i15))))
+    poles = [complex(p) for p in sp.Poly(den, s).nroots(n=30)]     # a ringing pair among them
+    reference = sum(-1 / p for p in poles).real
+    assert reference == pytest.approx(12.81e-6, rel=1e-3)    # hand: 6.79 + 5.12 + 0.903 µs
+    circuit = parse_circuit(SOURCE_NODE_ISOLATES)
+    probe = Probe("through", ("L15",))
+    exact = closedform.solve(circuit).dominant(probe, 1)
+    assert set(exact.terms) == {"L11", "C13", "L15"}
+    assert exact.tau == pytest.approx(reference, rel=1e-9)
+    assert numeric(circuit).dominant(probe, 1).tau == pytest.approx(reference,
+                                                                    rel=T.DOMINANT_ENGINE)

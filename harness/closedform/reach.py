@@ -18,6 +18,15 @@ circuits lie, and with |s0| = O(1) in the scaled time) is zero but for a coincid
 counts when |H_X(s0)| > ``REACH`` * max over the rows of |r^T (G~ + s0 C~)^-1| at either point.
 One LU of G~ + s0 C~ and one transposed solve per probe and point.
 
+Rounding can lift an H_X that is exactly zero above ``REACH`` (an inductor loop hanging off an
+ideal source's node read 1.4e-13 at a probe it cannot influence), so the numerical test is
+preceded by an exact structural one: with a perfect matching of the pencil's equations to its
+unknowns (Duff, "On algorithms for obtaining a maximum transversal", ACM TOMS 7 (1981)), each
+unknown is set by its matched equation from the unknowns that equation contains; the unknowns
+that can influence the probe are those reached from the probe's own unknowns along that
+relation, and a storage part none of whose equations is matched to one of them has an H_X that
+is zero for every s (the sparsity of a block-triangular inverse).
+
 For a block-triangular pencil the first coefficient of det(G + sC)/det(G) splits over the
 diagonal blocks, so the sum of the zero-value time constants of the reaching storage is the
 sum of the time constants of the modes that can appear in the probe (its transfer function's
@@ -91,6 +100,7 @@ def reaching_storage(circuit: Circuit, layout: Layout, g: np.ndarray, c: np.ndar
     storage = [p for p in circuit.parts if p.kind in STORAGE or opamp_omega(p) is not None]
     inject = _injections(layout, storage, g.shape[0])
     reached = np.zeros(len(storage), dtype=bool)
+    possible = _structurally_possible(inject, _influencing_rows(g, c, row, drow))
     solved = False
     for s0 in POINTS:
         try:
@@ -99,10 +109,45 @@ def reaching_storage(circuit: Circuit, layout: Layout, g: np.ndarray, c: np.ndar
             continue
         solved = True
         top = float(np.max(np.abs(z), initial=0.0))
-        reached |= np.abs(inject @ z) > REACH * top
+        reached |= (np.abs(inject @ z) > REACH * top) & possible
     if not solved:
         return None
     return {p.name for p, hit in zip(storage, reached) if hit}
+
+
+def _influencing_rows(g: np.ndarray, c: np.ndarray, row: np.ndarray,
+                      drow: np.ndarray) -> np.ndarray | None:
+    """Mask over the equations (shape (n,)) whose matched unknown can influence the probe
+    (module docstring), or None when the pencil's pattern has no perfect matching (then the
+    structure says nothing and every part stays possible)."""
+    from scipy.sparse import csr_matrix
+    from scipy.sparse.csgraph import breadth_first_order, maximum_bipartite_matching
+    pattern = csr_matrix((g != 0) | (c != 0))
+    unknown_of = maximum_bipartite_matching(pattern, perm_type="column")
+    if np.any(unknown_of < 0):
+        return None
+    n = g.shape[0]
+    equation_of = np.empty(n, dtype=int)
+    equation_of[unknown_of] = np.arange(n)
+    # edge u -> v: u's equation contains v, so v influences u; a virtual node n starts at
+    # the probe's unknowns
+    rows_of_unknown = pattern[equation_of].tocoo()
+    probe = np.flatnonzero((row != 0) | (drow != 0))
+    src = np.concatenate([rows_of_unknown.row, np.full(probe.size, n)])
+    dst = np.concatenate([rows_of_unknown.col, probe])
+    graph = csr_matrix((np.ones(src.size), (src, dst)), shape=(n + 1, n + 1))
+    seen = breadth_first_order(graph, n, directed=True, return_predecessors=False)
+    influencing = np.zeros(n + 1, dtype=bool)
+    influencing[seen] = True
+    return influencing[unknown_of]
+
+
+def _structurally_possible(inject, rows: np.ndarray | None) -> np.ndarray:
+    """Per storage part (shape (parts,)): whether one of its injection rows is the equation
+    of an unknown that can influence the probe (all True without a structure)."""
+    if rows is None:
+        return np.ones(inject.shape[0], dtype=bool)
+    return np.asarray((abs(inject) @ rows.astype(float)) > 0).ravel()
 
 
 def _transposed_solve(g: np.ndarray, c: np.ndarray, s0: complex,
