@@ -132,11 +132,12 @@ def _local_settings() -> dict:
 
 #: files a ``local:N`` worker holds per thread (Dask's ``worker-saturation``; it holds
 #: ceil(threads × this)): the one it runs and the next, so a worker does not wait a round trip
-#: through the scheduler (~3 ms idle, 10-20 ms at load 8) between files.  The scheduler counts
-#: a dying worker against every task it holds, queued ones too, so a file queued behind one
-#: that kills its worker may reach the death bound through no fault of its own; such a file is
-#: run again alone at the end (``_second_chance``) and keeps its result.  With ``--timeout``
-#: the client hands out no more files than there are threads, so none is queued.
+#: through the scheduler between files (mean gap between a worker's tasks 7.8 -> 5.3 ms at a
+#: load of 8: tests/benchmarks/RESULTS.md).  The scheduler counts a dying worker against every
+#: task it holds, queued ones too, so a file queued behind one that kills its worker may reach
+#: the death bound through no fault of its own; such a file is run again alone at the end
+#: (``_second_chance``) and keeps its result.  With ``--timeout`` the client hands out no more
+#: files than there are threads, so none is queued.
 LOCAL_SATURATION = 2.0
 
 

@@ -69,7 +69,8 @@ _AWAKE = ("import sys, harness.cli; from harness import cluster; cluster.QUIET_L
 
 #: the Dask settings ``--cluster local:N`` ran with before its workers held a file queued
 #: behind the one they run and its memory and system monitors were slowed
-_SLOWED = ("distributed.worker.memory.monitor-interval", "distributed.admin.system-monitor.interval")
+_SLOWED = ("distributed.worker.memory.monitor-interval",
+           "distributed.admin.system-monitor.interval")
 
 #: ``tauproof check`` on the local cluster with each worker holding only the file it runs and
 #: Dask's memory and system monitors at their defaults (the rest as now)
@@ -256,7 +257,7 @@ def background(repeats: int) -> dict:
                 figures = [(time.process_time() - here) / IDLE * 1e3,
                            (workers() - there) / IDLE * 1e3]
                 here, there = time.process_time(), workers()
-                stamps = [got for _, got in as_completed(
+                stamps = [stamp for _, stamp in as_completed(
                     [client.submit(_result_like, i, pure=False) for i in range(TASKS)],
                     with_results=True)]
                 figures += [(time.process_time() - here) / TASKS * 1e3,
@@ -419,6 +420,17 @@ def expected(walls: dict, files: int, pool: dict, fixed: dict, per_task: float) 
     return walls["jobs 1"] / (walls["jobs 2"] + extra)
 
 
+def _print_background(bg: dict, repeats: int, before: float) -> None:
+    """``background``'s figures, now / one held, with the load average before and after."""
+    def both(column: int, digits: int) -> str:
+        return " / ".join(f"{bg[way][column]:.{digits}f}" for way in ("now", "one held"))
+    print(f"a running local:2 beside its tasks, now / one held (median of {repeats}): idle, "
+          f"CPU ms per s: client's process {both(0, 1)}, workers {both(1, 1)}; {TASKS} tasks "
+          f"of 10 ms returning ~140 kB, CPU ms per task: client's process {both(2, 2)}, "
+          f"workers beyond the task {both(3, 2)}, ms a worker sat between two tasks "
+          f"{both(4, 1)}; load average {before:.1f}-{load():.1f}")
+
+
 def main() -> None:
     from harness.cluster import LOCAL_ALLOWED_FAILURES
     repeats = int(sys.argv[1]) if len(sys.argv) > 1 else 1
@@ -449,18 +461,7 @@ def main() -> None:
           f"(measured jobs 1 / jobs 2 {walls['jobs 1'] / walls['jobs 2']:.2f}x); "
           f"load average {load():.1f}")
     before = load()
-    bg = background(repeats)
-    print("a running local:2 beside its tasks, now / one held (median of "
-          f"{repeats}): idle, CPU ms per s: client's process " +
-          " / ".join(f"{bg[w][0]:.1f}" for w in ("now", "one held")) + ", workers " +
-          " / ".join(f"{bg[w][1]:.1f}" for w in ("now", "one held")) +
-          f"; {TASKS} tasks of 10 ms returning ~140 kB, CPU ms per task: client's process " +
-          " / ".join(f"{bg[w][2]:.2f}" for w in ("now", "one held")) +
-          ", workers beyond the task " +
-          " / ".join(f"{bg[w][3]:.2f}" for w in ("now", "one held")) +
-          ", ms a worker sat between two tasks " +
-          " / ".join(f"{bg[w][4]:.1f}" for w in ("now", "one held")) +
-          f"; load average {before:.1f}-{load():.1f}")
+    _print_background(background(repeats), repeats, before)
     before = load()
     pf, df = pool_faults(), dask_faults()
     print(f"a worker's death: pool {pf['die']:.2f} s, local cluster {df['die']:.2f} s per death "
