@@ -118,17 +118,27 @@ def _quiet_logs():
 
 def _local_settings() -> dict:
     """Dask settings of a ``local:N`` cluster, held while it runs (a worker restarted later
-    starts the same way): the death bound; no file queued on a worker beside the one it runs (a
-    dying worker counts against every file it holds); worker processes forked from this one
-    where the platform can fork (they start with the engines this process imported, in ~0.1 s
-    where a spawned one starts a new interpreter and imports everything again: measured
-    ``tests/benchmarks/cluster_bench.py``); the event loops' needless wake-ups off
-    (``QUIET_LOOPS``)."""
+    starts the same way): the death bound; one file queued on a worker behind the one it runs
+    (``LOCAL_SATURATION``); worker processes forked from this one where the platform can fork
+    (they start with the engines this process imported, in ~0.1 s where a spawned one starts a
+    new interpreter and imports everything again: measured ``tests/benchmarks/cluster_bench.py``);
+    the event loops' needless wake-ups off (``QUIET_LOOPS``)."""
     import multiprocessing as mp
     method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
     return {"distributed.scheduler.allowed-failures": LOCAL_ALLOWED_FAILURES,
-            "distributed.scheduler.worker-saturation": 1.0,
+            "distributed.scheduler.worker-saturation": LOCAL_SATURATION,
             "distributed.worker.multiprocessing-method": method, **QUIET_LOOPS}
+
+
+#: files a ``local:N`` worker holds per thread (Dask's ``worker-saturation``; it holds
+#: ceil(threads × this)): the one it runs and the next, so a worker does not wait a round trip
+#: through the scheduler between files (mean gap between a worker's tasks 7.8 -> 5.3 ms at a
+#: load of 8: tests/benchmarks/RESULTS.md).  The scheduler counts a dying worker against every
+#: task it holds, queued ones too, so a file queued behind one that kills its worker may reach
+#: the death bound through no fault of its own; such a file is run again alone at the end
+#: (``_second_chance``) and keeps its result.  With ``--timeout`` the client hands out no more
+#: files than there are threads, so none is queued.
+LOCAL_SATURATION = 2.0
 
 
 #: Dask settings that keep a ``local:N`` cluster's event loops from waking for nothing: the
@@ -138,9 +148,15 @@ def _local_settings() -> dict:
 #: an "unresponsive" log line, which is silenced).  Sampled over the library, the profiler and
 #: its timers were a third of the workers' busy time outside the tasks (that time ~7 % of the
 #: tasks'); with the versions read once (``_versions_read``) a run's CPU fell 0.3-0.6 s
-#: (tests/benchmarks/RESULTS.md).  Neither touches a task or its result.
+#: (tests/benchmarks/RESULTS.md).  The memory monitors (worker and nanny: the process's size
+#: against its limit, every 100 ms) look once a second, and the system monitors (every Dask
+#: process: CPU, memory, network and disk counters for the dashboard, every 500 ms) every
+#: 5 s: an idle cluster's processes then take ~10 ms of CPU a second instead of ~25.  None
+#: of these touches a task or its result; a worker past its memory limit is still stopped.
 QUIET_LOOPS = {"distributed.worker.profile.enabled": False,
-               "distributed.admin.tick.interval": "1s"}
+               "distributed.admin.tick.interval": "1s",
+               "distributed.worker.memory.monitor-interval": "1s",
+               "distributed.admin.system-monitor.interval": "5s"}
 
 
 @contextlib.contextmanager

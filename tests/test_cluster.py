@@ -277,3 +277,13 @@ def test_ctrl_c_cancels_the_run_and_keeps_the_previous_reports(tmp_path):
     assert "Traceback" not in err and "stopped by SIGINT" in err, err
     assert sorted(p.name for p in reports.iterdir()) == ["results.json"]
     assert (reports / "results.json").read_text() == "previous"
+
+
+def test_the_local_settings_are_dask_settings():
+    """Dask takes any key without complaint, so a misspelt one would silently change nothing:
+    every key ``local:N`` sets must be one of Dask's own defaults (its ``distributed.yaml``)."""
+    import dask
+    import distributed  # noqa: F401  (registers its defaults)
+    missing = object()
+    for key in cluster._local_settings():
+        assert dask.config.get(key, default=missing) is not missing, key

@@ -2,10 +2,16 @@
 (1-minute load average from /proc/loadavg) read beside every figure:
 
 * the library: ``tauproof check circuits/library --no-report`` with ``--jobs 1``, ``--jobs 2``
-  and ``--cluster local:2``, and ``local:2`` as it ran before (``_AWAKE``: Dask's default
-  worker profiler and loop ticks, versions read in each worker, the client polling),
-  interleaved, medians of the wall time and of the CPU time of every process of the run (the
-  command and the workers it waited for);
+  and ``--cluster local:2``, ``local:2`` with each worker holding only the file it runs and
+  Dask's memory and system monitors at their defaults (``_ONE_HELD``), and ``local:2`` as it
+  ran before that too (``_AWAKE``: also Dask's default worker profiler and loop ticks,
+  versions read in each worker, the client polling), interleaved, medians of the wall time and
+  of the CPU time of every process of the run (the command and the workers it waited for);
+* what a running ``local:2`` cluster costs beside its tasks, as it runs now and as ``_ONE_HELD``
+  (``background``): CPU per second of its processes idle, and over tasks of 10 ms returning
+  ~140 kB (a library file's result, on average) the CPU per task of the client's process
+  (scheduler, nannies, client) and of the workers beyond the task, and how long a worker sits
+  between two tasks;
 * the local cluster's fixed costs, each in a fresh process so imports count, as it started
   before (workers spawned, then told to import the engines) and as it starts now (workers
   forked from the client after it imported them, while the client plans): importing Dask's
@@ -61,10 +67,23 @@ _AWAKE = ("import sys, harness.cli; from harness import cluster; cluster.QUIET_L
           "sys.exit(harness.cli.main(sys.argv[1:]))")
 
 
-def _wall(args: list[str], awake: bool = False) -> tuple[float, float, int]:
-    """(wall s, CPU s of the command and every process it waited for, exit code)."""
+#: the Dask settings ``--cluster local:N`` ran with before its workers held a file queued
+#: behind the one they run and its memory and system monitors were slowed
+_SLOWED = ("distributed.worker.memory.monitor-interval",
+           "distributed.admin.system-monitor.interval")
+
+#: ``tauproof check`` on the local cluster with each worker holding only the file it runs and
+#: Dask's memory and system monitors at their defaults (the rest as now)
+_ONE_HELD = ("import sys, harness.cli; from harness import cluster; "
+             f"[cluster.QUIET_LOOPS.pop(k) for k in {_SLOWED!r}]; cluster.LOCAL_SATURATION = 1.0; "
+             "sys.exit(harness.cli.main(sys.argv[1:]))")
+
+
+def _wall(args: list[str], head: str | None = None) -> tuple[float, float, int]:
+    """(wall s, CPU s of the command and every process it waited for, exit code); ``head``:
+    code run in place of the command's module (``_AWAKE``, ``_ONE_HELD``)."""
     import resource
-    head = ["-c", _AWAKE] if awake else ["-m", "harness"]
+    head = ["-c", head] if head else ["-m", "harness"]
     cmd = [sys.executable, *head, "check", LIBRARY, "--no-report", *args]
     used = resource.getrusage(resource.RUSAGE_CHILDREN)
     start = time.perf_counter()
@@ -76,17 +95,19 @@ def _wall(args: list[str], awake: bool = False) -> tuple[float, float, int]:
 
 def library(repeats: int) -> tuple[dict, dict, list[float]]:
     """Median wall time and CPU time (s) of each way of running the library, runs interleaved
-    (``local:2 awake``: the cluster as it ran before, ``_AWAKE``); the load average before
-    each run."""
+    (``local:2 one held``: ``_ONE_HELD``; ``local:2 awake``: the cluster as it ran before
+    that, ``_AWAKE``); the load average before each run."""
     ways = {"jobs 1": ["--jobs", "1"], "jobs 2": ["--jobs", "2"],
-            "local:2": ["--cluster", "local:2"], "local:2 awake": ["--cluster", "local:2"]}
+            "local:2": ["--cluster", "local:2"], "local:2 one held": ["--cluster", "local:2"],
+            "local:2 awake": ["--cluster", "local:2"]}
+    heads = {"local:2 one held": _ONE_HELD, "local:2 awake": _AWAKE}
     times: dict[str, list[float]] = {name: [] for name in ways}
     cpu: dict[str, list[float]] = {name: [] for name in ways}
     loads = []
     for _ in range(repeats):
         for name, args in ways.items():
             loads.append(load())
-            seconds, used, code = _wall(args, awake=name.endswith("awake"))
+            seconds, used, code = _wall(args, heads.get(name))
             assert code == 0, (name, code)
             times[name].append(seconds)
             cpu[name].append(used)
@@ -168,6 +189,83 @@ def dask_per_task() -> dict:
             pass
         out["now"] = (time.perf_counter() - start) / TASKS
     return out
+
+
+@contextlib.contextmanager
+def _one_held(on: bool):
+    """``--cluster local:N`` as ``_ONE_HELD`` runs it while ``on``, as now otherwise."""
+    from harness import cluster
+    saved, saturation = dict(cluster.QUIET_LOOPS), cluster.LOCAL_SATURATION
+    if on:
+        for key in _SLOWED:
+            cluster.QUIET_LOOPS.pop(key)
+        cluster.LOCAL_SATURATION = 1.0
+    try:
+        yield
+    finally:
+        cluster.QUIET_LOOPS.update(saved)
+        cluster.LOCAL_SATURATION = saturation
+
+
+def _process_cpu() -> float:
+    """CPU seconds of the process running this (all its threads)."""
+    return time.process_time()
+
+
+def _result_like(i: int) -> tuple:
+    """A task of 10 ms of its thread's CPU returning ~140 kB, as a library file's result does
+    on average (6.8 MB pickled over 49 files): (its process, when it began and ended on the
+    system's monotonic clock, the values)."""
+    import os
+    began, used = time.perf_counter(), time.thread_time()
+    while time.thread_time() - used < 0.01:
+        pass
+    return os.getpid(), began, time.perf_counter(), [float(k) for k in range(17_000)]
+
+
+def _gaps(stamps: list) -> list[float]:
+    """Seconds each worker sat between the end of a task and the start of its next."""
+    runs: dict = {}
+    for pid, began, ended, _ in stamps:
+        runs.setdefault(pid, []).append((began, ended))
+    return [after[0] - before[1] for times in runs.values()
+            for before, after in zip(sorted(times), sorted(times)[1:])]
+
+
+#: seconds a running cluster is left idle in ``background``
+IDLE = 4.0
+
+
+def background(repeats: int) -> dict:
+    """A running ``local:2`` cluster beside its tasks, "now" and "one held" (``_one_held``)
+    interleaved, medians: CPU ms per second of the client's process and of the workers while
+    idle; over ``TASKS`` tasks (``_result_like``) CPU ms per task of the client's process and
+    of the workers beyond the task's 10 ms, and the mean ms a worker sat between two tasks."""
+    from distributed import as_completed
+    from harness import cluster
+    got: dict = {}
+    for _ in range(repeats):
+        for way in ("now", "one held"):
+            with _one_held(way == "one held"), cluster._connect("local:2", True) as ready:
+                client = ready()
+
+                def workers() -> float:
+                    return sum(client.run(_process_cpu).values())
+                time.sleep(1.0)      # the workers' start-up over
+                here, there = time.process_time(), workers()
+                time.sleep(IDLE)
+                figures = [(time.process_time() - here) / IDLE * 1e3,
+                           (workers() - there) / IDLE * 1e3]
+                here, there = time.process_time(), workers()
+                stamps = [stamp for _, stamp in as_completed(
+                    [client.submit(_result_like, i, pure=False) for i in range(TASKS)],
+                    with_results=True)]
+                figures += [(time.process_time() - here) / TASKS * 1e3,
+                            (workers() - there) / TASKS * 1e3 - 10.0,
+                            statistics.mean(_gaps(stamps)) * 1e3]
+            got.setdefault(way, []).append(figures)
+    return {way: [statistics.median(column) for column in zip(*rows)]
+            for way, rows in got.items()}
 
 
 def _fault(kind):
@@ -322,6 +420,17 @@ def expected(walls: dict, files: int, pool: dict, fixed: dict, per_task: float) 
     return walls["jobs 1"] / (walls["jobs 2"] + extra)
 
 
+def _print_background(bg: dict, repeats: int, before: float) -> None:
+    """``background``'s figures, now / one held, with the load average before and after."""
+    def both(column: int, digits: int) -> str:
+        return " / ".join(f"{bg[way][column]:.{digits}f}" for way in ("now", "one held"))
+    print(f"a running local:2 beside its tasks, now / one held (median of {repeats}): idle, "
+          f"CPU ms per s: client's process {both(0, 1)}, workers {both(1, 1)}; {TASKS} tasks "
+          f"of 10 ms returning ~140 kB, CPU ms per task: client's process {both(2, 2)}, "
+          f"workers beyond the task {both(3, 2)}, ms a worker sat between two tasks "
+          f"{both(4, 1)}; load average {before:.1f}-{load():.1f}")
+
+
 def main() -> None:
     from harness.cluster import LOCAL_ALLOWED_FAILURES
     repeats = int(sys.argv[1]) if len(sys.argv) > 1 else 1
@@ -334,7 +443,8 @@ def main() -> None:
           ", ".join(f"{k} {v:.2f}" for k, v in cpu.items()))
     print(f"  jobs 1 / local:2 = {walls['jobs 1'] / walls['local:2']:.2f}x, "
           f"jobs 1 / jobs 2 = {walls['jobs 1'] / walls['jobs 2']:.2f}x, "
-          f"jobs 2 / local:2 = {walls['jobs 2'] / walls['local:2']:.2f}x")
+          f"jobs 2 / local:2 = {walls['jobs 2'] / walls['local:2']:.2f}x, "
+          f"jobs 1 / local:2 one held = {walls['jobs 1'] / walls['local:2 one held']:.2f}x")
     before = load()
     pool = pool_costs()
     fixed = {way: fixed_costs(way) for way in ("before", "now")}
@@ -350,6 +460,8 @@ def main() -> None:
           f"{expected(walls, files, pool, fixed['now'], task['now']):.2f}x "
           f"(measured jobs 1 / jobs 2 {walls['jobs 1'] / walls['jobs 2']:.2f}x); "
           f"load average {load():.1f}")
+    before = load()
+    _print_background(background(repeats), repeats, before)
     before = load()
     pf, df = pool_faults(), dask_faults()
     print(f"a worker's death: pool {pf['die']:.2f} s, local cluster {df['die']:.2f} s per death "
