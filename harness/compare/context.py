@@ -18,7 +18,8 @@ from .. import tolerances as tol
 from ..model import (ACROSS, BETWEEN, CURRENT_SOURCE, NODE, RESISTOR, THROUGH, VOLTAGE_SOURCE,
                      Circuit, Expectation, Probe)
 from ..messages import text
-from ..results import IMPULSIVE, NOT_REACHED, UNRESOLVED_MODE, Diagnostic, Features, Solution
+from ..results import (BELOW_RESOLUTION, IMPULSIVE, NOT_REACHED, UNRESOLVED_MODE, Diagnostic,
+                       Features, Solution)
 
 
 def direction(probe: Probe, circuit: Circuit) -> str:
@@ -138,6 +139,22 @@ class CheckContext:
         return text(Diagnostic(UNRESOLVED_MODE, self.circuit.events[self.k], self.k,
                                parts=parts, values=(("tau", min(fast)), ("reach", limit)),
                                detail=detail))
+
+    def below_resolution(self, name: str, closed: float | None, numeric: float | None,
+                         unit: str) -> str:
+        """Why the engines' values of field ``name`` (the probe's unit) are not judged though
+        apart by more than the engines' tolerance, or "": they differ by less than the
+        numerical engine's own resolution of the probe (``value_resolution``, the one
+        comparison rule with that as its floor), a limit of that engine (the
+        ``below-resolution`` diagnostic's sentence)."""
+        limit = None if self.numeric is None else self.numeric.value_resolution(self.probe,
+                                                                                self.k)
+        if limit is None or closed is None or numeric is None \
+                or not tol.agree(closed, numeric, 0.0, limit):
+            return ""
+        return text(Diagnostic(BELOW_RESOLUTION, self.circuit.events[self.k], self.k,
+                               values=(("closed", closed), ("numeric", numeric),
+                                       ("resolution", limit)), detail=f"{name} {unit}"))
 
     @property
     def unjudged(self) -> bool:
