@@ -54,8 +54,12 @@ def compare_field(name: str, exp: Expectation, fe: Features, fn: Features | None
     unit = spec.unit_for(exp.probe.dimension)
     relative = hand_relative(exp, ctx)
     floor = ctx.scale if spec.floor == PROBE_SCALE else 0.0
+    engine_floor = tol.ENGINE_FLOOR * floor
     verdict, message = PASS, ""
-    apart = fn is not None and not _engine_ok(spec, closed, numeric, tol.ENGINE_FLOOR * floor)
+    apart = fn is not None and not _engine_ok(spec, closed, numeric, engine_floor)
+    if apart and floor:  # the probe's scale in this interval, asked for only where needed
+        engine_floor = tol.ENGINE_FLOOR * ctx.interval_scale
+        apart = not _engine_ok(spec, closed, numeric, engine_floor)
     limit = ctx.below_resolution(name, closed, numeric, unit) \
         if apart and spec.floor == PROBE_SCALE else ""
     if apart and not limit:
@@ -69,4 +73,4 @@ def compare_field(name: str, exp: Expectation, fe: Features, fn: Features | None
     return FieldResult(name=name, hand=hand, closed_form=closed, numeric=numeric,
                        verdict=verdict, unit=unit, message=message,
                        formula=exp.formulas.get(name, ""), tolerance=relative,
-                       floor=tol.ENGINE_FLOOR * floor)
+                       floor=engine_floor)
