@@ -177,6 +177,17 @@ def _unresolved_mode(d: r.Diagnostic) -> str:
             f"of the numerical engine")
 
 
+def _below_resolution(d: r.Diagnostic) -> str:
+    field, _, unit = d.detail.partition(" ")
+    closed, numeric, res = (format_si(d.value(n), unit) for n in ("closed", "numeric",
+                                                                   "resolution"))
+    return (f"{field} not cross-checked: the closed form gives {closed} and the numerical engine "
+            f"{numeric}, apart by more than the engines' tolerance but less than the numerical "
+            f"engine's resolution of this probe, {res} (its integration tolerance on the "
+            f"states the probe reads, and its inductor shunts); the closed form's value stands "
+            f"alone: a limit of the numerical engine")
+
+
 #: diagnostic code -> its sentence (every code ``harness.results`` declares has one)
 CODES: dict[str, Callable[[r.Diagnostic], str]] = {
     r.FLOATING_NODES: _floating, r.UNDAMPED_OSCILLATION: _undamped,
@@ -188,6 +199,7 @@ CODES: dict[str, Callable[[r.Diagnostic], str]] = {
     r.STOPPED: _stopped, r.NOT_REACHED: _not_reached, r.NO_FINAL: _no_final,
     r.SIGN_CHANGE: _sign_change, r.UNDEFINED_CURRENT: _undefined_current,
     r.IMPULSIVE_VALUE: _impulsive_value, r.UNRESOLVED_MODE: _unresolved_mode,
+    r.BELOW_RESOLUTION: _below_resolution,
 }
 
 

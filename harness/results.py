@@ -93,12 +93,17 @@ UNDEFINED_CURRENT = "undefined-loop-current"
 # resolves after the event); detail ``probe`` (the probe's values after the event) or
 # ``energy`` (parts: the part whose current carries the mode):
 UNRESOLVED_MODE = "unresolved-mode"
+# Found by the comparator from the numerical engine's ``value_resolution``: interval, time,
+# detail the field, values closed (the closed form's value), numeric (the numerical engine's)
+# and resolution (that engine's resolution of the probe, in the probe's unit: the two differ
+# by less, though by more than the engines' tolerance):
+BELOW_RESOLUTION = "below-resolution"
 #: every diagnostic code an engine may report (each has its sentence in ``harness.messages``)
 DIAGNOSTIC_CODES = (FLOATING_NODES, UNDAMPED_OSCILLATION, STATE_OVERFLOW, IMPULSE_DERIVATIVE,
                     IMPULSIVE_CURRENT, IMPULSIVE_VOLTAGE, RESPONSE_OVERFLOW, NO_DECAY,
                     GROWING_MODE, NO_DC_PATH, PULSE_GROWTH, UNSETTLED, WORK_BUDGET, BREAKDOWN,
                     STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE, UNDEFINED_CURRENT,
-                    IMPULSIVE_VALUE, UNRESOLVED_MODE)
+                    IMPULSIVE_VALUE, UNRESOLVED_MODE, BELOW_RESOLUTION)
 
 
 @dataclass(frozen=True)
@@ -412,6 +417,11 @@ class Solution(Protocol):
         """Optional: the fastest time constant in s the engine resolves just after event k
         (faster modes are not judged there), or None."""
 
+    def value_resolution(self, probe: Probe, k: int) -> float | None:
+        """Optional: the smallest difference in the probe's values over interval k (in its
+        unit, V or A) the engine can establish (its integration tolerance and modelling
+        perturbation carried to the probe), or None."""
+
     def thevenin(self, k: int) -> Mapping[str, float | None] | None:
         """Optional: storage part -> the Thevenin resistance in ohm it sees in interval k
         (None where unbounded), for the diagnosis of a hand τ; or None."""
@@ -431,12 +441,15 @@ class Solution(Protocol):
 class NotComputed:
     """The optional answers of ``Solution``, each "not computed".  Both engines inherit this and
     override the answers they give: the closed form ``hazards``, ``thevenin``,
-    ``conditioning`` and ``node_voltages``; the numerical engine ``resolution``; both
-    ``periodic_waveform``."""
+    ``conditioning`` and ``node_voltages``; the numerical engine ``resolution`` and
+    ``value_resolution``; both ``periodic_waveform``."""
 
     hazards: tuple[Hazard, ...] = ()
 
     def resolution(self, k: int) -> float | None:
+        return None
+
+    def value_resolution(self, probe: Probe, k: int) -> float | None:
         return None
 
     def thevenin(self, k: int) -> Mapping[str, float | None] | None:

@@ -18,7 +18,8 @@ from .. import tolerances as tol
 from ..model import (ACROSS, BETWEEN, CURRENT_SOURCE, NODE, RESISTOR, THROUGH, VOLTAGE_SOURCE,
                      Circuit, Expectation, Probe)
 from ..messages import text
-from ..results import IMPULSIVE, NOT_REACHED, UNRESOLVED_MODE, Diagnostic, Features, Solution
+from ..results import (BELOW_RESOLUTION, IMPULSIVE, NOT_REACHED, UNRESOLVED_MODE, Diagnostic,
+                       Features, Solution)
 
 
 def direction(probe: Probe, circuit: Circuit) -> str:
@@ -101,6 +102,23 @@ class CheckContext:
         return max(probe_scale(self.circuit, self.exact, self.probe), self.noise)
 
     @cached_property
+    def interval_scale(self) -> float:
+        """The probe's scale in interval k for the engines' floors: ``scale``, or the largest
+        magnitude the closed form's waveform takes in the interval (its peak) where that is
+        larger.  Each engine's absolute error on a value follows what the waveform does around
+        it: 13 nA at an event before a 0.67 mA ring 1.3 us later was read 1.6e-12 A apart
+        (1.3e-4 of it, 2.4e-9 of the ring)."""
+        if self.exact.withheld(self.k):
+            return self.scale
+        try:
+            magnitude = self.exact.peak(self.probe, self.k).magnitude
+        except (ValueError, ArithmeticError, np.linalg.LinAlgError):
+            return self.scale
+        if magnitude is None or not math.isfinite(magnitude):
+            return self.scale
+        return max(self.scale, abs(magnitude))
+
+    @cached_property
     def noise(self) -> float:
         """The probe's noise floor in its unit: ``tol.PROBE_NOISE`` of the circuit's scale."""
         return tol.PROBE_NOISE * circuit_scale(self.circuit, self.probe)
@@ -138,6 +156,22 @@ class CheckContext:
         return text(Diagnostic(UNRESOLVED_MODE, self.circuit.events[self.k], self.k,
                                parts=parts, values=(("tau", min(fast)), ("reach", limit)),
                                detail=detail))
+
+    def below_resolution(self, name: str, closed: float | None, numeric: float | None,
+                         unit: str) -> str:
+        """Why the engines' values of field ``name`` (the probe's unit) are not judged though
+        apart by more than the engines' tolerance, or "": they differ by less than the
+        numerical engine's own resolution of the probe (``value_resolution``, the one
+        comparison rule with that as its floor), a limit of that engine (the
+        ``below-resolution`` diagnostic's sentence)."""
+        limit = None if self.numeric is None else self.numeric.value_resolution(self.probe,
+                                                                                self.k)
+        if limit is None or closed is None or numeric is None \
+                or not tol.agree(closed, numeric, 0.0, limit):
+            return ""
+        return text(Diagnostic(BELOW_RESOLUTION, self.circuit.events[self.k], self.k,
+                               values=(("closed", closed), ("numeric", numeric),
+                                       ("resolution", limit)), detail=f"{name} {unit}"))
 
     @property
     def unjudged(self) -> bool:

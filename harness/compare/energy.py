@@ -8,11 +8,11 @@ The floor is ``tol.ENERGY_FLOOR`` of the energy itself beside a rounding-noise f
 from __future__ import annotations
 
 from .. import tolerances as tol
-from ..model import RESISTOR, SWITCH, Expectation
+from ..model import ACROSS, CONTROLLED, RESISTOR, SWITCH, Expectation, Probe
 from ..outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
 from ..results import Features
 from ..units import format_apart, format_si
-from .context import CheckContext, current_scale, hand_relative
+from .context import CheckContext, current_scale, hand_relative, probe_scale
 from .message import engine_message
 
 
@@ -31,25 +31,48 @@ def _noise_energy(ctx: CheckContext) -> float:
     return r_min * noise ** 2 * (end - start) / 10.0
 
 
-def engine_energy_floor(ctx: CheckContext, ee, part_name: str) -> float:
-    """The floor (J) of the two engines' energies of one part: ``energy_floor`` and the
-    numerical engine's noise on an energy *above* a steady dissipation p_inf,
-    ``tol.ENGINE_FLOOR`` of p_inf over the interval's τ scale (a tenth of the exact span): its
-    integrated i^2 carries relative errors of about its tolerance on the whole current."""
+def _controlled_noise_energy(ctx: CheckContext, part_name: str) -> float:
+    """V_p I_f T in J for a controlled source (0 for another part): what a current at the
+    noise, I_f as in ``_noise_energy``, absorbs across the part's own voltage scale V_p (its
+    largest magnitude at any event, ``probe_scale``) over the interval's τ scale T.  Its
+    voltage is not tied to its current as a resistor's is: a stage whose control current is
+    zero by KCL carries a rounding current of ~1e-18 A beside a volt at its output, 1e-18 J
+    over a slow capacitor's discharge, where R_min I_f^2 T is 1e-22 J."""
+    if ctx.circuit.part(part_name).kind not in CONTROLLED:
+        return 0.0
+    volts = probe_scale(ctx.circuit, ctx.exact, Probe(ACROSS, (part_name,)))
+    r_min = min([abs(p.value) for p in ctx.circuit.parts if p.kind == RESISTOR and p.value]
+                + [abs(r) for p in ctx.circuit.parts if p.kind == SWITCH
+                   for r in (p.on_resistance, p.off_resistance) if r], default=1.0)
     start, end = ctx.exact.span(ctx.k)
-    steady = tol.ENGINE_FLOOR * abs(ee.steady_power or 0.0) * (end - start) / 10.0
+    return volts * tol.CURRENT_NOISE * current_scale(ctx.circuit, r_min) * (end - start) / 10.0
+
+
+def engine_energy_floor(ctx: CheckContext, ee, part_name: str) -> float:
+    """The floor (J) of the two engines' energies of one part: ``energy_floor`` and what
+    the engines' agreement on the part's current allows an energy *above* a steady
+    dissipation p_inf: 2 ``tol.ENGINE_RELATIVE`` of p_inf over the interval's τ scale (a
+    tenth of the exact span), the power i^2 R (or v i) of currents that may differ by
+    ``ENGINE_RELATIVE``.  A transient of 1.6e-10 A on 1.434 uA through an opened 5970 ohm
+    switch is 55 fJ above a steady 12.3 nW; the numerical engine's current 1.7e-5 low (the
+    values agree) made it 46 fJ (first-order reference: 54.609 fJ, the closed form's)."""
+    start, end = ctx.exact.span(ctx.k)
+    steady = 2.0 * tol.ENGINE_RELATIVE * abs(ee.steady_power or 0.0) * (end - start) / 10.0
     return max(energy_floor(ctx, ee.energy, part_name), steady)
 
 
 def energy_floor(ctx: CheckContext, value: float | None, part_name: str | None = None) -> float:
     """The absolute floor in J below which two energies of one part compare as equal: small
     against the energy itself (``tol.ENERGY_FLOOR`` of it), or the rounding noise where the
-    energy is at the noise (``_noise_energy``), and for an ideal closed switch, whose only
+    energy is at the noise (``_noise_energy``; for a controlled source across its own voltage,
+    ``_controlled_noise_energy``), and for an ideal closed switch, whose only
     dissipation is a jump loss computed as a difference of stored energies, that difference's
     rounding (``tol.JUMP_ENERGY_NOISE`` of the energy stored at the event).  Never a scale of
     the part's peak current times the interval's span: a nanosecond spike of 0.1 A beside a
     10 ms tail made such a floor larger than the energy."""
     floors = [tol.ENERGY_FLOOR * (0.0 if value is None else abs(value)), _noise_energy(ctx)]
+    if part_name is not None:
+        floors.append(_controlled_noise_energy(ctx, part_name))
     if part_name is not None and _ideal_switch(ctx, part_name):
         floors += [tol.JUMP_ENERGY_NOISE * v for v in _stored_at_event(ctx)]
     return max(floors + [1e-300])

@@ -21,9 +21,10 @@ def compare_peak(exp: Expectation, fe: Features, ctx: CheckContext) -> FieldResu
     verdict, message = PASS, ""
     numeric = None if pn is None else below_noise(pn.magnitude, ctx.noise)
     closed = below_noise(pe.magnitude, ctx.noise)
-    if pn is not None and not ctx.unresolved and not tol.agree(closed, numeric,
-                                                               tol.ENGINE_RELATIVE,
-                                        tol.ENGINE_FLOOR * ctx.scale):
+    apart = pn is not None and not ctx.unresolved and not tol.agree(
+        closed, numeric, tol.ENGINE_RELATIVE, tol.ENGINE_FLOOR * ctx.scale)
+    limit = ctx.below_resolution("peak", closed, numeric, unit) if apart else ""
+    if apart and not limit:
         verdict, message = ENGINES_DISAGREE, engine_message(pe.magnitude, numeric, unit)
     elif not tol.agree(hand, closed, hand_relative(exp, ctx), tol.HAND_FLOOR * ctx.scale):
         verdict = MISMATCH
@@ -32,6 +33,7 @@ def compare_peak(exp: Expectation, fe: Features, ctx: CheckContext) -> FieldResu
         message = (f"the peak at {format_si(pe.time, 's')} after the event lies beyond the next "
                    f"event at {format_si(ctx.circuit.events[ctx.k + 1], 's')} (continued "
                    f"waveform)")
+    message = "; ".join(m for m in (message, limit) if m)
     extra = {"at": None if pe.time is None else t_k + pe.time,
              "after_event": pe.time, "value": pe.value, "measured_from": "event",
              "after_next_event": pe.after_next_event}

@@ -151,5 +151,8 @@ class Guarded:
     def resolution(self, k: int) -> float | None:
         return self._inner.resolution(k)
 
+    def value_resolution(self, probe: Probe, k: int) -> float | None:
+        return self._inner.value_resolution(probe, k)
+
     def thevenin(self, k: int) -> Mapping[str, float | None] | None:
         return self._inner.thevenin(k)

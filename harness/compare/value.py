@@ -54,15 +54,23 @@ def compare_field(name: str, exp: Expectation, fe: Features, fn: Features | None
     unit = spec.unit_for(exp.probe.dimension)
     relative = hand_relative(exp, ctx)
     floor = ctx.scale if spec.floor == PROBE_SCALE else 0.0
+    engine_floor = tol.ENGINE_FLOOR * floor
     verdict, message = PASS, ""
-    if fn is not None and not _engine_ok(spec, closed, numeric, tol.ENGINE_FLOOR * floor):
+    apart = fn is not None and not _engine_ok(spec, closed, numeric, engine_floor)
+    if apart and floor:  # the probe's scale in this interval, asked for only where needed
+        engine_floor = tol.ENGINE_FLOOR * ctx.interval_scale
+        apart = not _engine_ok(spec, closed, numeric, engine_floor)
+    limit = ctx.below_resolution(name, closed, numeric, unit) \
+        if apart and spec.floor == PROBE_SCALE else ""
+    if apart and not limit:
         verdict = ENGINES_DISAGREE
         message = engine_message(closed, numeric, unit)
     elif hand is not None and not (closed is not None and
                                    tol.agree(hand, closed, relative, tol.HAND_FLOOR * floor)):
         verdict = MISMATCH
         message = explain(name, hand, exp, fe, ctx)
+    message = "; ".join(m for m in (message, limit) if m)
     return FieldResult(name=name, hand=hand, closed_form=closed, numeric=numeric,
                        verdict=verdict, unit=unit, message=message,
                        formula=exp.formulas.get(name, ""), tolerance=relative,
-                       floor=tol.ENGINE_FLOOR * floor)
+                       floor=engine_floor)
