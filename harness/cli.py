@@ -223,13 +223,15 @@ def _command_word(words: list[str]) -> str | None:
 def _import_engines() -> None:
     """numpy, scipy.linalg, the reader, the exact engine and the comparator imported with the
     collector off, then frozen (see ``command``)."""
+    enabled = gc.isenabled()
     gc.disable()
     try:
         from .runner import _preload
         _preload(numeric=False)
     finally:
         gc.freeze()
-        gc.enable()
+        if enabled:
+            gc.enable()
 
 
 def _escape_unencodable() -> list:

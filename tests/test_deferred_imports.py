@@ -121,3 +121,21 @@ def test_the_console_command_prints_and_exits_as_main_does(capsys):
     project = tomllib.loads((Path(__file__).resolve().parents[1] / "pyproject.toml")
                             .read_text(encoding="utf-8"))
     assert project["project"]["scripts"]["tauproof"] == "harness.cli:command"
+
+
+def test_a_small_solve_compiles_no_spread_pattern():
+    """The spread, tempco and temperature patterns (``variation.declare``) are compiled by
+    re's cache on first use, so a file without spreads does not pay for them (~0.7 ms)."""
+    code = ("import io, contextlib, re, harness.cli\n"
+            "from harness.variation import declare\n"
+            "with contextlib.redirect_stdout(io.StringIO()):\n"
+            f"    assert harness.cli.main(['solve', {SMALL!r}, '--closed-form-only']) == 0\n"
+            "patterns = {getattr(p, 'pattern', p) for p in (declare._TEMPCO, declare._CELSIUS,"
+            " declare._PAIR)}\n"
+            "cached = {key[1] for cache in (getattr(re, '_cache', {}), getattr(re, '_cache2', {}))"
+            " for key in cache}\n"
+            "print(' '.join(sorted(str(len(p)) for p in patterns & cached)))\n")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          timeout=120)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.split() == [], "compiled during a solve without spreads"
