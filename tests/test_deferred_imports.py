@@ -46,6 +46,7 @@ NOT_FOR_A_SMALL_SOLVE = {
     "harness.report.junit": "junit.xml",
     "harness.report.plots": "plots",
     "harness.report.svg": "plots",
+    "harness.report.style": "check's console text (colour, terminal width)",
 }
 SMALL = str(Path(__file__).resolve().parents[1] / "circuits/library/logger/button-debounce.toml")
 
