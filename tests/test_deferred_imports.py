@@ -4,10 +4,12 @@ comparator and the exact engine pulls in none of them, and neither does a whole
 tests do not count; the numerical engine needs scipy.integrate, which brings scipy.optimize).
 Each costs start-up on every `tauproof solve` otherwise (measured on this machine: scipy.optimize
 ~0.1 s with the scipy.special, scipy.fft and scipy.spatial it loads, pandas ~0.25 s,
-matplotlib ~0.3 s, the report writers a solve does not print ~5 ms, scipy.sparse with csgraph ~13 ms, tabulate ~4 ms as it reads its package
-metadata, xml.etree ~2.5 ms, multiprocessing ~2 ms; tests/benchmarks/RESULTS.md, "Start-up and
-small circuits").  numpy itself loads only for a command that analyses files (``check``,
-``solve``), which the console command imports first with the garbage collector paused.)"""
+matplotlib ~0.3 s, the report writers a solve does not print ~5 ms, scipy.sparse with csgraph
+~13 ms, tabulate ~4 ms as it reads its package metadata, xml.etree ~2.5 ms, multiprocessing
+~2 ms, the spread patterns ~0.7 ms, report.style ~0.45 ms; tests/benchmarks/RESULTS.md,
+"Start-up and small circuits").  numpy itself loads only for a command that analyses files
+(``check``, ``solve``), whose engines the console command imports first with the garbage
+collector paused."""
 
 from __future__ import annotations
 
