@@ -197,10 +197,11 @@ def command() -> int:
     """The ``tauproof`` console script and ``python -m harness``: ``main`` on the process's
     arguments; its exit code.
 
-    A process that lives for one command spends a fifth of a small ``solve`` in the cyclic
-    garbage collector otherwise (tests/benchmarks/RESULTS.md, "Start-up and small circuits"):
-    its passes over the objects numpy, scipy and the engines make at import, which live as
-    long as the process, find nothing to free.  So for ``check`` and ``solve`` those modules
+    A process that lives for one command spends ~15 % of a small ``solve``'s CPU in the cyclic
+    garbage collector otherwise (0.26 s through ``main``, 0.22 s here, side by side;
+    tests/benchmarks/RESULTS.md, "Start-up and small circuits"): its passes over the objects
+    numpy, scipy and the engines make at import, which live as long as the process, find
+    nothing to free.  So for ``check`` and ``solve`` those modules
     are imported first with the collector off and their objects set aside (``gc.freeze``:
     later passes skip them), and on the way out every object still alive is set aside too, so
     the interpreter's passes at exit have nothing to traverse either.  Files, streams and
