@@ -9,9 +9,10 @@ through ``harness.messages``, so ``to_json()`` is JSON-ready only through ``repo
 from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
-from typing import Any, Mapping
+from typing import TYPE_CHECKING, Any, Mapping
 
-import numpy as np
+if TYPE_CHECKING:  # annotations only: the command line imports this module before numpy
+    import numpy as np
 
 PASS = "pass"
 MISMATCH = "mismatch"

@@ -10,11 +10,14 @@ a small ``solve``), is loaded for the rest.
 from __future__ import annotations
 
 import unicodedata
+from typing import TYPE_CHECKING
 
 from ..messages import worded, worded_file
 from ..outcome import PASS, CheckResult, FileResult, RunResult
 from . import common
-from .style import Style
+
+if TYPE_CHECKING:  # imported where a check's text is styled: solve's tables are plain
+    from .style import Style
 
 #: widest message column when the width is unknown (output piped, no ``COLUMNS``)
 MESSAGE_WIDTH = 60
@@ -27,6 +30,12 @@ def tabulate(rows, **options) -> str:
     """``tabulate.tabulate``, imported on first use."""
     from tabulate import tabulate as table
     return table(rows, **options)
+
+
+def _style(**options) -> Style:
+    """A ``report.style.Style`` (the module loads on first use: solve's tables are plain)."""
+    from .style import Style
+    return Style(**options)
 
 
 def _one_column(text: str) -> bool:
@@ -72,7 +81,7 @@ def render_failures(run: RunResult, style: Style | None = None, show_all: bool =
     ``show_all`` lists passing files and checks too, row by row.
     """
     run = worded(run)
-    style = style or Style()
+    style = style or _style()
     blocks = []
     for file in run.files:
         rows = [["—", "—", "", "", "", file.verdict, text] for text in file.messages]
@@ -106,7 +115,7 @@ def _file_block(file: FileResult, rows: list[list[str]], style: Style) -> str:
     table = tabulate(rows, headers=headers, tablefmt="simple", disable_numparse=True,
                      maxcolwidths=[None] * 6 + [room] * (messages is None)).splitlines()
     if messages is not None:
-        under = Style(width=(style.width or MESSAGE_WIDTH) - 4)
+        under = _style(width=(style.width or MESSAGE_WIDTH) - 4)
         table = table[:2] + [line for row, text in zip(table[2:], messages)
                              for line in [row] + ["  " + t for t in wrap(text, under)
                                                   .splitlines() if t.strip()]]
@@ -119,10 +128,10 @@ def _stacked(rows: list[list[str]], style: Style) -> str:
     out = []
     for check, field, hand, closed, numeric, verdict, message in rows:
         line = wrap(f"{check} · {field}: hand {hand or '—'}, closed form {closed or '—'}, "
-                    f"numeric {numeric or '—'} → {verdict}", Style(width=style.width - 2))
+                    f"numeric {numeric or '—'} → {verdict}", _style(width=style.width - 2))
         out.append(_coloured_tail(line, verdict, style))
         if message:
-            out.append(wrap(message, Style(width=style.width - 4)).replace("\n", "\n  ")
+            out.append(wrap(message, _style(width=style.width - 4)).replace("\n", "\n  ")
                        .join(("  ", "")))
     return "\n".join("  " + line for text in out for line in text.splitlines())
 
@@ -190,7 +199,7 @@ def render_warnings(run: RunResult) -> str:
 def render_summary(run: RunResult, style: Style | None = None) -> str:
     """One line: number of files and checks, counts per verdict, the exit code and its meaning;
     the leading verdict coloured where ``style`` colours."""
-    style = style or Style()
+    style = style or _style()
     line = wrap(common.printable(common.summary_line(run)), style)
     head, _, rest = line.partition(":")
     return f"{style.verdict(head, run.verdict)}:{rest}"

@@ -40,12 +40,13 @@ VARIATION_HELP = {
 }
 #: |tempco| above this (1/K; 10 %/K) is surely a slip of units
 MAX_TEMPCO = 0.1
-_TEMPCO = re.compile(r"^\s*(±|\+/-)?\s*([+-]?[0-9.]+(?:e[+-]?[0-9]+)?)\s*"
-                     r"(ppm\s*/\s*(?:K|°C|C))?\s*$", re.IGNORECASE)
-_CELSIUS = re.compile(r"^\s*([+-−]?[0-9.]+)\s*(?:°\s*C|C)?\s*$")
+# patterns compiled on first use (re's cache): only files with spreads or tempcos read them
+_TEMPCO = (r"^\s*(±|\+/-)?\s*([+-]?[0-9.]+(?:e[+-]?[0-9]+)?)\s*"
+           r"(ppm\s*/\s*(?:K|°C|C))?\s*$")
+_CELSIUS = r"^\s*([+-−]?[0-9.]+)\s*(?:°\s*C|C)?\s*$"
 LIMIT_KEYS = ("min", "max", "hand-min", "hand-max")
 MAX_SAMPLES = 1_000_000
-_PAIR = re.compile(r"^\s*([+-−]?[^/]+?)\s*/\s*([+-]?[^/]+?)\s*$")
+_PAIR = r"^\s*([+-−]?[^/]+?)\s*/\s*([+-]?[^/]+?)\s*$"
 
 
 def parse_spread(raw: object) -> tuple[float, float]:
@@ -59,7 +60,7 @@ def parse_spread(raw: object) -> tuple[float, float]:
         edge = IEC_LETTERS[raw.strip().upper()]
         return (-edge, edge)
     if isinstance(raw, str) and "/" in raw:
-        match = _PAIR.match(raw)
+        match = re.match(_PAIR, raw)
         if not match:
             raise ValueError(f"spread {raw!r} is not \"-low%/+high%\"")
         low = _fraction(match.group(1).replace("−", "-"))
@@ -108,7 +109,7 @@ def parse_tempco(raw: object) -> tuple[float, float]:
         ValueError: saying what is accepted.
     """
     text = str(raw) if isinstance(raw, (int, float)) and not isinstance(raw, bool) else raw
-    match = _TEMPCO.match(text) if isinstance(text, str) else None
+    match = re.match(_TEMPCO, text, re.IGNORECASE) if isinstance(text, str) else None
     try:
         value = float(match.group(2)) * 1e-6 if match else None
     except ValueError:
@@ -210,7 +211,7 @@ def _temperature(raw: dict, fail) -> tuple[float, float] | None:
     for item in value if isinstance(value, list) and len(value) == 2 else ():
         text = str(item) if isinstance(item, (int, float)) and not isinstance(item, bool) \
             else item
-        match = _CELSIUS.match(text) if isinstance(text, str) else None
+        match = re.match(_CELSIUS, text) if isinstance(text, str) else None
         if match:
             out.append(float(match.group(1).replace("−", "-")))
     if len(out) != 2 or not -273.15 < out[0] <= out[1] < 1000:

@@ -6,12 +6,14 @@
    bare ``python -c "import numpy, scipy.linalg"``, alternately, ``--runs`` times each: median
    wall time and CPU time (user + system of the child, from wait4) and their ratios.  Beside
    them, in the same alternation, the ``tauproof`` console script (when installed next to this
-   interpreter) and the same solve with the package's sources compiled every run.  Every child
-   runs with one BLAS thread and with bytecode caches as an installed package has them (pip
-   byte-compiles on install; ``PYTHONDONTWRITEBYTECODE`` is dropped from the children's
-   environment and one unmeasured run writes the caches); the "compiled every run" row runs a
-   copy of ``harness/`` without caches under ``PYTHONDONTWRITEBYTECODE=1``, as a checkout
-   without ``__pycache__`` does (numpy and scipy keep their installed caches).
+   interpreter), the same solve through ``harness.cli.main`` (what the console command adds
+   is when the garbage collector runs: ``cli.command``) and the same solve with the package's
+   sources compiled every run.  Every child runs with one BLAS thread and with bytecode caches
+   as an installed package has them (pip byte-compiles on install; ``PYTHONDONTWRITEBYTECODE``
+   is dropped from the children's environment and one unmeasured run writes the caches); the
+   "compiled every run" row runs a copy of ``harness/`` without caches under
+   ``PYTHONDONTWRITEBYTECODE=1``, as a checkout without ``__pycache__`` does (numpy and scipy
+   keep their installed caches).
 2. The library circuits with fewer than 10 nodes: median of the closed-form solve plus every
    expectation's features (``closedform_bench.small_circuits``, wall time), and the median of
    the same in CPU time of this process (robust to other processes on the cores), against 2 ms.
@@ -60,6 +62,8 @@ def _children(uncached: Path) -> dict[str, tuple[list[str], dict, str | None]]:
     empty folder for the copy of the package without bytecode caches."""
     out = {"bare": ([sys.executable, "-c", "import numpy, scipy.linalg"], _env(), None),
            "solve": ([sys.executable, "-m", "harness.cli", *SOLVE], _env(), None)}
+    out["main"] = ([sys.executable, "-c", "import sys, harness.cli; "
+                    "sys.exit(harness.cli.main(sys.argv[1:]))", *SOLVE], _env(), None)
     script = shutil.which("tauproof", path=str(Path(sys.executable).parent))
     if script:
         out["script"] = ([script, *SOLVE], _env(), None)
@@ -110,6 +114,8 @@ def small() -> tuple[float, int, float, int, int]:
 
 _ROWS = {"bare": '`python -c "import numpy, scipy.linalg"`',
          "solve": f"`python -m harness.cli solve {SMALL_FILE} --closed-form-only`",
+         "main": "the same through `harness.cli.main` (the garbage collector left as Python "
+                 "runs it)",
          "script": "the same through the `tauproof` console script",
          "uncached": "`python -m harness.cli solve ...`, sources compiled every run"}
 
