@@ -532,3 +532,36 @@ def test_a_slow_miller_mode_is_a_real_mode_not_trapped_charge():
     final = closed.features(Probe("node", ("x18",)), 1).final
     assert final == pytest.approx(dc["n5"], rel=1e-9)
     assert not agree.run_one(1178, seconds=60.0)["disagree"]
+
+
+def test_a_fast_mode_at_a_thousandth_of_its_interval_is_counted_beside_a_large_swing_elsewhere():
+    # random circuit 732 at 45 us: I5 steps 13.9 uA into n1 (C6 to the held node in, R2 and
+    # the opened S4 to ground) and L8 carries it into R9: the probe m7 = R9 i(L8) rises by
+    # 0.72 mV with C6's 9.5 us mode and L8's 10.2 ns one at ~1e-3 of that swing.  At 2.7 ms the
+    # same probe swings ~8.5 V between events; the closed form counted that excursion's mode
+    # amplitudes in the probe's scale and hid the 10 ns mode (order 1, tau 9.5 us), where the
+    # scale is the probe's values at the events.  Reference: the hand ODE
+    # C6 v' = I5 - v (1/R2 + 1/R_off) - i, L8 i' = v - R9 i, its eigenvalues and its modal
+    # amplitudes in R9 i from the zero state (scipy.linalg.eig)
+    import numpy as np
+    import scipy.linalg as la
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    c6, l8, r9, i5 = 1.84e-7, 3.29e-5, 3220.0, 1.39e-5
+    g = 1 / 52.5 + 1 / 9.163e4
+    a = np.array([[-g / c6, -1 / c6], [1 / l8, -r9 / l8]])
+    lam, vec = la.eig(a)
+    final = la.solve(a, [-i5 / c6, 0.0])                       # x_inf: A x + b = 0
+    alpha = la.solve(vec, -final)                              # x(0+) = 0 = x_inf + V alpha
+    amps = np.abs(r9 * vec[1] * alpha)                         # each mode's share of R9 i
+    taus = sorted(-1 / lam.real, reverse=True)
+    assert min(amps) / (r9 * final[1]) > 100 * tol.MODE_VISIBILITY  # ~1e-3 of the swing
+    circuit = parse_circuit(circuit_text(732))
+    probe = Probe("node", ("m7",))
+    fe, fn = closedform.solve(circuit).features(probe, 2), solve(circuit).features(probe, 2)
+    assert fe.final == pytest.approx(r9 * final[1], rel=1e-9)
+    assert fe.order == 2 and fe.tau is None
+    assert list(fe.modes) == pytest.approx(taus, rel=1e-9)
+    assert fn.order == 2 and list(fn.modes) == pytest.approx(taus, rel=1e-6)
+    assert not agree.run_one(732, seconds=60.0)["disagree"]
