@@ -565,3 +565,103 @@ def test_a_fast_mode_at_a_thousandth_of_its_interval_is_counted_beside_a_large_s
     assert list(fe.modes) == pytest.approx(taus, rel=1e-9)
     assert fn.order == 2 and list(fn.modes) == pytest.approx(taus, rel=1e-6)
     assert not agree.run_one(732, seconds=60.0)["disagree"]
+
+
+def _slowest_first(a: "np.ndarray", m: "np.ndarray | None" = None) -> list[float]:
+    """Time constants -1/Re(lambda) of the pencil (a, m) (m = I when None), slowest first
+    (scipy.linalg.eigvals)."""
+    import numpy as np
+    import scipy.linalg as la
+    lam = la.eigvals(a) if m is None else la.eigvals(a, m)
+    return sorted((float(-1.0 / x.real) for x in lam if np.isfinite(x)), reverse=True)
+
+
+def test_a_time_constant_of_a_swing_near_the_integrations_own_error_is_fitted():
+    # random circuit 899 at 19 us: the output of a Miller stage (E12, gain -28.8, C13 from x9
+    # to y10, fed through R11 from n1) decays from 0.46 uV with tau ~ C13 (1 + 28.8)(R11 + R2)
+    # = 5.45 s.  The numerical engine integrates y10 to ~1e-11 V, so its single-exponential
+    # fit cannot meet 3e-6 of a 0.46 uV probe (residual 3.3e-12 V); the residual is now judged
+    # against that engine's own error in the probe where it is larger.  Reference: the hand
+    # ODE with V1 held, (C3 + C8) v1' = -v1/R2 - (v1 - vx)/R11, C13 (1 + A) vx' = (v1 - vx)/R11
+    import numpy as np
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    c_n1, c_m, r2, r11 = 1.63e-11 + 2.71e-11, 5.15e-7 * (1 + 28.8), 1030.0, 3.54e5
+    a = np.array([[-(1 / r2 + 1 / r11) / c_n1, 1 / (r11 * c_n1)],
+                  [1 / (r11 * c_m), -1 / (r11 * c_m)]])
+    slow = _slowest_first(a)[0]
+    circuit = parse_circuit(circuit_text(899))
+    probe = Probe("node", ("y10",))
+    fe, fn = closedform.solve(circuit).features(probe, 2), solve(circuit).features(probe, 2)
+    assert abs(fn.after) < 1e-6
+    assert fe.tau == pytest.approx(slow, rel=1e-9)
+    assert fn.tau == pytest.approx(slow, rel=tol.ENGINE_RELATIVE)
+    assert not agree.run_one(899, seconds=60.0)["disagree"]
+
+
+def _circuit_691_rates() -> list[float]:
+    """Time constants (s) of random circuit 691 between 1.7 us and 3.3 us (V1 held, S12
+    closed): states v_C7 = v(n5) - v(n3), i(L9), v(o16); n1, n3, n5 from KCL (hand nodal
+    analysis, common practice), slowest first."""
+    import numpy as np
+    r2, r4, r6, r10, r13, r17, r18 = 1.46e4, 1.62e4, 2.35e4, 3.48, 1.18e4, 5780.0, 2320.0
+    c7, l9, c19, gain = 5.76e-5, 2.15e-4, 3.33e-6, -5.06
+
+    def rates(x):                      # deviations (in = 0): d/dt of (v_C7, i_L9, v_o16)
+        vc, il, v16 = x
+        g1 = 1 / r2 + 1 / r13 + 1 / r4            # n1: v1 g1 = v3 / r4
+        # n3 + n5 (around C7): (v3 - v1)/r4 + il + (v3 + vc)/r6 = 0
+        v3 = -(il + vc / r6) / (1 / r4 - 1 / (r4 * r4 * g1) + 1 / r6)
+        v5 = v3 + vc
+        return [-v5 / (r6 * c7), (v3 - r10 * il) / l9,
+                ((gain * v3 - v16) / r17 - v16 / r18) / c19]
+
+    a = np.array([rates(col) for col in np.eye(3)]).T
+    return _slowest_first(a)
+
+
+def test_a_fast_mode_beside_slow_modes_below_visibility_gives_its_time_constant():
+    # random circuit 691 at 1.7 us, the current through C19: L9's 18.6 ns mode (through n3 and
+    # the vcvs VC15) moves it by 37 nA while C7's and C19's slow modes, each below visibility
+    # (1e-6 of the probe's 6.3 mA scale), hold ~2 nA of it for milliseconds: the log-linear
+    # fit over the whole decay followed that tail and failed.  The numerical engine now tests
+    # the one visible mode of its own pencil against its integrated response (residual within
+    # FIT_RESIDUAL of the scale).  Reference: the fastest eigenvalue of the hand ODE
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    fast = _circuit_691_rates()[-1]
+    circuit = parse_circuit(circuit_text(691))
+    probe = Probe("through", ("C19",))
+    fe, fn = closedform.solve(circuit).features(probe, 1), solve(circuit).features(probe, 1)
+    assert fe.tau == pytest.approx(fast, rel=1e-9)
+    assert fn.tau == pytest.approx(fast, rel=tol.ENGINE_RELATIVE)
+    assert not agree.run_one(691, seconds=60.0)["disagree"]
+
+
+def test_a_hump_whose_other_modes_are_below_visibility_gives_the_visible_modes_tau():
+    # random circuit 961 at 0.89 ms: S10 (0.221 ohm) shorts n5; the current through V1 (the
+    # current of C7 alone) rises from 0 and returns in a ~1 nA hump of three modes, of which
+    # only C11's 4.42 us mode is above visibility (1e-6 of the probe's 2.1 mA scale): first
+    # order by definition, the others within FIT_RESIDUAL of the scale.  The log-linear fit
+    # cannot fit a hump; the engine's own visible mode does.  Reference: the hand ODE with V1
+    # held, M x' = -K x (x = v3, v1, v5): C7 v3' = -(v3 - v1)/R4, C11 (v1 - v5)' =
+    # -v1/R2 - (v1 - v3)/R4, C8 v5' - C11 (v1 - v5)' = -v5 (1/R6 + 1/R_on), its middle mode
+    import numpy as np
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    c7, c8, c11, r2, r4, r6, r_on = 3.07e-11, 3.99e-5, 9.06e-8, 49.0, 2250.0, 1530.0, 0.221
+    m = np.array([[c7, 0, 0], [0, c11, -c11], [0, -c11, c8 + c11]])
+    k = np.array([[1 / r4, -1 / r4, 0], [-1 / r4, 1 / r2 + 1 / r4, 0],
+                  [0, 0, 1 / r6 + 1 / r_on]])
+    taus = _slowest_first(-k, m)
+    middle = taus[1]
+    assert middle == pytest.approx(c11 * r2, rel=0.01)    # C7's branch is open at this pace
+    circuit = parse_circuit(circuit_text(961))
+    probe = Probe("through", ("V1",))
+    fe, fn = closedform.solve(circuit).features(probe, 2), solve(circuit).features(probe, 2)
+    assert fe.order == 1 and fe.tau == pytest.approx(middle, rel=1e-9)
+    assert fn.tau == pytest.approx(middle, rel=tol.ENGINE_RELATIVE)
+    assert not agree.run_one(961, seconds=60.0)["disagree"]
