@@ -693,3 +693,31 @@ def test_a_feed_forward_stages_mode_is_not_counted_in_a_probe_it_cannot_reach():
     assert sorted(dn.terms.values()) == pytest.approx(taus, rel=1e-9)
     assert dn.tau == pytest.approx(sum(taus), rel=1e-9)
     assert not agree.run_one(474, seconds=60.0)["disagree"]
+
+
+def test_a_level_at_the_exact_final_value_is_approached_not_crossed():
+    # random circuit 276 after 5.7 ms, between o16 and n7: V1 steps to -9.92 V; at DC no
+    # current flows anywhere (C9 blocks R6, so CC14 drives nothing and C19 discharges through
+    # R18), so n7 = n1 = in and o16 = 0: the probe settles at exactly 9.92 V (DC solve, common
+    # practice).  The closed form's x_inf is 6.3e-12 V above it, and it reported the level
+    # 9.92 V "crossed" 7.67 ms after the event, 15 τ into the settled tail; an exponential
+    # approach reaches its asymptote only as t -> inf (textbook), so it is never crossed.  A
+    # level 1e-7 V short of it is still crossed, at τ ln((x_inf - x(0+)) / 1e-7 V) (to 1e-3:
+    # modes below visibility, ~1e-9 V here, move it)
+    import math
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    circuit = parse_circuit(circuit_text(276))
+    probe = Probe("between", ("o16", "n7"))
+    exact, numeric = closedform.solve(circuit), solve(circuit)
+    fe = exact.features(probe, 2)
+    assert fe.final == pytest.approx(9.92, rel=1e-12)
+    for engine in (exact, numeric):
+        assert engine.crossing(probe, 2, 9.92, "either").time is None
+    level = 9.92 - 1e-7
+    reference = fe.tau * math.log((9.92 - fe.after) / 1e-7)
+    for engine in (exact, numeric):
+        assert engine.crossing(probe, 2, level, "either").time == pytest.approx(reference,
+                                                                              rel=1e-3)
+    assert not agree.run_one(276, seconds=60.0)["disagree"]
