@@ -721,3 +721,18 @@ def test_a_level_at_the_exact_final_value_is_approached_not_crossed():
         assert engine.crossing(probe, 2, level, "either").time == pytest.approx(reference,
                                                                               rel=1e-3)
     assert not agree.run_one(276, seconds=60.0)["disagree"]
+
+
+def test_an_overshoot_one_engine_leaves_undefined_on_a_noise_step_gives_no_verdict():
+    # random circuit 1119 at 0.17 ms, the current of L5 (through R6): 0 A before the step and
+    # 0 A after it (an inductor's current is continuous, textbook), 0 A at DC (its loop through
+    # R6 and R2 holds no source; C7 blocks): no step, so no overshoot.  The closed form gives
+    # none; the numerical engine read 1.4e-17 A after the event and divided its hump by that.
+    # A step below the probe's noise floor gives no engine verdict, whichever engine has a value
+    from harness.compare.ring import compare_ring
+    ctx, exp = _ring_context(_Ring(0.0, 0.0, None), _Ring(1.417e-17, -2.9e-42, 0.001366))
+    field = compare_ring(exp, ctx.exact.features(None, 0), ctx, "overshoot")
+    assert field.verdict != ENGINES_DISAGREE
+    assert "no overshoot is defined" in field.message
+    row = agree.run_one(1119, seconds=60.0)
+    assert not row["disagree"] and not row["errors"]
