@@ -76,6 +76,12 @@ CROSSING_HAND_FLOOR = 1e-6
 #: random circuits of tests/simulate_random.py (levels at 10-99 % of every swing); 1e-5 keeps a
 #: margin of about 12
 CROSSING_ENGINE = 1e-5
+#: a crossing level within this fraction of the probe's scale of the interval's final value
+#: is that value: the probe approaches it, and a root from which the waveform stays within
+#: the band is rounding of the final value, not a crossing (the closed form's x_inf of a
+#: probe settling at exactly -V1 was 6.4e-13 of the scale off; the numerical engine's own
+#: band is ``simulate.signoff.NOISE``, the same fraction of its scale)
+CROSSING_AT_FINAL = 1e-9
 #: dissipated energy, closed form vs numeric (relative; the numeric value is a Gauss-Legendre
 #: quadrature of i^2 R on the integrator's dense output of the regularised model).  Measured: at
 #: most 1.4e-9 on the bundled circuits and 4.3e-7 on the same random circuits; 1e-5 keeps a

@@ -158,8 +158,12 @@ C14 = { kind = "capacitor", nodes = ["o11", "gnd"], value = "30.8p" }
 
 
 def test_a_fitted_tau_beside_a_small_fast_mode_is_the_modes_own():
-    # node o8 at 6.1 ms follows C14's mode alone (the 0.1 ns mode of C5 through the closed
-    # switch is below visibility); reference, textbook Thevenin: tau = C14 (R13 || (R10 + R12))
+    # node o8 at 6.1 ms follows C14's mode, with the 0.1 ns mode of C5 through the closed
+    # switch at 1.4e-4 V (1.7e-3 of the interval's 83 mV swing, above visibility of the probe's
+    # 76 V scale at the events: order 2 in both engines; the closed form counted interval 1's
+    # 152 V mode amplitude in its scale and called it invisible until that scale became the
+    # events' values).  The numerical engine's fitted τ is still its mode's own.  Reference,
+    # textbook Thevenin: tau = C14 (R13 || (R10 + R12))
     from harness import closedform
     from harness.circuitfile import parse_circuit
     from harness.simulate import solve
@@ -167,9 +171,10 @@ def test_a_fitted_tau_beside_a_small_fast_mode_is_the_modes_own():
     reference = 30.8e-12 * r_th
     circuit = parse_circuit(CCCS_STAGE)
     probe = Probe("node", ("o8",))
-    assert closedform.solve(circuit).features(probe, 2).tau == pytest.approx(reference, rel=1e-9)
-    assert solve(circuit).features(probe, 2).tau == pytest.approx(reference,
-                                                                  rel=tol.ENGINE_RELATIVE)
+    fe = closedform.solve(circuit).features(probe, 2)
+    assert fe.order == 2 and fe.modes[0] == pytest.approx(reference, rel=1e-9)
+    fn = solve(circuit).features(probe, 2)
+    assert fn.order == 2 and fn.tau == pytest.approx(reference, rel=tol.ENGINE_RELATIVE)
 
 
 FEMTOSECOND_MODE = """
@@ -532,3 +537,207 @@ def test_a_slow_miller_mode_is_a_real_mode_not_trapped_charge():
     final = closed.features(Probe("node", ("x18",)), 1).final
     assert final == pytest.approx(dc["n5"], rel=1e-9)
     assert not agree.run_one(1178, seconds=60.0)["disagree"]
+
+
+def test_a_fast_mode_at_a_thousandth_of_its_interval_is_counted_beside_a_large_swing_elsewhere():
+    # random circuit 732 at 45 us: I5 steps 13.9 uA into n1 (C6 to the held node in, R2 and
+    # the opened S4 to ground) and L8 carries it into R9: the probe m7 = R9 i(L8) rises by
+    # 0.72 mV with C6's 9.5 us mode and L8's 10.2 ns one at ~1e-3 of that swing.  At 2.7 ms the
+    # same probe swings ~8.5 V between events; the closed form counted that excursion's mode
+    # amplitudes in the probe's scale and hid the 10 ns mode (order 1, tau 9.5 us), where the
+    # scale is the probe's values at the events.  Reference: the hand ODE
+    # C6 v' = I5 - v (1/R2 + 1/R_off) - i, L8 i' = v - R9 i, its eigenvalues and its modal
+    # amplitudes in R9 i from the zero state (scipy.linalg.eig)
+    import numpy as np
+    import scipy.linalg as la
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    c6, l8, r9, i5 = 1.84e-7, 3.29e-5, 3220.0, 1.39e-5
+    g = 1 / 52.5 + 1 / 9.163e4
+    a = np.array([[-g / c6, -1 / c6], [1 / l8, -r9 / l8]])
+    lam, vec = la.eig(a)
+    final = la.solve(a, [-i5 / c6, 0.0])                       # x_inf: A x + b = 0
+    alpha = la.solve(vec, -final)                              # x(0+) = 0 = x_inf + V alpha
+    amps = np.abs(r9 * vec[1] * alpha)                         # each mode's share of R9 i
+    taus = sorted(-1 / lam.real, reverse=True)
+    assert min(amps) / (r9 * final[1]) > 100 * tol.MODE_VISIBILITY  # ~1e-3 of the swing
+    circuit = parse_circuit(circuit_text(732))
+    probe = Probe("node", ("m7",))
+    fe, fn = closedform.solve(circuit).features(probe, 2), solve(circuit).features(probe, 2)
+    assert fe.final == pytest.approx(r9 * final[1], rel=1e-9)
+    assert fe.order == 2 and fe.tau is None
+    assert list(fe.modes) == pytest.approx(taus, rel=1e-9)
+    assert fn.order == 2 and list(fn.modes) == pytest.approx(taus, rel=1e-6)
+    assert not agree.run_one(732, seconds=60.0)["disagree"]
+
+
+def _slowest_first(a: "np.ndarray", m: "np.ndarray | None" = None) -> list[float]:
+    """Time constants -1/Re(lambda) of the pencil (a, m) (m = I when None), slowest first
+    (scipy.linalg.eigvals)."""
+    import numpy as np
+    import scipy.linalg as la
+    lam = la.eigvals(a) if m is None else la.eigvals(a, m)
+    return sorted((float(-1.0 / x.real) for x in lam if np.isfinite(x)), reverse=True)
+
+
+def test_a_time_constant_of_a_swing_near_the_integrations_own_error_is_fitted():
+    # random circuit 899 at 19 us: the output of a Miller stage (E12, gain -28.8, C13 from x9
+    # to y10, fed through R11 from n1) decays from 0.46 uV with tau ~ C13 (1 + 28.8)(R11 + R2)
+    # = 5.45 s.  The numerical engine integrates y10 to ~1e-11 V, so its single-exponential
+    # fit cannot meet 3e-6 of a 0.46 uV probe (residual 3.3e-12 V); the residual is now judged
+    # against that engine's own error in the probe where it is larger.  Reference: the hand
+    # ODE with V1 held, (C3 + C8) v1' = -v1/R2 - (v1 - vx)/R11, C13 (1 + A) vx' = (v1 - vx)/R11
+    import numpy as np
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    c_n1, c_m, r2, r11 = 1.63e-11 + 2.71e-11, 5.15e-7 * (1 + 28.8), 1030.0, 3.54e5
+    a = np.array([[-(1 / r2 + 1 / r11) / c_n1, 1 / (r11 * c_n1)],
+                  [1 / (r11 * c_m), -1 / (r11 * c_m)]])
+    slow = _slowest_first(a)[0]
+    circuit = parse_circuit(circuit_text(899))
+    probe = Probe("node", ("y10",))
+    fe, fn = closedform.solve(circuit).features(probe, 2), solve(circuit).features(probe, 2)
+    assert abs(fn.after) < 1e-6
+    assert fe.tau == pytest.approx(slow, rel=1e-9)
+    assert fn.tau == pytest.approx(slow, rel=tol.ENGINE_RELATIVE)
+    assert not agree.run_one(899, seconds=60.0)["disagree"]
+
+
+def _circuit_691_rates() -> list[float]:
+    """Time constants (s) of random circuit 691 between 1.7 us and 3.3 us (V1 held, S12
+    closed): states v_C7 = v(n5) - v(n3), i(L9), v(o16); n1, n3, n5 from KCL (hand nodal
+    analysis, common practice), slowest first."""
+    import numpy as np
+    r2, r4, r6, r10, r13, r17, r18 = 1.46e4, 1.62e4, 2.35e4, 3.48, 1.18e4, 5780.0, 2320.0
+    c7, l9, c19, gain = 5.76e-5, 2.15e-4, 3.33e-6, -5.06
+
+    def rates(x):                      # deviations (in = 0): d/dt of (v_C7, i_L9, v_o16)
+        vc, il, v16 = x
+        g1 = 1 / r2 + 1 / r13 + 1 / r4            # n1: v1 g1 = v3 / r4
+        # n3 + n5 (around C7): (v3 - v1)/r4 + il + (v3 + vc)/r6 = 0
+        v3 = -(il + vc / r6) / (1 / r4 - 1 / (r4 * r4 * g1) + 1 / r6)
+        v5 = v3 + vc
+        return [-v5 / (r6 * c7), (v3 - r10 * il) / l9,
+                ((gain * v3 - v16) / r17 - v16 / r18) / c19]
+
+    a = np.array([rates(col) for col in np.eye(3)]).T
+    return _slowest_first(a)
+
+
+def test_a_fast_mode_beside_slow_modes_below_visibility_gives_its_time_constant():
+    # random circuit 691 at 1.7 us, the current through C19: L9's 18.6 ns mode (through n3 and
+    # the vcvs VC15) moves it by 37 nA while C7's and C19's slow modes, each below visibility
+    # (1e-6 of the probe's 6.3 mA scale), hold ~2 nA of it for milliseconds: the log-linear
+    # fit over the whole decay followed that tail and failed.  The numerical engine now tests
+    # the one visible mode of its own pencil against its integrated response (residual within
+    # FIT_RESIDUAL of the scale).  Reference: the fastest eigenvalue of the hand ODE
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    fast = _circuit_691_rates()[-1]
+    circuit = parse_circuit(circuit_text(691))
+    probe = Probe("through", ("C19",))
+    fe, fn = closedform.solve(circuit).features(probe, 1), solve(circuit).features(probe, 1)
+    assert fe.tau == pytest.approx(fast, rel=1e-9)
+    assert fn.tau == pytest.approx(fast, rel=tol.ENGINE_RELATIVE)
+    assert not agree.run_one(691, seconds=60.0)["disagree"]
+
+
+def test_a_hump_whose_other_modes_are_below_visibility_gives_the_visible_modes_tau():
+    # random circuit 961 at 0.89 ms: S10 (0.221 ohm) shorts n5; the current through V1 (the
+    # current of C7 alone) rises from 0 and returns in a ~1 nA hump of three modes, of which
+    # only C11's 4.42 us mode is above visibility (1e-6 of the probe's 2.1 mA scale): first
+    # order by definition, the others within FIT_RESIDUAL of the scale.  The log-linear fit
+    # cannot fit a hump; the engine's own visible mode does.  Reference: the hand ODE with V1
+    # held, M x' = -K x (x = v3, v1, v5): C7 v3' = -(v3 - v1)/R4, C11 (v1 - v5)' =
+    # -v1/R2 - (v1 - v3)/R4, C8 v5' - C11 (v1 - v5)' = -v5 (1/R6 + 1/R_on), its middle mode
+    import numpy as np
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    c7, c8, c11, r2, r4, r6, r_on = 3.07e-11, 3.99e-5, 9.06e-8, 49.0, 2250.0, 1530.0, 0.221
+    m = np.array([[c7, 0, 0], [0, c11, -c11], [0, -c11, c8 + c11]])
+    k = np.array([[1 / r4, -1 / r4, 0], [-1 / r4, 1 / r2 + 1 / r4, 0],
+                  [0, 0, 1 / r6 + 1 / r_on]])
+    taus = _slowest_first(-k, m)
+    middle = taus[1]
+    assert middle == pytest.approx(c11 * r2, rel=0.01)    # C7's branch is open at this pace
+    circuit = parse_circuit(circuit_text(961))
+    probe = Probe("through", ("V1",))
+    fe, fn = closedform.solve(circuit).features(probe, 2), solve(circuit).features(probe, 2)
+    assert fe.order == 1 and fe.tau == pytest.approx(middle, rel=1e-9)
+    assert fn.tau == pytest.approx(middle, rel=tol.ENGINE_RELATIVE)
+    assert not agree.run_one(961, seconds=60.0)["disagree"]
+
+
+def test_a_feed_forward_stages_mode_is_not_counted_in_a_probe_it_cannot_reach():
+    # random circuit 474 after 7.8 ms, between y17 and n1: C7 at n1 and a Miller stage (E19,
+    # gain -1520, C20 11.9 pF, fed through R6 + R18) make the probe; VC10 senses n1 and drives
+    # R11, R13, R14 and C15, which nothing reads back.  The numerical engine counted C15's
+    # 0.207 ms mode (QZ's right vector showed it at 1.5e-8 of the probe's scale on this badly
+    # scaled pencil) and its slow rate was 1e-6 off; one step of inverse iteration refines
+    # both.  Reference: the hand ODE of the two states the probe depends on,
+    # C7 v1' = -v1/R2 - (v1 - vx)/(R6 + R18), C20 (1 + 1520) vx' = (v1 - vx)/(R6 + R18),
+    # its eigenvalues in mpmath at 40 digits; their time constants sum to the dominant τ
+    # (Cochrun & Grabel, IEEE Trans. Circuit Theory 20 (1973) 8-14)
+    import mpmath as mp
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    with mp.workdps(40):
+        c7, c_m = mp.mpf("3.01e-9"), mp.mpf("1.19e-11") * 1521
+        r2, r = mp.mpf("6.12e5"), mp.mpf("98.8") + 5780
+        a = mp.matrix([[-(1 / r2 + 1 / r) / c7, 1 / (r * c7)], [1 / (r * c_m), -1 / (r * c_m)]])
+        taus = sorted(float(-1 / e) for e in mp.eig(a)[0])
+    circuit = parse_circuit(circuit_text(474))
+    probe = Probe("between", ("y17", "n1"))
+    dv, dn = closedform.solve(circuit).dominant(probe, 1), solve(circuit).dominant(probe, 1)
+    assert dv.tau == pytest.approx(sum(taus), rel=1e-9)
+    assert sorted(dn.terms.values()) == pytest.approx(taus, rel=1e-9)
+    assert dn.tau == pytest.approx(sum(taus), rel=1e-9)
+    assert not agree.run_one(474, seconds=60.0)["disagree"]
+
+
+def test_a_level_at_the_exact_final_value_is_approached_not_crossed():
+    # random circuit 276 after 5.7 ms, between o16 and n7: V1 steps to -9.92 V; at DC no
+    # current flows anywhere (C9 blocks R6, so CC14 drives nothing and C19 discharges through
+    # R18), so n7 = n1 = in and o16 = 0: the probe settles at exactly 9.92 V (DC solve, common
+    # practice).  The closed form's x_inf is 6.3e-12 V above it, and it reported the level
+    # 9.92 V "crossed" 7.67 ms after the event, 15 τ into the settled tail; an exponential
+    # approach reaches its asymptote only as t -> inf (textbook), so it is never crossed.  A
+    # level 1e-7 V short of it is still crossed, at τ ln((x_inf - x(0+)) / 1e-7 V) (to 1e-3:
+    # modes below visibility, ~1e-9 V here, move it)
+    import math
+    from harness import closedform
+    from harness.circuitfile import parse_circuit
+    from harness.simulate import solve
+    circuit = parse_circuit(circuit_text(276))
+    probe = Probe("between", ("o16", "n7"))
+    exact, numeric = closedform.solve(circuit), solve(circuit)
+    fe = exact.features(probe, 2)
+    assert fe.final == pytest.approx(9.92, rel=1e-12)
+    for engine in (exact, numeric):
+        assert engine.crossing(probe, 2, 9.92, "either").time is None
+    level = 9.92 - 1e-7
+    reference = fe.tau * math.log((9.92 - fe.after) / 1e-7)
+    for engine in (exact, numeric):
+        assert engine.crossing(probe, 2, level, "either").time == pytest.approx(reference,
+                                                                              rel=1e-3)
+    assert not agree.run_one(276, seconds=60.0)["disagree"]
+
+
+def test_an_overshoot_one_engine_leaves_undefined_on_a_noise_step_gives_no_verdict():
+    # random circuit 1119 at 0.17 ms, the current of L5 (through R6): 0 A before the step and
+    # 0 A after it (an inductor's current is continuous, textbook), 0 A at DC (its loop through
+    # R6 and R2 holds no source; C7 blocks): no step, so no overshoot.  The closed form gives
+    # none; the numerical engine read 1.4e-17 A after the event and divided its hump by that.
+    # A step below the probe's noise floor gives no engine verdict, whichever engine has a value
+    from harness.compare.ring import compare_ring
+    ctx, exp = _ring_context(_Ring(0.0, 0.0, None), _Ring(1.417e-17, -2.9e-42, 0.001366))
+    field = compare_ring(exp, ctx.exact.features(None, 0), ctx, "overshoot")
+    assert field.verdict != ENGINES_DISAGREE
+    assert "no overshoot is defined" in field.message
+    row = agree.run_one(1119, seconds=60.0)
+    assert not row["disagree"] and not row["errors"]

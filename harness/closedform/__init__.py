@@ -48,7 +48,9 @@ Method (no time stepping; plain dense linear algebra).
 5. Modes (``modes``).  A is split by eigenvalue cluster (from one eigendecomposition where
    its eigenvector basis is well conditioned, else by ordered complex Schur + Sylvester; on the
    symmetric route A is diagonal and the clusters are index selections):
-   the zero cluster (|lambda| <= 1e-10 s0: trapped charge or flux, part of x_inf), and clusters
+   the zero cluster (|lambda| <= 1e-10 s0: trapped charge or flux, part of x_inf; a rate below
+   that but above its own rounding, re-read from the pencil on the general route and eigh's
+   on the symmetric one, is a slow real mode, resolved at a shift moved down to it), and clusters
    of eigenvalues equal to tolerances.MODE_MERGE (identical modes merged; defective ones give
    polynomial x exponential terms).  Complex pairs report their envelope tau and frequency.
 6. Features (``features``, ``probes``).  Every probe is c.x + d.x' + a constant per interval.
@@ -57,7 +59,8 @@ Method (no time stepping; plain dense linear algebra).
    and a large capacitance share a node.  before/after are the left/right limits of the exact
    waveform; final is x_p plus the zero cluster, None where a growing mode, an undamped swing
    or a ramp is visible; a mode is visible when its amplitude exceeds MODE_VISIBILITY times the
-   probe's scale; order counts visible decaying modes (pair = 2, defective = its
+   probe's scale (its largest value at the events; its mode amplitudes where those are below
+   a floor); order counts visible decaying modes (pair = 2, defective = its
    multiplicity); tau only when exactly one real one.  span(k) ends at t_k + 10 x the slowest
    tau (10 T without modes), and at least at the next event.
 7. Jumps (``jumps``).  Integrating the equations over the instant: C (x+ - x-) + G q = 0 with

@@ -13,9 +13,9 @@ A cluster is visible when max_m |a_m| / sigma^m exceeds ``MODE_VISIBILITY`` time
 scale (sigma = |Re lambda|, the mode's own time scale); its order contribution is 1 + the highest
 visible m (a repeated non-defective mode shows as one exponential, a defective one of size m as
 a polynomial of degree m-1).  The probe's scale is the largest magnitude it takes at any event
-(before, after, final and mode amplitudes), floored by a small fraction of the circuit's own
-voltage (current) scale so that rounding noise in a probe that is identically zero stays
-invisible.
+(before, after, final), or, for a probe that is below a small fraction of the circuit's own
+voltage (current) scale at every event, its mode amplitudes, floored by that fraction so that
+rounding noise in a probe that is identically zero stays invisible.
 """
 
 from __future__ import annotations
@@ -119,10 +119,17 @@ def _amplitudes(rate: complex, coeffs: np.ndarray) -> np.ndarray:
 
 
 def probe_scale(events: list[RawEvent], floor: float) -> float:
-    """The probe's scale: its largest magnitude over all events, at least ``floor``."""
-    mags = [floor]
+    """The probe's scale: its largest magnitude over all events (before, after, final), as
+    ``tolerances`` defines it; where that is below ``floor`` (the probe moves only within the
+    intervals) its mode amplitudes count too, and it is at least ``floor``.  (Mode amplitudes
+    counted everywhere hid a mode at 1e-3 of an interval's own swing behind a large excursion
+    of the probe in another interval.)"""
+    mags = [abs(v) for ev in events for v in (ev.before, ev.after, ev.constant)
+            if v is not None]
+    if max(mags, default=0.0) >= floor:
+        return max(mags)
+    mags.append(floor)
     for ev in events:
-        mags += [abs(v) for v in (ev.before, ev.after, ev.constant) if v is not None]
         for rate, coeffs in ev.clusters:
             amps = _amplitudes(rate, coeffs)
             if np.all(np.isfinite(amps)):

@@ -231,13 +231,17 @@ def _refine(fun, lo: float, hi: float) -> float:
 
 
 def crossing(ex: ExpSum, level: float, direction: str, end: float, final: float | None,
-             next_gap: float | None) -> CrossingValue:
+             next_gap: float | None, band: float = 0.0) -> CrossingValue:
     """First crossing of ``level`` in (0, end] (extended while the tail must still cross).
 
     Args:
         end: the span's length after t_k in s.
         final: x_inf of the interval, or None.
         next_gap: t_(k+1) - t_k in s, or None for the last interval.
+        band: a level within ``band`` of ``final`` is that value (probe unit): a root from
+            which the waveform stays within the band is its rounding, and the probe only
+            approaches the level (a level at the exact final value, which the closed form's
+            x_inf misses by ~1e-12 of the scale, was "crossed" 15 τ after the event).
     """
     after_gap = (lambda u: next_gap is not None and u > next_gap)
     if ex.before is not None and ex.after is not None and \
@@ -258,12 +262,22 @@ def crossing(ex: ExpSum, level: float, direction: str, end: float, final: float 
         grid = np.linspace(lo, end, 200)
         values = ex.value(grid) - level
         found = _first_root(fun, grid, values, direction)
+    if found is not None and final is not None and abs(level - final) <= band \
+            and _settled(ex, found, end, final, band):
+        found = None
     if found is None:
         return CrossingValue(None, approaches=final)
     way = RISING if float(ex.slope(np.array([found]))[0]) > 0 else FALLING
     if direction != "either":
         way = direction
     return CrossingValue(found, way, after_next_event=after_gap(found), approaches=final)
+
+
+def _settled(ex: ExpSum, start: float, end: float, final: float, band: float) -> bool:
+    """Whether the waveform stays within ``band`` of ``final`` from local time ``start`` (s)
+    over the span's own grid shifted there (``end`` beyond it: ten slowest τ at least)."""
+    grid = start + np.concatenate([[0.0], ex.grid(end)])
+    return bool(np.all(np.abs(ex.value(grid) - final) <= band))
 
 
 # ------------------------------------------------------------------------------- peaks

@@ -12,7 +12,7 @@ from ..model import (ACROSS, CAPACITOR, CONTROLLED, CURRENT_BRANCHES, CURRENT_SO
 from ..results import (FLOATING_NODES, GROWTH, IMPULSIVE, RESPONSE_OVERFLOW,
                        UNDAMPED_OSCILLATION, Conditioning, Diagnostic, Features, Hazard, Jump,
                        NotComputed)
-from ..tolerances import MODE_VISIBILITY, SETTLE_FRACTION
+from ..tolerances import CROSSING_AT_FINAL, MODE_VISIBILITY, SETTLE_FRACTION
 from ..units import format_si
 from .features import SCALE_FLOOR, RawEvent, classify, node_values, probe_scale, raw_event
 from .initial import dc_state
@@ -175,8 +175,9 @@ class ClosedFormSolution(NotComputed):
     def crossing(self, probe: Probe, k: int, level: float, direction: str):
         """First crossing of ``level`` after event k (``harness.results.CrossingValue``)."""
         end, gap = self._held(k)
+        _, scale = self._raw(probe)
         return signoff.crossing(self.exponential_sum(probe, k), level, direction, end,
-                                self.features(probe, k).final, gap)
+                                self.features(probe, k).final, gap, CROSSING_AT_FINAL * scale)
 
     def peak(self, probe: Probe, k: int):
         """Largest magnitude of ``probe`` in interval k (``harness.results.PeakValue``)."""

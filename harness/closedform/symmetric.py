@@ -39,7 +39,9 @@ Mode bookkeeping copies the general route so that both give the same features: t
 1, moved to the geometric centre of the non-zero rates when that lies outside [1e-2, 1e2];
 modes with |mu| = 1/|s0 - lambda| at or below max(INFINITE_REL / s0, 1e3 eps |K|_F) are
 instantaneous and dropped (|K|_F estimated by the norm of the mu); |lambda| <= ZERO_REL s0 is the
-zero cluster.  A growing mode (never present in a passive network) returns None.
+zero cluster, except a rate above eigh's rounding (ZERO_ROUNDING of the largest |lambda|): a
+slow real mode, for which the shift moves to the centre of it and the fastest mode
+(``_zero_split``).  A growing mode (never present in a passive network) returns None.
 
 Used from MIN_SIZE unknowns on (below it the general route is as fast).  Cost: O(n^2) assembly
 with R and N0 applied as row picks and small per-support blocks (``_Selection``, ``_Blocks``),
@@ -56,7 +58,7 @@ import warnings
 import numpy as np
 import scipy.linalg as sla
 
-from .interval import INFINITE_REL, ZERO_REL, Decomposition
+from .interval import INFINITE_REL, ZERO_REL, ZERO_ROUNDING, Decomposition
 from .modes import diagonal_clusters
 
 #: asymmetry of G~ (after clearing open-switch columns), relative to its largest entry,
@@ -305,6 +307,24 @@ def _shift(lam: np.ndarray) -> float:
     return 1.0 if 1e-2 <= center <= 1e2 else center
 
 
+def _zero_split(lam: np.ndarray, s0: float) -> tuple[float, float]:
+    """(shift, zero tolerance): ``s0`` and ZERO_REL s0, unless a rate lies at or below that
+    tolerance but above eigh's own rounding of a zero rate (ZERO_ROUNDING of the largest
+    |lambda|: its absolute error is ~eps times the largest): that is a slow real mode, as in
+    the general route (``interval._slow_modes_resolved``), and the shift moves to the geometric
+    centre of it and the fastest mode, the tolerance to ZERO_REL of that or the rounding,
+    whichever is larger (a 1e5 s mode beside a ladder's 0.1 us ones was trapped charge at
+    shift 1, and its node kept 0 V for ever)."""
+    rates = np.abs(lam[_finite(lam, s0)])
+    zero_tol = ZERO_REL * abs(s0)
+    floor = ZERO_ROUNDING * float(rates.max(initial=0.0))
+    slow = rates[(rates > floor) & (rates <= zero_tol)]
+    if slow.size == 0:
+        return s0, zero_tol
+    s0 = math.sqrt(float(slow.min()) * float(rates.max()))
+    return s0, max(ZERO_REL * s0, floor)
+
+
 def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray,
               c_rows=None) -> Decomposition | None:
     """The Decomposition of the scaled pencil (G~, C~) by the symmetric route, or None when it
@@ -345,11 +365,10 @@ def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray,
     if not np.all(np.isfinite(w)) or w.min(initial=0.0) < -GROWING_REL * np.abs(w).max():
         return None
     lam = -w
-    s0 = _shift(lam)
+    s0, zero_tol = _zero_split(lam, _shift(lam))
     keep = _finite(lam, s0)
     if not keep.all():
         lam, v = lam[keep], v[:, keep]
-    zero_tol = ZERO_REL * abs(s0)
     q1 = _right_basis(r, n0, h, v)
     return Decomposition(s0, q1, None, None, diagonal_clusters(lam, zero_tol), zero_tol,
                          diagonal=True, left_factors=(_rows_of(q1, r, v).T, rtc), rates=lam)

@@ -24,7 +24,10 @@ observed: storage reached through a path that time-scale separation makes faint 
 mode in an inductor's voltage) and modes that cannot reach the probe at all (their c v_i is
 QZ rounding) both land there, so this engine cannot say which; tau leaves them out and
 ``DominantTau.weak`` lists them, and the comparator takes tau plus any of them as this
-engine's value (``compare.dominant._with_weak_modes``).
+engine's value (``compare.dominant._with_weak_modes``).  A mode below ``REFINE_BELOW`` of the
+scale is judged on its right vector refined by one step of inverse iteration (``_refined``):
+on a badly scaled pencil QZ's vector of a mode that cannot reach the probe shows it at up to
+~1e-8, above OBSERVED.
 
 Above ``modal.EIGEN_UP_TO`` states the estimate is not computed (None).
 
@@ -35,8 +38,10 @@ deviation and t50 come from interval k's integrated held waveform on the sign-of
 from __future__ import annotations
 
 import math
+import warnings
 
 import numpy as np
+import scipy.linalg as la
 from scipy.optimize import brentq
 
 from ..model import Probe
@@ -55,6 +60,22 @@ OBSERVED = 1e-9
 WEAK = 1e-15
 #: at most this many weakly observed modes are reported (the strongest)
 WEAK_MOST = 12
+#: a mode whose strength lies between WEAK and this fraction of the probe's scale has its
+#: right vector refined by one step of inverse iteration before it is judged: QZ's vector
+#: carries the pencil's conditioning, and on a badly scaled pencil (a vcvs gain of 1520 beside
+#: 11.9 pF) a mode of a feed-forward stage that cannot reach the probe showed at 1.5e-8 of
+#: its scale (1e-16 after one step)
+REFINE_BELOW = 1e-4
+#: the inverse iteration's shift: the mode's own rate times (1 + SHIFT), close enough that
+#: the other modes' share of the vector falls by |SHIFT lambda_i / (lambda_i - lambda_j)|
+SHIFT = 1e-8
+#: up to this many states the observed modes' rates are refined by the same step (one LU per
+#: mode): on that pencil QZ's slow rate was 1e-6 off the hand ODE's (mpmath), the width of
+#: the engines' dominant-τ tolerance; 4e-13 after one step
+REFINE_UP_TO = 64
+#: a refined rate that moves by more than this fraction of QZ's is not taken (the step mixed
+#: in a neighbouring mode; rounding moves it far less)
+REFINE_MOVE = 1e-4
 
 
 # ------------------------------------------------------------------------------- modes
@@ -62,7 +83,8 @@ def observed_modes(sol, probe: Probe, k: int,
                    threshold: float = OBSERVED) -> np.ndarray | None:
     """The rates lambda_i (1/s) of interval k's circuit modes observed in ``probe`` above
     ``threshold`` of its own scale (module docstring), strongest first, shape (m,); None
-    where they cannot be computed."""
+    where they cannot be computed.  A mode below ``REFINE_BELOW`` of the scale is judged on
+    its refined vector, and up to ``REFINE_UP_TO`` states the rates returned are refined."""
     system = sol.systems[k]
     modes = decompose(sol, system)
     if modes is None:
@@ -70,8 +92,57 @@ def observed_modes(sol, probe: Probe, k: int,
     row = ideal_row(sol, system, probe)
     own = float(np.abs(row) @ state_scales(sol))
     strength = np.abs(row @ modes.v) * modes.reach
+    for i in np.flatnonzero((strength > WEAK * own) & (strength < REFINE_BELOW * own)):
+        _, v = _refined(sol, system, modes, i)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            strength[i] = (np.abs(row @ v) * modes.reach[i] * abs(modes.norm[i])
+                           / abs(modes.um[i] @ v))
     order = np.argsort(-strength)
-    return modes.lam[order][strength[order] > threshold * own]
+    seen = order[strength[order] > threshold * own]
+    if sol.layout.n > REFINE_UP_TO:
+        return modes.lam[seen]
+    return np.array([_refined(sol, system, modes, i)[0] for i in seen], dtype=complex)
+
+
+def _refined(sol, system, modes, i: int) -> tuple[complex, np.ndarray]:
+    """Mode i's rate (1/s) and right vector (n,) after one step of inverse iteration on this
+    engine's ideal pencil (K_dc, M without the carriers' L_p, as in ``modal``):
+    (K_dc + sigma M) w = M v_i with sigma = lambda_i (1 + SHIFT); as K_dc v = -lambda M v for
+    the true vector, w = v / (sigma - lambda), so lambda = sigma - (u_i^H M v_i)/(u_i^H M w)
+    (Golub & Van Loan, Matrix Computations, 4th ed., sec. 7.6.1).  QZ's own where the solve
+    fails or the rate moves by more than ``REFINE_MOVE``.  Memoised per system and mode."""
+    key = ("refined", id(system), int(i))
+    if key not in sol._cache:
+        lam, v = complex(modes.lam[i]), modes.v[:, i]
+        stiffness, mass = _ideal_pencil(sol, system)
+        shift = lam * (1.0 + SHIFT)
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore", la.LinAlgWarning)
+                w = la.solve(stiffness + shift * mass, mass @ v)
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+                rate = complex(shift - (modes.um[i] @ v) / (modes.um[i] @ w))
+        except (la.LinAlgError, ValueError):
+            w, rate = v, lam
+        if not (np.all(np.isfinite(w)) and np.any(w != 0)):
+            w = v
+        if not (np.isfinite(rate) and abs(rate - lam) <= REFINE_MOVE * abs(lam)):
+            rate = lam
+        sol._cache[key] = (rate if lam.imag else complex(rate.real), w)
+    return sol._cache[key]
+
+
+def _ideal_pencil(sol, system) -> tuple[np.ndarray, np.ndarray]:
+    """(K_dc, M) dense, with the carriers' rows and columns of M zeroed (their L_p), as
+    ``modal`` decomposes them; memoised per system."""
+    key = ("ideal pencil", id(system))
+    if key not in sol._cache:
+        mass = system.M.toarray()
+        carriers = [sol.layout.part_index[n] for n in sol.layout.carriers]
+        mass[carriers, :] = 0.0
+        mass[:, carriers] = 0.0
+        sol._cache[key] = (system.K_dc.toarray(), mass)
+    return sol._cache[key]
 
 
 def weak_taus(sol, probe: Probe, k: int) -> tuple[float, ...]:

@@ -9,8 +9,11 @@
 * tau: on the post-pulse waveform d(s) = x(s) - x_inf, a weighted log-linear least-squares fit
   d ~ A e^(-s/tau) over the span where |d| falls from its largest value to ``FIT_SPAN`` of it;
   the probe counts as first order when the largest deviation of d from the fitted exponential,
-  over the whole held response, is within ``FIT_RESIDUAL`` of the probe's scale.  Otherwise the
-  slowest time constant is the log-linear slope of the last decade of the decay above the noise.
+  over the whole held response, is within ``FIT_RESIDUAL`` of the probe's scale (or the
+  integration's own error in the probe, where that is larger).  Where the fit fails and the
+  engine's own pencil shows one visible real mode, that mode's exponential is tested against
+  the same residual (``mode_fits``).  Otherwise the slowest time constant is the log-linear
+  slope of the last decade of the decay above the noise.
 * jump: charge moved through a part in the pulse is the integral of its current over [0, s_a]
   (Gauss-Legendre on each integrator step of the dense output) minus the integral of its
   post-pulse polynomial over the same span (the non-impulsive part); for a capacitor it is
@@ -41,6 +44,8 @@ FIT_SPAN = 1e-3
 FIT_RESIDUAL = 3e-6
 #: the tail's time constant is read above 100 times this fraction of the probe scale
 TAIL_NOISE = 1e-10
+#: the integration's error on a state, in units of its absolute tolerance (as in ``modal``)
+NOISE = 10.0
 #: points of the geometric grid on which the held response is examined for time constants
 GRID = 400
 #: Gauss-Legendre nodes per integrator step for the pulse integrals
@@ -115,12 +120,17 @@ def _loglinear(s: np.ndarray, d: np.ndarray) -> tuple[float, float]:
 
 
 def decay(run: IntervalRun, w: np.ndarray, offset: float, s_a: float, x_inf: float, scale: float,
-          floor: float) -> tuple[float | None, tuple[float, ...], tuple[Diagnostic, ...]]:
+          floor: float, noise: float = 0.0
+          ) -> tuple[float | None, tuple[float, ...], tuple[Diagnostic, ...]]:
     """(tau or None, modes slowest first, notes) of the held response after the pulse.
 
     Args:
         scale: the probe's scale (its largest magnitude at any event), in its unit.
         floor: amplitude below which the decay is invisible (probe unit).
+        noise: the integration's own error in the probe (``probe_noise``, probe unit): the
+            fit's residual is judged against ``FIT_RESIDUAL`` of the scale or that, whichever
+            is larger (a probe of 0.46 uV integrated to ~1e-11 V cannot show a single
+            exponential to 3e-6 of itself).
     """
     end = run.end
     if end <= s_a:
@@ -140,12 +150,34 @@ def decay(run: IntervalRun, w: np.ndarray, offset: float, s_a: float, x_inf: flo
         amp, tau = _loglinear(lin - s_a, dl)
         if tau > 0:
             model = amp * np.exp(-(grid - s_a) / tau)
-            if np.max(np.abs(d - model)) <= FIT_RESIDUAL * scale:
+            if np.max(np.abs(d - model)) <= max(FIT_RESIDUAL * scale, noise):
                 return tau, (tau,), ()
     else:
         notes = (Diagnostic(SIGN_CHANGE, engine="numeric"),)
     slow = _tail_tau(grid, d, dmax, TAIL_NOISE * scale)
     return None, ((slow,) if slow else ()), notes
+
+
+def mode_fits(run: IntervalRun, w: np.ndarray, offset: float, s_a: float, x_inf: float,
+              tau: float, allowed: float) -> bool:
+    """Whether the held response after the pulse is A e^(-(s - s_a)/tau) to within ``allowed``
+    (probe unit) over the whole grid, A by least squares: the test of a time constant of this
+    engine's own pencil where the log-linear fit cannot find it (modes below visibility that
+    carry a large share of a small swing, or a hump from 0, weigh down its log points)."""
+    if not (tau > 0 and run.end > s_a):
+        return False
+    grid = np.geomspace(s_a, run.end, GRID)
+    d = values(run, w, offset, grid) - x_inf
+    e = np.exp(-(grid - s_a) / tau)
+    amp = float(d @ e) / float(e @ e)
+    return bool(np.max(np.abs(d - amp * e)) <= allowed)
+
+
+def probe_noise(w: np.ndarray, atol: np.ndarray) -> float:
+    """The integration's error in the probe w . z (probe unit): ``NOISE`` times sum_j |w_j|
+    atol_j over the integrated coordinates (Radau's global error is a small multiple of its
+    local tolerance)."""
+    return NOISE * float(np.abs(w) @ np.broadcast_to(atol, np.shape(w)))
 
 
 def _tail_tau(grid: np.ndarray, d: np.ndarray, dmax: float, noise: float) -> float | None:

@@ -12,7 +12,8 @@ from ..results import (IMPULSIVE_VALUE, NO_FINAL, NOT_REACHED, Diagnostic, Featu
 from ..tolerances import MODE_VISIBILITY, NUMERIC_CURRENT_ROUNDING, SETTLE_FRACTION
 from .branches import Layout
 from .equations import System
-from .features import decay, fit_window, post_pulse, pulse_points, values
+from .features import (FIT_RESIDUAL, decay, fit_window, mode_fits, post_pulse, probe_noise,
+                       pulse_points, values)
 from .integrate import IntervalRun, IntervalStats, interval_origin
 from .probes import probe_offset, probe_row, voltage_row
 from .regularise import Regularisation, gain_factor
@@ -298,16 +299,30 @@ class NumericSolution(NotComputed):
         else:
             scale = self.scale(probe)
             w, _ = self._rows(probe, k)
+            noise = probe_noise(w, self.atol[self.systems[k].reduction.dyn])
             tau, modes, notes = decay(run, w, self._offset(probe, k),
                                       self.regularisation.post_pulse, final, scale,
-                                      MODE_VISIBILITY * scale)
+                                      MODE_VISIBILITY * scale, noise)
             seen = visible_modes(self, probe, k, scale)
             if seen is not None:
                 tau = _modal_tau(tau, seen.modes)
+                if tau is None and self._one_mode(probe, k, seen, max(FIT_RESIDUAL * scale,
+                                                                      noise)):
+                    tau, notes = seen.modes[0], ()
                 return Features(before, after, final, tau=tau, order=seen.order,
                                 modes=seen.modes, oscillation=seen.oscillation, notes=notes,
                                 rings=seen.rings, order_bounds=seen.bounds)
         return Features(before, after, final, tau=tau, order=None, modes=modes, notes=notes)
+
+    def _one_mode(self, probe: Probe, k: int, seen, allowed: float) -> bool:
+        """Whether the probe in interval k is first order in this engine's own pencil (one
+        visible real mode) and its held response is that mode's exponential to ``allowed``."""
+        if seen.order != 1 or len(seen.modes) != 1 or seen.rings:
+            return False
+        w, _ = self._rows(probe, k)
+        final = self._base(probe, k)[2]
+        return mode_fits(self.runs[k], w, self._offset(probe, k),
+                         self.regularisation.post_pulse, final, seen.modes[0], allowed)
 
     def span(self, k: int) -> tuple[float, float]:
         """(t_k, t_end): the event time and the end of the held continuation (s)."""
