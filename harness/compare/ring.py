@@ -69,7 +69,7 @@ def compare_ring(exp: Expectation, fe: Features, ctx: CheckContext, name: str) -
     hand, unit = exp.hand[name], field_spec(name).unit_for(exp.probe.dimension)
     floor = tol.ENGINE_FLOOR if name == "overshoot" else 0.0
     verdict, message = PASS, ""
-    if name == "overshoot" and _engine_ring_floor(name, fe, ctx, ()) == math.inf:
+    if name == "overshoot" and _engine_ring_floor(name, fe, ctx, (), ctx.scale) == math.inf:
         computed = False              # a step below the noise floor: no engine verdict
     if computed and (closed is None) != (numeric is None) or (
             closed is not None and numeric is not None and not any(
