@@ -167,6 +167,29 @@ def _null_directions(circuit: Circuit, lay: Layout, parasitic: dict[str, float])
     return out
 
 
+def _node_capacitance(circuit: Circuit, lay: Layout, parasitic: dict[str, float]
+                      ) -> sp.csr_matrix:
+    """The capacitance matrix over the node voltages (F), shape (nodes, nodes): the capacitors
+    and the parasitic capacitances to ground, as M's node block."""
+    nn = len(lay.nodes)
+    caps = [(p.p, p.n, p.value) for p in circuit.parts if p.kind == CAPACITOR]
+    caps += [(node, circuit.ground, c) for node, c in parasitic.items() if c > 0]
+    rows, cols, vals = [], [], []
+    for p, q, c in caps:
+        for a, sa in ((p, 1.0), (q, -1.0)):
+            for b, sb in ((p, 1.0), (q, -1.0)):
+                if a in lay.node_index and b in lay.node_index:
+                    rows.append(lay.node_index[a]), cols.append(lay.node_index[b])
+                    vals.append(sa * sb * c)
+    return sp.csr_matrix((vals, (rows, cols)), shape=(nn, nn))
+
+
+def _null_axis(m_nodes: sp.csr_matrix, T: sp.csr_matrix, k: int) -> bool:
+    """True when coordinate k already changes no capacitor voltage: M T e_k = 0 exactly."""
+    column = np.asarray(T[:, [k]].todense(), dtype=float).ravel()
+    return not np.any(m_nodes @ column)
+
+
 class _Transform:
     """Maps full-state expressions to tree coordinates (see the module docstring).
 
@@ -175,7 +198,12 @@ class _Transform:
     null direction of M that is not yet a coordinate axis is made one by the column operation
     x = S x' with S = I + (n - e_k) e_k^T (n the direction in x, k a coordinate where it is
     +-1), so its row of the transformed M vanishes exactly; T S and S^-1 T^-1 are rank-one
-    updates of T and T^-1.
+    updates of T and T^-1.  A direction already spanned by coordinates without capacitance
+    (``m_nodes``: M's node block; M T e_k = 0) is left alone, and the pivot k is taken among
+    the coordinates with capacitance where it can be: otherwise two capacitor-less nodes joined
+    by a closed carrier would be turned back into node voltages, 1/r_s would sit on both rows,
+    and the elimination would round it into a false conductance ~1e-16 / r_s to ground (with
+    r_s = 0.5 uohm, 2e-10 S: 4e-5 of a 375 kohm path).
 
     ``shifts`` (tree-edge child index -> {pole state index: integer a}) moves the coordinate of
     a closed carrier whose ideal voltage is an op-amp's internal voltage w: x = (its tree edge's
@@ -188,7 +216,8 @@ class _Transform:
     """
 
     def __init__(self, lay: Layout, parents: dict[int, int], nulls: list[np.ndarray],
-                 shifts: dict[int, dict[int, int]] | None = None) -> None:
+                 shifts: dict[int, dict[int, int]] | None = None,
+                 m_nodes: sp.csr_matrix | None = None) -> None:
         self.nn = nn = len(lay.nodes)
         self.n = lay.n
         paths = _paths(nn, parents)
@@ -205,7 +234,12 @@ class _Transform:
         pivots: set[int] = set()
         for direction in nulls:
             v = np.asarray(Tinv @ direction).ravel()
-            units = [k for k in np.flatnonzero(v) if abs(v[k]) == 1 and k not in pivots]
+            support = np.flatnonzero(v)
+            null = {int(k) for k in support if m_nodes is not None and _null_axis(m_nodes, T, k)}
+            if len(null) == support.size:   # already spanned by coordinates without capacitance
+                continue
+            units = [k for k in support if abs(v[k]) == 1 and k not in pivots]
+            units = [k for k in units if k not in null] or units
             if not units:
                 continue
             k = int(units[0])
@@ -272,7 +306,8 @@ def assemble(circuit: Circuit, lay: Layout, br: Branches, parents: dict[int, int
     transform.  ``owners``: the closed carriers' tree edges (``forest``), for the shifted
     coordinates of carriers of an internal voltage (``_shifts``)."""
     tr = _Transform(lay, parents, _null_directions(circuit, lay, parasitic),
-                    _shifts(circuit, lay, br, owners or {}))
+                    _shifts(circuit, lay, br, owners or {}),
+                    _node_capacitance(circuit, lay, parasitic))
     n = lay.n
     K: dict[tuple[int, int], list[float]] = {}
     M: dict[tuple[int, int], list[float]] = {}
