@@ -38,6 +38,11 @@ SETTINGS = ("tolerance", "acknowledge")
 PROBE_KEYS = (m.NODE, m.BETWEEN, m.ACROSS, m.THROUGH)
 #: sign-off keys of an [[expect]] block: file key -> field name (``fieldspec.FIELD_SPECS``)
 SIGNOFF_KEYS = {spec.key: spec.name for spec in FIELD_SPECS if spec.signoff}
+#: words a user may write for what an [[expect]] block probes, and the probe key meant: a
+#: spelling match cannot know that ``part = "L1"`` means the current through L1
+PROBE_WORDS = {"part": m.THROUGH, "current": m.THROUGH, "branch": m.THROUGH,
+               "component": m.THROUGH, "element": m.THROUGH, "voltage": m.NODE, "net": m.NODE,
+               "pin": m.NODE, "differential": m.BETWEEN, "pair": m.BETWEEN}
 EXPECT_KEYS = PROBE_KEYS + ("at",) + tuple(spec.key for spec in FIELD_SPECS) + (
     "settle-within", "spec", "tolerance", "note")
 CROSSING_KEYS = ("level", "time", "direction", "level-spread")
@@ -339,6 +344,12 @@ class _Scope:
     units: dict
 
 
+#: what each probe key names, for the hint above
+_PROBE_MEANING = {m.THROUGH: "through = \"L1\" probes the current through part L1",
+                  m.NODE: "node = \"out\" probes the voltage of node out to ground",
+                  m.BETWEEN: "between = [\"a\", \"b\"] probes the voltage of node a over node b"}
+
+
 def _expectation(index: int, raw: object, circuit: m.Circuit, scope: _Scope,
                  where: Where) -> m.Expectation:
     label, base = expect_label(index), ("expect", index)
@@ -346,7 +357,9 @@ def _expectation(index: int, raw: object, circuit: m.Circuit, scope: _Scope,
         raise where.error("an [[expect]] block must be a table", path=base, part=label)
     for key in raw:
         if key not in EXPECT_KEYS:
-            hint = suggest(key, EXPECT_KEYS)
+            meant = PROBE_WORDS.get(str(key).lower())
+            hint = (f" (did you mean '{meant}'? {_PROBE_MEANING[meant]})" if meant
+                    else suggest(key, EXPECT_KEYS))
             raise where.error(f"unknown field {key!r}{hint}; an [[expect]] block takes "
                               f"{quoted_list(EXPECT_KEYS, 20)}", path=base + (key,), part=label,
                               field=key)
