@@ -66,3 +66,40 @@ def test_samples_csv_and_console_line(written):
     assert {r["field"] for r in rows} == {"tau", "crossing"}
     lines = console(run).splitlines()
     assert len(lines) == 2 and all("nominal" in ln and "yield" in ln for ln in lines)
+
+
+LOCK = '''title = "lock solenoid pull-in"
+[variation]
+samples = 400
+seed = 7
+[parts]
+V1 = { kind = "voltage-source", nodes = ["sup", "gnd"], value = "24 V", spread = "5%" }
+Sw = { kind = "switch", nodes = ["coil", "gnd"], state = "open", steps = [["0 s", "closed"]] }
+Rc = { kind = "resistor", nodes = ["sup", "mid"], value = "48", spread = "K" }
+Lc = { kind = "inductor", nodes = ["mid", "coil"], value = "120m", spread = "M" }
+Rfw = { kind = "resistor", nodes = ["sup", "coil"], value = "1k" }
+[[expect]]
+through = "Lc"
+crossing = { level = "0.4 A", time = "4.02 ms", direction = "rising" }
+spec = { crossing = { max = "5 ms" } }
+'''
+
+
+def test_failing_spec_has_its_row_in_the_table_and_its_limit_on_the_line(tmp_path):
+    """A check that fails only over the tolerances names the failing spec in the console table
+    (not a bare row), and the spec line gives the limit beside the extremes.  Reference for the
+    extremes: the first-order RL rise i(t) = V/R·(1 − e^(−t·R/L)) (common practice), so the
+    crossing of 0.4 A is at (L/R)·ln(I∞/(I∞ − 0.4 A)), I∞ = V/R, taken at the eight corners of
+    V ±5 %, R ±10 % (IEC 60062 letter K), L ±20 % (letter M)."""
+    from harness.report.console import render_failures
+    path = tmp_path / "lock.toml"
+    path.write_text(LOCK)
+    run = RunResult(files=(check_file(str(path), numeric=False),))
+    table, line = render_failures(run), console(run)
+    assert "crossing spec" in table and "mismatch" in table
+    assert "limit ≤ 5 ms" in line and "of 400 samples outside the limits" in line
+    times = [(l / r) * math.log((v / r) / (v / r - 0.4)) for v in (22.8, 25.2)
+             for r in (43.2, 52.8) for l in (0.096, 0.144)]
+    spread = run.files[0].spreads[0]
+    assert spread.high == pytest.approx(max(times), rel=1e-6)
+    assert spread.low == pytest.approx(min(times), rel=1e-6)

@@ -87,7 +87,7 @@ def render_failures(run: RunResult, style: Style | None = None, show_all: bool =
         rows = [["—", "—", "", "", "", file.verdict, text] for text in file.messages]
         for check in file.checks:
             if check.verdict != PASS:
-                rows.extend(_failure_rows(check))
+                rows.extend(_failure_rows(check, _spec_rows(file, check), show_all))
             elif show_all:
                 rows.extend(_passing_rows(check))
         if rows:
@@ -148,17 +148,31 @@ def _passing_rows(check: CheckResult) -> list[list[str]]:
              common.field_note(f) and f"note: {f.message}"] for f in common.shown_fields(check)]
 
 
-def _failure_rows(check: CheckResult) -> list[list[str]]:
+def _spec_rows(file: FileResult, check: CheckResult) -> list[list[str]]:
+    """A row per spec'd field of ``check`` that fails over the parts' tolerances (its figures
+    are on the spec line under the table)."""
+    label, head = common.check_label(check), f"expect #{check.index + 1}:"
+    return [[label, f"{s.name} spec", "", "", "", s.verdict,
+             "outside its limits over the parts' tolerances (its spec line is below)"]
+            for s in file.spreads if s.check.startswith(head) and s.verdict != PASS]
+
+
+def _failure_rows(check: CheckResult, specs: list[list[str]] = (),
+                  show_all: bool = False) -> list[list[str]]:
+    """The rows of a failing check: its failing fields, its fields with a note (every field
+    with ``show_all``), its failing specs, and one ``—`` row for check-level messages or for a
+    check that fails for none of these."""
     label = common.check_label(check)
     rows, shown = [], set()
     for field in check.fields:
         note = common.field_note(field)
-        if field.verdict == PASS and not note:
+        if field.verdict == PASS and not note and not show_all:
             continue
         shown |= {field.message, f"{field.name}: {field.message}"}
         message = f"note: {field.message}" if note else field.message
         rows.append([label, common.field_label(field), *common.field_values(field),
                      field.verdict, message])
+    rows.extend(specs)
     failing = [r for r in rows if r[5] != PASS]
     extra = [m for m in check.messages if m not in shown]
     if extra or not failing:

@@ -23,16 +23,25 @@ def _v(value, unit) -> str:
     return "—" if value is None else format_si(value, unit)
 
 
+def _limits(s) -> str:
+    """``limits 3 ms … 5 ms``, ``limit ≤ 5 ms`` or ``limit ≥ 3 ms``."""
+    low, high = s.limits.get("min"), s.limits.get("max")
+    if low is not None and high is not None:
+        return f"limits {_v(low, s.unit)} … {_v(high, s.unit)}"
+    return f"limit ≤ {_v(high, s.unit)}" if low is None else f"limit ≥ {_v(low, s.unit)}"
+
+
 def line(s) -> str:
     """``expect #1: node rst at 0 s crossing: pass  nominal 93.16 ms, extremes 77.8–110.7 ms,
     yield 100 % (…)``."""
-    text = f"{s.check} {s.name}: {s.verdict}  nominal {_v(s.nominal, s.unit)}"
+    text = f"{s.check} {s.name}: {s.verdict}  {_limits(s)}, nominal {_v(s.nominal, s.unit)}"
     if s.low is not None or s.high is not None:
         text += f", extremes {_v(s.low, s.unit)} … {_v(s.high, s.unit)}"
     mc = s.monte_carlo
     if mc:
         lo, hi = mc["yield_95"]
-        text += f", yield {100 * mc['yield']:.2f} % (95 %: {100 * lo:.2f}–{100 * hi:.2f} %)"
+        text += (f", yield {100 * mc['yield']:.2f} % (Wilson 95 %: {100 * lo:.2f}–"
+                 f"{100 * hi:.2f} %)")
     if s.verdict != PASS and s.messages:    # why it is not a pass, in the same line
         text += " — " + "; ".join(s.messages)
     return printable(text)

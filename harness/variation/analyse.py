@@ -286,13 +286,11 @@ def _unestablished(result: dict, extremes: bool, numeric: bool, verdict: str,
 
 
 def _yield_text(mc: dict, breaks: bool) -> str:
-    low, high = mc["yield_95"]
     missing = (f", {mc['without_value']} of them with no value" if mc["without_value"]
                else "")
     return (("outside the limits at an extreme; " if breaks else "")
-            + f"{mc['count'] - mc['passed']} samples outside the limits{missing}; yield "
-            f"{100 * mc['yield']:.2f} % ({mc['passed']} of {mc['count']} samples; Wilson 95 %: "
-            f"{100 * low:.2f}–{100 * high:.2f} %)")
+            + f"{mc['count'] - mc['passed']} of {mc['count']} samples outside the limits"
+            f"{missing}")
 
 
 def _corner(quantities: tuple[Quantity, ...], corner: np.ndarray) -> dict:
