@@ -100,6 +100,11 @@ def test_failing_spec_has_its_row_in_the_table_and_its_limit_on_the_line(tmp_pat
     assert "limit ≤ 5 ms" in line and "of 400 samples outside the limits" in line
     times = [(l / r) * math.log((v / r) / (v / r - 0.4)) for v in (22.8, 25.2)
              for r in (43.2, 52.8) for l in (0.096, 0.144)]
+    write_all(run, tmp_path / "reports")
+    page = (tmp_path / "reports" / "report.html").read_text()
+    # the failing check's card links to the spec's section, which carries that id
+    assert 'spec over the parts\' tolerances: <a href="#spec-1-1">' in page
+    assert '<h3 id="spec-1-1">' in page
     spread = run.files[0].spreads[0]
     assert spread.high == pytest.approx(max(times), rel=1e-6)
     assert spread.low == pytest.approx(min(times), rel=1e-6)

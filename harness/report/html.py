@@ -166,7 +166,7 @@ def _file_section(i: int, file: FileResult, plots, facts: Mapping[str, Any]) -> 
         out.append(_image(schedule, f"whole schedule of {file.title or file.file}"))
     failing = [c for c in file.checks if c.verdict != PASS]
     passing = [c for c in file.checks if c.verdict == PASS]
-    out += [_check_block(c, plots.get((i, c.index))) for c in failing]
+    out += [_check_block(c, plots.get((i, c.index)), _spec_links(i, file, c)) for c in failing]
     if passing and failing:
         out.append(f'<details class="passes"><summary>{common.plural(len(passing), "passing check")}'
                    "</summary>")
@@ -214,7 +214,17 @@ def _parts_table(parts: list[Mapping[str, str]]) -> str:
     return f"<p><strong>Parts</strong> (as written)</p><table>{head}{body}</table>"
 
 
-def _check_block(check: CheckResult, chart: str | None) -> str:
+def _spec_links(i: int, file: FileResult, check: CheckResult) -> list[str]:
+    """A line per spec'd field of ``check`` that fails over the parts' tolerances, linked to
+    its section (its numbers are there)."""
+    from . import spreads
+    head = f"expect #{check.index + 1}:"
+    return [f'spec over the parts\' tolerances: <a href="#{spreads.anchor(i, j)}">'
+            f"{esc(spreads.summary(s))}</a>"
+            for j, s in enumerate(file.spreads) if s.check.startswith(head) and s.verdict != PASS]
+
+
+def _check_block(check: CheckResult, chart: str | None, specs: list[str] = ()) -> str:
     facts = [f"<h3>{esc(common.check_label(check))} {badge(check.verdict)}</h3>"]
     if check.direction:
         facts.append(f'<p class="meta">reference direction: {esc(check.direction)}</p>')
@@ -225,6 +235,8 @@ def _check_block(check: CheckResult, chart: str | None) -> str:
         facts.append(f'<p class="meta">{esc(common.dominant_text(check))}</p>')
     facts.append(_field_table(check))
     failing, notes = common.split_messages(check)
+    if specs:
+        facts.append('<ul class="msg">' + "".join(f"<li>{x}</li>" for x in specs) + "</ul>")
     for cls, items in (("msg" if check.verdict != PASS else "notes", failing), ("notes", notes)):
         if items:
             facts.append(f'<ul class="{cls}">' + "".join(f"<li>{esc(m)}</li>" for m in items)

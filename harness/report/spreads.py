@@ -32,9 +32,14 @@ def _limits(s) -> str:
 
 
 def line(s) -> str:
-    """``expect #1: node rst at 0 s crossing: pass  nominal 93.16 ms, extremes 77.8–110.7 ms,
-    yield 100 % (…)``."""
-    text = f"{s.check} {s.name}: {s.verdict}  {_limits(s)}, nominal {_v(s.nominal, s.unit)}"
+    """``expect #1: node rst at 0 s crossing: pass  limits 70 ms … 150 ms, nominal 93.16 ms,
+    extremes 77.8–110.7 ms, yield 100 % (…)``."""
+    return printable(f"{s.check} {summary(s)}")
+
+
+def summary(s) -> str:
+    """``line`` without the check's label: ``crossing: pass  limits …``."""
+    text = f"{s.name}: {s.verdict}  {_limits(s)}, nominal {_v(s.nominal, s.unit)}"
     if s.low is not None or s.high is not None:
         text += f", extremes {_v(s.low, s.unit)} … {_v(s.high, s.unit)}"
     mc = s.monte_carlo
@@ -101,7 +106,7 @@ def html(run: RunResult, histograms: dict | None = None) -> str:
             lines = [ln for ln in text if ln and not ln.startswith("|")]
             rows = "".join("<tr>" + "".join(f"<td>{esc(c)}</td>" for c in r) + "</tr>"
                            for r in _rows(s))
-            body = [f"<h3>{esc(lines[0].lstrip('# '))}</h3>"]
+            body = [f'<h3 id="{anchor(i, j)}">{esc(lines[0].lstrip("# "))}</h3>']
             body += [f"<p>{esc(ln.lstrip('- ').replace('**', ''))}</p>" for ln in lines[1:]]
             body.append("<table><tr><th>quantity</th><th>sensitivity ∂x/∂p·p/x</th>"
                         f"<th>at min</th><th>at max</th></tr>{rows}</table>")
@@ -114,6 +119,11 @@ def html(run: RunResult, histograms: dict | None = None) -> str:
         return ""
     return ('<section id="spec"><h2>Spec limits over tolerances</h2>' + "".join(parts)
             + "</section>")
+
+
+def anchor(file_index: int, spread_index: int) -> str:
+    """The HTML id of a spec'd field's section (0-based indices into the run)."""
+    return f"spec-{file_index + 1}-{spread_index + 1}"
 
 
 def _one(run: RunResult, file, spread) -> RunResult:
