@@ -105,6 +105,8 @@ def test_failing_spec_has_its_row_in_the_table_and_its_limit_on_the_line(tmp_pat
     # the failing check's card links to the spec's section, which carries that id
     assert 'spec over the parts\' tolerances: <a href="#spec-1-1">' in page
     assert '<h3 id="spec-1-1">' in page
+    text = (tmp_path / "reports" / "report.md").read_text()
+    assert "- **spec over the parts' tolerances: crossing: mismatch  limit ≤ 5 ms" in text
     spread = run.files[0].spreads[0]
     assert spread.high == pytest.approx(max(times), rel=1e-6)
     assert spread.low == pytest.approx(min(times), rel=1e-6)

@@ -207,6 +207,14 @@ def shown_fields(check: CheckResult) -> list[FieldResult]:
             if f.verdict != PASS or any(v is not None for v in (f.hand, f.closed_form, f.numeric))]
 
 
+def failing_specs(file: FileResult, check: CheckResult) -> list[tuple[int, Any]]:
+    """(index in ``file.spreads``, spread) of each spec'd field of ``check`` that does not pass
+    over the parts' tolerances: the check's own fields may all pass while these fail it."""
+    head = f"expect #{check.index + 1}:"
+    return [(j, s) for j, s in enumerate(file.spreads)
+            if s.check.startswith(head) and s.verdict != PASS]
+
+
 def field_note(field: FieldResult) -> str:
     """The message of a field that passed, as the check's messages hold it (``crossing: …``),
     or ``""``: such a message is a note, never a reason for the check's verdict."""

@@ -151,10 +151,9 @@ def _passing_rows(check: CheckResult) -> list[list[str]]:
 def _spec_rows(file: FileResult, check: CheckResult) -> list[list[str]]:
     """A row per spec'd field of ``check`` that fails over the parts' tolerances (its figures
     are on the spec line under the table)."""
-    label, head = common.check_label(check), f"expect #{check.index + 1}:"
-    return [[label, f"{s.name} spec", "", "", "", s.verdict,
+    return [[common.check_label(check), f"{s.name} spec", "", "", "", s.verdict,
              "outside its limits over the parts' tolerances (its spec line is below)"]
-            for s in file.spreads if s.check.startswith(head) and s.verdict != PASS]
+            for _, s in common.failing_specs(file, check)]
 
 
 def _failure_rows(check: CheckResult, specs: list[list[str]] = (),

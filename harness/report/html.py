@@ -218,10 +218,8 @@ def _spec_links(i: int, file: FileResult, check: CheckResult) -> list[str]:
     """A line per spec'd field of ``check`` that fails over the parts' tolerances, linked to
     its section (its numbers are there)."""
     from . import spreads
-    head = f"expect #{check.index + 1}:"
     return [f'spec over the parts\' tolerances: <a href="#{spreads.anchor(i, j)}">'
-            f"{esc(spreads.summary(s))}</a>"
-            for j, s in enumerate(file.spreads) if s.check.startswith(head) and s.verdict != PASS]
+            f"{esc(spreads.summary(s))}</a>" for j, s in common.failing_specs(file, check)]
 
 
 def _check_block(check: CheckResult, chart: str | None, specs: list[str] = ()) -> str:

@@ -126,11 +126,12 @@ def _file_section(i: int, file: FileResult, plots) -> list[str]:
     if schedule:
         out += [f"![whole schedule of {escape(file.title or file.file)}]({schedule})", ""]
     for check in file.checks:
-        out += _check_section(check, plots.get((i, check.index)))
+        out += _check_section(check, plots.get((i, check.index)),
+                              [s for _, s in common.failing_specs(file, check)])
     return out
 
 
-def _check_section(check: CheckResult, plot: str | None) -> list[str]:
+def _check_section(check: CheckResult, plot: str | None, specs: list = ()) -> list[str]:
     mark = "✔" if check.verdict == PASS else "✘"
     out = [f"### {mark} {escape(common.check_label(check))} — {check.verdict}", ""]
     if check.direction:
@@ -150,9 +151,11 @@ def _check_section(check: CheckResult, plot: str | None) -> list[str]:
                    f"{escape(common.tolerance_text(field))} | {field.verdict} | {formula} |")
     out.append("")
     failing, notes = common.split_messages(check)
+    out += [f"- **spec over the parts' tolerances: {escape(spreads.summary(s))}** (its Spec "
+            "section is below)" for s in specs]
     out += [f"- **{escape(m)}**" if check.verdict != PASS else f"- {escape(m)}" for m in failing]
     out += [f"- note: {escape(m)}" for m in notes]
-    if failing or notes:
+    if failing or notes or specs:
         out.append("")
     if check.derivation:
         out += ["The hand method, done right (formulas in part names, then numbers):", ""]
