@@ -105,6 +105,8 @@ def test_failing_spec_has_its_row_in_the_table_and_its_limit_on_the_line(tmp_pat
     # the failing check's card links to the spec's section, which carries that id
     assert 'spec over the parts\' tolerances: <a href="#spec-1-1">' in page
     assert '<h3 id="spec-1-1">' in page
+    junit = (tmp_path / "reports" / "junit.xml").read_text()
+    assert "message=\"spec over the parts' tolerances: crossing: mismatch  limit ≤ 5 ms" in junit
     text = (tmp_path / "reports" / "report.md").read_text()
     assert "- **spec over the parts' tolerances: crossing: mismatch  limit ≤ 5 ms" in text
     spread = run.files[0].spreads[0]

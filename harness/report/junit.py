@@ -4,7 +4,8 @@ The layout CI systems read (the common JUnit XML convention): ``testsuites`` > `
 (name = the file's title, attributes tests/failures/errors/skipped/time) > ``testcase``
 (classname = the file path with ``/`` as ``.``, no leading ``.``, name = ``#1 node rst at 0 s``).  A check whose
 verdict is ``mismatch`` or ``engines-disagree`` carries a ``failure`` (type = the verdict,
-message = its first message, text = every message and the field table); a check with verdict
+message = its first message, text = every message and the field table; a spec'd field failing
+over the parts' tolerances comes first); a check with verdict
 ``error`` carries an ``error``.  A file that could not be analysed gets a single testcase
 ``analyse`` with an ``error`` holding the file's errors; a file with nothing to check a single
 testcase ``expectations`` with a ``failure`` saying so (CI must not read 0 tests as a pass).
@@ -62,6 +63,8 @@ def render(run: RunResult) -> str:
 
 def _suite(file: FileResult) -> ET.Element:
     import xml.etree.ElementTree as ET
+
+    from .spreads import summary
     suite = ET.Element("testsuite", name=_x(file.title or file.file), skipped="0",
                        time=f"{file.seconds:.3f}")
     props = ET.SubElement(suite, "properties")
@@ -94,7 +97,9 @@ def _suite(file: FileResult) -> ET.Element:
             continue
         tag = "error" if check.verdict == ERROR else "failure"
         failing, notes = common.split_messages(check)
-        messages = failing + [f"note: {m}" for m in notes] or [check.verdict]
+        specs = [f"spec over the parts' tolerances: {summary(s)}"
+                 for _, s in common.failing_specs(file, check)]
+        messages = specs + failing + [f"note: {m}" for m in notes] or [check.verdict]
         ET.SubElement(case, tag, type=check.verdict,
                       message=_x(messages[0])).text = _x(_details(check, messages))
         if tag == "error":
