@@ -77,4 +77,7 @@ def test_review_packet_worst_corner_is_a_mismatch_that_passes_at_nominal():
     # hand worst case of the long corner: 105 k · 1.2 µF · ln(3.3 / (3.3 − 2.06)), first order
     assert s.high == pytest.approx(105e3 * 1.2e-6 * math.log(3.3 / (3.3 - 2.06)), rel=1e-6)
     assert s.high > limits[1] and s.verdict == MISMATCH
-    assert any("outside the limits at an extreme" in m and "yield" in m for m in s.messages)
+    mc = s.monte_carlo
+    assert any("outside the limits at an extreme" in m and
+               f"{mc['count'] - mc['passed']} of {mc['count']} samples outside" in m
+               for m in s.messages) and mc["yield"] < 1
