@@ -80,3 +80,16 @@ def test_spec_files_are_handed_out_first(tmp_path):
     variation.write_text("[variation]\nresistors = \"F\"\n")
     files = [str(plain), str(spec), str(tmp_path / "gone.toml"), str(variation)]
     assert heavy_first(files) == [1, 3, 0, 2]
+
+
+def test_without_plots_the_workers_draw_the_sample_rows_alone(here, tmp_path, monkeypatch):
+    """``--no-plots`` with workers: the pieces hold no plots and the set is the same bytes."""
+    monkeypatch.setattr(pool, "free_cores", lambda: 2)
+    drawn = Drawn(with_plots=False)
+    result = require_checks(run(FILES[1:3], RunOptions(jobs=2, pieces=drawn)))
+    assert len(drawn) == 2 and all(drawn.get(f).plots is None for f in result.files)
+    mine = require_checks(run(FILES[1:3]))
+    a, b = tmp_path / "here", tmp_path / "workers"
+    write_all(mine, a, provenance={"tool": "t"}, with_plots=False)
+    write_all(result, b, provenance={"tool": "t"}, with_plots=False, pieces=drawn)
+    assert differences(a, b) == [] and not (b / "plots").exists()

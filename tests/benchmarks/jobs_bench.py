@@ -95,7 +95,9 @@ def main(argv: list[str] | None = None) -> int:
     med = {j: statistics.median(r["wall"] for r in runs if r["jobs"] == j) for j in (1, 2)}
     rows = _rows(runs, args.tail)
     what = "with the reports and plots" if args.reports else "`--no-report`"
-    text = (f"`python -m tests.benchmarks.jobs_bench{' --reports' if args.reports else ''}`: "
+    flags = "".join(f" --{name}" for name, on in (("reports", args.reports), ("tail", args.tail),
+                                                   ("force-workers", args.force_workers)) if on)
+    text = (f"`python -m tests.benchmarks.jobs_bench{flags}`: "
             f"`check circuits/library` {what}, --jobs 1 and 2 alternately on this 2-core "
             f"shared machine.  --jobs 2 starts as many workers as `pool.free_cores()` finds "
             f"(cores in the affinity mask less the other runnable threads); with one free "
