@@ -278,8 +278,9 @@ def _main(argv: list[str] | None) -> int:
     from .progress import Progress
     from .runner import RunInterrupted, RunOptions, run
     bar = Progress(enabled=not args.json)
+    pieces = _pieces(args)
     options = RunOptions(numeric=not args.closed_form_only, jobs=args.jobs, progress=bar,
-                         timeout=args.timeout, tolerance=settings.tolerance)
+                         timeout=args.timeout, tolerance=settings.tolerance, pieces=pieces)
     result, written = None, []
     try:
         with _sigterm_raises(), warnings.catch_warnings():
@@ -290,7 +291,8 @@ def _main(argv: list[str] | None) -> int:
                 return EXIT_USAGE
             if args.command == "check":
                 from .outcome import require_checks
-                result, written = _write_reports(args, argv, require_checks(result), bar)
+                result, written = _write_reports(args, argv, require_checks(result), bar,
+                                                 pieces)
     except RunInterrupted as stop:
         bar.close()
         return _interrupted(args, stop.signum, stop.partial, stop.total, False)
@@ -430,7 +432,16 @@ def _interrupted(args, signum: int, partial, total: int, reports_written: bool) 
     return EXIT_SIGNAL_BASE + int(signum)
 
 
-def _write_reports(args, argv, result, bar):
+def _pieces(args):
+    """Where a check run's workers put each file's report pieces (``report.pieces``), or None
+    when no reports are written."""
+    if args.command != "check" or args.no_report:
+        return None
+    from .report.pieces import Drawn
+    return Drawn(with_plots=not args.no_plots)
+
+
+def _write_reports(args, argv, result, bar, pieces=None):
     """(the result, the paths written): the reports of a check run, unless ``--no-report``,
     headed by the run's provenance; a failure to write them becomes an error of the run,
     naming the folder."""
@@ -442,7 +453,7 @@ def _write_reports(args, argv, result, bar):
     facts = collect(result, sys.argv[1:] if argv is None else argv)
     try:
         return result, write_all(result, Path(args.report_dir), jobs=args.jobs, progress=bar,
-                                 provenance=facts, with_plots=not args.no_plots)
+                                 provenance=facts, with_plots=not args.no_plots, pieces=pieces)
     except OSError as err:
         problem = f"could not write the reports to the folder {args.report_dir}: {err}"
         return RunResult(files=result.files, errors=result.errors + (problem,)), []

@@ -201,9 +201,10 @@ def usable_jobs(jobs: int) -> int:
 
 def run_tasks(tasks: list[tuple], work: Callable, *, jobs: int, timeout: float | None,
               on_timeout: Callable[[int], object], on_death: Callable[[int, str], object],
-              on_done: Callable[[int], None] | None = None) -> dict:
+              on_done: Callable[[int], None] | None = None,
+              order: list[int] | None = None) -> dict:
     """Run ``work(*tasks[i])`` for every i in up to ``jobs`` worker processes (callers cap
-    ``jobs`` with ``usable_jobs``).
+    ``jobs`` with ``usable_jobs``), handing the tasks out in ``order`` (indices; None: 0, 1, …).
 
     Returns index -> result.  A task over ``timeout`` seconds (None: no limit) gets
     ``on_timeout(i)``; a task whose worker died gets ``on_death(i, how)``.  ``on_done(i)`` is
@@ -214,7 +215,7 @@ def run_tasks(tasks: list[tuple], work: Callable, *, jobs: int, timeout: float |
             that finished; every worker has been killed.
     """
     ctx = _context()
-    pending = deque(range(len(tasks)))
+    pending = deque(range(len(tasks)) if order is None else order)
     done: dict = {}
     workers: list[_Worker] = []
     try:

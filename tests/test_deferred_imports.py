@@ -35,7 +35,7 @@ NOT_FOR_A_SMALL_SOLVE = {
     "harness.variation.analyse": "spec'd fields (spreads)",
     "harness.derive": "derive and --formulas",
     "harness.closedform.periodic": "files with a repeating window",
-    "pandas": "summary.csv",
+    "pandas": "reading summary.csv back (csvout.read)",
     "matplotlib": "plots",
     "tabulate": "the check console table (solve's tables are laid out by report.console)",
     "xml.etree.ElementTree": "junit.xml",

@@ -1,4 +1,4 @@
-"""summary.csv: one row per field of every check (pandas).
+"""summary.csv: one row per field of every check.
 
 Columns (``COLUMNS``): file, title, file_verdict, check (1-based), probe, direction, at (s),
 check_verdict, order, modes (s, ``;``-separated, slowest first), deviation (fraction of the
@@ -16,8 +16,12 @@ would run as a formula (starting with ``=``, ``+``, ``-``, ``@``, tab or CR) are
 
 from __future__ import annotations
 
+import csv
+import io
 import math
 from typing import TYPE_CHECKING
+
+import numpy as np
 
 from ..messages import worded
 from ..outcome import ERROR, RunResult
@@ -34,16 +38,17 @@ TEXT_COLUMNS = _TEXT = ("file", "title", "probe", "direction", "modes", "field",
          "label")
 
 
-def frame(run: RunResult) -> pd.DataFrame:
-    """The summary as a DataFrame with ``COLUMNS``, one row per field."""
+def rows(run: RunResult) -> list[dict]:
+    """One dict per row (``COLUMNS`` as keys; a key a row has nothing for is left out), the
+    run's diagnostics worded, before any cell is formatted."""
     run = worded(run)
-    rows = []
+    out = []
     for file in run.files:
         head = {"file": file.file, "title": file.title, "file_verdict": file.verdict}
         if not file.checks and file.verdict == ERROR:
-            rows.append({**head, "verdict": ERROR, "message": "; ".join(file.errors)})
+            out.append({**head, "verdict": ERROR, "message": "; ".join(file.errors)})
         elif not file.checks and file.messages:
-            rows.append({**head, "verdict": file.verdict, "message": "; ".join(file.messages)})
+            out.append({**head, "verdict": file.verdict, "message": "; ".join(file.messages)})
         for check in file.checks:
             deviation = None if check.trace is None else check.trace.deviation
             base = {**head, "check": check.index + 1, "probe": check.probe,
@@ -51,18 +56,12 @@ def frame(run: RunResult) -> pd.DataFrame:
                     "check_verdict": check.verdict, "order": check.order,
                     "modes": ";".join(f"{m:.9g}" for m in check.modes), "deviation": deviation}
             for field in check.fields:
-                rows.append({**base, "field": field.name, "unit": common.field_unit(field),
-                             "hand": _num(field.hand), "closed_form": _num(field.closed_form),
-                             "numeric": _num(field.numeric), "verdict": field.verdict,
-                             "tolerance": field.tolerance, "formula": field.formula,
-                             "message": field.message, "label": common.field_label(field)})
-    import pandas as pd               # imported when writing: a run without reports skips it
-    table = pd.DataFrame(rows, columns=list(COLUMNS))
-    for column in _TEXT:
-        table[column] = table[column].map(_defuse)
-    table["check"] = table["check"].astype("Int64")
-    table["order"] = table["order"].astype("Int64")
-    return table
+                out.append({**base, "field": field.name, "unit": common.field_unit(field),
+                            "hand": _num(field.hand), "closed_form": _num(field.closed_form),
+                            "numeric": _num(field.numeric), "verdict": field.verdict,
+                            "tolerance": field.tolerance, "formula": field.formula,
+                            "message": field.message, "label": common.field_label(field)})
+    return out
 
 
 #: the file this writer writes in the report folder (``harness.report.WRITERS``)
@@ -75,8 +74,58 @@ def write(run: RunResult, context: ReportContext) -> str:
 
 
 def render(run: RunResult) -> str:
-    """The CSV text (UTF-8, comma-separated, header row, floats in shortest round-trip form)."""
-    return frame(run).to_csv(index=False, lineterminator="\n")
+    """The CSV text (UTF-8, comma-separated, header row, ``\\n`` line ends, minimal quoting).
+
+    Written with the standard library's ``csv`` module, cell by cell as pandas' ``to_csv`` of a
+    frame of these rows writes them (``tests/test_reports.py`` compares the two): a column whose
+    values are all numbers is a number column (a float in shortest round-trip form, ``repr``;
+    integers as integers while the column holds nothing else, the 1-based ``check`` and
+    ``order`` always), a missing value an empty cell, text through ``_defuse``.  Loading pandas
+    cost ~0.2 s of every run that writes the reports.
+    """
+    return text(rows(run))
+
+
+def text(table: list[dict]) -> str:
+    """The CSV text of ``rows`` (``render``)."""
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(COLUMNS)
+    columns = [_column(name, [row.get(name) for row in table]) for name in COLUMNS]
+    writer.writerows(zip(*columns))
+    return buffer.getvalue()
+
+
+#: integer columns: an integer or an empty cell (pandas' nullable ``Int64``)
+_INTEGER = ("check", "order")
+
+
+def _column(name: str, values: list) -> list[str]:
+    """One column's cells: text columns through ``_defuse``, the others as pandas infers a
+    column built from these values (all integers: integers; numbers and missing values: floats;
+    anything else: each value's ``str``) and writes it."""
+    if name in _TEXT:
+        return [str(_defuse(v)) for v in values]
+    if name in _INTEGER:
+        return ["" if _missing(v) else str(int(v)) for v in values]
+    present = [v for v in values if not _missing(v)]
+    if present and all(_is_int(v) for v in values):
+        return [str(int(v)) for v in values]
+    if present and all(_is_number(v) for v in present):
+        return ["" if _missing(v) else repr(float(v)) for v in values]
+    return ["" if _missing(v) else str(v) for v in values]
+
+
+def _missing(value) -> bool:
+    return value is None or (isinstance(value, float) and math.isnan(value))
+
+
+def _is_int(value) -> bool:
+    return isinstance(value, (int, np.integer)) and not isinstance(value, (bool, np.bool_))
+
+
+def _is_number(value) -> bool:
+    return _is_int(value) or isinstance(value, (float, np.floating))
 
 
 def read(path) -> pd.DataFrame:

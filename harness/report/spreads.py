@@ -132,20 +132,30 @@ def _one(run: RunResult, file, spread) -> RunResult:
     return RunResult(files=(replace(file, spreads=(spread,)),))
 
 
-def samples_csv(run: RunResult) -> str:
-    """file, check, field, sample number, value, then each quantity's relative deviation."""
+def samples_csv(run: RunResult, drawn=None) -> str:
+    """file, check, field, sample number, value, then each quantity's relative deviation;
+    a file's rows from ``drawn`` (``pieces.Drawn``) where they were drawn already."""
+    buffer = io.StringIO()
+    csv.writer(buffer, lineterminator="\n").writerow(
+        ["file", "check", "field", "sample", "value", "deviations"])
+    pieces = [drawn.get(f) if drawn is not None else None for f in run.files]
+    return buffer.getvalue() + "".join(p.samples if p is not None else sample_rows(f)
+                                       for f, p in zip(run.files, pieces))
+
+
+def sample_rows(file) -> str:
+    """One file's rows of ``samples_csv`` (no header)."""
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
-    writer.writerow(["file", "check", "field", "sample", "value", "deviations"])
-    for f in run.files:
-        for s in f.spreads:
-            if s.samples is None:
-                continue
-            names = list(s.units)
-            for n, value in enumerate(s.samples):
-                dev = s.sample_deviations[n] if n < len(s.sample_deviations) else []
-                writer.writerow([printable(f.file), printable(s.check), s.name, n, repr(float(value)),
-                                 ";".join(f"{q}={d:+.6g}" for q, d in zip(names, dev))])
+    for s in file.spreads:
+        if s.samples is None:
+            continue
+        names = list(s.units)
+        for n, value in enumerate(s.samples):
+            dev = s.sample_deviations[n] if n < len(s.sample_deviations) else []
+            writer.writerow([printable(file.file), printable(s.check), s.name, n,
+                             repr(float(value)),
+                             ";".join(f"{q}={d:+.6g}" for q, d in zip(names, dev))])
     return buffer.getvalue()
 
 

@@ -15,8 +15,9 @@ from typing import Mapping
 
 from ..outcome import RunResult
 from ..progress import Progress
-from . import csvout, html, jsonout, junit, markdown, plots, spreads
-from .plot_schedule import SCHEDULE, plot_schedule
+from . import csvout, html, jsonout, junit, markdown, spreads
+from .pieces import Drawn, plot_items, plot_one
+from .plot_schedule import SCHEDULE
 from .atomic import ReportError, ensure_dir, safe_name
 from .context import ReportContext
 from .reportset import publish
@@ -35,43 +36,39 @@ PLOT_SUFFIX = ".svg"
 _PLOT_NAME = re.compile(r"^\d{3,}-[A-Za-z0-9_-]+-(c\d+|schedule|s\d+)\.(svg|png)$")
 
 
-def _plot_one(item):
-    """(key, check or file, file name) -> (key, SVG text or None, warning text or None)."""
-    key, what, file = item
-    try:
-        if key[1] == SCHEDULE:
-            return key, plot_schedule(what), None
-        return key, plots.plot_check(what), None
-    except Exception as exc:  # a bad trace must not cost the whole report
-        name = "the schedule" if key[1] == SCHEDULE else f"check #{what.index + 1}"
-        return key, None, f"{file}: no plot for {name}: {exc}"
-
-
 #: fewer plots than this are drawn in this process even when jobs > 1
 PARALLEL_PLOTS = 16
 
 
-def render_plots(run: RunResult, jobs: int = 1,
-                 progress: Progress | None = None) -> dict[tuple[int, int], str]:
+def render_plots(run: RunResult, jobs: int = 1, progress: Progress | None = None,
+                 pieces: Drawn | None = None) -> dict[tuple[int, int], str]:
     """(file index, check index) -> SVG text for every check that carries a trace, and
     (file index, ``SCHEDULE``) -> the file's whole-schedule plot.
 
-    With ``jobs`` > 1 and many plots they are drawn in worker processes; the result is the
-    same.  ``progress`` is stepped per plot.
+    A file's plots drawn already where it was analysed (``pieces``) are taken as they are;
+    with ``jobs`` > 1 and many plots left they are drawn in worker processes; the result is
+    the same.  ``progress`` is stepped per plot.
     """
+    ready = {}
     items = []
     for i, file in enumerate(run.files):
-        items.append(((i, SCHEDULE), file, file.file))
-        items += [((i, check.index), check, file.file) for check in file.checks]
+        got = pieces.get(file) if pieces is not None else None
+        if got is not None and got.plots is not None:
+            ready[i] = [((i, key), chart, problem) for key, chart, problem in got.plots]
+        else:
+            items += plot_items(file, i)
     progress = progress or Progress(False)
-    progress.add(len(items), "plots")
+    progress.add(len(items) + sum(map(len, ready.values())), "plots")
     if jobs > 1 and len(items) >= PARALLEL_PLOTS:
         from ..pool import usable_jobs
         jobs = usable_jobs(jobs)
     if jobs > 1 and len(items) >= PARALLEL_PLOTS:
         drawn = [_stepped(d, progress) for d in _draw_in_workers(items, jobs)]
     else:
-        drawn = [_stepped(_plot_one(item), progress) for item in items]
+        drawn = [_stepped(plot_one(item), progress) for item in items]
+    if ready:
+        progress.step(sum(map(len, ready.values())))
+        drawn = _in_file_order(ready, drawn)
     out = {}
     for key, chart, problem in drawn:
         if problem:
@@ -81,13 +78,23 @@ def render_plots(run: RunResult, jobs: int = 1,
     return out
 
 
+def _in_file_order(ready: dict, drawn: list) -> list:
+    """The plots of the files in ``ready`` (file index -> its plots) and those ``drawn`` here,
+    in the order of the files (each file's plots stay together, in ``plot_items`` order)."""
+    by_file: dict = {}
+    for plot in drawn:
+        by_file.setdefault(plot[0][0], []).append(plot)
+    by_file.update(ready)
+    return [plot for i in sorted(by_file) for plot in by_file[i]]
+
+
 def _stepped(drawn, progress: Progress):
     progress.step()
     return drawn
 
 
 def _draw_in_workers(items: list, jobs: int) -> list:
-    """``_plot_one`` of every item in ``jobs`` worker processes (``harness.pool``: killed with
+    """``plot_one`` of every item in ``jobs`` worker processes (``harness.pool``: killed with
     the run on SIGINT or SIGTERM, and dying with it); a lost worker costs its plot only.
 
     Raises:
@@ -100,7 +107,7 @@ def _draw_in_workers(items: list, jobs: int) -> list:
         return key, None, f"{file}: no plot: the worker drawing it {how}"
 
     try:
-        done = run_tasks([(item,) for item in items], _plot_one, jobs=jobs, timeout=None,
+        done = run_tasks([(item,) for item in items], plot_one, jobs=jobs, timeout=None,
                          on_timeout=lost, on_death=lost)
     except RunInterrupted as stop:
         if stop.signum == signal.SIGINT:
@@ -122,12 +129,13 @@ def _spec_histograms(run: RunResult, with_plots: bool) -> dict:
     return {key: chart for key, chart in drawn.items() if chart}
 
 
-def _with_spreads(run: RunResult, files: dict, charts: dict, names: dict, histograms: dict):
-    """Add the spec samples' CSV and each spec'd field's histogram and sensitivity chart to
-    the set."""
+def _with_spreads(run: RunResult, files: dict, charts: dict, names: dict, histograms: dict,
+                  pieces: Drawn | None = None):
+    """Add the spec samples' CSV (a file's rows from ``pieces`` where drawn already) and each
+    spec'd field's histogram and sensitivity chart to the set."""
     if not any(f.spreads for f in run.files):
         return charts, names
-    files[spreads.SAMPLES_CSV] = spreads.samples_csv(run).encode("utf-8")
+    files[spreads.SAMPLES_CSV] = spreads.samples_csv(run, pieces).encode("utf-8")
     charts, names = dict(charts), dict(names)
     for key, chart in histograms.items():
         charts[("spec",) + key] = chart
@@ -151,7 +159,7 @@ def plot_name(run: RunResult, key: tuple[int, int | str]) -> str:
 
 def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
               jobs: int = 1, progress: Progress | None = None,
-              provenance: Mapping | None = None) -> list[Path]:
+              provenance: Mapping | None = None, pieces: Drawn | None = None) -> list[Path]:
     """Write the report files (``REPORT_FILES``, one per writer of ``WRITERS``) and the plot
     SVGs into ``report_dir``.
 
@@ -162,12 +170,14 @@ def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
     left in ``plots/`` under this package's naming pattern go with it.
     ``with_plots=False`` skips the plots (every report is still written).  ``progress`` is
     stepped per plot; ``provenance`` (``report.provenance.collect``) heads the HTML and Markdown reports.
+    ``pieces``: the files' plots and sample rows drawn already where they were analysed
+    (``report.pieces``; the runner fills it); the rest is drawn here.
 
     Raises:
         ReportError: the folder cannot be created or written, or the set cannot be put in place.
     """
     folder = ensure_dir(Path(report_dir))
-    charts = render_plots(run, jobs, progress) if with_plots else {}
+    charts = render_plots(run, jobs, progress, pieces) if with_plots else {}
     names = {key: plot_name(run, key) for key in charts}
     links = {key: f"{PLOT_DIR}/{name}" for key, name in names.items()}
     # every serializer runs before any file is touched: if one raises, the old report stays whole
@@ -177,6 +187,6 @@ def write_all(run: RunResult, report_dir: Path, *, with_plots: bool = True,
     context = ReportContext(charts, links, provenance or {}, histograms,
                             spec_links if with_plots else {})
     files = {writer.FILE: writer.write(run, context).encode("utf-8") for writer in WRITERS}
-    charts, names = _with_spreads(run, files, charts, names, histograms)
+    charts, names = _with_spreads(run, files, charts, names, histograms, pieces)
     return publish(folder, files, {names[key]: chart.encode("utf-8")
                                    for key, chart in charts.items()}, PLOT_DIR, _PLOT_NAME)

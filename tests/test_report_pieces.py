@@ -1,0 +1,95 @@
+"""A file's report pieces (plots, spec sample rows) drawn in the worker that analysed it give the
+report set a run in one process writes, byte for byte (timings aside: each file's analysis time
+is in the HTML and JUnit reports; ``tests/benchmarks/reports_diff.py`` masks it); pieces that
+do not fit the final result are not used; the workers take spec'd files first."""
+
+from __future__ import annotations
+
+import dataclasses
+from pathlib import Path
+
+import pytest
+
+from harness import pool
+from harness.outcome import require_checks
+from harness.report import spreads, write_all, writeall
+from harness.report.pieces import Drawn, draw
+from harness.runner import RunOptions, heavy_first, run
+from tests.benchmarks.reports_diff import differences
+
+LIBRARY = "circuits/library"
+FILES = [f"{LIBRARY}/logger/button-debounce.toml", f"{LIBRARY}/tolerance/soft-start-spread.toml",
+         f"{LIBRARY}/periodic/pwm-current-setpoint.toml", f"{LIBRARY}/relay-driver/economizer.toml",
+         "circuits/no-such-file.toml"]
+
+
+@pytest.fixture(scope="module")
+def here():
+    """The files run in this process (nothing drawn ahead) and their report set."""
+    return require_checks(run(FILES))
+
+
+def _written(result, folder: Path, pieces=None) -> Path:
+    write_all(result, folder, provenance={"tool": "t"}, pieces=pieces)
+    return folder
+
+
+def test_pieces_drawn_in_two_workers_give_the_same_report_set(here, tmp_path, monkeypatch):
+    monkeypatch.setattr(pool, "free_cores", lambda: 2)   # two workers, however busy the machine
+    drawn = Drawn()
+    result = require_checks(run(FILES, RunOptions(jobs=2, pieces=drawn)))
+    assert len(drawn) == len(FILES) - 1                   # every file that exists
+    assert result.to_json() == here.to_json()
+    a = _written(here, tmp_path / "here")
+
+    def not_again(draw_here, path_of):
+        def drawing(what):     # only the missing file (an error result) is drawn here
+            assert path_of(what) == FILES[-1], "drawn again in the parent"
+            return draw_here(what)
+        return drawing
+    monkeypatch.setattr(writeall, "plot_one", not_again(writeall.plot_one, lambda i: i[2]))
+    monkeypatch.setattr(spreads, "sample_rows", not_again(spreads.sample_rows, lambda f: f.file))
+    b = _written(result, tmp_path / "workers", drawn)
+    assert differences(a, b) == []
+    assert (a / "spec-samples.csv").stat().st_size > 1000
+    assert len(list((a / "plots").iterdir())) > 10
+
+
+def test_pieces_without_plots_hold_the_sample_rows_only(here):
+    spread = next(f for f in here.files if f.spreads)
+    pieces = draw(spread, with_plots=False)
+    assert pieces.plots is None and pieces.samples.count("\n") > 100
+
+
+def test_pieces_that_do_not_fit_the_result_are_not_used(here):
+    """Pieces drawn from a result with other checks (or another title) are left aside, so the
+    report writes the file's own plots."""
+    file = next(f for f in here.files if len(f.checks) > 1)
+    drawn = Drawn()
+    drawn.add(file.file, draw(dataclasses.replace(file, checks=file.checks[:1]), True))
+    assert drawn.get(file) is None
+    drawn.add(file.file, draw(file, True))
+    assert drawn.get(file) is not None
+    assert drawn.get(dataclasses.replace(file, title="another")) is None
+
+
+def test_spec_files_are_handed_out_first(tmp_path):
+    plain, spec, variation = (tmp_path / n for n in ("a.toml", "b.toml", "c.toml"))
+    plain.write_text('title = "spec = not at a line start"\n')
+    spec.write_text("[[expect]]\n  spec = { tau = { max = \"1 ms\" } }\n")
+    variation.write_text("[variation]\nresistors = \"F\"\n")
+    files = [str(plain), str(spec), str(tmp_path / "gone.toml"), str(variation)]
+    assert heavy_first(files) == [1, 3, 0, 2]
+
+
+def test_without_plots_the_workers_draw_the_sample_rows_alone(here, tmp_path, monkeypatch):
+    """``--no-plots`` with workers: the pieces hold no plots and the set is the same bytes."""
+    monkeypatch.setattr(pool, "free_cores", lambda: 2)
+    drawn = Drawn(with_plots=False)
+    result = require_checks(run(FILES[1:3], RunOptions(jobs=2, pieces=drawn)))
+    assert len(drawn) == 2 and all(drawn.get(f).plots is None for f in result.files)
+    mine = require_checks(run(FILES[1:3]))
+    a, b = tmp_path / "here", tmp_path / "workers"
+    write_all(mine, a, provenance={"tool": "t"}, with_plots=False)
+    write_all(result, b, provenance={"tool": "t"}, with_plots=False, pieces=drawn)
+    assert differences(a, b) == [] and not (b / "plots").exists()
