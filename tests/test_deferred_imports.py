@@ -7,7 +7,7 @@ Each costs start-up on every `tauproof solve` otherwise (measured on this machin
 matplotlib ~0.3 s, the report writers a solve does not print ~5 ms, scipy.sparse with csgraph
 ~13 ms, tabulate ~4 ms as it reads its package metadata, xml.etree ~2.5 ms, multiprocessing
 ~2 ms, the spread patterns ~0.7 ms, report.style ~0.45 ms, the exact engine's Thevenin and
-reach modules with the mismatch explainer ~0.35 ms; tests/benchmarks/RESULTS.md,
+reach modules ~0.25 ms; tests/benchmarks/RESULTS.md,
 "Start-up and small circuits").  numpy itself loads only for a command that analyses files
 (``check``, ``solve``), whose engines the console command imports first with the garbage
 collector paused."""
@@ -38,7 +38,6 @@ NOT_FOR_A_SMALL_SOLVE = {
     "harness.closedform.periodic": "files with a repeating window",
     "harness.closedform.thevenin": "dominant-tau estimates (zero-value time constants)",
     "harness.closedform.reach": "dominant-tau estimates (the parts that reach the probe)",
-    "harness.compare.diagnose": "explaining a mismatch (the file's checks all pass)",
     "pandas": "summary.csv",
     "matplotlib": "plots",
     "tabulate": "the check console table (solve's tables are laid out by report.console)",

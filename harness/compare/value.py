@@ -15,6 +15,7 @@ from ..model import Expectation
 from ..outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
 from ..results import Features
 from .context import CheckContext, below_noise, hand_relative, snap_zero
+from .diagnose import explain
 from .message import engine_message
 
 
@@ -66,7 +67,6 @@ def compare_field(name: str, exp: Expectation, fe: Features, fn: Features | None
         message = engine_message(closed, numeric, unit)
     elif hand is not None and not (closed is not None and
                                    tol.agree(hand, closed, relative, tol.HAND_FLOOR * floor)):
-        from .diagnose import explain
         verdict = MISMATCH
         message = explain(name, hand, exp, fe, ctx)
     message = "; ".join(m for m in (message, limit) if m)
