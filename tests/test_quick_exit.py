@@ -73,12 +73,22 @@ def test_the_teardown_is_skipped_and_atexit_handlers_still_run():
 
 
 def test_a_live_thread_keeps_the_usual_exit():
-    """A thread still running when the command returns is waited for, as Python does."""
+    """A thread still running when the command returns (it starts its work then) is waited
+    for, as Python does."""
     code = ("import sys, threading, time, harness.cli\n"
+            "returned = threading.Event()\n"
             "def late():\n"
-            "    time.sleep(0.5)\n"
+            "    returned.wait()\n"
+            "    time.sleep(0.3)\n"
             "    print('thread finished', flush=True)\n"
-            "threading.Thread(target=late).start()\n")
+            "threading.Thread(target=late).start()\n"
+            "run = harness.cli.main\n"
+            "def main(*words):\n"
+            "    try:\n"
+            "        return run(*words)\n"
+            "    finally:\n"
+            "        returned.set()\n"
+            "harness.cli.main = main\n")
     done = _small_solve(code)
     assert done.stdout.rstrip().endswith("thread finished")
 
