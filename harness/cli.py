@@ -204,12 +204,12 @@ def command() -> int:
     nothing to free.  So for ``check`` and ``solve`` those modules
     are imported first with the collector off and their objects set aside (``gc.freeze``:
     later passes skip them), and on the way out every object still alive is set aside too, so
-    the interpreter's passes at exit have nothing to traverse either.  Files, streams and
-    ``atexit`` handlers are closed and run as before; ``main`` itself leaves the collector
-    alone, so a process that calls it many times (the tests) is unaffected.
+    the interpreter's passes at exit have nothing to traverse either.  ``main`` itself leaves
+    the collector alone, so a process that calls it many times (the tests) is unaffected.
 
-    A ``check`` or ``solve`` that returns then ends the process at once (``_leave``): the
-    interpreter's teardown would only free memory the process is about to give back."""
+    A ``check`` or ``solve`` that returns then ends the process at once (``_leave``): its
+    ``atexit`` handlers run and stdout and stderr are flushed, and the interpreter's teardown,
+    which would only free memory the process is about to give back, is skipped."""
     analyses = _command_word(sys.argv[1:]) in ("check", "solve")
     code = _command(analyses)
     if analyses:
