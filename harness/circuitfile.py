@@ -335,7 +335,7 @@ def _expectations(raw: object, circuit: m.Circuit, where: Where) -> tuple[m.Expe
     return tuple(_expectation(i, block, circuit, scope, where) for i, block in enumerate(raw))
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class _Scope:
     """What a hand-value formula may name: part name -> SI value (None for a part without one),
     and -> its dimension word."""

@@ -204,15 +204,69 @@ def command() -> int:
     nothing to free.  So for ``check`` and ``solve`` those modules
     are imported first with the collector off and their objects set aside (``gc.freeze``:
     later passes skip them), and on the way out every object still alive is set aside too, so
-    the interpreter's passes at exit have nothing to traverse either.  Files, streams and
-    ``atexit`` handlers are closed and run as before; ``main`` itself leaves the collector
-    alone, so a process that calls it many times (the tests) is unaffected."""
-    if _command_word(sys.argv[1:]) in ("check", "solve"):
+    the interpreter's passes at exit have nothing to traverse either.  ``main`` itself leaves
+    the collector alone, so a process that calls it many times (the tests) is unaffected.
+
+    A ``check`` or ``solve`` that returns then ends the process at once (``_leave``): its
+    ``atexit`` handlers run and stdout and stderr are flushed, and the interpreter's teardown,
+    which would only free memory the process is about to give back, is skipped."""
+    analyses = _command_word(sys.argv[1:]) in ("check", "solve")
+    code = _command(analyses)
+    if analyses:
+        _leave(code)
+    return code
+
+
+def _command(analyses: bool) -> int:
+    """``main`` on the process's arguments, the engines imported first when it ``analyses``
+    files, and every object alive at the end frozen (see ``command``); its exit code."""
+    if analyses:
         _import_engines()
     try:
         return main()
     finally:
         gc.freeze()
+
+
+def _leave(code: int) -> None:
+    """End the process with ``code`` now, skipping the interpreter's teardown, when nothing is
+    pending that the teardown would finish; otherwise return (the caller exits as usual).
+
+    What still runs, in the interpreter's own order: every ``atexit`` handler (the libraries'
+    and any a tool such as a coverage collector registered; ``weakref.finalize`` callbacks
+    with ``atexit`` set, such as a temporary folder's removal), then stdout and stderr are
+    flushed.  What is skipped: the cyclic collector's passes at exit and the clearing of every
+    module, so ``__del__`` methods of objects still alive do not run (the engines and the
+    report writers leave none that matter: files are written and closed inside ``with``
+    blocks).  Not taken, so the usual exit follows: another thread is alive (a cluster
+    client's, a pool's watchdog), a ``multiprocessing`` child is still running, the exit
+    code is not a number, a stream cannot be flushed (a reader that closed the pipe: the
+    interpreter reports it as before), or this Python has no ``atexit._run_exitfuncs``.
+    Saves ~7 ms of a small ``solve``'s ~0.2 s (tests/benchmarks/RESULTS.md, "Start-up and
+    small circuits")."""
+    import atexit
+    import threading
+    run_handlers = getattr(atexit, "_run_exitfuncs", None)
+    children = sys.modules.get("multiprocessing")
+    if (run_handlers is None or not isinstance(code, int) or threading.active_count() > 1
+            or (children is not None and children.active_children())):
+        return
+    if not _flushed():
+        return
+    run_handlers()
+    if _flushed():
+        os._exit(code)
+
+
+def _flushed() -> bool:
+    """stdout and stderr flushed; False when one could not be (left to the usual exit)."""
+    try:
+        for stream in (sys.stdout, sys.stderr):
+            if stream is not None:
+                stream.flush()
+    except (OSError, ValueError):
+        return False
+    return True
 
 
 def _command_word(words: list[str]) -> str | None:

@@ -47,7 +47,7 @@ class ConfigError(InputError):
     """``[tool.tauproof]`` cannot be used: an unknown key or a value of the wrong type."""
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class ProjectConfig:
     """The checked ``[tool.tauproof]`` settings; None where the table does not set a key.
 

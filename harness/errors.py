@@ -58,7 +58,7 @@ def location(file: str | None, line: int | None, part: str | None, field: str | 
     return head + (": " + ", ".join(bits) if bits else "")
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class InputWarning:
     """Something in a circuit file that is probably a slip but can still be analysed (a value
     far outside its kind's plausible range, a tolerance without ``%``): the check runs and the

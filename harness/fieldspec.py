@@ -47,7 +47,7 @@ PROBE_SCALE, NO_FLOOR, TIME_FLOOR, ENERGY_RULE, FRACTION, PERIODS = (
 ALWAYS, RESOLVED, DYNAMICS = "always", "resolved", "dynamics"
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class FieldSpec:
     """One hand field.
 

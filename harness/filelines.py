@@ -142,7 +142,7 @@ def quoted_list(items: Iterable[str], limit: int = 12) -> str:
     return text + (", …" if len(items) > limit else "")
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Where:
     """Builds located errors for one file: the source path and its ``Locator``; collects the
     reader's warnings about this file in ``warnings`` (one list per file read)."""

@@ -38,7 +38,7 @@ from .topology import dangling_nodes
 OPEN_NODE = "open-node"
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Finding:
     """One finding: its kind, the node and part names it concerns, the sentence
     (``harness.messages``), and whether the file acknowledges it."""

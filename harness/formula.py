@@ -84,7 +84,7 @@ class FormulaError(UnitError):
         return err
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class _Token:
     """``kind``: "num", "name", "end" or a canonical operator; ``value``, ``unit``: quantities."""
 

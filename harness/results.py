@@ -106,7 +106,9 @@ DIAGNOSTIC_CODES = (FLOATING_NODES, UNDAMPED_OSCILLATION, STATE_OVERFLOW, IMPULS
                     IMPULSIVE_VALUE, UNRESOLVED_MODE, BELOW_RESOLUTION)
 
 
-@dataclass(frozen=True)
+# eq=False: results are never compared or hashed by value (identity is enough), and a frozen
+# dataclass without eq compiles two methods fewer at import (start-up; DEVELOPERS.md)
+@dataclass(frozen=True, eq=False)
 class Features:
     """One engine's values for one probe at one event.
 
@@ -148,7 +150,7 @@ class Features:
     order_bounds: tuple[int, int] | None = None
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Jump:
     """What happens at the instant of event k.
 
@@ -187,7 +189,7 @@ class Jump:
     opened: tuple[str, ...] = ()
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Hazard:
     """A condition that makes a circuit unsafe or its analysis meaningless, as data (the report
     side writes the English, ``harness.findings``).
@@ -226,7 +228,7 @@ IMPULSIVE = "impulsive-response"
 POSITIVE_FEEDBACK = "positive-feedback"
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class CrossingValue:
     """When a probe first crosses a level after event k, on interval k's held waveform.
 
@@ -247,7 +249,7 @@ class CrossingValue:
     approaches: float | None = None
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class PeakValue:
     """The largest magnitude of a probe in interval k (held waveform, t_k+ included).
 
@@ -265,7 +267,7 @@ class PeakValue:
     after_next_event: bool = False
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class EnergyValue:
     """Energy absorbed by one part over interval k, continued until settled.
 
@@ -293,7 +295,7 @@ class EnergyValue:
     in_interval: float | None = None
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class DominantTau:
     """The first-order estimate of a higher-order response (zero-value time constants).
 
@@ -335,7 +337,7 @@ class DominantTau:
         return (self.t50_estimate - self.t50) / self.t50
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Conditioning:
     """How far interval k's values can be trusted: ``kappa`` = max(kappa_pencil, kappa_modes),
     dimensionless (Higham 2002, ch. 7: a solve loses about log10 kappa digits).
@@ -476,7 +478,7 @@ NOT_ESTABLISHED = "not-established"  # the engine could not establish it (ill-co
                                      # an integration that failed, a state beyond range)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class PeriodicValue:
     """A probe's exact periodic steady state over one period of the repeating window.
 

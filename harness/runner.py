@@ -27,7 +27,7 @@ from .pool import RunInterrupted as PoolInterrupted
 from .progress import Progress
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class RunOptions:
     """How to run: ``numeric`` runs the numerical engine too; ``jobs`` worker processes;
     ``timeout`` the limit in s per file (None: none; any limit runs files in workers);

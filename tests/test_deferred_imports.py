@@ -6,7 +6,8 @@ Each costs start-up on every `tauproof solve` otherwise (measured on this machin
 ~0.1 s with the scipy.special, scipy.fft and scipy.spatial it loads, pandas ~0.25 s,
 matplotlib ~0.3 s, the report writers a solve does not print ~5 ms, scipy.sparse with csgraph
 ~13 ms, tabulate ~4 ms as it reads its package metadata, xml.etree ~2.5 ms, multiprocessing
-~2 ms, the spread patterns ~0.7 ms, report.style ~0.45 ms; tests/benchmarks/RESULTS.md,
+~2 ms, the spread patterns ~0.7 ms, report.style ~0.45 ms, the exact engine's Thevenin and
+reach modules ~0.25 ms; tests/benchmarks/RESULTS.md,
 "Start-up and small circuits").  numpy itself loads only for a command that analyses files
 (``check``, ``solve``), whose engines the console command imports first with the garbage
 collector paused."""
@@ -35,6 +36,8 @@ NOT_FOR_A_SMALL_SOLVE = {
     "harness.variation.analyse": "spec'd fields (spreads)",
     "harness.derive": "derive and --formulas",
     "harness.closedform.periodic": "files with a repeating window",
+    "harness.closedform.thevenin": "dominant-tau estimates (zero-value time constants)",
+    "harness.closedform.reach": "dominant-tau estimates (the parts that reach the probe)",
     "pandas": "reading summary.csv back (csvout.read)",
     "matplotlib": "plots",
     "tabulate": "the check console table (solve's tables are laid out by report.console)",
@@ -86,7 +89,8 @@ def test_the_small_solve_has_a_crossing_to_refine():
 def test_the_command_line_loads_numpy_only_for_a_command_that_analyses_files():
     """``import harness.cli`` (the console script's first line) loads no numpy, nor do
     ``help`` and ``--version`` through the console command; ``solve`` does, and leaves the
-    garbage collector on after its imports."""
+    garbage collector on after its imports (``_command``: the console command without its
+    quick exit, so this process can look afterwards)."""
     assert _loaded("import harness.cli", ("numpy", "scipy")) == []
     for words in (["help"], ["--version"], ["new", "--help"]):
         code = ("import io, contextlib, harness.cli\n"
@@ -100,7 +104,7 @@ def test_the_command_line_loads_numpy_only_for_a_command_that_analyses_files():
     code = ("import gc, io, contextlib, sys, harness.cli\n"
             f"sys.argv = ['tauproof', 'solve', {SMALL!r}, '--closed-form-only']\n"
             "with contextlib.redirect_stdout(io.StringIO()):\n"
-            "    assert harness.cli.command() == 0\n"
+            "    assert harness.cli._command(True) == 0\n"
             "assert gc.isenabled()\n")
     assert _loaded(code, ("numpy", "scipy.linalg", "harness.closedform")) == [
         "numpy", "scipy.linalg", "harness.closedform"]

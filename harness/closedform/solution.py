@@ -24,11 +24,9 @@ from .stamps import layout_of, stamp, stamp_sources
 from .modes import UNDAMPED, Mode, mode_of
 from .probes import functional
 from .snapshot import undefined_before
-from .reach import reaching_storage, voltage_of_capacitor
 from .response import IntervalResponse, Kept, Pencil, build, pencil_of
 from . import signoff
 from .conditioning import assess
-from .thevenin import pole_time_constants, thevenin_resistances
 
 ENGINE = "closed_form"
 
@@ -135,6 +133,7 @@ class ClosedFormSolution(NotComputed):
     def thevenin(self, k: int) -> dict[str, float]:
         """Storage part -> Thevenin resistance in ohms it sees in interval k (sources zeroed,
         other capacitors open, other inductors shorted, controlled sources kept)."""
+        from .thevenin import thevenin_resistances
         return thevenin_resistances(self.circuit, self.layout, self.scale, self.intervals[k].g)
 
     def conditioning(self) -> tuple[Conditioning, ...]:
@@ -235,6 +234,7 @@ class ClosedFormSolution(NotComputed):
         return dict(self._probe_cache[key])
 
     def _coupled(self, probe: Probe, k: int) -> dict[str, float]:
+        from .reach import reaching_storage, voltage_of_capacitor
         terms = self._zero_value(k)
         resp, n = self.intervals[k], self.layout.size
         fn = functional(self.circuit, self.layout, voltage_of_capacitor(self.circuit, probe))
@@ -257,6 +257,7 @@ class ClosedFormSolution(NotComputed):
         """Part -> zero-value time constant (s) for interval k, memoised."""
         key = ("zero-value", k)
         if key not in self._jump_cache:
+            from .thevenin import pole_time_constants
             terms = signoff.zero_value_terms(self.circuit, self.thevenin(k), self.scale.r0)
             terms.update(pole_time_constants(self.circuit, self.intervals[k].g, self.layout))
             self._jump_cache[key] = terms

@@ -7,7 +7,8 @@
    wall time and CPU time (user + system of the child, from wait4) and their ratios.  Beside
    them, in the same alternation, the ``tauproof`` console script (when installed next to this
    interpreter), the same solve through ``harness.cli.main`` (what the console command adds
-   is when the garbage collector runs: ``cli.command``) and the same solve with the package's
+   is when the garbage collector runs and an exit without the interpreter's teardown:
+   ``cli.command``) and the same solve with the package's
    sources compiled every run.  Every child runs with one BLAS thread and with bytecode caches
    as an installed package has them (pip byte-compiles on install; ``PYTHONDONTWRITEBYTECODE``
    is dropped from the children's environment and one unmeasured run writes the caches); the
@@ -115,7 +116,7 @@ def small() -> tuple[float, int, float, int, int]:
 _ROWS = {"bare": '`python -c "import numpy, scipy.linalg"`',
          "solve": f"`python -m harness.cli solve {SMALL_FILE} --closed-form-only`",
          "main": "the same through `harness.cli.main` (the garbage collector left as Python "
-                 "runs it)",
+                 "runs it, the usual exit)",
          "script": "the same through the `tauproof` console script",
          "uncached": "`python -m harness.cli solve ...`, sources compiled every run"}
 
