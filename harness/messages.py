@@ -178,7 +178,8 @@ def _unresolved_mode(d: r.Diagnostic) -> str:
 
 
 def _below_resolution(d: r.Diagnostic) -> str:
-    field, unit, *how = d.detail.split(" ")
+    field, _, rest = d.detail.partition(" ")
+    unit, _, how = rest.partition(" ")
     closed, numeric, res = (format_si(d.value(n), unit) for n in ("closed", "numeric",
                                                                    "resolution"))
     why = ("twice the change in its value when it re-solves at tighter tolerances, and its "
