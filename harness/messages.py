@@ -178,13 +178,16 @@ def _unresolved_mode(d: r.Diagnostic) -> str:
 
 
 def _below_resolution(d: r.Diagnostic) -> str:
-    field, _, unit = d.detail.partition(" ")
+    field, _, rest = d.detail.partition(" ")
+    unit, _, how = rest.partition(" ")
     closed, numeric, res = (format_si(d.value(n), unit) for n in ("closed", "numeric",
                                                                    "resolution"))
+    why = ("twice the change in its value when it re-solves at tighter tolerances, and its "
+           "inductor shunts" if how else
+           "its integration tolerance on the states the probe reads, and its inductor shunts")
     return (f"{field} not cross-checked: the closed form gives {closed} and the numerical engine "
             f"{numeric}, apart by more than the engines' tolerance but less than the numerical "
-            f"engine's resolution of this probe, {res} (its integration tolerance on the "
-            f"states the probe reads, and its inductor shunts); the closed form's value stands "
+            f"engine's resolution of this probe, {res} ({why}); the closed form's value stands "
             f"alone: a limit of the numerical engine")
 
 

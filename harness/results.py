@@ -96,7 +96,9 @@ UNRESOLVED_MODE = "unresolved-mode"
 # Found by the comparator from the numerical engine's ``value_resolution``: interval, time,
 # detail the field, values closed (the closed form's value), numeric (the numerical engine's)
 # and resolution (that engine's resolution of the probe, in the probe's unit: the two differ
-# by less, though by more than the engines' tolerance):
+# by less, though by more than the engines' tolerance); detail "FIELD UNIT", followed by
+# " re-solved" where that engine's re-solve at tighter tolerances established the resolution
+# (``refined_resolution``):
 BELOW_RESOLUTION = "below-resolution"
 #: every diagnostic code an engine may report (each has its sentence in ``harness.messages``)
 DIAGNOSTIC_CODES = (FLOATING_NODES, UNDAMPED_OSCILLATION, STATE_OVERFLOW, IMPULSE_DERIVATIVE,
@@ -424,6 +426,12 @@ class Solution(Protocol):
         unit, V or A) the engine can establish (its integration tolerance and modelling
         perturbation carried to the probe), or None."""
 
+    def refined_resolution(self, probe: Probe, k: int, name: str) -> float | None:
+        """Optional: the engine's resolution of field ``name`` (``peak`` or a ``Features``
+        value) of the probe in interval k (its unit), established by its own re-solve at
+        tighter tolerances (the change in the value, with a safety factor); None where not
+        established (``value_resolution`` then stands)."""
+
     def thevenin(self, k: int) -> Mapping[str, float | None] | None:
         """Optional: storage part -> the Thevenin resistance in ohm it sees in interval k
         (None where unbounded), for the diagnosis of a hand τ; or None."""
@@ -452,6 +460,9 @@ class NotComputed:
         return None
 
     def value_resolution(self, probe: Probe, k: int) -> float | None:
+        return None
+
+    def refined_resolution(self, probe: Probe, k: int, name: str) -> float | None:
         return None
 
     def thevenin(self, k: int) -> Mapping[str, float | None] | None:

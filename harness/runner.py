@@ -73,10 +73,12 @@ def _error_result(file: str, message: str, title: str = "",
 
 
 def check_file(path: str, numeric: bool = True, tolerance: float | None = None,
-               samples: dict | None = None) -> FileResult:
+               samples: dict | None = None, derivations: bool = True) -> FileResult:
     """Analyse one circuit file; never raises (faults become an ``error`` result).
     ``tolerance`` is the default for a file whose ``[settings]`` give none; ``samples`` maps an
-    expectation's index to its Monte Carlo summary computed elsewhere (``variation.shard``)."""
+    expectation's index to its Monte Carlo summary computed elsewhere (``variation.shard``);
+    ``derivations=False`` leaves out the worked derivations of mismatching checks (a courtesy
+    that changes no verdict, up to ``DERIVE_BUDGET`` s of symbolic work a file)."""
     from .circuitfile import read_circuit
 
     started = time.perf_counter()
@@ -86,7 +88,7 @@ def check_file(path: str, numeric: bool = True, tolerance: float | None = None,
         return _error_result(path, str(err.located(file=path)))
     try:
         with native_output_silenced():
-            return _analyse(path, circuit, numeric, started, samples)
+            return _analyse(path, circuit, numeric, started, samples, derivations)
     except InputError as err:
         return _error_result(path, str(err.located(file=path)), circuit.title, circuit.warnings)
     except SingularPencil:
@@ -115,7 +117,7 @@ def _singular_message(path: str, circuit) -> str:
 
 
 def _analyse(path: str, circuit, numeric: bool, started: float,
-             samples: dict | None = None) -> FileResult:
+             samples: dict | None = None, derivations: bool = True) -> FileResult:
     """Both engines, the trust guard, the cautions and the comparison of one read circuit."""
     from . import closedform
     from .compare import compare_file
@@ -146,7 +148,7 @@ def _analyse(path: str, circuit, numeric: bool, started: float,
         result = replace(result, spreads=spreads, checks=checks, cautions=cautions,
                          verdict=worst([result.verdict] + [s.verdict for s in spreads]),
                          seconds=time.perf_counter() - started)
-    return _with_derivations(circuit, exact, result)
+    return _with_derivations(circuit, exact, result) if derivations else result
 
 
 #: seconds of symbolic work spent on the derivations of one file's mismatching checks

@@ -26,8 +26,8 @@ def counting(monkeypatch):
     real = symmetric.decompose
     monkeypatch.setattr(symmetric, "MIN_SIZE", 0)      # small test circuits take the route too
 
-    def spy(g, c, null, c_rows=None):
-        dec = real(g, c, null, c_rows)
+    def spy(g, c, null, c_rows=None, zeros=None):
+        dec = real(g, c, null, c_rows, zeros)
         used.append(dec is not None)
         return dec
 
@@ -38,7 +38,8 @@ def counting(monkeypatch):
 def _general(circ, monkeypatch):
     """Solve with the symmetric route switched off."""
     with monkeypatch.context() as m:
-        m.setattr(response.symmetric, "decompose", lambda g, c, null, c_rows=None: None)
+        m.setattr(response.symmetric, "decompose",
+                  lambda g, c, null, c_rows=None, zeros=None: None)
         return solve(circ)
 
 
@@ -117,8 +118,8 @@ def test_larger_network_takes_the_route_by_default(monkeypatch):
     used = []
     real = symmetric.decompose
     monkeypatch.setattr(symmetric, "decompose",
-                        lambda g, c, null, c_rows=None: used.append(real(g, c, null, c_rows))
-                        or used[-1])
+                        lambda g, c, null, c_rows=None, zeros=None:
+                        used.append(real(g, c, null, c_rows, zeros)) or used[-1])
     circ, probes = _random_rc(99, n=40)
     _check_routes_agree(circ, probes[-12:], monkeypatch)
     assert used and all(d is not None for d in used)

@@ -50,7 +50,12 @@ Method (no time stepping; plain dense linear algebra).
    symmetric route A is diagonal and the clusters are index selections):
    the zero cluster (|lambda| <= 1e-10 s0: trapped charge or flux, part of x_inf; a rate below
    that but above its own rounding, re-read from the pencil on the general route and eigh's
-   on the symmetric one, is a slow real mode, resolved at a shift moved down to it), and clusters
+   on the symmetric one, is a slow real mode, resolved at a shift moved down to it; where the
+   circuit has no controlled part the exact number of zero modes comes from its graph,
+   ``nullity``: islands cut off from ground at DC plus loops of zero-resistance branches, and
+   a zero cluster larger than that holds slow modes below rounding (14-16 decades under the
+   fastest), looked for at the lowest shift that keeps the fastest finite and resolved at the
+   centre of both, the symmetric route handing them to the general one), and clusters
    of eigenvalues equal to tolerances.MODE_MERGE (identical modes merged; defective ones give
    polynomial x exponential terms).  Complex pairs report their envelope tau and frequency.
 6. Features (``features``, ``probes``).  Every probe is c.x + d.x' + a constant per interval.

@@ -218,14 +218,16 @@ class IntervalResponse(_Arrays):
         return x.real, dx.real
 
 
-def pencil_of(g: Kept, c: Kept, null: np.ndarray) -> Pencil:
+def pencil_of(g: Kept, c: Kept, null: np.ndarray, zeros: int | None = None) -> Pencil:
     """Decompose a non-augmented scaled pencil (SingularPencil if it is not regular): by the
     symmetric route where it applies (``symmetric``), else by the general one.  Where the
     matrices are kept sparse the symmetric route gets dense copies of its own, which it
-    releases before its eigenproblem (``c_rows``)."""
+    releases before its eigenproblem (``c_rows``).  ``zeros``: the number of exact zero modes
+    from the circuit's graph (``nullity.zero_modes``), or None where it is not known."""
     rows = c.rows if c.sparse is not None else None
-    dec = symmetric.decompose(g.dense(), c.dense(), null, c_rows=rows)
-    return Pencil(g, c, dec if dec is not None else decompose(g.dense(), c.dense(), null))
+    dec = symmetric.decompose(g.dense(), c.dense(), null, c_rows=rows, zeros=zeros)
+    return Pencil(g, c, dec if dec is not None else decompose(g.dense(), c.dense(), null,
+                                                              zeros=zeros))
 
 
 def _particular(pencil: Pencil, b: np.ndarray) -> tuple[np.ndarray, np.ndarray, bool]:

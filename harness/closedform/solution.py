@@ -24,6 +24,7 @@ from .stamps import layout_of, stamp, stamp_sources
 from .modes import UNDAMPED, Mode, mode_of
 from .probes import functional
 from .snapshot import undefined_before
+from .nullity import zero_modes
 from .response import IntervalResponse, Kept, Pencil, build, pencil_of
 from . import signoff
 from .conditioning import assess
@@ -384,8 +385,9 @@ def _pencil(circuit, layout, scale, null, closed, groups, cache, time) -> Pencil
         scaled(g, c, np.zeros(layout.size), layout, scale, overwrite=True)
         kept_g, kept_c = Kept(g), Kept(c)
         del g, c                        # a large pencil is kept sparse (``response.Kept``)
+        zeros = zero_modes(circuit, closed, [group[0] for group in groups])
         try:
-            cache[key] = pencil_of(kept_g, kept_c, null)
+            cache[key] = pencil_of(kept_g, kept_c, null, zeros)
         except SingularPencil:
             raise _singular(circuit, layout, kept_g.dense(), kept_c.dense(), time) from None
     return cache[key]

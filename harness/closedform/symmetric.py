@@ -326,9 +326,13 @@ def _zero_split(lam: np.ndarray, s0: float) -> tuple[float, float]:
 
 
 def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray,
-              c_rows=None) -> Decomposition | None:
+              c_rows=None, zeros: int | None = None) -> Decomposition | None:
     """The Decomposition of the scaled pencil (G~, C~) by the symmetric route, or None when it
     does not apply (see the module docstring); ``null`` is the orthonormal null basis of C~.
+    ``zeros``, where given, is the exact number of zero modes (``nullity.zero_modes``): more
+    rates than that within the zero tolerance are slow real modes below eigh's rounding of
+    the fastest (one 14 decades below it), which only the general route's shifts resolve, so
+    the answer is then None.
 
     ``c_rows(rows)``, where given, returns those rows of C~ as a sparse matrix: then R^T C~ is
     kept in that form for z0 (for unit-column bases) and g and c, this call's own copies, are
@@ -367,6 +371,8 @@ def decompose(g: np.ndarray, c: np.ndarray, null: np.ndarray,
     lam = -w
     s0, zero_tol = _zero_split(lam, _shift(lam))
     keep = _finite(lam, s0)
+    if zeros is not None and np.count_nonzero(np.abs(lam[keep]) <= zero_tol) > zeros:
+        return None
     if not keep.all():
         lam, v = lam[keep], v[:, keep]
     q1 = _right_basis(r, n0, h, v)

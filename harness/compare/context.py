@@ -163,15 +163,24 @@ class CheckContext:
         apart by more than the engines' tolerance, or "": they differ by less than the
         numerical engine's own resolution of the probe (``value_resolution``, the one
         comparison rule with that as its floor), a limit of that engine (the
-        ``below-resolution`` diagnostic's sentence)."""
+        ``below-resolution`` diagnostic's sentence).  Where that bound is the reason, the
+        engine's own re-solve at tighter tolerances (``refined_resolution``) narrows it: a
+        current through a capacitor across a source, bounded by 2.0 A, is then established
+        to ~10 nA, and a difference beyond that is a disagreement."""
         limit = None if self.numeric is None else self.numeric.value_resolution(self.probe,
                                                                                 self.k)
         if limit is None or closed is None or numeric is None \
                 or not tol.agree(closed, numeric, 0.0, limit):
             return ""
+        detail = f"{name} {unit}"
+        refined = self.numeric.refined_resolution(self.probe, self.k, name)
+        if refined is not None and refined < limit:
+            limit, detail = refined, f"{detail} re-solved"
+            if not tol.agree(closed, numeric, 0.0, limit):
+                return ""
         return text(Diagnostic(BELOW_RESOLUTION, self.circuit.events[self.k], self.k,
                                values=(("closed", closed), ("numeric", numeric),
-                                       ("resolution", limit)), detail=f"{name} {unit}"))
+                                       ("resolution", limit)), detail=detail))
 
     @property
     def unjudged(self) -> bool:

@@ -154,5 +154,8 @@ class Guarded:
     def value_resolution(self, probe: Probe, k: int) -> float | None:
         return self._inner.value_resolution(probe, k)
 
+    def refined_resolution(self, probe: Probe, k: int, name: str) -> float | None:
+        return self._inner.refined_resolution(probe, k, name)
+
     def thevenin(self, k: int) -> Mapping[str, float | None] | None:
         return self._inner.thevenin(k)

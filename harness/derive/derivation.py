@@ -24,6 +24,7 @@ from __future__ import annotations
 import math
 import signal
 import threading
+import time
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 
@@ -116,24 +117,52 @@ class OverBudget(BaseException):
         self.reason = reason
 
 
+#: seconds after which an expired deadline tries again where its first signal arrived in code
+#: that cannot pass an exception on (``deadline``)
+RETRY = 0.01
+
+
+def _unraisable(frame) -> bool:
+    """Whether ``frame`` or a caller of it runs a garbage-collector callback or a ``__del__``
+    method: Python prints an exception raised there as "unraisable" and drops it, so the work
+    would go on past its budget (a test tool's gc callback, a sympy object's finaliser)."""
+    import gc
+    codes = {getattr(cb, "__code__", None) for cb in gc.callbacks}
+    while frame is not None:
+        if frame.f_code in codes or frame.f_code.co_name == "__del__":
+            return True
+        frame = frame.f_back
+    return False
+
+
 @contextmanager
 def deadline(seconds: float):
     """Raise OverBudget("time …") after ``seconds`` (main thread only; elsewhere the size
-    budget alone bounds the work)."""
+    budget alone bounds the work).  A signal that arrives inside a garbage-collector callback
+    or a finaliser (``_unraisable``) is tried again ``RETRY`` s later instead; a timer already
+    running outside (a caller's own bound on the whole run) is restored on exit, less the time
+    spent inside."""
     if threading.current_thread() is not threading.main_thread() or seconds <= 0:
         yield
         return
 
     def expire(signum, frame):
+        if _unraisable(frame):
+            signal.setitimer(signal.ITIMER_REAL, RETRY)
+            return
         raise OverBudget(f"time {seconds:g} s")
 
     old = signal.signal(signal.SIGALRM, expire)
-    signal.setitimer(signal.ITIMER_REAL, seconds)
+    outer, _ = signal.setitimer(signal.ITIMER_REAL, seconds)
+    started = time.monotonic()
     try:
         yield
     finally:
         signal.setitimer(signal.ITIMER_REAL, 0)
         signal.signal(signal.SIGALRM, old)
+        if outer > 0:
+            signal.setitimer(signal.ITIMER_REAL,
+                             max(outer - (time.monotonic() - started), 1e-6))
 
 
 def derive(circuit: m.Circuit, solution, indices=None,

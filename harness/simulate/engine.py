@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 import time as _time
 from dataclasses import replace
+from functools import partial
 
 import numpy as np
 
@@ -28,6 +29,9 @@ ATOL_FRACTION = 1e-4
 #: likewise a node voltage is never asked to be more precise than CARRIER_NOISE * V
 #: (``_resistive_atol``)
 CARRIER_NOISE = 1e-14
+#: the factor on every tolerance (rtol, each atol and the floors above) of the re-solve that
+#: establishes the engine's resolution of a value (``NumericSolution.refined_resolution``)
+TIGHTER = 1e-2
 #: an interval's DC operating point is plausible up to this many times the largest magnitude
 #: the circuit's sources can drive in each kind of state (``_plausible``); beyond it the solve
 #: is taken to have found no equilibrium (a nearly singular system's rounding)
@@ -105,9 +109,10 @@ def _plausible(circuit: Circuit, lay, atol: np.ndarray, rtol: float, v_scale: fl
 
 
 def _carrier_floor(circuit: Circuit, lay, systems, atol: np.ndarray, v_scale: float,
-                   r_series: float) -> np.ndarray:
-    """atol with each carrier current raised to CARRIER_NOISE * |u| / r_s, |u| bounded by the
-    sum of its voltage coefficients times the (gain-scaled) voltage scale."""
+                   r_series: float, noise: float = CARRIER_NOISE) -> np.ndarray:
+    """atol with each carrier current raised to noise * |u| / r_s (``noise`` CARRIER_NOISE
+    unless tightened), |u| bounded by the sum of its voltage coefficients times the
+    (gain-scaled) voltage scale."""
     atol = atol.copy()
     nn = len(lay.nodes)
     v = v_scale * gain_factor(circuit)
@@ -115,14 +120,15 @@ def _carrier_floor(circuit: Circuit, lay, systems, atol: np.ndarray, v_scale: fl
     for name in lay.carriers:
         r = lay.part_index[name]
         weight = max(float(np.abs(sys_.K[[r], :nn].toarray()).sum()) for sys_ in systems)
-        atol[r] = max(atol[r], CARRIER_NOISE * max(weight, 1.0) * v / r_series)
+        atol[r] = max(atol[r], noise * max(weight, 1.0) * v / r_series)
     return atol
 
 
 def _resistive_atol(circuit: Circuit, lay, atol: np.ndarray, v_scale: float,
-                    i_atol: float) -> np.ndarray:
+                    i_atol: float, noise: float = CARRIER_NOISE) -> np.ndarray:
     """atol with each node voltage lowered to ``i_atol`` (A, the currents' absolute tolerance)
-    times the smallest resistance at the node, never below CARRIER_NOISE * V: the current
+    times the smallest resistance at the node, never below noise * V (``noise``
+    CARRIER_NOISE unless tightened): the current
     through that resistance, (v_a - v_b)/R, is then resolved like an inductor current.
     Without it a 40 uA current through a closed 1.18 mohm switch (48 nV across it) was
     integrated to atol = 5e-11 V, 1e-3 of its swing."""
@@ -137,7 +143,7 @@ def _resistive_atol(circuit: Circuit, lay, atol: np.ndarray, v_scale: float,
     for node, r in smallest.items():
         if node in lay.node_index:
             i = lay.node_index[node]
-            atol[i] = max(min(atol[i], i_atol * r), CARRIER_NOISE * v_scale)
+            atol[i] = max(min(atol[i], i_atol * r), noise * v_scale)
     return atol
 
 
@@ -352,13 +358,16 @@ def _march(circuit: Circuit, lay, systems, y0: np.ndarray, reg, rtol: float,
 
 
 def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
-          rtol: float | None = None) -> NumericSolution:
+          rtol: float | None = None, tighten: float = 1.0) -> NumericSolution:
     """Integrate the narrow-pulse model of ``circuit`` (see the package docstring).
 
     Args:
         circuit: the parsed circuit.
         pulse_ratio: eps, ratio of the regularising to the real time constants (default 1e-7).
         rtol: the integrator's relative tolerance (default: eps within RTOL_BOUNDS).
+        tighten: a factor on every tolerance (rtol, each atol, the CARRIER_NOISE floors); the
+            solution of the default 1 can re-solve itself at ``TIGHTER`` (its ``retry``), the
+            same model, for ``NumericSolution.refined_resolution``.
 
     Raises:
         InitialStateError: the state at 0- is undefined or contradicts the circuit.
@@ -367,6 +376,9 @@ def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
     started = _time.perf_counter()
     reg = choose(circuit, pulse_ratio, fastest=_fastest_real_mode(circuit))
     rtol = float(np.clip(reg.pulse_ratio, *RTOL_BOUNDS)) if rtol is None else float(rtol)
+    retry = partial(solve, circuit, pulse_ratio=pulse_ratio, rtol=rtol, tighten=TIGHTER) \
+        if tighten == 1.0 else None
+    rtol, noise = rtol * tighten, CARRIER_NOISE * tighten
     lay = layout(circuit)
     try:
         pre, systems = _build_all(circuit, lay, reg)
@@ -376,8 +388,9 @@ def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
     y0 = initial_state(circuit, lay, pre)
     v_scale, i_scale = _scales(circuit, lay, y0)
     atol = np.where(lay.volts, rtol * ATOL_FRACTION * v_scale, rtol * ATOL_FRACTION * i_scale)
-    atol = _resistive_atol(circuit, lay, atol, v_scale, rtol * ATOL_FRACTION * i_scale)
-    atol = _carrier_floor(circuit, lay, [pre] + list(systems), atol, v_scale, reg.r_series)
+    atol = _resistive_atol(circuit, lay, atol, v_scale, rtol * ATOL_FRACTION * i_scale, noise)
+    atol = _carrier_floor(circuit, lay, [pre] + list(systems), atol, v_scale, reg.r_series,
+                          noise)
     plausible = _plausible(circuit, lay, atol, rtol, v_scale, i_scale)
     runs, warnings = _march(circuit, lay, systems, y0, reg, rtol, atol, plausible)
     total = _time.perf_counter() - started
@@ -385,4 +398,4 @@ def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
     return NumericSolution(circuit=circuit, warnings=tuple(warnings), regularisation=reg,
                            layout=lay, pre=pre, systems=tuple(systems), y0=y0, runs=tuple(runs),
                            rtol=rtol, atol=atol, v_scale=v_scale, i_scale=i_scale,
-                           plausible=plausible, setup_seconds=total - stepping)
+                           plausible=plausible, setup_seconds=total - stepping, retry=retry)

@@ -15,6 +15,7 @@ v_p - v_n = V0 for held capacitors.
 from __future__ import annotations
 
 import numpy as np
+import scipy.linalg
 import scipy.sparse as sp
 
 from ..errors import InitialStateError
@@ -103,17 +104,21 @@ def _dc_matrix(circuit: Circuit, lay: Layout, pre: System):
     return A, rhs, held
 
 
+def _fixes_voltage(part: Part) -> bool:
+    """Whether ``part`` fixes its voltage at 0- (``_voltage_loop``)."""
+    fixes = KIND_SPECS[part.kind].voltage_branch
+    fixes |= part.kind == INDUCTOR and part.initial is None
+    fixes |= part.kind == CAPACITOR and part.initial is not None
+    fixes |= part.kind == SWITCH and part.is_closed_before(0.0) and not part.on_resistance
+    return bool(fixes)
+
+
 def _voltage_loop(circuit: Circuit) -> str | None:
     """A part that closes a loop of parts fixing voltages at 0- (voltage sources, vcvs, ccvs,
     closed switches without resistance, inductors without ``initial``, capacitors with it)."""
     parent: dict[str, str] = {}
     for part in circuit.parts:
-        fixes = KIND_SPECS[part.kind].voltage_branch
-        fixes |= part.kind == INDUCTOR and part.initial is None
-        fixes |= part.kind == CAPACITOR and part.initial is not None
-        fixes |= (part.kind == SWITCH and part.is_closed_before(0.0)
-                  and not part.on_resistance)
-        if not fixes:
+        if not _fixes_voltage(part):
             continue
         a, b = find_root(parent, part.p), find_root(parent, part.n)
         if a == b:
@@ -183,11 +188,61 @@ def _null_owner(circuit: Circuit, lay: Layout, A: sp.csc_matrix) -> Part | None:
     return next((p for p in circuit.parts if top in p.nodes or p.name == top), None)
 
 
-def _solve(A: sp.csc_matrix, rhs: np.ndarray, circuit: Circuit, lay: Layout) -> np.ndarray:
+#: the dropped equations of a singular DC system at 0- hold where their residual stays below
+#: this fraction of their terms (``_held_loops_at_rest``)
+CONSISTENT = 1e-9
+#: the free directions of a singular DC system are found densely up to this many unknowns
+DENSE_NULL_UP_TO = 2000
+
+
+def _held_loops_at_rest(A: sp.csc_matrix, rhs: np.ndarray, n: int,
+                        m: int) -> np.ndarray | None:
+    """The DC solution at rest of a system whose only free directions are currents circulating
+    through capacitors with ``initial`` (a loop of voltage-fixing parts, such as a source, two
+    capacitors and an ideal op-amp's output, whose voltages are all fixed): one such current
+    per free direction is set to 0 (the circuit at rest, ``loops``), as many equations the rest
+    implies leave the system, the square remainder is solved as usual (``linsolve.solve``) and
+    the equations left out must hold as well; else None.
+
+    The free directions (right null space) and the implied equations (left null space) come
+    from the SVD of the row-scaled dense matrix (scipy.linalg.null_space); which currents and
+    rows go, from QR with column pivoting of those bases (Golub & Van Loan, sec. 5.4.1)."""
+    if m == 0 or A.shape[0] > DENSE_NULL_UP_TO:
+        return None
+    dense = A.toarray()
+    rows = np.abs(dense).max(axis=1)
+    dense = dense / np.where(rows > 0.0, rows, 1.0)[:, None]
+    right, left = scipy.linalg.null_space(dense), scipy.linalg.null_space(dense.T)
+    f = right.shape[1]
+    if f == 0 or left.shape[1] != f:
+        return None
+    moved = right[n:n + m]
+    if np.linalg.matrix_rank(moved) < f:            # a direction no held capacitor carries
+        return None
+    cols = n + scipy.linalg.qr(moved.T, pivoting=True, mode="r")[1][:f]
+    drop = scipy.linalg.qr(left.T, pivoting=True, mode="r")[1][:f]
+    keep_c = np.setdiff1d(np.arange(A.shape[0]), cols)
+    keep_r = np.setdiff1d(np.arange(A.shape[0]), drop)
+    x = np.zeros(A.shape[0])
+    try:
+        x[keep_c] = linsolve.solve(A[keep_r][:, keep_c].tocsc(), rhs[keep_r])
+    except linsolve.Singular:
+        return None
+    dropped = A[drop]
+    resid = np.abs(dropped @ x - rhs[drop])
+    terms = abs(dropped) @ np.abs(x) + np.abs(rhs[drop])
+    return x if np.all(resid <= CONSISTENT * np.maximum(terms, 1e-300)) else None
+
+
+def _solve(A: sp.csc_matrix, rhs: np.ndarray, circuit: Circuit, lay: Layout,
+           held: list[Part] = ()) -> np.ndarray:
     try:
         return linsolve.solve(A, rhs)
     except linsolve.Singular:
         pass
+    rest = _held_loops_at_rest(A, rhs, lay.n, len(held))
+    if rest is not None:
+        return rest
     culprit = _voltage_loop(circuit)
     if culprit is not None:
         part = circuit.part(culprit)
@@ -256,7 +311,7 @@ def initial_state(circuit: Circuit, lay: Layout, pre: System) -> np.ndarray:
     """
     check_defined(circuit)
     A, rhs, held = _dc_matrix(circuit, lay, pre)
-    x = _solve(A, rhs, circuit, lay)
+    x = _solve(A, rhs, circuit, lay, held)
     y = x[:lay.n]
     i_scale = max([abs(circuit.part(nm).initial or 0.0) for nm in lay.inductors]
                   + [float(np.max(np.abs(y[~lay.volts]), initial=0.0)),
