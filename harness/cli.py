@@ -254,6 +254,7 @@ def _leave(code: int) -> None:
     if not _flushed():
         return
     run_handlers()
+    getattr(atexit, "_clear", lambda: None)()    # run once, even if the usual exit follows
     if _flushed():
         os._exit(code)
 
