@@ -27,7 +27,13 @@ run's tolerances are tightened until its error is at most the engine's:
 
 from __future__ import annotations
 
-import argparse
+import os
+
+# one BLAS thread, as the command line runs the engines (harness/cli.py): on shared cores a
+# second thread spin-waits and makes the engine's dense eigenvalue calls several times slower
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+
+import argparse  # noqa: E402
 import math
 import statistics
 import time
