@@ -70,10 +70,11 @@ SETTLE = 1e-11
 BLOW_UP = 1e9
 #: the pulse window is crossed in at least this many steps
 WINDOW_STEPS = 16
-#: a state not moving from its start has an absolute tolerance of at least this fraction of rtol
-#: times its largest deviation after the pulse (``_step_tolerances``): 1e-9 of the swing at the
-#: default rtol, at the probe noise floor (tolerances.PROBE_NOISE) and far below every
-#: tolerance a reported value is compared with
+#: the settling tail begins when every state's deviation is within this fraction of its largest
+#: deviation after the pulse; from then on a state's absolute tolerance is at least this fraction
+#: of rtol times that deviation (``_step_tolerances``): 1e-9 of the swing at the default rtol,
+#: at the probe noise floor (tolerances.PROBE_NOISE), far below every tolerance a reported
+#: value is compared with
 TAIL_FLOOR = 1e-2
 #: steps allowed in one run (up to the next event, or the settling continuation)
 MAX_STEPS = 50000
@@ -282,9 +283,12 @@ def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.nd
       to 1 V has |z| ~ 1 V and |y| ~ 0) gets rtol scaled by |y| / |z|, so its scale is
       atol + rtol |y|, as on the state itself; with |z| alone its error could reach rtol times
       the swing on a value still near 0;
-    * every other state gets an absolute tolerance of at least ``TAIL_FLOOR`` rtol times its
-      largest deviation after the pulse (``peak``), so that once the deviation has decayed far
-      below its swing the steps may grow instead of following it down to atol.
+    * once every state's deviation is within ``TAIL_FLOOR`` of its largest deviation after the
+      pulse (``peak``: the response has decayed into its settling tail), every state not moving
+      from its start gets an absolute tolerance of at least ``TAIL_FLOOR`` rtol times its peak,
+      so that the steps may grow instead of following the deviation down to atol.  (A floor
+      on single states before that loosened a node whose deviation passes through 0 while the
+      rest still moves, and its error grew 2x on a random network.)
 
     Radau reads ``rtol`` and ``atol`` at every step and takes them elementwise
     (scipy.integrate.Radau: scale = atol + max(|y|, |y_new|) rtol)."""
@@ -293,6 +297,8 @@ def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.nd
     moving = held < dev
     rel = np.full(z.shape, rtol)
     rel[moving] *= held[moving] / dev[moving]
+    if not np.all(dev <= TAIL_FLOOR * peak):
+        return rel, atol
     return rel, np.where(moving, atol, np.maximum(atol, TAIL_FLOOR * rtol * peak))
 
 
