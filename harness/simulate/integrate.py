@@ -273,6 +273,9 @@ def _solve_lu(factors, b: np.ndarray) -> np.ndarray:
     return x
 
 
+_TINY = np.finfo(float).tiny
+
+
 def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.ndarray,
                      peak: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """(rtol, atol) per state, shape (n_d,) each, for the next step from the deviation z.
@@ -295,8 +298,7 @@ def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.nd
     dev = np.abs(z)
     held = np.abs(origin + z)
     moving = held < dev
-    rel = np.full(z.shape, rtol)
-    rel[moving] *= held[moving] / dev[moving]
+    rel = rtol * np.where(moving, held / np.maximum(dev, _TINY), 1.0)
     if not np.all(dev <= TAIL_FLOOR * peak):
         return rel, atol
     return rel, np.where(moving, atol, np.maximum(atol, TAIL_FLOOR * rtol * peak))
