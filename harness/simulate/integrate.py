@@ -20,9 +20,10 @@ with two changes measured against the exact solution of RC networks
 |z|: a far node of a ladder just after the step, |z| ~ the swing while its value is ~0) is held
 to atol + rtol |origin + z|, as a tolerance on the state itself would hold it (on |z| alone its
 error in the first nanoseconds reached 3-18x a bare Radau's at the same tolerance, in the
-interpolation across steps that grew 100-fold right after the pulse window); every other state's
-absolute tolerance is at least ``TAIL_FLOOR`` rtol times its largest deviation after the pulse,
-so that in the settling tail the steps grow once the deviation is far below its swing.
+interpolation across steps that grew 100-fold right after the pulse window); and once every
+state's deviation is within ``TAIL_FLOOR`` of its largest after the pulse (the settling tail),
+a state's absolute tolerance is at least ``TAIL_FLOOR`` rtol times that largest deviation, so
+that the steps grow instead of following the deviation down to atol.
 
 The runs are:
 
