@@ -20,10 +20,10 @@ with two changes measured against the exact solution of RC networks
 |z|: a far node of a ladder just after the step, |z| ~ the swing while its value is ~0) is held
 to atol + rtol |origin + z|, as a tolerance on the state itself would hold it (on |z| alone its
 error in the first nanoseconds reached 3-18x a bare Radau's at the same tolerance, in the
-interpolation across steps that grew 100-fold right after the pulse window); and once every
-state's deviation is within ``TAIL_FLOOR`` of its largest after the pulse (the settling tail),
-a state's absolute tolerance is at least ``TAIL_FLOOR`` rtol times that largest deviation, so
-that the steps grow instead of following the deviation down to atol.
+interpolant of the first step after the pulse window, 1,500x longer than the window's); and
+once every state's deviation is within ``TAIL_FLOOR`` of its largest after the pulse (the
+settling tail), a state's absolute tolerance is at least ``TAIL_FLOOR`` rtol times that largest
+deviation, so that the steps grow instead of following the deviation down to atol.
 
 The runs are:
 
