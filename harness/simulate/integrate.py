@@ -399,15 +399,14 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
     z0 = red.integrated(y0) - origin
     settle = _Settle(lambda z: system.jac @ z + r, dynamic, atol / rtol, pulse_end, earliest)
     settle.add(0.0, z0)
-    acc = _Accumulator(z0)
+    acc, scaled = _Accumulator(z0), (origin, settle)
     # 1. the pulse and the post-pulse fit window, resolved with small first and bounded steps
     bound = window if length is None else min(window, length)
     # a pulse wider than the whole window (a part value at the edge of the accepted range)
     # starts with the window itself rather than a step Radau refuses
     first_step = min(first_step, bound) if first_step else first_step
     status = acc.add(*_run(system, r, z0, 0.0, bound, rtol, atol, settle, first_step=first_step,
-                           max_step=bound / WINDOW_STEPS, budget=acc.left(budget),
-                           scaled=(origin, settle)))
+                           max_step=bound / WINDOW_STEPS, budget=acc.left(budget), scaled=scaled))
     # 2. on to the next event
     status, y_next, settled = _to_next_event(system, r, origin, acc, settle, status, length,
                                              bound, rtol, atol, budget)
@@ -415,8 +414,7 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
     if status == "reached" and not settled:
         start = acc.s[-1]
         status = acc.add(*_run(system, r, acc.z[-1], start, max(horizon, 2.0 * start), rtol,
-                               atol, settle, budget=acc.left(budget),
-                               scaled=(origin, settle)))
+                               atol, settle, budget=acc.left(budget), scaled=scaled))
         settled = status == "settled"
         if status == "reached":
             status = "horizon"
