@@ -14,6 +14,17 @@ source through r_s has v - E ~ r_s i, so its current (v - E)/r_s computed from a
 carries an error of about 1e-16 |v| / r_s, which makes the step size stall long after the
 response has settled; relative to the origin that error decays with the response.
 
+The error scale of each step (``_step_tolerances``) is Radau's atol + rtol |z| on the deviation,
+with two changes measured against the exact solution of RC networks
+(tests/benchmarks/numeric_accuracy.py): a state still moving from its start (|origin + z| <
+|z|: a far node of a ladder just after the step, |z| ~ the swing while its value is ~0) is held
+to atol + rtol |origin + z|, as a tolerance on the state itself would hold it (on |z| alone its
+error in the first nanoseconds reached 3-18x a bare Radau's at the same tolerance, in the
+interpolant of the first step after the pulse window, 1,500x longer than the window's); and
+once every state's deviation is within ``TAIL_FLOOR`` of its largest after the pulse (the
+settling tail), a state's absolute tolerance is at least ``TAIL_FLOOR`` rtol times that largest
+deviation, so that the steps grow instead of following the deviation down to atol.
+
 The runs are:
 
 1. from the state at t_k- through the pulse and the post-pulse fit window, starting with a step
@@ -60,6 +71,12 @@ SETTLE = 1e-11
 BLOW_UP = 1e9
 #: the pulse window is crossed in at least this many steps
 WINDOW_STEPS = 16
+#: the settling tail begins when every state's deviation is within this fraction of its largest
+#: deviation after the pulse; from then on a state's absolute tolerance is at least this fraction
+#: of rtol times that deviation (``_step_tolerances``): 1e-9 of the swing at the default rtol,
+#: at the probe noise floor (tolerances.PROBE_NOISE), far below every tolerance a reported
+#: value is compared with
+TAIL_FLOOR = 1e-2
 #: steps allowed in one run (up to the next event, or the settling continuation)
 MAX_STEPS = 50000
 #: an operating point may hold this many times the magnitude of each state at the event
@@ -257,13 +274,47 @@ def _solve_lu(factors, b: np.ndarray) -> np.ndarray:
     return x
 
 
+_TINY = np.finfo(float).tiny
+
+
+def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.ndarray,
+                     peak: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(rtol, atol) per state, shape (n_d,) each, for the next step from the deviation z.
+
+    Radau's error scale, atol + rtol |z| on the deviation, is changed in two places:
+
+    * a state still moving from its start (|y| < |z|, y = origin + z: a node at 0 V stepping
+      to 1 V has |z| ~ 1 V and |y| ~ 0) gets rtol scaled by |y| / |z|, so its scale is
+      atol + rtol |y|, as on the state itself; with |z| alone its error could reach rtol times
+      the swing on a value still near 0;
+    * once every state's deviation is within ``TAIL_FLOOR`` of its largest deviation after the
+      pulse (``peak``: the response has decayed into its settling tail), every state not moving
+      from its start gets an absolute tolerance of at least ``TAIL_FLOOR`` rtol times its peak,
+      so that the steps may grow instead of following the deviation down to atol.  (A floor
+      on single states before that loosened a node whose deviation passes through 0 while the
+      rest still moves, and its error grew 2x on a random network.)
+
+    Radau reads ``rtol`` and ``atol`` at every step and takes them elementwise
+    (scipy.integrate.Radau: scale = atol + max(|y|, |y_new|) rtol)."""
+    dev = np.abs(z)
+    held = np.abs(origin + z)
+    moving = held < dev
+    rel = rtol * np.where(moving, held / np.maximum(dev, _TINY), 1.0)
+    if not np.all(dev <= TAIL_FLOOR * peak):
+        return rel, atol
+    return rel, np.where(moving, atol, np.maximum(atol, TAIL_FLOOR * rtol * peak))
+
+
 def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: float, rtol: float,
          atol: np.ndarray, settle: _Settle | None, first_step: float | None = None,
-         max_step: float = np.inf, budget: tuple[float, float] = (np.inf, np.inf)):
+         max_step: float = np.inf, budget: tuple[float, float] = (np.inf, np.inf),
+         scaled: tuple[np.ndarray, _Settle] | None = None):
     """Step Radau on z' = J z + r from s0 to s_bound; returns (s, z, interpolants, status, stats).
 
     ``budget`` = (steps, right-hand-side evaluations) this run may still use; past either the
-    status is ``budget``."""
+    status is ``budget``.  ``scaled`` = (the origin, shape (n_d,); the interval's settle
+    detector, whose ``scale`` is each state's largest deviation after the pulse so far): where
+    given, each step's tolerances are ``_step_tolerances`` of the state it starts from."""
     jac = system.jac
 
     def fun(_t, z):
@@ -287,6 +338,9 @@ def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: floa
             break
         try:  # an overflowing (e.g. unstable regularised) system: a failure, not a crash
             with np.errstate(all="ignore"):
+                if scaled is not None:
+                    solver.rtol, solver.atol = _step_tolerances(rtol, atol, scaled[0], solver.y,
+                                                                scaled[1].scale)
                 solver.step()
         except (ValueError, ArithmeticError, np.linalg.LinAlgError):
             status = "failed"
@@ -345,14 +399,14 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
     z0 = red.integrated(y0) - origin
     settle = _Settle(lambda z: system.jac @ z + r, dynamic, atol / rtol, pulse_end, earliest)
     settle.add(0.0, z0)
-    acc = _Accumulator(z0)
+    acc, scaled = _Accumulator(z0), (origin, settle)
     # 1. the pulse and the post-pulse fit window, resolved with small first and bounded steps
     bound = window if length is None else min(window, length)
     # a pulse wider than the whole window (a part value at the edge of the accepted range)
     # starts with the window itself rather than a step Radau refuses
     first_step = min(first_step, bound) if first_step else first_step
     status = acc.add(*_run(system, r, z0, 0.0, bound, rtol, atol, settle, first_step=first_step,
-                           max_step=bound / WINDOW_STEPS, budget=acc.left(budget)))
+                           max_step=bound / WINDOW_STEPS, budget=acc.left(budget), scaled=scaled))
     # 2. on to the next event
     status, y_next, settled = _to_next_event(system, r, origin, acc, settle, status, length,
                                              bound, rtol, atol, budget)
@@ -360,7 +414,7 @@ def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float 
     if status == "reached" and not settled:
         start = acc.s[-1]
         status = acc.add(*_run(system, r, acc.z[-1], start, max(horizon, 2.0 * start), rtol,
-                               atol, settle, budget=acc.left(budget)))
+                               atol, settle, budget=acc.left(budget), scaled=scaled))
         settled = status == "settled"
         if status == "reached":
             status = "horizon"
@@ -377,7 +431,7 @@ def _to_next_event(system: System, r: np.ndarray, origin: np.ndarray, acc: "_Acc
     y_next, settled = None, False
     if status == "reached" and length is not None and acc.s[-1] < length:
         status = acc.add(*_run(system, r, acc.z[-1], acc.s[-1], length, rtol, atol, None,
-                               budget=acc.left(budget)))
+                               budget=acc.left(budget), scaled=(origin, settle)))
     if status == "reached" and length is not None:
         red = system.reduction
         y_next = np.asarray(red.lift @ (origin + acc.z[-1])).ravel() + red.lift_c

@@ -16,10 +16,11 @@ run's tolerances are tightened until its error is at most the engine's:
   v(t) = v_inf - X diag(e^(-mu t)) X^T C v_inf, checked against ``scipy.linalg.expm`` of A at
   three times where the state is small enough for a dense expm (reported as ``ref_check``);
 * the error: the largest |v_k(t) - v_ref,k(t)| (V) over every capacitor node k on two grids,
-  each run read through its own dense output: "linear", 200 times up to the end of the
-  engine's span (the response a user reads), and "whole", those plus 200 logarithmic times
-  from 10 post-pulse widths (the first nanoseconds of the step, where the engine's tolerance,
-  applied to the ~1 V deviation from the final state, allows more absolute error);
+  each run read through its own dense output: "linear", ``GRID_POINTS`` times up to
+  ``SPAN_TAUS`` slowest time constants of the exact solution (the response a user reads; the
+  bare run integrates that span, the engine until its own settle test ends it), and "whole",
+  those plus ``GRID_POINTS`` logarithmic times from 10 post-pulse widths (the first
+  nanoseconds of the step, where a node still near 0 V is most sensitive to the error scale);
 * the search, per grid: rtol and atol scaled together by decades from the engine's own (1e-7
   and its node atol) until the bare error is at most the engine's, then three bisections of
   the log of the factor between the last decade that failed and the first that passed.
@@ -27,7 +28,13 @@ run's tolerances are tightened until its error is at most the engine's:
 
 from __future__ import annotations
 
-import argparse
+import os
+
+# one BLAS thread, as the command line runs the engines (harness/cli.py): on shared cores a
+# second thread spin-waits and makes the engine's dense eigenvalue calls several times slower
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+
+import argparse  # noqa: E402
 import math
 import statistics
 import time
@@ -90,9 +97,14 @@ def hand_network(circ):
     return jac, rhs, [names[i] for i in d], 0.5 * (gr + gr.T), cd, br
 
 
+#: the span of both grids and of the bare run, in slowest time constants of the exact solution
+#: (e^-30 ~ 1e-13: settled to the last digits the engine's own settle test asks for)
+SPAN_TAUS = 30.0
+
+
 def reference(gr, cd, br):
-    """v(t) for times t (s), shape (n, len(t)): the exact solution from rest (module
-    docstring)."""
+    """(v, span): v(t) for times t (s), shape (n, len(t)), the exact solution from rest (module
+    docstring); span = ``SPAN_TAUS`` times its slowest time constant (s)."""
     mu, x = la.eigh(gr, cd)
     v_inf = la.solve(gr, br)
     coef = x.T @ (cd @ v_inf)
@@ -100,7 +112,7 @@ def reference(gr, cd, br):
     def at(t):
         t = np.atleast_1d(t)
         return v_inf[:, None] - x @ (np.exp(-np.outer(mu, t)) * coef[:, None])
-    return at
+    return at, SPAN_TAUS / float(np.min(mu))
 
 
 def ref_check(at, jac, rhs, t_end: float) -> float:
@@ -117,11 +129,18 @@ def ref_check(at, jac, rhs, t_end: float) -> float:
     return worst
 
 
+#: times on each grid: both integrators' errors peak between their steps (the interpolant of a
+#: step is less accurate than its end), so a coarse grid samples the peaks by chance (200 times
+#: moved the largest error of one network 3x between two runs of nearly the same steps)
+GRID_POINTS = 1000
+
+
 def grids(t_first: float, t_end: float) -> dict[str, np.ndarray]:
-    """The two time grids (s): "linear", 200 times up to t_end, the first at t_end / 200; "whole",
-    those and 200 logarithmic times from t_first, sorted (the start of the step included)."""
-    lin = np.linspace(t_end / 200, t_end, 200)
-    log = np.geomspace(max(t_first, 1e-9 * t_end), t_end, 200)
+    """The two time grids (s): "linear", ``GRID_POINTS`` times up to t_end, the first at
+    t_end / GRID_POINTS; "whole", those and ``GRID_POINTS`` logarithmic times from t_first,
+    sorted (the start of the step included)."""
+    lin = np.linspace(t_end / GRID_POINTS, t_end, GRID_POINTS)
+    log = np.geomspace(max(t_first, 1e-9 * t_end), t_end, GRID_POINTS)
     return {"whole": np.unique(np.concatenate([lin[lin >= t_first], log])), "linear": lin}
 
 
@@ -189,9 +208,8 @@ def prepare(circ) -> dict:
     """Everything measured once (errors, the tolerance searches) for one circuit."""
     jac, rhs, names, gr, cd, br = hand_network(circ)
     sol = simulate.solve(circ)
-    t_end = sol.runs[0].end
+    at, t_end = reference(gr, cd, br)
     times = grids(10 * sol.regularisation.post_pulse, t_end)
-    at = reference(gr, cd, br)
     case = {"circuit": circ, "jac": jac, "rhs": rhs, "t_end": t_end, "times": times,
             "ref": {k: at(t) for k, t in times.items()}, "rtol": sol.rtol,
             "atol": _node_atol(sol, names), "sparse": sp.issparse(jac), "n": rhs.size,

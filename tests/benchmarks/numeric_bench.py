@@ -112,10 +112,11 @@ def section(quick: bool) -> tuple[str, dict]:
     text = ["### 2. Numerical engine vs a bare integrator", "",
             "`python -m tests.benchmarks.numeric_accuracy` (its docstring gives the method): "
             "the hand ODE of each circuit (capacitor-less nodes eliminated), Radau with its "
-            "analytic Jacobian (sparse under 20 % fill, else dense), the engine's span; errors "
-            "are the largest |v - v_ref| over every capacitor node against the exact solution "
-            "by the symmetric eigendecomposition of (G_r, C), on 200 linear times (\"linear\") "
-            "and those plus 200 logarithmic times from 10 pulse widths (\"whole\"); the bare "
+            "analytic Jacobian (sparse under 20 % fill, else dense), over 30 slowest time "
+            "constants of the exact solution; errors are the largest |v - v_ref| over every "
+            "capacitor node against that solution (the symmetric eigendecomposition of "
+            "(G_r, C)), on 1,000 linear times (\"linear\") and those plus 1,000 logarithmic "
+            "times from 10 pulse widths (\"whole\"); one BLAS thread; the bare "
             "tolerances (rtol 1e-7 and the engine's node atol, scaled together) are searched "
             "by decades and three bisections until its error is at most the engine's.  The "
             "four runs of a row alternate (5 repeats, 3 at 1000 sections; medians).", "",
