@@ -18,8 +18,10 @@ corner's value is taken only where the file's own search ends on that corner
 (``variation.shard``): the result is the bytes of a local run.
 
 Files are handed out heaviest first (``_heaviest_first``).  A ``local:N`` cluster's workers are
-forked from this process once it has imported the engines (``_local_settings``), and the
-cluster starts on a thread while the files are read and planned (``_connect``).
+forked from this process once it has imported the engines (``_local_settings``), the cluster
+starts on a thread while the files are read and planned (``_connect``, with the garbage
+collector paused: ``_collector_paused``), and files are handed out as soon as its scheduler
+runs, to the first worker that joins (``_start``).
 
 Faults, as in a local run:
 
@@ -33,7 +35,8 @@ Faults, as in a local run:
   ``_stop_workers``) and becomes "timed out after N s";
 * SIGINT (``KeyboardInterrupt``) or SIGTERM (``pool.Interrupted``): every future is cancelled and
   ``runner.RunInterrupted`` carries the results that finished;
-* a scheduler that does not answer within ``CONNECT_TIMEOUT`` s: ``ClusterUnreachable``.
+* a scheduler that does not answer within ``CONNECT_TIMEOUT`` s, or a ``local:N`` cluster none
+  of whose workers joins within ``WORKER_START_TIMEOUT`` s: ``ClusterUnreachable``.
 
 ``distributed`` is imported only here, and this module only when a cluster is asked for.
 """
@@ -53,6 +56,9 @@ from .runner import (RunInterrupted, RunOptions, _bar, _check_task, _done, _erro
 
 #: seconds to wait for a scheduler before giving up on it
 CONNECT_TIMEOUT = 5.0
+#: seconds a ``local:N`` cluster's workers may take to start (they join while the files are
+#: handed out; over a second at a load average of 10 on 2 cores)
+WORKER_START_TIMEOUT = 60.0
 #: times a file may kill its worker on a ``local:N`` cluster before it becomes an error
 LOCAL_ALLOWED_FAILURES = 2
 #: how often (s) the client looks for finished futures and expired deadlines
@@ -64,9 +70,9 @@ LOCAL = "local:"
 class ClusterUnreachable(Exception):
     """The scheduler at ``address`` could not be reached (or a ``local:N`` cluster started)."""
 
-    def __init__(self, address: str, why: str) -> None:
+    def __init__(self, address: str, why: str, within: float = CONNECT_TIMEOUT) -> None:
         super().__init__(f"cannot reach the cluster scheduler at {address} within "
-                         f"{CONNECT_TIMEOUT:g} s: {why}")
+                         f"{within:g} s: {why}")
         self.address = address
 
 
@@ -224,22 +230,34 @@ def _collector_paused():
 
 def _start(address: str, numeric: bool):
     """(client, cluster or None): a client of ``address``, with the ``local:N`` cluster it
-    names started first (its workers run ``dask_setup`` of this module as they start); the
-    workers of a scheduler started elsewhere import the engines now, before their first file
-    (whose time limit would otherwise include the imports)."""
+    names started first; the workers of a scheduler started elsewhere import the engines now,
+    before their first file (whose time limit would otherwise include the imports).
+
+    A ``local:N`` cluster returns as soon as its scheduler runs and the client is connected:
+    its N workers are asked for then (``scale``) and join while the files are handed out
+    (each runs ``dask_setup`` of this module as it starts), and a file goes to the first
+    worker that joins.  Waiting for them here cost the wait for the last one, and Dask's
+    nanny notices its worker is up by looking every 50 ms (``WorkerProcess``), whereas the
+    scheduler hands a joining worker its files at once (tests/benchmarks/RESULTS.md).  That
+    a worker does join is checked by ``_Run.joined``."""
     from distributed import Client, LocalCluster
 
     cluster = None
     try:
         if address.startswith(LOCAL):
             _versions_read()
+            count = int(address[len(LOCAL):])
             # no dashboard; the scheduler's own HTTP server (health, metrics) on a free port,
-            # not Dask's 8787, which another cluster may hold (Dask then warns)
-            cluster = LocalCluster(n_workers=int(address[len(LOCAL):]), threads_per_worker=1,
+            # not Dask's 8787, which another cluster may hold (Dask then warns); each worker's
+            # memory limit its share of the machine's, as Dask sets it for N workers started
+            # with the cluster (a fraction of the total, ``parse_memory_limit``)
+            cluster = LocalCluster(n_workers=0, threads_per_worker=1, memory_limit=1 / count,
                                    processes=True, dashboard_address=None,
                                    scheduler_kwargs={"dashboard_address": ":0"},
                                    silence_logs=logging.CRITICAL, preload=[__name__])
-            return Client(cluster, timeout=CONNECT_TIMEOUT), cluster
+            client = Client(cluster, timeout=CONNECT_TIMEOUT)
+            cluster.scale(count)
+            return client, cluster
         client = Client(address, timeout=CONNECT_TIMEOUT)
     except (OSError, TimeoutError) as err:
         if cluster is not None:
@@ -316,7 +334,7 @@ def _gather(client, files: list[str], options: RunOptions, missing: list[FileRes
     try:
         while len(run.done) < len(files):
             run.hand_out()
-            if not run.collect(block=not run.limit):
+            if not run.collect(block=not run.limit and run.joined()):
                 run.expire()
                 time.sleep(_POLL)
         _second_chance(client, files, run.done, options, work)
@@ -349,6 +367,16 @@ class _Run:
         self.client, self.files, self.options, self.work = client, files, options, work
         self.bar = _bar(files, options)
         self.limit = options.timeout
+        local = getattr(client, "cluster", None)          # a ``local:N`` cluster started here
+        self.joining = f"{LOCAL}{len(local.worker_spec)}" if local is not None else None
+        self.began = time.monotonic()
+        if self.limit and self.joining:
+            # a file's clock starts when it is handed out: only once every worker has joined
+            try:
+                client.wait_for_workers(len(local.worker_spec), timeout=WORKER_START_TIMEOUT)
+            except TimeoutError:
+                raise ClusterUnreachable(self.joining, "its workers did not start",
+                                         WORKER_START_TIMEOUT) from None
         # with a limit, tasks are handed out no faster than the cluster has threads
         self.window = max(1, sum(client.nthreads().values())) if self.limit else None
         self.done: dict[int, FileResult] = {}
@@ -357,6 +385,19 @@ class _Run:
         self.pending = _heaviest_first(files, plans)
         # results are fetched by the client's event loop as the files finish
         self.finished = as_completed(with_results=True, raise_errors=False)
+
+    def joined(self) -> bool:
+        """Whether the client may sleep until a result arrives: once a worker of a local
+        cluster has joined (a remote scheduler's workers may come later, and the run waits
+        for them).  Raises ClusterUnreachable when none of a local cluster's workers has
+        joined within ``WORKER_START_TIMEOUT`` s of the start (a worker that cannot start must
+        not leave the run waiting for ever)."""
+        if self.joining and (self.done or self.client.nthreads()):
+            self.joining = None
+        elif self.joining and time.monotonic() > self.began + WORKER_START_TIMEOUT:
+            raise ClusterUnreachable(self.joining, "no worker process started",
+                                     WORKER_START_TIMEOUT)
+        return not self.joining
 
     def hand_out(self) -> None:
         """Submit waiting files while the window allows (a file counts its pieces too; one

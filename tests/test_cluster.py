@@ -125,6 +125,7 @@ def test_workers_forked_after_a_large_result_still_move_large_values():
     large value (its offload thread running) must not inherit a pool without its thread."""
     with cluster._connect("local:2", True) as started:
         client = started()
+        client.wait_for_workers(2)      # they join while the client goes on (``_start``)
         assert client.submit(_large, LARGE, pure=False).result().size == LARGE
         client.restart_workers(list(client.nthreads()))
         first, second = sorted(client.nthreads())
@@ -287,3 +288,20 @@ def test_the_local_settings_are_dask_settings():
     missing = object()
     for key in cluster._local_settings():
         assert dask.config.get(key, default=missing) is not missing, key
+
+
+def _broken_setup(worker=None) -> None:
+    import os
+    os._exit(3)     # the worker process ends as it starts
+
+
+def test_a_local_cluster_whose_workers_cannot_start_is_unreachable(tmp_path, monkeypatch):
+    """Workers are asked for but not awaited (files flow to the first that joins): when none
+    can start, the run ends with ClusterUnreachable after the bound instead of waiting."""
+    _few_files(tmp_path, "f3")
+    monkeypatch.setattr(cluster, "dask_setup", _broken_setup)   # forked workers inherit it
+    monkeypatch.setattr(cluster, "WORKER_START_TIMEOUT", 3.0)
+    started = time.monotonic()
+    with pytest.raises(cluster.ClusterUnreachable, match="local:2 within 3 s"):
+        cluster.run([str(tmp_path)], RunOptions(numeric=False), "local:2", work=_plain)
+    assert time.monotonic() - started < 3.0 + 30
