@@ -305,3 +305,36 @@ def test_a_local_cluster_whose_workers_cannot_start_is_unreachable(tmp_path, mon
     with pytest.raises(cluster.ClusterUnreachable, match="local:2 within 3 s"):
         cluster.run([str(tmp_path)], RunOptions(numeric=False), "local:2", work=_plain)
     assert time.monotonic() - started < 3.0 + 30
+
+
+def _pid_noted(path, numeric, tolerance):  # shipped by value: the workers run this
+    import os
+    from pathlib import Path as P
+    from harness.runner import check_file
+    (P(path).parent / "pids" / str(os.getpid())).touch()
+    return check_file(path, numeric)
+
+
+def _alive(pid: int) -> bool:
+    """Whether process ``pid`` runs (a zombie, ended and waiting to be reaped, does not)."""
+    try:
+        with open(f"/proc/{pid}/stat", encoding="ascii") as handle:
+            return handle.read().rsplit(")", 1)[1].split()[0] != "Z"
+    except FileNotFoundError:
+        return False
+
+
+@pytest.mark.skipif(not Path("/proc").is_dir(), reason="reads /proc")
+def test_no_worker_outlives_the_run(tmp_path):
+    """The cluster is closed on a thread of its own once the results are in hand: its workers
+    are gone soon after, and a command that exits does not wait for them to linger."""
+    (tmp_path / "pids").mkdir()
+    _few_files(tmp_path, "f3")
+    result = cluster.run([str(tmp_path)], RunOptions(numeric=False), "local:2", work=_pid_noted)
+    assert [f.verdict for f in result.files] == ["pass"] * 4
+    pids = [int(p.name) for p in (tmp_path / "pids").iterdir()]
+    assert pids
+    deadline = time.monotonic() + 30
+    while any(_alive(pid) for pid in pids) and time.monotonic() < deadline:
+        time.sleep(0.05)
+    assert not [pid for pid in pids if _alive(pid)]

@@ -4,7 +4,7 @@
 * the library: ``tauproof check circuits/library --no-report`` with ``--jobs 1``, ``--jobs 2``
   and ``--cluster local:2``, ``local:2`` as it ran before this round (``as_before``: Dask
   imported and the cluster started with the collector on, the start waiting for every
-  worker), and ``local:2`` with each worker holding only the file it runs and Dask's memory
+  worker, the close waited for), and ``local:2`` with each worker holding only the file it runs and Dask's memory
   and system monitors at their defaults (``_ONE_HELD``, an earlier before), interleaved,
   medians of the wall time and of the CPU time of every process of the run (the command and
   the workers it waited for);
@@ -60,9 +60,10 @@ def load() -> float:
 
 
 def as_before() -> None:
-    """``--cluster local:N`` as it ran before the collector was paused and the workers were
-    no longer awaited: Dask imported and the cluster started with the collector on, and the
-    cluster's start waiting for all N workers (the nannies' 50-ms look included)."""
+    """``--cluster local:N`` as it ran before the collector was paused, the workers were no
+    longer awaited and the close moved behind: Dask imported and the cluster started with the
+    collector on, the cluster's start waiting for all N workers (the nannies' 50-ms look
+    included), the client waiting for the close."""
     import logging
     from harness import cluster
 
@@ -79,8 +80,12 @@ def as_before() -> None:
                              silence_logs=logging.CRITICAL, preload=["harness.cluster"])
         return Client(local, timeout=cluster.CONNECT_TIMEOUT), local
 
+    def close_now(starter, client, local) -> None:
+        cluster._close(client, local)
+
     cluster._collector_paused = collector_on
     cluster._start = waited
+    cluster._close_behind = close_now
 
 
 #: ``tauproof check`` (the console command, ``harness.cli.command``) as ``as_before`` runs it
@@ -156,7 +161,7 @@ def pool_costs() -> dict:
 #: imported as the console command imports them (``cli._import_engines``), then Dask's import,
 #: the start until a no-op task's result is back (files flowing), and the stop
 _FIXED = """
-import json, sys, time
+import gc, json, sys, time
 import harness.cli
 from harness import cluster
 harness.cli._import_engines()
@@ -173,18 +178,25 @@ with cluster._connect("local:2", True) as ready:
     started = time.perf_counter() - began
     began = time.perf_counter()
 stopped = time.perf_counter() - began
-print(json.dumps({"import": imported, "start": started, "stop": stopped}))
+print(json.dumps({"import": imported, "start": started, "stop": stopped, "ended": began}),
+      flush=True)
+gc.freeze()                 # as the console command leaves (``harness.cli.command``)
 """
 
 
 def fixed_costs(way: str) -> dict:
     """Seconds to import Dask's client (the engines already imported), to start a local cluster
-    of 2 workers until a first task's result is back, and to stop it; ``way`` "before"
-    (``as_before``) or "now"; in a fresh process."""
+    of 2 workers until a first task's result is back, to stop it (the client's wait), and from
+    the results in hand to the process's end (``exit``: the stop wherever it is waited for,
+    and the interpreter's exit); ``way`` "before" (``as_before``) or "now"; in a fresh
+    process (``time.perf_counter`` is the system's monotonic clock, one for both processes)."""
     import json
     out = subprocess.run([sys.executable, "-c", _FIXED, way], capture_output=True, text=True,
                          check=True).stdout
-    return json.loads(out.strip().splitlines()[-1])
+    ended = time.perf_counter()
+    got = json.loads(out.strip().splitlines()[-1])
+    got["exit"] = ended - got.pop("ended")
+    return got
 
 
 #: fresh processes per way for the fixed costs (each under a second)
@@ -450,9 +462,10 @@ def exact_per_sample(count: int = 32) -> float:
 
 def expected(walls: dict, files: int, pool: dict, fixed: dict, per_task: float) -> float:
     """``--jobs 1`` / the wall ``local:2`` is expected to take: ``--jobs 2``'s plus what the
-    cluster costs beyond the pool (import, start, stop; overhead per task, half of the files
-    on each worker)."""
-    extra = fixed["import"] + fixed["start"] + fixed["stop"] - pool["startup"] + \
+    cluster costs beyond the pool (import, start, the end from the results in hand to the
+    process's exit, which holds the stop and the interpreter's exit, the latter a local run's
+    too; overhead per task, half of the files on each worker)."""
+    extra = fixed["import"] + fixed["start"] + fixed["exit"] - pool["startup"] + \
         (per_task - pool["per_task"]) * files / 2
     return walls["jobs 1"] / (walls["jobs 2"] + extra)
 
@@ -489,7 +502,7 @@ def main() -> None:
     task = dask_per_task()
     print(f"local cluster fixed costs, before / now (s, medians of {FIXED_RUNS}): " + "; ".join(
         f"{what} {fixed['before'][what]:.3f} / {fixed['now'][what]:.3f}"
-        for what in ("import", "start", "stop")) + f"; pool start-up {pool['startup']:.2f}; "
+        for what in ("import", "start", "stop", "exit")) + f"; pool start-up {pool['startup']:.2f}; "
         f"load average {before:.1f}")
     print(f"overhead per task: pool {pool['per_task'] * 1e3:.2f} ms, local cluster "
           f"{task['before'] * 1e3:.2f} ms before / {task['now'] * 1e3:.2f} ms now")
