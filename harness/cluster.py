@@ -8,11 +8,10 @@ the workers read the file themselves, so the file must be reachable at the same 
 worker (a relative path is read from the worker's working folder).
 
 A file whose Monte Carlo spans more than one piece (``variation.shard.plan``, read on the
-client) also gets a task per piece (``_piece``: samples [start, stop) of one expectation), and,
-when the numerical engine runs, a task searching its extreme corners from the box alone
-(``_corners``) and one per corner running the engine there (``_corner_value``); its own task
-waits for them and is handed the pieces' streamed summaries and the corners' values
-(``_joined``), so one heavy file spreads over the workers.  The samples do not depend on the
+client) also gets a task per piece, and, when the numerical engine runs, a task searching its
+extreme corners and one per corner running the engine there (``clusterparts``); its own task
+waits for them and is handed the pieces' summaries and the corners' values, so one heavy file
+spreads over the workers.  The samples do not depend on the
 split, a local run merges the same pieces in the same order (``variation.sampling``), and a
 corner's value is taken only where the file's own search ends on that corner
 (``variation.shard``): the result is the bytes of a local run.
@@ -49,10 +48,11 @@ import time
 from dataclasses import dataclass, field
 from typing import Callable, Iterable
 
+from . import clusterparts
 from .outcome import FileResult, RunResult
 from .pool import Interrupted
 from .runner import (RunInterrupted, RunOptions, _bar, _check_task, _done, _error_result,
-                     _preload, collect, native_output_silenced)
+                     _preload, collect)
 
 #: seconds to wait for a scheduler before giving up on it
 CONNECT_TIMEOUT = 5.0
@@ -104,7 +104,7 @@ def run(paths: Iterable[str], options: RunOptions, address: str,
     """
     files, missing = collect(paths)
     with _quiet_logs(), _connect(address, options.numeric) as started:
-        plans = [_plan(f, options.tolerance, options.numeric) for f in files]
+        plans = [clusterparts.plan(f, options.tolerance, options.numeric) for f in files]
         results = _gather(started(), files, options, missing, work, plans)
     return RunResult(files=tuple(missing) + tuple(results))
 
@@ -286,12 +286,12 @@ def _close_behind(starter, client, cluster) -> None:
 
 def _close(client, cluster) -> None:
     """The client, then the ``local:N`` cluster it started (nothing runs on it any more: the
-    results are in hand).  Run on the connecting thread (``_close_behind``) while the caller goes on to write the
-    run's outcome and reports (the close took 0.03 s on a quiet machine): the interpreter
-    waits for that thread before it exits (``concurrent.futures`` joins its threads ahead of
-    the ``atexit`` handlers, Dask's own close of a cluster left open among them), and a
-    local worker dies with this process in any case (``dask_setup``); a test checks that no
-    worker outlives the run."""
+    results are in hand).  Run on the connecting thread (``_close_behind``) while the caller
+    goes on to write the run's outcome and reports (the close took 0.03 s on a quiet
+    machine): the interpreter waits for that thread before it exits (``concurrent.futures``
+    joins its threads ahead of the ``atexit`` handlers, Dask's own close of a cluster left
+    open among them), and a local worker dies with this process in any case
+    (``dask_setup``); a test checks that no worker outlives the run."""
     client.close()
     if cluster is not None:
         cluster.close()
@@ -340,9 +340,9 @@ def _fresh_offload_thread() -> None:
 def _gather(client, files: list[str], options: RunOptions, missing: list[FileResult],
             work: Callable, plans: list[dict] | None = None) -> list[FileResult]:
     """Submit the files, collect their results as they finish (progress, deadlines).
-    ``plans``: each file's Monte Carlo pieces (``_plan``; read here when not given)."""
+    ``plans``: each file's Monte Carlo pieces (``clusterparts.plan``; read here when not given)."""
     if plans is None:
-        plans = [_plan(f, options.tolerance, options.numeric) for f in files]
+        plans = [clusterparts.plan(f, options.tolerance, options.numeric) for f in files]
     run = _Run(client, files, options, work, plans)
     try:
         while len(run.done) < len(files):
@@ -430,15 +430,17 @@ class _Run:
             load += cost
 
     def _submit(self, path: str, plan: dict):
-        """The file's task; when it has a plan, after the tasks of its parts (``_parts``), all
-        ahead of plain files so a heavy file starts early.  (future, its parts' futures)."""
+        """The file's task; when it has a plan, after the tasks of its parts
+        (``clusterparts``), all ahead of plain files so a heavy file starts early.  (future,
+        its parts' futures)."""
         opts = self.options
         if not plan:
             return self.client.submit(self.work, path, opts.numeric, opts.tolerance,
                                       pure=False), []
-        given, values, parts = _parts(self.client, path, opts.tolerance, plan)
-        future = self.client.submit(_joined, self.work, path, opts.numeric, opts.tolerance,
-                                    given, values, pure=False, priority=1)
+        given, values, parts = clusterparts.submit_parts(self.client, path, opts.tolerance,
+                                                         plan)
+        future = self.client.submit(clusterparts.joined, self.work, path, opts.numeric,
+                                    opts.tolerance, given, values, pure=False, priority=1)
         return future, parts
 
     def collect(self, block: bool = False) -> bool:
@@ -531,104 +533,6 @@ def _heaviest_first(files: list[str], plans: list[dict]) -> list[int]:
 
     return sorted(range(len(files)),
                   key=lambda i: (-sum(split.tasks for split in plans[i].values()), -size(i)))
-
-
-@dataclass(frozen=True)
-class _Split:
-    """How one expectation's spread analysis is spread: its Monte Carlo pieces' sample ranges
-    and the number of extreme corners the numerical engine is run at apart."""
-
-    ranges: list
-    corners: int
-
-    @property
-    def tasks(self) -> int:
-        """Its tasks: a piece each, and the corner search and a task per corner."""
-        return len(self.ranges) + (1 + self.corners if self.corners else 0)
-
-
-def _plan(path: str, tolerance: float | None, numeric: bool) -> dict:
-    """Expectation index -> ``_Split``, read here on the client: the expectations whose Monte
-    Carlo spans more than one piece (``variation.shard.plan``), with their corners
-    (``shard.corner_count``) when the numerical engine runs; none for a file without spec
-    limits, or one that cannot be read here (its task says why)."""
-    try:
-        with open(path, "rb") as handle:
-            if b"spec" not in handle.read():
-                return {}
-        from .circuitfile import read_circuit
-        from .variation import shard
-        circuit = read_circuit(path, tolerance)
-        return {index: _Split(ranges, shard.corner_count(circuit, index) if numeric else 0)
-                for index, ranges in shard.plan(circuit).items()}
-    except Exception:  # planning only spreads the work; the file's own task reports faults
-        return {}
-
-
-def _parts(client, path: str, tolerance: float | None, plan: dict):
-    """Submit the parts of a file's spread analysis: per expectation, the search of its
-    corners from the box alone (first), its Monte Carlo pieces, then the numerical engine at
-    each corner (``variation.shard``).  Returns (index -> the pieces' futures, index -> the
-    corner values' futures, every part's future)."""
-    given, values, parts = {}, {}, []
-    for index, split in plan.items():
-        found = client.submit(_corners, path, tolerance, index, pure=False, priority=2) \
-            if split.corners else None
-        given[index] = [client.submit(_piece, path, tolerance, index, a, b, pure=False,
-                                      priority=1) for a, b in split.ranges]
-        values[index] = [client.submit(_corner_value, path, tolerance, index, found, k,
-                                       pure=False, priority=1) for k in range(split.corners)]
-        parts += ([found] if found is not None else []) + given[index] + values[index]
-    return given, values, parts
-
-
-def _piece(path: str, tolerance: float | None, index: int, start: int, stop: int):
-    """A worker's task: the streamed summary of samples [start, stop) of expectation ``index``
-    of the file (``variation.shard.summary``, a ``sampling.Accumulator``)."""
-    from .circuitfile import read_circuit
-    from .variation import shard
-    circuit = read_circuit(path, tolerance)
-    with native_output_silenced():
-        return shard.summary(circuit, index, start, stop)
-
-
-def _corners(path: str, tolerance: float | None, index: int) -> list:
-    """A worker's task: where the extreme search of expectation ``index`` ends from the box
-    alone (``variation.shard.corners``); none when that fails (the values are only taken
-    where the file's own analysis ends on the same corners)."""
-    from .circuitfile import read_circuit
-    from .variation import shard
-    try:
-        with native_output_silenced():
-            return shard.corners(read_circuit(path, tolerance), index)
-    except Exception:
-        return []
-
-
-def _corner_value(path: str, tolerance: float | None, index: int, found: list, k: int):
-    """A worker's task: the numerical engine at corner ``k`` of ``found`` (``_corners``'s
-    result, put in place of its future by Dask): ``shard.corner_value``, or None."""
-    from .circuitfile import read_circuit
-    from .variation import shard
-    if k >= len(found):
-        return None
-    try:
-        with native_output_silenced():
-            return shard.corner_value(read_circuit(path, tolerance), index, *found[k])
-    except Exception:
-        return None
-
-
-def _joined(work: Callable, path: str, numeric: bool, tolerance: float | None, given: dict,
-            values: dict):
-    """A worker's task: the file's analysis with its Monte Carlo taken from its pieces and the
-    numerical engine's corner values from their tasks (``given`` / ``values``: expectation
-    index -> the parts' results in order, Dask having put each result in place of its
-    future)."""
-    from .variation import shard
-    samples = {index: shard.evaluated(given.get(index), values.get(index, ()))
-               for index in given}
-    return work(path, numeric, tolerance, samples=samples)
 
 
 def _second_chance(client, files: list[str], done: dict, options: RunOptions,

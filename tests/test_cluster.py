@@ -17,7 +17,7 @@ import pytest
 
 pytest.importorskip("distributed")
 
-from harness import cluster  # noqa: E402
+from harness import cluster, clusterparts  # noqa: E402
 from harness.circuitfile import read_circuit  # noqa: E402
 from harness.cli import main  # noqa: E402
 from harness.report.jsonout import document  # noqa: E402
@@ -97,7 +97,7 @@ def test_a_worker_dying_on_a_piece_costs_the_file_nothing(tmp_path, monkeypatch,
             os._exit(3)
         return pieces.summary(read(path, tolerance), index, start, stop)
 
-    monkeypatch.setattr(cluster, "_piece", dying_piece)
+    monkeypatch.setattr(clusterparts, "piece", dying_piece)
     result = cluster.run([str(tmp_path)], RunOptions(), "local:2")
     tried = sorted(p.name.split("-")[0] for p in marks.iterdir())
     assert tried.count("262144") == cluster.LOCAL_ALLOWED_FAILURES + 1, tried

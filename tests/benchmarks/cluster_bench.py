@@ -4,8 +4,9 @@
 * the library: ``tauproof check circuits/library --no-report`` with ``--jobs 1``, ``--jobs 2``
   and ``--cluster local:2``, ``local:2`` as it ran before this round (``as_before``: Dask
   imported and the cluster started with the collector on, the start waiting for every
-  worker, the close waited for), and ``local:2`` with each worker holding only the file it runs and Dask's memory
-  and system monitors at their defaults (``_ONE_HELD``, an earlier before), interleaved,
+  worker, the close waited for), and ``local:2`` with each worker holding only the file it
+  runs and Dask's memory and system monitors at their defaults (``_ONE_HELD``, an earlier
+  before), interleaved,
   medians of the wall time and of the CPU time of every process of the run (the command and
   the workers it waited for);
 * what a running ``local:2`` cluster costs beside its tasks, as it runs now and as ``_ONE_HELD``
@@ -393,7 +394,7 @@ def monte_carlo(repeats: int) -> dict:
     excluded), with the corners' engine runs in tasks of their own ("now") and in the file's
     own task ("before": the plan without corners), interleaved; what its parts cost here."""
     from dataclasses import replace
-    from harness import cluster
+    from harness import cluster, clusterparts
     from harness.circuitfile import read_circuit
     from harness.runner import RunOptions, _check_task, check_file
     from harness.variation import shard
@@ -408,7 +409,7 @@ def monte_carlo(repeats: int) -> dict:
         whole = check_file(path)
         out["here"] = time.perf_counter() - start
         out.update(_parts_here(path, circuit, plan))
-        now = cluster._plan(path, None, True)
+        now = clusterparts.plan(path, None, True)
         ways = {"now": now, "before": {i: replace(s, corners=0) for i, s in now.items()}}
         for workers in (1, 2):
             with cluster._connect(f"local:{workers}", True) as ready:
@@ -502,8 +503,8 @@ def main() -> None:
     task = dask_per_task()
     print(f"local cluster fixed costs, before / now (s, medians of {FIXED_RUNS}): " + "; ".join(
         f"{what} {fixed['before'][what]:.3f} / {fixed['now'][what]:.3f}"
-        for what in ("import", "start", "stop", "exit")) + f"; pool start-up {pool['startup']:.2f}; "
-        f"load average {before:.1f}")
+        for what in ("import", "start", "stop", "exit")) +
+        f"; pool start-up {pool['startup']:.2f}; load average {before:.1f}")
     print(f"overhead per task: pool {pool['per_task'] * 1e3:.2f} ms, local cluster "
           f"{task['before'] * 1e3:.2f} ms before / {task['now'] * 1e3:.2f} ms now")
     print(f"  expected jobs 1 / local:2 from these: before "
