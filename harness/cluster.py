@@ -103,7 +103,7 @@ def run(paths: Iterable[str], options: RunOptions, address: str,
         RunInterrupted: SIGINT or SIGTERM stopped the run; ``partial`` holds what finished.
     """
     files, missing = collect(paths)
-    with _quiet_logs(), _connect(address, options.numeric) as started:
+    with _connect(address, options.numeric) as started:
         plans = [clusterparts.plan(f, options.tolerance, options.numeric) for f in files]
         results = _gather(started(), files, options, missing, work, plans)
     return RunResult(files=tuple(missing) + tuple(results))
@@ -111,8 +111,8 @@ def run(paths: Iterable[str], options: RunOptions, address: str,
 
 @contextlib.contextmanager
 def _quiet_logs():
-    """The cluster's own log lines (a worker restarted, a connection closed) stay off stderr:
-    what matters reaches the user as a file's result."""
+    """The cluster's own log lines (a worker restarted, a connection closed) stay off stderr
+    while it runs: what matters reaches the user as a file's result."""
     logger = logging.getLogger("distributed")
     level = logger.level
     logger.setLevel(logging.CRITICAL)
@@ -120,6 +120,17 @@ def _quiet_logs():
         yield
     finally:
         logger.setLevel(level)
+
+
+class _Silent(logging.Filter):
+    """Drops every record: set on Dask's log handlers while a cluster closes behind the caller
+    (``_close``), after ``_quiet_logs`` has ended.  A filter, added and removed as one object,
+    holds whatever else changes meanwhile, where a level restored by one thread could undo
+    another's (Dask's own ``silence_logs`` restores its handlers' levels as a cluster closes,
+    so a close ending while the next cluster runs undid that cluster's)."""
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        return False
 
 
 def _local_settings() -> dict:
@@ -177,7 +188,7 @@ def _connect(address: str, numeric: bool):
     here while a worker is forked."""
     from concurrent.futures import ThreadPoolExecutor
 
-    with _collector_paused() as resume:
+    with _quiet_logs(), _collector_paused() as resume:
         import dask
         import distributed  # noqa: F401  (its settings' defaults, before ours are set over them)
 
@@ -291,10 +302,18 @@ def _close(client, cluster) -> None:
     machine): the interpreter waits for that thread before it exits (``concurrent.futures``
     joins its threads ahead of the ``atexit`` handlers, Dask's own close of a cluster left
     open among them), and a local worker dies with this process in any case
-    (``dask_setup``); a test checks that no worker outlives the run."""
-    client.close()
-    if cluster is not None:
-        cluster.close()
+    (``dask_setup``); a test checks that no worker outlives the run.  Its log lines are
+    dropped (``_Silent``)."""
+    silent, handlers = _Silent(), list(logging.getLogger("distributed").handlers)
+    for handler in handlers:
+        handler.addFilter(silent)
+    try:
+        client.close()
+        if cluster is not None:
+            cluster.close()
+    finally:
+        for handler in handlers:
+            handler.removeFilter(silent)
 
 
 def dask_setup(worker=None) -> None:
