@@ -124,10 +124,9 @@ def _quiet_logs():
 
 class _Silent(logging.Filter):
     """Drops every record: set on Dask's log handlers while a cluster closes behind the caller
-    (``_close``), after ``_quiet_logs`` has ended.  A filter, added and removed as one object,
-    holds whatever else changes meanwhile, where a level restored by one thread could undo
-    another's (Dask's own ``silence_logs`` restores its handlers' levels as a cluster closes,
-    so a close ending while the next cluster runs undid that cluster's)."""
+    (``_close``), ``_quiet_logs`` having ended.  A filter, not a level: each close adds and
+    removes its own, whatever other threads do meanwhile, where a level saved and restored by
+    one thread can undo another's."""
 
     def filter(self, record: logging.LogRecord) -> bool:
         return False
@@ -223,9 +222,8 @@ def _collector_paused():
     after the engines 0.173 s on, 0.115 s off, quiet machine; tests/benchmarks/RESULTS.md), and
     once frozen the later full passes of the run skip them.  Workers forked meanwhile start
     with the collector off; ``dask_setup`` turns it on in every worker, with what it inherited
-    frozen.  In a
-    process that lives on (the tests) what is frozen is never collected as a cycle: a few MB
-    per cluster run, as the console command's ``gc.freeze`` does for its whole process."""
+    frozen.  In a process that lives on (the tests) what is frozen is never collected as a
+    cycle, as after the console command's own ``gc.freeze``."""
     import gc
     enabled, paused = gc.isenabled(), {"now": True}
 
