@@ -218,9 +218,9 @@ def _collector_paused():
     ``resume``, which does that at once (the caller calls it when the cluster is ready, and it
     runs on the way out otherwise).  Dask's import and the cluster's start make ~100,000
     objects (modules, classes, the scheduler's and nannies' state) that live as long as the
-    run: with the collector on, its passes over them free nothing (``import distributed``
-    after the engines 0.173 s on, 0.115 s off, quiet machine; tests/benchmarks/RESULTS.md), and
-    once frozen the later full passes of the run skip them.  Workers forked meanwhile start
+    run: with the collector on, its passes over them free nothing (0.035-0.076 s of the
+    client's, one full pass, under load; Dask's import 0.135 -> 0.125 s on a quiet machine:
+    tests/benchmarks/RESULTS.md), and once frozen the later full passes of the run skip them.  Workers forked meanwhile start
     with the collector off; ``dask_setup`` turns it on in every worker, with what it inherited
     frozen.  In a process that lives on (the tests) what is frozen is never collected as a
     cycle, as after the console command's own ``gc.freeze``."""
