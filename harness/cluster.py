@@ -539,17 +539,23 @@ def _parent_of(pid: int) -> int | None:
 
 def _heaviest_first(files: list[str], plans: list[dict]) -> list[int]:
     """The files' indices in the order they are handed out: those with Monte Carlo pieces
-    first, then by size in bytes, largest first (a rough measure of the work: the heavy files
-    start early and the run does not end on one of them), collection order among equals."""
-    import os
+    first, then those with spec limits (each runs a Monte Carlo over every sample, 0.1-0.25 s
+    of the library's files on a quiet machine, more than most files' whole analysis, which
+    their size in bytes does not show: the smallest file of the library was always the last
+    to end), then by size in bytes, largest first (a rough measure of the work: the heavy
+    files start early and the run does not end on one of them), collection order among
+    equals.  Spread over two workers, the library's measured durations end 0.08 s sooner in
+    this order than by size alone (tests/benchmarks/RESULTS.md)."""
+    def weight(i: int) -> tuple:
+        with contextlib.suppress(OSError), open(files[i], "rb") as handle:
+            text = handle.read()
+            return (b"spec" in text, len(text))
+        return (False, 0)
 
-    def size(i: int) -> int:
-        with contextlib.suppress(OSError):
-            return os.path.getsize(files[i])
-        return 0
-
+    weights = [weight(i) for i in range(len(files))]
     return sorted(range(len(files)),
-                  key=lambda i: (-sum(split.tasks for split in plans[i].values()), -size(i)))
+                  key=lambda i: (-sum(split.tasks for split in plans[i].values()),
+                                 not weights[i][0], -weights[i][1]))
 
 
 def _second_chance(client, files: list[str], done: dict, options: RunOptions,
