@@ -8,18 +8,19 @@ the workers read the file themselves, so the file must be reachable at the same 
 worker (a relative path is read from the worker's working folder).
 
 A file whose Monte Carlo spans more than one piece (``variation.shard.plan``, read on the
-client) also gets a task per piece (``_piece``: samples [start, stop) of one expectation), and,
-when the numerical engine runs, a task searching its extreme corners from the box alone
-(``_corners``) and one per corner running the engine there (``_corner_value``); its own task
-waits for them and is handed the pieces' streamed summaries and the corners' values
-(``_joined``), so one heavy file spreads over the workers.  The samples do not depend on the
+client) also gets a task per piece, and, when the numerical engine runs, a task searching its
+extreme corners and one per corner running the engine there (``clusterparts``); its own task
+waits for them and is handed the pieces' summaries and the corners' values, so one heavy file
+spreads over the workers.  The samples do not depend on the
 split, a local run merges the same pieces in the same order (``variation.sampling``), and a
 corner's value is taken only where the file's own search ends on that corner
 (``variation.shard``): the result is the bytes of a local run.
 
 Files are handed out heaviest first (``_heaviest_first``).  A ``local:N`` cluster's workers are
-forked from this process once it has imported the engines (``_local_settings``), and the
-cluster starts on a thread while the files are read and planned (``_connect``).
+forked from this process once it has imported the engines (``_local_settings``), the cluster
+starts on a thread while the files are read and planned (``_connect``, with the garbage
+collector paused: ``_collector_paused``), and files are handed out as soon as its scheduler
+runs, to the first worker that joins (``_start``).
 
 Faults, as in a local run:
 
@@ -33,7 +34,8 @@ Faults, as in a local run:
   ``_stop_workers``) and becomes "timed out after N s";
 * SIGINT (``KeyboardInterrupt``) or SIGTERM (``pool.Interrupted``): every future is cancelled and
   ``runner.RunInterrupted`` carries the results that finished;
-* a scheduler that does not answer within ``CONNECT_TIMEOUT`` s: ``ClusterUnreachable``.
+* a scheduler that does not answer within ``CONNECT_TIMEOUT`` s, or a ``local:N`` cluster none
+  of whose workers joins within ``WORKER_START_TIMEOUT`` s: ``ClusterUnreachable``.
 
 ``distributed`` is imported only here, and this module only when a cluster is asked for.
 """
@@ -46,13 +48,17 @@ import time
 from dataclasses import dataclass, field
 from typing import Callable, Iterable
 
+from . import clusterparts
 from .outcome import FileResult, RunResult
 from .pool import Interrupted
 from .runner import (RunInterrupted, RunOptions, _bar, _check_task, _done, _error_result,
-                     _preload, collect, native_output_silenced)
+                     _preload, collect)
 
 #: seconds to wait for a scheduler before giving up on it
 CONNECT_TIMEOUT = 5.0
+#: seconds a ``local:N`` cluster's workers may take to start (they join while the files are
+#: handed out; over a second at a load average of 10 on 2 cores)
+WORKER_START_TIMEOUT = 60.0
 #: times a file may kill its worker on a ``local:N`` cluster before it becomes an error
 LOCAL_ALLOWED_FAILURES = 2
 #: how often (s) the client looks for finished futures and expired deadlines
@@ -64,9 +70,9 @@ LOCAL = "local:"
 class ClusterUnreachable(Exception):
     """The scheduler at ``address`` could not be reached (or a ``local:N`` cluster started)."""
 
-    def __init__(self, address: str, why: str) -> None:
+    def __init__(self, address: str, why: str, within: float = CONNECT_TIMEOUT) -> None:
         super().__init__(f"cannot reach the cluster scheduler at {address} within "
-                         f"{CONNECT_TIMEOUT:g} s: {why}")
+                         f"{within:g} s: {why}")
         self.address = address
 
 
@@ -97,16 +103,16 @@ def run(paths: Iterable[str], options: RunOptions, address: str,
         RunInterrupted: SIGINT or SIGTERM stopped the run; ``partial`` holds what finished.
     """
     files, missing = collect(paths)
-    with _quiet_logs(), _connect(address, options.numeric) as started:
-        plans = [_plan(f, options.tolerance, options.numeric) for f in files]
+    with _connect(address, options.numeric) as started:
+        plans = [clusterparts.plan(f, options.tolerance, options.numeric) for f in files]
         results = _gather(started(), files, options, missing, work, plans)
     return RunResult(files=tuple(missing) + tuple(results))
 
 
 @contextlib.contextmanager
 def _quiet_logs():
-    """The cluster's own log lines (a worker restarted, a connection closed) stay off stderr:
-    what matters reaches the user as a file's result."""
+    """The cluster's own log lines (a worker restarted, a connection closed) stay off stderr
+    while it runs: what matters reaches the user as a file's result."""
     logger = logging.getLogger("distributed")
     level = logger.level
     logger.setLevel(logging.CRITICAL)
@@ -114,6 +120,16 @@ def _quiet_logs():
         yield
     finally:
         logger.setLevel(level)
+
+
+class _Silent(logging.Filter):
+    """Drops every record: set on Dask's log handlers while a cluster closes behind the caller
+    (``_close``), ``_quiet_logs`` having ended.  A filter, not a level: each close adds and
+    removes its own, whatever other threads do meanwhile, where a level saved and restored by
+    one thread can undo another's."""
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        return False
 
 
 def _local_settings() -> dict:
@@ -163,48 +179,97 @@ QUIET_LOOPS = {"distributed.worker.profile.enabled": False,
 def _connect(address: str, numeric: bool):
     """Yields ``started()``, which returns a client of the scheduler at ``address`` (or of a
     ``local:N`` cluster started here) once it is connected: the connection is made on a thread
-    of its own, so the caller reads and plans the files meanwhile.  Closes both at the end.
+    of its own, so the caller reads and plans the files meanwhile.  Closes both at the end,
+    on that thread, without waiting (``_close``).
 
     For ``local:N`` the engines are imported here first (``runner._preload``, and the Monte
     Carlo planning's modules), so forked workers have them, and nothing is being imported
     here while a worker is forked."""
     from concurrent.futures import ThreadPoolExecutor
 
-    import dask
-    import distributed  # noqa: F401  (its settings' defaults, before ours are set over them)
+    with _quiet_logs(), _collector_paused() as resume:
+        import dask
+        import distributed  # noqa: F401  (its settings' defaults, before ours are set over them)
 
-    local = address.startswith(LOCAL)
-    settings = dask.config.set(_local_settings() if local else {})
-    with settings, ThreadPoolExecutor(1, thread_name_prefix="tauproof-connect") as starter:
-        if local:
-            _preload(numeric)
-            from .variation import shard  # noqa: F401  (planning, below, while workers fork)
-        start = starter.submit(_start, address, numeric)
-        try:
-            yield lambda: start.result()[0]
-        finally:
-            with contextlib.suppress(ClusterUnreachable):
-                _close(*start.result())
+        local = address.startswith(LOCAL)
+        starter = ThreadPoolExecutor(1, thread_name_prefix="tauproof-connect")
+        with dask.config.set(_local_settings() if local else {}):
+            if local:
+                _preload(numeric)
+                from .variation import shard  # noqa: F401  (planning, below, while workers fork)
+            start = starter.submit(_start, address, numeric)
+
+            def started():
+                client = start.result()[0]
+                resume()
+                return client
+            try:
+                yield started
+            finally:
+                with contextlib.suppress(ClusterUnreachable):
+                    _close_behind(starter, *start.result())
+                starter.shutdown(wait=False)
+
+
+@contextlib.contextmanager
+def _collector_paused():
+    """The cyclic garbage collector off while Dask is imported and the cluster starts, then
+    everything alive set aside (``gc.freeze``) and the collector's state restored; yields
+    ``resume``, which does that at once (the caller calls it when the cluster is ready, and it
+    runs on the way out otherwise).  Dask's import and the cluster's start make ~100,000
+    objects (modules, classes, the scheduler's and nannies' state) that live as long as the
+    run: with the collector on, its passes over them free nothing (0.035-0.076 s of the
+    client's, one full pass, under load; Dask's import 0.135 -> 0.125 s on a quiet machine:
+    tests/benchmarks/RESULTS.md), and once frozen the later full passes of the run skip them.  Workers forked meanwhile start
+    with the collector off; ``dask_setup`` turns it on in every worker, with what it inherited
+    frozen.  In a process that lives on (the tests) what is frozen is never collected as a
+    cycle, as after the console command's own ``gc.freeze``."""
+    import gc
+    enabled, paused = gc.isenabled(), {"now": True}
+
+    def resume() -> None:
+        if paused["now"]:
+            paused["now"] = False
+            gc.freeze()
+            if enabled:
+                gc.enable()
+    gc.disable()
+    try:
+        yield resume
+    finally:
+        resume()
 
 
 def _start(address: str, numeric: bool):
     """(client, cluster or None): a client of ``address``, with the ``local:N`` cluster it
-    names started first (its workers run ``dask_setup`` of this module as they start); the
-    workers of a scheduler started elsewhere import the engines now, before their first file
-    (whose time limit would otherwise include the imports)."""
+    names started first; the workers of a scheduler started elsewhere import the engines now,
+    before their first file (whose time limit would otherwise include the imports).
+
+    A ``local:N`` cluster returns as soon as its scheduler runs and the client is connected:
+    its N workers are asked for then (``scale``) and join while the files are handed out
+    (each runs ``dask_setup`` of this module as it starts), and a file goes to the first
+    worker that joins.  Waiting for them here cost the wait for the last one, and Dask's
+    nanny notices its worker is up by looking every 50 ms (``WorkerProcess``), whereas the
+    scheduler hands a joining worker its files at once (tests/benchmarks/RESULTS.md).  That
+    a worker does join is checked by ``_Run.joined``."""
     from distributed import Client, LocalCluster
 
     cluster = None
     try:
         if address.startswith(LOCAL):
             _versions_read()
+            count = int(address[len(LOCAL):])
             # no dashboard; the scheduler's own HTTP server (health, metrics) on a free port,
-            # not Dask's 8787, which another cluster may hold (Dask then warns)
-            cluster = LocalCluster(n_workers=int(address[len(LOCAL):]), threads_per_worker=1,
+            # not Dask's 8787, which another cluster may hold (Dask then warns); each worker's
+            # memory limit its share of the machine's, as Dask sets it for N workers started
+            # with the cluster (a fraction of the total, ``parse_memory_limit``)
+            cluster = LocalCluster(n_workers=0, threads_per_worker=1, memory_limit=1 / count,
                                    processes=True, dashboard_address=None,
                                    scheduler_kwargs={"dashboard_address": ":0"},
                                    silence_logs=logging.CRITICAL, preload=[__name__])
-            return Client(cluster, timeout=CONNECT_TIMEOUT), cluster
+            client = Client(cluster, timeout=CONNECT_TIMEOUT)
+            cluster.scale(count)
+            return client, cluster
         client = Client(address, timeout=CONNECT_TIMEOUT)
     except (OSError, TimeoutError) as err:
         if cluster is not None:
@@ -223,12 +288,30 @@ def _versions_read() -> None:
     get_versions()
 
 
+def _close_behind(starter, client, cluster) -> None:
+    """``_close`` on the thread ``starter`` (a ``ThreadPoolExecutor``), not waited for."""
+    starter.submit(_close, client, cluster)
+
+
 def _close(client, cluster) -> None:
     """The client, then the ``local:N`` cluster it started (nothing runs on it any more: the
-    results are in hand)."""
-    client.close()
-    if cluster is not None:
-        cluster.close()
+    results are in hand).  Run on the connecting thread (``_close_behind``) while the caller
+    goes on to write the run's outcome and reports (the close took 0.03 s on a quiet
+    machine): the interpreter waits for that thread before it exits (``concurrent.futures``
+    joins its threads ahead of the ``atexit`` handlers, Dask's own close of a cluster left
+    open among them), and a local worker dies with this process in any case
+    (``dask_setup``); a test checks that no worker outlives the run.  Its log lines are
+    dropped (``_Silent``)."""
+    silent, handlers = _Silent(), list(logging.getLogger("distributed").handlers)
+    for handler in handlers:
+        handler.addFilter(silent)
+    try:
+        client.close()
+        if cluster is not None:
+            cluster.close()
+    finally:
+        for handler in handlers:
+            handler.removeFilter(silent)
 
 
 def dask_setup(worker=None) -> None:
@@ -238,11 +321,15 @@ def dask_setup(worker=None) -> None:
     and stops the cluster) and SIGTERM takes its default action (a forked worker inherits the
     command line's handler); the process dies with its parent, the client
     (``pool.die_with_parent``): a worker busy in a task could outlive an interrupted client,
-    holding its output pipes.  A worker started by spawning (no fork on this platform) imports
-    the engines here, before its first file."""
+    holding its output pipes.  The collector is turned on, what the worker inherited set aside
+    first (a worker forked while ``_collector_paused`` held it off).  A worker started by
+    spawning (no fork on this platform) imports the engines here, before its first file."""
+    import gc
     import os
     import signal
     from .pool import die_with_parent
+    gc.freeze()
+    gc.enable()
     with contextlib.suppress(ValueError):  # not the main thread: nothing to do
         signal.signal(signal.SIGINT, signal.SIG_IGN)
         signal.signal(signal.SIGTERM, signal.SIG_DFL)
@@ -270,14 +357,14 @@ def _fresh_offload_thread() -> None:
 def _gather(client, files: list[str], options: RunOptions, missing: list[FileResult],
             work: Callable, plans: list[dict] | None = None) -> list[FileResult]:
     """Submit the files, collect their results as they finish (progress, deadlines).
-    ``plans``: each file's Monte Carlo pieces (``_plan``; read here when not given)."""
+    ``plans``: each file's Monte Carlo pieces (``clusterparts.plan``; read here when not given)."""
     if plans is None:
-        plans = [_plan(f, options.tolerance, options.numeric) for f in files]
+        plans = [clusterparts.plan(f, options.tolerance, options.numeric) for f in files]
     run = _Run(client, files, options, work, plans)
     try:
         while len(run.done) < len(files):
             run.hand_out()
-            if not run.collect(block=not run.limit):
+            if not run.collect(block=not run.limit and run.joined()):
                 run.expire()
                 time.sleep(_POLL)
         _second_chance(client, files, run.done, options, work)
@@ -310,6 +397,16 @@ class _Run:
         self.client, self.files, self.options, self.work = client, files, options, work
         self.bar = _bar(files, options)
         self.limit = options.timeout
+        local = getattr(client, "cluster", None)          # a ``local:N`` cluster started here
+        self.joining = f"{LOCAL}{len(local.worker_spec)}" if local is not None else None
+        self.began = time.monotonic()
+        if self.limit and self.joining:
+            # a file's clock starts when it is handed out: only once every worker has joined
+            try:
+                client.wait_for_workers(len(local.worker_spec), timeout=WORKER_START_TIMEOUT)
+            except TimeoutError:
+                raise ClusterUnreachable(self.joining, "its workers did not start",
+                                         WORKER_START_TIMEOUT) from None
         # with a limit, tasks are handed out no faster than the cluster has threads
         self.window = max(1, sum(client.nthreads().values())) if self.limit else None
         self.done: dict[int, FileResult] = {}
@@ -318,6 +415,19 @@ class _Run:
         self.pending = _heaviest_first(files, plans)
         # results are fetched by the client's event loop as the files finish
         self.finished = as_completed(with_results=True, raise_errors=False)
+
+    def joined(self) -> bool:
+        """Whether the client may sleep until a result arrives: once a worker of a local
+        cluster has joined (a remote scheduler's workers may come later, and the run waits
+        for them).  Raises ClusterUnreachable when none of a local cluster's workers has
+        joined within ``WORKER_START_TIMEOUT`` s of the start (a worker that cannot start must
+        not leave the run waiting for ever)."""
+        if self.joining and (self.done or self.client.nthreads()):
+            self.joining = None
+        elif self.joining and time.monotonic() > self.began + WORKER_START_TIMEOUT:
+            raise ClusterUnreachable(self.joining, "no worker process started",
+                                     WORKER_START_TIMEOUT)
+        return not self.joining
 
     def hand_out(self) -> None:
         """Submit waiting files while the window allows (a file counts its pieces too; one
@@ -337,15 +447,17 @@ class _Run:
             load += cost
 
     def _submit(self, path: str, plan: dict):
-        """The file's task; when it has a plan, after the tasks of its parts (``_parts``), all
-        ahead of plain files so a heavy file starts early.  (future, its parts' futures)."""
+        """The file's task; when it has a plan, after the tasks of its parts
+        (``clusterparts``), all ahead of plain files so a heavy file starts early.  (future,
+        its parts' futures)."""
         opts = self.options
         if not plan:
             return self.client.submit(self.work, path, opts.numeric, opts.tolerance,
                                       pure=False), []
-        given, values, parts = _parts(self.client, path, opts.tolerance, plan)
-        future = self.client.submit(_joined, self.work, path, opts.numeric, opts.tolerance,
-                                    given, values, pure=False, priority=1)
+        given, values, parts = clusterparts.submit_parts(self.client, path, opts.tolerance,
+                                                         plan)
+        future = self.client.submit(clusterparts.joined, self.work, path, opts.numeric,
+                                    opts.tolerance, given, values, pure=False, priority=1)
         return future, parts
 
     def collect(self, block: bool = False) -> bool:
@@ -427,115 +539,23 @@ def _parent_of(pid: int) -> int | None:
 
 def _heaviest_first(files: list[str], plans: list[dict]) -> list[int]:
     """The files' indices in the order they are handed out: those with Monte Carlo pieces
-    first, then by size in bytes, largest first (a rough measure of the work: the heavy files
-    start early and the run does not end on one of them), collection order among equals."""
-    import os
+    first, then those with spec limits (each runs a Monte Carlo over every sample, 0.1-0.25 s
+    of the library's files on a quiet machine, more than most files' whole analysis, which
+    their size in bytes does not show: the smallest file of the library was always the last
+    to end), then by size in bytes, largest first (a rough measure of the work: the heavy
+    files start early and the run does not end on one of them), collection order among
+    equals.  Spread over two workers, the library's measured durations end 0.08 s sooner in
+    this order than by size alone (tests/benchmarks/RESULTS.md)."""
+    def weight(i: int) -> tuple:
+        with contextlib.suppress(OSError), open(files[i], "rb") as handle:
+            text = handle.read()
+            return (b"spec" in text, len(text))
+        return (False, 0)
 
-    def size(i: int) -> int:
-        with contextlib.suppress(OSError):
-            return os.path.getsize(files[i])
-        return 0
-
+    weights = [weight(i) for i in range(len(files))]
     return sorted(range(len(files)),
-                  key=lambda i: (-sum(split.tasks for split in plans[i].values()), -size(i)))
-
-
-@dataclass(frozen=True)
-class _Split:
-    """How one expectation's spread analysis is spread: its Monte Carlo pieces' sample ranges
-    and the number of extreme corners the numerical engine is run at apart."""
-
-    ranges: list
-    corners: int
-
-    @property
-    def tasks(self) -> int:
-        """Its tasks: a piece each, and the corner search and a task per corner."""
-        return len(self.ranges) + (1 + self.corners if self.corners else 0)
-
-
-def _plan(path: str, tolerance: float | None, numeric: bool) -> dict:
-    """Expectation index -> ``_Split``, read here on the client: the expectations whose Monte
-    Carlo spans more than one piece (``variation.shard.plan``), with their corners
-    (``shard.corner_count``) when the numerical engine runs; none for a file without spec
-    limits, or one that cannot be read here (its task says why)."""
-    try:
-        with open(path, "rb") as handle:
-            if b"spec" not in handle.read():
-                return {}
-        from .circuitfile import read_circuit
-        from .variation import shard
-        circuit = read_circuit(path, tolerance)
-        return {index: _Split(ranges, shard.corner_count(circuit, index) if numeric else 0)
-                for index, ranges in shard.plan(circuit).items()}
-    except Exception:  # planning only spreads the work; the file's own task reports faults
-        return {}
-
-
-def _parts(client, path: str, tolerance: float | None, plan: dict):
-    """Submit the parts of a file's spread analysis: per expectation, the search of its
-    corners from the box alone (first), its Monte Carlo pieces, then the numerical engine at
-    each corner (``variation.shard``).  Returns (index -> the pieces' futures, index -> the
-    corner values' futures, every part's future)."""
-    given, values, parts = {}, {}, []
-    for index, split in plan.items():
-        found = client.submit(_corners, path, tolerance, index, pure=False, priority=2) \
-            if split.corners else None
-        given[index] = [client.submit(_piece, path, tolerance, index, a, b, pure=False,
-                                      priority=1) for a, b in split.ranges]
-        values[index] = [client.submit(_corner_value, path, tolerance, index, found, k,
-                                       pure=False, priority=1) for k in range(split.corners)]
-        parts += ([found] if found is not None else []) + given[index] + values[index]
-    return given, values, parts
-
-
-def _piece(path: str, tolerance: float | None, index: int, start: int, stop: int):
-    """A worker's task: the streamed summary of samples [start, stop) of expectation ``index``
-    of the file (``variation.shard.summary``, a ``sampling.Accumulator``)."""
-    from .circuitfile import read_circuit
-    from .variation import shard
-    circuit = read_circuit(path, tolerance)
-    with native_output_silenced():
-        return shard.summary(circuit, index, start, stop)
-
-
-def _corners(path: str, tolerance: float | None, index: int) -> list:
-    """A worker's task: where the extreme search of expectation ``index`` ends from the box
-    alone (``variation.shard.corners``); none when that fails (the values are only taken
-    where the file's own analysis ends on the same corners)."""
-    from .circuitfile import read_circuit
-    from .variation import shard
-    try:
-        with native_output_silenced():
-            return shard.corners(read_circuit(path, tolerance), index)
-    except Exception:
-        return []
-
-
-def _corner_value(path: str, tolerance: float | None, index: int, found: list, k: int):
-    """A worker's task: the numerical engine at corner ``k`` of ``found`` (``_corners``'s
-    result, put in place of its future by Dask): ``shard.corner_value``, or None."""
-    from .circuitfile import read_circuit
-    from .variation import shard
-    if k >= len(found):
-        return None
-    try:
-        with native_output_silenced():
-            return shard.corner_value(read_circuit(path, tolerance), index, *found[k])
-    except Exception:
-        return None
-
-
-def _joined(work: Callable, path: str, numeric: bool, tolerance: float | None, given: dict,
-            values: dict):
-    """A worker's task: the file's analysis with its Monte Carlo taken from its pieces and the
-    numerical engine's corner values from their tasks (``given`` / ``values``: expectation
-    index -> the parts' results in order, Dask having put each result in place of its
-    future)."""
-    from .variation import shard
-    samples = {index: shard.evaluated(given.get(index), values.get(index, ()))
-               for index in given}
-    return work(path, numeric, tolerance, samples=samples)
+                  key=lambda i: (-sum(split.tasks for split in plans[i].values()),
+                                 not weights[i][0], -weights[i][1]))
 
 
 def _second_chance(client, files: list[str], done: dict, options: RunOptions,

@@ -17,7 +17,7 @@ import pytest
 
 pytest.importorskip("distributed")
 
-from harness import cluster  # noqa: E402
+from harness import cluster, clusterparts  # noqa: E402
 from harness.circuitfile import read_circuit  # noqa: E402
 from harness.cli import main  # noqa: E402
 from harness.report.jsonout import document  # noqa: E402
@@ -97,7 +97,7 @@ def test_a_worker_dying_on_a_piece_costs_the_file_nothing(tmp_path, monkeypatch,
             os._exit(3)
         return pieces.summary(read(path, tolerance), index, start, stop)
 
-    monkeypatch.setattr(cluster, "_piece", dying_piece)
+    monkeypatch.setattr(clusterparts, "piece", dying_piece)
     result = cluster.run([str(tmp_path)], RunOptions(), "local:2")
     tried = sorted(p.name.split("-")[0] for p in marks.iterdir())
     assert tried.count("262144") == cluster.LOCAL_ALLOWED_FAILURES + 1, tried
@@ -125,6 +125,7 @@ def test_workers_forked_after_a_large_result_still_move_large_values():
     large value (its offload thread running) must not inherit a pool without its thread."""
     with cluster._connect("local:2", True) as started:
         client = started()
+        client.wait_for_workers(2)      # they join while the client goes on (``_start``)
         assert client.submit(_large, LARGE, pure=False).result().size == LARGE
         client.restart_workers(list(client.nthreads()))
         first, second = sorted(client.nthreads())
@@ -287,3 +288,53 @@ def test_the_local_settings_are_dask_settings():
     missing = object()
     for key in cluster._local_settings():
         assert dask.config.get(key, default=missing) is not missing, key
+
+
+def _broken_setup(worker=None) -> None:
+    import os
+    os._exit(3)     # the worker process ends as it starts
+
+
+def test_a_local_cluster_whose_workers_cannot_start_is_unreachable(tmp_path, monkeypatch):
+    """Workers are asked for but not awaited (files flow to the first that joins): when none
+    can start, the run ends with ClusterUnreachable after the bound instead of waiting."""
+    _few_files(tmp_path, "f3")
+    monkeypatch.setattr(cluster, "dask_setup", _broken_setup)   # forked workers inherit it
+    monkeypatch.setattr(cluster, "WORKER_START_TIMEOUT", 3.0)
+    started = time.monotonic()
+    with pytest.raises(cluster.ClusterUnreachable, match="local:2 within 3 s"):
+        cluster.run([str(tmp_path)], RunOptions(numeric=False), "local:2", work=_plain)
+    assert time.monotonic() - started < 3.0 + 30
+
+
+def _pid_noted(path, numeric, tolerance):  # shipped by value: the workers run this
+    import os
+    from pathlib import Path as P
+    from harness.runner import check_file
+    (P(path).parent / "pids" / str(os.getpid())).touch()
+    return check_file(path, numeric)
+
+
+def _alive(pid: int) -> bool:
+    """Whether process ``pid`` runs (a zombie, ended and waiting to be reaped, does not)."""
+    try:
+        with open(f"/proc/{pid}/stat", encoding="ascii") as handle:
+            return handle.read().rsplit(")", 1)[1].split()[0] != "Z"
+    except FileNotFoundError:
+        return False
+
+
+@pytest.mark.skipif(not Path("/proc").is_dir(), reason="reads /proc")
+def test_no_worker_outlives_the_run(tmp_path):
+    """The cluster is closed on a thread of its own once the results are in hand: its workers
+    are gone soon after, and a command that exits does not wait for them to linger."""
+    (tmp_path / "pids").mkdir()
+    _few_files(tmp_path, "f3")
+    result = cluster.run([str(tmp_path)], RunOptions(numeric=False), "local:2", work=_pid_noted)
+    assert [f.verdict for f in result.files] == ["pass"] * 4
+    pids = [int(p.name) for p in (tmp_path / "pids").iterdir()]
+    assert pids
+    deadline = time.monotonic() + 30
+    while any(_alive(pid) for pid in pids) and time.monotonic() < deadline:
+        time.sleep(0.05)
+    assert not [pid for pid in pids if _alive(pid)]

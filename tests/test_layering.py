@@ -33,7 +33,8 @@ COMPARATOR = ("harness.compare", "harness.findings", "harness.feedback")
 #: the command line and what drives a run (the worker pool and the progress bar are shared
 #: infrastructure: the report writers draw plots in the same pool)
 APPLICATION = ("harness.cli", "harness.runner", "harness.config", "harness.starter",
-               "harness.pytest_plugin", "harness.cluster", "harness.derivecmd")
+               "harness.pytest_plugin", "harness.cluster", "harness.clusterparts",
+               "harness.derivecmd")
 INFRASTRUCTURE = ("harness.pool", "harness.progress")
 REPORT = ("harness.report",)
 WORDS = ("harness.messages",)

@@ -2,22 +2,24 @@
 (1-minute load average from /proc/loadavg) read beside every figure:
 
 * the library: ``tauproof check circuits/library --no-report`` with ``--jobs 1``, ``--jobs 2``
-  and ``--cluster local:2``, ``local:2`` with each worker holding only the file it runs and
-  Dask's memory and system monitors at their defaults (``_ONE_HELD``), and ``local:2`` as it
-  ran before that too (``_AWAKE``: also Dask's default worker profiler and loop ticks,
-  versions read in each worker, the client polling), interleaved, medians of the wall time and
-  of the CPU time of every process of the run (the command and the workers it waited for);
+  and ``--cluster local:2``, ``local:2`` as it ran before this round (``as_before``: Dask
+  imported and the cluster started with the collector on, the start waiting for every
+  worker, the close waited for), and ``local:2`` with each worker holding only the file it
+  runs and Dask's memory and system monitors at their defaults (``_ONE_HELD``, an earlier
+  before), interleaved,
+  medians of the wall time and of the CPU time of every process of the run (the command and
+  the workers it waited for);
 * what a running ``local:2`` cluster costs beside its tasks, as it runs now and as ``_ONE_HELD``
   (``background``): CPU per second of its processes idle, and over tasks of 10 ms returning
   ~140 kB (a library file's result, on average) the CPU per task of the client's process
   (scheduler, nannies, client) and of the workers beyond the task, and how long a worker sits
   between two tasks;
-* the local cluster's fixed costs, each in a fresh process so imports count, as it started
-  before (workers spawned, then told to import the engines) and as it starts now (workers
-  forked from the client after it imported them, while the client plans): importing Dask's
-  client, starting, stopping; the overhead per task (no-op tasks), results fetched one by one
-  by the caller (before) and by the client's event loop (now); the pool's start-up and
-  overhead beside them, and the ratio they predict for the library on an idle machine;
+* the local cluster's fixed costs, each in a fresh process so imports count, before this
+  round (``as_before``) and now: importing Dask's client once the engines are imported as the
+  console command imports them, starting until a first task's result is back, stopping; the
+  overhead per task (no-op tasks), results fetched one by one by the caller (before) and by
+  the client's event loop (now); the pool's start-up and overhead beside them, and the ratio
+  they predict for the library on an idle machine;
 * what a worker's death and a task over its time limit cost each (time until a no-op task
   behind it has run);
 * a 10⁶-sample Monte Carlo (the library's reset-delay tolerance file with 1,000,000 samples:
@@ -58,13 +60,38 @@ def load() -> float:
         return float(handle.read().split()[0])
 
 
-#: ``tauproof check`` on the local cluster as it ran before, for the side-by-side "before":
-#: event loops waking as Dask's defaults have them (``cluster.QUIET_LOOPS`` emptied), each
-#: worker reading the package versions itself, the client looking for results every 20 ms
-_AWAKE = ("import sys, harness.cli; from harness import cluster; cluster.QUIET_LOOPS.clear(); "
-          "cluster._versions_read = lambda: None; looked = cluster._Run.collect; "
-          "cluster._Run.collect = lambda run, block=False: looked(run); "
-          "sys.exit(harness.cli.main(sys.argv[1:]))")
+def as_before() -> None:
+    """``--cluster local:N`` as it ran before the collector was paused, the workers were no
+    longer awaited and the close moved behind: Dask imported and the cluster started with the
+    collector on, the cluster's start waiting for all N workers (the nannies' 50-ms look
+    included), the client waiting for the close."""
+    import logging
+    from harness import cluster
+
+    @contextlib.contextmanager
+    def collector_on():
+        yield lambda: None
+
+    def waited(address: str, numeric: bool):
+        from distributed import Client, LocalCluster
+        cluster._versions_read()
+        local = LocalCluster(n_workers=int(address[len(cluster.LOCAL):]), threads_per_worker=1,
+                             processes=True, dashboard_address=None,
+                             scheduler_kwargs={"dashboard_address": ":0"},
+                             silence_logs=logging.CRITICAL, preload=["harness.cluster"])
+        return Client(local, timeout=cluster.CONNECT_TIMEOUT), local
+
+    def close_now(starter, client, local) -> None:
+        cluster._close(client, local)
+
+    cluster._collector_paused = collector_on
+    cluster._start = waited
+    cluster._close_behind = close_now
+
+
+#: ``tauproof check`` (the console command, ``harness.cli.command``) as ``as_before`` runs it
+_WAITED = ("import sys, harness.cli; from tests.benchmarks.cluster_bench import as_before; "
+           "as_before(); sys.exit(harness.cli.command())")
 
 
 #: the Dask settings ``--cluster local:N`` ran with before its workers held a file queued
@@ -81,7 +108,7 @@ _ONE_HELD = ("import sys, harness.cli; from harness import cluster; "
 
 def _wall(args: list[str], head: str | None = None) -> tuple[float, float, int]:
     """(wall s, CPU s of the command and every process it waited for, exit code); ``head``:
-    code run in place of the command's module (``_AWAKE``, ``_ONE_HELD``)."""
+    code run in place of the command's module (``_WAITED``, ``_ONE_HELD``)."""
     import resource
     head = ["-c", head] if head else ["-m", "harness"]
     cmd = [sys.executable, *head, "check", LIBRARY, "--no-report", *args]
@@ -95,12 +122,12 @@ def _wall(args: list[str], head: str | None = None) -> tuple[float, float, int]:
 
 def library(repeats: int) -> tuple[dict, dict, list[float]]:
     """Median wall time and CPU time (s) of each way of running the library, runs interleaved
-    (``local:2 one held``: ``_ONE_HELD``; ``local:2 awake``: the cluster as it ran before
-    that, ``_AWAKE``); the load average before each run."""
+    (``local:2 waited``: the console command with ``as_before``; ``local:2 one held``:
+    ``_ONE_HELD``, an earlier before); the load average before each run."""
     ways = {"jobs 1": ["--jobs", "1"], "jobs 2": ["--jobs", "2"],
-            "local:2": ["--cluster", "local:2"], "local:2 one held": ["--cluster", "local:2"],
-            "local:2 awake": ["--cluster", "local:2"]}
-    heads = {"local:2 one held": _ONE_HELD, "local:2 awake": _AWAKE}
+            "local:2": ["--cluster", "local:2"], "local:2 waited": ["--cluster", "local:2"],
+            "local:2 one held": ["--cluster", "local:2"]}
+    heads = {"local:2 one held": _ONE_HELD, "local:2 waited": _WAITED}
     times: dict[str, list[float]] = {name: [] for name in ways}
     cpu: dict[str, list[float]] = {name: [] for name in ways}
     loads = []
@@ -131,44 +158,67 @@ def pool_costs() -> dict:
     return {"startup": startup, "per_task": (time.perf_counter() - start) / TASKS}
 
 
-#: the code a fresh process runs for ``fixed_costs`` (prints the figures as JSON)
+#: the code a fresh process runs for ``fixed_costs`` (prints the figures as JSON): the engines
+#: imported as the console command imports them (``cli._import_engines``), then Dask's import,
+#: the start until a no-op task's result is back (files flowing), and the stop
 _FIXED = """
-import json, logging, sys, time
-from harness.runner import _preload
-_preload(True)
-began = time.perf_counter()
-import distributed
-imported = time.perf_counter() - began
+import gc, json, sys, time
+import harness.cli
 from harness import cluster
+harness.cli._import_engines()
+if sys.argv[1] == "before":
+    from tests.benchmarks.cluster_bench import as_before
+    as_before()
 began = time.perf_counter()
-if sys.argv[1] == "before":          # spawned workers, then told to import the engines
-    import dask
-    with dask.config.set({"distributed.worker.multiprocessing-method": "spawn"}):
-        local = distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                         dashboard_address=None, silence_logs=logging.CRITICAL)
-        client = distributed.Client(local)
-        client.run(_preload, True)
+with cluster._collector_paused():
+    import distributed
+imported = time.perf_counter() - began
+began = time.perf_counter()
+with cluster._connect("local:2", True) as ready:
+    ready().submit(len, [], pure=False).result()
     started = time.perf_counter() - began
     began = time.perf_counter()
-    client.close(); local.close()
-else:                                 # as --cluster local:2 starts it now
-    with cluster._connect("local:2", True) as ready:
-        ready()
-        started = time.perf_counter() - began
-        began = time.perf_counter()
 stopped = time.perf_counter() - began
-print(json.dumps({"import": imported, "start": started, "stop": stopped}))
+print(json.dumps({"import": imported, "start": started, "stop": stopped, "ended": began}),
+      flush=True)
+gc.freeze()                 # as the console command leaves (``harness.cli.command``)
 """
 
 
 def fixed_costs(way: str) -> dict:
     """Seconds to import Dask's client (the engines already imported), to start a local cluster
-    of 2 workers ready to analyse, and to stop it; ``way`` "before" or "now"; in a fresh
-    process."""
+    of 2 workers until a first task's result is back, to stop it (the client's wait), and from
+    the results in hand to the process's end (``exit``: the stop wherever it is waited for,
+    and the interpreter's exit); ``way`` "before" (``as_before``) or "now"; in a fresh
+    process (``time.perf_counter`` is the system's monotonic clock, one for both processes)."""
     import json
     out = subprocess.run([sys.executable, "-c", _FIXED, way], capture_output=True, text=True,
                          check=True).stdout
-    return json.loads(out.strip().splitlines()[-1])
+    ended = time.perf_counter()
+    got = json.loads(out.strip().splitlines()[-1])
+    got["exit"] = ended - got.pop("ended")
+    return got
+
+
+#: fresh processes per way for the fixed costs (each under a second)
+FIXED_RUNS = 5
+
+
+def fixed_medians() -> dict:
+    """``fixed_costs`` of each way, ``FIXED_RUNS`` fresh processes each, interleaved: medians."""
+    runs: dict = {"before": [], "now": []}
+    for _ in range(FIXED_RUNS):
+        for way, got in runs.items():
+            got.append(fixed_costs(way))
+    return {way: {what: statistics.median(r[what] for r in got) for what in got[0]}
+            for way, got in runs.items()}
+
+
+def _ready(started, workers: int = 2):
+    """The client of a cluster ``cluster._connect`` started, once its workers have joined."""
+    client = started()
+    client.wait_for_workers(workers)
+    return client
 
 
 def dask_per_task() -> dict:
@@ -178,7 +228,7 @@ def dask_per_task() -> dict:
     from harness import cluster
     out = {}
     with cluster._connect("local:2", True) as ready:
-        client = ready()
+        client = _ready(ready)
         start = time.perf_counter()
         for future in as_completed([client.submit(_noop, i, pure=False) for i in range(TASKS)]):
             future.result()
@@ -247,7 +297,7 @@ def background(repeats: int) -> dict:
     for _ in range(repeats):
         for way in ("now", "one held"):
             with _one_held(way == "one held"), cluster._connect("local:2", True) as ready:
-                client = ready()
+                client = _ready(ready)
 
                 def workers() -> float:
                     return sum(client.run(_process_cpu).values())
@@ -306,7 +356,7 @@ def dask_faults() -> dict:
     from harness.runner import RunOptions
     out = {}
     with cluster._connect("local:1", True) as ready:
-        client = ready()
+        client = _ready(ready, 1)
         start = time.perf_counter()
         dying = client.submit(_fault, "die", pure=False)
         with contextlib.suppress(Exception):     # KilledWorker past the death bound
@@ -344,7 +394,7 @@ def monte_carlo(repeats: int) -> dict:
     excluded), with the corners' engine runs in tasks of their own ("now") and in the file's
     own task ("before": the plan without corners), interleaved; what its parts cost here."""
     from dataclasses import replace
-    from harness import cluster
+    from harness import cluster, clusterparts
     from harness.circuitfile import read_circuit
     from harness.runner import RunOptions, _check_task, check_file
     from harness.variation import shard
@@ -359,11 +409,11 @@ def monte_carlo(repeats: int) -> dict:
         whole = check_file(path)
         out["here"] = time.perf_counter() - start
         out.update(_parts_here(path, circuit, plan))
-        now = cluster._plan(path, None, True)
+        now = clusterparts.plan(path, None, True)
         ways = {"now": now, "before": {i: replace(s, corners=0) for i, s in now.items()}}
         for workers in (1, 2):
             with cluster._connect(f"local:{workers}", True) as ready:
-                client = ready()
+                client = _ready(ready, workers)
                 times: dict = {way: [] for way in ways}
                 for _ in range(repeats):
                     for way, split in ways.items():
@@ -413,9 +463,10 @@ def exact_per_sample(count: int = 32) -> float:
 
 def expected(walls: dict, files: int, pool: dict, fixed: dict, per_task: float) -> float:
     """``--jobs 1`` / the wall ``local:2`` is expected to take: ``--jobs 2``'s plus what the
-    cluster costs beyond the pool (import, start, stop; overhead per task, half of the files
-    on each worker)."""
-    extra = fixed["import"] + fixed["start"] + fixed["stop"] - pool["startup"] + \
+    cluster costs beyond the pool (import, start, the end from the results in hand to the
+    process's exit, which holds the stop and the interpreter's exit, the latter a local run's
+    too; overhead per task, half of the files on each worker)."""
+    extra = fixed["import"] + fixed["start"] + fixed["exit"] - pool["startup"] + \
         (per_task - pool["per_task"]) * files / 2
     return walls["jobs 1"] / (walls["jobs 2"] + extra)
 
@@ -444,15 +495,16 @@ def main() -> None:
     print(f"  jobs 1 / local:2 = {walls['jobs 1'] / walls['local:2']:.2f}x, "
           f"jobs 1 / jobs 2 = {walls['jobs 1'] / walls['jobs 2']:.2f}x, "
           f"jobs 2 / local:2 = {walls['jobs 2'] / walls['local:2']:.2f}x, "
+          f"jobs 1 / local:2 waited = {walls['jobs 1'] / walls['local:2 waited']:.2f}x, "
           f"jobs 1 / local:2 one held = {walls['jobs 1'] / walls['local:2 one held']:.2f}x")
     before = load()
     pool = pool_costs()
-    fixed = {way: fixed_costs(way) for way in ("before", "now")}
+    fixed = fixed_medians()
     task = dask_per_task()
-    print(f"local cluster fixed costs, before / now (s): " + "; ".join(
-        f"{what} {fixed['before'][what]:.2f} / {fixed['now'][what]:.2f}"
-        for what in ("import", "start", "stop")) + f"; pool start-up {pool['startup']:.2f}; "
-        f"load average {before:.1f}")
+    print(f"local cluster fixed costs, before / now (s, medians of {FIXED_RUNS}): " + "; ".join(
+        f"{what} {fixed['before'][what]:.3f} / {fixed['now'][what]:.3f}"
+        for what in ("import", "start", "stop", "exit")) +
+        f"; pool start-up {pool['startup']:.2f}; load average {before:.1f}")
     print(f"overhead per task: pool {pool['per_task'] * 1e3:.2f} ms, local cluster "
           f"{task['before'] * 1e3:.2f} ms before / {task['now'] * 1e3:.2f} ms now")
     print(f"  expected jobs 1 / local:2 from these: before "
