@@ -60,6 +60,7 @@ from scipy.linalg import LinAlgWarning, get_lapack_funcs
 
 from .equations import System
 from .linsolve import operating_point
+from .sparse_step import ShiftedIdentity, matvec
 
 #: the LAPACK routines scipy.linalg.lu_factor / lu_solve call, for real and complex matrices
 _DGETRF, _DGETRS = get_lapack_funcs(("getrf", "getrs"), (np.zeros((1, 1)),))
@@ -316,14 +317,19 @@ def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: floa
     detector, whose ``scale`` is each state's largest deviation after the pulse so far): where
     given, each step's tolerances are ``_step_tolerances`` of the state it starts from."""
     jac = system.jac
+    product = matvec(jac)
 
     def fun(_t, z):
-        return jac @ z + r
+        return product(z) + r
 
     started = _time.perf_counter()
     solver = Radau(fun, s0, z0, s_bound, jac=jac, rtol=rtol, atol=atol, first_step=first_step,
                    max_step=max_step)
-    if not sp.issparse(jac) and z0.size and hasattr(solver, "solve_lu"):
+    if sp.issparse(solver.J) and solver.J.format == "csc" and sp.issparse(solver.I):
+        # Radau's I, read only in mu / h * I - J (its own CSC copy of jac): the shifted
+        # matrix on a pattern found once
+        solver.I = ShiftedIdentity(solver.J)
+    elif not sp.issparse(jac) and z0.size and hasattr(solver, "solve_lu"):
         # Radau's dense factorise/solve hooks (instance attributes it calls every step),
         # replaced by the same LAPACK calls without scipy.linalg's per-call wrapper
         solver.lu, solver.solve_lu = partial(_lu_factor, solver), _solve_lu
