@@ -68,6 +68,10 @@ class _Pattern:
         self.diagonal = (merged.data - whole) == 0.25
         self.indices, self.indptr = merged.indices, merged.indptr
         self.shape = jac.shape
+        # SuperLU reads a CSC matrix's arrays only while it factorises (scipy's splu), so a
+        # matrix in canonical form may be handed over again with new data; one per dtype
+        self.canonical = bool(merged.has_canonical_format)
+        self.reused: dict = {}
         self.jac = jac
         self.values = np.append(jac.data, 0.0)      # index -1: no entry of J (0)
 
@@ -101,5 +105,12 @@ class _Scaled:
         data = np.subtract(shift, pattern.values[pattern.source], dtype=dtype)
         if not np.all(data != 0):
             return self.scale * self.identity._eye - other
-        return sp.csc_matrix((data, pattern.indices.copy(), pattern.indptr.copy()),
-                             shape=pattern.shape)
+        if not pattern.canonical:   # splu sorts a non-canonical matrix's indices in place
+            return sp.csc_matrix((data, pattern.indices.copy(), pattern.indptr.copy()),
+                                 shape=pattern.shape)
+        matrix = pattern.reused.get(dtype)
+        if matrix is None:
+            matrix = pattern.reused[dtype] = sp.csc_matrix(
+                (data, pattern.indices.copy(), pattern.indptr.copy()), shape=pattern.shape)
+        matrix.data = data
+        return matrix
