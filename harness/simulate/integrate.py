@@ -306,6 +306,18 @@ def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.nd
     return rel, np.where(moving, atol, np.maximum(atol, TAIL_FLOOR * rtol * peak))
 
 
+def _unwrap(solver: Radau, n: int) -> None:
+    """Replace Radau's per-step linear algebra by the same computations without scipy's
+    per-call wrapping: with a sparse J its identity (read only in mu / h * I - J, J being its
+    own CSC copy of the Jacobian) by the shifted matrix on a pattern found once
+    (``sparse_step``); with a dense J its factorise/solve hooks (instance attributes it calls
+    every step) by the same LAPACK calls (``_lu_factor``, ``_solve_lu``)."""
+    if sp.issparse(solver.J) and solver.J.format == "csc" and sp.issparse(solver.I):
+        solver.I = ShiftedIdentity(solver.J)
+    elif not sp.issparse(solver.J) and n and hasattr(solver, "solve_lu"):
+        solver.lu, solver.solve_lu = partial(_lu_factor, solver), _solve_lu
+
+
 def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: float, rtol: float,
          atol: np.ndarray, settle: _Settle | None, first_step: float | None = None,
          max_step: float = np.inf, budget: tuple[float, float] = (np.inf, np.inf),
@@ -325,14 +337,7 @@ def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: floa
     started = _time.perf_counter()
     solver = Radau(fun, s0, z0, s_bound, jac=jac, rtol=rtol, atol=atol, first_step=first_step,
                    max_step=max_step)
-    if sp.issparse(solver.J) and solver.J.format == "csc" and sp.issparse(solver.I):
-        # Radau's I, read only in mu / h * I - J (its own CSC copy of jac): the shifted
-        # matrix on a pattern found once
-        solver.I = ShiftedIdentity(solver.J)
-    elif not sp.issparse(jac) and z0.size and hasattr(solver, "solve_lu"):
-        # Radau's dense factorise/solve hooks (instance attributes it calls every step),
-        # replaced by the same LAPACK calls without scipy.linalg's per-call wrapper
-        solver.lu, solver.solve_lu = partial(_lu_factor, solver), _solve_lu
+    _unwrap(solver, z0.size)
     ss, zs, interps = [s0], [z0.copy()], []
     status = "reached"
     while solver.status == "running":
