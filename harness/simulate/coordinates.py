@@ -185,8 +185,12 @@ def _node_capacitance(circuit: Circuit, lay: Layout, parasitic: dict[str, float]
 
 
 def _null_axis(m_nodes: sp.csr_matrix, T: sp.csr_matrix, k: int) -> bool:
-    """True when coordinate k already changes no capacitor voltage: M T e_k = 0 exactly."""
-    column = np.asarray(T[:, [k]].todense(), dtype=float).ravel()
+    """True when coordinate k already changes no capacitor voltage: M T e_k = 0 exactly.
+    T e_k is column k of the integer T, taken as an exact integer product (a column slice of
+    a CSR matrix costs several times more)."""
+    e_k = np.zeros(T.shape[1], dtype=T.dtype)
+    e_k[k] = 1
+    column = np.asarray(T @ e_k, dtype=float).ravel()
     return not np.any(m_nodes @ column)
 
 

@@ -184,7 +184,7 @@ def _fastest_real_mode(circuit: Circuit) -> float | None:
         return None
     pilot = choose(circuit, PILOT_RATIO)
     try:
-        _, systems = _build_all(circuit, lay, pilot)
+        _, systems = _build_all(circuit, lay, pilot, jac_only=True)
     except Unreduced:
         return None
     rates = []
@@ -272,13 +272,14 @@ def _stopped(circuit: Circuit, k: int, run, steps: int, evals: int) -> Diagnosti
     return None
 
 
-def _build_all(circuit: Circuit, lay, reg):
+def _build_all(circuit: Circuit, lay, reg, jac_only: bool = False):
     """(pre-step system, one system per interval).  Intervals with the same switch states and
     source values share one System object (``equations.build``'s cache), those with the same
-    switch states share its matrices."""
+    switch states share its matrices.  ``jac_only``: the pilot's build (``build``)."""
     cache: dict = {}
-    pre = build(circuit, lay, reg, 0.0, before=True, cache=cache)
-    return pre, [build(circuit, lay, reg, t, cache=cache) for t in circuit.events]
+    pre = build(circuit, lay, reg, 0.0, before=True, cache=cache, jac_only=jac_only)
+    return pre, [build(circuit, lay, reg, t, cache=cache, jac_only=jac_only)
+                 for t in circuit.events]
 
 
 def _distinct(systems) -> list:

@@ -163,23 +163,24 @@ def _constants(circuit: Circuit, lay: Layout, br: Branches) -> np.ndarray:
     return b
 
 
-def _jacobian(K: sp.csc_matrix, M: sp.csc_matrix):
+def _jacobian(K: sp.csc_matrix, M: sp.csc_matrix, trial: bool = True):
     """(J, solve) with J = -M^-1 K (sparse above SPARSE_ABOVE states unless its LU fills in,
     ``_stays_sparse``; dense otherwise) and
-    solve(b) = M^-1 b, shape (n,); M is factorised once."""
+    solve(b) = M^-1 b, shape (n,); M is factorised once.  Without ``trial`` J is returned
+    sparse wherever it is computed sparse (the same entries; no trial LU)."""
     n = K.shape[0]
     off = M - sp.diags(M.diagonal())
     if off.count_nonzero() == 0:
         inv = 1.0 / M.diagonal()
         jac = -(sp.diags(inv) @ K).tocsc()
-        return (jac if _stays_sparse(jac) else jac.toarray()), (lambda b: inv * b)
+        return (jac if not trial or _stays_sparse(jac) else jac.toarray()), (lambda b: inv * b)
     if n <= SPARSE_ABOVE:
         lu = scipy.linalg.lu_factor(M.toarray())
         return -scipy.linalg.lu_solve(lu, K.toarray()), (lambda b: scipy.linalg.lu_solve(lu, b))
     lu = spla.splu(M.tocsc())
     jac = -sp.csc_matrix(lu.solve(K.toarray()))
     jac.eliminate_zeros()
-    return (jac if _stays_sparse(jac) else jac.toarray()), lu.solve
+    return (jac if not trial or _stays_sparse(jac) else jac.toarray()), lu.solve
 
 
 def _stays_sparse(jac: sp.csc_matrix) -> bool:
@@ -213,22 +214,30 @@ class _Shape:
 
 
 def _shape(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
-           br_dc: Branches) -> _Shape:
-    K, M = _assemble(circuit, lay, reg, br)
-    K_dc, _ = _assemble(circuit, lay, reg, br_dc)
+           br_dc: Branches | None) -> _Shape:
+    """The shared part of an interval's ODE; without ``br_dc`` (a Jacobian-only build) the
+    unreduced K, M, K_dc are None and J is sparse wherever it is computed sparse."""
+    K = M = K_dc = None
+    if br_dc is not None:
+        K, M = _assemble(circuit, lay, reg, br)
+        K_dc, _ = _assemble(circuit, lay, reg, br_dc)
     closed = [name for name, u in br.voltages.items() if u is not None]
     owners: dict[str, int] = {}
     parents = forest(circuit, lay, closed, reg.c_node, owners)
     K_x, M_x, T, Tinv, tr = assemble(circuit, lay, br, parents, reg.r_series * reg.t_pulse,
                                      reg.t_pulse, reg.c_node, owners)
     reducer = Reducer(K_x, M_x, T, Tinv)
-    jac, solve = _jacobian(reducer.K_r, reducer.M_r)
+    jac, solve = _jacobian(reducer.K_r, reducer.M_r, trial=br_dc is not None)
     return _Shape(K, M, K_dc, tr, reducer, jac, solve)
 
 
 def build(circuit: Circuit, lay: Layout, reg: Regularisation, time: float,
-          before: bool = False, cache: dict | None = None) -> System:
+          before: bool = False, cache: dict | None = None, jac_only: bool = False) -> System:
     """The ODE in force just after ``time`` (or just before it when ``before``).
+
+    ``jac_only`` (a pilot model whose Jacobians alone are read, engine.py): the same
+    reduction, J and c, with the unreduced full and DC forms (K, b, M, K_dc, b_dc) left None
+    and J sparse wherever it is computed sparse; a cache is for one kind of build only.
 
     ``cache`` (a dict owned by the caller, for one circuit and one Regularisation) keeps what
     is built: an interval whose switch states and source values equal an earlier one's gets
@@ -245,11 +254,14 @@ def build(circuit: Circuit, lay: Layout, reg: Regularisation, time: float,
     key = (s_key, tuple(br.sources.items()))
     if key in cache:
         return cache[key]
-    br_dc = branch_currents(circuit, lay, reg, time, before, slow=True, fixed=fixed)
+    br_dc = None if jac_only else branch_currents(circuit, lay, reg, time, before, slow=True,
+                                                  fixed=fixed)
     if s_key not in cache:
         cache[s_key] = _shape(circuit, lay, reg, br, br_dc)
     shape = cache[s_key]
-    b, b_dc = _constants(circuit, lay, br), _constants(circuit, lay, br_dc)
+    b = b_dc = None
+    if not jac_only:
+        b, b_dc = _constants(circuit, lay, br), _constants(circuit, lay, br_dc)
     red, b_r = shape.reducer.constants(constants(circuit, lay, br, shape.transform))
     system = System(shape.jac, shape.solve(b_r), shape.K, b, shape.M, shape.K_dc, b_dc,
                     br.currents, tuple(br.regularisers), br.sources, br.closed, red,

@@ -60,6 +60,7 @@ from scipy.linalg import LinAlgWarning, get_lapack_funcs
 
 from .equations import System
 from .linsolve import operating_point
+from .sparse_step import ShiftedIdentity, matvec
 
 #: the LAPACK routines scipy.linalg.lu_factor / lu_solve call, for real and complex matrices
 _DGETRF, _DGETRS = get_lapack_funcs(("getrf", "getrs"), (np.zeros((1, 1)),))
@@ -305,6 +306,18 @@ def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.nd
     return rel, np.where(moving, atol, np.maximum(atol, TAIL_FLOOR * rtol * peak))
 
 
+def _unwrap(solver: Radau, n: int) -> None:
+    """Replace Radau's per-step linear algebra by the same computations without scipy's
+    per-call wrapping: with a sparse J its identity (read only in mu / h * I - J, J being its
+    own CSC copy of the Jacobian) by the shifted matrix on a pattern found once
+    (``sparse_step``); with a dense J its factorise/solve hooks (instance attributes it calls
+    every step) by the same LAPACK calls (``_lu_factor``, ``_solve_lu``)."""
+    if sp.issparse(solver.J) and solver.J.format == "csc" and sp.issparse(solver.I):
+        solver.I = ShiftedIdentity(solver.J)
+    elif not sp.issparse(solver.J) and n and hasattr(solver, "solve_lu"):
+        solver.lu, solver.solve_lu = partial(_lu_factor, solver), _solve_lu
+
+
 def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: float, rtol: float,
          atol: np.ndarray, settle: _Settle | None, first_step: float | None = None,
          max_step: float = np.inf, budget: tuple[float, float] = (np.inf, np.inf),
@@ -316,17 +329,15 @@ def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: floa
     detector, whose ``scale`` is each state's largest deviation after the pulse so far): where
     given, each step's tolerances are ``_step_tolerances`` of the state it starts from."""
     jac = system.jac
+    product = matvec(jac)
 
     def fun(_t, z):
-        return jac @ z + r
+        return product(z) + r
 
     started = _time.perf_counter()
     solver = Radau(fun, s0, z0, s_bound, jac=jac, rtol=rtol, atol=atol, first_step=first_step,
                    max_step=max_step)
-    if not sp.issparse(jac) and z0.size and hasattr(solver, "solve_lu"):
-        # Radau's dense factorise/solve hooks (instance attributes it calls every step),
-        # replaced by the same LAPACK calls without scipy.linalg's per-call wrapper
-        solver.lu, solver.solve_lu = partial(_lu_factor, solver), _solve_lu
+    _unwrap(solver, z0.size)
     ss, zs, interps = [s0], [z0.copy()], []
     status = "reached"
     while solver.status == "running":
