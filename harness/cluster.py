@@ -19,8 +19,8 @@ corner's value is taken only where the file's own search ends on that corner
 Files are handed out heaviest first (``_heaviest_first``).  A ``local:N`` cluster's workers are
 forked from this process once it has imported the engines (``_local_settings``), the cluster
 starts on a thread while the files are read and planned (``_connect``, with the garbage
-collector paused: ``_collector_paused``), and files are handed out as soon as its scheduler
-runs, to the first worker that joins (``_start``).
+collector paused: ``_collector_paused``), and files are handed out once its workers have
+started (``_start``).
 
 Faults, as in a local run:
 
@@ -245,13 +245,12 @@ def _start(address: str, numeric: bool):
     names started first; the workers of a scheduler started elsewhere import the engines now,
     before their first file (whose time limit would otherwise include the imports).
 
-    A ``local:N`` cluster returns as soon as its scheduler runs and the client is connected:
-    its N workers are asked for then (``scale``) and join while the files are handed out
-    (each runs ``dask_setup`` of this module as it starts), and a file goes to the first
-    worker that joins.  Waiting for them here cost the wait for the last one, and Dask's
-    nanny notices its worker is up by looking every 50 ms (``WorkerProcess``), whereas the
-    scheduler hands a joining worker its files at once (tests/benchmarks/RESULTS.md).  That
-    a worker does join is checked by ``_Run.joined``."""
+    A ``local:N`` cluster returns once its N workers have started (each runs ``dask_setup``
+    of this module as it starts).  Handing files to the first worker that joins, before its
+    nanny had seen it start, saved ~50 ms but lost workers for good: a file that killed a
+    worker in that window failed the nanny's start, so the nanny did not restart it, and with
+    every worker lost so the run waited for ever (one run in four of the worker-death test).
+    A worker that cannot start is ``ClusterUnreachable``."""
     from distributed import Client, LocalCluster
 
     cluster = None
@@ -263,18 +262,19 @@ def _start(address: str, numeric: bool):
             # not Dask's 8787, which another cluster may hold (Dask then warns); each worker's
             # memory limit its share of the machine's, as Dask sets it for N workers started
             # with the cluster (a fraction of the total, ``parse_memory_limit``)
-            cluster = LocalCluster(n_workers=0, threads_per_worker=1, memory_limit=1 / count,
+            cluster = LocalCluster(n_workers=count, threads_per_worker=1, memory_limit=1 / count,
                                    processes=True, dashboard_address=None,
                                    scheduler_kwargs={"dashboard_address": ":0"},
                                    silence_logs=logging.CRITICAL, preload=[__name__])
-            client = Client(cluster, timeout=CONNECT_TIMEOUT)
-            cluster.scale(count)
-            return client, cluster
+            return Client(cluster, timeout=CONNECT_TIMEOUT), cluster
         client = Client(address, timeout=CONNECT_TIMEOUT)
     except (OSError, TimeoutError) as err:
         if cluster is not None:
             cluster.close()
         raise ClusterUnreachable(address, str(err) or type(err).__name__) from None
+    except RuntimeError as err:     # Dask: a local worker's nanny failed to start its process
+        raise ClusterUnreachable(address, f"its workers did not start ({err})",
+                                 WORKER_START_TIMEOUT) from None
     client.run(_preload, numeric)
     return client, None
 
