@@ -34,8 +34,9 @@ Faults, as in a local run:
   ``_stop_workers``) and becomes "timed out after N s";
 * SIGINT (``KeyboardInterrupt``) or SIGTERM (``pool.Interrupted``): every future is cancelled and
   ``runner.RunInterrupted`` carries the results that finished;
-* a scheduler that does not answer within ``CONNECT_TIMEOUT`` s, or a ``local:N`` cluster none
-  of whose workers joins within ``WORKER_START_TIMEOUT`` s: ``ClusterUnreachable``.
+* a scheduler that does not answer within ``CONNECT_TIMEOUT`` s, a ``local:N`` cluster whose
+  workers cannot start, or one left with no worker for ``WORKER_START_TIMEOUT`` s while files
+  wait: ``ClusterUnreachable``.
 
 ``distributed`` is imported only here, and this module only when a cluster is asked for.
 """
@@ -56,8 +57,8 @@ from .runner import (RunInterrupted, RunOptions, _bar, _check_task, _done, _erro
 
 #: seconds to wait for a scheduler before giving up on it
 CONNECT_TIMEOUT = 5.0
-#: seconds a ``local:N`` cluster's workers may take to start (they join while the files are
-#: handed out; over a second at a load average of 10 on 2 cores)
+#: seconds a ``local:N`` cluster may be without a worker (its workers starting, or restarting
+#: after a death; over a second at a load average of 10 on 2 cores) before the run gives up
 WORKER_START_TIMEOUT = 60.0
 #: times a file may kill its worker on a ``local:N`` cluster before it becomes an error
 LOCAL_ALLOWED_FAILURES = 2
@@ -398,14 +399,14 @@ class _Run:
         self.bar = _bar(files, options)
         self.limit = options.timeout
         local = getattr(client, "cluster", None)          # a ``local:N`` cluster started here
-        self.joining = f"{LOCAL}{len(local.worker_spec)}" if local is not None else None
-        self.began = time.monotonic()
-        if self.limit and self.joining:
+        self.local = f"{LOCAL}{len(local.worker_spec)}" if local is not None else None
+        self.unmanned = None             # since when (time.monotonic) no worker has been seen
+        if self.limit and self.local:
             # a file's clock starts when it is handed out: only once every worker has joined
             try:
                 client.wait_for_workers(len(local.worker_spec), timeout=WORKER_START_TIMEOUT)
             except TimeoutError:
-                raise ClusterUnreachable(self.joining, "its workers did not start",
+                raise ClusterUnreachable(self.local, "its workers did not start",
                                          WORKER_START_TIMEOUT) from None
         # with a limit, tasks are handed out no faster than the cluster has threads
         self.window = max(1, sum(client.nthreads().values())) if self.limit else None
@@ -417,17 +418,21 @@ class _Run:
         self.finished = as_completed(with_results=True, raise_errors=False)
 
     def joined(self) -> bool:
-        """Whether the client may sleep until a result arrives: once a worker of a local
-        cluster has joined (a remote scheduler's workers may come later, and the run waits
-        for them).  Raises ClusterUnreachable when none of a local cluster's workers has
-        joined within ``WORKER_START_TIMEOUT`` s of the start (a worker that cannot start must
-        not leave the run waiting for ever)."""
-        if self.joining and (self.done or self.client.nthreads()):
-            self.joining = None
-        elif self.joining and time.monotonic() > self.began + WORKER_START_TIMEOUT:
-            raise ClusterUnreachable(self.joining, "no worker process started",
+        """Whether the client may sleep until a result arrives: while a local cluster has a
+        worker (a remote scheduler's workers may come later, and the run waits for them).
+        Raises ClusterUnreachable when a local cluster has had no worker for
+        ``WORKER_START_TIMEOUT`` s with files still to run (every worker lost and none
+        restarted must not leave the run waiting for ever)."""
+        if self.local is None:
+            return True
+        if self.client.nthreads():
+            self.unmanned = None
+            return True
+        self.unmanned = self.unmanned or time.monotonic()
+        if time.monotonic() > self.unmanned + WORKER_START_TIMEOUT:
+            raise ClusterUnreachable(self.local, "its workers were lost and none restarted",
                                      WORKER_START_TIMEOUT)
-        return not self.joining
+        return False
 
     def hand_out(self) -> None:
         """Submit waiting files while the window allows (a file counts its pieces too; one

@@ -11,6 +11,7 @@ import shutil
 import subprocess
 import sys
 import time
+import types
 from pathlib import Path
 
 import pytest
@@ -338,3 +339,20 @@ def test_no_worker_outlives_the_run(tmp_path):
     while any(_alive(pid) for pid in pids) and time.monotonic() < deadline:
         time.sleep(0.05)
     assert not [pid for pid in pids if _alive(pid)]
+
+
+def test_a_local_cluster_left_without_workers_ends_the_run_instead_of_waiting(monkeypatch):
+    """Every worker lost and none restarted: the client stops sleeping on results (joined is
+    False) and, past the bound with no worker, the run ends with ClusterUnreachable."""
+    monkeypatch.setattr(cluster, "WORKER_START_TIMEOUT", 0.2)
+    workers: dict = {"tcp://w1": 1}
+    run = types.SimpleNamespace(local="local:2", unmanned=None,
+                                client=types.SimpleNamespace(nthreads=lambda: workers))
+    assert cluster._Run.joined(run) and run.unmanned is None
+    workers.clear()
+    assert not cluster._Run.joined(run) and run.unmanned is not None
+    time.sleep(0.3)
+    with pytest.raises(cluster.ClusterUnreachable, match="workers were lost"):
+        cluster._Run.joined(run)
+    remote = types.SimpleNamespace(local=None, unmanned=None, client=run.client)
+    assert cluster._Run.joined(remote)         # a remote scheduler's workers may come later
