@@ -45,6 +45,7 @@ from __future__ import annotations
 
 import contextlib
 import logging
+import math
 import time
 from dataclasses import dataclass, field
 from typing import Callable, Iterable
@@ -246,12 +247,9 @@ def _start(address: str, numeric: bool):
     names started first; the workers of a scheduler started elsewhere import the engines now,
     before their first file (whose time limit would otherwise include the imports).
 
-    A ``local:N`` cluster returns once its N workers have started (each runs ``dask_setup``
-    of this module as it starts).  Handing files to the first worker that joins, before its
-    nanny had seen it start, saved ~50 ms but lost workers for good: a file that killed a
-    worker in that window failed the nanny's start, so the nanny did not restart it, and with
-    every worker lost so the run waited for ever (one run in four of the worker-death test).
-    A worker that cannot start is ``ClusterUnreachable``."""
+    A ``local:N`` cluster returns once its N workers have started (each runs ``dask_setup``):
+    a file that kills a worker its nanny has not yet seen start loses it for good (no
+    restart).  A worker that cannot start is ``ClusterUnreachable``."""
     from distributed import Client, LocalCluster
 
     cluster = None
@@ -274,6 +272,8 @@ def _start(address: str, numeric: bool):
             cluster.close()
         raise ClusterUnreachable(address, str(err) or type(err).__name__) from None
     except RuntimeError as err:     # Dask: a local worker's nanny failed to start its process
+        if not address.startswith(LOCAL):
+            raise
         raise ClusterUnreachable(address, f"its workers did not start ({err})",
                                  WORKER_START_TIMEOUT) from None
     client.run(_preload, numeric)
@@ -365,7 +365,8 @@ def _gather(client, files: list[str], options: RunOptions, missing: list[FileRes
     try:
         while len(run.done) < len(files):
             run.hand_out()
-            if not run.collect(block=not run.limit and run.joined()):
+            present = run.joined()   # sleep on results only where nothing else ends a wait
+            if not run.collect(block=present and not run.limit and run.local is None):
                 run.expire()
                 time.sleep(_POLL)
         _second_chance(client, files, run.done, options, work)
@@ -401,6 +402,7 @@ class _Run:
         local = getattr(client, "cluster", None)          # a ``local:N`` cluster started here
         self.local = f"{LOCAL}{len(local.worker_spec)}" if local is not None else None
         self.unmanned = None             # since when (time.monotonic) no worker has been seen
+        self.looked = -math.inf          # when the workers were last looked at
         if self.limit and self.local:
             # a file's clock starts when it is handed out: only once every worker has joined
             try:
@@ -418,18 +420,18 @@ class _Run:
         self.finished = as_completed(with_results=True, raise_errors=False)
 
     def joined(self) -> bool:
-        """Whether the client may sleep until a result arrives: while a local cluster has a
-        worker (a remote scheduler's workers may come later, and the run waits for them).
-        Raises ClusterUnreachable when a local cluster has had no worker for
-        ``WORKER_START_TIMEOUT`` s with files still to run (every worker lost and none
-        restarted must not leave the run waiting for ever)."""
-        if self.local is None:
-            return True
+        """Whether a worker is there (a remote scheduler's may come later: always True).
+        Raises ClusterUnreachable when a local cluster has had none for
+        ``WORKER_START_TIMEOUT`` s (all lost, none restarted: the run must not wait for ever)."""
+        now = time.monotonic()
+        if self.local is None or (self.unmanned is None and now < self.looked + 1.0):
+            return True                  # a scheduler round trip at most once a second
+        self.looked = now
         if self.client.nthreads():
             self.unmanned = None
             return True
-        self.unmanned = self.unmanned or time.monotonic()
-        if time.monotonic() > self.unmanned + WORKER_START_TIMEOUT:
+        self.unmanned = self.unmanned or now
+        if now > self.unmanned + WORKER_START_TIMEOUT:
             raise ClusterUnreachable(self.local, "its workers were lost and none restarted",
                                      WORKER_START_TIMEOUT)
         return False
@@ -467,8 +469,7 @@ class _Run:
 
     def collect(self, block: bool = False) -> bool:
         """Record the files that finished; False when none had.  ``block``: wait for one
-        (without a time limit there is nothing else to do: the client's thread sleeps until a
-        result arrives instead of looking every ``_POLL`` s; Dask's wait wakes for signals)."""
+        (Dask's wait wakes for signals) instead of looking every ``_POLL`` s."""
         batch = self.finished.next_batch(block=block and bool(self.running))
         for future, result in batch:
             task = self.running.pop(future, None)

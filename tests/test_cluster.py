@@ -346,13 +346,15 @@ def test_a_local_cluster_left_without_workers_ends_the_run_instead_of_waiting(mo
     False) and, past the bound with no worker, the run ends with ClusterUnreachable."""
     monkeypatch.setattr(cluster, "WORKER_START_TIMEOUT", 0.2)
     workers: dict = {"tcp://w1": 1}
-    run = types.SimpleNamespace(local="local:2", unmanned=None,
+    run = types.SimpleNamespace(local="local:2", unmanned=None, looked=-math.inf,
                                 client=types.SimpleNamespace(nthreads=lambda: workers))
     assert cluster._Run.joined(run) and run.unmanned is None
     workers.clear()
+    assert cluster._Run.joined(run)             # looked at most once a second
+    run.looked = -math.inf
     assert not cluster._Run.joined(run) and run.unmanned is not None
     time.sleep(0.3)
     with pytest.raises(cluster.ClusterUnreachable, match="workers were lost"):
         cluster._Run.joined(run)
-    remote = types.SimpleNamespace(local=None, unmanned=None, client=run.client)
+    remote = types.SimpleNamespace(local=None, unmanned=None, looked=-math.inf, client=run.client)
     assert cluster._Run.joined(remote)         # a remote scheduler's workers may come later

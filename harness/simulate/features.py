@@ -29,6 +29,7 @@ import numpy as np
 
 from ..results import SIGN_CHANGE, Diagnostic
 from .integrate import IntervalRun
+from .modal import NOISE  # the integration's error on a state, in units of its tolerance
 
 #: post-pulse fit window, in units of the post-pulse start s_a
 WINDOW = 20.0
@@ -44,8 +45,6 @@ FIT_SPAN = 1e-3
 FIT_RESIDUAL = 3e-6
 #: the tail's time constant is read above 100 times this fraction of the probe scale
 TAIL_NOISE = 1e-10
-#: the integration's error on a state, in units of its absolute tolerance (as in ``modal``)
-NOISE = 10.0
 #: points of the geometric grid on which the held response is examined for time constants
 GRID = 400
 #: Gauss-Legendre nodes per integrator step for the pulse integrals
