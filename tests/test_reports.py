@@ -18,7 +18,7 @@ import pandas as pd
 import pytest
 
 from harness import report
-from harness.model import CAPACITOR, RESISTOR, VOLTAGE_SOURCE, Circuit, Part
+from harness.model import CAPACITOR, INDUCTOR, RESISTOR, VOLTAGE_SOURCE, Circuit, Part
 from harness.outcome import (ENGINES_DISAGREE, ERROR, MISMATCH, PASS, CheckResult, FieldResult,
                              FileResult, RunResult, Trace, worst)
 from harness.report import atomic, cautions, console, csvout, html, jsonout, junit, markdown
@@ -411,6 +411,20 @@ def test_cautions_for_400_v_and_not_for_3v3():
                   "Insulation", "local electrical codes", "licensed practice"):
         assert topic in joined
     assert cautions_for(_rc_circuit(3.3, 1e-6)) == ()
+
+
+def test_cautions_speak_of_the_storage_parts_the_circuit_holds():
+    """A coil-only circuit at 400 V gets the flyback caution and none about capacitors' stored
+    charge; an RC circuit gets no sentence about coils (common practice: a capacitor needs a
+    bleeder, a coil a flyback path)."""
+    coil = Circuit(title="rl", parts=(
+        Part("V1", VOLTAGE_SOURCE, ("in", "gnd"), value=0.0, steps=((0.0, 400.0),)),
+        Part("R1", RESISTOR, ("in", "out"), value=100.0),
+        Part("L1", INDUCTOR, ("out", "gnd"), value=1e-3)))
+    joined = " ".join(cautions_for(coil))
+    assert "flyback path" in joined and "capacitors" not in joined and "bleeder" not in joined
+    joined = " ".join(cautions_for(_rc_circuit(400.0, 1e-9)))
+    assert "bleeder" in joined and "inductor" not in joined and "flyback" not in joined
 
 
 def test_cautions_threshold_is_above_60_v():

@@ -89,12 +89,7 @@ def cautions_for(circuit: Circuit, *, voltages: Iterable[float] = (), jumps: Ite
     for name, (joules, how) in sorted(hot.items(), key=lambda item: -item[1][0]):
         notes.append(f"Stored energy: {name} {how}, above the {format_si(HAZARD_ENERGY, 'J')} "
                      f"this report flags.")
-    notes.append("Stored charge after power-off: capacitors can stay charged long after the supply "
-                 "is removed or a fuse opens; measure the voltage before touching, and do not rely "
-                 "on a calculated time constant alone.")
-    notes.append("Discharge paths: provide a bleeder or discharge path rated for the voltage and "
-                 "energy, and check it brings the voltage below a safe level in the required time "
-                 "(after 5 τ about 0.7 % remains); inductor currents need a flyback path.")
+    notes.extend(_storage_notes(circuit))
     notes.append("Pulse ratings: the parts that absorb a step's pulse (series and pre-charge "
                  "resistors, switches, snubbers, fuses) must be rated for the pulse energy and "
                  "peak voltage, not only for average power." + _pulse_text(jumps))
@@ -103,6 +98,25 @@ def cautions_for(circuit: Circuit, *, voltages: Iterable[float] = (), jumps: Ite
                      "wiring must suit the working voltage; use probes and meters rated for it.")
     notes.append(DEFERRAL)
     return tuple(notes)
+
+
+def _storage_notes(circuit: Circuit) -> list[str]:
+    """The cautions about stored charge and discharge paths, for the storage kinds the circuit
+    holds: a coil-only circuit gets no note about capacitors, and the other way round."""
+    kinds = {part.kind for part in circuit.parts}
+    notes: list[str] = []
+    if CAPACITOR in kinds:
+        notes.append("Stored charge after power-off: capacitors can stay charged long after the "
+                     "supply is removed or a fuse opens; measure the voltage before touching, and "
+                     "do not rely on a calculated time constant alone.")
+        notes.append("Discharge paths: provide a bleeder or discharge path rated for the voltage "
+                     "and energy, and check it brings the voltage below a safe level in the "
+                     "required time (after 5 τ about 0.7 % remains)"
+                     + ("; inductor currents need a flyback path." if INDUCTOR in kinds else "."))
+    elif INDUCTOR in kinds:
+        notes.append("Discharge paths: inductor currents need a flyback path rated for the "
+                     "current and stored energy whenever the supply or a switch can open.")
+    return notes
 
 
 def factor(circuit: Circuit, part: Part) -> float:
