@@ -16,7 +16,7 @@ split, a local run merges the same pieces in the same order (``variation.samplin
 corner's value is taken only where the file's own search ends on that corner
 (``variation.shard``): the result is the bytes of a local run.
 
-Files are handed out heaviest first (``_heaviest_first``).  A ``local:N`` cluster's workers are
+Files are handed out heaviest first (``runner.heavy_first``).  A ``local:N`` cluster's workers are
 forked from this process once it has imported the engines (``_local_settings``), the cluster
 starts on a thread while the files are read and planned (``_connect``, with the garbage
 collector paused: ``_collector_paused``), and files are handed out once its workers have
@@ -54,7 +54,7 @@ from . import clusterparts
 from .outcome import FileResult, RunResult
 from .pool import Interrupted
 from .runner import (RunInterrupted, RunOptions, _bar, _check_task, _done, _error_result,
-                     _preload, collect)
+                     _preload, collect, heavy_first)
 
 #: seconds to wait for a scheduler before giving up on it
 CONNECT_TIMEOUT = 5.0
@@ -356,9 +356,10 @@ def _fresh_offload_thread() -> None:
 
 
 def _gather(client, files: list[str], options: RunOptions, missing: list[FileResult],
-            work: Callable, plans: list[dict] | None = None) -> list[FileResult]:
+            work: Callable, plans: list | None = None) -> list[FileResult]:
     """Submit the files, collect their results as they finish (progress, deadlines).
-    ``plans``: each file's Monte Carlo pieces (``clusterparts.plan``; read here when not given)."""
+    ``plans``: each file's weight and Monte Carlo pieces (``clusterparts.plan``; read here
+    when not given)."""
     if plans is None:
         plans = [clusterparts.plan(f, options.tolerance, options.numeric) for f in files]
     run = _Run(client, files, options, work, plans)
@@ -394,7 +395,7 @@ class _Run:
     """The state of one run on the cluster: files waiting, files running, results."""
 
     def __init__(self, client, files: list[str], options: RunOptions, work: Callable,
-                 plans: list[dict]) -> None:
+                 plans: list) -> None:
         from distributed import as_completed
         self.client, self.files, self.options, self.work = client, files, options, work
         self.bar = _bar(files, options)
@@ -414,8 +415,9 @@ class _Run:
         self.window = max(1, sum(client.nthreads().values())) if self.limit else None
         self.done: dict[int, FileResult] = {}
         self.running: dict = {}              # the file's future -> _Task
-        self.plans = plans
-        self.pending = _heaviest_first(files, plans)
+        self.plans = [splits for _, splits in plans]
+        self.pending = heavy_first([weight for weight, _ in plans],
+                                   [sum(s.tasks for s in splits.values()) for _, splits in plans])
         # results are fetched by the client's event loop as the files finish
         self.finished = as_completed(with_results=True, raise_errors=False)
 
@@ -541,27 +543,6 @@ def _parent_of(pid: int) -> int | None:
         return os.getpid() if not os.path.isdir("/proc") else None
     except (OSError, ValueError, IndexError):
         return None
-
-
-def _heaviest_first(files: list[str], plans: list[dict]) -> list[int]:
-    """The files' indices in the order they are handed out: those with Monte Carlo pieces
-    first, then those with spec limits (each runs a Monte Carlo over every sample, 0.1-0.25 s
-    of the library's files on a quiet machine, more than most files' whole analysis, which
-    their size in bytes does not show: the smallest file of the library was always the last
-    to end), then by size in bytes, largest first (a rough measure of the work: the heavy
-    files start early and the run does not end on one of them), collection order among
-    equals.  Spread over two workers, the library's measured durations end 0.08 s sooner in
-    this order than by size alone (tests/benchmarks/RESULTS.md)."""
-    def weight(i: int) -> tuple:
-        with contextlib.suppress(OSError), open(files[i], "rb") as handle:
-            text = handle.read()
-            return (b"spec" in text, len(text))
-        return (False, 0)
-
-    weights = [weight(i) for i in range(len(files))]
-    return sorted(range(len(files)),
-                  key=lambda i: (-sum(split.tasks for split in plans[i].values()),
-                                 not weights[i][0], -weights[i][1]))
 
 
 def _second_chance(client, files: list[str], done: dict, options: RunOptions,
