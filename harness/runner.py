@@ -139,8 +139,7 @@ def _analyse(path: str, circuit, numeric: bool, started: float,
         from .variation.analyse import analyse_circuit
         spreads = analyse_circuit(circuit, numeric, samples)
         checks = tuple(replace(c, verdict=worst([c.verdict] + [
-            s.verdict for s in spreads if s.check.startswith(f"expect #{c.index + 1}:")]))
-            for c in result.checks)
+            s.verdict for s in spreads if s.index == c.index])) for c in result.checks)
         corner = [v for s in spreads if s.unit == "V" for v in (s.low, s.high)]
         if corner:   # the cautions again, with the worst-corner voltages the analysis found
             cautions = cautions_for(circuit, voltages=volts, jumps=jumps,
