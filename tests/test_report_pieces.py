@@ -73,6 +73,45 @@ def test_pieces_that_do_not_fit_the_result_are_not_used(here):
     assert drawn.get(dataclasses.replace(file, title="another")) is None
 
 
+def test_pieces_drawn_from_other_traces_are_not_used(here):
+    """The pieces fit only the waveforms they were drawn from: a check whose trace differs in
+    one sample of its numerical waveform (or a mark), a schedule that differs in one value, a
+    spread with another sample, each leaves them aside; the same result after a trip through
+    pickle (as it comes back from a worker) still fits."""
+    import pickle
+    file = next(f for f in here.files if f.checks and f.checks[0].trace is not None)
+    drawn = Drawn()
+    drawn.add(file.file, draw(file, True))
+    assert drawn.get(pickle.loads(pickle.dumps(file))) is not None
+    trace = file.checks[0].trace
+    moved = trace.numeric_x.copy()
+    moved[len(moved) // 2] += 1e-9 * max(trace.scale, 1.0)
+    for other in (dataclasses.replace(trace, numeric_x=moved),
+                  dataclasses.replace(trace, marks=trace.marks + (("peak", 0.0, 1.0),))):
+        checks = (dataclasses.replace(file.checks[0], trace=other),) + file.checks[1:]
+        assert drawn.get(dataclasses.replace(file, checks=checks)) is None
+    probe = file.schedule.probes[0]
+    values = probe.closed_x.copy()
+    values[0] += 1.0
+    schedule = dataclasses.replace(file.schedule, probes=(dataclasses.replace(
+        probe, closed_x=values),) + file.schedule.probes[1:])
+    assert drawn.get(dataclasses.replace(file, schedule=schedule)) is None
+
+
+def test_pieces_drawn_from_other_samples_are_not_used(here):
+    """The spec sample rows fit only the samples they were written from."""
+    file = next(f for f in here.files if f.spreads and f.spreads[0].samples is not None)
+    drawn = Drawn()
+    drawn.add(file.file, draw(file, False))
+    assert drawn.get(file) is not None
+    spread = file.spreads[0]
+    samples = spread.samples.copy()
+    samples[0] *= 1.5
+    other = dataclasses.replace(file, spreads=(dataclasses.replace(spread, samples=samples),)
+                                + file.spreads[1:])
+    assert drawn.get(other) is None
+
+
 def test_spec_files_are_handed_out_first(tmp_path):
     """The order is written out by hand: spec'd files first, then by size, largest first."""
     plain, spec, variation = (tmp_path / n for n in ("a.toml", "b.toml", "c.toml"))
