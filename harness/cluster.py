@@ -7,16 +7,12 @@ each) for the run and stops it afterwards.  Each task is ``runner.check_file`` o
 the workers read the file themselves, so the file must be reachable at the same path on every
 worker (a relative path is read from the worker's working folder).
 
-A file whose Monte Carlo spans more than one piece (``variation.shard.plan``, read on the
-client) also gets a task per piece, and, when the numerical engine runs, a task searching its
-extreme corners and one per corner running the engine there (``clusterparts``); its own task
-waits for them and is handed the pieces' summaries and the corners' values, so one heavy file
-spreads over the workers.  The samples do not depend on the
-split, a local run merges the same pieces in the same order (``variation.sampling``), and a
-corner's value is taken only where the file's own search ends on that corner
-(``variation.shard``): the result is the bytes of a local run.
+A file whose Monte Carlo spans more than one piece also gets a task per piece and, when the
+numerical engine runs, tasks for its extreme corners (``clusterparts``, which says why the
+result is the bytes of a local run); its own task waits for them and is handed their values,
+so one heavy file spreads over the workers.
 
-Files are handed out heaviest first (``_heaviest_first``).  A ``local:N`` cluster's workers are
+Files are handed out heaviest first (``runner.heavy_first``).  A ``local:N`` cluster's workers are
 forked from this process once it has imported the engines (``_local_settings``), the cluster
 starts on a thread while the files are read and planned (``_connect``, with the garbage
 collector paused: ``_collector_paused``), and files are handed out once its workers have
@@ -34,9 +30,11 @@ Faults, as in a local run:
   ``_stop_workers``) and becomes "timed out after N s";
 * SIGINT (``KeyboardInterrupt``) or SIGTERM (``pool.Interrupted``): every future is cancelled and
   ``runner.RunInterrupted`` carries the results that finished;
-* a scheduler that does not answer within ``CONNECT_TIMEOUT`` s, a ``local:N`` cluster whose
-  workers cannot start, or one left with no worker for ``WORKER_START_TIMEOUT`` s while files
-  wait: ``ClusterUnreachable``.
+* a ``local:N`` cluster left with no worker for ``WORKER_START_TIMEOUT`` s (its workers lost,
+  none restarted): the files done are kept, every other file becomes an ``error`` naming the
+  cause (``_Run.abandon``), and the run ends as one with errors;
+* a scheduler that does not answer within ``CONNECT_TIMEOUT`` s, or a ``local:N`` cluster whose
+  workers cannot start: ``ClusterUnreachable``.
 
 ``distributed`` is imported only here, and this module only when a cluster is asked for.
 """
@@ -54,7 +52,7 @@ from . import clusterparts
 from .outcome import FileResult, RunResult
 from .pool import Interrupted
 from .runner import (RunInterrupted, RunOptions, _bar, _check_task, _done, _error_result,
-                     _preload, collect)
+                     _preload, collect, heavy_first)
 
 #: seconds to wait for a scheduler before giving up on it
 CONNECT_TIMEOUT = 5.0
@@ -356,9 +354,10 @@ def _fresh_offload_thread() -> None:
 
 
 def _gather(client, files: list[str], options: RunOptions, missing: list[FileResult],
-            work: Callable, plans: list[dict] | None = None) -> list[FileResult]:
+            work: Callable, plans: list | None = None) -> list[FileResult]:
     """Submit the files, collect their results as they finish (progress, deadlines).
-    ``plans``: each file's Monte Carlo pieces (``clusterparts.plan``; read here when not given)."""
+    ``plans``: each file's weight and Monte Carlo pieces (``clusterparts.plan``; read here
+    when not given)."""
     if plans is None:
         plans = [clusterparts.plan(f, options.tolerance, options.numeric) for f in files]
     run = _Run(client, files, options, work, plans)
@@ -366,10 +365,12 @@ def _gather(client, files: list[str], options: RunOptions, missing: list[FileRes
         while len(run.done) < len(files):
             run.hand_out()
             present = run.joined()   # sleep on results only where nothing else ends a wait
-            if not run.collect(block=present and not run.limit and run.local is None):
+            if not present and run.deserted():
+                run.abandon()        # every file not done: an error naming the cause
+            elif not run.collect(block=present and not run.limit and run.local is None):
                 run.expire()
                 time.sleep(_POLL)
-        _second_chance(client, files, run.done, options, work)
+        _second_chance(run)
     except (KeyboardInterrupt, Interrupted) as stop:
         client.cancel(run.futures(list(run.running)), force=True)
         signum = getattr(stop, "signum", 2)
@@ -394,7 +395,7 @@ class _Run:
     """The state of one run on the cluster: files waiting, files running, results."""
 
     def __init__(self, client, files: list[str], options: RunOptions, work: Callable,
-                 plans: list[dict]) -> None:
+                 plans: list) -> None:
         from distributed import as_completed
         self.client, self.files, self.options, self.work = client, files, options, work
         self.bar = _bar(files, options)
@@ -414,15 +415,15 @@ class _Run:
         self.window = max(1, sum(client.nthreads().values())) if self.limit else None
         self.done: dict[int, FileResult] = {}
         self.running: dict = {}              # the file's future -> _Task
-        self.plans = plans
-        self.pending = _heaviest_first(files, plans)
+        self.plans = [splits for _, splits in plans]
+        self.pending = heavy_first([weight for weight, _ in plans],
+                                   [sum(s.tasks for s in splits.values()) for _, splits in plans])
         # results are fetched by the client's event loop as the files finish
         self.finished = as_completed(with_results=True, raise_errors=False)
 
     def joined(self) -> bool:
-        """Whether a worker is there (a remote scheduler's may come later: always True).
-        Raises ClusterUnreachable when a local cluster has had none for
-        ``WORKER_START_TIMEOUT`` s (all lost, none restarted: the run must not wait for ever)."""
+        """Whether a worker is there (a remote scheduler's may come later: always True); a
+        local cluster's workers are looked at once a second at most."""
         now = time.monotonic()
         if self.local is None or (self.unmanned is None and now < self.looked + 1.0):
             return True                  # a scheduler round trip at most once a second
@@ -431,10 +432,26 @@ class _Run:
             self.unmanned = None
             return True
         self.unmanned = self.unmanned or now
-        if now > self.unmanned + WORKER_START_TIMEOUT:
-            raise ClusterUnreachable(self.local, "its workers were lost and none restarted",
-                                     WORKER_START_TIMEOUT)
         return False
+
+    def deserted(self) -> bool:
+        """Whether a local cluster has had no worker for ``WORKER_START_TIMEOUT`` s, as
+        ``joined`` last saw it (all lost, none restarted: the run must not wait for ever)."""
+        return time.monotonic() > (self.unmanned or math.inf) + WORKER_START_TIMEOUT
+
+    def abandon(self) -> None:
+        """End the run on a deserted cluster as other faults end a file: the results in hand
+        are kept; every file not done (running, cancelled with its parts, or waiting) becomes
+        an ``error`` naming the cause."""
+        self.collect()
+        self.client.cancel(self.futures(list(self.running)), force=True)
+        left = sorted([t.index for t in self.running.values()] + self.pending)
+        self.running, self.pending = {}, []
+        why = (f"{_DESERTED} {self.local} for {WORKER_START_TIMEOUT:g} s (its workers were lost "
+               f"and none restarted); the file was not analysed")
+        for i in left:
+            self.done[i] = _error_result(self.files[i], f"{self.files[i]}: {why}")
+            self.bar.step()
 
     def hand_out(self) -> None:
         """Submit waiting files while the window allows (a file counts its pieces too; one
@@ -543,49 +560,32 @@ def _parent_of(pid: int) -> int | None:
         return None
 
 
-def _heaviest_first(files: list[str], plans: list[dict]) -> list[int]:
-    """The files' indices in the order they are handed out: those with Monte Carlo pieces
-    first, then those with spec limits (each runs a Monte Carlo over every sample, 0.1-0.25 s
-    of the library's files on a quiet machine, more than most files' whole analysis, which
-    their size in bytes does not show: the smallest file of the library was always the last
-    to end), then by size in bytes, largest first (a rough measure of the work: the heavy
-    files start early and the run does not end on one of them), collection order among
-    equals.  Spread over two workers, the library's measured durations end 0.08 s sooner in
-    this order than by size alone (tests/benchmarks/RESULTS.md)."""
-    def weight(i: int) -> tuple:
-        with contextlib.suppress(OSError), open(files[i], "rb") as handle:
-            text = handle.read()
-            return (b"spec" in text, len(text))
-        return (False, 0)
-
-    weights = [weight(i) for i in range(len(files))]
-    return sorted(range(len(files)),
-                  key=lambda i: (-sum(split.tasks for split in plans[i].values()),
-                                 not weights[i][0], -weights[i][1]))
-
-
-def _second_chance(client, files: list[str], done: dict, options: RunOptions,
-                   work: Callable) -> None:
+def _second_chance(run: _Run) -> None:
     """Run again, one at a time, every file whose worker died or whose task the cluster lost:
     a dying worker also takes the files it held beside the one that killed it, and a file run
-    alone can only die of itself.  Its new result replaces the error; a file that fails again
-    keeps it."""
-    from distributed import wait
-    for i in [i for i, r in sorted(done.items())
+    alone can only die of itself.  Its new result replaces the error; a file that fails again,
+    runs past the per-file limit or finds the cluster deserted (``_Run.deserted``) keeps it."""
+    options = run.options
+    for i in [i for i, r in sorted(run.done.items())
               if r.errors and (_DIED in r.errors[0] or _LOST in r.errors[0])]:
-        future = client.submit(work, files[i], options.numeric, options.tolerance, pure=False)
-        with contextlib.suppress(TimeoutError):     # past the per-file limit: it keeps its error
-            wait([future], timeout=options.timeout)
+        future = run.client.submit(run.work, run.files[i], options.numeric, options.tolerance,
+                                   pure=False)
+        end = time.monotonic() + (options.timeout or math.inf)
+        while future.status == "pending" and time.monotonic() < end and \
+                (run.joined() or not run.deserted()):
+            time.sleep(_POLL)
         if future.status == "finished":
-            done[i] = future.result()
+            run.done[i] = future.result()
         else:
-            client.cancel([future], force=True)
+            run.client.cancel([future], force=True)
 
 
 #: the words of a file result whose worker died, or whose task the cluster lost (``_outcome``):
 #: ``check_file`` never raises, so a task without a result always means cluster trouble
 _DIED = "the worker process analysing this file died"
 _LOST = "the cluster could not analyse this file"
+#: the words of a file not analysed because the cluster was left without workers (``abandon``)
+_DESERTED = "no worker left on the cluster"
 
 
 def _outcome(future, file: str) -> FileResult:

@@ -1,5 +1,6 @@
 """A heavy file's spread analysis spread over a Dask cluster (``harness.cluster``): the plan,
-read on the client, of the expectations whose Monte Carlo spans more than one piece
+read on the client with the file's weight (the order files are handed out in), of the
+expectations whose Monte Carlo spans more than one piece
 (``plan``), and the tasks the workers run for them: a task per piece (``piece``: samples
 [start, stop) of one expectation), and, when the numerical engine runs, a task searching its
 extreme corners from the box alone (``corners``) and one per corner running the engine there
@@ -15,7 +16,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Callable
 
-from .runner import native_output_silenced
+from .runner import Weight, native_output_silenced
 
 
 @dataclass(frozen=True)
@@ -32,22 +33,28 @@ class Split:
         return len(self.ranges) + (1 + self.corners if self.corners else 0)
 
 
-def plan(path: str, tolerance: float | None, numeric: bool) -> dict:
-    """Expectation index -> ``Split``, read here on the client: the expectations whose Monte
-    Carlo spans more than one piece (``variation.shard.plan``), with their corners
-    (``shard.corner_count``) when the numerical engine runs; none for a file without spec
-    limits, or one that cannot be read here (its task says why)."""
+def plan(path: str, tolerance: float | None, numeric: bool) -> tuple[Weight, dict]:
+    """(the file's ``runner.Weight``, expectation index -> ``Split``), the file read once, here
+    on the client: the expectations whose Monte Carlo spans more than one piece
+    (``variation.shard.plan``), with their corners (``shard.corner_count``) when the numerical
+    engine runs; none for a file its weight does not mark as spec'd, or one that cannot be read
+    here (its task says why)."""
     try:
         with open(path, "rb") as handle:
-            if b"spec" not in handle.read():
-                return {}
-        from .circuitfile import read_circuit
+            data = handle.read()
+    except OSError:
+        return Weight(), {}
+    weight = Weight.of(data)
+    if not weight.spread:
+        return weight, {}
+    try:
+        from .circuitfile import parse_circuit
         from .variation import shard
-        circuit = read_circuit(path, tolerance)
-        return {index: Split(ranges, shard.corner_count(circuit, index) if numeric else 0)
-                for index, ranges in shard.plan(circuit).items()}
+        circuit = parse_circuit(data.decode("utf-8"), path, tolerance)
+        return weight, {index: Split(ranges, shard.corner_count(circuit, index) if numeric else 0)
+                        for index, ranges in shard.plan(circuit).items()}
     except Exception:  # planning only spreads the work; the file's own task reports faults
-        return {}
+        return weight, {}
 
 
 def submit_parts(client, path: str, tolerance: float | None, plan: dict):

@@ -178,12 +178,11 @@ def _unresolved_mode(d: r.Diagnostic) -> str:
 
 
 def _below_resolution(d: r.Diagnostic) -> str:
-    field, _, rest = d.detail.partition(" ")
-    unit, _, how = rest.partition(" ")
+    field, _, unit = d.detail.partition(" ")
     closed, numeric, res = (format_si(d.value(n), unit) for n in ("closed", "numeric",
                                                                    "resolution"))
     why = ("twice the change in its value when it re-solves at tighter tolerances, and its "
-           "inductor shunts" if how else
+           "inductor shunts" if d.refined else
            "its integration tolerance on the states the probe reads, and its inductor shunts")
     return (f"{field} not cross-checked: the closed form gives {closed} and the numerical engine "
             f"{numeric}, apart by more than the engines' tolerance but less than the numerical "

@@ -34,6 +34,9 @@ class Diagnostic:
             one with ``value(name)``.
         detail: a machine token refining the code (an integrator status such as ``horizon``),
             never a sentence; empty where none.
+        refined: whether its values were established by the numerical engine's re-solve at
+            tighter tolerances (``below-resolution``: ``Solution.refined_resolution``) rather
+            than from its integration tolerance; False where that does not apply.
         engine: ``numeric`` when the numerical engine reports it (the reports name that
             engine), else empty.
     """
@@ -45,6 +48,7 @@ class Diagnostic:
     nodes: tuple[str, ...] = ()
     values: tuple[tuple[str, float], ...] = ()
     detail: str = ""
+    refined: bool = False
     engine: str = field(default="", compare=False)
 
     def value(self, name: str, default: float | None = None) -> float | None:
@@ -96,8 +100,8 @@ UNRESOLVED_MODE = "unresolved-mode"
 # Found by the comparator from the numerical engine's ``value_resolution``: interval, time,
 # detail the field, values closed (the closed form's value), numeric (the numerical engine's)
 # and resolution (that engine's resolution of the probe, in the probe's unit: the two differ
-# by less, though by more than the engines' tolerance); detail "FIELD UNIT", followed by
-# " re-solved" where that engine's re-solve at tighter tolerances established the resolution
+# by less, though by more than the engines' tolerance); detail "FIELD UNIT"; ``refined``
+# where that engine's re-solve at tighter tolerances established the resolution
 # (``refined_resolution``):
 BELOW_RESOLUTION = "below-resolution"
 #: every diagnostic code an engine may report (each has its sentence in ``harness.messages``)

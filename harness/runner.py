@@ -139,8 +139,7 @@ def _analyse(path: str, circuit, numeric: bool, started: float,
         from .variation.analyse import analyse_circuit
         spreads = analyse_circuit(circuit, numeric, samples)
         checks = tuple(replace(c, verdict=worst([c.verdict] + [
-            s.verdict for s in spreads if s.check.startswith(f"expect #{c.index + 1}:")]))
-            for c in result.checks)
+            s.verdict for s in spreads if s.index == c.index])) for c in result.checks)
         corner = [v for s in spreads if s.unit == "V" for v in (s.low, s.high)]
         if corner:   # the cautions again, with the worst-corner voltages the analysis found
             cautions = cautions_for(circuit, voltages=volts, jumps=jumps,
@@ -334,10 +333,11 @@ def _run_workers(files: list[str], options: RunOptions, missing: list[FileResult
     tasks = [(f, options.numeric, options.tolerance) for f in files]
     if drawn is not None:
         tasks = [task + (drawn.with_plots,) for task in tasks]
+    order = heavy_first([weigh(f) for f in files])
     try:
         done = run_tasks(tasks, _check_task if drawn is None else _drawing_task,
                          jobs=options.jobs, timeout=limit, on_timeout=timed_out, on_death=died,
-                         on_done=lambda i: bar.step(), order=heavy_first(files))
+                         on_done=lambda i: bar.step(), order=order)
         done = {i: _kept(result, drawn) for i, result in done.items()}
     except PoolInterrupted as stop:
         stop.done = {i: _kept(result, None) for i, result in stop.done.items()}
@@ -349,26 +349,51 @@ def _run_workers(files: list[str], options: RunOptions, missing: list[FileResult
     return [done[i] for i in range(len(files))]
 
 
-#: what marks a file whose spec'd fields are analysed over tolerances (a ``spec`` key or a
-#: ``[variation]`` table): extremes and a Monte Carlo, several times a plain file's work
-_SPREAD = re.compile(rb"^[ \t]*(spec[ \t]*=|\[variation\])", re.MULTILINE)
+#: what marks a file whose spec'd fields are analysed over tolerances: a ``spec`` key (bare,
+#: in an inline table, dotted or as a table header; not inside a quoted string such as a title)
+#: or a ``[variation]`` table.  Read from the text alone: a file is only read, not parsed, to be
+#: weighed (a false mark costs a parse, never a result)
+_SPREAD = re.compile(rb"(?<![\w\"'-])spec[ \t]*[=.\]]|^[ \t]*\[variation\]", re.MULTILINE)
 
 
-def heavy_first(files: list[str]) -> list[int]:
-    """The order the workers take the files in: files with spec'd fields (by their text) first,
-    then the rest, collection order within each; so the run does not end on a heavy file
-    while the other workers are idle (measured on the library: its six spec'd files come last
-    in collection order and took 0.15-0.35 s each against ~0.05 s for most others).  The
-    order changes nothing in the results, which stay in collection order."""
-    def spread(path: str) -> bool:
-        try:
-            with open(path, "rb") as handle:
-                return _SPREAD.search(handle.read()) is not None
-        except OSError:
-            return False
-    marked = [spread(f) for f in files]
-    return [i for i in range(len(files)) if marked[i]] + \
-        [i for i in range(len(files)) if not marked[i]]
+@dataclass(frozen=True)
+class Weight:
+    """A file's work as its text shows it (``weigh``): ``spread`` whether it has spec'd fields
+    (extremes and a Monte Carlo, several times a plain file's work: ``_SPREAD``), ``size`` its
+    length in bytes (a rough measure of the rest)."""
+
+    spread: bool = False
+    size: int = 0
+
+    @classmethod
+    def of(cls, data: bytes) -> "Weight":
+        """The weight of a file's bytes."""
+        return cls(_SPREAD.search(data) is not None, len(data))
+
+
+def weigh(path: str) -> Weight:
+    """The file's ``Weight``, its bytes read once; a file that cannot be read weighs nothing
+    (its analysis says why)."""
+    try:
+        with open(path, "rb") as handle:
+            return Weight.of(handle.read())
+    except OSError:
+        return Weight()
+
+
+def heavy_first(weights: list[Weight], parts: list[int] | None = None) -> list[int]:
+    """The order files are handed out in (the worker pool's and the cluster's), as indices into
+    ``weights``: by their tasks apart from their own (``parts``: a cluster's Monte Carlo
+    pieces and corner runs, most first), then those with spec'd fields, then by size, largest
+    first, collection order among equals; so the run does not end on a heavy file while the
+    other workers are idle (measured on the library: its spec'd files took 0.1-0.35 s each
+    against ~0.05 s for most others, which their size does not show; spread over two workers
+    the measured durations end 0.08 s sooner in this order than by size alone:
+    tests/benchmarks/RESULTS.md).  The order changes nothing in the results, which stay in
+    collection order."""
+    parts = parts or [0] * len(weights)
+    return sorted(range(len(weights)),
+                  key=lambda i: (-parts[i], not weights[i].spread, -weights[i].size))
 
 
 def _kept(outcome, drawn) -> FileResult:

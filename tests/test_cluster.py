@@ -341,20 +341,89 @@ def test_no_worker_outlives_the_run(tmp_path):
     assert not [pid for pid in pids if _alive(pid)]
 
 
-def test_a_local_cluster_left_without_workers_ends_the_run_instead_of_waiting(monkeypatch):
+def test_a_local_cluster_left_without_workers_is_seen_deserted(monkeypatch):
     """Every worker lost and none restarted: the client stops sleeping on results (joined is
-    False) and, past the bound with no worker, the run ends with ClusterUnreachable."""
+    False) and, past the bound with no worker, the cluster is deserted (the run then ends)."""
     monkeypatch.setattr(cluster, "WORKER_START_TIMEOUT", 0.2)
     workers: dict = {"tcp://w1": 1}
     run = types.SimpleNamespace(local="local:2", unmanned=None, looked=-math.inf,
                                 client=types.SimpleNamespace(nthreads=lambda: workers))
     assert cluster._Run.joined(run) and run.unmanned is None
+    assert not cluster._Run.deserted(run)
     workers.clear()
     assert cluster._Run.joined(run)             # looked at most once a second
     run.looked = -math.inf
     assert not cluster._Run.joined(run) and run.unmanned is not None
+    assert not cluster._Run.deserted(run)
     time.sleep(0.3)
-    with pytest.raises(cluster.ClusterUnreachable, match="workers were lost"):
-        cluster._Run.joined(run)
+    assert not cluster._Run.joined(run) and cluster._Run.deserted(run)
+    workers["tcp://w2"] = 1                     # a worker back in time: the wait goes on
+    assert cluster._Run.joined(run) and not cluster._Run.deserted(run)
     remote = types.SimpleNamespace(local=None, unmanned=None, looked=-math.inf, client=run.client)
     assert cluster._Run.joined(remote)         # a remote scheduler's workers may come later
+
+
+def _stuck(path, numeric, tolerance):  # shipped by value: the workers run this
+    import time as clock
+    from harness.runner import check_file
+    if "stuck" in path:
+        clock.sleep(600)
+    return check_file(path, numeric)
+
+
+def test_a_deserted_cluster_keeps_the_files_done_and_writes_the_reports(tmp_path, monkeypatch,
+                                                                        capsys):
+    """Once three files are done the cluster is made to look empty (``joined`` stubbed as in
+    the test above; a real loss of every worker for good cannot be arranged reliably): past
+    the bound the run ends as one with errors (exit 2, README's exit codes), the three files
+    keep their results, the stuck one is an error naming the cause, and the reports are
+    written."""
+    folder, reports = tmp_path / "files", tmp_path / "reports"
+    folder.mkdir()
+    files = _few_files(folder, "stuck")
+    monkeypatch.setattr(cluster, "WORKER_START_TIMEOUT", 0.5)
+    real = cluster._Run.joined
+
+    def lonely(run):
+        if len(run.done) < 3:
+            return real(run)
+        run.unmanned = run.unmanned or time.monotonic()
+        return False
+    monkeypatch.setattr(cluster._Run, "joined", lonely)
+    original = cluster.run
+    monkeypatch.setattr(cluster, "run", lambda paths, options, address:
+                        original(paths, options, address, work=_stuck))
+    started = time.monotonic()
+    code = main(["check", str(folder), "--cluster", "local:2", "--closed-form-only",
+                 "--no-plots", "--report-dir", str(reports)])
+    assert time.monotonic() - started < 120
+    assert code == 2, capsys.readouterr().err
+    written = json.loads((reports / "results.json").read_text())
+    by_name = {Path(f["file"]).name: f for f in written["files"]}
+    assert [f["file"] for f in written["files"]] == files
+    assert {n: f["verdict"] for n, f in by_name.items()} == {
+        "f0.toml": "pass", "f1.toml": "pass", "f2.toml": "pass", "stuck.toml": "error"}
+    assert "no worker left on the cluster local:2 for 0.5 s" in by_name["stuck.toml"]["errors"][0]
+    assert (reports / "junit.xml").exists() and (reports / "report.html").exists()
+
+
+def test_a_second_chance_on_a_deserted_cluster_keeps_the_error(monkeypatch):
+    """A file whose worker died is run again alone at the end; on a cluster left without
+    workers for the bound that run never starts, so the file keeps its error at once instead
+    of waiting for ever (no time limit set)."""
+    from harness.runner import _error_result
+    monkeypatch.setattr(cluster, "WORKER_START_TIMEOUT", 0.2)
+    cancelled = []
+    future = types.SimpleNamespace(status="pending")
+    client = types.SimpleNamespace(nthreads=lambda: {}, submit=lambda *a, **k: future,
+                                   cancel=lambda futures, force: cancelled.extend(futures))
+    died = _error_result("a.toml", f"a.toml: {cluster._DIED} each time the cluster tried it")
+    run = types.SimpleNamespace(local="local:2", unmanned=None, looked=-math.inf, client=client,
+                                files=["a.toml"], options=RunOptions(), work=_plain,
+                                done={0: died})
+    run.joined = lambda: cluster._Run.joined(run)
+    run.deserted = lambda: cluster._Run.deserted(run)
+    started = time.monotonic()
+    cluster._second_chance(run)
+    assert run.done[0] is died and cancelled == [future]
+    assert time.monotonic() - started < 5.0

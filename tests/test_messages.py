@@ -53,6 +53,25 @@ def test_numbers_go_through_format_si():
     assert messages.text(note) == "oscillates without decay at 1.592 MHz"
 
 
+@pytest.mark.parametrize("refined, why", [
+    (False, "its integration tolerance on the states the probe reads"),
+    (True, "twice the change in its value when it re-solves at tighter tolerances")])
+def test_a_re_solved_resolution_is_a_field_of_the_diagnostic(refined, why):
+    """Whether the numerical engine's re-solve established the resolution is the diagnostic's
+    ``refined`` field, not a word in its ``detail`` (which names the field and its unit
+    alone); the sentence says which bound it is.  Two such diagnostics differ as data."""
+    d = Diagnostic(results.BELOW_RESOLUTION, 1e-3, 1, values=(
+        ("closed", 2.5), ("numeric", 2.501), ("resolution", 5e-3)), detail="after V",
+        refined=refined)
+    assert messages.text(d) == (
+        "after not cross-checked: the closed form gives 2.5 V and the numerical engine "
+        "2.501 V, apart by more than the engines' tolerance but less than the numerical "
+        f"engine's resolution of this probe, 5 mV ({why}, and its inductor shunts); the "
+        "closed form's value stands alone: a limit of the numerical engine")
+    assert d != Diagnostic(d.code, d.time, d.interval, values=d.values, detail=d.detail,
+                           refined=not refined)
+
+
 def test_same_data_is_one_diagnostic():
     """Equality and hashing follow the data (the reporting engine is not part of it)."""
     a = Diagnostic(results.FLOATING_NODES, 1e-3, nodes=("m",))

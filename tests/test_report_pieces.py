@@ -10,11 +10,11 @@ from pathlib import Path
 
 import pytest
 
-from harness import pool
+from harness import clusterparts, pool
 from harness.outcome import require_checks
 from harness.report import spreads, write_all, writeall
 from harness.report.pieces import Drawn, draw
-from harness.runner import RunOptions, heavy_first, run
+from harness.runner import RunOptions, Weight, heavy_first, run, weigh
 from tests.benchmarks.reports_diff import differences
 
 LIBRARY = "circuits/library"
@@ -73,13 +73,87 @@ def test_pieces_that_do_not_fit_the_result_are_not_used(here):
     assert drawn.get(dataclasses.replace(file, title="another")) is None
 
 
+def test_pieces_drawn_from_other_traces_are_not_used(here):
+    """The pieces fit only the waveforms they were drawn from: a check whose trace differs in
+    one sample of its numerical waveform (or a mark), a schedule that differs in one value, a
+    spread with another sample, each leaves them aside; the same result after a trip through
+    pickle (as it comes back from a worker) still fits."""
+    import pickle
+    file = next(f for f in here.files if f.checks and f.checks[0].trace is not None)
+    drawn = Drawn()
+    drawn.add(file.file, draw(file, True))
+    assert drawn.get(pickle.loads(pickle.dumps(file))) is not None
+    trace = file.checks[0].trace
+    moved = trace.numeric_x.copy()
+    moved[len(moved) // 2] += 1e-9 * max(trace.scale, 1.0)
+    for other in (dataclasses.replace(trace, numeric_x=moved),
+                  dataclasses.replace(trace, marks=trace.marks + (("peak", 0.0, 1.0),))):
+        checks = (dataclasses.replace(file.checks[0], trace=other),) + file.checks[1:]
+        assert drawn.get(dataclasses.replace(file, checks=checks)) is None
+    probe = file.schedule.probes[0]
+    values = probe.closed_x.copy()
+    values[0] += 1.0
+    schedule = dataclasses.replace(file.schedule, probes=(dataclasses.replace(
+        probe, closed_x=values),) + file.schedule.probes[1:])
+    assert drawn.get(dataclasses.replace(file, schedule=schedule)) is None
+
+
+def test_pieces_drawn_from_other_samples_are_not_used(here):
+    """The spec sample rows fit only the samples they were written from."""
+    file = next(f for f in here.files if f.spreads and f.spreads[0].samples is not None)
+    drawn = Drawn()
+    drawn.add(file.file, draw(file, False))
+    assert drawn.get(file) is not None
+    spread = file.spreads[0]
+    samples = spread.samples.copy()
+    samples[0] *= 1.5
+    other = dataclasses.replace(file, spreads=(dataclasses.replace(spread, samples=samples),)
+                                + file.spreads[1:])
+    assert drawn.get(other) is None
+
+
 def test_spec_files_are_handed_out_first(tmp_path):
+    """The order is written out by hand: spec'd files first, then by size, largest first."""
     plain, spec, variation = (tmp_path / n for n in ("a.toml", "b.toml", "c.toml"))
     plain.write_text('title = "spec = not at a line start"\n')
     spec.write_text("[[expect]]\n  spec = { tau = { max = \"1 ms\" } }\n")
     variation.write_text("[variation]\nresistors = \"F\"\n")
     files = [str(plain), str(spec), str(tmp_path / "gone.toml"), str(variation)]
-    assert heavy_first(files) == [1, 3, 0, 2]
+    sizes = [len(f.read_bytes()) for f in (plain, spec, variation)]
+    assert [weigh(f) for f in files] == [Weight(False, sizes[0]), Weight(True, sizes[1]),
+                                         Weight(), Weight(True, sizes[2])]
+    assert heavy_first([weigh(f) for f in files]) == [1, 3, 0, 2]
+    # a cluster's Monte Carlo pieces and corner runs come before everything else
+    assert heavy_first([weigh(f) for f in files], [0, 0, 0, 5]) == [3, 1, 0, 2]
+
+
+@pytest.mark.parametrize("text, spread", [
+    ('[[expect]]\nnode = "x"\nspec.tau.max = "1 ms"\n', True),        # dotted key
+    ('[[expect]]\nnode = "x"\n[expect.spec]\ntau = { max = "1 ms" }\n', True),   # header
+    ('expect = [{ node = "x", spec = { tau = { max = "1 ms" } } }]\n', True),  # inline table
+    ('title = "a spectrum"\n# the spectrum of the edge\n', False),
+    ("title = 'spec = in a literal string'\n", False),
+])
+def test_what_marks_a_spec_d_file(text, spread):
+    """Each way TOML (v1.0.0: dotted keys, table headers, inline tables) can hold the
+    ``spec`` key marks the file; the word elsewhere does not."""
+    assert Weight.of(text.encode()).spread is spread
+
+
+def test_the_cluster_plan_reads_a_file_once_and_weighs_it_as_the_pool_does(monkeypatch):
+    """``clusterparts.plan`` opens the file once, and its weight is the pool's (one rule)."""
+    import builtins
+    path = f"{LIBRARY}/tolerance/soft-start-spread.toml"
+    opened, real = [], builtins.open
+
+    def counting(file, *args, **kwargs):
+        opened.append(str(file))
+        return real(file, *args, **kwargs)
+    monkeypatch.setattr(builtins, "open", counting)
+    weight, splits = clusterparts.plan(path, None, True)
+    monkeypatch.setattr(builtins, "open", real)
+    assert opened.count(path) == 1
+    assert weight == weigh(path) and weight.spread and splits == {}
 
 
 def test_without_plots_the_workers_draw_the_sample_rows_alone(here, tmp_path, monkeypatch):

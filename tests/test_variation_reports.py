@@ -112,3 +112,50 @@ def test_failing_spec_has_its_row_in_the_table_and_its_limit_on_the_line(tmp_pat
     spread = run.files[0].spreads[0]
     assert spread.high == pytest.approx(max(times), rel=1e-6)
     assert spread.low == pytest.approx(min(times), rel=1e-6)
+
+
+TWINS = """
+title = "two checks of one probe at one time"
+[variation]
+samples = 2000
+seed = 3
+distribution = "uniform"
+[parts]
+V1 = { kind = "voltage-source", nodes = ["a", "gnd"], value = "0 V", steps = [["0 s", "1 V"]] }
+R1 = { kind = "resistor", nodes = ["a", "b"], value = "1k", spread = "5%" }
+C1 = { kind = "capacitor", nodes = ["b", "gnd"], value = "1u", spread = "10%" }
+[[expect]]
+node = "b"
+tau = "1 ms"
+spec = { tau = { max = "1.0 ms" } }
+[[expect]]
+node = "b"
+tau = "1 ms"
+spec = { tau = { max = "2 ms" } }
+"""
+
+
+def test_two_checks_that_share_their_words_keep_their_own_spreads(tmp_path):
+    """Two expectations of one probe at one time: τ = RC = 1 ms nominal, 0.855-1.155 ms over
+    R ±5 %, C ±10 % (the textbook worst case of a product, RC(1 ± a)(1 ± b)); about half the
+    uniform samples pass 1.0 ms, none pass 2 ms.  Each check takes the verdict of its own
+    spread, and the reports list a failing spread under its own check, even where the two
+    spreads' words are made the same (the match is by the expectation's index)."""
+    import dataclasses
+    from harness.report import common
+    path = tmp_path / "twins.toml"
+    path.write_text(TWINS, encoding="utf-8")
+    result = check_file(str(path), numeric=False)
+    first, second = result.checks
+    assert [s.index for s in result.spreads] == [0, 1]
+    assert result.spreads[0].high == pytest.approx(1e-3 * 1.05 * 1.10, rel=1e-9)
+    assert (first.verdict, second.verdict) == ("mismatch", "pass")
+    same = dataclasses.replace(result, spreads=tuple(
+        dataclasses.replace(s, check="node b at 0 s") for s in result.spreads))
+    assert common.failing_specs(same, first) == [(0, same.spreads[0])]
+    assert common.failing_specs(same, second) == []
+    # and the other way round: the failing spread under the second check only
+    swapped = dataclasses.replace(same, spreads=tuple(
+        dataclasses.replace(s, index=1 - s.index) for s in same.spreads))
+    assert common.failing_specs(swapped, first) == []
+    assert common.failing_specs(swapped, second) == [(0, swapped.spreads[0])]

@@ -172,15 +172,16 @@ class CheckContext:
         if limit is None or closed is None or numeric is None \
                 or not tol.agree(closed, numeric, 0.0, limit):
             return ""
-        detail = f"{name} {unit}"
         refined = self.numeric.refined_resolution(self.probe, self.k, name)
-        if refined is not None and refined < limit:
-            limit, detail = refined, f"{detail} re-solved"
+        narrowed = refined is not None and refined < limit
+        if narrowed:
+            limit = refined
             if not tol.agree(closed, numeric, 0.0, limit):
                 return ""
         return text(Diagnostic(BELOW_RESOLUTION, self.circuit.events[self.k], self.k,
                                values=(("closed", closed), ("numeric", numeric),
-                                       ("resolution", limit)), detail=detail))
+                                       ("resolution", limit)), detail=f"{name} {unit}",
+                               refined=narrowed))
 
     @property
     def unjudged(self) -> bool:

@@ -209,10 +209,10 @@ def shown_fields(check: CheckResult) -> list[FieldResult]:
 
 def failing_specs(file: FileResult, check: CheckResult) -> list[tuple[int, Any]]:
     """(index in ``file.spreads``, spread) of each spec'd field of ``check`` that does not pass
-    over the parts' tolerances: the check's own fields may all pass while these fail it."""
-    head = f"expect #{check.index + 1}:"
+    over the parts' tolerances: the check's own fields may all pass while these fail it.
+    Matched by the expectation's index the spread carries, never by its words."""
     return [(j, s) for j, s in enumerate(file.spreads)
-            if s.check.startswith(head) and s.verdict != PASS]
+            if s.index == check.index and s.verdict != PASS]
 
 
 def field_note(field: FieldResult) -> str:

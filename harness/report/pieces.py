@@ -16,7 +16,11 @@ by ``write_all`` as before.
 
 from __future__ import annotations
 
+import dataclasses
+import hashlib
 from dataclasses import dataclass
+
+import numpy as np
 
 from ..outcome import FileResult
 from .plot_schedule import SCHEDULE
@@ -40,10 +44,52 @@ class FilePieces:
 
 
 def shape(file: FileResult) -> tuple:
-    """What a file's pieces depend on beyond the objects that travel with them: its path,
-    title, check indices and number of spreads (``require_checks`` changes none of them)."""
-    return (file.file, file.title, tuple(c.index for c in file.checks), len(file.spreads),
-            file.schedule is None)
+    """What a file's pieces are drawn from, checked before they are used: its path and title,
+    and a digest (``digest``) of the rest the drawing reads: the schedule's waveforms; each
+    check's index, probe, time, its fields' names, units and values (the hand curve) and its
+    trace (every waveform, mark and line); each spread's words, field, quantities and samples.
+    Pieces drawn from a result that differs in any of them (another run's, a check replaced
+    after the worker drew it) are left aside and the file is drawn again."""
+    checks = tuple((c.index, c.probe, c.at, tuple((f.name, f.unit, f.hand, f.closed_form,
+                                                   f.numeric) for f in c.fields), c.trace)
+                   for c in file.checks)
+    spreads = tuple((s.check, s.name, tuple(s.units), s.samples, s.sample_deviations)
+                    for s in file.spreads)
+    return file.file, file.title, digest((file.schedule, checks, spreads))
+
+
+def digest(value) -> str:
+    """A BLAKE2b digest (hex) of ``value``'s content: None, numbers, text, numpy arrays (their
+    dtype, shape and bytes), sequences, mappings and dataclasses (field by field), each fed
+    with its type, so equal content gives equal digests in any process (a result that
+    travelled from a worker included) and a changed sample or value a different one."""
+    h = hashlib.blake2b(digest_size=16)
+    _feed(h, value)
+    return h.hexdigest()
+
+
+def _feed(h, value) -> None:
+    """``value`` into the hash ``h`` (``digest``), with a tag and length before each part."""
+    if isinstance(value, np.ndarray):
+        data = np.ascontiguousarray(value)
+        h.update(f"array {data.dtype.str} {data.shape}|".encode())
+        h.update(data.tobytes() if data.dtype != object else repr(data.tolist()).encode())
+    elif dataclasses.is_dataclass(value) and not isinstance(value, type):
+        h.update(f"{type(value).__qualname__}|".encode())
+        for f in dataclasses.fields(value):
+            _feed(h, getattr(value, f.name))
+    elif isinstance(value, (tuple, list)):
+        h.update(f"seq {len(value)}|".encode())
+        for item in value:
+            _feed(h, item)
+    elif isinstance(value, dict):
+        h.update(f"map {len(value)}|".encode())
+        for key, item in value.items():
+            _feed(h, key)
+            _feed(h, item)
+    else:       # None, bool, int, float (repr is exact), str, numpy scalars
+        text = repr(value.item() if isinstance(value, np.generic) else value)
+        h.update(f"{type(value).__name__} {len(text)}|{text}".encode())
 
 
 def plot_items(file: FileResult, i) -> list[tuple]:

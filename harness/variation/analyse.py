@@ -191,9 +191,10 @@ def _field(circuit, exp, name, col, quantities, nominal, grad, pair, how, acc, r
         normalised = grad / nominal if nominal else grad * np.nan
     ranked = sorted(((q.name, float(s)) for q, s in zip(quantities, normalised)),
                     key=lambda item: -abs(item[1]) if math.isfinite(item[1]) else 0.0)
-    result = dict(check=f"{exp.label}: {exp.probe.label} at {exp.at:g} s", name=name,
-                  unit=unit, limits={"min": limits.min, "max": limits.max,
-                                     "hand_min": limits.hand_min, "hand_max": limits.hand_max},
+    result = dict(check=f"{exp.label}: {exp.probe.label} at {exp.at:g} s", index=exp.index,
+                  name=name, unit=unit,
+                  limits={"min": limits.min, "max": limits.max,
+                          "hand_min": limits.hand_min, "hand_max": limits.hand_max},
                   nominal=_num(nominal), sensitivities=tuple(ranked), route=route,
                   units={q.name: q.unit for q in quantities})
     lo_val = hi_val = None

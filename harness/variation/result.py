@@ -18,7 +18,8 @@ class SpreadResult:
     its relative deviation from nominal there (-0.3 is 30 % below its value).
     """
 
-    check: str                      # "expect #1: node rst at 0 s"
+    check: str                      # "expect #1: node rst at 0 s" (words, for the reports)
+    index: int                      # its expectation's index (``Expectation.index``): the key
     name: str                       # field name (model.SPEC_FIELDS)
     unit: str
     verdict: str

@@ -409,7 +409,7 @@ def monte_carlo(repeats: int) -> dict:
         whole = check_file(path)
         out["here"] = time.perf_counter() - start
         out.update(_parts_here(path, circuit, plan))
-        now = clusterparts.plan(path, None, True)
+        weight, now = clusterparts.plan(path, None, True)
         ways = {"now": now, "before": {i: replace(s, corners=0) for i, s in now.items()}}
         for workers in (1, 2):
             with cluster._connect(f"local:{workers}", True) as ready:
@@ -419,7 +419,7 @@ def monte_carlo(repeats: int) -> dict:
                     for way, split in ways.items():
                         start = time.perf_counter()
                         got = cluster._gather(client, [path], RunOptions(), [], _check_task,
-                                              [split])
+                                              [(weight, split)])
                         times[way].append(time.perf_counter() - start)
                         assert [s.to_json() for s in got[0].spreads] == \
                             [s.to_json() for s in whole.spreads]

@@ -8,7 +8,7 @@ the system's monotonic clock (``time.perf_counter``, one clock for every process
   tasks (mean, largest), its last tasks;
 * the end of the run: when each worker's last task ended, and how the files' measured
   durations would have been spread over two workers in collection order (the worker pool),
-  largest file first (the cluster's ``_heaviest_first``) and longest first by the measured
+  largest file first (the cluster's order once) and longest first by the measured
   durations themselves (the best an estimate could do), one file at a time per worker
   (list scheduling) and with the next file held behind the one running
   (``cluster.LOCAL_SATURATION``).
