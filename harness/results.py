@@ -83,6 +83,10 @@ STOPPED = "integration-stopped"            # interval, time: later intervals not
 NOT_REACHED = "not-reached"                # time (interval for a probe): stopped before it
 NO_FINAL = "no-final-value"                # interval, time; detail: the integrator's status
 SIGN_CHANGE = "sign-change"                # the post-pulse response changes sign
+# values deviation (the largest |x - x_inf| after the pulse) and noise (the integration's own
+# error in the probe), both in the probe's unit (detail: that unit): the deviation is within
+# that error, so no time constant is established
+FLAT_RESPONSE = "flat-response"
 # Either engine, one probe at one event (``Features.notes``): time, interval, parts the
 # resistors and outputs carrying the impulse (``IMPULSIVE`` hazard): the probe itself carries
 # an impulse there, so no value just after the event is claimed (``after`` is None):
@@ -108,7 +112,7 @@ BELOW_RESOLUTION = "below-resolution"
 DIAGNOSTIC_CODES = (FLOATING_NODES, UNDAMPED_OSCILLATION, STATE_OVERFLOW, IMPULSE_DERIVATIVE,
                     IMPULSIVE_CURRENT, IMPULSIVE_VOLTAGE, RESPONSE_OVERFLOW, NO_DECAY,
                     GROWING_MODE, NO_DC_PATH, PULSE_GROWTH, UNSETTLED, WORK_BUDGET, BREAKDOWN,
-                    STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE, UNDEFINED_CURRENT,
+                    STOPPED, NOT_REACHED, NO_FINAL, SIGN_CHANGE, FLAT_RESPONSE, UNDEFINED_CURRENT,
                     IMPULSIVE_VALUE, UNRESOLVED_MODE, BELOW_RESOLUTION)
 
 

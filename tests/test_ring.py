@@ -139,3 +139,35 @@ def test_overshoot_of_a_nearly_critical_ring_lies_beyond_ten_envelope_tau(r):
     probe = Probe("node", ("b",))
     assert closedform.solve(circuit).overshoot(probe, 0) == pytest.approx(over, rel=1e-6)
     assert numeric(circuit).overshoot(probe, 0) == pytest.approx(over, rel=1e-3)
+
+
+BANDPASS_PULSE = """
+[parts]
+V1 = { kind = "voltage-source", nodes = ["in", "gnd"], value = "0 V", steps = [["0 s", "5 V"]] }
+R1 = { kind = "resistor", nodes = ["in", "b"], value = "10k" }
+C1 = { kind = "capacitor", nodes = ["b", "gnd"], value = "10n" }
+C2 = { kind = "capacitor", nodes = ["b", "a"], value = "100n" }
+R2 = { kind = "resistor", nodes = ["a", "gnd"], value = "100k" }
+[[expect]]
+node = "a"
+overshoot = HAND
+"""
+
+
+@pytest.mark.parametrize("hand", ["0", "0.5"])
+def test_an_overshoot_of_a_step_below_the_noise_floor_never_passes(hand):
+    # Hand analysis (written out): at 0+ both capacitors hold 0 V (a capacitor's voltage is
+    # continuous, textbook), so v(a) = 0; at DC C2 blocks and R2 pulls a to 0 V, so
+    # x(∞) = 0: the step x(∞) − x(0+) is 0 and v(a) is a hump from 0 back to 0, with no step
+    # to overshoot.  The engines' steps are rounding (fV against a 5 V source), so the
+    # overshoot, excursion over step, is 0 or ~1e14 by the sign of that rounding: the hand
+    # 0 passed.  It is a mismatch naming the step and the noise floor, whatever the hand says.
+    circuit = parse_circuit(BANDPASS_PULSE.replace("HAND", hand))
+    exact = closedform.solve(circuit)
+    fe = exact.features(Probe("node", ("a",)), 0)
+    assert abs(fe.after) < 1e-12 and abs(fe.final) < 1e-12
+    result = compare_file(circuit, exact, numeric(circuit))
+    field = next(f for f in result.checks[0].fields if f.name == "overshoot")
+    assert field.verdict == "mismatch", field
+    assert "no step above its noise floor" in field.message
+    assert "noise floor 5 nV" in field.message          # PROBE_NOISE 1e-9 of the 5 V source

@@ -52,7 +52,8 @@ Method (no time stepping; plain dense linear algebra).
    that but above its own rounding, re-read from the pencil on the general route and eigh's
    on the symmetric one, is a slow real mode, resolved at a shift moved down to it; where the
    circuit has no controlled part the exact number of zero modes comes from its graph,
-   ``nullity``: islands cut off from ground at DC plus loops of zero-resistance branches, and
+   ``nullity``: islands cut off from ground at DC plus loops of zero-resistance branches (with
+   one, it is 0 where the DC matrix is provably nonsingular, ``nullity.nonsingular``), and
    a zero cluster larger than that holds slow modes below rounding (14-16 decades under the
    fastest), looked for at the lowest shift that keeps the fastest finite and resolved at the
    centre of both, the symmetric route handing them to the general one), and clusters

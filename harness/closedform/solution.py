@@ -383,9 +383,9 @@ def _pencil(circuit, layout, scale, null, closed, groups, cache, time) -> Pencil
         g, c, _ = stamp(circuit, layout, closed, lambda p: 0.0)
         pin(g, layout, groups, 1.0 / scale.r0)
         scaled(g, c, np.zeros(layout.size), layout, scale, overwrite=True)
+        zeros = zero_modes(circuit, closed, [group[0] for group in groups], g)
         kept_g, kept_c = Kept(g), Kept(c)
         del g, c                        # a large pencil is kept sparse (``response.Kept``)
-        zeros = zero_modes(circuit, closed, [group[0] for group in groups])
         try:
             cache[key] = pencil_of(kept_g, kept_c, null, zeros)
         except SingularPencil:

@@ -58,6 +58,17 @@ def _engine_ring_floor(name: str, fe: Features, ctx: CheckContext,
     return max(tol.ENGINE_FLOOR, tol.ENGINE_FLOOR * scale * (1.0 + largest) / step)
 
 
+def _noise_step_message(fe: Features, ctx: CheckContext) -> str:
+    """Why the overshoot of a probe whose step x_inf - x(t_k+) (closed form) is below its noise
+    floor is not established: the overshoot is excursion over step, and the step is rounding,
+    so its value (0 or 1e14 by the sign of that rounding) is no finding."""
+    step = fe.final - fe.after if fe.final is not None and fe.after is not None else None
+    unit = field_spec("after").unit_for(ctx.probe.dimension)
+    shown = "none" if step is None else format_si(step, unit)
+    return (f"no overshoot is defined: the probe has no step above its noise floor to settle "
+            f"from (x(∞) − x(0+) = {shown}, noise floor {format_si(ctx.noise, unit)})")
+
+
 def compare_ring(exp: Expectation, fe: Features, ctx: CheckContext, name: str) -> FieldResult:
     """The ring of the probe's slowest visible complex pair (damped frequency, damping ratio,
     Q) or its overshoot (a fraction of the step): hand vs closed form vs numeric; each engine
@@ -69,7 +80,9 @@ def compare_ring(exp: Expectation, fe: Features, ctx: CheckContext, name: str) -
     hand, unit = exp.hand[name], field_spec(name).unit_for(exp.probe.dimension)
     floor = tol.ENGINE_FLOOR if name == "overshoot" else 0.0
     verdict, message = PASS, ""
-    if name == "overshoot" and _engine_ring_floor(name, fe, ctx, (), ctx.scale) == math.inf:
+    noise_step = name == "overshoot" and \
+        _engine_ring_floor(name, fe, ctx, (), ctx.scale) == math.inf
+    if noise_step:
         computed = False              # a step below the noise floor: no engine verdict
     if computed and (closed is None) != (numeric is None) or (
             closed is not None and numeric is not None and not any(
@@ -83,6 +96,8 @@ def compare_ring(exp: Expectation, fe: Features, ctx: CheckContext, name: str) -
                    if name == "overshoot" else
                    f"the probe shows no decaying complex pair in this interval (order "
                    f"{fe.order}, modes {', '.join(format_si(t, 's') for t in fe.modes) or 'none'})")
+    elif noise_step:
+        verdict, message = MISMATCH, _noise_step_message(fe, ctx)
     elif not tol.agree(hand, closed, hand_relative(exp, ctx), tol.HAND_FLOOR if floor else 0.0):
         verdict = MISMATCH
         hand_text, closed_text = format_apart([hand, closed], unit)

@@ -13,7 +13,8 @@ from .. import tolerances as tol
 from ..fieldspec import DYNAMICS, PROBE_SCALE, RESOLVED, FieldSpec, field_spec
 from ..model import Expectation
 from ..outcome import ENGINES_DISAGREE, MISMATCH, PASS, FieldResult
-from ..results import Features
+from ..messages import text
+from ..results import FLAT_RESPONSE, Diagnostic, Features
 from .context import CheckContext, below_noise, hand_relative, snap_zero
 from .diagnose import explain
 from .message import engine_message
@@ -24,6 +25,18 @@ def _engine_ok(spec: FieldSpec, closed: float | None, numeric: float | None,
     if spec.judged == DYNAMICS and closed is None:
         return True  # e.g. numeric τ is only compared where the closed form says first order
     return tol.agree(closed, numeric, spec.engine_relative, floor)
+
+
+def _unestablished(name: str, closed: float | None, numeric: float | None,
+                   fn: Features) -> str:
+    """Why the numerical engine gives no τ where the closed form has one, or "": its response
+    stays within its own integration error in the probe (its ``flat-response`` note), so no
+    fit establishes one; the closed form's τ stands alone and the field says so (a limit of
+    that engine, never a silent pass)."""
+    if name != "tau" or closed is None or numeric is not None:
+        return ""
+    return "; ".join(text(n) for n in fn.notes
+                     if isinstance(n, Diagnostic) and n.code == FLAT_RESPONSE)
 
 
 def _judged(spec: FieldSpec, ctx: CheckContext) -> bool:
@@ -62,6 +75,8 @@ def compare_field(name: str, exp: Expectation, fe: Features, fn: Features | None
         apart = not _engine_ok(spec, closed, numeric, engine_floor)
     limit = ctx.below_resolution(name, closed, numeric, unit) \
         if apart and spec.floor == PROBE_SCALE else ""
+    if apart and not limit:
+        limit = _unestablished(name, closed, numeric, fn)
     if apart and not limit:
         verdict = ENGINES_DISAGREE
         message = engine_message(closed, numeric, unit)

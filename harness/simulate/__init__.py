@@ -96,8 +96,11 @@ Extraction (features.py)
     least-squares polynomial fitted to the post-pulse segment [s_a, s_a + W] (W = min(20 s_a,
     1e-3 t_fast)) and evaluated at the event: extrapolation back to t_k; final = the settled
     tail; tau = a weighted log-linear fit of x - x_inf when one exponential matches the whole
-    held response within 3e-6 of the probe's scale, else None with the slowest time constant
-    of the tail in ``modes``; order is left None (the exact engine decides it).  Pulse charges
+    held response within 3e-6 of the probe's scale (or the integration's error in the probe),
+    else None with the slowest time constant of the tail in ``modes``; never where x - x_inf
+    stays within that error (the ``flat-response`` note), which a visible deviation first
+    narrows by its own re-solve at tighter tolerances (twice the change, as
+    ``refined_resolution``); order is left None (the exact engine decides it).  Pulse charges
     integrate each part's current over [0, s_a] minus its post-pulse polynomial; the energy
     integrates r i^2 over the regularising resistances likewise.  A current through a carrier
     is read from KCL at a terminal whose other parts are not carriers (probes.py).

@@ -73,8 +73,8 @@ SHIFT = 1e-8
 #: mode): on that pencil QZ's slow rate was 1e-6 off the hand ODE's (mpmath), the width of
 #: the engines' dominant-τ tolerance; 4e-13 after one step
 REFINE_UP_TO = 64
-#: a refined rate that moves by more than this fraction of QZ's is not taken (the step mixed
-#: in a neighbouring mode; rounding moves it far less)
+#: a refined rate that moves by more than this fraction of QZ's is not taken, nor the step's
+#: vector (the step mixed in a neighbouring mode; rounding moves it far less)
 REFINE_MOVE = 1e-4
 
 
@@ -109,8 +109,11 @@ def _refined(sol, system, modes, i: int) -> tuple[complex, np.ndarray]:
     engine's ideal pencil (K_dc, M without the carriers' L_p, as in ``modal``):
     (K_dc + sigma M) w = M v_i with sigma = lambda_i (1 + SHIFT); as K_dc v = -lambda M v for
     the true vector, w = v / (sigma - lambda), so lambda = sigma - (u_i^H M v_i)/(u_i^H M w)
-    (Golub & Van Loan, Matrix Computations, 4th ed., sec. 7.6.1).  QZ's own where the solve
-    fails or the rate moves by more than ``REFINE_MOVE``.  Memoised per system and mode."""
+    (Golub & Van Loan, Matrix Computations, 4th ed., sec. 7.6.1).  QZ's own rate and vector
+    where the solve fails or the rate moves by more than ``REFINE_MOVE``: such a move means
+    u_i^H M w nearly vanished, w being another mode's vector more than this one's, and the
+    strength ``observed_modes`` reads from w is divided by that near-zero (a mode the probe
+    cannot see was counted in the dominant τ).  Memoised per system and mode."""
     key = ("refined", id(system), int(i))
     if key not in sol._cache:
         lam, v = complex(modes.lam[i]), modes.v[:, i]
@@ -127,7 +130,7 @@ def _refined(sol, system, modes, i: int) -> tuple[complex, np.ndarray]:
         if not (np.all(np.isfinite(w)) and np.any(w != 0)):
             w = v
         if not (np.isfinite(rate) and abs(rate - lam) <= REFINE_MOVE * abs(lam)):
-            rate = lam
+            rate, w = lam, v                # the step is not this mode's: neither is taken
         sol._cache[key] = (rate if lam.imag else complex(rate.real), w)
     return sol._cache[key]
 

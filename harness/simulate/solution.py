@@ -9,13 +9,13 @@ import numpy as np
 
 from ..errors import InputError
 from ..model import CAPACITOR, CONTROLLED, INDUCTOR, RESISTOR, SWITCH, THROUGH, Circuit, Probe
-from ..results import (IMPULSIVE_VALUE, NO_FINAL, NOT_REACHED, Diagnostic, Features, Jump,
-                       NotComputed)
+from ..results import (FLAT_RESPONSE, IMPULSIVE_VALUE, NO_FINAL, NOT_REACHED, Diagnostic,
+                       Features, Jump, NotComputed)
 from ..tolerances import MODE_VISIBILITY, NUMERIC_CURRENT_ROUNDING, SETTLE_FRACTION
 from .branches import Layout
 from .equations import System
-from .features import (FIT_RESIDUAL, decay, fit_window, mode_fits, post_pulse, probe_noise,
-                       pulse_points, values)
+from .features import (FIT_RESIDUAL, GRID, decay, fit_window, mode_fits, nearest_mode,
+                       post_pulse, probe_noise, pulse_points, values)
 from .integrate import IntervalRun, IntervalStats, interval_origin
 from .probes import probe_offset, probe_row, voltage_row
 from .regularise import Regularisation, gain_factor
@@ -28,11 +28,6 @@ ENGINE = "numeric"
 
 #: an impulsive charge below this fraction of (total capacitance x voltage scale) is noise
 CHARGE_FLOOR = 1e-9
-#: a fitted τ within this fraction of a mode of this engine's own pencil is that mode: the
-#: log-linear fit finds which mode the probe follows, the pencil's QZ gives its rate to
-#: rounding.  A fast mode of small amplitude (116 ps beside 250.7 ns, or a 1e-4 share) bends
-#: the fit by 2e-4 while leaving it within a fraction of a percent of its mode
-FIT_TO_MODE = 1e-2
 #: fit windows per time constant below which a mode's share of an after-value is unresolved
 #: (``NumericSolution.resolution``)
 RESOLVE = 25.0
@@ -339,38 +334,69 @@ class NumericSolution(NotComputed):
         if k >= len(self.runs):
             return Features(before, None, None, notes=(
                 Diagnostic(NOT_REACHED, self._t(k), k, engine=ENGINE),))
-        run = self.runs[k]
-        notes: tuple[Diagnostic, ...] = ()
-        tau, modes = None, ()
         if final is None:
-            notes = (Diagnostic(NO_FINAL, self._t(k), k, detail=run.status, engine=ENGINE),)
-        else:
-            scale = self.scale(probe)
-            w, _ = self._rows(probe, k)
-            noise = probe_noise(w, self.atol[self.systems[k].reduction.dyn])
-            tau, modes, notes = decay(run, w, self._offset(probe, k),
-                                      self.regularisation.post_pulse, final, scale,
-                                      MODE_VISIBILITY * scale, noise)
-            seen = visible_modes(self, probe, k, scale)
-            if seen is not None:
-                tau = _modal_tau(tau, seen.modes)
-                if tau is None and self._one_mode(probe, k, seen, max(FIT_RESIDUAL * scale,
-                                                                      noise)):
-                    tau, notes = seen.modes[0], ()
-                return Features(before, after, final, tau=tau, order=seen.order,
-                                modes=seen.modes, oscillation=seen.oscillation, notes=notes,
-                                rings=seen.rings, order_bounds=seen.bounds)
-        return Features(before, after, final, tau=tau, order=None, modes=modes, notes=notes)
+            return Features(before, after, final, notes=(
+                Diagnostic(NO_FINAL, self._t(k), k, detail=self.runs[k].status, engine=ENGINE),))
+        scale = self.scale(probe)
+        w, _ = self._rows(probe, k)
+        noise = probe_noise(w, self.atol[self.systems[k].reduction.dyn])
+        seen = visible_modes(self, probe, k, scale)
+        tau, modes, notes = self._tau(probe, k, seen, scale, noise)
+        if tau is None and any(n.code == FLAT_RESPONSE and n.value("deviation", 0.0) >
+                               MODE_VISIBILITY * scale for n in notes):
+            refined = self._refined_noise(probe, k)     # visible, within the coarse bound
+            if refined is not None and refined < noise:
+                tau, modes, notes = self._tau(probe, k, seen, scale, refined)
+        if seen is None:
+            return Features(before, after, final, tau=tau, order=None, modes=modes, notes=notes)
+        return Features(before, after, final, tau=tau, order=seen.order, modes=seen.modes,
+                        oscillation=seen.oscillation, notes=notes, rings=seen.rings,
+                        order_bounds=seen.bounds)
 
-    def _one_mode(self, probe: Probe, k: int, seen, allowed: float) -> bool:
+    def _tau(self, probe: Probe, k: int, seen, scale: float, noise: float) -> tuple:
+        """(τ or None, tail modes, notes) of the probe in interval k (``features.decay``, then
+        taken to the nearest mode of this engine's pencil ``seen``, or that one mode's
+        exponential, ``_one_mode``), the integration's error in the probe being ``noise``."""
+        w, _ = self._rows(probe, k)
+        final = self._base(probe, k)[2]
+        tau, modes, notes = decay(self.runs[k], w, self._offset(probe, k),
+                                  self.regularisation.post_pulse, final, scale,
+                                  MODE_VISIBILITY * scale, noise, probe.dimension)
+        if seen is not None:
+            tau = nearest_mode(tau, seen.modes)
+            if tau is None and self._one_mode(probe, k, seen, max(FIT_RESIDUAL * scale, noise),
+                                              noise):
+                tau, notes = seen.modes[0], ()
+        return tau, modes, notes
+
+    def _refined_noise(self, probe: Probe, k: int) -> float | None:
+        """The integration's error in the probe's response after the pulse in interval k (its
+        unit) as this engine's own re-solve at tighter tolerances (``retry``) establishes it:
+        ``REFINE_SAFETY`` times the largest change in the response over the fit's grid, plus
+        the inductor shunts' share (``refined_resolution``'s rule); None without a re-solve.
+        The a-priori bound (``probe_noise``) of a current read through a carrier's 1/r_s is
+        far coarser: 14 mA where the response moves by 69 nA and is resolved."""
+        tight = self._tighter()
+        if tight is None or k >= len(tight.runs):
+            return None
+        s_a = self.regularisation.post_pulse
+        end = min(self.runs[k].end, tight.runs[k].end)
+        if not end > s_a:
+            return None
+        grid = np.geomspace(s_a, end, GRID)
+        apart = np.max(np.abs(self.held(probe, k, grid) - tight.held(probe, k, grid)))
+        return REFINE_SAFETY * float(apart) + self._shunt_share(probe)
+
+    def _one_mode(self, probe: Probe, k: int, seen, allowed: float, noise: float) -> bool:
         """Whether the probe in interval k is first order in this engine's own pencil (one
-        visible real mode) and its held response is that mode's exponential to ``allowed``."""
+        visible real mode) and its held response, above the integration's error ``noise``, is
+        that mode's exponential to ``allowed`` (``features.mode_fits``)."""
         if seen.order != 1 or len(seen.modes) != 1 or seen.rings:
             return False
         w, _ = self._rows(probe, k)
         final = self._base(probe, k)[2]
         return mode_fits(self.runs[k], w, self._offset(probe, k),
-                         self.regularisation.post_pulse, final, seen.modes[0], allowed)
+                         self.regularisation.post_pulse, final, seen.modes[0], allowed, noise)
 
     def span(self, k: int) -> tuple[float, float]:
         """(t_k, t_end): the event time and the end of the held continuation (s)."""
@@ -569,12 +595,3 @@ class NumericSolution(NotComputed):
         parasitic = sum(reg.c_node.values()) * self.v_scale
         forced = 10.0 * self.i_scale * reg.post_pulse if self.layout.inductors else 0.0
         return max(CHARGE_FLOOR * c_sum * self.v_scale, 10.0 * parasitic, forced, 1e-300)
-
-
-def _modal_tau(fitted: float | None, modes: tuple[float, ...]) -> float | None:
-    """The fitted time constant (s), replaced by the nearest mode of this engine's own pencil
-    (``modal.visible``) when it lies within ``FIT_TO_MODE`` of it; None stays None."""
-    if fitted is None or not modes:
-        return fitted
-    nearest = min(modes, key=lambda m: abs(m - fitted))
-    return nearest if abs(nearest - fitted) <= FIT_TO_MODE * fitted else fitted
