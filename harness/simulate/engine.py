@@ -308,10 +308,12 @@ def _growth_warning(k: int, t_k: float, growth: float) -> Diagnostic:
 
 
 def _march(circuit: Circuit, lay, systems, y0: np.ndarray, reg, rtol: float,
-           atol: np.ndarray, plausible: np.ndarray) -> tuple[list, list[Diagnostic]]:
+           atol: np.ndarray, plausible: np.ndarray,
+           factors: dict) -> tuple[list, list[Diagnostic]]:
     """Integrate interval after interval from y(0-) = ``y0`` (shape (n,)); stop at the first
     interval with pulse-scale growth, a spent work budget or a failed integration.
-    ``plausible``: the operating points' magnitude bound, shape (n,) (``_plausible``).
+    ``plausible``: the operating points' magnitude bound, shape (n,) (``_plausible``);
+    ``factors``: receives the DC factorisations by matrix (``linsolve.solve``).
 
     Returns:
         (runs, warnings): one ``IntervalRun`` per interval reached, and the warnings.
@@ -324,7 +326,6 @@ def _march(circuit: Circuit, lay, systems, y0: np.ndarray, reg, rtol: float,
     steps = evals = 0
     growths: dict[int, float | None] = {}
     earliest: dict[int, float] = {}
-    factors: dict = {}
     for k, t_k in enumerate(events):
         system = systems[k]
         length = events[k + 1] - t_k if k + 1 < len(events) else None
@@ -393,10 +394,12 @@ def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
     atol = _carrier_floor(circuit, lay, [pre] + list(systems), atol, v_scale, reg.r_series,
                           noise)
     plausible = _plausible(circuit, lay, atol, rtol, v_scale, i_scale)
-    runs, warnings = _march(circuit, lay, systems, y0, reg, rtol, atol, plausible)
+    factors: dict = {}
+    runs, warnings = _march(circuit, lay, systems, y0, reg, rtol, atol, plausible, factors)
     total = _time.perf_counter() - started
     stepping = sum(run.stats.seconds for run in runs)
     return NumericSolution(circuit=circuit, warnings=tuple(warnings), regularisation=reg,
                            layout=lay, pre=pre, systems=tuple(systems), y0=y0, runs=tuple(runs),
                            rtol=rtol, atol=atol, v_scale=v_scale, i_scale=i_scale,
-                           plausible=plausible, setup_seconds=total - stepping, retry=retry)
+                           plausible=plausible, setup_seconds=total - stepping, retry=retry,
+                           factors=factors)
