@@ -60,7 +60,7 @@ from scipy.linalg import LinAlgWarning, get_lapack_funcs
 
 from .equations import System
 from .linsolve import operating_point
-from .sparse_step import ShiftedIdentity, matvec
+from .sparse_step import ShiftedIdentity, factorise, matvec
 from .stepper import LeanRadau
 
 #: the LAPACK routines scipy.linalg.lu_factor / lu_solve call, for real and complex matrices
@@ -323,11 +323,13 @@ def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.nd
 def _unwrap(solver: Radau, n: int) -> None:
     """Replace Radau's per-step linear algebra by the same computations without scipy's
     per-call wrapping: with a sparse J its identity (read only in mu / h * I - J, J being its
-    own CSC copy of the Jacobian) by the shifted matrix on a pattern found once
-    (``sparse_step``); with a dense J its factorise/solve hooks (instance attributes it calls
-    every step) by the same LAPACK calls (``_lu_factor``, ``_solve_lu``)."""
+    own CSC copy of the Jacobian) by the shifted matrix on a pattern found once and its
+    factorisation hook by SuperLU's own call (``sparse_step``); with a dense J its
+    factorise/solve hooks (instance attributes it calls every step) by the same LAPACK calls
+    (``_lu_factor``, ``_solve_lu``)."""
     if sp.issparse(solver.J) and solver.J.format == "csc" and sp.issparse(solver.I):
         solver.I = ShiftedIdentity(solver.J)
+        solver.lu = factorise(solver)
     elif not sp.issparse(solver.J) and n and hasattr(solver, "solve_lu"):
         solver.lu, solver.solve_lu = partial(_lu_factor, solver), _solve_lu
 

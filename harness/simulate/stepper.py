@@ -88,10 +88,13 @@ def _collocate(fun, t, y, h, Z0, scale, tol, LU_real, LU_complex, solve_lu):
 
 
 def _predicted(sol, t) -> np.ndarray:
-    """The last step's interpolant at the times t, shape (n, len(t)) (its ``_call_impl``)."""
+    """The last step's interpolant at the times t, shape (n, len(t)) (its ``_call_impl``:
+    the powers x, x^2, x^3 as its running product (x x) x, the same floats)."""
     x = (t - sol.t_old) / sol.h
-    p = np.tile(x, (sol.order + 1, 1))
-    p = np.cumprod(p, axis=0)
+    p = np.empty((sol.order + 1, x.size))
+    p[0] = x
+    for k in range(1, sol.order + 1):
+        np.multiply(p[k - 1], x, out=p[k])
     y = np.dot(sol.Q, p)
     y += sol.y_old[:, None]
     return y
