@@ -286,7 +286,7 @@ _TINY = np.finfo(float).tiny
 
 
 def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.ndarray,
-                     peak: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+                     peak: np.ndarray, hint: list | None = None) -> tuple[np.ndarray, np.ndarray]:
     """(rtol, atol) per state, shape (n_d,) each, for the next step from the deviation z.
 
     Radau's error scale, atol + rtol |z| on the deviation, is changed in two places:
@@ -305,7 +305,9 @@ def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.nd
     Radau reads ``rtol`` and ``atol`` at every step and takes them elementwise
     (scipy.integrate.Radau: scale = atol + max(|y|, |y_new|) rtol), so where no state is
     moving the scalar ``rtol`` stands for the array of it (the same products).  Only the
-    moving states' ratios are computed (the same quotients as over every state)."""
+    moving states' ratios are computed (the same quotients as over every state).  ``hint``
+    (a one-element list kept by the caller across steps): the state that last held the tail
+    back, checked alone first (while it still does, so does the whole test)."""
     dev = np.abs(z)
     held = np.abs(origin + z)
     moving = held < dev
@@ -314,7 +316,12 @@ def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.nd
     if any_moving:
         rel = np.full(dev.shape, rtol)
         rel[moving] = rtol * (held[moving] / np.maximum(dev[moving], _TINY))
-    if not (dev <= TAIL_FLOOR * peak).all():
+    if hint is not None and not dev[hint[0]] <= TAIL_FLOOR * peak[hint[0]]:
+        return rel, atol
+    outside = ~(dev <= TAIL_FLOOR * peak)
+    if outside.any():
+        if hint is not None:
+            hint[0] = int(np.argmax(outside))
         return rel, atol
     floor = np.maximum(atol, TAIL_FLOOR * rtol * peak)
     return rel, (np.where(moving, atol, floor) if any_moving else floor)
@@ -369,6 +376,7 @@ def _steps(solver: Radau, ss: list, zs: list, interps: list, rtol: float, atol: 
     and interpolant; returns the status (``_run``).  Floating-point errors are ignored
     (the caller's errstate): an overflowing (e.g. unstable regularised) system is a
     failure, not a crash."""
+    hint = [0]
     while solver.status == "running":
         if len(interps) >= MAX_STEPS:
             return "horizon"
@@ -377,7 +385,7 @@ def _steps(solver: Radau, ss: list, zs: list, interps: list, rtol: float, atol: 
         try:
             if scaled is not None:
                 solver.rtol, solver.atol = _step_tolerances(rtol, atol, scaled[0], solver.y,
-                                                            scaled[1].scale)
+                                                            scaled[1].scale, hint)
             solver.step()
         except (ValueError, ArithmeticError, np.linalg.LinAlgError):
             return "failed"
