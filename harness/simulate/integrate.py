@@ -304,8 +304,7 @@ def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.nd
 
     Radau reads ``rtol`` and ``atol`` at every step and takes them elementwise
     (scipy.integrate.Radau: scale = atol + max(|y|, |y_new|) rtol), so where no state is
-    moving the scalar ``rtol`` stands for the array of it (the same products).  Only the
-    moving states' ratios are computed (the same quotients as over every state).  ``hint``
+    moving the scalar ``rtol`` stands for the array of it (the same products).  ``hint``
     (a one-element list kept by the caller across steps): the state that last held the tail
     back, checked alone first (while it still does, so does the whole test)."""
     dev = np.abs(z)
@@ -314,8 +313,9 @@ def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.nd
     any_moving = moving.any()
     rel = rtol
     if any_moving:
-        rel = np.full(dev.shape, rtol)
-        rel[moving] = rtol * (held[moving] / np.maximum(dev[moving], _TINY))
+        ratio = held / np.maximum(dev, _TINY)
+        ratio[~moving] = 1.0
+        rel = rtol * ratio
     if hint is not None and not dev[hint[0]] <= TAIL_FLOOR * peak[hint[0]]:
         return rel, atol
     outside = ~(dev <= TAIL_FLOOR * peak)
