@@ -1,13 +1,15 @@
 """The sparse per-step helpers give scipy's own floats: the mat-vec and mu / h * I - J against
 scipy.sparse's operators (source: scipy.sparse, the expressions scipy.integrate.Radau
-evaluates), and a whole Radau run with them against one without."""
+evaluates), SuperLU's factors of the shifted matrix against scipy.sparse.linalg.splu's, and
+a whole Radau run with them against one without."""
 
 import numpy as np
 import pytest
 import scipy.sparse as sp
+import scipy.sparse.linalg as spla
 from scipy.integrate import Radau
 
-from harness.simulate.sparse_step import ShiftedIdentity, matvec
+from harness.simulate.sparse_step import ShiftedIdentity, factorise, matvec
 
 #: Radau's real shift, scipy.integrate._ivp.radau MU_REAL (its closed form in that source);
 #: the complex shift below is any complex scale of the same kind
@@ -43,6 +45,38 @@ def test_shifted_matrix_and_matvec_are_scipys(seed):
                 assert ours.data.tobytes() == theirs.data.tobytes()
         z = rng.normal(size=jac.shape[0])
         assert matvec(jac)(z).tobytes() == (jac @ z).tobytes()
+
+
+@pytest.mark.parametrize("seed", [0, 1])
+def test_factorisation_is_splus(seed):
+    """The factorisation hook gives scipy.sparse.linalg.splu's factors (the same L, U and
+    permutations, so the same solves) and counts each call, for real and complex shifts."""
+    class Counter:
+        nlu = 0
+    counter = Counter()
+    lu = factorise(counter)
+    calls = 0
+    for rng, jac in _jacobians(seed):
+        shifted = ShiftedIdentity(jac)
+        for scale in (_MU / rng.uniform(0.1, 10.0), complex(2.68, 3.05) / rng.uniform(0.1, 10)):
+            matrix = scale * shifted - jac
+            try:
+                theirs = spla.splu(matrix)
+            except RuntimeError:                  # singular: both refuse it
+                with pytest.raises(RuntimeError):
+                    lu(matrix)
+                calls += 1
+                continue
+            ours = lu(matrix)
+            calls += 1
+            for a, b in ((ours.L, theirs.L), (ours.U, theirs.U)):
+                assert a.data.tobytes() == b.data.tobytes()
+                assert np.array_equal(a.indices, b.indices)
+            assert np.array_equal(ours.perm_r, theirs.perm_r)
+            assert np.array_equal(ours.perm_c, theirs.perm_c)
+            b = rng.normal(size=jac.shape[0]).astype(matrix.dtype)
+            assert ours.solve(b).tobytes() == theirs.solve(b).tobytes()
+    assert counter.nlu == calls > 0
 
 
 def test_a_zero_on_the_diagonal_takes_scipys_expression():

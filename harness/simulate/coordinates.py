@@ -135,12 +135,19 @@ def _combine(items) -> Path:
     return {k: m for k, m in out.items() if m}
 
 
-def _null_directions(circuit: Circuit, lay: Layout, parasitic: dict[str, float]) -> list[np.ndarray]:
+def _capacitors(circuit: Circuit, parasitic: dict[str, float]) -> list[tuple[str, str, float]]:
+    """(p, n, C in F) of every capacitor, then of each parasitic capacitance to ground."""
+    caps = [(p.p, p.n, p.value) for p in circuit.parts if p.kind == CAPACITOR]
+    return caps + [(node, circuit.ground, c) for node, c in parasitic.items() if c > 0]
+
+
+def _null_directions(circuit: Circuit, lay: Layout,
+                     caps: list[tuple[str, str, float]]) -> list[np.ndarray]:
     """Integer node-voltage directions that change no capacitor voltage (the null space of M):
-    each capacitor-less node, and the common mode of each capacitor group without ground."""
+    each capacitor-less node, and the common mode of each capacitor group without ground.
+    ``caps``: ``_capacitors``."""
     nn = len(lay.nodes)
-    caps = [p for p in circuit.parts if p.kind == CAPACITOR]
-    touched = {n for p in caps for n in p.nodes} | {n for n, c in parasitic.items() if c > 0}
+    touched = {n for p, q, _ in caps for n in (p, q)}
     out = []
     for node in lay.nodes:
         if node not in touched:
@@ -151,11 +158,8 @@ def _null_directions(circuit: Circuit, lay: Layout, parasitic: dict[str, float])
 
     find = partial(find_root, parent)
 
-    for p in caps:
-        parent[find(p.p)] = find(p.n)
-    for n, c in parasitic.items():
-        if c > 0:
-            parent[find(n)] = find(circuit.ground)
+    for p, q, _ in caps:
+        parent[find(p)] = find(q)
     groups: dict[str, list[int]] = {}
     for node in touched:
         if node in lay.node_index and find(node) != find(circuit.ground):
@@ -167,13 +171,10 @@ def _null_directions(circuit: Circuit, lay: Layout, parasitic: dict[str, float])
     return out
 
 
-def _node_capacitance(circuit: Circuit, lay: Layout, parasitic: dict[str, float]
-                      ) -> sp.csr_matrix:
+def _node_capacitance(lay: Layout, caps: list[tuple[str, str, float]]) -> sp.csr_matrix:
     """The capacitance matrix over the node voltages (F), shape (nodes, nodes): the capacitors
-    and the parasitic capacitances to ground, as M's node block."""
+    and the parasitic capacitances to ground (``_capacitors``), as M's node block."""
     nn = len(lay.nodes)
-    caps = [(p.p, p.n, p.value) for p in circuit.parts if p.kind == CAPACITOR]
-    caps += [(node, circuit.ground, c) for node, c in parasitic.items() if c > 0]
     rows, cols, vals = [], [], []
     for p, q, c in caps:
         for a, sa in ((p, 1.0), (q, -1.0)):
@@ -309,9 +310,9 @@ def assemble(circuit: Circuit, lay: Layout, br: Branches, parents: dict[int, int
     only part that depends on the sources' values, comes from ``constants`` with the same
     transform.  ``owners``: the closed carriers' tree edges (``forest``), for the shifted
     coordinates of carriers of an internal voltage (``_shifts``)."""
-    tr = _Transform(lay, parents, _null_directions(circuit, lay, parasitic),
-                    _shifts(circuit, lay, br, owners or {}),
-                    _node_capacitance(circuit, lay, parasitic))
+    caps = _capacitors(circuit, parasitic)
+    tr = _Transform(lay, parents, _null_directions(circuit, lay, caps),
+                    _shifts(circuit, lay, br, owners or {}), _node_capacitance(lay, caps))
     n = lay.n
     K: dict[tuple[int, int], list[float]] = {}
     M: dict[tuple[int, int], list[float]] = {}
@@ -337,8 +338,6 @@ def assemble(circuit: Circuit, lay: Layout, br: Branches, parents: dict[int, int
     for r, m, f in pole_rows(circuit, lay):  # an amplifier's internal voltage: m w' = f
         M.setdefault((r, r), []).append(m)
         stamp({r: 1}, f, -1.0)
-    caps = [(p.p, p.n, p.value) for p in circuit.parts if p.kind == CAPACITOR]
-    caps += [(node, circuit.ground, c) for node, c in parasitic.items() if c > 0]
     for p, q, c in caps:
         d = _cutset(tr, lay, p, q)
         d_col = _cutset(tr, lay, p, q, column=True) if tr.shifted else d

@@ -19,7 +19,7 @@ from .features import fit_window
 from .initial import initial_state
 from .integrate import integrate_interval
 from .nodesets import find_root
-from .regularise import PILOT_SPLIT, choose, gain_factor
+from .regularise import PILOT_SPLIT, Survey, choose, gain_factor, survey
 from .solution import ENGINE, NumericSolution
 
 #: the absolute tolerance of a state is rtol times this fraction of its kind's scale
@@ -84,13 +84,14 @@ def _scales(circuit: Circuit, lay, y0: np.ndarray) -> tuple[float, float]:
 
 
 def _plausible(circuit: Circuit, lay, atol: np.ndarray, rtol: float, v_scale: float,
-               i_scale: float) -> np.ndarray:
+               i_scale: float, gain: float) -> np.ndarray:
     """The largest plausible magnitude of each state of an operating point, shape (n,), for
     integrate.interval_origin.
 
     From the circuit's own scales: a node voltage reaches at most the voltage scale, or the
     largest source current through the largest resistance (a switch's off-resistance
-    included), times the controlled sources' gain factor; a current reaches at most that
+    included), times the controlled sources' gain factor ``gain`` (regularise.gain_factor);
+    a current reaches at most that
     voltage through the smallest resistance (a switch's on-resistance included) plus the
     largest source current.  Each is taken ``PLAUSIBLE`` times, and never below 1e9 times the
     state's absolute-tolerance base atol / rtol (the carriers' floor included).  A current
@@ -102,20 +103,19 @@ def _plausible(circuit: Circuit, lay, atol: np.ndarray, rtol: float, v_scale: fl
     res += [abs(r) for p in circuit.parts if p.kind == SWITCH
             for r in (p.on_resistance, p.off_resistance) if r]
     i_src = _source_max(circuit, CURRENT_SOURCE)
-    volts = max(v_scale, i_src * max(res, default=0.0)) * gain_factor(circuit)
+    volts = max(v_scale, i_src * max(res, default=0.0)) * gain
     amps = max(i_scale, volts / min(res) + i_src if res else 0.0)
     physical = np.where(lay.volts, PLAUSIBLE * volts, PLAUSIBLE * amps)
     return np.maximum(1e9 * atol / rtol, physical)
 
 
-def _carrier_floor(circuit: Circuit, lay, systems, atol: np.ndarray, v_scale: float,
-                   r_series: float, noise: float = CARRIER_NOISE) -> np.ndarray:
+def _carrier_floor(lay, systems, atol: np.ndarray, v: float, r_series: float,
+                   noise: float = CARRIER_NOISE) -> np.ndarray:
     """atol with each carrier current raised to noise * |u| / r_s (``noise`` CARRIER_NOISE
-    unless tightened), |u| bounded by the sum of its voltage coefficients times the
-    (gain-scaled) voltage scale."""
+    unless tightened), |u| bounded by the sum of its voltage coefficients times ``v``, the
+    gain-scaled voltage scale (V)."""
     atol = atol.copy()
     nn = len(lay.nodes)
-    v = v_scale * gain_factor(circuit)
     systems = _distinct(systems)
     for name in lay.carriers:
         r = lay.part_index[name]
@@ -170,7 +170,7 @@ def _warning(circuit: Circuit, lay, run, k: int, run_dyn: np.ndarray) -> Diagnos
                       engine=ENGINE, **where)
 
 
-def _fastest_real_mode(circuit: Circuit) -> float | None:
+def _fastest_real_mode(circuit: Circuit, lay, surveyed: Survey) -> float | None:
     """The fastest real time constant (s) of a coarse pilot model (pulse ratio PILOT_RATIO),
     from the eigenvalues of its intervals' Jacobians, or None (too large, or no real mode).
 
@@ -178,11 +178,11 @@ def _fastest_real_mode(circuit: Circuit) -> float | None:
     PILOT_SPLIT / t_pulse in magnitude are the circuit's own.  A part-value estimate of the
     fastest mode must be a lower bound and is often decades too low (a gain, a node with many
     conductances); the pilot's figure lets the real model's pulse sit just eps below it.
+    ``lay``: the circuit's layout; ``surveyed``: its ``regularise.survey``.
     """
-    lay = layout(circuit)
     if _states_at_least(circuit, lay) > PILOT_MAX_STATES:
         return None
-    pilot = choose(circuit, PILOT_RATIO)
+    pilot = choose(circuit, PILOT_RATIO, surveyed=surveyed)
     try:
         _, systems = _build_all(circuit, lay, pilot, jac_only=True)
     except Unreduced:
@@ -308,10 +308,12 @@ def _growth_warning(k: int, t_k: float, growth: float) -> Diagnostic:
 
 
 def _march(circuit: Circuit, lay, systems, y0: np.ndarray, reg, rtol: float,
-           atol: np.ndarray, plausible: np.ndarray) -> tuple[list, list[Diagnostic]]:
+           atol: np.ndarray, plausible: np.ndarray,
+           factors: dict) -> tuple[list, list[Diagnostic]]:
     """Integrate interval after interval from y(0-) = ``y0`` (shape (n,)); stop at the first
     interval with pulse-scale growth, a spent work budget or a failed integration.
-    ``plausible``: the operating points' magnitude bound, shape (n,) (``_plausible``).
+    ``plausible``: the operating points' magnitude bound, shape (n,) (``_plausible``);
+    ``factors``: receives the DC factorisations by matrix (``linsolve.solve``).
 
     Returns:
         (runs, warnings): one ``IntervalRun`` per interval reached, and the warnings.
@@ -324,7 +326,6 @@ def _march(circuit: Circuit, lay, systems, y0: np.ndarray, reg, rtol: float,
     steps = evals = 0
     growths: dict[int, float | None] = {}
     earliest: dict[int, float] = {}
-    factors: dict = {}
     for k, t_k in enumerate(events):
         system = systems[k]
         length = events[k + 1] - t_k if k + 1 < len(events) else None
@@ -375,12 +376,13 @@ def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
         InputError: a probe or a controlled source names something that does not exist.
     """
     started = _time.perf_counter()
-    reg = choose(circuit, pulse_ratio, fastest=_fastest_real_mode(circuit))
+    lay, surveyed = layout(circuit), survey(circuit)
+    reg = choose(circuit, pulse_ratio, fastest=_fastest_real_mode(circuit, lay, surveyed),
+                 surveyed=surveyed)
     rtol = float(np.clip(reg.pulse_ratio, *RTOL_BOUNDS)) if rtol is None else float(rtol)
     retry = partial(solve, circuit, pulse_ratio=pulse_ratio, rtol=rtol, tighten=TIGHTER) \
         if tighten == 1.0 else None
     rtol, noise = rtol * tighten, CARRIER_NOISE * tighten
-    lay = layout(circuit)
     try:
         pre, systems = _build_all(circuit, lay, reg)
     except Unreduced:  # give every capacitor-less node a parasitic capacitance instead
@@ -390,13 +392,16 @@ def solve(circuit: Circuit, *, pulse_ratio: float | None = None,
     v_scale, i_scale = _scales(circuit, lay, y0)
     atol = np.where(lay.volts, rtol * ATOL_FRACTION * v_scale, rtol * ATOL_FRACTION * i_scale)
     atol = _resistive_atol(circuit, lay, atol, v_scale, rtol * ATOL_FRACTION * i_scale, noise)
-    atol = _carrier_floor(circuit, lay, [pre] + list(systems), atol, v_scale, reg.r_series,
+    gain = gain_factor(circuit)
+    atol = _carrier_floor(lay, [pre] + list(systems), atol, v_scale * gain, reg.r_series,
                           noise)
-    plausible = _plausible(circuit, lay, atol, rtol, v_scale, i_scale)
-    runs, warnings = _march(circuit, lay, systems, y0, reg, rtol, atol, plausible)
+    plausible = _plausible(circuit, lay, atol, rtol, v_scale, i_scale, gain)
+    factors: dict = {}
+    runs, warnings = _march(circuit, lay, systems, y0, reg, rtol, atol, plausible, factors)
     total = _time.perf_counter() - started
     stepping = sum(run.stats.seconds for run in runs)
     return NumericSolution(circuit=circuit, warnings=tuple(warnings), regularisation=reg,
                            layout=lay, pre=pre, systems=tuple(systems), y0=y0, runs=tuple(runs),
                            rtol=rtol, atol=atol, v_scale=v_scale, i_scale=i_scale,
-                           plausible=plausible, setup_seconds=total - stepping, retry=retry)
+                           plausible=plausible, setup_seconds=total - stepping, retry=retry,
+                           factors=factors)

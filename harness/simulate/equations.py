@@ -95,39 +95,64 @@ class System:
 
 
 def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation,
-              br: Branches) -> tuple[sp.csc_matrix, sp.csc_matrix]:
-    """(K, M) of M y' = -K y + b for the branches ``br`` (the DC branches leave the carriers'
-    u / r_s out of KCL).  b, the only part that depends on the sources' values, is
-    ``_constants``."""
+              brs: tuple[Branches, ...]) -> tuple[list[sp.csc_matrix], sp.csc_matrix]:
+    """([K for each of ``brs``], M) of M y' = -K y + b for the branches ``brs`` (the DC
+    branches leave the carriers' u / r_s out of KCL): M, the same for all, is stamped once.
+    b, the only part that depends on the sources' values, is ``_constants``."""
+    by_name = {p.name: p for p in circuit.parts}      # Circuit.part is a linear search
+    poles = list(pole_rows(circuit, lay))
+    return [_stiffness(lay, reg, br, by_name, poles) for br in brs], \
+        _capacitance(circuit, lay, reg, by_name, poles)
+
+
+def _stiffness(lay: Layout, reg: Regularisation, br: Branches, by_name: dict,
+               poles: list) -> sp.csc_matrix:
+    """K of ``_assemble`` for the branches ``br``: KCL of each branch current at the nodes,
+    then the inductor, amplifier-pole and carrier rows."""
     n = lay.n
     rows, cols, vals = [], [], []
-    mrows, mcols, mvals = [], [], []
 
     def stamp_k(i: int, aff: Affine, sign: float) -> None:
         for j, a in aff.coef.items():
             rows.append(i), cols.append(j), vals.append(sign * a)
 
-    def stamp_m(i: int, j: int, v: float) -> None:
-        mrows.append(i), mcols.append(j), mvals.append(v)
-
-    by_name = {p.name: p for p in circuit.parts}      # Circuit.part is a linear search
     for part, cur in flows(by_name, br):
         for node, sign in ((part.p, 1.0), (part.n, -1.0)):
             if node in lay.node_index:
                 stamp_k(lay.node_index[node], cur, sign)
     for name in lay.inductors:  # L di/dt = v_p - v_n
         part = by_name[name]
-        r = lay.part_index[name]
-        stamp_k(r, Affine(difference(lay, part.p, part.n)), -1.0)
-        stamp_m(r, r, part.value)
-    for r, m, f in pole_rows(circuit, lay):  # an amplifier's internal voltage: m w' = f
+        stamp_k(lay.part_index[name], Affine(difference(lay, part.p, part.n)), -1.0)
+    for r, _, f in poles:  # an amplifier's internal voltage: m w' = f
         stamp_k(r, f, -1.0)
-        stamp_m(r, r, m)
     l_p = reg.r_series * reg.t_pulse
     for name in lay.carriers:  # L_p di_p/dt = u, or i_p' = -i_p / t_pulse when open
         r = lay.part_index[name]
         u = br.voltages[name]
         stamp_k(r, u if u is not None else Affine({r: -l_p / reg.t_pulse}), -1.0)
+    K = sp.csc_matrix((vals, (rows, cols)), shape=(n, n))
+    K.sum_duplicates()
+    return K
+
+
+def _capacitance(circuit: Circuit, lay: Layout, reg: Regularisation, by_name: dict,
+                 poles: list) -> sp.csc_matrix:
+    """M of ``_assemble``: the inductances, the amplifier poles' m, the carriers' L_p, the
+    parasitic and the real capacitances."""
+    n = lay.n
+    mrows, mcols, mvals = [], [], []
+
+    def stamp_m(i: int, j: int, v: float) -> None:
+        mrows.append(i), mcols.append(j), mvals.append(v)
+
+    for name in lay.inductors:
+        r = lay.part_index[name]
+        stamp_m(r, r, by_name[name].value)
+    for r, m, _ in poles:
+        stamp_m(r, r, m)
+    l_p = reg.r_series * reg.t_pulse
+    for name in lay.carriers:
+        r = lay.part_index[name]
         stamp_m(r, r, l_p)
     for node in lay.nodes:
         i = lay.node_index[node]
@@ -139,11 +164,9 @@ def _assemble(circuit: Circuit, lay: Layout, reg: Regularisation,
             for c, sc in ((part.p, 1.0), (part.n, -1.0)):
                 if a in lay.node_index and c in lay.node_index:
                     stamp_m(lay.node_index[a], lay.node_index[c], sa * sc * part.value)
-    K = sp.csc_matrix((vals, (rows, cols)), shape=(n, n))
     M = sp.csc_matrix((mvals, (mrows, mcols)), shape=(n, n))
-    K.sum_duplicates()
     M.sum_duplicates()
-    return K, M
+    return M
 
 
 def _constants(circuit: Circuit, lay: Layout, br: Branches) -> np.ndarray:
@@ -219,8 +242,7 @@ def _shape(circuit: Circuit, lay: Layout, reg: Regularisation, br: Branches,
     unreduced K, M, K_dc are None and J is sparse wherever it is computed sparse."""
     K = M = K_dc = None
     if br_dc is not None:
-        K, M = _assemble(circuit, lay, reg, br)
-        K_dc, _ = _assemble(circuit, lay, reg, br_dc)
+        (K, K_dc), M = _assemble(circuit, lay, reg, (br, br_dc))
     closed = [name for name, u in br.voltages.items() if u is not None]
     owners: dict[str, int] = {}
     parents = forest(circuit, lay, closed, reg.c_node, owners)

@@ -60,7 +60,8 @@ from scipy.linalg import LinAlgWarning, get_lapack_funcs
 
 from .equations import System
 from .linsolve import operating_point
-from .sparse_step import ShiftedIdentity, matvec
+from .sparse_step import ShiftedIdentity, factorise, matvec
+from .stepper import LeanRadau
 
 #: the LAPACK routines scipy.linalg.lu_factor / lu_solve call, for real and complex matrices
 _DGETRF, _DGETRS = get_lapack_funcs(("getrf", "getrs"), (np.zeros((1, 1)),))
@@ -221,6 +222,7 @@ class _Settle:
         self.start_scale: np.ndarray | None = None
         self._limit: np.ndarray | None = None        # BLOW_UP * start_scale, once known
         self._dyn = np.flatnonzero(dynamic)          # the indices settling is judged on
+        self._worst = int(self._dyn[0]) if self._dyn.size else 0
 
     def add(self, s: float, z: np.ndarray, rate: np.ndarray | None = None) -> str | None:
         """Record a step; return ``settled``, ``blow-up`` or None.  ``rate``: z' at the step
@@ -233,15 +235,20 @@ class _Settle:
                 self._limit = BLOW_UP * self.start_scale
         if s < self.earliest or self.start_scale is None:
             return None
-        if np.any(size > self._limit):
+        if (size > self._limit).any():
             return "blow-up"
         dyn = self._dyn
         if not dyn.size:
             return "settled"
         # the same quotients as |rate| * s / scale over all states, on the dynamic ones only
         rate = self.slope(z) if rate is None else rate
+        k = self._worst                  # the state that drifted most at the last step: while
+        if abs(rate[k]) * s / self.scale[k] > SETTLE:  # it still drifts, the maximum does too
+            return None
         drift = np.abs(rate[dyn]) * s / self.scale[dyn]
-        return "settled" if np.max(drift) <= SETTLE else None
+        worst = int(np.argmax(drift))
+        self._worst = int(dyn[worst])
+        return "settled" if drift[worst] <= SETTLE else None
 
 
 def _lu_factor(solver: Radau, a: np.ndarray):
@@ -279,7 +286,7 @@ _TINY = np.finfo(float).tiny
 
 
 def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.ndarray,
-                     peak: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+                     peak: np.ndarray, hint: list | None = None) -> tuple[np.ndarray, np.ndarray]:
     """(rtol, atol) per state, shape (n_d,) each, for the next step from the deviation z.
 
     Radau's error scale, atol + rtol |z| on the deviation, is changed in two places:
@@ -296,24 +303,40 @@ def _step_tolerances(rtol: float, atol: np.ndarray, origin: np.ndarray, z: np.nd
       rest still moves, and its error grew 2x on a random network.)
 
     Radau reads ``rtol`` and ``atol`` at every step and takes them elementwise
-    (scipy.integrate.Radau: scale = atol + max(|y|, |y_new|) rtol)."""
+    (scipy.integrate.Radau: scale = atol + max(|y|, |y_new|) rtol), so where no state is
+    moving the scalar ``rtol`` stands for the array of it (the same products).  ``hint``
+    (a one-element list kept by the caller across steps): the state that last held the tail
+    back, checked alone first (while it still does, so does the whole test)."""
     dev = np.abs(z)
     held = np.abs(origin + z)
     moving = held < dev
-    rel = rtol * np.where(moving, held / np.maximum(dev, _TINY), 1.0)
-    if not np.all(dev <= TAIL_FLOOR * peak):
+    any_moving = moving.any()
+    rel = rtol
+    if any_moving:
+        ratio = held / np.maximum(dev, _TINY)
+        ratio[~moving] = 1.0
+        rel = rtol * ratio
+    if hint is not None and not dev[hint[0]] <= TAIL_FLOOR * peak[hint[0]]:
         return rel, atol
-    return rel, np.where(moving, atol, np.maximum(atol, TAIL_FLOOR * rtol * peak))
+    outside = ~(dev <= TAIL_FLOOR * peak)
+    if outside.any():
+        if hint is not None:
+            hint[0] = int(np.argmax(outside))
+        return rel, atol
+    floor = np.maximum(atol, TAIL_FLOOR * rtol * peak)
+    return rel, (np.where(moving, atol, floor) if any_moving else floor)
 
 
 def _unwrap(solver: Radau, n: int) -> None:
     """Replace Radau's per-step linear algebra by the same computations without scipy's
     per-call wrapping: with a sparse J its identity (read only in mu / h * I - J, J being its
-    own CSC copy of the Jacobian) by the shifted matrix on a pattern found once
-    (``sparse_step``); with a dense J its factorise/solve hooks (instance attributes it calls
-    every step) by the same LAPACK calls (``_lu_factor``, ``_solve_lu``)."""
+    own CSC copy of the Jacobian) by the shifted matrix on a pattern found once and its
+    factorisation hook by SuperLU's own call (``sparse_step``); with a dense J its
+    factorise/solve hooks (instance attributes it calls every step) by the same LAPACK calls
+    (``_lu_factor``, ``_solve_lu``)."""
     if sp.issparse(solver.J) and solver.J.format == "csc" and sp.issparse(solver.I):
         solver.I = ShiftedIdentity(solver.J)
+        solver.lu = factorise(solver)
     elif not sp.issparse(solver.J) and n and hasattr(solver, "solve_lu"):
         solver.lu, solver.solve_lu = partial(_lu_factor, solver), _solve_lu
 
@@ -335,41 +358,47 @@ def _run(system: System, r: np.ndarray, z0: np.ndarray, s0: float, s_bound: floa
         return product(z) + r
 
     started = _time.perf_counter()
-    solver = Radau(fun, s0, z0, s_bound, jac=jac, rtol=rtol, atol=atol, first_step=first_step,
-                   max_step=max_step)
+    solver = LeanRadau(fun, s0, z0, s_bound, jac=jac, rtol=rtol, atol=atol,
+                       first_step=first_step, max_step=max_step)
     _unwrap(solver, z0.size)
     ss, zs, interps = [s0], [z0.copy()], []
-    status = "reached"
+    with np.errstate(all="ignore"):
+        status = _steps(solver, ss, zs, interps, rtol, atol, settle, budget, scaled)
+    stats = IntervalStats(len(interps), solver.nfev, solver.njev, solver.nlu,
+                          _time.perf_counter() - started)
+    return ss, zs, interps, status, stats
+
+
+def _steps(solver: Radau, ss: list, zs: list, interps: list, rtol: float, atol: np.ndarray,
+           settle: _Settle | None, budget: tuple[float, float],
+           scaled: tuple[np.ndarray, _Settle] | None) -> str:
+    """Step ``solver`` until it ends, appending each accepted step's time, state (a copy)
+    and interpolant; returns the status (``_run``).  Floating-point errors are ignored
+    (the caller's errstate): an overflowing (e.g. unstable regularised) system is a
+    failure, not a crash."""
+    hint = [0]
     while solver.status == "running":
         if len(interps) >= MAX_STEPS:
-            status = "horizon"
-            break
+            return "horizon"
         if len(interps) >= budget[0] or solver.nfev >= budget[1]:
-            status = "budget"
-            break
-        try:  # an overflowing (e.g. unstable regularised) system: a failure, not a crash
-            with np.errstate(all="ignore"):
-                if scaled is not None:
-                    solver.rtol, solver.atol = _step_tolerances(rtol, atol, scaled[0], solver.y,
-                                                                scaled[1].scale)
-                solver.step()
+            return "budget"
+        try:
+            if scaled is not None:
+                solver.rtol, solver.atol = _step_tolerances(rtol, atol, scaled[0], solver.y,
+                                                            scaled[1].scale, hint)
+            solver.step()
         except (ValueError, ArithmeticError, np.linalg.LinAlgError):
-            status = "failed"
-            break
-        if solver.status == "failed" or not np.all(np.isfinite(solver.y)):
-            status = "failed"
-            break
+            return "failed"
+        if solver.status == "failed" or not np.isfinite(solver.y).all():
+            return "failed"
         ss.append(solver.t)
         zs.append(solver.y.copy())
         interps.append(solver.dense_output())
         if settle is not None:
             verdict = settle.add(solver.t, solver.y, solver.f)
             if verdict is not None:
-                status = verdict
-                break
-    stats = IntervalStats(len(interps), solver.nfev, solver.njev, solver.nlu,
-                          _time.perf_counter() - started)
-    return ss, zs, interps, status, stats
+                return verdict
+    return "reached"
 
 
 def integrate_interval(system: System, y0: np.ndarray, t0: float, length: float | None,

@@ -262,8 +262,31 @@ def unanchored(circuit: Circuit) -> set[str]:
     return out
 
 
+@dataclass(frozen=True)
+class Survey:
+    """What ``choose`` reads from a circuit whatever the pulse ratio (``survey``).
+
+    Attributes:
+        values: the part values and event gaps; t_fast, t_slow: s, the part-value time scales
+        (``_time_scales``); c_loop: F, ``loop_capacitance``; floating: ``unanchored``."""
+
+    values: _Values
+    t_fast: float
+    t_slow: float
+    c_loop: float
+    floating: frozenset
+
+
+def survey(circuit: Circuit) -> Survey:
+    """The pulse-ratio-independent part of ``choose``, for a pilot model and the model itself
+    to share (engine.py)."""
+    v = _values(circuit)
+    t_fast, t_slow = _time_scales(circuit, v)
+    return Survey(v, t_fast, t_slow, loop_capacitance(circuit), frozenset(unanchored(circuit)))
+
+
 def choose(circuit: Circuit, pulse_ratio: float | None = None,
-           fastest: float | None = None) -> Regularisation:
+           fastest: float | None = None, surveyed: Survey | None = None) -> Regularisation:
     """The regularising values for ``circuit`` (the rule is stated in the package docstring).
 
     Args:
@@ -272,18 +295,20 @@ def choose(circuit: Circuit, pulse_ratio: float | None = None,
         fastest: s, the fastest real time constant where known (from a pilot model's modes,
             engine.py); t_fast is then half of it (and at most the shortest event gap) instead
             of the part-value estimate.
+        surveyed: ``survey(circuit)`` where the caller has it.
     """
     eps = DEFAULT_PULSE_RATIO if pulse_ratio is None else float(pulse_ratio)
     if not 0 < eps < 1:
         raise ValueError(f"pulse_ratio must lie in (0, 1), got {eps}")
-    v = _values(circuit)
-    t_fast, t_slow = _time_scales(circuit, v)
+    surveyed = survey(circuit) if surveyed is None else surveyed
+    v = surveyed.values
+    t_fast, t_slow = surveyed.t_fast, surveyed.t_slow
     if fastest is not None and math.isfinite(fastest) and fastest > 0:
         t_fast = min([PILOT_SAFETY * fastest] + list(v.gaps))
     t_pulse = eps * t_fast
     r_sum = sum(v.resistances)
     r_cands = [eps * min(v.resistances)] if v.resistances else []
-    c_loop = loop_capacitance(circuit)
+    c_loop = surveyed.c_loop
     if c_loop:  # r_s C_loop <= t_pulse / 4 keeps a capacitor loop's pulse over-damped
         r_cands.append(t_pulse / (4.0 * c_loop))
     r_series = min(r_cands, default=eps * 1.0)
@@ -303,7 +328,7 @@ def choose(circuit: Circuit, pulse_ratio: float | None = None,
     c_cands.append(t_pulse / (4.0 * r_series * max(len(nodes), 1)))
     c_base = min(c_cands)
     c_node = {n: 0.0 for n in nodes}
-    for n in unanchored(circuit):
+    for n in surveyed.floating:
         c_node[n] = c_base
     return Regularisation(
         pulse_ratio=eps, t_fast=t_fast, t_slow=t_slow, t_pulse=t_pulse, r_series=r_series,
@@ -317,11 +342,14 @@ def gain_factor(circuit: Circuit) -> float:
     res = [abs(p.value) for p in circuit.parts if p.kind == RESISTOR and p.value]
     gain = 1.0
     for part in circuit.parts:
+        unit = _gain_unit(part)
+        if unit is None:
+            continue
         g = abs(part.value or 0.0)
-        if _gain_unit(part) == "1":
+        if unit == "1":
             gain += g
-        elif _gain_unit(part) == "S" and res:
+        elif unit == "S" and res:
             gain += g * max(res)
-        elif _gain_unit(part) == "ohm" and res:
+        elif unit == "ohm" and res:
             gain += g / min(res)
     return gain

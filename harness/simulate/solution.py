@@ -60,6 +60,9 @@ class NumericSolution(NotComputed):
         setup_seconds: wall time outside the integrator (building, DC solve).
         retry: builds this circuit's solution again, the same model at tighter tolerances
             (``engine.solve``), or None (``refined_resolution``).
+        factors: the DC factorisations the integration kept by matrix (linsolve.solve); the
+            pre-step operating point reuses its interval's (the same K_dc where the switch
+            states are the same).
     """
 
     circuit: Circuit
@@ -79,6 +82,7 @@ class NumericSolution(NotComputed):
     retry: Callable[[], "NumericSolution"] | None = field(default=None, compare=False,
                                                            repr=False)
     engine: str = ENGINE
+    factors: dict = field(default_factory=dict, compare=False, repr=False)
     _cache: dict = field(default_factory=dict, compare=False, repr=False)
 
     # ----- counters ------------------------------------------------------------------------
@@ -107,7 +111,7 @@ class NumericSolution(NotComputed):
             return run.origin, run.consistent, run.origin_full
         if "pre-origin" not in self._cache:
             full, consistent, origin, _ = interval_origin(self.pre, self.y0, self.plausible,
-                                                  self.atol / self.rtol)
+                                                          self.atol / self.rtol, self.factors)
             self._cache["pre-origin"] = (origin, consistent, full)
         return self._cache["pre-origin"]
 
