@@ -492,8 +492,8 @@ class _Run:
             task = self.running.pop(future, None)
             if task is None:          # cancelled on its deadline, already recorded
                 continue
-            self.done[task.index] = result if future.status == "finished" else \
-                _outcome(future, self.files[task.index])
+            self.done[task.index] = result if isinstance(result, FileResult) else \
+                _outcome(future, self.files[task.index])     # the result in hand, if any
             self.bar.step()
         return bool(batch)
 
@@ -589,12 +589,12 @@ _DESERTED = "no worker left on the cluster"
 
 
 def _outcome(future, file: str) -> FileResult:
-    """The result of a finished future, or an ``error`` result naming why it has none."""
-    if future.status == "finished":
-        return future.result()
-    err = future.exception()
+    """The ``error`` result of a file whose task gave none, naming why, from what the future
+    holds: one whose worker left since reads "lost" (pending again, ``exception()`` waits)."""
+    err = future.exception() if future.status == "error" else None
     if type(err).__name__ == "KilledWorker":
         return _error_result(file, f"{file}: {_DIED} "
                                    f"each time the cluster tried it ({err}); the file's result "
                                    f"is lost (the other files are not affected)")
-    return _error_result(file, f"{file}: {_LOST}: {type(err).__name__}: {err}")
+    why = f"{type(err).__name__}: {err}" if err is not None else f"its task {future.status}"
+    return _error_result(file, f"{file}: {_LOST}: {why}")

@@ -349,11 +349,13 @@ def _run_workers(files: list[str], options: RunOptions, missing: list[FileResult
     return [done[i] for i in range(len(files))]
 
 
-#: what marks a file whose spec'd fields are analysed over tolerances: a ``spec`` key (bare,
-#: in an inline table, dotted or as a table header; not inside a quoted string such as a title)
-#: or a ``[variation]`` table.  Read from the text alone: a file is only read, not parsed, to be
-#: weighed (a false mark costs a parse, never a result)
-_SPREAD = re.compile(rb"(?<![\w\"'-])spec[ \t]*[=.\]]|^[ \t]*\[variation\]", re.MULTILINE)
+#: what marks a file whose spec'd fields are analysed over tolerances: a ``spec`` key (bare or
+#: quoted, in an inline table, dotted or in a table header; not inside a quoted string such as a
+#: title) or a ``[variation]`` table.  Read from the text alone: a file is only read, not
+#: parsed, to be weighed (a false mark costs a parse, a missed one the cluster's split of its
+#: Monte Carlo; never a result)
+_SPREAD = re.compile(rb"(?<![\w\"'-])([\"']?)spec\1[ \t]*[=.\]]|^[ \t]*\[[ \t]*variation[ \t]*\]",
+                     re.MULTILINE)
 
 
 @dataclass(frozen=True)

@@ -427,3 +427,106 @@ def test_a_second_chance_on_a_deserted_cluster_keeps_the_error(monkeypatch):
     cluster._second_chance(run)
     assert run.done[0] is died and cancelled == [future]
     assert time.monotonic() - started < 5.0
+
+
+def test_a_result_in_hand_is_kept_when_its_worker_has_left_since(tmp_path):
+    """The client's event loop fetched a file's result (``as_completed(with_results=True)``),
+    then the worker holding the result's data left: the future reads "lost" (pending again,
+    to be run anew where there may be no worker at all).  The result in hand is the file's, so
+    it is kept, and nothing asks the future anything that waits (its ``exception()`` waited for
+    ever on a local cluster left without workers, before the no-worker bound was looked at).
+    A task that failed is an error naming the cause, from the future's own state."""
+    from harness.runner import _error_result
+
+    class Future:
+        def __init__(self, status, err=None):
+            self.status, self.err = status, err
+
+        def exception(self, timeout=None):
+            if self.status != "error":
+                raise AssertionError("asked a future that is not done: this waits")
+            return self.err
+
+        result = exception
+
+    class KilledWorker(Exception):
+        pass
+
+    kept = _error_result("a.toml", "a stand-in for a FileResult the worker sent")
+    lost, gone = Future(status="lost"), Future(status="lost")
+    died = Future(status="error", err=KilledWorker("tried 3 times"))
+    batch = [(lost, kept), (died, ("KilledWorker", died.err, None)), (gone, None)]
+    run = types.SimpleNamespace(
+        finished=types.SimpleNamespace(next_batch=lambda block: batch), done={},
+        running={lost: cluster._Task(0, math.inf), died: cluster._Task(1, math.inf),
+                 gone: cluster._Task(2, math.inf)},
+        files=["a.toml", "b.toml", "c.toml"], bar=types.SimpleNamespace(step=lambda: None))
+    assert cluster._Run.collect(run)
+    assert run.done[0] is kept and not run.running
+    assert cluster._DIED in run.done[1].errors[0] and "tried 3 times" in run.done[1].errors[0]
+    assert cluster._LOST in run.done[2].errors[0] and "lost" in run.done[2].errors[0]
+
+
+_DESERTING = """
+import sys
+import harness.cluster as cluster
+original = cluster.run
+
+def leaving(path, numeric, tolerance):  # shipped by value: the workers run this
+    import time as clock
+    from harness.runner import check_file
+    if "leave" in path:     # the worker closes, its nanny with it: no worker starts again
+        from distributed import get_worker
+        worker = get_worker()
+        worker.loop.add_callback(worker.close, nanny=True)
+        clock.sleep(60)
+    return check_file(path, numeric)
+
+cluster.WORKER_START_TIMEOUT = 2.0
+cluster.run = lambda paths, options, address: original(paths, options, address, work=leaving)
+from harness.cli import main
+sys.exit(main(sys.argv[1:]))
+"""
+
+#: a small file of our own, so it is handed out after the library's (largest first)
+_LEAVE = """
+[parts]
+V1 = { kind = "voltage-source", nodes = ["a", "gnd"], value = "0 V", steps = [["0 s", "5 V"]] }
+R1 = { kind = "resistor", nodes = ["a", "b"], value = "10k" }
+C1 = { kind = "capacitor", nodes = ["b", "gnd"], value = "100n" }
+[[expect]]
+node = "b"
+final = "5 V"
+"""
+
+
+def test_a_cluster_whose_last_worker_leaves_for_good_ends_the_run(tmp_path):
+    """A real ``local:1`` cluster loses its only worker for good (it closes with its nanny
+    while running the last file, just after the one before it finished: that file's result
+    was fetched, then its data left with the worker and its future reads "lost").  The run
+    ends within the no-worker bound, exit 2, the files done keep their results and the last
+    one is an error saying no worker was left.  It ran for ever about half the time when the
+    client asked the "lost" future for its exception."""
+    folder, reports = tmp_path / "files", tmp_path / "reports"
+    folder.mkdir()
+    for i, path in enumerate(sorted(LIBRARY.rglob("*.toml"))[:3]):
+        shutil.copy(path, folder / f"f{i}.toml")
+    (folder / "leave.toml").write_text(_LEAVE, encoding="utf-8")
+    proc = subprocess.Popen([sys.executable, "-c", _DESERTING, "check", str(folder),
+                             "--cluster", "local:1", "--closed-form-only", "--no-plots",
+                             "--report-dir", str(reports)],
+                            cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    try:
+        out, err = proc.communicate(timeout=90)
+    except subprocess.TimeoutExpired:
+        proc.kill()
+        pytest.fail(f"the run did not end: {proc.communicate()}")
+    assert proc.returncode == 2, err
+    by_name = {Path(f["file"]).name: f for f in
+               json.loads((reports / "results.json").read_text())["files"]}
+    left = "no worker left on the cluster local:1 for 2 s"
+    leave = by_name["leave.toml"]
+    assert leave["verdict"] == "error" and left in leave["errors"][0]
+    assert by_name["f0.toml"]["verdict"] == by_name["f1.toml"]["verdict"] == "pass"
+    # the file just before may lose the race with the worker's leaving: then it says so
+    assert by_name["f2.toml"]["verdict"] == "pass" or left in by_name["f2.toml"]["errors"][0]

@@ -133,10 +133,16 @@ def test_spec_files_are_handed_out_first(tmp_path):
     ('expect = [{ node = "x", spec = { tau = { max = "1 ms" } } }]\n', True),  # inline table
     ('title = "a spectrum"\n# the spectrum of the edge\n', False),
     ("title = 'spec = in a literal string'\n", False),
+    ('[[expect]]\nnode = "x"\n"spec" = { tau = { max = "1 ms" } }\n', True),   # quoted key
+    ("[[expect]]\nnode = 'x'\n'spec'.tau.max = '1 ms'\n", True),     # literal quoted, dotted
+    ('[[expect]]\nnode = "x"\n[ "expect" . "spec" ]\ntau = { max = "1 ms" }\n', True),
+    ('[ variation ]\nsamples = 100\n', True),                         # spaces in a header
+    ('title = "the \\"spec\\" sheet"\n', False),
 ])
 def test_what_marks_a_spec_d_file(text, spread):
-    """Each way TOML (v1.0.0: dotted keys, table headers, inline tables) can hold the
-    ``spec`` key marks the file; the word elsewhere does not."""
+    """Each way TOML (v1.0.0: bare and quoted keys, dotted keys, table headers with spaces
+    inside, inline tables) can hold the ``spec`` key marks the file; the word elsewhere does
+    not."""
     assert Weight.of(text.encode()).spread is spread
 
 
