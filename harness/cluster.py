@@ -574,10 +574,10 @@ def _second_chance(run: _Run) -> None:
         while future.status == "pending" and time.monotonic() < end and \
                 (run.joined() or not run.deserted()):
             time.sleep(_POLL)
-        if future.status == "finished":
-            run.done[i] = future.result()
-        else:
-            run.client.cancel([future], force=True)
+        with contextlib.suppress(TimeoutError):     # its worker may leave before the gather
+            run.done[i] = future.result(timeout=WORKER_START_TIMEOUT) \
+                if future.status == "finished" else run.done[i]
+        run.client.cancel([future], force=True)
 
 
 #: the words of a file result whose worker died, or whose task the cluster lost (``_outcome``):
