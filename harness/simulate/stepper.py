@@ -23,6 +23,10 @@ same arrays in the same order, hence the same steps, states and counters to the 
 The method's constants and the interpolant objects are scipy's own
 (``scipy.integrate._ivp.radau``); the predictor and the interpolant's evaluation are restated
 here with the same operations.
+
+The step restates scipy's ``scipy/integrate/_ivp/radau.py``, Copyright (c) 2001-2002 Enthought,
+Inc. 2003, SciPy Developers, used under scipy's BSD 3-Clause licence, whose text is in
+``harness/LICENSE-scipy``.
 """
 
 from __future__ import annotations
