@@ -169,17 +169,18 @@ def _plain(path, numeric, tolerance):  # shipped by value: the workers run this
 
 def test_a_file_over_the_timeout_is_stopped_and_the_others_finish(tmp_path):
     """The limit is relative to a reference run of the three quick files on a fresh local
-    cluster measured just before (its whole wall time, cluster start and stop included, twice
-    over, at least 8 s): a file's first run on a fresh worker imports the engines, which took
+    cluster measured just before (its whole wall time, cluster start and stop included, three
+    times over, at least 15 s): a file's first run on a fresh worker imports the engines, which took
     over 3 s at a load average of 11 on 2 cores, so a fixed limit failed the quick files
-    under load.  The stuck file still has to be stopped at the limit, far below its 600 s."""
+    under load, and 8 s (twice over) once failed a quick file when the load rose after the
+    reference.  The stuck file still has to be stopped at the limit, far below its 600 s."""
     reference = tmp_path / "reference"
     reference.mkdir()
     _few_files(reference, "slow")
     (reference / "slow.toml").unlink()
     started = time.monotonic()
     quick = cluster.run([str(reference)], RunOptions(numeric=False), "local:2", work=_plain)
-    limit = float(max(8, math.ceil(2.0 * (time.monotonic() - started))))
+    limit = float(max(15, math.ceil(3.0 * (time.monotonic() - started))))
     assert [f.verdict for f in quick.files] == ["pass"] * 3
     folder = tmp_path / "run"
     folder.mkdir()
