@@ -61,9 +61,9 @@ Regularisation rule (regularise.py), eps = ``pulse_ratio`` (default 1e-7)
     most the current atol times the smallest resistance at the node (a current through a
     milliohm switch resolved like an inductor current), at least 1e-14 V_scale.  Radau's
     error scale is atol + rtol |z| on the deviation z from the origin, except that a state
-    still moving from its start (|y| < |z|) is held to atol + rtol |y|, and that in the
-    settling tail (every |z| within 1e-2 of its largest value after the pulse) a state's
-    absolute tolerance is at least 1e-2 rtol times that value (integrate._step_tolerances).
+    still moving from its start (the largest |y| it has reached below |z|) is held to atol +
+    rtol times that value, and that every other state's absolute tolerance is at least 3e-2
+    rtol times its largest |z| after the pulse (integrate._step_tolerances, SWING_FLOOR).
 
 Initial state (initial.py)
     This engine's own DC solve of the ideal MNA system (refined in extended precision,
