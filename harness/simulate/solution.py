@@ -60,9 +60,8 @@ class NumericSolution(NotComputed):
         setup_seconds: wall time outside the integrator (building, DC solve).
         retry: builds this circuit's solution again, the same model at tighter tolerances
             (``engine.solve``), or None (``refined_resolution``).
-        factors: the DC factorisations the integration kept by matrix (linsolve.solve); the
-            pre-step operating point reuses its interval's (the same K_dc where the switch
-            states are the same).
+        factors: the DC factorisations the integration kept by matrix (linsolve.solve),
+            reused by the pre-step operating point (the same K_dc, the same switch states).
     """
 
     circuit: Circuit
