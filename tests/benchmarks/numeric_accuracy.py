@@ -24,6 +24,9 @@ run's tolerances are tightened until its error is at most the engine's:
 * the search, per grid: rtol and atol scaled together by decades from the engine's own (1e-7
   and its node atol) until the bare error is at most the engine's, then three bisections of
   the log of the factor between the last decade that failed and the first that passed.
+
+``--spans TITLE`` prints, for one circuit, the engine's and the equal-accuracy bare run's steps
+and largest errors per decade of time instead (where the steps go).
 """
 
 from __future__ import annotations
@@ -213,6 +216,7 @@ def prepare(circ) -> dict:
     case = {"circuit": circ, "jac": jac, "rhs": rhs, "t_end": t_end, "times": times,
             "ref": {k: at(t) for k, t in times.items()}, "rtol": sol.rtol,
             "atol": _node_atol(sol, names), "sparse": sp.issparse(jac), "n": rhs.size,
+            "names": names,
             "title": circ.title, "ref_check": ref_check(at, jac, rhs, t_end)}
     case["engine_err"] = {k: float(np.max(np.abs(engine_values(sol, names, t) - case["ref"][k])))
                           for k, t in times.items()}
@@ -299,11 +303,56 @@ def table(rows: list[dict]) -> str:
     return "\n".join(out + ["| " + " | ".join(b) + " |" for b in body])
 
 
+#: points of the span table's logarithmic grid (``spans``)
+SPAN_POINTS = 4000
+
+
+def spans(circ) -> str:
+    """Markdown table of where the steps go: per decade of time (s) from the pulse to the end
+    of the bare run, the engine's accepted steps and the bare run's at the whole grid's
+    equal-accuracy factor, and each run's largest error (V) over every capacitor node on
+    ``SPAN_POINTS`` log-spaced times (each through its own dense output)."""
+    case = prepare(circ)
+    sol = simulate.solve(circ)
+    f = case["factor"]["whole"]
+    f = f if math.isfinite(f) else 1.0
+    at, _ = reference(*hand_network(circ)[3:])
+    t = np.geomspace(10 * sol.regularisation.post_pulse, case["t_end"], SPAN_POINTS)
+    ref = at(t)
+    res = bare(case["jac"], case["rhs"], case["t_end"], case["rtol"] * f, case["atol"] * f,
+               dense_output=True)
+    err_e = np.max(np.abs(engine_values(sol, case["names"], t) - ref), axis=0)
+    err_b = np.max(np.abs(res.sol(t) - ref), axis=0)
+    s_e = sol.runs[0].s[1:]
+    edges = [0.0] + list(10.0 ** np.arange(-12, math.ceil(math.log10(s_e[-1])) + 1))
+    out = [f"{circ.title}: bare at x{f:.3g} (whole grid)",
+           "| span (s) | engine steps | engine largest error V | bare steps "
+           "| bare largest error V |",
+           "|---|---|---|---|---|"]
+    for a, b in zip(edges[:-1], edges[1:]):
+        ne = int(np.sum((s_e > a) & (s_e <= b)))
+        nb = int(np.sum((res.t[1:] > a) & (res.t[1:] <= b)))
+        inside = (t > a) & (t <= b)
+        if ne or nb:
+            ee = f"{err_e[inside].max():.1e}" if inside.any() else "-"
+            eb = f"{err_b[inside].max():.1e}" if inside.any() else "-"
+            out.append(f"| {a:.0e}-{b:.0e} | {ne} | {ee} | {nb} | {eb} |")
+    out.append(f"| total | {s_e.size} | {err_e.max():.1e} | {res.t.size - 1} "
+               f"| {err_b.max():.1e} |")
+    return "\n".join(out)
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__)
     parser.add_argument("--quick", action="store_true", help="smaller sizes")
+    parser.add_argument("--spans", metavar="TITLE",
+                        help="only the table of steps and errors per decade of time for the "
+                             "circuit of this title (e.g. 'random rc 100')")
     args = parser.parse_args(argv)
     warnings.simplefilter("ignore")
+    if args.spans:
+        print(spans(next(c for c in circuits(args.quick) if c.title == args.spans)))
+        return 0
     with open("/proc/loadavg", encoding="ascii") as fh:
         load0 = fh.read().strip()
     rows = measure(args.quick)
