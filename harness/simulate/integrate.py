@@ -26,9 +26,9 @@ later, after it has been larger (a floating capacitor's voltage on its way to a 
 value), is not moving from its start and keeps rtol |z|; and every other state's absolute
 tolerance is at least ``SWING_FLOOR`` rtol times its largest deviation after the pulse, so that
 a state whose deviation has decayed below that share of its swing no longer holds every step
-to rtol of what is left of it (on the 78-state random network of the benchmark, 236 of the
-engine's 580 steps were taken after 0.2 slowest time constants, where its error was 4-40x
-below its largest, against the bare Radau's 116 at equal accuracy).
+to rtol of what is left of it (on the 78-state random network of the benchmark, 239 of the
+engine's 580 steps were taken after 0.2 slowest time constants, against the bare Radau's 119
+at equal accuracy; from 2 time constants on its error was 10-40x below its largest).
 
 The runs are:
 
@@ -83,9 +83,9 @@ WINDOW_STEPS = 16
 #: the default rtol, over 300x below the engines' agreement floor (tolerances.ENGINE_FLOOR, 1e-6
 #: of the probe's scale) and the first-order fit's residual (features.FIT_RESIDUAL, 3e-6).
 #: Measured (tests/benchmarks/numeric_accuracy.py): the engine's largest error stays below a
-#: bare Radau's at the same tolerances on every circuit there (0.01 only in the settling tail,
-#: as before, left 80-130 steps of relative control per network; 0.1 doubled the largest error
-#: of the 235-state network)
+#: bare Radau's at the same tolerances on every circuit there (a floor of 1e-2 rtol only once
+#: every deviation was within 1e-2 of its swing left the 78-state network 523 steps, this one
+#: 488; 0.1 doubled the 235-state network's largest error)
 SWING_FLOOR = 3e-2
 #: steps allowed in one run (up to the next event, or the settling continuation)
 MAX_STEPS = 50000
