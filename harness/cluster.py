@@ -12,11 +12,10 @@ numerical engine runs, tasks for its extreme corners (``clusterparts``, which sa
 result is the bytes of a local run); its own task waits for them and is handed their values,
 so one heavy file spreads over the workers.
 
-Files are handed out heaviest first (``runner.heavy_first``).  A ``local:N`` cluster's workers are
-forked from this process once it has imported the engines (``_local_settings``), the cluster
-starts on a thread while the files are read and planned (``_connect``, with the garbage
-collector paused: ``_collector_paused``), and files are handed out once its workers have
-started (``_start``).
+Files are handed out heaviest first (``runner.heavy_first``).  A ``local:N`` cluster's workers
+fork from this process once it has the engines (``_local_settings``); the cluster starts on a
+thread while the files are planned (``_connect``, the collector paused: ``_collector_paused``);
+files are handed out once its workers have started (``_start``).
 
 Faults, as in a local run:
 
@@ -111,8 +110,8 @@ def run(paths: Iterable[str], options: RunOptions, address: str,
 
 @contextlib.contextmanager
 def _quiet_logs():
-    """The cluster's own log lines (a worker restarted, a connection closed) stay off stderr
-    while it runs: what matters reaches the user as a file's result."""
+    """Dask's own log lines (a worker restarted, a connection closed) stay off stderr while
+    the cluster runs: what matters reaches the user as a file's result."""
     logger = logging.getLogger("distributed")
     level = logger.level
     logger.setLevel(logging.CRITICAL)
@@ -125,8 +124,7 @@ def _quiet_logs():
 class _Silent(logging.Filter):
     """Drops every record: set on Dask's log handlers while a cluster closes behind the caller
     (``_close``), ``_quiet_logs`` having ended.  A filter, not a level: each close adds and
-    removes its own, whatever other threads do meanwhile, where a level saved and restored by
-    one thread can undo another's."""
+    removes its own, where a level saved and restored by one thread can undo another's."""
 
     def filter(self, record: logging.LogRecord) -> bool:
         return False
@@ -135,9 +133,8 @@ class _Silent(logging.Filter):
 def _local_settings() -> dict:
     """Dask settings of a ``local:N`` cluster, held while it runs (a worker restarted later
     starts the same way): the death bound; one file queued on a worker behind the one it runs
-    (``LOCAL_SATURATION``); worker processes forked from this one where the platform can fork
-    (they start with the engines this process imported, in ~0.1 s where a spawned one starts a
-    new interpreter and imports everything again: measured ``tests/benchmarks/cluster_bench.py``);
+    (``LOCAL_SATURATION``); workers forked from this process where the platform can fork (with
+    its engines, in ~0.1 s where a spawned one imports everything again: ``cluster_bench``);
     the event loops' needless wake-ups off (``QUIET_LOOPS``)."""
     import multiprocessing as mp
     method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
@@ -564,20 +561,23 @@ def _second_chance(run: _Run) -> None:
     """Run again, one at a time, every file whose worker died or whose task the cluster lost:
     a dying worker also takes the files it held beside the one that killed it, and a file run
     alone can only die of itself.  Its new result replaces the error; a file that fails again,
-    runs past the per-file limit or finds the cluster deserted (``_Run.deserted``) keeps it."""
+    runs past the limit or finds the cluster deserted (``_Run.deserted``) keeps it; the re-run
+    is cancelled however this ends (an interrupt too)."""
     options = run.options
     for i in [i for i, r in sorted(run.done.items())
               if r.errors and (_DIED in r.errors[0] or _LOST in r.errors[0])]:
         future = run.client.submit(run.work, run.files[i], options.numeric, options.tolerance,
                                    pure=False)
         end = time.monotonic() + (options.timeout or math.inf)
-        while future.status == "pending" and time.monotonic() < end and \
-                (run.joined() or not run.deserted()):
-            time.sleep(_POLL)
-        with contextlib.suppress(TimeoutError):     # its worker may leave before the gather
-            run.done[i] = future.result(timeout=WORKER_START_TIMEOUT) \
-                if future.status == "finished" else run.done[i]
-        run.client.cancel([future], force=True)
+        try:
+            while future.status == "pending" and time.monotonic() < end and \
+                    (run.joined() or not run.deserted()):
+                time.sleep(_POLL)
+            with contextlib.suppress(TimeoutError):     # its worker may leave before the gather
+                run.done[i] = future.result(timeout=WORKER_START_TIMEOUT) \
+                    if future.status == "finished" else run.done[i]
+        finally:
+            run.client.cancel([future], force=True)
 
 
 #: the words of a file result whose worker died, or whose task the cluster lost (``_outcome``):

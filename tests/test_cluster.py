@@ -430,6 +430,26 @@ def test_a_second_chance_on_a_deserted_cluster_keeps_the_error(monkeypatch):
     assert time.monotonic() - started < 5.0
 
 
+def test_an_interrupt_during_a_second_chance_cancels_the_re_run(monkeypatch):
+    """Ctrl-C while a file runs again alone: the re-run task is cancelled on the way out (on a
+    remote scheduler it would otherwise run on after the command has ended)."""
+    from harness.runner import _error_result
+    cancelled = []
+    future = types.SimpleNamespace(status="pending")
+    client = types.SimpleNamespace(submit=lambda *a, **k: future,
+                                   cancel=lambda futures, force: cancelled.extend(futures))
+    died = _error_result("a.toml", f"a.toml: {cluster._DIED} each time the cluster tried it")
+    run = types.SimpleNamespace(client=client, files=["a.toml"], options=RunOptions(),
+                                work=_plain, done={0: died}, deserted=lambda: False)
+
+    def interrupted():
+        raise KeyboardInterrupt
+    run.joined = interrupted
+    with pytest.raises(KeyboardInterrupt):
+        cluster._second_chance(run)
+    assert cancelled == [future] and run.done[0] is died
+
+
 def test_a_result_in_hand_is_kept_when_its_worker_has_left_since(tmp_path):
     """The client's event loop fetched a file's result (``as_completed(with_results=True)``),
     then the worker holding the result's data left: the future reads "lost" (pending again,
