@@ -69,9 +69,10 @@ LOCAL = "local:"
 class ClusterUnreachable(Exception):
     """The scheduler at ``address`` could not be reached (or a ``local:N`` cluster started)."""
 
-    def __init__(self, address: str, why: str, within: float = CONNECT_TIMEOUT) -> None:
-        super().__init__(f"cannot reach the cluster scheduler at {address} within "
-                         f"{within:g} s: {why}")
+    def __init__(self, address: str, why: str, within: float | None = CONNECT_TIMEOUT) -> None:
+        super().__init__(f"cannot start the cluster {address}: {why}" if within is None else
+                         f"cannot reach the cluster scheduler at {address} within {within:g} s: "
+                         f"{why}")
         self.address = address
 
 
@@ -269,8 +270,7 @@ def _start(address: str, numeric: bool):
     except RuntimeError as err:     # Dask: a local worker's nanny failed to start its process
         if not address.startswith(LOCAL):
             raise
-        raise ClusterUnreachable(address, f"its workers did not start ({err})",
-                                 WORKER_START_TIMEOUT) from None
+        raise ClusterUnreachable(address, f"its workers did not start ({err})", None) from None
     client.run(_preload, numeric)
     return client, None
 
@@ -351,12 +351,9 @@ def _fresh_offload_thread() -> None:
 
 
 def _gather(client, files: list[str], options: RunOptions, missing: list[FileResult],
-            work: Callable, plans: list | None = None) -> list[FileResult]:
+            work: Callable, plans: list) -> list[FileResult]:
     """Submit the files, collect their results as they finish (progress, deadlines).
-    ``plans``: each file's weight and Monte Carlo pieces (``clusterparts.plan``; read here
-    when not given)."""
-    if plans is None:
-        plans = [clusterparts.plan(f, options.tolerance, options.numeric) for f in files]
+    ``plans``: each file's weight and Monte Carlo pieces (``clusterparts.plan``)."""
     run = _Run(client, files, options, work, plans)
     try:
         while len(run.done) < len(files):
@@ -386,6 +383,7 @@ class _Task:
     index: int
     deadline: float
     pieces: list = field(default_factory=list)
+    cost: int = 1                    # the tasks it holds on the cluster: its own and its parts'
 
 
 class _Run:
@@ -401,13 +399,6 @@ class _Run:
         self.local = f"{LOCAL}{len(local.worker_spec)}" if local is not None else None
         self.unmanned = None             # since when (time.monotonic) no worker has been seen
         self.looked = -math.inf          # when the workers were last looked at
-        if self.limit and self.local:
-            # a file's clock starts when it is handed out: only once every worker has joined
-            try:
-                client.wait_for_workers(len(local.worker_spec), timeout=WORKER_START_TIMEOUT)
-            except TimeoutError:
-                raise ClusterUnreachable(self.local, "its workers did not start",
-                                         WORKER_START_TIMEOUT) from None
         # with a limit, tasks are handed out no faster than the cluster has threads
         self.window = max(1, sum(client.nthreads().values())) if self.limit else None
         self.done: dict[int, FileResult] = {}
@@ -453,7 +444,7 @@ class _Run:
     def hand_out(self) -> None:
         """Submit waiting files while the window allows (a file counts its pieces too; one
         file is always let through when nothing runs)."""
-        load = sum(1 + len(t.pieces) for t in self.running.values())
+        load = sum(t.cost for t in self.running.values())
         while self.pending:
             i = self.pending[0]
             plan = self.plans[i]
@@ -463,7 +454,7 @@ class _Run:
             self.pending.pop(0)
             future, pieces = self._submit(self.files[i], plan)
             deadline = time.monotonic() + self.limit if self.limit else float("inf")
-            self.running[future] = _Task(i, deadline, pieces)
+            self.running[future] = _Task(i, deadline, pieces, cost)
             self.finished.add(future)
             load += cost
 

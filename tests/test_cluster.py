@@ -126,7 +126,7 @@ def test_workers_forked_after_a_large_result_still_move_large_values():
     large value (its offload thread running) must not inherit a pool without its thread."""
     with cluster._connect("local:2", True) as started:
         client = started()
-        client.wait_for_workers(2)      # they join while the client goes on (``_start``)
+        assert len(client.nthreads()) == 2      # the start returns once both have joined
         assert client.submit(_large, LARGE, pure=False).result().size == LARGE
         client.restart_workers(list(client.nthreads()))
         first, second = sorted(client.nthreads())
@@ -304,9 +304,10 @@ def test_a_local_cluster_whose_workers_cannot_start_is_unreachable(tmp_path, mon
     monkeypatch.setattr(cluster, "dask_setup", _broken_setup)   # forked workers inherit it
     monkeypatch.setattr(cluster, "WORKER_START_TIMEOUT", 3.0)
     started = time.monotonic()
-    with pytest.raises(cluster.ClusterUnreachable, match="local:2 within 3 s: its workers did not"):
+    with pytest.raises(cluster.ClusterUnreachable,
+                       match="cannot start the cluster local:2: its workers did not start"):
         cluster.run([str(tmp_path)], RunOptions(numeric=False), "local:2", work=_plain)
-    assert time.monotonic() - started < 3.0 + 30
+    assert time.monotonic() - started < 30     # no wait for workers that cannot start
 
 
 def _pid_noted(path, numeric, tolerance):  # shipped by value: the workers run this

@@ -352,7 +352,7 @@ def dask_faults() -> dict:
     up to the death bound (each death a worker restart) before it is given up; the late task is
     cancelled and its worker restarted (``cluster._Run.expire``).  Seconds per death, and
     beyond the limit."""
-    from harness import cluster
+    from harness import cluster, clusterparts
     from harness.runner import RunOptions
     out = {}
     with cluster._connect("local:1", True) as ready:
@@ -364,7 +364,9 @@ def dask_faults() -> dict:
         client.submit(_fault, "ok", pure=False).result()
         out["die"] = (time.perf_counter() - start) / (cluster.LOCAL_ALLOWED_FAILURES + 1)
         start = time.perf_counter()
-        cluster._gather(client, ["sleep", "ok"], RunOptions(timeout=LIMIT), [], _late)
+        files = ["sleep", "ok"]
+        cluster._gather(client, files, RunOptions(timeout=LIMIT), [], _late,
+                        [clusterparts.plan(f, None, True) for f in files])
         client.submit(_fault, "ok", pure=False).result()   # the restarted worker is back
         out["sleep"] = time.perf_counter() - start - LIMIT
     return out
