@@ -107,7 +107,7 @@ def _commits(files: dict[str, Any]) -> dict[str, str]:
     resolved = [str(Path(f).resolve()) for f in files]
     queries = []
     for top, folder in firsts.items():
-        inside = [f for f in resolved if f.startswith(top)]
+        inside = [f for f in resolved if Path(f).is_relative_to(top)]   # not /x/repo2 for /x/repo
         queries += [(folder, ("rev-parse", "HEAD")), (top, ("status", "--porcelain", "--", *inside))]
     answers = _git_all(queries)
     out: dict[str, str] = {}
