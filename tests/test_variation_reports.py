@@ -138,7 +138,7 @@ spec = { tau = { max = "2 ms" } }
 def test_two_checks_that_share_their_words_keep_their_own_spreads(tmp_path):
     """Two expectations of one probe at one time: τ = RC = 1 ms nominal, 0.855-1.155 ms over
     R ±5 %, C ±10 % (the textbook worst case of a product, RC(1 ± a)(1 ± b)); about half the
-    uniform samples pass 1.0 ms, none pass 2 ms.  Each check takes the verdict of its own
+    uniform samples exceed 1.0 ms, none exceeds 2 ms.  Each check takes the verdict of its own
     spread, and the reports list a failing spread under its own check, even where the two
     spreads' words are made the same (the match is by the expectation's index)."""
     import dataclasses

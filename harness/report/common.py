@@ -207,6 +207,11 @@ def shown_fields(check: CheckResult) -> list[FieldResult]:
             if f.verdict != PASS or any(v is not None for v in (f.hand, f.closed_form, f.numeric))]
 
 
+#: the words that head a spec'd field failing over the parts' tolerances, before its summary
+#: (``spreads.summary``), in every report that lists it under its check
+FAILING_SPEC = "spec over the parts' tolerances"
+
+
 def failing_specs(file: FileResult, check: CheckResult) -> list[tuple[int, Any]]:
     """(index in ``file.spreads``, spread) of each spec'd field of ``check`` that does not pass
     over the parts' tolerances: the check's own fields may all pass while these fail it.

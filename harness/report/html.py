@@ -217,8 +217,7 @@ def _parts_table(parts: list[Mapping[str, str]]) -> str:
 def _spec_links(i: int, file: FileResult, check: CheckResult) -> list[str]:
     """A line per spec'd field of ``check`` that fails over the parts' tolerances, linked to
     its section (its numbers are there)."""
-    from . import spreads
-    return [f'spec over the parts\' tolerances: <a href="#{spreads.anchor(i, j)}">'
+    return [f'{common.FAILING_SPEC}: <a href="#{spreads.anchor(i, j)}">'
             f"{esc(spreads.summary(s))}</a>" for j, s in common.failing_specs(file, check)]
 
 

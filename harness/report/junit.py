@@ -97,7 +97,7 @@ def _suite(file: FileResult) -> ET.Element:
             continue
         tag = "error" if check.verdict == ERROR else "failure"
         failing, notes = common.split_messages(check)
-        specs = [f"spec over the parts' tolerances: {summary(s)}"
+        specs = [f"{common.FAILING_SPEC}: {summary(s)}"
                  for _, s in common.failing_specs(file, check)]
         messages = specs + failing + [f"note: {m}" for m in notes] or [check.verdict]
         ET.SubElement(case, tag, type=check.verdict,

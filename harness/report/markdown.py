@@ -151,7 +151,7 @@ def _check_section(check: CheckResult, plot: str | None, specs: list = ()) -> li
                    f"{escape(common.tolerance_text(field))} | {field.verdict} | {formula} |")
     out.append("")
     failing, notes = common.split_messages(check)
-    out += [f"- **spec over the parts' tolerances: {escape(spreads.summary(s))}** (its Spec "
+    out += [f"- **{common.FAILING_SPEC}: {escape(spreads.summary(s))}** (its Spec "
             "section is below)" for s in specs]
     out += [f"- **{escape(m)}**" if check.verdict != PASS else f"- {escape(m)}" for m in failing]
     out += [f"- note: {escape(m)}" for m in notes]
