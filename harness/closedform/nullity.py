@@ -37,15 +37,17 @@ import numpy as np
 
 from ..model import (CAPACITOR, CONTROLLED, INDUCTOR, KIND_SPECS, SWITCH, VOLTAGE_SOURCE,
                      Circuit, Part)
+from .linalg import equilibrate
 from .mna import find_root
 
 #: the smallest singular value of the equilibrated DC matrix, as a fraction of its largest,
-#: above which it is nonsingular: some 1e5 times the SVD's own error bound (~n·u) for the
-#: largest matrices certified; the Miller stages measured lie at 5e-7..5e-3
+#: above which it is nonsingular: ~2e3 times the SVD's own error bound (~n·u, 4.4e-14 at
+#: ``CERTIFY_MAX`` rows) for the largest matrices certified, far more for small ones; the
+#: Miller stages of tests/test_closedform_nullity.py measured at 5e-7..5e-3
 NONSINGULAR = 1e-10
 #: rows above which the certificate is not attempted (an SVD of the dense matrix)
 CERTIFY_MAX = 400
-#: rounds of power-of-two row and column equilibration (Ruiz's iteration)
+#: sweeps of power-of-two row and column equilibration (Ruiz's iteration, ``linalg.equilibrate``)
 EQUILIBRATE_ROUNDS = 20
 
 
@@ -99,18 +101,14 @@ def _cycle_rank(edges: list[Part]) -> int:
 
 def nonsingular(g: np.ndarray) -> bool:
     """Whether the square matrix ``g`` is provably nonsingular: equilibrated by powers of two
-    (``EQUILIBRATE_ROUNDS`` of Ruiz's row and column scaling, each factor rounded to a power of
-    two so no entry is rounded), its smallest singular value exceeds ``NONSINGULAR`` of its
-    largest (module docstring); False for a matrix over ``CERTIFY_MAX`` rows or not finite."""
+    (``linalg.equilibrate``, ``EQUILIBRATE_ROUNDS`` of Ruiz's sweeps, so no entry is rounded),
+    its smallest singular value exceeds ``NONSINGULAR`` of its largest (module docstring);
+    False for a matrix over ``CERTIFY_MAX`` rows, not finite, or with a zero row or column."""
     if g.shape[0] > CERTIFY_MAX or not np.all(np.isfinite(g)):
         return False
     a = np.array(g, dtype=float)
-    for _ in range(EQUILIBRATE_ROUNDS):
-        rows = np.max(np.abs(a), axis=1, initial=0.0)
-        cols = np.max(np.abs(a), axis=0, initial=0.0)
-        if not (np.all(rows > 0) and np.all(cols > 0)):
-            return False                # a zero row or column: singular
-        a = np.ldexp(a, -np.round(0.5 * np.log2(rows)).astype(int)[:, None])
-        a = np.ldexp(a, -np.round(0.5 * np.log2(cols)).astype(int)[None, :])
-    sigma = np.linalg.svd(a, compute_uv=False)
+    if not (np.all(np.any(a != 0, axis=1)) and np.all(np.any(a != 0, axis=0))):
+        return False                    # a zero row or column: singular
+    dr, dc = equilibrate(a, EQUILIBRATE_ROUNDS, pattern=None)
+    sigma = np.linalg.svd(dr[:, None] * a * dc, compute_uv=False)
     return bool(sigma[-1] > NONSINGULAR * sigma[0])

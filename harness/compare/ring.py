@@ -39,6 +39,11 @@ def _ring_values(ctx: CheckContext, fe: Features, name: str) -> tuple:
     return _ring_value(fe, name), _ring_value(numeric, name)
 
 
+def _step(fe: Features) -> float | None:
+    """The closed form's step x_inf - x(t_k+) of the probe (its unit), None without both."""
+    return fe.final - fe.after if fe.final is not None and fe.after is not None else None
+
+
 def _engine_ring_floor(name: str, fe: Features, ctx: CheckContext,
                        values: tuple, scale: float) -> float:
     """The floor of a ring field between the engines: 0 for f_d, ζ and Q; for the overshoot
@@ -51,7 +56,7 @@ def _engine_ring_floor(name: str, fe: Features, ctx: CheckContext,
     a 5.5 V excursion made an overshoot of 3e11 against 1e13)."""
     if name != "overshoot":
         return 0.0
-    step = abs(fe.final - fe.after) if fe.final is not None and fe.after is not None else 0.0
+    step = abs(_step(fe) or 0.0)
     if not step >= ctx.noise:
         return math.inf
     largest = max([abs(v) for v in values if isinstance(v, float)], default=0.0)
@@ -62,7 +67,7 @@ def _noise_step_message(fe: Features, ctx: CheckContext) -> str:
     """Why the overshoot of a probe whose step x_inf - x(t_k+) (closed form) is below its noise
     floor is not established: the overshoot is excursion over step, and the step is rounding,
     so its value (0 or 1e14 by the sign of that rounding) is no finding."""
-    step = fe.final - fe.after if fe.final is not None and fe.after is not None else None
+    step = _step(fe)
     unit = field_spec("after").unit_for(ctx.probe.dimension)
     shown = "none" if step is None else format_si(step, unit)
     return (f"no overshoot is defined: the probe has no step above its noise floor to settle "
@@ -80,8 +85,7 @@ def compare_ring(exp: Expectation, fe: Features, ctx: CheckContext, name: str) -
     hand, unit = exp.hand[name], field_spec(name).unit_for(exp.probe.dimension)
     floor = tol.ENGINE_FLOOR if name == "overshoot" else 0.0
     verdict, message = PASS, ""
-    noise_step = name == "overshoot" and \
-        _engine_ring_floor(name, fe, ctx, (), ctx.scale) == math.inf
+    noise_step = name == "overshoot" and not abs(_step(fe) or 0.0) >= ctx.noise
     if noise_step:
         computed = False              # a step below the noise floor: no engine verdict
     if computed and (closed is None) != (numeric is None) or (

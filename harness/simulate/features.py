@@ -13,10 +13,10 @@
   integration's own error in the probe, where that is larger), and never where d itself stays
   within that error (a flat line fits as well: a deviation the integration does not resolve
   establishes no time constant; the ``flat-response`` note says so and the comparator lets
-  the closed form's τ stand alone, saying why).  Where the fit fails
-  and the engine's own pencil shows one visible real mode, that mode's exponential is tested
-  against the same residual (``mode_fits``), on the same condition.  Otherwise the slowest time constant is the log-linear
-  slope of the last decade of the decay above the noise.
+  the closed form's τ stand alone, saying why).  Where the fit fails and the engine's own
+  pencil shows one visible real mode, that mode's exponential is tested against the same
+  residual (``mode_fits``), on the same condition.  Otherwise the slowest time constant is the
+  log-linear slope of the last decade of the decay above the noise.
 * jump: charge moved through a part in the pulse is the integral of its current over [0, s_a]
   (Gauss-Legendre on each integrator step of the dense output) minus the integral of its
   post-pulse polynomial over the same span (the non-impulsive part); for a capacitor it is
